@@ -1,0 +1,251 @@
+// Inversion of the Merton (1974) model for (V, sV). See include/firmcall/merton_solver.hpp.
+//
+// Newton in log variables x = ln V, y = ln sV on the scaled residuals
+//   F1 = C(V, sV)/E - 1,   F2 = N(d1) sV V / (sE E) - 1,
+// with the analytic Jacobian (d/dx = V d/dV, d/dy = sV d/dsV; dC/dV = N(d1), dC/dsV = V phi(d1) sqrt(T),
+// dd1/dV = 1/(V sV sqrt(T)), dd1/dsV = -d2/sV):
+//   dF1/dx = V N(d1)/E                       dF1/dy = V phi(d1) sV sqrt(T)/E
+//   dF2/dx = V (sV N(d1) + phi(d1)/sqrt(T))/(sE E)
+//   dF2/dy = sV V (N(d1) - phi(d1) d2)/(sE E)
+// Steps are capped, projected into the box that holds the unique solution, and halved until
+// |F|^2 decreases (backtracking).
+#include "firmcall/merton_solver.hpp"
+
+#include <algorithm>
+#include <boost/math/policies/policy.hpp>
+#include <boost/math/tools/roots.hpp>
+#include <boost/math/tools/toms748_solve.hpp>
+#include <cmath>
+#include <cstdint>
+#include <limits>
+
+#include "firmcall/normal.hpp"
+
+namespace firmcall {
+
+std::string_view to_string(SolveStatus status) noexcept {
+  switch (status) {
+    case SolveStatus::converged: return "converged";
+    case SolveStatus::max_iterations: return "max_iterations";
+    case SolveStatus::invalid_input: return "invalid_input";
+  }
+  return "";
+}
+
+std::string_view to_string(SolveMethod method) noexcept {
+  switch (method) {
+    case SolveMethod::none: return "none";
+    case SolveMethod::newton: return "newton";
+    case SolveMethod::bracketed: return "bracketed";
+  }
+  return "";
+}
+
+namespace {
+
+// The problem in the form the iterations use; fixed for one obligor.
+struct Problem {
+  double e;        // equity value E
+  double se;       // equity volatility sE
+  double k;        // discounted default point K = DP exp(-rT)
+  double log_k;    // ln K
+  double sqrt_t;   // sqrt(T)
+  double e_plus_k; // E + K, the scale of the equity residual
+};
+
+// Residuals and the pieces the Jacobian needs, at one (V, sV).
+struct Eval {
+  double f1, f2;  // scaled residuals (see file comment)
+  double v, sv, d1, d2, nd1;
+};
+
+inline Eval evaluate(const Problem& p, double x, double y) noexcept {
+  Eval ev;
+  ev.v = std::exp(x);
+  ev.sv = std::exp(y);
+  const double st = ev.sv * p.sqrt_t;
+  ev.d1 = (x - p.log_k) / st + 0.5 * st;
+  ev.d2 = ev.d1 - st;
+  double call;
+  if (ev.d2 > 0.0) {
+    // Call = (V - K) + put: accurate when the call is deep in the money.
+    const double sf1 = norm_sf(ev.d1);
+    ev.nd1 = 1.0 - sf1;
+    call = (ev.v - p.k) + (p.k * norm_sf(ev.d2) - ev.v * sf1);
+  } else {
+    ev.nd1 = norm_cdf(ev.d1);
+    call = ev.v * ev.nd1 - p.k * norm_cdf(ev.d2);
+  }
+  ev.f1 = call / p.e - 1.0;
+  ev.f2 = ev.nd1 * ev.sv * ev.v / (p.se * p.e) - 1.0;
+  return ev;
+}
+
+inline double residual_of(const Problem& p, const Eval& ev) noexcept {
+  return std::max(std::fabs(ev.f1) * p.e / p.e_plus_k, std::fabs(ev.f2));
+}
+
+inline double merit_of(const Eval& ev) noexcept { return ev.f1 * ev.f1 + ev.f2 * ev.f2; }
+
+using NoThrowPolicy = boost::math::policies::policy<
+    boost::math::policies::domain_error<boost::math::policies::ignore_error>,
+    boost::math::policies::evaluation_error<boost::math::policies::ignore_error>>;
+
+// Bracketed nested 1-D solve: for a given sV, V(sV) solves C(V, sV) = E on (E, E + K) (C is
+// increasing in V, C(E) < E < C(E + K)); then g(sV) = N(d1) sV V(sV) - sE E changes sign on
+// (sE E/(E + K), sE). Returns false if either level ran out of evaluations.
+bool solve_bracketed(const Problem& p, int max_evals, double& v_out, double& sv_out, int& evals) noexcept {
+  const auto tol = boost::math::tools::eps_tolerance<double>(std::numeric_limits<double>::digits - 2);
+  bool inner_ok = true;
+  const auto asset_value_for = [&](double sv) {
+    const double st = sv * p.sqrt_t;
+    const auto f = [&](double v) {
+      const double d1 = (std::log(v) - p.log_k) / st + 0.5 * st;
+      const double d2 = d1 - st;
+      if (d2 > 0.0) return (v - p.k) + (p.k * norm_sf(d2) - v * norm_sf(d1)) - p.e;
+      return v * norm_cdf(d1) - p.k * norm_cdf(d2) - p.e;
+    };
+    const double lo = p.e;
+    const double hi = p.e_plus_k;
+    const double flo = f(lo);
+    const double fhi = f(hi);
+    if (!(flo < 0.0)) return lo;  // call price rounds to V: the root is at the lower end
+    if (!(fhi > 0.0)) return hi;
+    std::uintmax_t it = static_cast<std::uintmax_t>(max_evals);
+    const auto r = boost::math::tools::toms748_solve(f, lo, hi, flo, fhi, tol, it, NoThrowPolicy());
+    evals += static_cast<int>(it);
+    if (it >= static_cast<std::uintmax_t>(max_evals)) inner_ok = false;
+    return 0.5 * (r.first + r.second);
+  };
+  const auto g = [&](double sv) {
+    const double v = asset_value_for(sv);
+    const double st = sv * p.sqrt_t;
+    const double d1 = (std::log(v) - p.log_k) / st + 0.5 * st;
+    return norm_cdf(d1) * sv * v / (p.se * p.e) - 1.0;
+  };
+  const double lo = p.se * p.e / p.e_plus_k;
+  const double hi = p.se;
+  const double glo = g(lo);
+  const double ghi = g(hi);
+  double sv;
+  if (!(glo < 0.0)) {
+    sv = lo;
+  } else if (!(ghi > 0.0)) {
+    sv = hi;
+  } else {
+    std::uintmax_t it = static_cast<std::uintmax_t>(max_evals);
+    const auto r = boost::math::tools::toms748_solve(g, lo, hi, glo, ghi, tol, it, NoThrowPolicy());
+    evals += static_cast<int>(it);
+    if (it >= static_cast<std::uintmax_t>(max_evals)) return false;
+    sv = 0.5 * (r.first + r.second);
+  }
+  v_out = asset_value_for(sv);
+  sv_out = sv;
+  return inner_ok;
+}
+
+}  // namespace
+
+double solve_residual(const MertonInputs& in, double asset_value, double asset_vol_annual) noexcept {
+  const double k = in.default_point * std::exp(-in.risk_free_rate_cc * in.horizon_years);
+  const Problem p{in.equity_value, in.equity_vol_annual, k, std::log(k), std::sqrt(in.horizon_years),
+                  in.equity_value + k};
+  return residual_of(p, evaluate(p, std::log(asset_value), std::log(asset_vol_annual)));
+}
+
+AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& options) noexcept {
+  AssetSolution out;
+  out.input_check = validate(in);
+  if (!out.input_check.ok()) return out;
+
+  const double k = in.default_point * std::exp(-in.risk_free_rate_cc * in.horizon_years);
+  const Problem p{in.equity_value, in.equity_vol_annual, k, std::log(k), std::sqrt(in.horizon_years),
+                  in.equity_value + k};
+
+  // Box holding the unique solution, in log variables.
+  const double x_lo = std::log(p.e);
+  const double x_hi = std::log(p.e_plus_k);
+  const double y_lo = std::log(p.se * p.e / p.e_plus_k);
+  const double y_hi = std::log(p.se);
+
+  double x = x_hi;
+  double y = y_lo;
+  Eval ev = evaluate(p, x, y);
+  double merit = merit_of(ev);
+  int iterations = 0;
+  constexpr double kMaxStep = 2.0;     // cap on a Newton step in log units
+  constexpr double kStepFloor = 1e-13; // a step this small means the next would be below rounding
+  constexpr int kMaxHalvings = 60;
+
+  while (iterations < options.max_newton_iterations && merit > 0.0) {
+    ++iterations;
+    const double sqrt_t = p.sqrt_t;
+    const double phi = norm_pdf(ev.d1);
+    const double inv_e = 1.0 / p.e;
+    const double inv_see = 1.0 / (p.se * p.e);
+    const double j11 = ev.v * ev.nd1 * inv_e;
+    const double j12 = ev.v * phi * ev.sv * sqrt_t * inv_e;
+    const double j21 = ev.v * (ev.sv * ev.nd1 + phi / sqrt_t) * inv_see;
+    const double j22 = ev.sv * ev.v * (ev.nd1 - phi * ev.d2) * inv_see;
+    const double det = j11 * j22 - j12 * j21;
+    double dx = (-ev.f1 * j22 + ev.f2 * j12) / det;
+    double dy = (-ev.f2 * j11 + ev.f1 * j21) / det;
+    if (!std::isfinite(dx) || !std::isfinite(dy)) break;
+    const double big = std::max(std::fabs(dx), std::fabs(dy));
+    if (big > kMaxStep) {
+      dx *= kMaxStep / big;
+      dy *= kMaxStep / big;
+    }
+    // Backtracking line search on |F|^2, projected into the box.
+    double lambda = 1.0;
+    bool moved = false;
+    double taken = 0.0;
+    for (int h = 0; h < kMaxHalvings; ++h, lambda *= 0.5) {
+      const double xt = std::clamp(x + lambda * dx, x_lo, x_hi);
+      const double yt = std::clamp(y + lambda * dy, y_lo, y_hi);
+      if (xt == x && yt == y) break;
+      const Eval et = evaluate(p, xt, yt);
+      const double mt = merit_of(et);
+      if (mt < merit) {
+        taken = std::max(std::fabs(xt - x), std::fabs(yt - y));
+        x = xt;
+        y = yt;
+        ev = et;
+        merit = mt;
+        moved = true;
+        break;
+      }
+    }
+    if (!moved || taken < kStepFloor) break;  // at the rounding floor
+  }
+
+  out.iterations = iterations;
+  out.residual = residual_of(p, ev);
+  if (out.residual <= options.residual_tolerance) {
+    out.asset_value = ev.v;
+    out.asset_vol_annual = ev.sv;
+    out.status = SolveStatus::converged;
+    out.method = SolveMethod::newton;
+    return out;
+  }
+
+  // Fallback: bracketed nested 1-D solve.
+  double v = 0.0;
+  double sv = 0.0;
+  int evals = 0;
+  const bool ok = solve_bracketed(p, options.max_fallback_iterations, v, sv, evals);
+  out.iterations = iterations + evals;
+  out.method = SolveMethod::bracketed;
+  const Eval eb = evaluate(p, std::log(v), std::log(sv));
+  out.residual = residual_of(p, eb);
+  if (ok && out.residual <= options.residual_tolerance) {
+    out.asset_value = v;
+    out.asset_vol_annual = sv;
+    out.status = SolveStatus::converged;
+  } else {
+    out.status = SolveStatus::max_iterations;
+  }
+  return out;
+}
+
+}  // namespace firmcall
