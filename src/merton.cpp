@@ -9,13 +9,20 @@ namespace firmcall {
 
 std::string_view to_string(MertonField field) noexcept {
   switch (field) {
-    case MertonField::none: return "";
-    case MertonField::equity_value: return "market_cap";
-    case MertonField::equity_vol: return "equity_vol";
-    case MertonField::default_point: return "default_point";
-    case MertonField::rate: return "rate";
-    case MertonField::horizon: return "horizon";
-    case MertonField::drift: return "drift";
+    case MertonField::none:
+      return "";
+    case MertonField::equity_value:
+      return "market_cap";
+    case MertonField::equity_vol:
+      return "equity_vol";
+    case MertonField::default_point:
+      return "default_point";
+    case MertonField::rate:
+      return "rate";
+    case MertonField::horizon:
+      return "horizon";
+    case MertonField::drift:
+      return "drift";
   }
   return "";
 }

@@ -25,18 +25,24 @@ namespace firmcall {
 
 std::string_view to_string(SolveStatus status) noexcept {
   switch (status) {
-    case SolveStatus::converged: return "converged";
-    case SolveStatus::max_iterations: return "max_iterations";
-    case SolveStatus::invalid_input: return "invalid_input";
+    case SolveStatus::converged:
+      return "converged";
+    case SolveStatus::max_iterations:
+      return "max_iterations";
+    case SolveStatus::invalid_input:
+      return "invalid_input";
   }
   return "";
 }
 
 std::string_view to_string(SolveMethod method) noexcept {
   switch (method) {
-    case SolveMethod::none: return "none";
-    case SolveMethod::newton: return "newton";
-    case SolveMethod::bracketed: return "bracketed";
+    case SolveMethod::none:
+      return "none";
+    case SolveMethod::newton:
+      return "newton";
+    case SolveMethod::bracketed:
+      return "bracketed";
   }
   return "";
 }
@@ -45,12 +51,12 @@ namespace {
 
 // The problem in the form the iterations use; fixed for one obligor.
 struct Problem {
-  double e;        // equity value E
-  double se;       // equity volatility sE
-  double k;        // discounted default point K = DP exp(-rT)
-  double log_k;    // ln K
-  double sqrt_t;   // sqrt(T)
-  double e_plus_k; // E + K, the scale of the equity residual
+  double e;         // equity value E
+  double se;        // equity volatility sE
+  double k;         // discounted default point K = DP exp(-rT)
+  double log_k;     // ln K
+  double sqrt_t;    // sqrt(T)
+  double e_plus_k;  // E + K, the scale of the equity residual
 };
 
 // Residuals and the pieces the Jacobian needs, at one (V, sV).
@@ -85,7 +91,9 @@ inline double residual_of(const Problem& p, const Eval& ev) noexcept {
   return std::max(std::fabs(ev.f1) * p.e / p.e_plus_k, std::fabs(ev.f2));
 }
 
-inline double merit_of(const Eval& ev) noexcept { return ev.f1 * ev.f1 + ev.f2 * ev.f2; }
+inline double merit_of(const Eval& ev) noexcept {
+  return ev.f1 * ev.f1 + ev.f2 * ev.f2;
+}
 
 using NoThrowPolicy = boost::math::policies::policy<
     boost::math::policies::domain_error<boost::math::policies::ignore_error>,
@@ -148,8 +156,8 @@ bool solve_bracketed(const Problem& p, int max_evals, double& v_out, double& sv_
 
 double solve_residual(const MertonInputs& in, double asset_value, double asset_vol_annual) noexcept {
   const double k = in.default_point * std::exp(-in.risk_free_rate_cc * in.horizon_years);
-  const Problem p{in.equity_value, in.equity_vol_annual, k, std::log(k), std::sqrt(in.horizon_years),
-                  in.equity_value + k};
+  const Problem p{in.equity_value, in.equity_vol_annual,        k,
+                  std::log(k),     std::sqrt(in.horizon_years), in.equity_value + k};
   return residual_of(p, evaluate(p, std::log(asset_value), std::log(asset_vol_annual)));
 }
 
@@ -159,8 +167,8 @@ AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& opti
   if (!out.input_check.ok()) return out;
 
   const double k = in.default_point * std::exp(-in.risk_free_rate_cc * in.horizon_years);
-  const Problem p{in.equity_value, in.equity_vol_annual, k, std::log(k), std::sqrt(in.horizon_years),
-                  in.equity_value + k};
+  const Problem p{in.equity_value, in.equity_vol_annual,        k,
+                  std::log(k),     std::sqrt(in.horizon_years), in.equity_value + k};
 
   // Box holding the unique solution, in log variables.
   const double x_lo = std::log(p.e);
@@ -173,8 +181,8 @@ AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& opti
   Eval ev = evaluate(p, x, y);
   double merit = merit_of(ev);
   int iterations = 0;
-  constexpr double kMaxStep = 2.0;     // cap on a Newton step in log units
-  constexpr double kStepFloor = 1e-13; // a step this small means the next would be below rounding
+  constexpr double kMaxStep = 2.0;      // cap on a Newton step in log units
+  constexpr double kStepFloor = 1e-13;  // a step this small means the next would be below rounding
   constexpr int kMaxHalvings = 60;
 
   while (iterations < options.max_newton_iterations && merit > 0.0) {

@@ -13,7 +13,9 @@ struct ReferenceSolution {
   long double asset_vol;
 };
 
-inline long double ref_ncdf(long double x) { return 0.5L * erfcl(-x / sqrtl(2.0L)); }
+inline long double ref_ncdf(long double x) {
+  return 0.5L * erfcl(-x / sqrtl(2.0L));
+}
 
 // Call price C(V) - E, with the in-the-money form (V - K) + put when d2 > 0.
 inline long double ref_call_gap(long double v, long double sv, long double e, long double k, long double t) {
@@ -25,12 +27,15 @@ inline long double ref_call_gap(long double v, long double sv, long double e, lo
 }
 
 inline long double ref_asset_value(long double sv, long double e, long double k, long double t) {
-  long double lo = e;  // C(E) < E
+  long double lo = e;      // C(E) < E
   long double hi = e + k;  // C(E + K) > E
   for (int i = 0; i < 200 && lo < hi; ++i) {
     const long double mid = 0.5L * (lo + hi);
     if (mid <= lo || mid >= hi) break;
-    if (ref_call_gap(mid, sv, e, k, t) < 0) lo = mid; else hi = mid;
+    if (ref_call_gap(mid, sv, e, k, t) < 0)
+      lo = mid;
+    else
+      hi = mid;
   }
   return 0.5L * (lo + hi);
 }
@@ -50,7 +55,10 @@ inline ReferenceSolution reference_solve(double e_in, double se_in, double dp_in
   for (int i = 0; i < 200 && lo < hi; ++i) {
     const long double mid = 0.5L * (lo + hi);
     if (mid <= lo || mid >= hi) break;
-    if (g(mid) < 0) lo = mid; else hi = mid;
+    if (g(mid) < 0)
+      lo = mid;
+    else
+      hi = mid;
   }
   const long double sv = 0.5L * (lo + hi);
   return {ref_asset_value(sv, e, k, t), sv};

@@ -30,15 +30,7 @@ struct MertonInputs {
 };
 
 /// Which input of MertonInputs broke its constraint (none when valid).
-enum class MertonField : std::uint8_t {
-  none,
-  equity_value,
-  equity_vol,
-  default_point,
-  rate,
-  horizon,
-  drift
-};
+enum class MertonField : std::uint8_t { none, equity_value, equity_vol, default_point, rate, horizon, drift };
 
 /// Result of validate(): the first broken constraint, with a static message.
 struct MertonInputCheck {

@@ -28,7 +28,7 @@
 namespace firmcall {
 
 struct MertonSolveOptions {
-  int max_newton_iterations = 60;  ///< damped Newton steps before the bracketed fallback
+  int max_newton_iterations = 60;     ///< damped Newton steps before the bracketed fallback
   int max_fallback_iterations = 200;  ///< TOMS 748 evaluations per 1-D level in the fallback
   /// A solution is accepted ("converged") when
   ///   max(|E_model - E| / (E + K), |N(d1) sV V / (sE E) - 1|) <= residual_tolerance.

@@ -10,16 +10,22 @@
 
 namespace firmcall {
 
-inline constexpr double kInvSqrt2 = 0.70710678118654752440;   ///< 1/sqrt(2)
+inline constexpr double kInvSqrt2 = 0.70710678118654752440;    ///< 1/sqrt(2)
 inline constexpr double kInvSqrt2Pi = 0.39894228040143267794;  ///< 1/sqrt(2*pi)
 
 /// Standard normal density phi(x) = exp(-x^2/2)/sqrt(2*pi).
-inline double norm_pdf(double x) noexcept { return kInvSqrt2Pi * std::exp(-0.5 * x * x); }
+inline double norm_pdf(double x) noexcept {
+  return kInvSqrt2Pi * std::exp(-0.5 * x * x);
+}
 
 /// Standard normal distribution function N(x) = P(Z <= x), accurate in relative terms for x << 0.
-inline double norm_cdf(double x) noexcept { return 0.5 * std::erfc(-x * kInvSqrt2); }
+inline double norm_cdf(double x) noexcept {
+  return 0.5 * std::erfc(-x * kInvSqrt2);
+}
 
 /// Upper tail N(-x) = P(Z > x), accurate in relative terms for x >> 0 (never computed as 1 - N(x)).
-inline double norm_sf(double x) noexcept { return 0.5 * std::erfc(x * kInvSqrt2); }
+inline double norm_sf(double x) noexcept {
+  return 0.5 * std::erfc(x * kInvSqrt2);
+}
 
 }  // namespace firmcall

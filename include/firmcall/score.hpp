@@ -1,0 +1,73 @@
+// Scoring a book: resolve each obligor's inputs, solve the Merton model, derive the measures, and
+// write them in one of the output formats. Streaming for CSV input (memory stays flat as the
+// file grows), threaded with a deterministic output order.
+#pragma once
+
+#include <cstdint>
+#include <cstdio>
+#include <functional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "firmcall/merton.hpp"
+#include "firmcall/merton_solver.hpp"
+#include "firmcall/obligor.hpp"
+#include "firmcall/obligor_io.hpp"
+#include "firmcall/settings.hpp"
+
+namespace firmcall {
+
+/// Outcome of one obligor.
+enum class RowStatus : std::uint8_t { ok, invalid_input, not_converged };
+std::string_view to_string(RowStatus s) noexcept;
+
+/// Everything known about one scored obligor.
+struct ScoredObligor {
+  RowStatus status = RowStatus::invalid_input;
+  ResolvedObligor resolved;
+  AssetSolution solution;
+  MertonMeasures measures;
+  std::string message;  ///< why status is not ok ("line 7: field 'equity_vol': ..."); empty when ok
+};
+
+/// Resolves, solves and measures one obligor. Never throws for bad values: they become
+/// status invalid_input with a message naming the field.
+void score_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
+                   ScoredObligor& out);
+
+/// Output formats.
+enum class OutputFormat { table, csv, json };
+
+/// Counts for the closing summary.
+struct ScoreSummary {
+  std::size_t total = 0;
+  std::size_t scored = 0;
+  std::size_t invalid = 0;
+  std::size_t not_converged = 0;
+  std::size_t newton_iterations = 0;  ///< summed over scored obligors (mean = this / scored)
+  std::vector<std::string> problems;  ///< "file:line: obligor 'id': message", the first few
+  std::size_t problems_not_listed = 0;
+  std::vector<std::string> notes;  ///< e.g. unused columns
+  std::size_t failed() const noexcept { return invalid + not_converged; }
+};
+
+/// Where the output text goes (a file, stdout, or a string in tests).
+using TextSink = std::function<void(std::string_view)>;
+
+struct ScoreRunOptions {
+  OutputFormat format = OutputFormat::csv;
+  unsigned threads = 1;  ///< worker threads (>= 1); output order is the input order
+  std::size_t max_listed_problems = 20;
+  std::size_t chunk_bytes = 4 << 20;  ///< CSV streaming: bytes read per step
+};
+
+/// Scores a book already in memory (YAML, or a small CSV).
+ScoreSummary score_book(const Book& book, const ScoreSettings& settings, const ScoreRunOptions& run,
+                        const TextSink& sink);
+
+/// Scores a CSV file streaming from `in`; `origin` names it in messages.
+ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const ScoreSettings& settings,
+                              const ScoreRunOptions& run, const TextSink& sink);
+
+}  // namespace firmcall

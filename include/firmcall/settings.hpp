@@ -1,0 +1,62 @@
+// Run settings: the defaults shipped in config/firmcall.yaml, and the per-run overrides the
+// command line adds. The built-in values below equal the shipped file (a test checks it).
+#pragma once
+
+#include <optional>
+#include <string>
+#include <string_view>
+
+#include "firmcall/merton_solver.hpp"
+
+namespace firmcall {
+
+/// Which drift the distance to default uses: physical (the obligor's drift, default the rate)
+/// or risk-neutral (drift = rate, so pd equals pd_risk_neutral).
+enum class Measure { physical, risk_neutral };
+std::string_view to_string(Measure m) noexcept;
+std::optional<Measure> measure_from_string(std::string_view s) noexcept;
+
+/// Settings for scoring one book.
+struct ScoreSettings {
+  double default_point_weight = 0.5;  ///< DP = short_term_debt + w * long_term_debt (common practice)
+  double horizon_years = 1.0;         ///< used when neither obligor nor book gives a horizon
+  Measure measure = Measure::physical;
+  double default_lgd = 0.45;     ///< senior unsecured, common practice (Basel foundation IRB)
+  double max_equity_vol = 10.0;  ///< larger inputs are taken as percentages typed by mistake
+  MertonSolveOptions solver;
+  // Command-line overrides: when set they win over every file value.
+  std::optional<double> rate_override;
+  std::optional<double> horizon_override;
+  std::optional<double> weight_override;
+};
+
+/// Settings of the stress command (see stress.hpp).
+struct StressSettings {
+  double pd_threshold = 0.05;  ///< obligors with stressed PD above this are counted per scenario
+};
+
+/// Settings of the history estimators.
+struct HistorySettings {
+  int min_observations = 120;            ///< shortest usable equity history (common practice)
+  double trading_days_per_year = 252.0;  ///< annualisation of daily returns
+  double ewma_decay = 0.94;              ///< lambda of the exponentially weighted variance (common practice)
+  double iteration_tolerance = 1e-8;     ///< stop when |sV_new - sV_old| falls below this
+  int max_iterations = 200;              ///< iterative method budget
+  double confidence_level = 0.95;        ///< two-sided level of reported intervals
+};
+
+/// Everything in a configuration file.
+struct Config {
+  ScoreSettings score;
+  StressSettings stress;
+  HistorySettings history;
+};
+
+/// Reads a configuration file; unknown keys and bad values are errors (InputError naming the
+/// file and key). Keys not present keep the built-in defaults.
+Config load_config(const std::string& path);
+
+/// Parses configuration text (the same rules); `origin` names it in messages.
+Config parse_config(const std::string& yaml_text, const std::string& origin);
+
+}  // namespace firmcall

@@ -1,0 +1,113 @@
+// `firmcall score BOOK`: the main job.
+#include <cstdio>
+#include <iostream>
+#include <memory>
+#include <thread>
+
+#include "commands.hpp"
+#include "firmcall/errors.hpp"
+#include "firmcall/obligor_io.hpp"
+#include "firmcall/output_file.hpp"
+#include "firmcall/score.hpp"
+
+namespace firmcall::cli {
+
+namespace {
+struct ScoreCli {
+  std::string book;
+  std::string format = "table";
+  std::string output;
+  std::optional<double> rate;
+  std::optional<double> horizon;
+  std::optional<double> weight;
+  std::string measure;
+  unsigned threads = 0;
+};
+
+struct FileCloser {
+  void operator()(std::FILE* f) const { std::fclose(f); }
+};
+}  // namespace
+
+unsigned default_threads() {
+  return std::max(1U, std::thread::hardware_concurrency());
+}
+
+void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+  auto opts = std::make_shared<ScoreCli>();
+  CLI::App* cmd =
+      app.add_subcommand("score", "Score every obligor of a book (YAML or CSV) with the Merton model");
+  cmd->add_option("book", opts->book, "Obligor book: .yaml/.yml or .csv")->required();
+  cmd->add_option("-f,--format", opts->format, "Output format: table (for people), csv or json")
+      ->check(CLI::IsMember({"table", "csv", "json"}));
+  cmd->add_option("-o,--output", opts->output, "Write here instead of standard output (all or nothing)");
+  cmd->add_option("--rate", opts->rate, "Risk-free rate for every obligor, continuously compounded decimal");
+  cmd->add_option("--horizon", opts->horizon, "Horizon in years for every obligor")
+      ->check(CLI::PositiveNumber);
+  cmd->add_option("--default-point-weight", opts->weight,
+                  "Weight of long-term debt in the default point (default 0.5, common practice)")
+      ->check(CLI::Range(0.0, 1.0));
+  cmd->add_option("--measure", opts->measure,
+                  "physical (drift from the book, default the rate) or risk-neutral")
+      ->check(CLI::IsMember({"physical", "risk-neutral"}));
+  cmd->add_option("-j,--threads", opts->threads, "Worker threads (default: all cores)")
+      ->check(CLI::Range(1, 1024));
+  cmd->footer(
+      std::string("\nExit codes: 0 every obligor scored; 1 some obligors invalid or not converged "
+                  "(the others are scored); 2 unreadable or malformed file or bad command line.\n\n") +
+      kCaution);
+
+  cmd->callback([opts, &global, &run]() {
+    run = [opts, &global]() -> int {
+      Config config = global.config();
+      ScoreSettings settings = config.score;
+      settings.rate_override = opts->rate;
+      settings.horizon_override = opts->horizon;
+      settings.weight_override = opts->weight;
+      if (!opts->measure.empty()) settings.measure = *measure_from_string(opts->measure);
+      if (opts->rate && (*opts->rate < -1.0 || *opts->rate > 1.0)) {
+        throw InputError("--rate: expected a continuously compounded decimal in [-1, 1] (0.03 means 3%)");
+      }
+      ScoreRunOptions runopts;
+      runopts.format = opts->format == "csv"    ? OutputFormat::csv
+                       : opts->format == "json" ? OutputFormat::json
+                                                : OutputFormat::table;
+      runopts.threads = opts->threads > 0 ? opts->threads : default_threads();
+
+      const BookFormat fmt = book_format_of(opts->book);
+      ScoreSummary summary;
+      {
+        OutputFile out(opts->output);
+        const TextSink sink = [&out](std::string_view s) { out.write(s); };
+        if (fmt == BookFormat::csv) {
+          std::unique_ptr<std::FILE, FileCloser> in(std::fopen(opts->book.c_str(), "rb"));
+          if (!in) throw InputError("cannot open file '" + opts->book + "'");
+          summary = score_csv_stream(in.get(), opts->book, settings, runopts, sink);
+        } else {
+          summary = score_book(load_book(opts->book), settings, runopts, sink);
+        }
+        out.commit();
+      }
+      if (!global.quiet) {
+        for (const auto& n : summary.notes) std::cerr << "firmcall: " << n << "\n";
+        if (runopts.format != OutputFormat::table) {
+          for (const auto& p : summary.problems) std::cerr << "firmcall: " << p << "\n";
+          if (summary.problems_not_listed > 0) {
+            std::cerr << "firmcall: ... and " << summary.problems_not_listed << " more (column message)\n";
+          }
+        }
+        if (runopts.format != OutputFormat::table || !opts->output.empty()) {
+          std::cerr << "firmcall: scored " << summary.scored << " of " << summary.total << " obligors";
+          if (summary.failed() > 0) {
+            std::cerr << " (" << summary.invalid << " invalid input, " << summary.not_converged
+                      << " not converged)";
+          }
+          std::cerr << "\n";
+        }
+      }
+      return summary.failed() > 0 ? kExitRowsFailed : kExitOk;
+    };
+  });
+}
+
+}  // namespace firmcall::cli

@@ -1,0 +1,171 @@
+#include "firmcall/csv.hpp"
+
+#include <algorithm>
+#include <charconv>
+#include <cmath>
+#include <cstring>
+
+#include "firmcall/errors.hpp"
+
+namespace firmcall {
+
+namespace {
+std::string_view trim(std::string_view s) noexcept {
+  while (!s.empty() && (s.front() == ' ' || s.front() == '\t')) s.remove_prefix(1);
+  while (!s.empty() && (s.back() == ' ' || s.back() == '\t')) s.remove_suffix(1);
+  return s;
+}
+}  // namespace
+
+std::size_t split_csv_record(std::string_view text, std::vector<std::string_view>& fields,
+                             std::string& scratch, bool& unterminated) {
+  fields.clear();
+  unterminated = false;
+  scratch.clear();
+  if (scratch.capacity() < text.size()) scratch.reserve(std::min<std::size_t>(text.size(), 1 << 20));
+  const char* p = text.data();
+  const char* const end = p + text.size();
+  while (true) {
+    if (p < end && *p == '"') {
+      // Quoted field.
+      ++p;
+      const char* start = p;
+      bool escaped = false;
+      while (true) {
+        const char* q = static_cast<const char*>(std::memchr(p, '"', static_cast<std::size_t>(end - p)));
+        if (q == nullptr) {
+          unterminated = true;
+          fields.emplace_back(start, static_cast<std::size_t>(end - start));
+          return text.size();
+        }
+        if (q + 1 < end && q[1] == '"') {
+          escaped = true;
+          p = q + 2;
+          continue;
+        }
+        p = q + 1;
+        std::string_view raw(start, static_cast<std::size_t>(q - start));
+        if (escaped) {
+          if (scratch.capacity() - scratch.size() < raw.size()) {
+            // Rare: very long escaped field; fall back to the raw text (still readable).
+            fields.push_back(raw);
+          } else {
+            const std::size_t at = scratch.size();
+            for (std::size_t i = 0; i < raw.size(); ++i) {
+              scratch.push_back(raw[i]);
+              if (raw[i] == '"') ++i;
+            }
+            fields.emplace_back(scratch.data() + at, scratch.size() - at);
+          }
+        } else {
+          fields.push_back(raw);
+        }
+        // Skip anything between the closing quote and the separator (tolerated, e.g. spaces).
+        while (p < end && *p != ',' && *p != '\n' && *p != '\r') ++p;
+        break;
+      }
+    } else {
+      const char* start = p;
+      while (p < end && *p != ',' && *p != '\n' && *p != '\r') ++p;
+      fields.emplace_back(start, static_cast<std::size_t>(p - start));
+    }
+    if (p >= end) return text.size();
+    if (*p == ',') {
+      ++p;
+      continue;
+    }
+    // Line end.
+    if (*p == '\r') ++p;
+    if (p < end && *p == '\n') ++p;
+    return static_cast<std::size_t>(p - text.data());
+  }
+}
+
+std::size_t last_record_end(std::string_view text) noexcept {
+  bool in_quotes = false;
+  std::size_t last = 0;
+  for (std::size_t i = 0; i < text.size(); ++i) {
+    const char c = text[i];
+    if (c == '"') {
+      in_quotes = !in_quotes;
+    } else if (c == '\n' && !in_quotes) {
+      last = i + 1;
+    }
+  }
+  return last;
+}
+
+std::size_t count_lines(std::string_view text) noexcept {
+  return static_cast<std::size_t>(std::count(text.begin(), text.end(), '\n'));
+}
+
+bool parse_number(std::string_view cell, double& value) noexcept {
+  cell = trim(cell);
+  if (cell.empty()) return false;
+  if (cell.front() == '+') cell.remove_prefix(1);
+  const auto r = std::from_chars(cell.data(), cell.data() + cell.size(), value, std::chars_format::general);
+  return r.ec == std::errc() && r.ptr == cell.data() + cell.size() && std::isfinite(value);
+}
+
+CsvColumns CsvColumns::from_header(const std::vector<std::string_view>& header, const std::string& origin) {
+  CsvColumns cols;
+  bool seen_num[kNumFieldCount] = {};
+  bool seen_text[kTextFieldCount] = {};
+  for (std::size_t i = 0; i < header.size(); ++i) {
+    Column c;
+    c.name = std::string(trim(header[i]));
+    if (c.name.empty()) {
+      throw InputError(located(origin, 1, "header: column " + std::to_string(i + 1) + " has no name"));
+    }
+    if (field_from_string(c.name, c.num, c.text)) {
+      bool& seen =
+          c.num ? seen_num[static_cast<std::size_t>(*c.num)] : seen_text[static_cast<std::size_t>(*c.text)];
+      if (seen) throw InputError(located(origin, 1, "header: column '" + c.name + "' appears twice"));
+      seen = true;
+    } else {
+      cols.unused.push_back(c.name);
+    }
+    cols.columns.push_back(std::move(c));
+  }
+  if (!seen_text[static_cast<std::size_t>(TextField::id)]) {
+    throw InputError(located(origin, 1, "header: required column 'id' is missing"));
+  }
+  if (!seen_num[static_cast<std::size_t>(NumField::market_cap)] &&
+      !(seen_num[static_cast<std::size_t>(NumField::share_price)] &&
+        seen_num[static_cast<std::size_t>(NumField::shares_outstanding)])) {
+    throw InputError(located(
+        origin, 1,
+        "header: required column 'market_cap' (or 'share_price' with 'shares_outstanding') is missing"));
+  }
+  if (!seen_num[static_cast<std::size_t>(NumField::equity_vol)]) {
+    throw InputError(located(origin, 1, "header: required column 'equity_vol' is missing"));
+  }
+  return cols;
+}
+
+void parse_obligor_fields(const std::vector<std::string_view>& fields, const CsvColumns& cols,
+                          ObligorRecord& rec) {
+  const std::size_t n = std::min(fields.size(), cols.columns.size());
+  for (std::size_t i = 0; i < n; ++i) {
+    const CsvColumns::Column& c = cols.columns[i];
+    if (c.text) {
+      rec.get(*c.text).assign(trim(fields[i]));
+    } else if (c.num) {
+      const std::string_view cell = trim(fields[i]);
+      if (cell.empty()) continue;
+      double v = 0.0;
+      if (parse_number(cell, v)) {
+        rec.set(*c.num, v);
+      } else if (rec.read_error.empty()) {
+        rec.read_error = "field '" + c.name + "': expected a finite decimal number such as 0.35, got '" +
+                         std::string(cell.substr(0, 40)) + "'";
+      }
+    }
+  }
+  if (fields.size() != cols.columns.size() && rec.read_error.empty()) {
+    rec.read_error = "row has " + std::to_string(fields.size()) + " fields, the header has " +
+                     std::to_string(cols.columns.size());
+  }
+}
+
+}  // namespace firmcall

@@ -1,0 +1,291 @@
+#include "firmcall/output.hpp"
+
+#include <charconv>
+#include <cmath>
+#include <cstdio>
+
+namespace firmcall {
+
+void append_number(std::string& out, double v) {
+  if (!std::isfinite(v)) return;
+  char buf[40];
+  const auto r = std::to_chars(buf, buf + sizeof buf, v, std::chars_format::general, 17);
+  out.append(buf, r.ptr);
+}
+
+void append_csv_text(std::string& out, std::string_view s) {
+  if (s.find_first_of(",\"\r\n") == std::string_view::npos) {
+    out.append(s);
+    return;
+  }
+  out.push_back('"');
+  for (char c : s) {
+    if (c == '"') out.push_back('"');
+    out.push_back(c);
+  }
+  out.push_back('"');
+}
+
+void append_json_string(std::string& out, std::string_view s) {
+  out.push_back('"');
+  for (char c : s) {
+    const auto u = static_cast<unsigned char>(c);
+    switch (c) {
+      case '"':
+        out += "\\\"";
+        break;
+      case '\\':
+        out += "\\\\";
+        break;
+      case '\n':
+        out += "\\n";
+        break;
+      case '\r':
+        out += "\\r";
+        break;
+      case '\t':
+        out += "\\t";
+        break;
+      default:
+        if (u < 0x20) {
+          char buf[8];
+          std::snprintf(buf, sizeof buf, "\\u%04x", u);
+          out += buf;
+        } else {
+          out.push_back(c);
+        }
+    }
+  }
+  out.push_back('"');
+}
+
+void append_json_number(std::string& out, double v) {
+  if (!std::isfinite(v)) {
+    out += "null";
+    return;
+  }
+  append_number(out, v);
+}
+
+const std::vector<std::string_view>& score_columns() {
+  static const std::vector<std::string_view> cols = {"id",          "name",
+                                                     "status",      "equity_value",
+                                                     "equity_vol",  "default_point",
+                                                     "rate",        "horizon",
+                                                     "asset_value", "asset_vol",
+                                                     "leverage",    "distance_to_default",
+                                                     "pd",          "pd_risk_neutral",
+                                                     "debt_value",  "spread_bp",
+                                                     "iterations",  "residual",
+                                                     "message"};
+  return cols;
+}
+
+namespace {
+
+// Values of the numeric columns in score_columns() order (equity_value .. residual, minus status).
+struct NumericRow {
+  double v[14];
+  bool scored;
+};
+
+NumericRow numeric_row(const ScoredObligor& s) {
+  NumericRow r{};
+  const bool resolved = s.resolved.ok();
+  const MertonInputs& in = s.resolved.inputs;
+  const double nan = std::nan("");
+  r.scored = s.status == RowStatus::ok;
+  r.v[0] = resolved ? in.equity_value : nan;
+  r.v[1] = resolved ? in.equity_vol_annual : nan;
+  r.v[2] = resolved ? in.default_point : nan;
+  r.v[3] = resolved ? in.risk_free_rate_cc : nan;
+  r.v[4] = resolved ? in.horizon_years : nan;
+  const MertonMeasures& m = s.measures;
+  const double vals[] = {m.asset_value, m.asset_vol_annual, m.leverage,   m.distance_to_default,
+                         m.pd,          m.pd_risk_neutral,  m.debt_value, m.spread_bp};
+  for (int i = 0; i < 8; ++i) r.v[5 + i] = r.scored ? vals[i] : nan;
+  r.v[13] = nan;
+  return r;
+}
+
+class CsvWriter final : public ScoreWriter {
+ public:
+  void begin(std::string& out) const override {
+    bool first = true;
+    for (auto c : score_columns()) {
+      if (!first) out.push_back(',');
+      out.append(c);
+      first = false;
+    }
+    out.push_back('\n');
+  }
+  void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
+    append_csv_text(out, rec.get(TextField::id));
+    out.push_back(',');
+    append_csv_text(out, rec.get(TextField::name));
+    out.push_back(',');
+    out.append(to_string(s.status));
+    const NumericRow r = numeric_row(s);
+    for (int i = 0; i < 13; ++i) {
+      out.push_back(',');
+      append_number(out, r.v[i]);
+    }
+    out.push_back(',');
+    if (s.solution.residual >= 0.0) {
+      char buf[16];
+      const auto res = std::to_chars(buf, buf + sizeof buf, s.solution.iterations);
+      out.append(buf, res.ptr);
+    }
+    out.push_back(',');
+    if (s.solution.residual >= 0.0) append_number(out, s.solution.residual);
+    out.push_back(',');
+    append_csv_text(out, s.message);
+    out.push_back('\n');
+  }
+  void end(const ScoreSummary&, std::string&) const override {}
+};
+
+class JsonWriter final : public ScoreWriter {
+ public:
+  JsonWriter(std::string origin, const ScoreSettings& settings)
+      : origin_(std::move(origin)), settings_(settings) {}
+  void begin(std::string& out) const override {
+    out += "{\n  \"run\": {\"input\": ";
+    append_json_string(out, origin_);
+    out += ", \"measure\": ";
+    append_json_string(out, to_string(settings_.measure));
+    out += ", \"default_point_weight\": ";
+    append_json_number(out, settings_.weight_override.value_or(settings_.default_point_weight));
+    out += "},\n  \"obligors\": [\n";
+  }
+  std::string_view separator() const override { return ",\n"; }
+  void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
+    const auto& cols = score_columns();
+    out += "    {\"id\": ";
+    append_json_string(out, rec.get(TextField::id));
+    out += ", \"name\": ";
+    append_json_string(out, rec.get(TextField::name));
+    out += ", \"status\": ";
+    append_json_string(out, to_string(s.status));
+    const NumericRow r = numeric_row(s);
+    for (int i = 0; i < 13; ++i) {
+      out += ", \"";
+      out += cols[3 + static_cast<std::size_t>(i)];
+      out += "\": ";
+      append_json_number(out, r.v[i]);
+    }
+    out += ", \"iterations\": ";
+    if (s.solution.residual >= 0.0) {
+      out += std::to_string(s.solution.iterations);
+      out += ", \"residual\": ";
+      append_json_number(out, s.solution.residual);
+    } else {
+      out += "null, \"residual\": null";
+    }
+    out += ", \"message\": ";
+    append_json_string(out, s.message);
+    out += "}";
+  }
+  void end(const ScoreSummary& sum, std::string& out) const override {
+    out += "\n  ],\n  \"summary\": {\"obligors\": " + std::to_string(sum.total) +
+           ", \"scored\": " + std::to_string(sum.scored) +
+           ", \"invalid_input\": " + std::to_string(sum.invalid) +
+           ", \"not_converged\": " + std::to_string(sum.not_converged) + "}\n}\n";
+  }
+
+ private:
+  std::string origin_;
+  ScoreSettings settings_;
+};
+
+// Fixed-width text for people: 116 columns.
+class TableWriter final : public ScoreWriter {
+ public:
+  void begin(std::string& out) const override {
+    char buf[256];
+    std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7s %12s %6s %7s %10s %10s  %s\n", "obligor", "name",
+                  "asset value", "asset", "default", "DP/V", "DD", "PD", "spread", "status");
+    out += buf;
+    std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7s %12s %6s %7s %10s %10s  %s\n", "", "", "", "vol %",
+                  "point", "", "", "%", "bp", "");
+    out += buf;
+    out += std::string(115, '-') + "\n";
+  }
+  void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
+    char buf[320];
+    const std::string id = fit(rec.get(TextField::id), 12);
+    const std::string name = fit(rec.get(TextField::name), 18);
+    if (s.status != RowStatus::ok) {
+      std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7s %12s %6s %7s %10s %10s  %s\n", id.c_str(),
+                    name.c_str(), "-", "-", "-", "-", "-", "-", "-",
+                    std::string(to_string(s.status)).c_str());
+      out += buf;
+      return;
+    }
+    const MertonMeasures& m = s.measures;
+    std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7.2f %12s %6.3f %7.3f %10s %10s  %s\n", id.c_str(),
+                  name.c_str(), amount(m.asset_value).c_str(), 100.0 * m.asset_vol_annual,
+                  amount(m.default_point).c_str(), m.leverage, m.distance_to_default,
+                  small(100.0 * m.pd, 4).c_str(), small(m.spread_bp, 2).c_str(), "ok");
+    out += buf;
+  }
+  void end(const ScoreSummary& sum, std::string& out) const override {
+    out += std::string(115, '-') + "\n";
+    out += "scored " + std::to_string(sum.scored) + " of " + std::to_string(sum.total) + " obligors";
+    if (sum.failed() > 0) {
+      out += "; " + std::to_string(sum.invalid) + " invalid input, " + std::to_string(sum.not_converged) +
+             " not converged (reasons below)";
+    }
+    out += "\n";
+    for (const auto& p : sum.problems) out += "  " + p + "\n";
+    if (sum.problems_not_listed > 0) {
+      out += "  ... and " + std::to_string(sum.problems_not_listed) +
+             " more (see --format csv, column message)\n";
+    }
+    out += "Model estimates under the Merton assumptions; not a credit decision on their own.\n";
+  }
+
+ private:
+  static std::string fit(const std::string& s, std::size_t w) {
+    if (s.size() <= w) return s;
+    return s.substr(0, w - 1) + "~";
+  }
+  static std::string amount(double v) {
+    char buf[64];
+    if (std::fabs(v) < 1e11) {
+      std::snprintf(buf, sizeof buf, "%.2f", v);
+    } else {
+      std::snprintf(buf, sizeof buf, "%.4e", v);
+    }
+    return buf;
+  }
+  // Fixed decimals while readable, scientific for tiny values (e.g. far-tail PDs).
+  static std::string small(double v, int decimals) {
+    char buf[64];
+    if (v == 0.0) {
+      std::snprintf(buf, sizeof buf, "0");
+    } else if (std::fabs(v) >= std::pow(10.0, -decimals + 1) && std::fabs(v) < 1e7) {
+      std::snprintf(buf, sizeof buf, "%.*f", decimals, v);
+    } else {
+      std::snprintf(buf, sizeof buf, "%.2e", v);
+    }
+    return buf;
+  }
+};
+
+}  // namespace
+
+std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
+                                               const ScoreSettings& settings) {
+  switch (format) {
+    case OutputFormat::csv:
+      return std::make_unique<CsvWriter>();
+    case OutputFormat::json:
+      return std::make_unique<JsonWriter>(origin, settings);
+    case OutputFormat::table:
+      return std::make_unique<TableWriter>();
+  }
+  return std::make_unique<CsvWriter>();
+}
+
+}  // namespace firmcall

@@ -1,0 +1,126 @@
+#include "firmcall/settings.hpp"
+
+#include <cmath>
+
+#include "firmcall/errors.hpp"
+#include "yaml_util.hpp"
+
+namespace firmcall {
+
+std::string_view to_string(Measure m) noexcept {
+  return m == Measure::physical ? "physical" : "risk-neutral";
+}
+
+std::optional<Measure> measure_from_string(std::string_view s) noexcept {
+  if (s == "physical") return Measure::physical;
+  if (s == "risk-neutral") return Measure::risk_neutral;
+  return std::nullopt;
+}
+
+namespace {
+
+using detail::yaml_check_keys;
+using detail::yaml_line;
+using detail::yaml_number;
+
+double positive(const YAML::Node& n, const std::string& origin, std::string_view key) {
+  const double v = yaml_number(n, origin, key);
+  if (!(v > 0.0)) {
+    throw InputError(located(origin, yaml_line(n), "key '" + std::string(key) + "': must be positive"));
+  }
+  return v;
+}
+
+double in_unit_interval(const YAML::Node& n, const std::string& origin, std::string_view key, bool open) {
+  const double v = yaml_number(n, origin, key);
+  if (v < 0.0 || v > 1.0 || (open && (v == 0.0 || v == 1.0))) {
+    throw InputError(located(origin, yaml_line(n),
+                             "key '" + std::string(key) + "': must lie in " + (open ? "(0, 1)" : "[0, 1]")));
+  }
+  return v;
+}
+
+int positive_int(const YAML::Node& n, const std::string& origin, std::string_view key) {
+  const double v = positive(n, origin, key);
+  if (v != std::floor(v) || v > 1e9) {
+    throw InputError(located(origin, yaml_line(n), "key '" + std::string(key) + "': must be a whole number"));
+  }
+  return static_cast<int>(v);
+}
+
+}  // namespace
+
+Config parse_config(const std::string& text, const std::string& origin) {
+  Config c;
+  const YAML::Node root = detail::yaml_load(text, origin);
+  if (root.IsNull()) return c;
+  yaml_check_keys(root, {"scoring", "solver", "stress", "history"}, origin, "configuration");
+  if (const auto s = root["scoring"]) {
+    yaml_check_keys(s, {"default_point_weight", "horizon", "measure", "default_lgd", "max_equity_vol"},
+                    origin, "scoring");
+    if (s["default_point_weight"]) {
+      c.score.default_point_weight =
+          in_unit_interval(s["default_point_weight"], origin, "default_point_weight", false);
+    }
+    if (s["horizon"]) c.score.horizon_years = positive(s["horizon"], origin, "horizon");
+    if (s["measure"]) {
+      const auto m = measure_from_string(detail::yaml_string(s["measure"], origin, "measure"));
+      if (!m) {
+        throw InputError(
+            located(origin, yaml_line(s["measure"]), "key 'measure': expected physical or risk-neutral"));
+      }
+      c.score.measure = *m;
+    }
+    if (s["default_lgd"])
+      c.score.default_lgd = in_unit_interval(s["default_lgd"], origin, "default_lgd", false);
+    if (s["max_equity_vol"]) c.score.max_equity_vol = positive(s["max_equity_vol"], origin, "max_equity_vol");
+  }
+  if (const auto s = root["solver"]) {
+    yaml_check_keys(s, {"max_newton_iterations", "max_fallback_iterations", "residual_tolerance"}, origin,
+                    "solver");
+    if (s["max_newton_iterations"]) {
+      c.score.solver.max_newton_iterations =
+          positive_int(s["max_newton_iterations"], origin, "max_newton_iterations");
+    }
+    if (s["max_fallback_iterations"]) {
+      c.score.solver.max_fallback_iterations =
+          positive_int(s["max_fallback_iterations"], origin, "max_fallback_iterations");
+    }
+    if (s["residual_tolerance"]) {
+      c.score.solver.residual_tolerance = positive(s["residual_tolerance"], origin, "residual_tolerance");
+    }
+  }
+  if (const auto s = root["stress"]) {
+    yaml_check_keys(s, {"pd_threshold"}, origin, "stress");
+    if (s["pd_threshold"])
+      c.stress.pd_threshold = in_unit_interval(s["pd_threshold"], origin, "pd_threshold", true);
+  }
+  if (const auto s = root["history"]) {
+    yaml_check_keys(s,
+                    {"min_observations", "trading_days_per_year", "ewma_decay", "iteration_tolerance",
+                     "max_iterations", "confidence_level"},
+                    origin, "history");
+    if (s["min_observations"]) {
+      c.history.min_observations = positive_int(s["min_observations"], origin, "min_observations");
+    }
+    if (s["trading_days_per_year"]) {
+      c.history.trading_days_per_year = positive(s["trading_days_per_year"], origin, "trading_days_per_year");
+    }
+    if (s["ewma_decay"]) c.history.ewma_decay = in_unit_interval(s["ewma_decay"], origin, "ewma_decay", true);
+    if (s["iteration_tolerance"]) {
+      c.history.iteration_tolerance = positive(s["iteration_tolerance"], origin, "iteration_tolerance");
+    }
+    if (s["max_iterations"])
+      c.history.max_iterations = positive_int(s["max_iterations"], origin, "max_iterations");
+    if (s["confidence_level"]) {
+      c.history.confidence_level = in_unit_interval(s["confidence_level"], origin, "confidence_level", true);
+    }
+  }
+  return c;
+}
+
+Config load_config(const std::string& path) {
+  return parse_config(detail::read_text_file(path), path);
+}
+
+}  // namespace firmcall
