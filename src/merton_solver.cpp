@@ -1,7 +1,8 @@
 // Inversion of the Merton (1974) model for (V, sV). See include/firmcall/merton_solver.hpp.
 //
-// Newton in log variables x = ln V, y = ln sV on the scaled residuals
+// Newton in log variables x = ln(V/K), y = ln sV on the scaled residuals
 //   F1 = C(V, sV)/E - 1,   F2 = N(d1) sV V / (sE E) - 1,
+// (x is measured from ln K so that ln(V/K), and with it d1, stays exact when V is close to K),
 // with the analytic Jacobian (d/dx = V d/dV, d/dy = sV d/dsV; dC/dV = N(d1), dC/dsV = V phi(d1) sqrt(T),
 // dd1/dV = 1/(V sV sqrt(T)), dd1/dsV = -d2/sV):
 //   dF1/dx = V N(d1)/E                       dF1/dy = V phi(d1) sV sqrt(T)/E
@@ -54,7 +55,6 @@ struct Problem {
   double e;         // equity value E
   double se;        // equity volatility sE
   double k;         // discounted default point K = DP exp(-rT)
-  double log_k;     // ln K
   double sqrt_t;    // sqrt(T)
   double e_plus_k;  // E + K, the scale of the equity residual
 };
@@ -65,19 +65,20 @@ struct Eval {
   double v, sv, d1, d2, nd1;
 };
 
+// x = ln(V/K), y = ln sV.
 inline Eval evaluate(const Problem& p, double x, double y) noexcept {
   Eval ev;
-  ev.v = std::exp(x);
+  ev.v = p.k * std::exp(x);
   ev.sv = std::exp(y);
   const double st = ev.sv * p.sqrt_t;
-  ev.d1 = (x - p.log_k) / st + 0.5 * st;
+  ev.d1 = x / st + 0.5 * st;
   ev.d2 = ev.d1 - st;
   double call;
   if (ev.d2 > 0.0) {
-    // Call = (V - K) + put: accurate when the call is deep in the money.
+    // Call = (V - K) + put, with V - K = K expm1(x): accurate when the call is deep in the money.
     const double sf1 = norm_sf(ev.d1);
     ev.nd1 = 1.0 - sf1;
-    call = (ev.v - p.k) + (p.k * norm_sf(ev.d2) - ev.v * sf1);
+    call = p.k * std::expm1(x) + (p.k * norm_sf(ev.d2) - ev.v * sf1);
   } else {
     ev.nd1 = norm_cdf(ev.d1);
     call = ev.v * ev.nd1 - p.k * norm_cdf(ev.d2);
@@ -100,21 +101,24 @@ using NoThrowPolicy = boost::math::policies::policy<
     boost::math::policies::evaluation_error<boost::math::policies::ignore_error>>;
 
 // Bracketed nested 1-D solve: for a given sV, V(sV) solves C(V, sV) = E on (E, E + K) (C is
-// increasing in V, C(E) < E < C(E + K)); then g(sV) = N(d1) sV V(sV) - sE E changes sign on
-// (sE E/(E + K), sE). Returns false if either level ran out of evaluations.
-bool solve_bracketed(const Problem& p, int max_evals, double& v_out, double& sv_out, int& evals) noexcept {
+// increasing in V, C(E) < E < C(E + K)), searched as x = ln(V/K) on [x_lo, x_hi]; then
+// g(sV) = N(d1) sV V(sV) - sE E changes sign on (sE E/(E + K), sE). Returns false if either
+// level ran out of evaluations; x_out is ln(V/K) at the solution.
+bool solve_bracketed(const Problem& p, double x_lo, double x_hi, int max_evals, double& x_out, double& sv_out,
+                     int& evals) noexcept {
   const auto tol = boost::math::tools::eps_tolerance<double>(std::numeric_limits<double>::digits - 2);
   bool inner_ok = true;
-  const auto asset_value_for = [&](double sv) {
+  const auto log_moneyness_for = [&](double sv) {
     const double st = sv * p.sqrt_t;
-    const auto f = [&](double v) {
-      const double d1 = (std::log(v) - p.log_k) / st + 0.5 * st;
+    const auto f = [&](double x) {
+      const double d1 = x / st + 0.5 * st;
       const double d2 = d1 - st;
-      if (d2 > 0.0) return (v - p.k) + (p.k * norm_sf(d2) - v * norm_sf(d1)) - p.e;
+      const double v = p.k * std::exp(x);
+      if (d2 > 0.0) return p.k * std::expm1(x) + (p.k * norm_sf(d2) - v * norm_sf(d1)) - p.e;
       return v * norm_cdf(d1) - p.k * norm_cdf(d2) - p.e;
     };
-    const double lo = p.e;
-    const double hi = p.e_plus_k;
+    const double lo = x_lo;
+    const double hi = x_hi;
     const double flo = f(lo);
     const double fhi = f(hi);
     if (!(flo < 0.0)) return lo;  // call price rounds to V: the root is at the lower end
@@ -126,10 +130,10 @@ bool solve_bracketed(const Problem& p, int max_evals, double& v_out, double& sv_
     return 0.5 * (r.first + r.second);
   };
   const auto g = [&](double sv) {
-    const double v = asset_value_for(sv);
+    const double x = log_moneyness_for(sv);
     const double st = sv * p.sqrt_t;
-    const double d1 = (std::log(v) - p.log_k) / st + 0.5 * st;
-    return norm_cdf(d1) * sv * v / (p.se * p.e) - 1.0;
+    const double d1 = x / st + 0.5 * st;
+    return norm_cdf(d1) * sv * p.k * std::exp(x) / (p.se * p.e) - 1.0;
   };
   const double lo = p.se * p.e / p.e_plus_k;
   const double hi = p.se;
@@ -147,7 +151,7 @@ bool solve_bracketed(const Problem& p, int max_evals, double& v_out, double& sv_
     if (it >= static_cast<std::uintmax_t>(max_evals)) return false;
     sv = 0.5 * (r.first + r.second);
   }
-  v_out = asset_value_for(sv);
+  x_out = log_moneyness_for(sv);
   sv_out = sv;
   return inner_ok;
 }
@@ -156,9 +160,8 @@ bool solve_bracketed(const Problem& p, int max_evals, double& v_out, double& sv_
 
 double solve_residual(const MertonInputs& in, double asset_value, double asset_vol_annual) noexcept {
   const double k = in.default_point * std::exp(-in.risk_free_rate_cc * in.horizon_years);
-  const Problem p{in.equity_value, in.equity_vol_annual,        k,
-                  std::log(k),     std::sqrt(in.horizon_years), in.equity_value + k};
-  return residual_of(p, evaluate(p, std::log(asset_value), std::log(asset_vol_annual)));
+  const Problem p{in.equity_value, in.equity_vol_annual, k, std::sqrt(in.horizon_years), in.equity_value + k};
+  return residual_of(p, evaluate(p, std::log(asset_value / k), std::log(asset_vol_annual)));
 }
 
 AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& options) noexcept {
@@ -167,12 +170,13 @@ AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& opti
   if (!out.input_check.ok()) return out;
 
   const double k = in.default_point * std::exp(-in.risk_free_rate_cc * in.horizon_years);
-  const Problem p{in.equity_value, in.equity_vol_annual,        k,
-                  std::log(k),     std::sqrt(in.horizon_years), in.equity_value + k};
+  const Problem p{in.equity_value, in.equity_vol_annual, k, std::sqrt(in.horizon_years), in.equity_value + k};
 
-  // Box holding the unique solution, in log variables.
-  const double x_lo = std::log(p.e);
-  const double x_hi = std::log(p.e_plus_k);
+  // Box holding the unique solution, in log variables: x = ln(V/K) in [ln(E/K), ln(1 + E/K)].
+  const double e_over_k = p.e / k;
+  const double x_lo =
+      std::isfinite(e_over_k) && e_over_k > 0.0 ? std::log(e_over_k) : std::log(p.e) - std::log(k);
+  const double x_hi = std::isfinite(e_over_k) ? std::log1p(e_over_k) : x_lo + std::log1p(k / p.e);
   const double y_lo = std::log(p.se * p.e / p.e_plus_k);
   const double y_hi = std::log(p.se);
 
@@ -238,16 +242,16 @@ AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& opti
   }
 
   // Fallback: bracketed nested 1-D solve.
-  double v = 0.0;
+  double xb = 0.0;
   double sv = 0.0;
   int evals = 0;
-  const bool ok = solve_bracketed(p, options.max_fallback_iterations, v, sv, evals);
+  const bool ok = solve_bracketed(p, x_lo, x_hi, options.max_fallback_iterations, xb, sv, evals);
   out.iterations = iterations + evals;
   out.method = SolveMethod::bracketed;
-  const Eval eb = evaluate(p, std::log(v), std::log(sv));
+  const Eval eb = evaluate(p, xb, std::log(sv));
   out.residual = residual_of(p, eb);
   if (ok && out.residual <= options.residual_tolerance) {
-    out.asset_value = v;
+    out.asset_value = eb.v;
     out.asset_vol_annual = sv;
     out.status = SolveStatus::converged;
   } else {

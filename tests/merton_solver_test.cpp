@@ -1,0 +1,126 @@
+// Tests of the Merton inversion against an independent long-double reference solver
+// (tests/reference_solver.hpp: nested bisection), over realistic and extreme inputs.
+#include <doctest/doctest.h>
+
+#include <algorithm>
+#include <cmath>
+
+#include "firmcall/merton_solver.hpp"
+#include "reference_solver.hpp"
+#include "test_util.hpp"
+
+using namespace firmcall;
+
+namespace {
+double rel(double x, long double ref) {
+  return std::fabs(static_cast<double>((x - ref) / ref));
+}
+}  // namespace
+
+TEST_CASE("default options pass and the solver reports its method") {
+  const MertonSolveOptions o;
+  CHECK(o.max_newton_iterations > 0);
+  CHECK(o.residual_tolerance > 0);
+  CHECK(to_string(SolveStatus::converged) == "converged");
+  CHECK(to_string(SolveMethod::bracketed) == "bracketed");
+}
+
+TEST_CASE("generated obligors agree with the long-double reference within 1e-9 (2,000 obligors)") {
+  double worst = 0.0;
+  long iterations = 0;
+  const auto book = testing::generated_obligors(2000, 20261201);
+  for (const MertonInputs& in : book) {
+    const AssetSolution s = solve_asset(in);
+    REQUIRE(s.usable());
+    const auto ref = testing::reference_solve(in.equity_value, in.equity_vol_annual, in.default_point,
+                                              in.risk_free_rate_cc, in.horizon_years);
+    const double e = std::max(rel(s.asset_value, ref.asset_value), rel(s.asset_vol_annual, ref.asset_vol));
+    worst = std::max(worst, e);
+    iterations += s.iterations;
+    CHECK(e <= 1e-9);
+  }
+  MESSAGE("generated: worst relative error vs reference = " << worst << ", mean iterations = "
+                                                            << double(iterations) / 2000.0);
+  // Budget: realistic obligors need few Newton steps from the start V0 = E + K.
+  CHECK(double(iterations) / 2000.0 < 8.0);
+}
+
+TEST_CASE("extreme grid: every valid input is solved, exact to 1e-10 against the reference") {
+  // The range: DP/E 1e-4..1e4, equity vol 1%..300%, horizon one week..30 years, rate -2%..20%.
+  const double leverage[] = {1e-4, 1e-3, 1e-2, 0.1, 0.5, 1, 2, 10, 100, 1e3, 1e4};
+  const double vols[] = {0.01, 0.05, 0.2, 0.5, 1.0, 2.0, 3.0};
+  const double horizons[] = {1.0 / 52, 0.25, 1, 5, 30};
+  const double rates[] = {-0.02, 0.0, 0.05, 0.20};
+  int n = 0, solved = 0;
+  double worst = 0.0, worst_residual = 0.0;
+  for (double lev : leverage)
+    for (double se : vols)
+      for (double t : horizons)
+        for (double r : rates) {
+          const MertonInputs in{.equity_value = 250.0,
+                                .equity_vol_annual = se,
+                                .default_point = 250.0 * lev,
+                                .risk_free_rate_cc = r,
+                                .horizon_years = t,
+                                .drift_annual = r};
+          ++n;
+          const AssetSolution s = solve_asset(in);
+          CAPTURE(lev);
+          CAPTURE(se);
+          CAPTURE(t);
+          CAPTURE(r);
+          CHECK(s.usable());
+          if (!s.usable()) continue;
+          ++solved;
+          const auto ref = testing::reference_solve(in.equity_value, se, in.default_point, r, t);
+          const double e =
+              std::max(rel(s.asset_value, ref.asset_value), rel(s.asset_vol_annual, ref.asset_vol));
+          worst = std::max(worst, e);
+          CHECK(e <= 1e-10);
+          // |E_model - E| <= 1e-12 (E + K), the residual requirement.
+          const double k = in.default_point * std::exp(-r * t);
+          const double gap = std::fabs(equity_value(in, s.asset_value, s.asset_vol_annual) - in.equity_value);
+          worst_residual = std::max(worst_residual, gap / (in.equity_value + k));
+          CHECK(gap <= 1e-12 * (in.equity_value + k));
+          // The solution lies in the a-priori box.
+          // (to rounding: at tiny volatility V equals E + K to double precision)
+          CHECK(s.asset_value >= in.equity_value * (1 - 1e-15));
+          CHECK(s.asset_value <= (in.equity_value + k) * (1 + 1e-15));
+          CHECK(s.asset_vol_annual <= se * (1 + 1e-15));
+          CHECK(s.asset_vol_annual >= se * in.equity_value / (in.equity_value + k) * (1 - 1e-15));
+        }
+  MESSAGE("extreme grid: solved " << solved << " of " << n << ", worst relative error " << worst
+                                  << ", worst |E_model - E|/(E+K) " << worst_residual);
+  CHECK(solved == n);
+}
+
+TEST_CASE("an exhausted budget is never reported as converged") {
+  // A hard corner (leverage 1e4, sE = 1.5, T = 5) needs the fallback; starve both methods.
+  const MertonInputs in{.equity_value = 1.0,
+                        .equity_vol_annual = 1.5,
+                        .default_point = 1e4,
+                        .risk_free_rate_cc = 0.0,
+                        .horizon_years = 5.0,
+                        .drift_annual = 0.0};
+  MertonSolveOptions starve;
+  starve.max_newton_iterations = 1;
+  starve.max_fallback_iterations = 3;
+  const AssetSolution s = solve_asset(in, starve);
+  CHECK(s.status == SolveStatus::max_iterations);
+  CHECK_FALSE(s.usable());
+  CHECK(s.residual > starve.residual_tolerance);
+  // With the default budget the same obligor is solved.
+  CHECK(solve_asset(in).usable());
+}
+
+TEST_CASE("the solver allocates nothing") {
+  const auto book = testing::generated_obligors(200, 5);
+  double sink = 0.0;
+  const long before = testing::g_allocations.load();
+  for (const MertonInputs& in : book) sink += solve_asset(in).asset_value;
+  // Include a fallback case.
+  sink += solve_asset({1.0, 1.5, 1e4, 0.0, 5.0, 0.0}).asset_value;
+  const long after = testing::g_allocations.load();
+  CHECK(sink > 0.0);
+  CHECK(after == before);
+}
