@@ -150,7 +150,7 @@ Book parse_csv_book(const std::string& text, const std::string& origin) {
     ObligorRecord& rec = book.obligors.emplace_back();
     rec.line = record_line;
     parse_obligor_fields(fields, cols, rec);
-    if (unterminated && rec.read_error.empty()) rec.read_error = "a quoted field is never closed";
+    if (unterminated) rec.read_error = "a quoted field is never closed";
   }
   mark_duplicate_ids(book.obligors);
   return book;

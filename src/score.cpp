@@ -335,7 +335,7 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
         split_csv_record(text.substr(spans[i].begin, spans[i].end - spans[i].begin), wk.fields, wk.scratch,
                          open_quote);
         parse_obligor_fields(wk.fields, cols, rec);
-        if (open_quote && rec.read_error.empty()) rec.read_error = "a quoted field is never closed";
+        if (open_quote) rec.read_error = "a quoted field is never closed";
       }
     });
     // 3. Duplicate ids (sequential, in input order).

@@ -1,0 +1,236 @@
+// Tests of reading obligor books (CSV and YAML) and of resolving each obligor's model inputs.
+#include <doctest/doctest.h>
+
+#include <cmath>
+
+#include "firmcall/csv.hpp"
+#include "firmcall/errors.hpp"
+#include "firmcall/obligor_io.hpp"
+
+using namespace firmcall;
+
+namespace {
+ResolvedObligor resolve(const ObligorRecord& rec, const BookDefaults& book = {},
+                        const ScoreSettings& s = {}) {
+  ResolvedObligor r;
+  resolve_obligor(rec, book, s, r);
+  return r;
+}
+
+const char* const kHeader = "id,market_cap,equity_vol,short_term_debt,long_term_debt,rate\n";
+}  // namespace
+
+TEST_CASE("CSV: columns in any order, quotes, CRLF, BOM, blank lines and unused columns") {
+  const std::string text =
+      "\xEF\xBB\xBF"
+      "rate,equity_vol,note,id,name,market_cap,short_term_debt,long_term_debt\r\n"
+      "0.03,0.3,\"a, b\",A1,\"Alpha \"\"Quoted\"\" Ltd\",1000,100,200\r\n"
+      "\r\n"
+      "0.04, 0.25 ,x,B2,\"Beta\nTwo Lines\",2e3,150,0\r\n";
+  const Book book = parse_csv_book(text, "mem.csv");
+  REQUIRE(book.obligors.size() == 2);
+  const ObligorRecord& a = book.obligors[0];
+  CHECK(a.get(TextField::id) == "A1");
+  CHECK(a.get(TextField::name) == "Alpha \"Quoted\" Ltd");
+  CHECK(a.get(NumField::market_cap) == 1000.0);
+  CHECK(a.get(NumField::rate) == 0.03);
+  CHECK(a.line == 2);
+  CHECK(a.read_error.empty());
+  const ObligorRecord& b = book.obligors[1];
+  CHECK(b.get(TextField::name) == "Beta\nTwo Lines");
+  CHECK(b.get(NumField::market_cap) == 2000.0);
+  CHECK(b.get(NumField::equity_vol) == 0.25);
+  CHECK(b.line == 4);
+  REQUIRE(book.notes.size() == 1);
+  CHECK(book.notes[0] == "mem.csv:1: note: column 'note' is not used");
+}
+
+TEST_CASE("CSV: header errors are file errors naming the column") {
+  CHECK_THROWS_WITH_AS(parse_csv_book("name,market_cap,equity_vol\n", "b.csv"),
+                       "b.csv:1: header: required column 'id' is missing", InputError);
+  CHECK_THROWS_WITH_AS(parse_csv_book("id,equity_vol\nA,0.3\n", "b.csv"),
+                       "b.csv:1: header: required column 'market_cap' (or 'share_price' with "
+                       "'shares_outstanding') is missing",
+                       InputError);
+  CHECK_THROWS_WITH_AS(parse_csv_book("id,market_cap\nA,3\n", "b.csv"),
+                       "b.csv:1: header: required column 'equity_vol' is missing", InputError);
+  CHECK_THROWS_WITH_AS(parse_csv_book("id,market_cap,equity_vol,market_cap\n", "b.csv"),
+                       "b.csv:1: header: column 'market_cap' appears twice", InputError);
+  CHECK_THROWS_WITH_AS(parse_csv_book("", "b.csv"), "b.csv: empty file: a header row is required",
+                       InputError);
+  CHECK_THROWS_WITH_AS(parse_csv_book("id,,equity_vol,market_cap\n", "b.csv"),
+                       "b.csv:1: header: column 2 has no name", InputError);
+}
+
+TEST_CASE("CSV: bad cells are row errors naming the field, other rows still read") {
+  const std::string text = std::string(kHeader) +
+                           "A,1000,35%,1,2,0.03\n"
+                           "B,1e999,0.3,1,2,0.03\n"
+                           "C,1000,inf,1,2,0.03\n"
+                           "D,1000,0.3\n"
+                           "E,1000,0.3,1,2,0.03\n"
+                           "F,\"1000,3,0.3,1,2,0.03\n";
+  const Book book = parse_csv_book(text, "b.csv");
+  REQUIRE(book.obligors.size() == 6);
+  CHECK(book.obligors[0].read_error ==
+        "field 'equity_vol': expected a finite decimal number such as 0.35, got '35%'");
+  CHECK(book.obligors[1].read_error ==
+        "field 'market_cap': expected a finite decimal number such as 0.35, got '1e999'");
+  CHECK(book.obligors[2].read_error ==
+        "field 'equity_vol': expected a finite decimal number such as 0.35, got 'inf'");
+  CHECK(book.obligors[3].read_error == "row has 3 fields, the header has 6");
+  CHECK(book.obligors[4].read_error.empty());
+  CHECK(book.obligors[5].read_error == "a quoted field is never closed");
+}
+
+TEST_CASE("number cells: decimal and scientific notation accepted, the rest refused") {
+  double v = 0;
+  CHECK(parse_number("0.35", v));
+  CHECK(v == 0.35);
+  CHECK(parse_number(" 1.5e3 ", v));
+  CHECK(v == 1500.0);
+  CHECK(parse_number("+2", v));
+  CHECK(v == 2.0);
+  CHECK(parse_number("-0.01", v));
+  CHECK(v == -0.01);
+  for (const char* bad :
+       {"", "35%", "1,000", "0,35", "nan", "NaN", "inf", "-inf", "1e400", "abc", "0x10", "1 2"}) {
+    CAPTURE(bad);
+    CHECK_FALSE(parse_number(bad, v));
+  }
+}
+
+TEST_CASE("duplicate ids: the later obligor is invalid and names the first line") {
+  const Book book =
+      parse_csv_book(std::string(kHeader) + "A,1,0.3,1,1,0\nB,1,0.3,1,1,0\nA,2,0.3,1,1,0\n", "d.csv");
+  REQUIRE(book.obligors.size() == 3);
+  CHECK(book.obligors[0].read_error.empty());
+  CHECK(book.obligors[2].read_error == "field 'id': duplicate of the obligor at line 2");
+}
+
+TEST_CASE("YAML book: defaults, per-obligor overrides, unknown keys") {
+  const std::string text = R"(book: Test book
+as_of: 2026-11-30
+defaults: {rate: 0.02, horizon: 2, default_point_weight: 0.25}
+obligors:
+  - {id: A, market_cap: 100, equity_vol: 0.4, short_term_debt: 50, long_term_debt: 40}
+  - {id: B, market_cap: 100, equity_vol: 0.4, short_term_debt: 50, long_term_debt: 40, rate: 0.05, horizon: 1}
+  - {id: C, market_cap: 100, equity_volatility: 0.4, short_term_debt: 50, long_term_debt: 40}
+  - {id: D, market_cap: 35%, equity_vol: 0.4, short_term_debt: 50, long_term_debt: 40}
+  - {id: E, share_price: 2.5, shares_outstanding: 40, equity_vol: 0.4, default_point: 70}
+)";
+  const Book book = parse_yaml_book(text, "t.yaml");
+  CHECK(book.label == "Test book");
+  CHECK(book.as_of == "2026-11-30");
+  REQUIRE(book.obligors.size() == 5);
+  const ResolvedObligor a = resolve(book.obligors[0], book.defaults);
+  REQUIRE(a.ok());
+  CHECK(a.inputs.risk_free_rate_cc == 0.02);
+  CHECK(a.inputs.horizon_years == 2.0);
+  CHECK(a.inputs.default_point == 50.0 + 0.25 * 40.0);
+  CHECK(a.inputs.drift_annual == 0.02);  // drift defaults to the rate
+  const ResolvedObligor b = resolve(book.obligors[1], book.defaults);
+  CHECK(b.inputs.risk_free_rate_cc == 0.05);
+  CHECK(b.inputs.horizon_years == 1.0);
+  CHECK(book.obligors[2].read_error == "unknown field 'equity_volatility'");
+  CHECK(book.obligors[2].line == 7);
+  CHECK(book.obligors[3].read_error ==
+        "field 'market_cap': expected a finite decimal number such as 0.35, got '35%'");
+  const ResolvedObligor e = resolve(book.obligors[4], book.defaults);
+  REQUIRE(e.ok());
+  CHECK(e.inputs.equity_value == 100.0);
+  CHECK(e.inputs.default_point == 70.0);
+}
+
+TEST_CASE("YAML book: a typo close to a field name gets a suggestion") {
+  const Book book = parse_yaml_book("obligors:\n  - {id: A, market_cap: 1, equity_vl: 0.3}\n", "t.yaml");
+  CHECK(book.obligors[0].read_error == "unknown field 'equity_vl' (did you mean 'equity_vol'?)");
+}
+
+TEST_CASE("YAML book: file errors name the file and line") {
+  CHECK_THROWS_WITH_AS(parse_yaml_book("obligors: [\n", "t.yaml"), doctest::Contains("t.yaml:"), InputError);
+  CHECK_THROWS_WITH_AS(parse_yaml_book("defaults: {rate: 0.02}\nobligor:\n  - {id: A}\n", "t.yaml"),
+                       "t.yaml:2: book: unknown key 'obligor' (did you mean 'obligors'?)", InputError);
+  CHECK_THROWS_WITH_AS(parse_yaml_book("defaults: {rte: 0.02}\nobligors: []\n", "t.yaml"),
+                       "t.yaml:1: defaults: unknown key 'rte' (did you mean 'rate'?)", InputError);
+  CHECK_THROWS_WITH_AS(parse_yaml_book("defaults: {rate: 3%}\nobligors: []\n", "t.yaml"),
+                       "t.yaml:1: key 'rate': expected a finite number, got '3%'", InputError);
+  CHECK_THROWS_WITH_AS(parse_yaml_book("just a scalar\n", "t.yaml"),
+                       "t.yaml: expected a map with an 'obligors' list", InputError);
+  CHECK_THROWS_WITH_AS(parse_yaml_book("obligors: {id: A}\n", "t.yaml"),
+                       "t.yaml:1: 'obligors' must be a list", InputError);
+  CHECK_THROWS_WITH_AS(parse_yaml_book("book: x\n", "t.yaml"),
+                       "t.yaml: missing key 'obligors' (the list of obligors)", InputError);
+}
+
+TEST_CASE("resolving: every bad value names its field") {
+  struct Case {
+    const char* row;
+    const char* error;
+  };
+  const Case cases[] = {
+      {",1000,0.3,1,2,0.03", "field 'id': missing (every obligor needs an id)"},
+      {"A,,0.3,1,2,0.03",
+       "field 'market_cap': missing (give market_cap, or share_price and shares_outstanding)"},
+      {"A,-5,0.3,1,2,0.03", "field 'market_cap': must be positive, got -5"},
+      {"A,0,0.3,1,2,0.03", "field 'market_cap': must be positive, got 0"},
+      {"A,1000,,1,2,0.03", "field 'equity_vol': missing"},
+      {"A,1000,0,1,2,0.03", "field 'equity_vol': must be positive, got 0"},
+      {"A,1000,-0.2,1,2,0.03", "field 'equity_vol': must be positive, got -0.2"},
+      {"A,1000,35,1,2,0.03",
+       "field 'equity_vol': must be an annualised decimal (0.35 means 35%) no larger than 10, got 35"},
+      {"A,1000,0.3,-1,2,0.03", "field 'short_term_debt': must not be negative, got -1"},
+      {"A,1000,0.3,1,-2,0.03", "field 'long_term_debt': must not be negative, got -2"},
+      {"A,1000,0.3,,2,0.03",
+       "field 'short_term_debt': missing (give short_term_debt and long_term_debt, or default_point)"},
+      {"A,1000,0.3,0,0,0.03",
+       "field 'default_point': short_term_debt + weight x long_term_debt is zero: the model needs positive "
+       "debt"},
+      {"A,1000,0.3,1,2,", "field 'rate': missing (give a rate column, a book default or --rate)"},
+      {"A,1000,0.3,1,2,3",
+       "field 'rate': must be a continuously compounded decimal in [-1, 1] (0.03 means 3%), got 3"},
+  };
+  for (const Case& c : cases) {
+    CAPTURE(c.row);
+    const Book book = parse_csv_book(std::string(kHeader) + c.row + "\n", "r.csv");
+    REQUIRE(book.obligors.size() == 1);
+    CHECK(resolve(book.obligors[0]).error == c.error);
+  }
+  const Book hz = parse_csv_book(
+      "id,market_cap,equity_vol,default_point,rate,horizon,lgd,ead\n"
+      "A,1,0.3,1,0,0,,\nB,1,0.3,1,0,-1,,\nC,1,0.3,1,0,1,45,\nD,1,0.3,1,0,1,0.4,-3\n",
+      "h.csv");
+  CHECK(resolve(hz.obligors[0]).error == "field 'horizon': must be positive years, at most 100, got 0");
+  CHECK(resolve(hz.obligors[1]).error == "field 'horizon': must be positive years, at most 100, got -1");
+  CHECK(resolve(hz.obligors[2]).error == "field 'lgd': must be a decimal in [0, 1] (0.45 means 45%), got 45");
+  CHECK(resolve(hz.obligors[3]).error == "field 'ead': must not be negative, got -3");
+}
+
+TEST_CASE("resolving: precedence override > obligor > book > configuration") {
+  const Book book = parse_csv_book(
+      "id,market_cap,equity_vol,short_term_debt,long_term_debt,rate,horizon\n"
+      "A,100,0.3,10,20,0.05,2\nB,100,0.3,10,20,,\n",
+      "p.csv");
+  BookDefaults defaults;
+  defaults.rate = 0.01;
+  ScoreSettings s;
+  s.horizon_years = 3.0;
+  ResolvedObligor a = resolve(book.obligors[0], defaults, s);
+  ResolvedObligor b = resolve(book.obligors[1], defaults, s);
+  CHECK(a.inputs.risk_free_rate_cc == 0.05);
+  CHECK(a.inputs.horizon_years == 2.0);
+  CHECK(b.inputs.risk_free_rate_cc == 0.01);
+  CHECK(b.inputs.horizon_years == 3.0);
+  CHECK(b.inputs.default_point == 10.0 + 0.5 * 20.0);  // 0.5: common practice default weight
+  CHECK(b.lgd == 0.45);                                // configured default LGD
+  CHECK_FALSE(b.has_lgd);
+  s.rate_override = 0.07;
+  s.horizon_override = 0.5;
+  s.weight_override = 1.0;
+  s.measure = Measure::risk_neutral;
+  a = resolve(book.obligors[0], defaults, s);
+  CHECK(a.inputs.risk_free_rate_cc == 0.07);
+  CHECK(a.inputs.horizon_years == 0.5);
+  CHECK(a.inputs.default_point == 30.0);
+  CHECK(a.inputs.drift_annual == 0.07);
+}

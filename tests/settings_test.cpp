@@ -1,0 +1,50 @@
+// Tests of the configuration file.
+#include <doctest/doctest.h>
+
+#include "firmcall/errors.hpp"
+#include "firmcall/settings.hpp"
+#include "test_util.hpp"
+
+using namespace firmcall;
+
+TEST_CASE("the shipped config/firmcall.yaml equals the built-in defaults") {
+  const Config shipped = load_config(testing::source_dir() + "/config/firmcall.yaml");
+  const Config builtin;
+  CHECK(shipped.score.default_point_weight == builtin.score.default_point_weight);
+  CHECK(shipped.score.default_point_weight == 0.5);  // common practice
+  CHECK(shipped.score.horizon_years == builtin.score.horizon_years);
+  CHECK(shipped.score.measure == builtin.score.measure);
+  CHECK(shipped.score.default_lgd == builtin.score.default_lgd);
+  CHECK(shipped.score.default_lgd == 0.45);  // senior unsecured, common practice
+  CHECK(shipped.score.max_equity_vol == builtin.score.max_equity_vol);
+  CHECK(shipped.score.solver.max_newton_iterations == builtin.score.solver.max_newton_iterations);
+  CHECK(shipped.score.solver.max_fallback_iterations == builtin.score.solver.max_fallback_iterations);
+  CHECK(shipped.score.solver.residual_tolerance == builtin.score.solver.residual_tolerance);
+  CHECK(shipped.stress.pd_threshold == builtin.stress.pd_threshold);
+  CHECK(shipped.history.min_observations == builtin.history.min_observations);
+  CHECK(shipped.history.trading_days_per_year == builtin.history.trading_days_per_year);
+  CHECK(shipped.history.ewma_decay == builtin.history.ewma_decay);
+  CHECK(shipped.history.iteration_tolerance == builtin.history.iteration_tolerance);
+  CHECK(shipped.history.max_iterations == builtin.history.max_iterations);
+  CHECK(shipped.history.confidence_level == builtin.history.confidence_level);
+}
+
+TEST_CASE("configuration errors name the file, line and key") {
+  CHECK_THROWS_WITH_AS(
+      parse_config("scoring:\n  default_point_wieght: 0.4\n", "c.yaml"),
+      "c.yaml:2: scoring: unknown key 'default_point_wieght' (did you mean 'default_point_weight'?)",
+      InputError);
+  CHECK_THROWS_WITH_AS(parse_config("scoring:\n  default_point_weight: 1.5\n", "c.yaml"),
+                       "c.yaml:2: key 'default_point_weight': must lie in [0, 1]", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("scoring:\n  measure: real-world\n", "c.yaml"),
+                       "c.yaml:2: key 'measure': expected physical or risk-neutral", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("solver:\n  max_newton_iterations: 2.5\n", "c.yaml"),
+                       "c.yaml:2: key 'max_newton_iterations': must be a whole number", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("scorng: {}\n", "c.yaml"),
+                       "c.yaml:1: configuration: unknown key 'scorng' (did you mean 'scoring'?)", InputError);
+  CHECK_THROWS_WITH_AS(load_config("/nonexistent/firmcall.yaml"),
+                       "cannot open file '/nonexistent/firmcall.yaml'", InputError);
+  const Config c = parse_config("scoring:\n  measure: risk-neutral\n  horizon: 2\n", "c.yaml");
+  CHECK(c.score.measure == Measure::risk_neutral);
+  CHECK(c.score.horizon_years == 2.0);
+}
