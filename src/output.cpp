@@ -1,16 +1,138 @@
 #include "firmcall/output.hpp"
 
+#include <array>
 #include <charconv>
 #include <cmath>
+#include <cstdint>
 #include <cstdio>
 
 namespace firmcall {
 
+namespace {
+
+__extension__ typedef unsigned __int128 u128;  // GCC/Clang 128-bit integer
+
+// 5^k for k = 0..32 (5^32 < 2^75, so f * 5^k < 2^128 for a 53-bit f).
+constexpr std::array<u128, 33> kPow5 = [] {
+  std::array<u128, 33> p{};
+  p[0] = 1;
+  for (std::size_t i = 1; i < p.size(); ++i) p[i] = p[i - 1] * 5;
+  return p;
+}();
+
+constexpr char kDigitPairs[] =
+    "00010203040506070809101112131415161718192021222324252627282930313233343536373839"
+    "40414243444546474849505152535455565758596061626364656667686970717273747576777879"
+    "8081828384858687888990919293949596979899";
+
+// Exact 17-significant-digit decimal of |v| for 1e-16 <= |v| < 1e17: returns the 17 digits as an
+// integer n in [1e16, 1e17) and the decimal exponent of the first digit, or false outside the
+// range. Exact because v * 10^k = f * 5^k * 2^(e+k) is formed in 128-bit integers (k <= 32) and
+// rounded half-to-even on the exact remainder -- the same digits as printf("%.17g").
+bool exact_17_digits(double v, std::uint64_t& n_out, int& exp10_out) noexcept {
+  if (!(v >= 1e-16 && v < 1e17)) return false;
+  int e2 = 0;
+  const double m = std::frexp(v, &e2);  // v = m 2^e2, m in [0.5, 1)
+  const auto f = static_cast<std::uint64_t>(std::ldexp(m, 53));
+  const int e = e2 - 53;  // v = f 2^e exactly
+  int k = 16 - static_cast<int>(std::floor(std::log10(v)));
+  for (int attempt = 0; attempt < 3; ++attempt) {
+    if (k < 0 || k > 32) return false;
+    const u128 x = static_cast<u128>(f) * kPow5[static_cast<std::size_t>(k)];
+    const int t = e + k;  // value = x 2^t
+    u128 n;
+    bool round_up = false;
+    if (t >= 0) {
+      if (t > 10) return false;  // cannot happen for v < 1e17, k >= 0; stay safe
+      n = x << t;
+    } else {
+      const int sh = -t;
+      if (sh >= 128) return false;
+      n = x >> sh;
+      const u128 rem = x - (n << sh);
+      const u128 half = static_cast<u128>(1) << (sh - 1);
+      round_up = rem > half || (rem == half && (n & 1) != 0);
+    }
+    // Choose the scale on the unrounded value: floor(v 10^k) must have exactly 17 digits.
+    if (n < static_cast<u128>(10000000000000000ULL)) {
+      ++k;
+      continue;
+    }
+    if (n >= static_cast<u128>(100000000000000000ULL)) {
+      --k;
+      continue;
+    }
+    if (round_up) ++n;
+    exp10_out = 16 - k;
+    if (n == static_cast<u128>(100000000000000000ULL)) {  // rounding carried into an 18th digit
+      n = 10000000000000000ULL;
+      ++exp10_out;
+    }
+    n_out = static_cast<std::uint64_t>(n);
+    return true;
+  }
+  return false;
+}
+
+// Writes n (17 digits) into d[0..16].
+void seventeen_digits(std::uint64_t n, char* d) noexcept {
+  d[0] = static_cast<char>('0' + n / 10000000000000000ULL);
+  n %= 10000000000000000ULL;
+  for (int i = 15; i >= 0; i -= 2) {
+    const auto two = static_cast<std::size_t>(n % 100) * 2;
+    n /= 100;
+    d[1 + i - 1] = kDigitPairs[two];
+    d[1 + i] = kDigitPairs[two + 1];
+  }
+}
+
+}  // namespace
+
 void append_number(std::string& out, double v) {
   if (!std::isfinite(v)) return;
   char buf[40];
-  const auto r = std::to_chars(buf, buf + sizeof buf, v, std::chars_format::general, 17);
-  out.append(buf, r.ptr);
+  std::uint64_t n = 0;
+  int x = 0;
+  const double a = std::fabs(v);
+  if (!exact_17_digits(a, n, x)) {
+    const auto r = std::to_chars(buf, buf + sizeof buf, v, std::chars_format::general, 17);
+    out.append(buf, r.ptr);
+    return;
+  }
+  char d[17];
+  seventeen_digits(n, d);
+  int len = 17;  // significant digits after dropping trailing zeros (as %g does)
+  while (len > 1 && d[len - 1] == '0') --len;
+  char* p = buf;
+  if (v < 0) *p++ = '-';
+  if (x >= -4 && x < 17) {
+    if (x >= 0) {
+      // Integer part: digits 0..x; fraction: digits x+1..len-1.
+      for (int i = 0; i <= x; ++i) *p++ = d[i];
+      if (len > x + 1) {
+        *p++ = '.';
+        for (int i = x + 1; i < len; ++i) *p++ = d[i];
+      }
+    } else {
+      *p++ = '0';
+      *p++ = '.';
+      for (int i = 0; i < -x - 1; ++i) *p++ = '0';
+      for (int i = 0; i < len; ++i) *p++ = d[i];
+    }
+  } else {
+    *p++ = d[0];
+    if (len > 1) {
+      *p++ = '.';
+      for (int i = 1; i < len; ++i) *p++ = d[i];
+    }
+    *p++ = 'e';
+    *p++ = x < 0 ? '-' : '+';
+    const int ax = x < 0 ? -x : x;
+    if (ax >= 100) *p++ = static_cast<char>('0' + ax / 100);
+    *p++ = static_cast<char>('0' + (ax / 10) % 10);
+    *p++ = static_cast<char>('0' + ax % 10);
+  }
+  out.append(buf, p);
 }
 
 void append_csv_text(std::string& out, std::string_view s) {
@@ -68,43 +190,46 @@ void append_json_number(std::string& out, double v) {
 }
 
 const std::vector<std::string_view>& score_columns() {
-  static const std::vector<std::string_view> cols = {"id",          "name",
-                                                     "status",      "equity_value",
-                                                     "equity_vol",  "default_point",
-                                                     "rate",        "horizon",
-                                                     "asset_value", "asset_vol",
-                                                     "leverage",    "distance_to_default",
-                                                     "pd",          "pd_risk_neutral",
-                                                     "debt_value",  "spread_bp",
-                                                     "iterations",  "residual",
+  static const std::vector<std::string_view> cols = {"id",
+                                                     "name",
+                                                     "status",
+                                                     "equity_value",
+                                                     "default_point",
+                                                     "asset_value",
+                                                     "asset_vol",
+                                                     "leverage",
+                                                     "distance_to_default",
+                                                     "pd",
+                                                     "pd_risk_neutral",
+                                                     "debt_value",
+                                                     "spread_bp",
+                                                     "iterations",
+                                                     "residual",
                                                      "message"};
   return cols;
 }
 
 namespace {
 
-// Values of the numeric columns in score_columns() order (equity_value .. residual, minus status).
+// Values of the numeric columns equity_value .. spread_bp of score_columns(), in order.
+constexpr std::size_t kNumericColumns = 10;
+constexpr std::size_t kFirstNumericColumn = 3;
 struct NumericRow {
-  double v[14];
-  bool scored;
+  double v[kNumericColumns];
 };
 
 NumericRow numeric_row(const ScoredObligor& s) {
   NumericRow r{};
   const bool resolved = s.resolved.ok();
-  const MertonInputs& in = s.resolved.inputs;
+  const bool scored = s.status == RowStatus::ok;
   const double nan = std::nan("");
-  r.scored = s.status == RowStatus::ok;
-  r.v[0] = resolved ? in.equity_value : nan;
-  r.v[1] = resolved ? in.equity_vol_annual : nan;
-  r.v[2] = resolved ? in.default_point : nan;
-  r.v[3] = resolved ? in.risk_free_rate_cc : nan;
-  r.v[4] = resolved ? in.horizon_years : nan;
+  const MertonInputs& in = s.resolved.inputs;
   const MertonMeasures& m = s.measures;
+  r.v[0] = resolved ? in.equity_value : nan;
+  r.v[1] = resolved ? in.default_point : nan;
   const double vals[] = {m.asset_value, m.asset_vol_annual, m.leverage,   m.distance_to_default,
                          m.pd,          m.pd_risk_neutral,  m.debt_value, m.spread_bp};
-  for (int i = 0; i < 8; ++i) r.v[5 + i] = r.scored ? vals[i] : nan;
-  r.v[13] = nan;
+  for (int i = 0; i < 8; ++i) r.v[2 + i] = scored ? vals[i] : nan;
   return r;
 }
 
@@ -126,9 +251,9 @@ class CsvWriter final : public ScoreWriter {
     out.push_back(',');
     out.append(to_string(s.status));
     const NumericRow r = numeric_row(s);
-    for (int i = 0; i < 13; ++i) {
+    for (double v : r.v) {
       out.push_back(',');
-      append_number(out, r.v[i]);
+      append_number(out, v);
     }
     out.push_back(',');
     if (s.solution.residual >= 0.0) {
@@ -156,6 +281,10 @@ class JsonWriter final : public ScoreWriter {
     append_json_string(out, to_string(settings_.measure));
     out += ", \"default_point_weight\": ";
     append_json_number(out, settings_.weight_override.value_or(settings_.default_point_weight));
+    out += ", \"rate_override\": ";
+    append_json_number(out, settings_.rate_override.value_or(std::nan("")));
+    out += ", \"horizon_override\": ";
+    append_json_number(out, settings_.horizon_override.value_or(std::nan("")));
     out += "},\n  \"obligors\": [\n";
   }
   std::string_view separator() const override { return ",\n"; }
@@ -168,9 +297,9 @@ class JsonWriter final : public ScoreWriter {
     out += ", \"status\": ";
     append_json_string(out, to_string(s.status));
     const NumericRow r = numeric_row(s);
-    for (int i = 0; i < 13; ++i) {
+    for (std::size_t i = 0; i < kNumericColumns; ++i) {
       out += ", \"";
-      out += cols[3 + static_cast<std::size_t>(i)];
+      out += cols[kFirstNumericColumn + i];
       out += "\": ";
       append_json_number(out, r.v[i]);
     }

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstring>
+#include <exception>
 #include <functional>
 #include <thread>
 
@@ -79,10 +80,22 @@ void parallel_slices(std::size_t n, unsigned threads,
 // collision between two different ids (probability ~ n^2 / 2^65) would be reported as a duplicate.
 class IdRegistry {
  public:
-  // Returns 0 if new, else the line where the id was first seen.
-  std::size_t insert(std::string_view id, std::size_t line) {
+  /// 64-bit hash of an id (FNV-1a with a final mix).
+  static std::uint64_t hash(std::string_view s) noexcept {
+    std::uint64_t h = 1469598103934665603ULL;
+    for (char c : s) {
+      h ^= static_cast<unsigned char>(c);
+      h *= 1099511628211ULL;
+    }
+    h ^= h >> 33;
+    h *= 0xff51afd7ed558ccdULL;
+    h ^= h >> 33;
+    return h;
+  }
+
+  /// Returns 0 if the id with hash h is new, else the line where it was first seen.
+  std::size_t insert(std::uint64_t h, std::size_t line) {
     if ((count_ + 1) * 10 > slots_.size() * 7) grow();
-    const std::uint64_t h = hash(id);
     std::size_t i = static_cast<std::size_t>(h) & (slots_.size() - 1);
     while (slots_[i].line != 0) {
       if (slots_[i].hash == h) return slots_[i].line;
@@ -96,19 +109,8 @@ class IdRegistry {
  private:
   struct Slot {
     std::uint64_t hash = 0;
-    std::size_t line = 0;
+    std::size_t line = 0;  // 0: empty
   };
-  static std::uint64_t hash(std::string_view s) {
-    std::uint64_t h = 1469598103934665603ULL;  // FNV-1a, then a final mix
-    for (char c : s) {
-      h ^= static_cast<unsigned char>(c);
-      h *= 1099511628211ULL;
-    }
-    h ^= h >> 33;
-    h *= 0xff51afd7ed558ccdULL;
-    h ^= h >> 33;
-    return h;
-  }
   void grow() {
     std::vector<Slot> old = std::move(slots_);
     slots_.assign(old.empty() ? 1024 : old.size() * 2, Slot{});
@@ -185,11 +187,28 @@ class BatchScorer {
         }
       }
     });
-    for (Worker& wk : workers_) sink_(wk.out);
+    // Hand the formatted text to the writer thread, which writes it while the next batch is
+    // read and scored; its buffers come back to the workers for reuse.
+    wait_for_writer();
+    for (std::size_t w = 0; w < workers_.size(); ++w) std::swap(pending_[w], workers_[w].out);
+    writer_thread_ = std::thread([this]() {
+      try {
+        for (const std::string& text : pending_) sink_(text);
+      } catch (...) {
+        write_error_ = std::current_exception();
+      }
+    });
     summary_.total += n;
   }
 
+  ~BatchScorer() {
+    if (writer_thread_.joinable()) writer_thread_.join();
+  }
+  BatchScorer(const BatchScorer&) = delete;
+  BatchScorer& operator=(const BatchScorer&) = delete;
+
   ScoreSummary finish(std::vector<std::string> notes) {
+    wait_for_writer();
     std::vector<std::pair<std::size_t, std::string>> all;
     std::size_t problem_count = 0;
     for (Worker& wk : workers_) {
@@ -215,6 +234,14 @@ class BatchScorer {
   std::vector<Worker>& workers() { return workers_; }
 
  private:
+  void wait_for_writer() {
+    if (writer_thread_.joinable()) writer_thread_.join();
+    if (write_error_) {
+      std::exception_ptr e = write_error_;
+      write_error_ = nullptr;
+      std::rethrow_exception(e);
+    }
+  }
   static std::string message_without_line(const std::string& m) {
     const auto colon = m.find(": ");
     return (m.rfind("line ", 0) == 0 && colon != std::string::npos) ? m.substr(colon + 2) : m;
@@ -226,6 +253,9 @@ class BatchScorer {
   const TextSink& sink_;
   std::unique_ptr<ScoreWriter> writer_;
   std::vector<Worker> workers_;
+  std::vector<std::string> pending_ = std::vector<std::string>(workers_.size());  // being written
+  std::thread writer_thread_;
+  std::exception_ptr write_error_;
   ScoreSummary summary_;
 };
 
@@ -243,13 +273,16 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
                               const ScoreRunOptions& run, const TextSink& sink) {
   const BookDefaults no_defaults;
   std::string buf;
-  std::vector<char> block(run.chunk_bytes);
   bool eof = false;
-  const auto fill = [&]() {
-    while (!eof && buf.size() < run.chunk_bytes) {
-      const std::size_t got = std::fread(block.data(), 1, block.size(), in);
-      buf.append(block.data(), got);
-      if (got < block.size()) {
+  // Reads until buf holds at least `want` bytes or the file ends.
+  const auto fill = [&](std::size_t want) {
+    while (!eof && buf.size() < want) {
+      const std::size_t old = buf.size();
+      const std::size_t ask = std::max<std::size_t>(want - old, 64 * 1024);
+      buf.resize(old + ask);
+      const std::size_t got = std::fread(buf.data() + old, 1, ask, in);
+      buf.resize(old + got);
+      if (got < ask) {
         if (std::ferror(in)) throw InputError("cannot read file '" + origin + "'");
         eof = true;
       }
@@ -257,7 +290,7 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
   };
 
   // Header.
-  fill();
+  fill(run.chunk_bytes);
   std::size_t pos = 0;
   if (buf.compare(0, 3, "\xEF\xBB\xBF") == 0) pos = 3;
   std::size_t line = 1;
@@ -283,29 +316,35 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
   scorer.begin();
   IdRegistry ids;
   std::vector<ObligorRecord> recs;
+  std::vector<std::uint64_t> id_hashes;
   struct Span {
     std::size_t begin, end, line;
   };
   std::vector<Span> spans;
 
+  std::size_t want = run.chunk_bytes;
   while (true) {
-    fill();
+    fill(want);
     if (buf.empty()) break;
-    const std::size_t cut = eof ? buf.size() : last_record_end(buf);
-    if (cut == 0) {
-      // One record longer than the whole buffer: read more.
-      const std::size_t before = buf.size();
-      std::vector<char> more(run.chunk_bytes);
-      const std::size_t got = std::fread(more.data(), 1, more.size(), in);
-      buf.append(more.data(), got);
-      if (got == 0) eof = true;
-      if (buf.size() == before && eof) continue;
-      continue;
+    const std::string_view all(buf);
+    const bool quoted = std::memchr(all.data(), '"', all.size()) != nullptr;
+    std::size_t cut = all.size();
+    if (!eof) {
+      if (quoted) {
+        cut = last_record_end(all);
+      } else {
+        const void* nl = ::memrchr(all.data(), '\n', all.size());
+        cut = nl ? static_cast<std::size_t>(static_cast<const char*>(nl) - all.data()) + 1 : 0;
+      }
+      if (cut == 0) {  // one record longer than the buffer: read more before cutting
+        want = buf.size() * 2;
+        continue;
+      }
     }
-    const std::string_view text(buf.data(), cut);
+    want = run.chunk_bytes;
+    const std::string_view text = all.substr(0, cut);
     // 1. Record boundaries (sequential; quote-aware only when the chunk has quotes).
     spans.clear();
-    const bool quoted = std::memchr(text.data(), '"', text.size()) != nullptr;
     std::size_t p = 0;
     while (p < text.size()) {
       std::size_t e;
@@ -317,13 +356,13 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
         e = p + split_csv_record(text.substr(p), fields, scratch, unterminated);
         breaks = count_lines(text.substr(p, e - p));
       }
-      // Skip blank lines.
       const std::string_view rec_text = text.substr(p, e - p);
       if (rec_text.find_first_not_of(" \t\r\n") != std::string_view::npos) spans.push_back({p, e, line});
       line += breaks;
       p = e;
     }
     if (recs.size() < spans.size()) recs.resize(spans.size());
+    id_hashes.resize(spans.size());
     // 2. Parse (parallel).
     parallel_slices(spans.size(), run.threads, [&](unsigned w, std::size_t b, std::size_t e) {
       Worker& wk = scorer.workers()[w];
@@ -336,19 +375,19 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
                          open_quote);
         parse_obligor_fields(wk.fields, cols, rec);
         if (open_quote) rec.read_error = "a quoted field is never closed";
+        id_hashes[i] = IdRegistry::hash(rec.get(TextField::id));
       }
     });
     // 3. Duplicate ids (sequential, in input order).
     for (std::size_t i = 0; i < spans.size(); ++i) {
       ObligorRecord& rec = recs[i];
-      const std::string& id = rec.get(TextField::id);
-      if (id.empty()) continue;
-      const std::size_t first = ids.insert(id, rec.line);
+      if (rec.get(TextField::id).empty()) continue;
+      const std::size_t first = ids.insert(id_hashes[i], rec.line);
       if (first != 0 && rec.read_error.empty()) {
         rec.read_error = "field 'id': duplicate of the obligor at line " + std::to_string(first);
       }
     }
-    // 4. Score, format and write (parallel, written in order).
+    // 4. Score and format (parallel); the writer thread writes in order.
     scorer.score(recs, spans.size());
     buf.erase(0, cut);
   }

@@ -132,9 +132,11 @@ TEST_CASE("--output writes the whole result; overrides apply; JSON parses") {
       run_firmcall("score samples/demo_book.yaml --format json --rate 0.05 --horizon 2 -o '" + out + "'");
   CHECK(r.exit_code == 0);
   const std::string json = read_file(out);
-  CHECK(json.find("\"rate\": 0.050000000000000003") != std::string::npos);
-  CHECK(json.find("\"horizon\": 2,") != std::string::npos);
-  CHECK(json.find("\"rate\": 0.0265") == std::string::npos);
+  CHECK(json.find("\"rate_override\": 0.050000000000000003, \"horizon_override\": 2}") != std::string::npos);
+  const auto base = run_firmcall("score samples/demo_book.yaml --format json");
+  CHECK(base.out.find("\"rate_override\": null, \"horizon_override\": null}") != std::string::npos);
+  CHECK(json.size() > 1000);
+  CHECK(base.out != json);  // the overrides changed the results
   // Independent JSON parser: Python's json module.
   const int py = std::system(("python3 -c 'import json,sys; d=json.load(open(sys.argv[1])); "
                               "assert len(d[\"obligors\"])==36 and d[\"summary\"][\"scored\"]==36' '" +
@@ -164,12 +166,12 @@ TEST_CASE("--help carries the caution; the risk-neutral measure sets pd to pd_ri
   const auto rows = firmcall::testing::split_simple_csv(r.out);
   const auto jac = std::find_if(rows.begin(), rows.end(), [](const auto& row) { return row[0] == "JAC-36"; });
   REQUIRE(jac != rows.end());
-  CHECK((*jac)[12] == (*jac)[13]);  // pd == pd_risk_neutral under the risk-neutral measure
+  CHECK((*jac)[9] == (*jac)[10]);  // pd == pd_risk_neutral under the risk-neutral measure
   r = run_firmcall("score samples/demo_book.yaml --format csv");
   const auto rows2 = firmcall::testing::split_simple_csv(r.out);
   const auto jac2 =
       std::find_if(rows2.begin(), rows2.end(), [](const auto& row) { return row[0] == "JAC-36"; });
-  CHECK(std::stod((*jac2)[12]) < std::stod((*jac2)[13]));  // drift 7% > rate: physical PD is lower
+  CHECK(std::stod((*jac2)[9]) < std::stod((*jac2)[10]));  // drift 7% > rate: physical PD is lower
 }
 
 TEST_CASE("one thread and many threads write the same bytes") {

@@ -97,9 +97,9 @@ TEST_CASE("streamed, threaded results agree with the long-double reference (cros
       continue;
     }
     const std::size_t i = std::stoul(cells[0].substr(1));
-    REQUIRE(cells[3] == "ok");  // id, "Gen, i" (two cells), status
-    const double v = std::stod(cells[9]);
-    const double sv = std::stod(cells[10]);
+    REQUIRE(cells[3] == "ok");             // id, "Gen, i" (two cells), status
+    const double v = std::stod(cells[6]);  // asset_value, after id, name (two cells), status, E, DP
+    const double sv = std::stod(cells[7]);
     const MertonInputs& in = book[i];
     const auto ref = testing::reference_solve(in.equity_value, in.equity_vol_annual, in.default_point,
                                               in.risk_free_rate_cc, in.horizon_years);

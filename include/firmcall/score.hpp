@@ -59,7 +59,7 @@ struct ScoreRunOptions {
   OutputFormat format = OutputFormat::csv;
   unsigned threads = 1;  ///< worker threads (>= 1); output order is the input order
   std::size_t max_listed_problems = 20;
-  std::size_t chunk_bytes = 4 << 20;  ///< CSV streaming: bytes read per step
+  std::size_t chunk_bytes = 1 << 20;  ///< CSV streaming: bytes read per step
 };
 
 /// Scores a book already in memory (YAML, or a small CSV).
