@@ -68,7 +68,9 @@ struct Eval {
 // x = ln(V/K), y = ln sV.
 inline Eval evaluate(const Problem& p, double x, double y) noexcept {
   Eval ev;
-  ev.v = p.k * std::exp(x);
+  const double growth = std::expm1(x);  // V/K - 1, exact also when V is close to K
+  const double v_minus_k = p.k * growth;
+  ev.v = p.k + v_minus_k;
   ev.sv = std::exp(y);
   const double st = ev.sv * p.sqrt_t;
   ev.d1 = x / st + 0.5 * st;
@@ -78,7 +80,7 @@ inline Eval evaluate(const Problem& p, double x, double y) noexcept {
     // Call = (V - K) + put, with V - K = K expm1(x): accurate when the call is deep in the money.
     const double sf1 = norm_sf(ev.d1);
     ev.nd1 = 1.0 - sf1;
-    call = p.k * std::expm1(x) + (p.k * norm_sf(ev.d2) - ev.v * sf1);
+    call = v_minus_k + (p.k * norm_sf(ev.d2) - ev.v * sf1);
   } else {
     ev.nd1 = norm_cdf(ev.d1);
     call = ev.v * ev.nd1 - p.k * norm_cdf(ev.d2);
@@ -187,6 +189,7 @@ AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& opti
   int iterations = 0;
   constexpr double kMaxStep = 2.0;      // cap on a Newton step in log units
   constexpr double kStepFloor = 1e-13;  // a step this small means the next would be below rounding
+  constexpr double kSettled = 1e-4;     // see the loop's last test
   constexpr int kMaxHalvings = 60;
 
   while (iterations < options.max_newton_iterations && merit > 0.0) {
@@ -229,6 +232,9 @@ AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& opti
       }
     }
     if (!moved || taken < kStepFloor) break;  // at the rounding floor
+    // Quadratic convergence: once the residual is 1e-4 of the tolerance, another step would
+    // only chase rounding noise.
+    if (residual_of(p, ev) <= kSettled * options.residual_tolerance) break;
   }
 
   out.iterations = iterations;

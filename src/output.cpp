@@ -1,6 +1,7 @@
 #include "firmcall/output.hpp"
 
 #include <array>
+#include <bit>
 #include <charconv>
 #include <cmath>
 #include <cstdint>
@@ -31,11 +32,12 @@ constexpr char kDigitPairs[] =
 // rounded half-to-even on the exact remainder -- the same digits as printf("%.17g").
 bool exact_17_digits(double v, std::uint64_t& n_out, int& exp10_out) noexcept {
   if (!(v >= 1e-16 && v < 1e17)) return false;
-  int e2 = 0;
-  const double m = std::frexp(v, &e2);  // v = m 2^e2, m in [0.5, 1)
-  const auto f = static_cast<std::uint64_t>(std::ldexp(m, 53));
-  const int e = e2 - 53;  // v = f 2^e exactly
-  int k = 16 - static_cast<int>(std::floor(std::log10(v)));
+  // v is a normal double here: v = f 2^e exactly with f = 1.mantissa as a 53-bit integer.
+  const auto bits = std::bit_cast<std::uint64_t>(v);
+  const std::uint64_t f = (bits & ((1ULL << 52) - 1)) | (1ULL << 52);
+  const int e = static_cast<int>((bits >> 52) & 0x7ff) - 1075;
+  // floor(log10 v) is floor((e + 52) log10 2) or one more; the loop below corrects the guess.
+  int k = 16 - static_cast<int>(std::floor((e + 52) * 0.30102999566398120));
   for (int attempt = 0; attempt < 3; ++attempt) {
     if (k < 0 || k > 32) return false;
     const u128 x = static_cast<u128>(f) * kPow5[static_cast<std::size_t>(k)];
