@@ -63,14 +63,19 @@ MertonMeasures merton_measures(const MertonInputs& in, double v, double sv) noex
   m.asset_vol_annual = sv;
   m.default_point = in.default_point;
   m.leverage = in.default_point / v;
-  m.d1 = (log_v_dp + (in.risk_free_rate_cc + 0.5 * sv * sv) * t) / st;
-  m.d2 = m.d1 - st;
-  m.distance_to_default = (log_v_dp + (in.drift_annual - 0.5 * sv * sv) * t) / st;
-  m.pd = norm_sf(m.distance_to_default);
-  m.pd_risk_neutral = norm_sf(m.d2);
+  m.d2 = (log_v_dp + (in.risk_free_rate_cc - 0.5 * sv * sv) * t) / st;
+  m.d1 = m.d2 + st;
+  // With mu = r the physical DD is d2 itself (and pd equals pd_risk_neutral exactly).
+  m.distance_to_default = in.drift_annual == in.risk_free_rate_cc
+                              ? m.d2
+                              : (log_v_dp + (in.drift_annual - 0.5 * sv * sv) * t) / st;
+  const double sf_d2 = norm_sf(m.d2);  // N(-d2)
+  const double sf_d1 = norm_sf(m.d1);  // N(-d1)
+  m.pd = in.drift_annual == in.risk_free_rate_cc ? sf_d2 : norm_sf(m.distance_to_default);
+  m.pd_risk_neutral = sf_d2;
   // Debt = riskless debt - put; both forms avoid the V - E cancellation at low leverage.
-  m.debt_value = k * norm_cdf(m.d2) + v * norm_sf(m.d1);
-  const double put = k * norm_sf(m.d2) - v * norm_sf(m.d1);
+  m.debt_value = k * norm_cdf(m.d2) + v * sf_d1;
+  const double put = k * sf_d2 - v * sf_d1;
   double spread;
   if (put < 0.5 * k) {
     spread = put > 0.0 ? -std::log1p(-put / k) / t : 0.0;

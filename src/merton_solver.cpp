@@ -166,104 +166,189 @@ double solve_residual(const MertonInputs& in, double asset_value, double asset_v
   return residual_of(p, evaluate(p, std::log(asset_value / k), std::log(asset_vol_annual)));
 }
 
-AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& options) noexcept {
-  AssetSolution out;
-  out.input_check = validate(in);
-  if (!out.input_check.ok()) return out;
+namespace {
 
-  const double k = in.default_point * std::exp(-in.risk_free_rate_cc * in.horizon_years);
-  const Problem p{in.equity_value, in.equity_vol_annual, k, std::sqrt(in.horizon_years), in.equity_value + k};
+constexpr double kMaxStep = 2.0;      // cap on a Newton step in log units
+constexpr double kStepFloor = 1e-13;  // a step this small means the next would be below rounding
+constexpr double kSettled = 1e-4;     // stop once the residual is this fraction of the tolerance
+constexpr int kMaxHalvings = 60;
 
-  // Box holding the unique solution, in log variables: x = ln(V/K) in [ln(E/K), ln(1 + E/K)].
-  const double e_over_k = p.e / k;
-  const double x_lo =
-      std::isfinite(e_over_k) && e_over_k > 0.0 ? std::log(e_over_k) : std::log(p.e) - std::log(k);
-  const double x_hi = std::isfinite(e_over_k) ? std::log1p(e_over_k) : x_lo + std::log1p(k / p.e);
-  const double y_lo = std::log(p.se * p.e / p.e_plus_k);
-  const double y_hi = std::log(p.se);
-
-  double x = x_hi;
-  double y = y_lo;
-  Eval ev = evaluate(p, x, y);
-  double merit = merit_of(ev);
+// The damped Newton iteration for one obligor as a resumable state machine: trial() performs one
+// function evaluation (one line-search trial) and advances. solve_asset() runs one lane to the
+// end; solve_asset_batch() interleaves several lanes so that their independent evaluations
+// overlap in the processor, with exactly the same arithmetic per obligor.
+struct NewtonLane {
+  Problem p;
+  double x_lo, x_hi, y_lo, y_hi;  // box holding the solution: x = ln(V/K), y = ln sV
+  double x, y;                    // current iterate
+  Eval ev;                        // residuals at (x, y)
+  double merit;
+  double dx = 0.0, dy = 0.0, lambda = 1.0;
+  int halvings = 0;
   int iterations = 0;
-  constexpr double kMaxStep = 2.0;      // cap on a Newton step in log units
-  constexpr double kStepFloor = 1e-13;  // a step this small means the next would be below rounding
-  constexpr double kSettled = 1e-4;     // see the loop's last test
-  constexpr int kMaxHalvings = 60;
+  bool done = false;
 
-  while (iterations < options.max_newton_iterations && merit > 0.0) {
+  void start(const MertonInputs& in, const MertonSolveOptions& o) noexcept {
+    const double k = in.default_point * std::exp(-in.risk_free_rate_cc * in.horizon_years);
+    p = Problem{in.equity_value, in.equity_vol_annual, k, std::sqrt(in.horizon_years), in.equity_value + k};
+    const double e_over_k = p.e / k;
+    x_lo = std::isfinite(e_over_k) && e_over_k > 0.0 ? std::log(e_over_k) : std::log(p.e) - std::log(k);
+    x_hi = std::isfinite(e_over_k) ? std::log1p(e_over_k) : x_lo + std::log1p(k / p.e);
+    y_lo = std::log(p.se * p.e / p.e_plus_k);
+    y_hi = std::log(p.se);
+    x = x_hi;  // V0 = E + K
+    y = y_lo;  // sV0 = sE E / V0
+    ev = evaluate(p, x, y);
+    merit = merit_of(ev);
+    iterations = 0;
+    done = false;
+    plan_step(o);
+  }
+
+  // Newton direction from the analytic Jacobian at the current iterate.
+  void plan_step(const MertonSolveOptions& o) noexcept {
+    if (iterations >= o.max_newton_iterations || !(merit > 0.0)) {
+      done = true;
+      return;
+    }
     ++iterations;
-    const double sqrt_t = p.sqrt_t;
     const double phi = norm_pdf(ev.d1);
     const double inv_e = 1.0 / p.e;
     const double inv_see = 1.0 / (p.se * p.e);
     const double j11 = ev.v * ev.nd1 * inv_e;
-    const double j12 = ev.v * phi * ev.sv * sqrt_t * inv_e;
-    const double j21 = ev.v * (ev.sv * ev.nd1 + phi / sqrt_t) * inv_see;
+    const double j12 = ev.v * phi * ev.sv * p.sqrt_t * inv_e;
+    const double j21 = ev.v * (ev.sv * ev.nd1 + phi / p.sqrt_t) * inv_see;
     const double j22 = ev.sv * ev.v * (ev.nd1 - phi * ev.d2) * inv_see;
     const double det = j11 * j22 - j12 * j21;
-    double dx = (-ev.f1 * j22 + ev.f2 * j12) / det;
-    double dy = (-ev.f2 * j11 + ev.f1 * j21) / det;
-    if (!std::isfinite(dx) || !std::isfinite(dy)) break;
+    dx = (-ev.f1 * j22 + ev.f2 * j12) / det;
+    dy = (-ev.f2 * j11 + ev.f1 * j21) / det;
+    if (!std::isfinite(dx) || !std::isfinite(dy)) {
+      done = true;
+      return;
+    }
     const double big = std::max(std::fabs(dx), std::fabs(dy));
     if (big > kMaxStep) {
       dx *= kMaxStep / big;
       dy *= kMaxStep / big;
     }
-    // Backtracking line search on |F|^2, projected into the box.
-    double lambda = 1.0;
-    bool moved = false;
-    double taken = 0.0;
-    for (int h = 0; h < kMaxHalvings; ++h, lambda *= 0.5) {
-      const double xt = std::clamp(x + lambda * dx, x_lo, x_hi);
-      const double yt = std::clamp(y + lambda * dy, y_lo, y_hi);
-      if (xt == x && yt == y) break;
-      const Eval et = evaluate(p, xt, yt);
-      const double mt = merit_of(et);
-      if (mt < merit) {
-        taken = std::max(std::fabs(xt - x), std::fabs(yt - y));
-        x = xt;
-        y = yt;
-        ev = et;
-        merit = mt;
-        moved = true;
-        break;
-      }
-    }
-    if (!moved || taken < kStepFloor) break;  // at the rounding floor
-    // Quadratic convergence: once the residual is 1e-4 of the tolerance, another step would
-    // only chase rounding noise.
-    if (residual_of(p, ev) <= kSettled * options.residual_tolerance) break;
+    lambda = 1.0;
+    halvings = 0;
   }
 
-  out.iterations = iterations;
-  out.residual = residual_of(p, ev);
-  if (out.residual <= options.residual_tolerance) {
-    out.asset_value = ev.v;
-    out.asset_vol_annual = ev.sv;
-    out.status = SolveStatus::converged;
-    out.method = SolveMethod::newton;
+  // One backtracking trial on |F|^2, projected into the box.
+  void trial(const MertonSolveOptions& o) noexcept {
+    const double xt = std::clamp(x + lambda * dx, x_lo, x_hi);
+    const double yt = std::clamp(y + lambda * dy, y_lo, y_hi);
+    if (xt == x && yt == y) {
+      done = true;
+      return;
+    }
+    const Eval et = evaluate(p, xt, yt);
+    const double mt = merit_of(et);
+    if (mt < merit) {
+      const double taken = std::max(std::fabs(xt - x), std::fabs(yt - y));
+      x = xt;
+      y = yt;
+      ev = et;
+      merit = mt;
+      // At the rounding floor, or settled (a further quadratic step would chase rounding).
+      if (taken < kStepFloor || residual_of(p, ev) <= kSettled * o.residual_tolerance) {
+        done = true;
+        return;
+      }
+      plan_step(o);
+      return;
+    }
+    lambda *= 0.5;
+    if (++halvings >= kMaxHalvings) done = true;
+  }
+
+  // Result of a finished lane; runs the bracketed fallback when Newton fell short.
+  AssetSolution finish(const MertonSolveOptions& o) const noexcept {
+    AssetSolution out;
+    out.iterations = iterations;
+    out.residual = residual_of(p, ev);
+    if (out.residual <= o.residual_tolerance) {
+      out.asset_value = ev.v;
+      out.asset_vol_annual = ev.sv;
+      out.status = SolveStatus::converged;
+      out.method = SolveMethod::newton;
+      return out;
+    }
+    double xb = 0.0;
+    double sv = 0.0;
+    int evals = 0;
+    const bool ok = solve_bracketed(p, x_lo, x_hi, o.max_fallback_iterations, xb, sv, evals);
+    out.iterations = iterations + evals;
+    out.method = SolveMethod::bracketed;
+    const Eval eb = evaluate(p, xb, std::log(sv));
+    out.residual = residual_of(p, eb);
+    if (ok && out.residual <= o.residual_tolerance) {
+      out.asset_value = eb.v;
+      out.asset_vol_annual = sv;
+      out.status = SolveStatus::converged;
+    } else {
+      out.status = SolveStatus::max_iterations;
+    }
     return out;
   }
+};
 
-  // Fallback: bracketed nested 1-D solve.
-  double xb = 0.0;
-  double sv = 0.0;
-  int evals = 0;
-  const bool ok = solve_bracketed(p, x_lo, x_hi, options.max_fallback_iterations, xb, sv, evals);
-  out.iterations = iterations + evals;
-  out.method = SolveMethod::bracketed;
-  const Eval eb = evaluate(p, xb, std::log(sv));
-  out.residual = residual_of(p, eb);
-  if (ok && out.residual <= options.residual_tolerance) {
-    out.asset_value = eb.v;
-    out.asset_vol_annual = sv;
-    out.status = SolveStatus::converged;
-  } else {
-    out.status = SolveStatus::max_iterations;
+}  // namespace
+
+AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& options) noexcept {
+  AssetSolution out;
+  out.input_check = validate(in);
+  if (!out.input_check.ok()) return out;
+  NewtonLane lane;
+  lane.start(in, options);
+  while (!lane.done) lane.trial(options);
+  return lane.finish(options);
+}
+
+void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n,
+                       const MertonSolveOptions& options) noexcept {
+  constexpr std::size_t kLanes = 8;
+  NewtonLane lanes[kLanes];
+  std::size_t owner[kLanes];  // index of the obligor each lane is solving
+  std::size_t active = 0;
+  std::size_t next = 0;
+  // Loads the next valid obligor into lane s; returns false when none is left.
+  const auto load = [&](std::size_t s) {
+    while (next < n) {
+      const std::size_t i = next++;
+      out[i] = AssetSolution{};
+      out[i].input_check = validate(in[i]);
+      if (!out[i].input_check.ok()) continue;
+      lanes[s].start(in[i], options);
+      owner[s] = i;
+      if (!lanes[s].done) return true;
+      out[i] = lanes[s].finish(options);
+    }
+    return false;
+  };
+  for (std::size_t s = 0; s < kLanes && load(s); ++s) active = s + 1;
+  while (active > 0) {
+    for (std::size_t s = 0; s < active;) {
+      NewtonLane& lane = lanes[s];
+      lane.trial(options);
+      if (!lane.done) {
+        ++s;
+        continue;
+      }
+      out[owner[s]] = lane.finish(options);
+      if (load(s)) {
+        ++s;
+        continue;
+      }
+      // No obligor left: move the last active lane into this slot.
+      --active;
+      if (s != active) {
+        lanes[s] = lanes[active];
+        owner[s] = owner[active];
+      }
+    }
   }
-  return out;
 }
 
 }  // namespace firmcall

@@ -124,3 +124,28 @@ TEST_CASE("the solver allocates nothing") {
   CHECK(sink > 0.0);
   CHECK(after == before);
 }
+
+TEST_CASE("the interleaved batch solver returns exactly what the one-at-a-time solver returns") {
+  std::vector<MertonInputs> book = testing::generated_obligors(3000, 314);
+  // Mix in hard corners (fallback), invalid inputs and trivial ones.
+  book.push_back({1.0, 1.5, 1e4, 0.0, 5.0, 0.0});
+  book.push_back({250.0, 0.2, 2.5e6, -0.02, 30.0, -0.02});
+  book.push_back({-1.0, 0.3, 1.0, 0.0, 1.0, 0.0});
+  book.push_back({100.0, 0.3, 1e-3, 0.01, 1.0, 0.01});
+  book.insert(book.begin() + 17, {1.0, 0.0, 1.0, 0.0, 1.0, 0.0});
+  std::vector<AssetSolution> batch(book.size());
+  solve_asset_batch(book.data(), batch.data(), book.size());
+  std::size_t same = 0;
+  for (std::size_t i = 0; i < book.size(); ++i) {
+    const AssetSolution one = solve_asset(book[i]);
+    const bool eq = one.status == batch[i].status && one.method == batch[i].method &&
+                    one.iterations == batch[i].iterations && one.asset_value == batch[i].asset_value &&
+                    one.asset_vol_annual == batch[i].asset_vol_annual && one.residual == batch[i].residual &&
+                    one.input_check.field == batch[i].input_check.field;
+    same += eq;
+  }
+  CHECK(same == book.size());
+  CHECK(batch[17].status == SolveStatus::invalid_input);
+  CHECK(batch[3001].method == SolveMethod::bracketed);  // the leverage-1e4 corner
+  solve_asset_batch(book.data(), batch.data(), 0);      // empty batch is fine
+}

@@ -20,6 +20,7 @@
 //   if (s.usable()) use(s.asset_value, s.asset_vol_annual);
 #pragma once
 
+#include <cstddef>
 #include <cstdint>
 #include <string_view>
 
@@ -58,6 +59,11 @@ struct AssetSolution {
 
 /// Solves the Merton system for (V, sV). Never throws, never allocates.
 AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& options = {}) noexcept;
+
+/// Solves n obligors: out[i] is exactly what solve_asset(in[i], options) returns, but several
+/// obligors are iterated in an interleaved way so that their independent evaluations overlap.
+void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n,
+                       const MertonSolveOptions& options = {}) noexcept;
 
 /// The residual measure used for acceptance, at an arbitrary (V, sV).
 double solve_residual(const MertonInputs& in, double asset_value, double asset_vol_annual) noexcept;
