@@ -25,17 +25,15 @@ std::string_view to_string(RowStatus s) noexcept {
   return "";
 }
 
-void score_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
-                   ScoredObligor& out) {
+namespace {
+// Status, message and measures once out.resolved and (for resolved obligors) out.solution are set.
+void complete_score(const ObligorRecord& rec, ScoredObligor& out) {
   out.message.clear();
-  out.solution = AssetSolution{};
-  resolve_obligor(rec, book, settings, out.resolved);
   if (!out.resolved.ok()) {
     out.status = RowStatus::invalid_input;
     out.message = "line " + std::to_string(rec.line) + ": " + out.resolved.error;
     return;
   }
-  out.solution = solve_asset(out.resolved.inputs, settings.solver);
   if (!out.solution.usable()) {
     out.status = RowStatus::not_converged;
     char buf[160];
@@ -55,6 +53,15 @@ void score_obligor(const ObligorRecord& rec, const BookDefaults& book, const Sco
     return;
   }
   out.status = RowStatus::ok;
+}
+}  // namespace
+
+void score_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
+                   ScoredObligor& out) {
+  out.solution = AssetSolution{};
+  resolve_obligor(rec, book, settings, out.resolved);
+  if (out.resolved.ok()) out.solution = solve_asset(out.resolved.inputs, settings.solver);
+  complete_score(rec, out);
 }
 
 namespace {
@@ -134,6 +141,9 @@ struct Worker {
   std::size_t scored_n = 0, invalid_n = 0, not_converged_n = 0, iterations = 0;
   std::vector<std::string_view> fields;
   std::string scratch;
+  std::vector<ResolvedObligor> resolved;  // one per row of the slice
+  std::vector<MertonInputs> inputs;       // the resolved ones, solved together
+  std::vector<AssetSolution> solutions;
 };
 
 // Scores records [0, n) of `recs` in parallel and writes them in order to the sink.
@@ -160,8 +170,20 @@ class BatchScorer {
     parallel_slices(n, run_.threads, [&](unsigned w, std::size_t b, std::size_t e) {
       Worker& wk = workers_[w];
       wk.out.clear();
+      // Resolve the slice, solve its valid obligors together, then measure and format in order.
+      if (wk.resolved.size() < e - b) wk.resolved.resize(e - b);
+      wk.inputs.clear();
       for (std::size_t i = b; i < e; ++i) {
-        score_obligor(recs[i], book_, settings_, wk.scored);
+        resolve_obligor(recs[i], book_, settings_, wk.resolved[i - b]);
+        if (wk.resolved[i - b].ok()) wk.inputs.push_back(wk.resolved[i - b].inputs);
+      }
+      wk.solutions.resize(wk.inputs.size());
+      solve_asset_batch(wk.inputs.data(), wk.solutions.data(), wk.inputs.size(), settings_.solver);
+      std::size_t solved_index = 0;
+      for (std::size_t i = b; i < e; ++i) {
+        std::swap(wk.scored.resolved, wk.resolved[i - b]);
+        wk.scored.solution = wk.scored.resolved.ok() ? wk.solutions[solved_index++] : AssetSolution{};
+        complete_score(recs[i], wk.scored);
         if (base + i > 0) wk.out.append(writer_->separator());
         writer_->row(recs[i], wk.scored, wk.out);
         switch (wk.scored.status) {

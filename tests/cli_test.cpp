@@ -44,7 +44,7 @@ TEST_CASE("score the sample book as CSV: every column, every obligor, exit 0") {
     CHECK(("," + lines[0] + ",").find(std::string(",") + col + ",") != std::string::npos);
   }
   for (std::size_t i = 1; i < lines.size(); ++i) CHECK(lines[i].find(",ok,") != std::string::npos);
-  CHECK(r.err == "firmcall: scored 36 of 36 obligors\n");
+  CHECK(r.err.rfind("firmcall: scored 36 of 36 obligors; mean solver iterations ", 0) == 0);
   // The YAML and CSV forms of the same book give the same numbers for the shared obligors.
   const auto c = run_firmcall("score samples/demo_book.csv --format csv");
   CHECK(c.exit_code == 0);

@@ -102,6 +102,13 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
             std::cerr << " (" << summary.invalid << " invalid input, " << summary.not_converged
                       << " not converged)";
           }
+          if (summary.scored > 0) {
+            char buf[64];
+            std::snprintf(
+                buf, sizeof buf, "; mean solver iterations %.2f",
+                static_cast<double>(summary.newton_iterations) / static_cast<double>(summary.scored));
+            std::cerr << buf;
+          }
           std::cerr << "\n";
         }
       }
