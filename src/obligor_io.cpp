@@ -2,6 +2,7 @@
 
 #include <yaml-cpp/yaml.h>
 
+#include <algorithm>
 #include <string_view>
 #include <unordered_map>
 
@@ -41,8 +42,14 @@ void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& 
     rec.read_error = "obligor entry is not a map of field: value";
     return;
   }
+  std::vector<std::string> seen;
   for (const auto& kv : node) {
     const std::string key = kv.first.Scalar();
+    if (std::find(seen.begin(), seen.end(), key) != seen.end()) {
+      if (rec.read_error.empty()) rec.read_error = "field '" + key + "' is given twice";
+      continue;
+    }
+    seen.push_back(key);
     std::optional<NumField> num;
     std::optional<TextField> text;
     if (!field_from_string(key, num, text)) {
@@ -60,6 +67,9 @@ void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& 
     const std::string& value = kv.second.Scalar();
     if (text) {
       rec.get(*text) = value;
+      if (!valid_utf8(value) && rec.read_error.empty()) {
+        rec.read_error = "field '" + key + "': not valid UTF-8 (save the file as UTF-8)";
+      }
       continue;
     }
     if (value.empty() || value == "~" || value == "null") continue;  // left empty: absent
@@ -159,6 +169,10 @@ Book parse_csv_book(const std::string& text, const std::string& origin) {
 Book load_book(const std::string& path) {
   const BookFormat fmt = book_format_of(path);
   const std::string text = detail::read_text_file(path);
+  if (fmt == BookFormat::yaml && text.size() > kMaxYamlBookBytes) {
+    throw InputError("'" + path +
+                     "': a YAML book larger than 64 MiB; YAML is for hand-written books, use CSV");
+  }
   return fmt == BookFormat::yaml ? parse_yaml_book(text, path) : parse_csv_book(text, path);
 }
 

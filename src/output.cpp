@@ -1,5 +1,7 @@
 #include "firmcall/output.hpp"
 
+#include "firmcall/csv.hpp"
+
 #include <array>
 #include <bit>
 #include <charconv>
@@ -151,6 +153,19 @@ void append_csv_text(std::string& out, std::string_view s) {
 }
 
 void append_json_string(std::string& out, std::string_view s) {
+  if (!valid_utf8(s)) {
+    // Keep the JSON well-formed: each byte outside ASCII becomes U+FFFD.
+    std::string clean;
+    for (char c : s) {
+      if (static_cast<unsigned char>(c) < 0x80) {
+        clean.push_back(c);
+      } else {
+        clean += "\xEF\xBF\xBD";
+      }
+    }
+    append_json_string(out, clean);
+    return;
+  }
   out.push_back('"');
   for (char c : s) {
     const auto u = static_cast<unsigned char>(c);

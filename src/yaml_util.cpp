@@ -93,8 +93,14 @@ void yaml_check_keys(const YAML::Node& node, std::initializer_list<std::string_v
   if (!node.IsMap()) {
     throw InputError(located(origin, yaml_line(node), std::string(where) + ": expected a map of key: value"));
   }
+  std::vector<std::string> seen;
   for (const auto& kv : node) {
     const std::string key = kv.first.Scalar();
+    if (std::find(seen.begin(), seen.end(), key) != seen.end()) {
+      throw InputError(
+          located(origin, yaml_line(kv.first), std::string(where) + ": key '" + key + "' is given twice"));
+    }
+    seen.push_back(key);
     if (std::find(allowed.begin(), allowed.end(), key) != allowed.end()) continue;
     std::string msg = std::string(where) + ": unknown key '" + key + "'";
     const std::string hint = closest_name(key, allowed);

@@ -46,6 +46,9 @@ struct CsvColumns {
 void parse_obligor_fields(const std::vector<std::string_view>& fields, const CsvColumns& cols,
                           ObligorRecord& rec);
 
+/// True when s is well-formed UTF-8 (RFC 3629: no overlongs, surrogates or values past U+10FFFF).
+bool valid_utf8(std::string_view s) noexcept;
+
 /// Parses a decimal number cell (surrounding spaces allowed). Returns false on anything else,
 /// including nan, inf and out-of-range values.
 bool parse_number(std::string_view cell, double& value) noexcept;

@@ -90,6 +90,7 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
       }
       if (!global.quiet) {
         for (const auto& n : summary.notes) std::cerr << "firmcall: " << n << "\n";
+        if (summary.total == 0) std::cerr << "firmcall: note: " << opts->book << " has no obligors\n";
         if (runopts.format != OutputFormat::table) {
           for (const auto& p : summary.problems) std::cerr << "firmcall: " << p << "\n";
           if (summary.problems_not_listed > 0) {
