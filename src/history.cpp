@@ -424,7 +424,7 @@ void run_naive(const EquityHistoryView& hv, HistoryWorkspace& ws, AssetDynamics&
 }  // namespace
 
 HistoryCheck validate(const EquityHistoryView& h, const HistorySettings& s) noexcept {
-  const auto bad = [](const char* m, std::size_t i = 0) {
+  const auto bad = [](const char* m, std::size_t i = kNoIndex) {
     return HistoryCheck{EstimateStatus::invalid_input, m, i};
   };
   if (!(s.trading_days_per_year > 0.0) || !std::isfinite(s.trading_days_per_year))
@@ -451,7 +451,7 @@ HistoryCheck validate(const EquityHistoryView& h, const HistorySettings& s) noex
   }
   if (n < 3 || n < static_cast<std::size_t>(s.min_observations)) {
     return {EstimateStatus::too_short, "fewer observations than history.min_observations (and at least 3)",
-            n};
+            kNoIndex};
   }
   return {};
 }

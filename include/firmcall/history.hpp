@@ -92,11 +92,14 @@ struct EquityVolEstimate {
   int returns = 0;                      ///< number of returns (observations - 1)
 };
 
+/// Marks "no particular observation" in HistoryCheck::index and AssetDynamics::bad_index.
+inline constexpr std::size_t kNoIndex = static_cast<std::size_t>(-1);
+
 /// Validation result: the first broken constraint with its position (static message).
 struct HistoryCheck {
   EstimateStatus status = EstimateStatus::converged;  ///< converged means valid
   const char* message = "";
-  std::size_t index = 0;  ///< offending observation (0-based), where one applies
+  std::size_t index = kNoIndex;  ///< offending observation (0-based), or kNoIndex
   bool ok() const noexcept { return status == EstimateStatus::converged; }
 };
 
@@ -118,7 +121,7 @@ struct AssetDynamics {
   HistoryMethod method = HistoryMethod::iterative;
   EstimateStatus status = EstimateStatus::invalid_input;
   const char* message = "estimate_asset_dynamics() was not called";  ///< static text
-  std::size_t bad_index = 0;  ///< observation named by an invalid_input or inversion_failed status
+  std::size_t bad_index = kNoIndex;  ///< observation behind invalid_input / inversion_failed, or kNoIndex
 
   EquityVolEstimate equity_vol;  ///< both equity volatility estimates of the window
   double equity_vol_used = 0.0;  ///< sE the method used (naive; iterative start)
