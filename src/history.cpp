@@ -89,6 +89,7 @@ constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 struct CallEval {
   double call;
   double nd1;
+  double d1;
 };
 
 inline CallEval call_eval(double v, double k, double s) noexcept {
@@ -97,22 +98,26 @@ inline CallEval call_eval(double v, double k, double s) noexcept {
   if (d2 > 0.0) {
     // (V - K) + put: accurate deep in the money.
     const double sf1 = norm_sf(d1);
-    return {(v - k) + (k * norm_sf(d2) - v * sf1), 1.0 - sf1};
+    return {(v - k) + (k * norm_sf(d2) - v * sf1), 1.0 - sf1, d1};
   }
   const double nd1 = norm_cdf(d1);
-  return {v * nd1 - k * norm_cdf(d2), nd1};
+  return {v * nd1 - k * norm_cdf(d2), nd1, d1};
 }
 
 // Solves C(V) = E on [E, E + K]. C is increasing (dC/dV = N(d1) > 0) and convex in V, so a
 // Newton step from the right of the root stays right of it and the iterates decrease
 // monotonically; a bracket [a, b] catches the rest (steps from the left, N(d1) underflow) by
-// bisection. Returns NaN if 200 steps do not reach the rounding floor.
-inline double invert_call(double e, double k, double s, double guess) noexcept {
+// bisection. Newton converges quadratically, so once a step is below 1e-9 V the iterate after it
+// is exact to rounding. On return `nd1` and `d1` hold N(d1) and d1 at the last evaluation (one
+// step before the returned value). Returns NaN if 200 steps do not settle.
+inline double invert_call(double e, double k, double s, double guess, double& nd1, double& d1) noexcept {
   double a = e;
   double b = e + k;
   double v = (guess > a && guess < b) ? guess : b;
   for (int i = 0; i < 200; ++i) {
     const CallEval c = call_eval(v, k, s);
+    nd1 = c.nd1;
+    d1 = c.d1;
     const double f = c.call - e;
     if (f == 0.0) return v;
     if (f < 0.0) {
@@ -121,8 +126,11 @@ inline double invert_call(double e, double k, double s, double guess) noexcept {
       b = v;
     }
     double vn = v - f / c.nd1;
-    if (!(vn > a && vn < b)) vn = 0.5 * (a + b);
-    if (std::fabs(vn - v) <= 4.0 * std::numeric_limits<double>::epsilon() * v) return vn;
+    if (vn >= a && vn <= b) {
+      if (std::fabs(vn - v) <= 1e-9 * v) return vn;  // includes a step lost to rounding
+    } else {
+      vn = 0.5 * (a + b);  // Newton left the bracket: bisect
+    }
     if (b - a <= 4.0 * std::numeric_limits<double>::epsilon() * b) return 0.5 * (a + b);
     v = vn;
   }
@@ -130,27 +138,32 @@ inline double invert_call(double e, double k, double s, double guess) noexcept {
 }
 
 // Mean and variance (per year) of the log returns of x with spans h (h[0] unused):
-// m = sum r / sum h, s2 = sum (r - m h)^2 / h / (n - 1).
+// m = sum r / sum h, s2 = sum (r - m h)^2 / h / (n - 1). `r` is scratch of the same length.
 struct ReturnStats {
   double m = 0.0;
   double s2 = 0.0;
   double years = 0.0;
 };
 
-ReturnStats log_return_stats(std::span<const double> x, std::span<const double> h) noexcept {
+ReturnStats log_return_stats(std::span<const double> x, std::span<const double> h,
+                             std::span<double> r) noexcept {
   ReturnStats st;
   const std::size_t n = x.size();
   double sum_r = 0.0;
   double sum_h = 0.0;
+  double log_prev = std::log(x[0]);
   for (std::size_t t = 1; t < n; ++t) {
-    sum_r += std::log(x[t] / x[t - 1]);
+    const double log_x = std::log(x[t]);
+    r[t] = log_x - log_prev;
+    log_prev = log_x;
+    sum_r += r[t];
     sum_h += h[t];
   }
   st.m = sum_r / sum_h;
   st.years = sum_h;
   double q = 0.0;
   for (std::size_t t = 1; t < n; ++t) {
-    const double d = std::log(x[t] / x[t - 1]) - st.m * h[t];
+    const double d = r[t] - st.m * h[t];
     q += d * d / h[t];
   }
   st.s2 = q / static_cast<double>(n - 2);  // n - 1 returns, n - 2 degrees of freedom
@@ -165,11 +178,11 @@ void prepare(const EquityHistoryView& hv, const HistorySettings& settings, Histo
   ws.pd.resize(n);
   ws.strike.resize(n);
   ws.span_years.resize(n);
+  ws.vol_sensitivity.resize(n);
+  ws.returns.resize(n);
   const double disc = std::exp(-hv.risk_free_rate_cc * hv.horizon_years);
-  for (std::size_t t = 0; t < n; ++t) {
-    ws.strike[t] = hv.default_point[t] * disc;
-    ws.asset_value[t] = hv.equity_value[t] + ws.strike[t];  // right end of the bracket
-  }
+  for (std::size_t t = 0; t < n; ++t) ws.strike[t] = hv.default_point[t] * disc;
+  ws.solved_asset_vol = 0.0;  // no solution yet: invert_all starts cold
   ws.span_years[0] = 0.0;
   for (std::size_t t = 1; t < n; ++t) {
     ws.span_years[t] =
@@ -177,16 +190,36 @@ void prepare(const EquityHistoryView& hv, const HistorySettings& settings, Histo
   }
 }
 
-// Inverts every day for sV (warm start from ws.asset_value). Returns the index + 1 of the first
-// failure, 0 on success.
+// Inverts every day for sV. Starting values: from a previous solution at sV', the first-order
+// prediction V_t + (dV_t/dsV)(sV - sV'), with dV/dsV = -V phi(d1) sqrt(T) / N(d1) (implicit
+// function theorem on C(V, sV) = E); cold, the previous day's solution moved by the change in
+// E + K (the first day starts at the bracket's right end E + K). Returns the index + 1 of the
+// first failure, 0 on success.
 std::size_t invert_all(const EquityHistoryView& hv, double sv, HistoryWorkspace& ws) noexcept {
-  const double s = sv * std::sqrt(hv.horizon_years);
+  const double sqrt_t = std::sqrt(hv.horizon_years);
+  const double s = sv * sqrt_t;
   const std::size_t n = hv.equity_value.size();
+  const double prev_sv = ws.solved_asset_vol;
+  ws.solved_asset_vol = 0.0;
   for (std::size_t t = 0; t < n; ++t) {
-    const double v = invert_call(hv.equity_value[t], ws.strike[t], s, ws.asset_value[t]);
+    const double e = hv.equity_value[t];
+    const double k = ws.strike[t];
+    double guess;
+    if (prev_sv > 0.0) {
+      guess = ws.asset_value[t] + ws.vol_sensitivity[t] * (sv - prev_sv);
+    } else if (t > 0) {
+      guess = ws.asset_value[t - 1] + (e - hv.equity_value[t - 1]) + (k - ws.strike[t - 1]);
+    } else {
+      guess = e + k;
+    }
+    double nd1 = 0.0;
+    double d1 = 0.0;
+    const double v = invert_call(e, k, s, guess, nd1, d1);
     if (!std::isfinite(v)) return t + 1;
     ws.asset_value[t] = v;
+    ws.vol_sensitivity[t] = nd1 > 0.0 ? -v * norm_pdf(d1) * sqrt_t / nd1 : 0.0;
   }
+  ws.solved_asset_vol = sv;
   return 0;
 }
 
@@ -224,7 +257,7 @@ void run_iterative(const EquityHistoryView& hv, const HistorySettings& settings,
       a.bad_index = bad - 1;
       return;
     }
-    const ReturnStats st = log_return_stats(ws.asset_value, ws.span_years);
+    const ReturnStats st = log_return_stats(ws.asset_value, ws.span_years, ws.returns);
     const double sv_new = std::sqrt(st.s2);
     if (!(sv_new > 0.0) || !std::isfinite(sv_new)) {
       a.status = EstimateStatus::invalid_input;
@@ -247,7 +280,7 @@ void run_iterative(const EquityHistoryView& hv, const HistorySettings& settings,
     a.bad_index = bad - 1;
     return;
   }
-  const ReturnStats st = log_return_stats(ws.asset_value, ws.span_years);
+  const ReturnStats st = log_return_stats(ws.asset_value, ws.span_years, ws.returns);
   a.asset_vol_annual = sv;
   a.drift_annual = st.m + 0.5 * sv * sv;
   fill_series(hv, sv, a.drift_annual, ws);
@@ -536,7 +569,9 @@ double asset_value_from_equity(double equity_value, double default_point, double
     return kNaN;
   }
   const double k = default_point * std::exp(-risk_free_rate_cc * horizon_years);
-  return invert_call(equity_value, k, asset_vol_annual * std::sqrt(horizon_years), guess);
+  double nd1 = 0.0;
+  double d1 = 0.0;
+  return invert_call(equity_value, k, asset_vol_annual * std::sqrt(horizon_years), guess, nd1, d1);
 }
 
 NaiveDistance naive_distance_to_default(double e, double f, double se, double r_prev, double t) noexcept {

@@ -212,14 +212,33 @@ EquityHistory parse_equity_history(std::string_view text, const std::string& ori
     std::size_t first_empty_line = 0;
   };
   std::vector<Pending> pending;
-  std::size_t last = static_cast<std::size_t>(-1);  // cache: rows usually come grouped by obligor
+  // Rows go to one array first (sized from the line count), then to exact-size per-obligor arrays.
+  struct ParsedRow {
+    std::uint32_t obligor;
+    std::int32_t date;
+    std::uint32_t line;
+    double equity_value;
+  };
+  std::vector<ParsedRow> parsed;
+  parsed.reserve(count_lines(text) + 1);
+  // Caches: files come grouped by obligor or by date with obligors in a fixed order, so the
+  // next id is usually the last one or the one after it, and the date usually the last one.
+  std::size_t last = static_cast<std::size_t>(-1);
+  std::string last_date_text;  // a copy: a quoted cell may live in reused scratch memory
+  std::int32_t last_date = 0;
   while (cursor.next(fields, line)) {
     const std::size_t id_col = col(kId);
     const std::string_view id = id_col < fields.size() ? trim(fields[id_col]) : std::string_view{};
     if (id.empty()) {
       throw InputError(located(origin, line, "field 'id': missing (every row needs an obligor id)"));
     }
-    if (last == static_cast<std::size_t>(-1) || h.obligors[last].id != id) {
+    if (last != static_cast<std::size_t>(-1) && h.obligors[last].id == id) {
+      // same obligor as the last row
+    } else if (last + 1 < h.obligors.size() && h.obligors[last + 1].id == id) {
+      ++last;
+    } else if (last != static_cast<std::size_t>(-1) && !h.obligors.empty() && h.obligors[0].id == id) {
+      last = 0;
+    } else {
       const auto it = h.index.find(id);
       if (it != h.index.end()) {
         last = it->second;
@@ -237,10 +256,18 @@ EquityHistory parse_equity_history(std::string_view text, const std::string& ori
               std::to_string(hdr.width));
       continue;
     }
-    const std::optional<std::int32_t> date = parse_iso_date(fields[col(kDate)]);
-    if (!date) {
-      problem(not_a_date("date", fields[col(kDate)]));
-      continue;
+    const std::string_view date_text = fields[col(kDate)];
+    std::optional<std::int32_t> date;
+    if (!last_date_text.empty() && date_text == last_date_text) {
+      date = last_date;
+    } else {
+      date = parse_iso_date(date_text);
+      if (!date) {
+        problem(not_a_date("date", date_text));
+        continue;
+      }
+      last_date_text.assign(date_text);
+      last_date = *date;
     }
     double e = 0.0;
     Cell mc = Cell::absent;
@@ -298,7 +325,15 @@ EquityHistory parse_equity_history(std::string_view text, const std::string& ori
       if (p.empty_rows++ == 0) p.first_empty_line = line;
       continue;
     }
-    ob.rows.push_back({*date, 0, static_cast<std::uint32_t>(line), e});
+    parsed.push_back({static_cast<std::uint32_t>(last), *date, static_cast<std::uint32_t>(line), e});
+  }
+  {
+    std::vector<std::size_t> count(h.obligors.size(), 0);
+    for (const ParsedRow& r : parsed) ++count[r.obligor];
+    for (std::size_t i = 0; i < h.obligors.size(); ++i) h.obligors[i].rows.reserve(count[i]);
+    for (const ParsedRow& r : parsed)
+      h.obligors[r.obligor].rows.push_back({r.date, 0, r.line, r.equity_value});
+    std::vector<ParsedRow>().swap(parsed);
   }
 
   // Trading calendar: every date in the file.

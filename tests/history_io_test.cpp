@@ -217,3 +217,37 @@ TEST_CASE("balance sheets: sorted by date, problems per obligor") {
                        "'default_point') are missing",
                        InputError);
 }
+
+TEST_CASE("equity history: rows grouped by date or by obligor read the same") {
+  // The reader guesses the next id from the last one; any row order must give the same result.
+  std::string by_date = "date,id,market_cap\n";
+  std::string by_obligor = "date,id,market_cap\n";
+  std::string shuffled = "date,id,market_cap\n";
+  const char* ids[] = {"AAA", "BBB", "CCC"};
+  const auto row = [&](int d, int i) {
+    return format_iso_date(20455 + d) + "," + ids[i] + "," + std::to_string(100 + 7 * d + i) + "\n";
+  };
+  for (int d = 0; d < 5; ++d) {
+    for (int i = 0; i < 3; ++i) by_date += row(d, i);
+  }
+  for (int i = 0; i < 3; ++i) {
+    for (int d = 0; d < 5; ++d) by_obligor += row(d, i);
+  }
+  for (int k = 0; k < 15; ++k) shuffled += row((k * 7) % 5, (k * 2) % 3);  // every (d, i) once
+  for (const std::string* text : {&by_obligor, &shuffled}) {
+    const EquityHistory a = parse_equity_history(by_date, "a.csv");
+    const EquityHistory b = parse_equity_history(*text, "b.csv");
+    for (const char* id : ids) {
+      CAPTURE(id);
+      const auto& ra = get(a, id).rows;
+      const auto& rb = get(b, id).rows;
+      REQUIRE(ra.size() == 5);
+      REQUIRE(rb.size() == 5);
+      for (std::size_t k = 0; k < 5; ++k) {
+        CHECK(ra[k].date == rb[k].date);
+        CHECK(ra[k].equity_value == rb[k].equity_value);
+        CHECK(ra[k].trading_day == rb[k].trading_day);
+      }
+    }
+  }
+}

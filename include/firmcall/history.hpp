@@ -154,8 +154,11 @@ struct HistoryWorkspace {
   std::vector<double> asset_value;
   std::vector<double> distance_to_default;
   std::vector<double> pd;
-  std::vector<double> strike;      ///< DP_t exp(-r T)
-  std::vector<double> span_years;  ///< h_t of the return ending at t (index 0 unused)
+  std::vector<double> strike;           ///< DP_t exp(-r T)
+  std::vector<double> span_years;       ///< h_t of the return ending at t (index 0 unused)
+  std::vector<double> vol_sensitivity;  ///< dV_t/dsV at the last solution (starting values)
+  std::vector<double> returns;          ///< scratch: log returns
+  double solved_asset_vol = 0.0;        ///< sV of the V_t held in asset_value; 0: none
 };
 
 /// Runs the chosen method. Never throws; allocates only when the workspace must grow.
