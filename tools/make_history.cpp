@@ -9,7 +9,7 @@
 //   firmcall_make_history samples OUTDIR
 //       history_book.yaml, history_prices.csv, history_balance_sheets.csv, history_bad_prices.csv
 //   firmcall_make_history bench OUTDIR OBLIGORS DAYS [SEED]
-//       bench_book.csv, bench_prices.csv
+//       bench_book.csv, bench_prices.csv, bench_truth.csv (the simulated sV and mu)
 #include <cmath>
 #include <cstdint>
 #include <cstdio>
@@ -242,16 +242,22 @@ int write_bench(const std::string& dir, int obligors, int days_n, std::uint64_t 
   std::vector<Firm> firms(static_cast<std::size_t>(obligors));
   {
     File f(dir + "/bench_book.csv");
+    File truth(dir + "/bench_truth.csv");
+    std::fprintf(truth.f, "id,asset_vol,drift\n");
     std::fprintf(f.f, "id,name,short_term_debt,long_term_debt,rate\n");
     for (int i = 0; i < obligors; ++i) {
       Firm& firm = firms[static_cast<std::size_t>(i)];
       const double v0 = uniform(gen, 500.0, 5000.0);
       const double leverage = uniform(gen, 0.2, 0.9);
-      const double st = 0.4 * leverage * v0;
-      const double lt = 2.0 * (leverage * v0 - st);  // DP = st + 0.5 lt = leverage x V0
-      firm = {std::log(v0), uniform(gen, 0.10, 0.50), uniform(gen, -0.05, 0.15), st + 0.5 * lt,
-              uniform(gen, 0.01, 0.05)};
+      // DP = st + 0.5 lt = leverage x V0; values rounded as printed so the book matches the truth.
+      const double st = std::round(0.4 * leverage * v0 * 100.0) / 100.0;
+      const double lt = std::round(2.0 * (leverage * v0 - st) * 100.0) / 100.0;
+      const double asset_vol = uniform(gen, 0.10, 0.50);
+      const double drift = uniform(gen, -0.05, 0.15);
+      const double rate = std::round(uniform(gen, 0.01, 0.05) * 1e4) / 1e4;
+      firm = {std::log(v0), asset_vol, drift, st + 0.5 * lt, rate};
       std::fprintf(f.f, "SIM-%06d,Simulated obligor %d,%.2f,%.2f,%.4f\n", i + 1, i + 1, st, lt, firm.rate);
+      std::fprintf(truth.f, "SIM-%06d,%.17g,%.17g\n", i + 1, firm.asset_vol, firm.drift);
     }
   }
   File f(dir + "/bench_prices.csv");
