@@ -803,7 +803,8 @@ ScoreSummary score_with_history(const HistorySources& src, const ScoreSettings& 
     if (j.last_default_point_from_sheet) rec.set(NumField::default_point, j.default_point.back());
   }
   if (notes > run.max_listed_problems) {
-    scored.notes.push_back("... and " + std::to_string(notes - run.max_listed_problems) + " more obligor notes");
+    scored.notes.push_back("... and " + std::to_string(notes - run.max_listed_problems) +
+                           " more obligor notes");
   }
   return score_book(scored, score_settings, run, sink);
 }
