@@ -73,6 +73,8 @@ std::string_view to_string(EstimateStatus s) noexcept {
       return "singular_information";
     case EstimateStatus::inversion_failed:
       return "inversion_failed";
+    case EstimateStatus::degenerate:
+      return "degenerate";
     case EstimateStatus::too_short:
       return "too_short";
     case EstimateStatus::invalid_input:
@@ -260,8 +262,10 @@ void run_iterative(const EquityHistoryView& hv, const HistorySettings& settings,
     const ReturnStats st = log_return_stats(ws.asset_value, ws.span_years, ws.returns);
     const double sv_new = std::sqrt(st.s2);
     if (!(sv_new > 0.0) || !std::isfinite(sv_new)) {
-      a.status = EstimateStatus::invalid_input;
-      a.message = "the implied asset values do not vary: asset volatility is zero";
+      a.status = EstimateStatus::degenerate;
+      a.message =
+          "the asset values implied at this asset volatility do not vary (equity far out of the money at "
+          "the start value sE E/(E + DP)); the mle method may still apply";
       return;
     }
     a.last_change = std::fabs(sv_new - sv);

@@ -376,3 +376,43 @@ TEST_CASE("two-sided normal quantile") {
   CHECK(two_sided_normal_quantile(0.90) == doctest::Approx(1.644853627).epsilon(1e-9));
   CHECK(std::isnan(two_sided_normal_quantile(1.0)));
 }
+
+TEST_CASE("random and extreme histories end with a status and finite usable estimates") {
+  // Robustness grid (common practice, no reference value): equity from far out of the money to
+  // far in the money, volatilities from 1% to 150%, every method. Whatever the status, a usable
+  // result must be finite and a failed one must say why.
+  std::mt19937_64 gen(2024);
+  int usable = 0;
+  for (int i = 0; i < 120; ++i) {
+    std::uniform_real_distribution<double> u(0.0, 1.0);
+    const double sv = 0.01 + 1.49 * u(gen);
+    const double dp = 1000.0 * std::pow(10.0, -2.0 + 4.0 * u(gen));  // DP/V0 from 0.01 to 100
+    SimulationSpec spec{.seed = 7000u + static_cast<std::uint64_t>(i),
+                        .observations = 130,
+                        .asset_vol = sv,
+                        .drift = -0.2 + 0.4 * u(gen),
+                        .default_point = dp};
+    SimulatedHistory s = simulate(spec);
+    bool positive = true;
+    for (double e : s.equity_value) positive = positive && e > 0.0 && std::isfinite(e);
+    if (!positive) continue;  // equity rounded to zero: not a history anyone could observe
+    for (HistoryMethod m : {HistoryMethod::iterative, HistoryMethod::mle, HistoryMethod::naive}) {
+      CAPTURE(i);
+      CAPTURE(to_string(m));
+      const AssetDynamics a = run(s, m);
+      if (a.usable()) {
+        ++usable;
+        CHECK(std::isfinite(a.asset_vol_annual));
+        CHECK(a.asset_vol_annual > 0.0);
+        CHECK(std::isfinite(a.asset_value));
+        CHECK(std::isfinite(a.distance_to_default));
+        CHECK(a.pd >= 0.0);
+        CHECK(a.pd <= 1.0);
+      } else {
+        CHECK(std::string_view(a.message).size() > 0);
+      }
+    }
+  }
+  MESSAGE("usable estimates on the random grid: ", usable);
+  CHECK(usable > 200);
+}

@@ -68,6 +68,7 @@ std::optional<VolEstimator> vol_estimator_from_string(std::string_view s) noexce
 /// boundary: the likelihood maximum lies on the edge of the search interval, not usable.
 /// singular_information: the observed information is not positive definite, not usable.
 /// inversion_failed: some day's equity value could not be inverted for V_t, not usable.
+/// degenerate: the implied asset values do not vary, so sV cannot be estimated, not usable.
 /// too_short: fewer observations than min_observations. invalid_input: validation failed.
 enum class EstimateStatus : std::uint8_t {
   converged,
@@ -75,6 +76,7 @@ enum class EstimateStatus : std::uint8_t {
   boundary,
   singular_information,
   inversion_failed,
+  degenerate,
   too_short,
   invalid_input
 };
