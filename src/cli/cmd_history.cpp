@@ -125,9 +125,19 @@ void add_history_command(CLI::App& app, const GlobalOptions& global, CommandRun&
         }
         if (!global.quiet) {
           print_lines(summary.notes);
-          if (runopts.format != OutputFormat::table) print_lines(summary.problems);
+          if (runopts.format != OutputFormat::table) {
+            print_lines(summary.problems);
+            if (summary.problems_not_listed > 0) {
+              std::cerr << "firmcall: ... and " << summary.problems_not_listed << " more (column message)\n";
+            }
+          }
           if (runopts.format != OutputFormat::table || !opts->output.empty()) {
-            std::cerr << "firmcall: scored " << summary.scored << " of " << summary.total << " obligors\n";
+            std::cerr << "firmcall: scored " << summary.scored << " of " << summary.total << " obligors";
+            if (summary.failed() > 0) {
+              std::cerr << " (" << summary.invalid << " invalid input, " << summary.not_converged
+                        << " not converged)";
+            }
+            std::cerr << "\n";
           }
         }
         return summary.failed() > 0 ? kExitRowsFailed : kExitOk;
