@@ -172,7 +172,7 @@ TEST_CASE("equity history: file-level errors name file and line") {
                        "p.csv:3: a quoted field is never closed", InputError);
 }
 
-TEST_CASE("equity history: unknown columns are noted; BOM, CRLF and blank lines are accepted") {
+TEST_CASE("equity history: unknown columns are noted, and BOM, CRLF and blank lines are accepted") {
   const EquityHistory h = parse_equity_history(
       "\xEF\xBB\xBF"
       "date,id,market_cap,venue\r\n\r\n2026-01-02,AAA,5,X\r\n2026-01-05,AAA,6,X\r\n",

@@ -135,7 +135,7 @@ TEST_CASE("history run: each obligor's own history reaches the estimator") {
   }
 }
 
-TEST_CASE("history run: bad obligors get a message naming file, line and field; the rest still run") {
+TEST_CASE("history run: bad obligors get a message naming file, line and field, and the rest still run") {
   // C: a non-positive value; D: 40 rows (short); E: in the book, not in the history;
   // F: no debt anywhere; G: no rate; X: in the history, not in the book (a note).
   std::string extra;
