@@ -142,7 +142,8 @@ bool parse_number(std::string_view cell, double& value) noexcept {
   return r.ec == std::errc() && r.ptr == cell.data() + cell.size() && std::isfinite(value);
 }
 
-CsvColumns CsvColumns::from_header(const std::vector<std::string_view>& header, const std::string& origin) {
+CsvColumns CsvColumns::from_header(const std::vector<std::string_view>& header, const std::string& origin,
+                                   BookUse use) {
   CsvColumns cols;
   bool seen_num[kNumFieldCount] = {};
   bool seen_text[kTextFieldCount] = {};
@@ -165,6 +166,7 @@ CsvColumns CsvColumns::from_header(const std::vector<std::string_view>& header, 
   if (!seen_text[static_cast<std::size_t>(TextField::id)]) {
     throw InputError(located(origin, 1, "header: required column 'id' is missing"));
   }
+  if (use == BookUse::history) return cols;
   if (!seen_num[static_cast<std::size_t>(NumField::market_cap)] &&
       !(seen_num[static_cast<std::size_t>(NumField::share_price)] &&
         seen_num[static_cast<std::size_t>(NumField::shares_outstanding)])) {

@@ -128,7 +128,7 @@ Book parse_yaml_book(const std::string& text, const std::string& origin) {
   return book;
 }
 
-Book parse_csv_book(const std::string& text, const std::string& origin) {
+Book parse_csv_book(const std::string& text, const std::string& origin, BookUse use) {
   Book book;
   book.origin = origin;
   std::string_view rest(text);
@@ -144,7 +144,7 @@ Book parse_csv_book(const std::string& text, const std::string& origin) {
   }
   if (rest.empty()) throw InputError(located(origin, 0, "empty file: a header row is required"));
   std::size_t used = split_csv_record(rest, fields, scratch, unterminated);
-  const CsvColumns cols = CsvColumns::from_header(fields, origin);
+  const CsvColumns cols = CsvColumns::from_header(fields, origin, use);
   for (const auto& u : cols.unused)
     book.notes.push_back(located(origin, line, "note: column '" + u + "' is not used"));
   line += count_lines(rest.substr(0, used));
@@ -166,14 +166,14 @@ Book parse_csv_book(const std::string& text, const std::string& origin) {
   return book;
 }
 
-Book load_book(const std::string& path) {
+Book load_book(const std::string& path, BookUse use) {
   const BookFormat fmt = book_format_of(path);
   const std::string text = detail::read_text_file(path);
   if (fmt == BookFormat::yaml && text.size() > kMaxYamlBookBytes) {
     throw InputError("'" + path +
                      "': a YAML book larger than 64 MiB; YAML is for hand-written books, use CSV");
   }
-  return fmt == BookFormat::yaml ? parse_yaml_book(text, path) : parse_csv_book(text, path);
+  return fmt == BookFormat::yaml ? parse_yaml_book(text, path) : parse_csv_book(text, path, use);
 }
 
 void mark_duplicate_ids(std::vector<ObligorRecord>& obligors) {

@@ -37,8 +37,10 @@ struct CsvColumns {
   std::vector<std::string> unused;  ///< header names firmcall does not read (reported as a note)
 
   /// Maps a header record. Throws InputError (naming `origin` and the column) when a column is
-  /// repeated or the id column, the equity value or equity_vol is missing.
-  static CsvColumns from_header(const std::vector<std::string_view>& header, const std::string& origin);
+  /// repeated or the id column is missing, or (for BookUse::scoring) the equity value or
+  /// equity_vol is missing.
+  static CsvColumns from_header(const std::vector<std::string_view>& header, const std::string& origin,
+                                BookUse use = BookUse::scoring);
 };
 
 /// Fills `rec` from one record's fields (rec.line must be set by the caller). Number fields are

@@ -61,6 +61,10 @@ struct ObligorRecord {
   void clear() noexcept;
 };
 
+/// What a book is read for. scoring: the equity value and equity_vol columns are required.
+/// history: equity comes from a market history file, so a CSV book needs only the id column.
+enum class BookUse : std::uint8_t { scoring, history };
+
 /// Run-wide values a book may set (YAML `defaults:`); an obligor's own field wins over them.
 struct BookDefaults {
   std::optional<double> rate;

@@ -40,10 +40,10 @@ BookFormat book_format_of(const std::string& path);
 Book parse_yaml_book(const std::string& text, const std::string& origin);
 
 /// Parses a whole CSV book held in memory (see csv.hpp for the dialect).
-Book parse_csv_book(const std::string& text, const std::string& origin);
+Book parse_csv_book(const std::string& text, const std::string& origin, BookUse use = BookUse::scoring);
 
 /// Reads a book of either format from a file.
-Book load_book(const std::string& path);
+Book load_book(const std::string& path, BookUse use = BookUse::scoring);
 
 /// Marks every obligor whose id repeats an earlier one (read_error names the first line).
 void mark_duplicate_ids(std::vector<ObligorRecord>& obligors);
