@@ -28,5 +28,6 @@ inline constexpr const char* kCaution =
     "policy and the regulation that applies to you.";
 
 void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
+void add_stress_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
 
 }  // namespace firmcall::cli

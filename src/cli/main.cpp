@@ -35,6 +35,7 @@ int main(int argc, char** argv) {
 
   cli::CommandRun run;
   cli::add_score_command(app, global, run);
+  cli::add_stress_command(app, global, run);
 
   try {
     app.parse(argc, argv);
