@@ -274,6 +274,34 @@ TEST_CASE("equity and default-point sensitivities cancel (homogeneity of the cal
   CHECK(worst < 1e-9);
 }
 
+TEST_CASE("with the drift at the rate, a rate move is an equity move of T times its size") {
+  // With mu = r, DD = d2 and every measure depends on E, DP and r only through E/K, K = DP e^{-rT}
+  // (homogeneity, as above; Merton 1973, from memory). A rise dr lowers K by the factor e^{-T dr},
+  // which is a relative rise of E by T dr: the per-bp rate sensitivity is T/100 times the per-1%
+  // equity sensitivity.
+  testing::SampleGenerator gen(17);
+  double worst = 0.0;
+  for (int i = 0; i < 500; ++i) {
+    bool follows = false;
+    MertonInputs in = gen.obligor(follows);
+    in.drift_annual = in.risk_free_rate_cc;
+    const AssetSolution sol = solve_asset(in);
+    REQUIRE(sol.usable());
+    const MertonSensitivities s = merton_sensitivities(in, sol.asset_value, sol.asset_vol_annual, true);
+    REQUIRE(s.ok());
+    const double t = in.horizon_years / 100.0;
+    const double pairs[][2] = {{s.rate.distance_to_default, t * s.equity.distance_to_default},
+                               {s.rate.pd, t * s.equity.pd},
+                               {s.rate.spread_bp, t * s.equity.spread_bp}};
+    for (const auto& pr : pairs) {
+      const double scale = std::max(std::fabs(pr[0]), std::fabs(pr[1]));
+      if (scale > 1e-280) worst = std::max(worst, std::fabs(pr[0] - pr[1]) / scale);
+    }
+  }
+  MESSAGE("worst |rate - T/100 equity| / scale over 500 obligors: " << worst);
+  CHECK(worst < 1e-9);
+}
+
 TEST_CASE("sensitivity signs the model guarantees: more equity volatility, more asset volatility") {
   // Why (our derivation, stated in src/sensitivity.cpp and scenario.hpp's README section): along
   // the curve C(V, sV) = E, V falls as sV rises, and the second equation picks the unique point on
