@@ -18,6 +18,8 @@
 #include <string>
 #include <vector>
 
+#include "csv_table.hpp"
+
 namespace {
 
 namespace fs = std::filesystem;
@@ -72,7 +74,7 @@ struct Result {
   std::string err;
 };
 
-Result firmcall(const std::vector<std::string>& args) {
+Result run_firmcall(const std::vector<std::string>& args) {
   static int n = 0;
   ++n;
   const fs::path out = scratch() / ("out" + std::to_string(n));
@@ -94,65 +96,9 @@ Result firmcall(const std::vector<std::string>& args) {
   return r;
 }
 
-// RFC 4180 CSV with a header; cells by column name.
-struct Csv {
-  std::vector<std::string> header;
-  std::vector<std::vector<std::string>> rows;
-  std::size_t col(const std::string& name) const {
-    for (std::size_t i = 0; i < header.size(); ++i) {
-      if (header[i] == name) return i;
-    }
-    FAIL("no column " << name);
-    return 0;
-  }
-  const std::string& cell(std::size_t row, const std::string& name) const {
-    return rows.at(row).at(col(name));
-  }
-  double number(std::size_t row, const std::string& name) const {
-    const std::string& s = cell(row, name);
-    double v = std::nan("");
-    std::from_chars(s.data(), s.data() + s.size(), v);
-    return v;
-  }
-};
-
+using Csv = firmcall::testing::CsvTable;
 Csv parse_csv(const std::string& text) {
-  Csv csv;
-  std::vector<std::string> cells;
-  std::string cell;
-  bool quoted = false;
-  bool first = true;
-  for (std::size_t i = 0; i < text.size(); ++i) {
-    const char c = text[i];
-    if (quoted) {
-      if (c == '"' && i + 1 < text.size() && text[i + 1] == '"') {
-        cell.push_back('"');
-        ++i;
-      } else if (c == '"') {
-        quoted = false;
-      } else {
-        cell.push_back(c);
-      }
-    } else if (c == '"') {
-      quoted = true;
-    } else if (c == ',') {
-      cells.push_back(cell);
-      cell.clear();
-    } else if (c == '\n') {
-      cells.push_back(cell);
-      cell.clear();
-      if (first) {
-        csv.header = cells;
-        first = false;
-      } else {
-        csv.rows.push_back(cells);
-      }
-      cells.clear();
-    } else if (c != '\r') {
-      cell.push_back(c);
-    }
-  }
-  return csv;
+  return firmcall::testing::parse_csv_table(text);
 }
 
 std::string full(double v) {
@@ -164,14 +110,14 @@ std::string full(double v) {
 }  // namespace
 
 TEST_CASE("stress on the sample book: exit code, base values equal the score command's") {
-  const Result score = firmcall({"score", kBook, "--format", "csv"});
+  const Result score = run_firmcall({"score", kBook, "--format", "csv"});
   REQUIRE(score.exit_code == 0);
   const Csv s = parse_csv(score.out);
   REQUIRE(s.rows.size() == 36);
 
   const fs::path out = scratch() / "stress.csv";
   const Result stress =
-      firmcall({"stress", kBook, "--scenarios", kScenarios, "--format", "csv", "-o", out.string()});
+      run_firmcall({"stress", kBook, "--scenarios", kScenarios, "--format", "csv", "-o", out.string()});
   CHECK(stress.exit_code == 0);
   CHECK(stress.out.empty());
   const Csv t = parse_csv(read_file(out));
@@ -205,7 +151,7 @@ TEST_CASE("the sample scenarios hit the obligors their filters name") {
   REQUIRE(materials.size() == 5);
   std::set<std::string> energy = materials;
   energy.insert({"EMB-05", "GOR-33", "SOL-19"});
-  const Result stress = firmcall({"stress", kBook, "--scenarios", kScenarios, "--format", "csv"});
+  const Result stress = run_firmcall({"stress", kBook, "--scenarios", kScenarios, "--format", "csv"});
   REQUIRE(stress.exit_code == 0);
   const Csv t = parse_csv(stress.out);
   std::set<std::string> hit;
@@ -226,7 +172,7 @@ TEST_CASE("the sample scenarios hit the obligors their filters name") {
 TEST_CASE("a stressed PD equals scoring the sample obligor with its inputs shocked by hand") {
   // The mild scenario: E x (1 - 0.1), sE x 1.15, rate + 25 bp, written into a one-obligor book
   // and scored by `firmcall score` (an independent path through the program).
-  const Result stress = firmcall({"stress", kBook, "--scenarios", kScenarios, "--format", "csv"});
+  const Result stress = run_firmcall({"stress", kBook, "--scenarios", kScenarios, "--format", "csv"});
   REQUIRE(stress.exit_code == 0);
   const Csv t = parse_csv(stress.out);
   REQUIRE(t.cell(0, "id") == "ALD-01");
@@ -237,7 +183,7 @@ TEST_CASE("a stressed PD equals scoring the sample obligor with its inputs shock
                        ", short_term_debt: 820.0, long_term_debt: "
                        "1900.0, rate: " +
                        full(0.0265 + 25.0 / 1e4) + ", horizon: 1.0}\n");
-  const Result score = firmcall({"score", book.string(), "--format", "csv"});
+  const Result score = run_firmcall({"score", book.string(), "--format", "csv"});
   REQUIRE(score.exit_code == 0);
   const Csv s = parse_csv(score.out);
   CHECK(s.cell(0, "pd") == t.cell(0, "pd_stressed"));
@@ -246,7 +192,7 @@ TEST_CASE("a stressed PD equals scoring the sample obligor with its inputs shock
 }
 
 TEST_CASE("reverse stress on the sample book: re-running with the found multiplier gives the level") {
-  const Result rev = firmcall({"stress", kBook, "--reverse-pd", "0.05", "--format", "csv"});
+  const Result rev = run_firmcall({"stress", kBook, "--reverse-pd", "0.05", "--format", "csv"});
   REQUIRE(rev.exit_code == 0);
   const Csv r = parse_csv(rev.out);
   REQUIRE(r.rows.size() == 36);
@@ -265,7 +211,7 @@ TEST_CASE("reverse stress on the sample book: re-running with the found multipli
   REQUIRE(expected.size() >= 20);
   const fs::path file = scratch() / "reverse.yaml";
   write_file(file, yaml);
-  const Result stress = firmcall({"stress", kBook, "--scenarios", file.string(), "--format", "csv"});
+  const Result stress = run_firmcall({"stress", kBook, "--scenarios", file.string(), "--format", "csv"});
   REQUIRE(stress.exit_code == 0);
   const Csv t = parse_csv(stress.out);
   double worst = 0.0;
@@ -280,10 +226,10 @@ TEST_CASE("reverse stress on the sample book: re-running with the found multipli
 }
 
 TEST_CASE("quick grid: the unshocked cell is the score command's PD") {
-  const Result score = firmcall({"score", kBook, "--format", "csv"});
+  const Result score = run_firmcall({"score", kBook, "--format", "csv"});
   const Csv s = parse_csv(score.out);
-  const Result grid = firmcall({"stress", kBook, "--equity-shocks", "0,-0.1,-0.3", "--equity-vol-multipliers",
-                                "1,1.25,1.5,2", "--format", "csv"});
+  const Result grid = run_firmcall({"stress", kBook, "--equity-shocks", "0,-0.1,-0.3",
+                                    "--equity-vol-multipliers", "1,1.25,1.5,2", "--format", "csv"});
   REQUIRE(grid.exit_code == 0);
   const Csv t = parse_csv(grid.out);
   REQUIRE(t.rows.size() == 12 * 36);
@@ -292,14 +238,14 @@ TEST_CASE("quick grid: the unshocked cell is the score command's PD") {
     CHECK(t.cell(i, "pd_stressed") == s.cell(i, "pd"));
   }
   const Result table =
-      firmcall({"stress", kBook, "--equity-shocks", "0,-0.3", "--equity-vol-multipliers", "1,2"});
+      run_firmcall({"stress", kBook, "--equity-shocks", "0,-0.3", "--equity-vol-multipliers", "1,2"});
   CHECK(table.exit_code == 0);
   CHECK(table.out.find("PD grid") != std::string::npos);
 }
 
 TEST_CASE("score --sensitivities adds the sensitivity columns") {
-  const Result plain = firmcall({"score", kBook, "--format", "csv"});
-  const Result sens = firmcall({"score", kBook, "--format", "csv", "--sensitivities"});
+  const Result plain = run_firmcall({"score", kBook, "--format", "csv"});
+  const Result sens = run_firmcall({"score", kBook, "--format", "csv", "--sensitivities"});
   REQUIRE(sens.exit_code == 0);
   const Csv p = parse_csv(plain.out);
   const Csv s = parse_csv(sens.out);
@@ -313,14 +259,14 @@ TEST_CASE("score --sensitivities adds the sensitivity columns") {
           doctest::Approx(-s.number(i, "dd_per_default_point_pct")).epsilon(1e-9));
     CHECK(s.number(i, "pd_per_equity_vol_pt") >= 0.0);  // sample PDs are below 50%: see sensitivity_test
   }
-  const Result table = firmcall({"score", kBook, "--sensitivities"});
+  const Result table = run_firmcall({"score", kBook, "--sensitivities"});
   CHECK(table.exit_code == 0);
   CHECK(table.out.find("per +1 bp rate") != std::string::npos);
 }
 
 TEST_CASE("bad obligors are invalid rows while the others are stressed (exit code 1)") {
-  const Result r =
-      firmcall({"stress", kSource + "/samples/bad_rows.csv", "--equity-shocks", "-0.2", "--format", "csv"});
+  const Result r = run_firmcall(
+      {"stress", kSource + "/samples/bad_rows.csv", "--equity-shocks", "-0.2", "--format", "csv"});
   CHECK(r.exit_code == 1);
   const Csv t = parse_csv(r.out);
   REQUIRE(t.rows.size() == 16);
@@ -339,7 +285,7 @@ TEST_CASE("bad scenario files and command lines exit with code 2 and write nothi
   const fs::path bad = scratch() / "bad.yaml";
   write_file(bad, "scenarios:\n  - name: x\n    shocks:\n      - {equity_chnage: -0.1}\n");
   const fs::path out = scratch() / "never.csv";
-  Result r = firmcall({"stress", kBook, "--scenarios", bad.string(), "-o", out.string()});
+  Result r = run_firmcall({"stress", kBook, "--scenarios", bad.string(), "-o", out.string()});
   CHECK(r.exit_code == 2);
   CHECK(r.err ==
         "firmcall: error: " + bad.string() +
@@ -349,25 +295,25 @@ TEST_CASE("bad scenario files and command lines exit with code 2 and write nothi
   write_file(bad,
              "scenarios:\n  - name: x\n    shocks:\n      - filter: {sector: Utilties}\n"
              "        equity_change: -0.1\n");
-  r = firmcall({"stress", kBook, "--scenarios", bad.string()});
+  r = run_firmcall({"stress", kBook, "--scenarios", bad.string()});
   CHECK(r.exit_code == 2);
   CHECK(r.err.find(":4: scenario 'x', shock 1, filter: key 'sector': 'Utilties' matches no obligor of") !=
         std::string::npos);
   CHECK(r.err.find("(did you mean 'Utilities'?)") != std::string::npos);
   CHECK(r.out.empty());
 
-  r = firmcall({"stress", kBook});
+  r = run_firmcall({"stress", kBook});
   CHECK(r.exit_code == 2);
   CHECK(r.err.find("give --scenarios FILE") != std::string::npos);
-  CHECK(firmcall({"stress", kBook, "--reverse-pd", "0.05", "--scenarios", kScenarios}).exit_code == 2);
-  CHECK(firmcall({"stress", kBook, "--equity-shocks", "-1"}).exit_code == 2);
-  CHECK(firmcall({"stress", kBook, "--reverse-pd", "1"}).exit_code == 2);
+  CHECK(run_firmcall({"stress", kBook, "--reverse-pd", "0.05", "--scenarios", kScenarios}).exit_code == 2);
+  CHECK(run_firmcall({"stress", kBook, "--equity-shocks", "-1"}).exit_code == 2);
+  CHECK(run_firmcall({"stress", kBook, "--reverse-pd", "1"}).exit_code == 2);
 }
 
 TEST_CASE("threshold and summary file options") {
   const fs::path summary = scratch() / "summary.csv";
-  const Result r = firmcall({"stress", kBook, "--scenarios", kScenarios, "--pd-threshold", "0.01",
-                             "--summary-output", summary.string(), "--format", "json"});
+  const Result r = run_firmcall({"stress", kBook, "--scenarios", kScenarios, "--pd-threshold", "0.01",
+                                 "--summary-output", summary.string(), "--format", "json"});
   CHECK(r.exit_code == 0);
   CHECK(r.out.find("\"pd_threshold\": 0.01") != std::string::npos);
   const Csv s = parse_csv(read_file(summary));

@@ -12,6 +12,7 @@
 #include <string>
 #include <vector>
 
+#include "csv_table.hpp"
 #include "firmcall/output.hpp"
 
 using namespace firmcall;
@@ -35,64 +36,9 @@ obligors:
      short_term_debt: 100, long_term_debt: 100, ead: 5}
 )";
 
-// Parsed CSV: header names to columns, rows as text cells (the test data hold no quoted commas).
-struct Csv {
-  std::vector<std::string> header;
-  std::vector<std::vector<std::string>> rows;
-  std::size_t col(const std::string& name) const {
-    for (std::size_t i = 0; i < header.size(); ++i) {
-      if (header[i] == name) return i;
-    }
-    FAIL("no column " << name);
-    return 0;
-  }
-  const std::string& cell(std::size_t row, const std::string& name) const { return rows[row].at(col(name)); }
-  double number(std::size_t row, const std::string& name) const {
-    const std::string& s = cell(row, name);
-    double v = std::nan("");
-    std::from_chars(s.data(), s.data() + s.size(), v);
-    return v;
-  }
-};
-
-// RFC 4180 records: fields may be double-quoted (holding commas, with "" for a quote).
+using Csv = testing::CsvTable;
 Csv parse_csv(const std::string& text) {
-  Csv csv;
-  std::vector<std::string> cells;
-  std::string cell;
-  bool quoted = false;
-  bool first = true;
-  for (std::size_t i = 0; i < text.size(); ++i) {
-    const char c = text[i];
-    if (quoted) {
-      if (c == '"' && i + 1 < text.size() && text[i + 1] == '"') {
-        cell.push_back('"');
-        ++i;
-      } else if (c == '"') {
-        quoted = false;
-      } else {
-        cell.push_back(c);
-      }
-    } else if (c == '"') {
-      quoted = true;
-    } else if (c == ',') {
-      cells.push_back(cell);
-      cell.clear();
-    } else if (c == '\n') {
-      cells.push_back(cell);
-      cell.clear();
-      if (first) {
-        csv.header = cells;
-        first = false;
-      } else {
-        csv.rows.push_back(cells);
-      }
-      cells.clear();
-    } else {
-      cell.push_back(c);
-    }
-  }
-  return csv;
+  return testing::parse_csv_table(text);
 }
 
 struct Run {
