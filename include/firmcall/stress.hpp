@@ -89,12 +89,12 @@ struct PdGrid {
 };
 
 struct StressSummary {
-  std::size_t obligors = 0;            ///< obligors in the book
-  std::size_t base_ok = 0;             ///< scored as they stand
-  std::size_t base_invalid = 0;        ///< invalid input
-  std::size_t base_not_converged = 0;  ///< base solve failed
-  std::size_t rows = 0;                ///< obligor x scenario rows written
-  std::size_t failed_rows = 0;         ///< rows whose status is not ok
+  std::size_t obligors = 0;                ///< obligors in the book
+  std::size_t base_ok = 0;                 ///< scored as they stand
+  std::size_t base_invalid = 0;            ///< invalid input
+  std::size_t base_not_converged = 0;      ///< base solve failed
+  std::size_t rows = 0;                    ///< obligor x scenario rows written
+  std::size_t failed_rows = 0;             ///< rows whose status is not ok
   std::vector<ScenarioSummary> scenarios;  ///< in scenario order
   PdGrid grid;
   std::vector<std::string> problems;  ///< "file:line: obligor 'id': message", the first few
