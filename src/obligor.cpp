@@ -85,6 +85,7 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
   out.error.clear();
   out.has_ead = false;
   out.has_lgd = false;
+  out.drift_follows_rate = false;
   out.ead = 0.0;
   if (!rec.read_error.empty()) {
     out.error = rec.read_error;
@@ -228,6 +229,8 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
   }
 
   // Drift: risk-neutral measure forces mu = r; else obligor > book > rate.
+  out.drift_follows_rate =
+      settings.measure == Measure::risk_neutral || (!rec.has(NumField::drift) && !book.drift);
   if (settings.measure == Measure::risk_neutral) {
     in.drift_annual = in.risk_free_rate_cc;
   } else {

@@ -226,6 +226,111 @@ const std::vector<std::string_view>& score_columns() {
   return cols;
 }
 
+const std::vector<std::string_view>& sensitivity_columns() {
+  static const std::vector<std::string_view> cols = {"sensitivity_status",
+                                                     "dd_per_equity_pct",
+                                                     "pd_per_equity_pct",
+                                                     "spread_bp_per_equity_pct",
+                                                     "dd_per_equity_vol_pt",
+                                                     "pd_per_equity_vol_pt",
+                                                     "spread_bp_per_equity_vol_pt",
+                                                     "dd_per_default_point_pct",
+                                                     "pd_per_default_point_pct",
+                                                     "spread_bp_per_default_point_pct",
+                                                     "dd_per_rate_bp",
+                                                     "pd_per_rate_bp",
+                                                     "spread_bp_per_rate_bp"};
+  return cols;
+}
+
+MertonSensitivities sensitivities_of(const ResolvedObligor& resolved, const AssetSolution& solution) {
+  return merton_sensitivities(resolved.inputs, solution.asset_value, solution.asset_vol_annual,
+                              resolved.drift_follows_rate);
+}
+
+namespace {
+
+// The twelve sensitivity values in sensitivity_columns() order (after the status).
+std::array<double, 12> sensitivity_values(const MertonSensitivities& s) {
+  std::array<double, 12> v{};
+  const MeasureChange* groups[] = {&s.equity, &s.equity_vol, &s.default_point, &s.rate};
+  for (std::size_t g = 0; g < 4; ++g) {
+    v[3 * g] = groups[g]->distance_to_default;
+    v[3 * g + 1] = groups[g]->pd;
+    v[3 * g + 2] = groups[g]->spread_bp;
+  }
+  return v;
+}
+
+}  // namespace
+
+void append_sensitivities_csv(std::string& out, const MertonSensitivities& s, bool usable) {
+  out.push_back(',');
+  if (!usable) {
+    out.append(12, ',');
+    return;
+  }
+  out.append(to_string(s.status));
+  const auto v = sensitivity_values(s);
+  for (double x : v) {
+    out.push_back(',');
+    if (s.ok()) append_number(out, x);
+  }
+}
+
+void append_sensitivities_json(std::string& out, const MertonSensitivities& s, bool usable) {
+  const auto& cols = sensitivity_columns();
+  out += ", \"";
+  out += cols[0];
+  out += "\": ";
+  if (usable) {
+    append_json_string(out, to_string(s.status));
+  } else {
+    out += "null";
+  }
+  const auto v = sensitivity_values(s);
+  for (std::size_t i = 0; i < v.size(); ++i) {
+    out += ", \"";
+    out += cols[i + 1];
+    out += "\": ";
+    append_json_number(out, usable && s.ok() ? v[i] : std::nan(""));
+  }
+}
+
+void append_sensitivities_table_header(std::string& out, std::size_t indent) {
+  char buf[256];
+  std::snprintf(buf, sizeof buf, "%*s%-28s  %-28s  %-28s  %-28s\n", static_cast<int>(indent), "",
+                "per +1% equity value", "per +1 pt equity vol", "per +1% default point", "per +1 bp rate");
+  out += buf;
+  std::string line(indent, ' ');
+  for (int g = 0; g < 4; ++g) {
+    std::snprintf(buf, sizeof buf, "%s%8s %9s %9s", g > 0 ? "  " : "", "DD", "PD pp", "spread bp");
+    line += buf;
+  }
+  out += line + "\n";
+}
+
+void append_sensitivities_table(std::string& out, const MertonSensitivities& s, std::size_t indent) {
+  std::string line(indent, ' ');
+  if (!s.ok()) {
+    line += "sensitivities not available (";
+    line += to_string(s.status);
+    out += line + ")\n";
+    return;
+  }
+  char buf[64];
+  const auto v = sensitivity_values(s);
+  for (std::size_t g = 0; g < 4; ++g) {
+    // DD changes with 4 decimals, or in scientific notation when smaller than 0.01.
+    const double dd = v[3 * g];
+    const char* fmt =
+        std::fabs(dd) >= 0.01 || dd == 0.0 ? "%s%+8.4f %+9.2e %+9.2e" : "%s%+8.1e %+9.2e %+9.2e";
+    std::snprintf(buf, sizeof buf, fmt, g > 0 ? "  " : "", dd, 100.0 * v[3 * g + 1], v[3 * g + 2]);
+    line += buf;
+  }
+  out += line + "\n";
+}
+
 namespace {
 
 // Values of the numeric columns equity_value .. spread_bp of score_columns(), in order.
@@ -252,12 +357,19 @@ NumericRow numeric_row(const ScoredObligor& s) {
 
 class CsvWriter final : public ScoreWriter {
  public:
+  explicit CsvWriter(bool sensitivities) : sensitivities_(sensitivities) {}
   void begin(std::string& out) const override {
     bool first = true;
     for (auto c : score_columns()) {
       if (!first) out.push_back(',');
       out.append(c);
       first = false;
+    }
+    if (sensitivities_) {
+      for (auto c : sensitivity_columns()) {
+        out.push_back(',');
+        out.append(c);
+      }
     }
     out.push_back('\n');
   }
@@ -282,15 +394,23 @@ class CsvWriter final : public ScoreWriter {
     if (s.solution.residual >= 0.0) append_number(out, s.solution.residual);
     out.push_back(',');
     append_csv_text(out, s.message);
+    if (sensitivities_) {
+      const bool usable = s.status == RowStatus::ok;
+      append_sensitivities_csv(out, usable ? sensitivities_of(s.resolved, s.solution) : MertonSensitivities{},
+                               usable);
+    }
     out.push_back('\n');
   }
   void end(const ScoreSummary&, std::string&) const override {}
+
+ private:
+  bool sensitivities_;
 };
 
 class JsonWriter final : public ScoreWriter {
  public:
-  JsonWriter(std::string origin, const ScoreSettings& settings)
-      : origin_(std::move(origin)), settings_(settings) {}
+  JsonWriter(std::string origin, const ScoreSettings& settings, bool sensitivities)
+      : origin_(std::move(origin)), settings_(settings), sensitivities_(sensitivities) {}
   void begin(std::string& out) const override {
     out += "{\n  \"run\": {\"input\": ";
     append_json_string(out, origin_);
@@ -330,6 +450,11 @@ class JsonWriter final : public ScoreWriter {
     }
     out += ", \"message\": ";
     append_json_string(out, s.message);
+    if (sensitivities_) {
+      const bool usable = s.status == RowStatus::ok;
+      append_sensitivities_json(
+          out, usable ? sensitivities_of(s.resolved, s.solution) : MertonSensitivities{}, usable);
+    }
     out += "}";
   }
   void end(const ScoreSummary& sum, std::string& out) const override {
@@ -342,11 +467,13 @@ class JsonWriter final : public ScoreWriter {
  private:
   std::string origin_;
   ScoreSettings settings_;
+  bool sensitivities_;
 };
 
 // Fixed-width text for people: 116 columns.
 class TableWriter final : public ScoreWriter {
  public:
+  explicit TableWriter(bool sensitivities) : sensitivities_(sensitivities) {}
   void begin(std::string& out) const override {
     char buf[256];
     std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7s %12s %6s %7s %10s %10s  %s\n", "obligor", "name",
@@ -355,6 +482,7 @@ class TableWriter final : public ScoreWriter {
     std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7s %12s %6s %7s %10s %10s  %s\n", "", "", "", "vol %",
                   "point", "", "", "%", "bp", "");
     out += buf;
+    if (sensitivities_) append_sensitivities_table_header(out, 2);
     out += std::string(115, '-') + "\n";
   }
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
@@ -374,6 +502,7 @@ class TableWriter final : public ScoreWriter {
                   amount(m.default_point).c_str(), m.leverage, m.distance_to_default,
                   small(100.0 * m.pd, 4).c_str(), small(m.spread_bp, 2).c_str(), "ok");
     out += buf;
+    if (sensitivities_) append_sensitivities_table(out, sensitivities_of(s.resolved, s.solution), 2);
   }
   void end(const ScoreSummary& sum, std::string& out) const override {
     out += std::string(115, '-') + "\n";
@@ -392,6 +521,7 @@ class TableWriter final : public ScoreWriter {
   }
 
  private:
+  bool sensitivities_;
   static std::string fit(const std::string& s, std::size_t w) {
     if (s.size() <= w) return s;
     return s.substr(0, w - 1) + "~";
@@ -422,16 +552,16 @@ class TableWriter final : public ScoreWriter {
 }  // namespace
 
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
-                                               const ScoreSettings& settings) {
+                                               const ScoreSettings& settings, bool sensitivities) {
   switch (format) {
     case OutputFormat::csv:
-      return std::make_unique<CsvWriter>();
+      return std::make_unique<CsvWriter>(sensitivities);
     case OutputFormat::json:
-      return std::make_unique<JsonWriter>(origin, settings);
+      return std::make_unique<JsonWriter>(origin, settings, sensitivities);
     case OutputFormat::table:
-      return std::make_unique<TableWriter>();
+      return std::make_unique<TableWriter>(sensitivities);
   }
-  return std::make_unique<CsvWriter>();
+  return std::make_unique<CsvWriter>(sensitivities);
 }
 
 }  // namespace firmcall

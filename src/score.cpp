@@ -164,7 +164,7 @@ class BatchScorer {
         settings_(settings),
         run_(run),
         sink_(sink),
-        writer_(make_score_writer(run.format, origin, settings)),
+        writer_(make_score_writer(run.format, origin, settings, run.sensitivities)),
         workers_(std::max(1U, run.threads)) {}
 
   void begin() {

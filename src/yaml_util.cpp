@@ -65,7 +65,9 @@ double yaml_number(const YAML::Node& node, const std::string& origin, std::strin
   return value;
 }
 
-std::string closest_name(std::string_view name, std::initializer_list<std::string_view> candidates) {
+namespace {
+template <class Range>
+std::string closest_in(std::string_view name, const Range& candidates) {
   std::string best;
   std::size_t best_d = 3;
   for (std::string_view c : candidates) {
@@ -86,6 +88,15 @@ std::string closest_name(std::string_view name, std::initializer_list<std::strin
     }
   }
   return best;
+}
+}  // namespace
+
+std::string closest_name(std::string_view name, std::initializer_list<std::string_view> candidates) {
+  return closest_in(name, candidates);
+}
+
+std::string closest_name(std::string_view name, const std::vector<std::string>& candidates) {
+  return closest_in(name, candidates);
 }
 
 void yaml_check_keys(const YAML::Node& node, std::initializer_list<std::string_view> allowed,

@@ -82,6 +82,8 @@ struct ResolvedObligor {
   bool has_ead = false;
   bool has_lgd = false;  ///< true when lgd came from the obligor or the book
   std::string error;     ///< empty when usable; else "field 'x': reason, got 'value'"
+  /// True when mu is the rate (risk-neutral measure, or no drift given): a rate change moves mu too.
+  bool drift_follows_rate = false;
   bool ok() const noexcept { return error.empty(); }
 };
 

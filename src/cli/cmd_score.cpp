@@ -22,6 +22,7 @@ struct ScoreCli {
   std::optional<double> weight;
   std::string measure;
   unsigned threads = 0;
+  bool sensitivities = false;
 };
 
 struct FileCloser {
@@ -52,6 +53,9 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
       ->check(CLI::IsMember({"physical", "risk-neutral"}));
   cmd->add_option("-j,--threads", opts->threads, "Worker threads (default: all cores)")
       ->check(CLI::Range(1, 1024));
+  cmd->add_flag("--sensitivities", opts->sensitivities,
+                "Add analytic sensitivities of DD, PD and spread per +1% equity value, +1 point equity "
+                "volatility, +1% default point and +1 bp rate");
   cmd->footer(
       std::string("\nExit codes: 0 every obligor scored; 1 some obligors invalid or not converged "
                   "(the others are scored); 2 unreadable or malformed file or bad command line.\n\n") +
@@ -73,6 +77,7 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
                        : opts->format == "json" ? OutputFormat::json
                                                 : OutputFormat::table;
       runopts.threads = opts->threads > 0 ? opts->threads : default_threads();
+      runopts.sensitivities = opts->sensitivities;
 
       const BookFormat fmt = book_format_of(opts->book);
       ScoreSummary summary;

@@ -36,6 +36,7 @@ int main(int argc, char** argv) {
   cli::CommandRun run;
   cli::add_score_command(app, global, run);
   cli::add_history_command(app, global, run);
+  cli::add_stress_command(app, global, run);
 
   try {
     app.parse(argc, argv);
