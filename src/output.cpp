@@ -139,6 +139,13 @@ void append_number(std::string& out, double v) {
   out.append(buf, p);
 }
 
+void append_csv_names(std::string& out, const std::vector<std::string_view>& names) {
+  for (std::size_t i = 0; i < names.size(); ++i) {
+    if (i > 0) out.push_back(',');
+    out.append(names[i]);
+  }
+}
+
 void append_csv_text(std::string& out, std::string_view s) {
   if (s.find_first_of(",\"\r\n") == std::string_view::npos) {
     out.append(s);
@@ -359,17 +366,10 @@ class CsvWriter final : public ScoreWriter {
  public:
   explicit CsvWriter(bool sensitivities) : sensitivities_(sensitivities) {}
   void begin(std::string& out) const override {
-    bool first = true;
-    for (auto c : score_columns()) {
-      if (!first) out.push_back(',');
-      out.append(c);
-      first = false;
-    }
+    append_csv_names(out, score_columns());
     if (sensitivities_) {
-      for (auto c : sensitivity_columns()) {
-        out.push_back(',');
-        out.append(c);
-      }
+      out.push_back(',');
+      append_csv_names(out, sensitivity_columns());
     }
     out.push_back('\n');
   }

@@ -14,6 +14,8 @@ namespace firmcall {
 
 /// Appends v with 17 significant digits (round-trips exactly); non-finite values append nothing.
 void append_number(std::string& out, double v);
+/// Appends column names joined by commas (a CSV header, or its continuation after a comma).
+void append_csv_names(std::string& out, const std::vector<std::string_view>& names);
 /// Appends a CSV cell, quoted when it holds a comma, quote or line break.
 void append_csv_text(std::string& out, std::string_view s);
 /// Appends a JSON string literal (with quotes), escaping as RFC 8259 requires.
