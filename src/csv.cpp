@@ -9,8 +9,6 @@
 
 namespace firmcall {
 
-namespace {}  // namespace
-
 std::size_t split_csv_record(std::string_view text, std::vector<std::string_view>& fields,
                              std::string& scratch, bool& unterminated) {
   fields.clear();
