@@ -17,24 +17,6 @@ bool ends_with(const std::string& s, std::string_view suffix) {
   return s.size() >= suffix.size() && s.compare(s.size() - suffix.size(), suffix.size(), suffix) == 0;
 }
 
-const std::initializer_list<std::string_view> kObligorKeys = {"id",
-                                                              "name",
-                                                              "sector",
-                                                              "country",
-                                                              "currency",
-                                                              "market_cap",
-                                                              "share_price",
-                                                              "shares_outstanding",
-                                                              "equity_vol",
-                                                              "short_term_debt",
-                                                              "long_term_debt",
-                                                              "default_point",
-                                                              "rate",
-                                                              "horizon",
-                                                              "drift",
-                                                              "ead",
-                                                              "lgd"};
-
 void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& rec) {
   rec.clear();
   rec.line = line;
@@ -55,7 +37,7 @@ void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& 
     if (!field_from_string(key, num, text)) {
       if (rec.read_error.empty()) {
         rec.read_error = "unknown field '" + key + "'";
-        const std::string hint = detail::closest_name(key, kObligorKeys);
+        const std::string hint = detail::closest_name(key, obligor_field_names());
         if (!hint.empty()) rec.read_error += " (did you mean '" + hint + "'?)";
       }
       continue;
