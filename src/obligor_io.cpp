@@ -153,7 +153,7 @@ Book load_book(const std::string& path, BookUse use) {
   const std::string text = detail::read_text_file(path);
   if (fmt == BookFormat::yaml && text.size() > kMaxYamlBookBytes) {
     throw InputError("'" + path +
-                     "': a YAML book larger than 64 MiB; YAML is for hand-written books, use CSV");
+                     "': a YAML book larger than 8 MiB; YAML is for hand-written books, use CSV");
   }
   return fmt == BookFormat::yaml ? parse_yaml_book(text, path) : parse_csv_book(text, path, use);
 }
