@@ -67,7 +67,7 @@ TEST_CASE("bad-input corpus: documented exit code and message for every file") {
   MESSAGE("bad-input corpus: " << cases.size() << " files");
 }
 
-TEST_CASE("a 256 MiB line is skipped in bounded memory; the rows around it are scored") {
+TEST_CASE("a 256 MiB line is skipped in bounded memory and the rows around it are scored") {
   TempDir t;
   const std::string path = t.file("long_line.csv");
   {
