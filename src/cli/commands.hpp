@@ -8,6 +8,10 @@
 
 #include "firmcall/settings.hpp"
 
+#ifndef FIRMCALL_VERSION
+#define FIRMCALL_VERSION "dev"
+#endif
+
 namespace firmcall::cli {
 
 /// Options shared by every command.
