@@ -213,6 +213,12 @@ const std::vector<std::string_view>& score_columns() {
 
 namespace {
 
+// Grade label of a scored obligor; empty when it was not scored.
+std::string grade_label(const GradeScale* grades, const ScoredObligor& s) {
+  if (!grades || s.status != RowStatus::ok) return {};
+  return std::string(grades->label_of(s.measures.pd));
+}
+
 // Values of the numeric columns equity_value .. spread_bp of score_columns(), in order.
 constexpr std::size_t kNumericColumns = 10;
 constexpr std::size_t kFirstNumericColumn = 3;
@@ -237,6 +243,7 @@ NumericRow numeric_row(const ScoredObligor& s) {
 
 class CsvWriter final : public ScoreWriter {
  public:
+  explicit CsvWriter(const GradeScale* grades) : grades_(grades) {}
   void begin(std::string& out) const override {
     bool first = true;
     for (auto c : score_columns()) {
@@ -244,6 +251,7 @@ class CsvWriter final : public ScoreWriter {
       out.append(c);
       first = false;
     }
+    if (grades_) out += ",grade";
     out.push_back('\n');
   }
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
@@ -267,15 +275,22 @@ class CsvWriter final : public ScoreWriter {
     if (s.solution.residual >= 0.0) append_number(out, s.solution.residual);
     out.push_back(',');
     append_csv_text(out, s.message);
+    if (grades_) {
+      out.push_back(',');
+      append_csv_text(out, grade_label(grades_, s));
+    }
     out.push_back('\n');
   }
   void end(const ScoreSummary&, std::string&) const override {}
+
+ private:
+  const GradeScale* grades_;
 };
 
 class JsonWriter final : public ScoreWriter {
  public:
-  JsonWriter(std::string origin, const ScoreSettings& settings)
-      : origin_(std::move(origin)), settings_(settings) {}
+  JsonWriter(std::string origin, const ScoreSettings& settings, const GradeScale* grades)
+      : origin_(std::move(origin)), settings_(settings), grades_(grades) {}
   void begin(std::string& out) const override {
     out += "{\n  \"run\": {\"input\": ";
     append_json_string(out, origin_);
@@ -315,6 +330,14 @@ class JsonWriter final : public ScoreWriter {
     }
     out += ", \"message\": ";
     append_json_string(out, s.message);
+    if (grades_) {
+      out += ", \"grade\": ";
+      if (s.status == RowStatus::ok) {
+        append_json_string(out, grade_label(grades_, s));
+      } else {
+        out += "null";
+      }
+    }
     out += "}";
   }
   void end(const ScoreSummary& sum, std::string& out) const override {
@@ -327,37 +350,41 @@ class JsonWriter final : public ScoreWriter {
  private:
   std::string origin_;
   ScoreSettings settings_;
+  const GradeScale* grades_;
 };
 
-// Fixed-width text for people: 116 columns.
+// Fixed-width text for people: 116 columns (with grades: a grade column, and the name 6 narrower).
 class TableWriter final : public ScoreWriter {
  public:
+  explicit TableWriter(const GradeScale* grades) : grades_(grades) {}
   void begin(std::string& out) const override {
     char buf[256];
-    std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7s %12s %6s %7s %10s %10s  %s\n", "obligor", "name",
-                  "asset value", "asset", "default", "DP/V", "DD", "PD", "spread", "status");
+    std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", "obligor",
+                  name_width(), "name", "asset value", "asset", "default", "DP/V", "DD", "PD", "spread",
+                  grade_cell("grade").c_str(), "status");
     out += buf;
-    std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7s %12s %6s %7s %10s %10s  %s\n", "", "", "", "vol %",
-                  "point", "", "", "%", "bp", "");
+    std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", "", name_width(), "",
+                  "", "vol %", "point", "", "", "%", "bp", grade_cell("").c_str(), "");
     out += buf;
     out += std::string(115, '-') + "\n";
   }
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
     char buf[320];
     const std::string id = fit(rec.get(TextField::id), 12);
-    const std::string name = fit(rec.get(TextField::name), 18);
+    const std::string name = fit(rec.get(TextField::name), static_cast<std::size_t>(name_width()));
     if (s.status != RowStatus::ok) {
-      std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7s %12s %6s %7s %10s %10s  %s\n", id.c_str(),
-                    name.c_str(), "-", "-", "-", "-", "-", "-", "-",
+      std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", id.c_str(),
+                    name_width(), name.c_str(), "-", "-", "-", "-", "-", "-", "-", grade_cell("-").c_str(),
                     std::string(to_string(s.status)).c_str());
       out += buf;
       return;
     }
     const MertonMeasures& m = s.measures;
-    std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7.2f %12s %6.3f %7.3f %10s %10s  %s\n", id.c_str(),
-                  name.c_str(), amount(m.asset_value).c_str(), 100.0 * m.asset_vol_annual,
+    std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7.2f %12s %6.3f %7.3f %10s %10s %s %s\n", id.c_str(),
+                  name_width(), name.c_str(), amount(m.asset_value).c_str(), 100.0 * m.asset_vol_annual,
                   amount(m.default_point).c_str(), m.leverage, m.distance_to_default,
-                  small(100.0 * m.pd, 4).c_str(), small(m.spread_bp, 2).c_str(), "ok");
+                  small(100.0 * m.pd, 4).c_str(), small(m.spread_bp, 2).c_str(),
+                  grade_cell(grade_label(grades_, s)).c_str(), "ok");
     out += buf;
   }
   void end(const ScoreSummary& sum, std::string& out) const override {
@@ -377,6 +404,17 @@ class TableWriter final : public ScoreWriter {
   }
 
  private:
+  int name_width() const { return grades_ ? 12 : 18; }
+  // The grade column: empty without grades (one space then separates spread and status, as before).
+  std::string grade_cell(std::string_view text) const {
+    if (!grades_) return {};
+    std::string cell(1, ' ');
+    const std::string label = fit(std::string(text), 5);
+    cell += label;
+    cell.append(5 - label.size(), ' ');
+    return cell;
+  }
+  const GradeScale* grades_;
   static std::string fit(const std::string& s, std::size_t w) {
     if (s.size() <= w) return s;
     return s.substr(0, w - 1) + "~";
@@ -407,16 +445,16 @@ class TableWriter final : public ScoreWriter {
 }  // namespace
 
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
-                                               const ScoreSettings& settings) {
+                                               const ScoreSettings& settings, const GradeScale* grades) {
   switch (format) {
     case OutputFormat::csv:
-      return std::make_unique<CsvWriter>();
+      return std::make_unique<CsvWriter>(grades);
     case OutputFormat::json:
-      return std::make_unique<JsonWriter>(origin, settings);
+      return std::make_unique<JsonWriter>(origin, settings, grades);
     case OutputFormat::table:
-      return std::make_unique<TableWriter>();
+      return std::make_unique<TableWriter>(grades);
   }
-  return std::make_unique<CsvWriter>();
+  return std::make_unique<CsvWriter>(grades);
 }
 
 }  // namespace firmcall

@@ -7,6 +7,7 @@
 #include <string_view>
 #include <vector>
 
+#include "firmcall/grades.hpp"
 #include "firmcall/score.hpp"
 
 namespace firmcall {
@@ -34,8 +35,10 @@ class ScoreWriter {
   virtual void end(const ScoreSummary& summary, std::string& out) const = 0;
 };
 
-/// A writer for the format; `origin` and `settings` appear in the JSON run block.
+/// A writer for the format; `origin` and `settings` appear in the JSON run block. With `grades`,
+/// each scored obligor also shows its grade (a last CSV column and JSON key `grade`, a table column).
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
-                                               const ScoreSettings& settings);
+                                               const ScoreSettings& settings,
+                                               const GradeScale* grades = nullptr);
 
 }  // namespace firmcall

@@ -23,6 +23,7 @@ struct ScoreCli {
   std::optional<double> weight;
   std::string measure;
   unsigned threads = 0;
+  bool grades = false;  // --grades: show each obligor's grade
   bool record = false;  // --record: also write the run to the history store
   std::string db;
   std::string as_of;
@@ -56,6 +57,7 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
       ->check(CLI::IsMember({"physical", "risk-neutral"}));
   cmd->add_option("-j,--threads", opts->threads, "Worker threads (default: all cores)")
       ->check(CLI::Range(1, 1024));
+  cmd->add_flag("--grades", opts->grades, "Show each obligor's grade on the master scale (settings: grades)");
   CLI::Option* record = cmd->add_flag("--record", opts->record, "Also record the run in the history store");
   cmd->add_option("--db", opts->db,
                   "History store file (default: monitoring.store, else the user's data folder)")
@@ -84,6 +86,7 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
                        : opts->format == "json" ? OutputFormat::json
                                                 : OutputFormat::table;
       runopts.threads = opts->threads > 0 ? opts->threads : default_threads();
+      if (opts->grades) runopts.grades = &config.grades;
 
       const BookFormat fmt = book_format_of(opts->book);
       std::string store_path;
