@@ -41,7 +41,7 @@ std::string fields_json(const ObligorRecord& rec) {
   return out;
 }
 
-StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& s) {
+StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& s, const GradeScale& grades) {
   StoredObligor o;
   o.id = rec.get(TextField::id);
   o.name = rec.get(TextField::name);
@@ -51,7 +51,10 @@ StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& s) {
   o.has_inputs = s.resolved.ok();
   if (o.has_inputs) o.inputs = s.resolved.inputs;
   o.has_measures = s.status == RowStatus::ok;
-  if (o.has_measures) o.measures = s.measures;
+  if (o.has_measures) {
+    o.measures = s.measures;
+    o.grade = std::string(grades.label_of(s.measures.pd));
+  }
   if (s.solution.residual >= 0.0) {
     o.iterations = s.solution.iterations;
     o.residual = s.solution.residual;
@@ -59,7 +62,7 @@ StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& s) {
   return o;
 }
 
-std::string settings_json(const ScoreSettings& s) {
+std::string settings_json(const ScoreSettings& s, const GradeScale& grades) {
   std::string out = "{\"default_point_weight\": ";
   append_json_number(out, s.default_point_weight);
   out += ", \"horizon\": ";
@@ -87,7 +90,15 @@ std::string settings_json(const ScoreSettings& s) {
   over("rate", s.rate_override);
   over("horizon", s.horizon_override);
   over("default_point_weight", s.weight_override);
-  out += "}}";
+  out += "}, \"grades\": [";
+  for (std::size_t i = 0; i < grades.bands.size(); ++i) {
+    out += i == 0 ? "{\"label\": " : ", {\"label\": ";
+    append_json_string(out, grades.bands[i].label);
+    out += ", \"max_pd\": ";
+    append_json_number(out, grades.bands[i].max_pd);
+    out += "}";
+  }
+  out += "]}";
   return out;
 }
 
@@ -138,7 +149,7 @@ RecordResult record_book(const std::string& book_path, const ScoreSettings& sett
   info.book_path = book_path;
   info.book_label = book.label;
   info.input_sha256 = sha256_hex(bytes);
-  info.settings_json = settings_json(settings);
+  info.settings_json = settings_json(settings, config.grades);
   info.tool_version = options.tool_version;
 
   // Score first, then hold the store only while writing.
@@ -147,7 +158,7 @@ RecordResult record_book(const std::string& book_path, const ScoreSettings& sett
   ScoredObligor scored;
   for (const ObligorRecord& rec : book.obligors) {
     score_obligor(rec, book.defaults, settings, scored);
-    rows.push_back(stored_obligor(rec, scored));
+    rows.push_back(stored_obligor(rec, scored, config.grades));
     if (scored.status == RowStatus::ok) ++result.scored;
   }
   RunStore store(options.store_path, StoreOpen::create, config.monitor.busy_timeout_seconds);

@@ -65,6 +65,9 @@ constexpr Migration kMigrations[] = {
      " iterations INTEGER, residual REAL,"
      " PRIMARY KEY (run_id, seq)) WITHOUT ROWID;"
      "CREATE INDEX runs_by_date ON runs(as_of, run_id);"},
+    {2, "grade of each obligor; index by obligor id",
+     "ALTER TABLE run_obligors ADD COLUMN grade TEXT;"
+     "CREATE INDEX run_obligors_by_obligor ON run_obligors(obligor_id, run_id);"},
 };
 
 constexpr const char* kRunColumns =
@@ -73,8 +76,8 @@ constexpr const char* kRunColumns =
 constexpr const char* kObligorColumns =
     "seq, obligor_id, name, status, message, fields_json, equity_value, equity_vol, default_point, rate, "
     "horizon, drift, asset_value, asset_vol, leverage, distance_to_default, pd, pd_risk_neutral, debt_value, "
-    "spread_bp, iterations, residual";
-constexpr int kObligorColumnCount = 22;
+    "spread_bp, iterations, residual, grade";
+constexpr int kObligorColumnCount = 23;
 
 }  // namespace
 
@@ -216,6 +219,7 @@ StoredObligor read_obligor(const Stmt& s, int c) {
   m.spread_bp = s.real(c + 19);
   o.iterations = s.is_null(c + 20) ? -1 : static_cast<int>(s.integer(c + 20));
   o.residual = s.is_null(c + 21) ? -1.0 : s.real(c + 21);
+  o.grade = s.text(c + 22);  // NULL (recorded before schema version 2) reads as ""
   return o;
 }
 
@@ -474,7 +478,7 @@ RunWriter::~RunWriter() {
 
 void RunWriter::add(const StoredObligor& o) {
   const RunStore::Impl& im = *store_.impl_;
-  static_assert(kObligorColumnCount == 22);
+  static_assert(kObligorColumnCount == 23);
   if (!insert_) {  // one statement per writer, kept across calls
     std::string sql = std::string("INSERT INTO run_obligors (run_id, ") + kObligorColumns + ") VALUES (?";
     for (int i = 0; i < kObligorColumnCount; ++i) sql += ", ?";
@@ -513,6 +517,11 @@ void RunWriter::add(const StoredObligor& o) {
     s.bind_real(22, std::nan(""));
   }
   s.bind_optional(23, o.residual >= 0.0, o.residual);
+  if (o.grade.empty()) {
+    s.bind_real(24, std::nan(""));
+  } else {
+    s.bind_text(24, o.grade);
+  }
   s.step();
   s.reset();
   ++count_;

@@ -57,6 +57,7 @@ StoredObligor scored_obligor(const std::string& id, double pd) {
   o.measures.spread_bp = 12.5;
   o.iterations = 4;
   o.residual = 3e-16;
+  o.grade = "FC8";
   return o;
 }
 
@@ -185,6 +186,7 @@ TEST_CASE("a run goes into the store and comes back field for field") {
   CHECK(a.measures.spread_bp == ok.measures.spread_bp);
   CHECK(a.iterations == 4);
   CHECK(a.residual == 3e-16);
+  CHECK(a.grade == "FC8");
   const StoredObligor& b = back[1];
   CHECK(b.seq == 1);
   CHECK(b.name == invalid.name);
@@ -290,6 +292,58 @@ TEST_CASE("files that are not firmcall stores are refused by name and left byte 
                            .c_str(),
                        InputError);
   CHECK_FALSE(std::filesystem::exists(dir.file("none.sqlite")));
+}
+
+TEST_CASE("a version 1 store is migrated forward on open and keeps its runs") {
+  TempDir dir;
+  const std::string path = dir.file("v1.sqlite");
+  // Schema version 1 as firmcall 0.1 wrote it (before grades were stored), built here by hand.
+  raw_sql(
+      path,
+      "PRAGMA application_id = 1717789036;"  // 0x6663616c, "fcal"
+      "CREATE TABLE firmcall_schema (version INTEGER PRIMARY KEY, applied_at TEXT NOT NULL, note TEXT NOT "
+      "NULL);"
+      "INSERT INTO firmcall_schema VALUES (1, '2026-11-01T00:00:00Z', 'runs and their obligors');"
+      "CREATE TABLE runs (run_id INTEGER PRIMARY KEY, as_of TEXT NOT NULL, recorded_at TEXT NOT NULL,"
+      " book_path TEXT NOT NULL, book_label TEXT NOT NULL, input_sha256 TEXT NOT NULL,"
+      " settings_json TEXT NOT NULL, tool_version TEXT NOT NULL, obligor_count INTEGER NOT NULL);"
+      "CREATE TABLE run_obligors (run_id INTEGER NOT NULL REFERENCES runs(run_id) ON DELETE CASCADE,"
+      " seq INTEGER NOT NULL, obligor_id TEXT NOT NULL, name TEXT NOT NULL, status TEXT NOT NULL,"
+      " message TEXT NOT NULL, fields_json TEXT NOT NULL, equity_value REAL, equity_vol REAL,"
+      " default_point REAL, rate REAL, horizon REAL, drift REAL, asset_value REAL, asset_vol REAL,"
+      " leverage REAL, distance_to_default REAL, pd REAL, pd_risk_neutral REAL, debt_value REAL,"
+      " spread_bp REAL, iterations INTEGER, residual REAL, PRIMARY KEY (run_id, seq)) WITHOUT ROWID;"
+      "CREATE INDEX runs_by_date ON runs(as_of, run_id);"
+      "INSERT INTO runs VALUES (1, '2026-10-30', '2026-10-30T18:00:00Z', 'book.yaml', 'old book',"
+      " 'ab', '{}', '0.1.0', 2);"
+      "INSERT INTO run_obligors VALUES (1, 0, 'OLD-1', 'Old One', 'ok', '', '{}', 100, 0.3, 80, 0.02, 1,"
+      " 0.02, 178, 0.17, 0.45, 4.5, 3.4e-6, 3.4e-6, 78, 0.01, 3, 1e-16);"
+      "INSERT INTO run_obligors VALUES (1, 1, 'OLD-2', 'Old Two', 'invalid_input', 'line 9: field', '{}',"
+      " NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL);");
+  REQUIRE(raw_query(path, "SELECT max(version) FROM firmcall_schema") == "1");
+
+  RunStore store(path, StoreOpen::existing, 5.0);
+  CHECK(store.schema_version() == 2);
+  CHECK(raw_query(path, "SELECT note FROM firmcall_schema WHERE version = 2") ==
+        "grade of each obligor; index by obligor id");
+  CHECK(raw_query(path, "SELECT count(*) FROM sqlite_master WHERE name = 'run_obligors_by_obligor'") == "1");
+  // The old run reads as before; its grades are unknown (NULL), not invented.
+  const auto runs = store.runs();
+  REQUIRE(runs.size() == 1);
+  CHECK(runs[0].book_label == "old book");
+  const auto old = store.obligors(1);
+  REQUIRE(old.size() == 2);
+  CHECK(old[0].id == "OLD-1");
+  CHECK(old[0].measures.pd == 3.4e-6);
+  CHECK(old[0].measures.distance_to_default == 4.5);
+  CHECK(old[0].grade.empty());
+  CHECK(old[1].status == RowStatus::invalid_input);
+  CHECK_FALSE(old[1].has_inputs);
+  // New runs go in with their grades.
+  const auto id = write_run(store, run_info("2026-11-06"), {scored_obligor("OLD-1", 0.02)});
+  CHECK(store.obligors(id)[0].grade == "FC8");
+  CHECK(store.series("OLD-1").size() == 2);
+  CHECK(raw_query(path, "PRAGMA integrity_check") == "ok");
 }
 
 TEST_CASE("a store from a newer firmcall is refused untouched") {

@@ -38,14 +38,15 @@ RecordResult record_book(const std::string& book_path, const ScoreSettings& sett
 /// The store file: `db_option` (--db) when given, else monitoring.store, else default_store_path().
 std::string resolve_store_path(const std::string& db_option, const MonitorSettings& monitor);
 
-/// One obligor as stored: its fields as given, resolved inputs and measures.
-StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& scored);
+/// One obligor as stored: its fields as given, resolved inputs, measures and grade on `grades`.
+StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& scored, const GradeScale& grades);
 
 /// The fields an obligor gave in its book, as a JSON object (numbers with 17 significant digits).
 std::string fields_json(const ObligorRecord& rec);
 
-/// The effective settings of a run as a JSON object: scoring, solver and command-line overrides.
-std::string settings_json(const ScoreSettings& settings);
+/// The effective settings of a run as a JSON object: scoring, solver, command-line overrides and
+/// the grade scale.
+std::string settings_json(const ScoreSettings& settings, const GradeScale& grades);
 
 /// Today's date in the local time zone, YYYY-MM-DD.
 std::string today_local();

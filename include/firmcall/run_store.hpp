@@ -34,7 +34,8 @@ class StoreStatement;  ///< a prepared SQLite statement (run_store.cpp)
 }
 
 /// Version of the store schema this build writes; older stores are migrated up to it on open.
-inline constexpr int kStoreSchemaVersion = 1;
+/// 1: runs and their obligors. 2: each obligor's grade; index by obligor id.
+inline constexpr int kStoreSchemaVersion = 2;
 /// SQLite application_id of firmcall stores (bytes 68-71 of the file header, "fcal").
 inline constexpr std::int32_t kStoreApplicationId = 0x6663616c;
 
@@ -65,6 +66,7 @@ struct StoredObligor {
   MertonMeasures measures;
   int iterations = -1;     ///< solver iterations; -1 when the solver did not run
   double residual = -1.0;  ///< solver residual; -1 when the solver did not run
+  std::string grade;       ///< grade on the scale of the run ("" when not scored, or before schema 2)
 };
 
 /// How to open a store.
