@@ -2,7 +2,9 @@
 
 #include <algorithm>
 #include <cmath>
+#include <thread>
 #include <unordered_map>
+#include <unordered_set>
 
 #include "firmcall/errors.hpp"
 
@@ -158,6 +160,37 @@ Comparison compare_runs(const std::vector<StoredObligor>& before, const std::vec
     return a.id < b.id;
   });
   return c;
+}
+
+std::vector<AttributedMover> attribute_movers(const Comparison& comparison,
+                                              const std::vector<std::string>& ids,
+                                              const MertonSolveOptions& options, unsigned threads) {
+  const std::unordered_set<std::string> wanted(ids.begin(), ids.end());
+  std::vector<AttributedMover> out;
+  for (const Mover& m : comparison.movers) {
+    if (m.kind != MoveKind::continuing || std::isnan(m.pd_before) || std::isnan(m.pd_now)) continue;
+    if (!m.before->has_inputs || !m.now->has_inputs) continue;
+    if (!wanted.empty() && !wanted.contains(m.id)) continue;
+    out.push_back({&m, {}});
+  }
+  const std::size_t n = out.size();
+  const unsigned t =
+      std::max(1U, std::min<unsigned>(threads, static_cast<unsigned>(std::max<std::size_t>(n / 16, 1))));
+  const auto work = [&out, &options, n, t](unsigned w) {
+    for (std::size_t i = n * w / t; i < n * (w + 1) / t; ++i) {
+      out[i].result = attribute_pd_change(out[i].mover->before->inputs, out[i].mover->now->inputs, options);
+    }
+  };
+  std::vector<std::thread> pool;
+  for (unsigned w = 1; w < t; ++w) pool.emplace_back(work, w);
+  work(0);
+  for (auto& th : pool) th.join();
+  std::sort(out.begin(), out.end(), [](const AttributedMover& a, const AttributedMover& b) {
+    const double da = a.mover->pd_change(), db = b.mover->pd_change();
+    if (da != db) return da > db;
+    return a.mover->id < b.mover->id;
+  });
+  return out;
 }
 
 RunPair select_runs(const RunStore& store, std::string_view now_selector, std::string_view before_selector) {

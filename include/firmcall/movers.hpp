@@ -27,6 +27,7 @@
 #include <string_view>
 #include <vector>
 
+#include "firmcall/attribution.hpp"
 #include "firmcall/grades.hpp"
 #include "firmcall/run_store.hpp"
 #include "firmcall/settings.hpp"
@@ -87,6 +88,19 @@ struct Comparison {
 /// (descending; not scored last), id.
 Comparison compare_runs(const std::vector<StoredObligor>& before, const std::vector<StoredObligor>& now,
                         const GradeScale& scale, const AlertRules& rules);
+
+/// Why one obligor's PD moved (attribution.hpp).
+struct AttributedMover {
+  const Mover* mover = nullptr;
+  PdAttribution result;
+};
+
+/// Shapley attribution of the PD change of every continuing obligor scored in both runs (only
+/// those in `ids` when it is not empty), largest PD rise first, then by id. `threads` >= 1 share
+/// the work; the result does not depend on their number.
+std::vector<AttributedMover> attribute_movers(const Comparison& comparison,
+                                              const std::vector<std::string>& ids,
+                                              const MertonSolveOptions& options, unsigned threads);
 
 /// Two runs to compare.
 struct RunPair {
