@@ -155,7 +155,7 @@ TEST_CASE("a drift that moves on its own is a sixth driver, checked over all 720
   for (std::size_t i = 0; i < 6; ++i) CHECK(std::fabs(r.contribution[i] - brute[i]) <= 1e-14);
 }
 
-TEST_CASE("sums to the change over a grid of random obligor pairs; agrees with the order average") {
+TEST_CASE("sums to the change over a grid of random obligor pairs, agrees with the order average") {
   const auto base = testing::generated_obligors(40, 11);
   std::mt19937_64 rng(5);
   std::uniform_real_distribution<double> u(-1.0, 1.0);
@@ -180,7 +180,7 @@ TEST_CASE("sums to the change over a grid of random obligor pairs; agrees with t
   CHECK(checked == 5);
 }
 
-TEST_CASE("invalid inputs are reported, not attributed; nothing is allocated") {
+TEST_CASE("invalid inputs are reported, not attributed, nothing is allocated") {
   MertonInputs bad = deteriorating_after();
   bad.equity_vol_annual = 0.0;
   const long before = testing::g_allocations.load();

@@ -202,7 +202,7 @@ TEST_CASE("a run goes into the store and comes back field for field") {
   CHECK_FALSE(c.has_measures);
 }
 
-TEST_CASE("runs are chosen by id, by as-of date or as the latest; previous follows the dates") {
+TEST_CASE("runs are chosen by id, by as-of date or as the latest, previous follows the dates") {
   TempDir dir;
   RunStore store(dir.file("h.sqlite"), StoreOpen::create, 5.0);
   CHECK_THROWS_WITH_AS(store.select(""),
@@ -423,7 +423,7 @@ TEST_CASE("a writer killed in the middle of a run leaves the earlier runs intact
   CHECK(store.runs().size() == 3);
 }
 
-TEST_CASE("two writers at once: the second waits, or reports busy after its timeout; nothing is lost") {
+TEST_CASE("two writers at once: the second waits, or reports busy after its timeout, nothing is lost") {
   TempDir dir;
   const std::string path = dir.file("h.sqlite");
   {
