@@ -1,5 +1,6 @@
 #include "firmcall/recording.hpp"
 
+#include <charconv>
 #include <ctime>
 
 #include "firmcall/errors.hpp"
@@ -20,10 +21,10 @@ std::string fields_json(const ObligorRecord& rec) {
   std::string out = "{";
   bool first = true;
   const auto key = [&out, &first](std::string_view k) {
-    if (!first) out += ", ";
+    if (!first) out += ',';
     first = false;
     append_json_string(out, k);
-    out += ": ";
+    out += ':';
   };
   for (std::size_t i = 0; i < kTextFieldCount; ++i) {
     const auto f = static_cast<TextField>(i);
@@ -35,7 +36,10 @@ std::string fields_json(const ObligorRecord& rec) {
     const auto f = static_cast<NumField>(i);
     if (!rec.has(f)) continue;
     key(to_string(f));
-    append_json_number(out, rec.get(f));
+    // Shortest text that reads back as the same double: the store keeps it compact, and exact.
+    char buf[32];
+    const auto r = std::to_chars(buf, buf + sizeof buf, rec.get(f));
+    out.append(buf, r.ptr);
   }
   out += "}";
   return out;

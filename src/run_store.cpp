@@ -3,6 +3,7 @@
 
 #include <sqlite3.h>
 
+#include <algorithm>
 #include <array>
 #include <cmath>
 #include <cstdlib>
@@ -352,7 +353,9 @@ RunStore::RunStore(const std::string& path, StoreOpen mode, double busy_timeout_
   } else {
     check_foreign(path);
   }
-  const int flags = SQLITE_OPEN_READWRITE | (mode == StoreOpen::create ? SQLITE_OPEN_CREATE : 0);
+  // One connection per RunStore, used by one thread at a time: no SQLite mutexes needed.
+  const int flags =
+      SQLITE_OPEN_READWRITE | SQLITE_OPEN_NOMUTEX | (mode == StoreOpen::create ? SQLITE_OPEN_CREATE : 0);
   const int rc = sqlite3_open_v2(path.c_str(), &im.db, flags, nullptr);
   if (rc != SQLITE_OK) im.fail(rc, "cannot open it");
   sqlite3_busy_timeout(im.db, static_cast<int>(std::min(busy_timeout_seconds * 1000.0, 1e9)));
@@ -411,11 +414,17 @@ std::optional<RunInfo> RunStore::previous(const RunInfo& run) const {
   return read_run(s);
 }
 
-std::vector<StoredObligor> RunStore::obligors(std::int64_t run_id) const {
-  Stmt s(*impl_,
-         std::string("SELECT ") + kObligorColumns + " FROM run_obligors WHERE run_id = ? ORDER BY seq");
-  s.bind_int(1, run_id);
+std::vector<StoredObligor> RunStore::obligors(std::int64_t run_id, bool with_fields) const {
+  std::string columns = kObligorColumns;
+  if (!with_fields) columns.replace(columns.find("fields_json"), 11, "''");
   std::vector<StoredObligor> out;
+  {
+    Stmt n(*impl_, "SELECT obligor_count FROM runs WHERE run_id = ?");
+    n.bind_int(1, run_id);
+    if (n.step()) out.reserve(static_cast<std::size_t>(std::max<std::int64_t>(n.integer(0), 0)));
+  }
+  Stmt s(*impl_, "SELECT " + columns + " FROM run_obligors WHERE run_id = ? ORDER BY seq");
+  s.bind_int(1, run_id);
   while (s.step()) out.push_back(read_obligor(s, 0));
   return out;
 }

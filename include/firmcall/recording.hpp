@@ -41,7 +41,8 @@ std::string resolve_store_path(const std::string& db_option, const MonitorSettin
 /// One obligor as stored: its fields as given, resolved inputs, measures and grade on `grades`.
 StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& scored, const GradeScale& grades);
 
-/// The fields an obligor gave in its book, as a JSON object (numbers with 17 significant digits).
+/// The fields an obligor gave in its book, as a compact JSON object (numbers in their shortest form
+/// that reads back exactly).
 std::string fields_json(const ObligorRecord& rec);
 
 /// The effective settings of a run as a JSON object: scoring, solver, command-line overrides and

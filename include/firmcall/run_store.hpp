@@ -103,8 +103,8 @@ class RunStore {
   RunInfo select(std::string_view selector) const;
   /// The run before `run` (by as-of date, then run id), if any.
   std::optional<RunInfo> previous(const RunInfo& run) const;
-  /// Every obligor of a run, in book order.
-  std::vector<StoredObligor> obligors(std::int64_t run_id) const;
+  /// Every obligor of a run, in book order; without `with_fields`, fields_json is left empty.
+  std::vector<StoredObligor> obligors(std::int64_t run_id, bool with_fields = true) const;
 
   /// One obligor in one run.
   struct SeriesPoint {

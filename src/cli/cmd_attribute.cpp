@@ -41,8 +41,8 @@ void add_attribute_command(CLI::App& app, const GlobalOptions& global, CommandRu
       const RunStore store(resolve_store_path(opts->store.db, config.monitor), StoreOpen::existing,
                            config.monitor.busy_timeout_seconds);
       const RunPair pair = select_runs(store, opts->store.run, opts->store.against);
-      const auto before = store.obligors(pair.before.run_id);
-      const auto now = store.obligors(pair.now.run_id);
+      const auto before = store.obligors(pair.before.run_id, false);
+      const auto now = store.obligors(pair.now.run_id, false);
       const Comparison c = compare_runs(before, now, config.grades, config.monitor.alerts);
       for (const std::string& id : opts->obligors) {
         bool found = false;
