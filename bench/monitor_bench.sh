@@ -54,21 +54,27 @@ with open(dst, "w", newline="") as f:
 PY
 rm -f "$db" "$db-journal"
 
-# seconds CMD...: wall time of one run, output discarded
+# seconds CMD...: wall time of one run, and its CPU time (user + system) when GNU time is there
+# (on a shared machine the CPU time is the steadier figure); output discarded
 seconds() {
-  local t0 t1
-  t0=$(date +%s.%N)
-  "$@" >/dev/null
-  t1=$(date +%s.%N)
-  awk -v a="$t0" -v b="$t1" 'BEGIN {printf "%.2f", b - a}'
+  if [ -x /usr/bin/time ]; then
+    /usr/bin/time -f "%e %U %S" -o "$out/.time" "$@" >/dev/null
+    awk '{printf "%.2f s wall, %.2f s CPU", $1, $2 + $3}' "$out/.time"
+  else
+    local t0 t1
+    t0=$(date +%s.%N)
+    "$@" >/dev/null
+    t1=$(date +%s.%N)
+    awk -v a="$t0" -v b="$t1" 'BEGIN {printf "%.2f s wall", b - a}'
+  fi
 }
 
 echo "firmcall monitoring benchmark: $rows obligors, $(nproc) cores"
-echo "score week 1 (no store)        $(seconds "$fc" -q score "$week1" --format csv --threads 2) s"
-echo "score + record week 1          $(seconds "$fc" -q score "$week1" --format csv --threads 2 --record --db "$db" --as-of 2026-11-06) s"
-echo "score + record week 2          $(seconds "$fc" -q score "$week2" --format csv --threads 2 --record --db "$db" --as-of 2026-11-13) s"
-echo "movers (CSV, every obligor)    $(seconds "$fc" -q movers --db "$db" --format csv) s"
-echo "watchlist (table)              $(seconds "$fc" -q watchlist --db "$db") s"
-echo "attribute (CSV, 2 threads)     $(seconds "$fc" -q attribute --db "$db" --format csv --threads 2) s"
+echo "score week 1 (no store)        $(seconds "$fc" -q score "$week1" --format csv --threads 2)"
+echo "score + record week 1          $(seconds "$fc" -q score "$week1" --format csv --threads 2 --record --db "$db" --as-of 2026-11-06)"
+echo "score + record week 2          $(seconds "$fc" -q score "$week2" --format csv --threads 2 --record --db "$db" --as-of 2026-11-13)"
+echo "movers (CSV, every obligor)    $(seconds "$fc" -q movers --db "$db" --format csv)"
+echo "watchlist (table)              $(seconds "$fc" -q watchlist --db "$db")"
+echo "attribute (CSV, 2 threads)     $(seconds "$fc" -q attribute --db "$db" --format csv --threads 2)"
 echo "store size                     $(du -h "$db" | cut -f1)"
 "$fc" -q watchlist --db "$db" --format csv | awk -F, 'NR > 1 {n++} END {print "on the watchlist               " n+0 " obligors"}'
