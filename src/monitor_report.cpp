@@ -93,7 +93,10 @@ void write_runs_report(const std::string& store_path, const std::vector<RunInfo>
   w.header(out);
   for (const RunInfo& r : runs) {
     std::string book = r.book_path;
-    if (format == OutputFormat::table && !r.book_label.empty()) book += " (" + r.book_label + ")";
+    if (format == OutputFormat::table) {
+      if (!r.book_label.empty()) book += " (" + r.book_label + ")";
+      book = fit_text(book, 50);
+    }
     w.row({Cell::number(static_cast<double>(r.run_id)), Cell::text(r.as_of), Cell::text(r.recorded_at),
            Cell::number(static_cast<double>(r.obligor_count)),
            Cell::text(format == OutputFormat::table ? r.input_sha256.substr(0, 12) : r.input_sha256),
