@@ -9,14 +9,6 @@
 
 namespace firmcall {
 
-namespace {
-std::string_view trim(std::string_view s) noexcept {
-  while (!s.empty() && (s.front() == ' ' || s.front() == '\t')) s.remove_prefix(1);
-  while (!s.empty() && (s.back() == ' ' || s.back() == '\t')) s.remove_suffix(1);
-  return s;
-}
-}  // namespace
-
 std::size_t split_csv_record(std::string_view text, std::vector<std::string_view>& fields,
                              std::string& scratch, bool& unterminated) {
   fields.clear();
@@ -99,21 +91,63 @@ std::size_t count_lines(std::string_view text) noexcept {
   return static_cast<std::size_t>(std::count(text.begin(), text.end(), '\n'));
 }
 
+std::string_view trim_blanks(std::string_view s) noexcept {
+  while (!s.empty() && (s.front() == ' ' || s.front() == '\t')) s.remove_prefix(1);
+  while (!s.empty() && (s.back() == ' ' || s.back() == '\t')) s.remove_suffix(1);
+  return s;
+}
+
+bool valid_utf8(std::string_view s) noexcept {
+  const auto* p = reinterpret_cast<const unsigned char*>(s.data());
+  const auto* const end = p + s.size();
+  while (p < end) {
+    const unsigned c = *p;
+    if (c < 0x80) {
+      ++p;
+      continue;
+    }
+    int n;
+    unsigned cp;
+    if ((c & 0xE0) == 0xC0) {
+      n = 1;
+      cp = c & 0x1F;
+    } else if ((c & 0xF0) == 0xE0) {
+      n = 2;
+      cp = c & 0x0F;
+    } else if ((c & 0xF8) == 0xF0) {
+      n = 3;
+      cp = c & 0x07;
+    } else {
+      return false;
+    }
+    if (end - p <= n) return false;
+    for (int i = 1; i <= n; ++i) {
+      if ((p[i] & 0xC0) != 0x80) return false;
+      cp = (cp << 6) | (p[i] & 0x3F);
+    }
+    const unsigned min_cp[] = {0, 0x80, 0x800, 0x10000};
+    if (cp < min_cp[n] || cp > 0x10FFFF || (cp >= 0xD800 && cp <= 0xDFFF)) return false;
+    p += n + 1;
+  }
+  return true;
+}
+
 bool parse_number(std::string_view cell, double& value) noexcept {
-  cell = trim(cell);
+  cell = trim_blanks(cell);
   if (cell.empty()) return false;
   if (cell.front() == '+') cell.remove_prefix(1);
   const auto r = std::from_chars(cell.data(), cell.data() + cell.size(), value, std::chars_format::general);
   return r.ec == std::errc() && r.ptr == cell.data() + cell.size() && std::isfinite(value);
 }
 
-CsvColumns CsvColumns::from_header(const std::vector<std::string_view>& header, const std::string& origin) {
+CsvColumns CsvColumns::from_header(const std::vector<std::string_view>& header, const std::string& origin,
+                                   BookUse use) {
   CsvColumns cols;
   bool seen_num[kNumFieldCount] = {};
   bool seen_text[kTextFieldCount] = {};
   for (std::size_t i = 0; i < header.size(); ++i) {
     Column c;
-    c.name = std::string(trim(header[i]));
+    c.name = std::string(trim_blanks(header[i]));
     if (c.name.empty()) {
       throw InputError(located(origin, 1, "header: column " + std::to_string(i + 1) + " has no name"));
     }
@@ -130,6 +164,7 @@ CsvColumns CsvColumns::from_header(const std::vector<std::string_view>& header, 
   if (!seen_text[static_cast<std::size_t>(TextField::id)]) {
     throw InputError(located(origin, 1, "header: required column 'id' is missing"));
   }
+  if (use == BookUse::history) return cols;
   if (!seen_num[static_cast<std::size_t>(NumField::market_cap)] &&
       !(seen_num[static_cast<std::size_t>(NumField::share_price)] &&
         seen_num[static_cast<std::size_t>(NumField::shares_outstanding)])) {
@@ -149,9 +184,13 @@ void parse_obligor_fields(const std::vector<std::string_view>& fields, const Csv
   for (std::size_t i = 0; i < n; ++i) {
     const CsvColumns::Column& c = cols.columns[i];
     if (c.text) {
-      rec.get(*c.text).assign(trim(fields[i]));
+      const std::string_view cell = trim_blanks(fields[i]);
+      rec.get(*c.text).assign(cell);
+      if (!valid_utf8(cell) && rec.read_error.empty()) {
+        rec.read_error = "field '" + c.name + "': not valid UTF-8 (save the file as UTF-8)";
+      }
     } else if (c.num) {
-      const std::string_view cell = trim(fields[i]);
+      const std::string_view cell = trim_blanks(fields[i]);
       if (cell.empty()) continue;
       double v = 0.0;
       if (parse_number(cell, v)) {

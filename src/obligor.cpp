@@ -22,6 +22,12 @@ constexpr std::array<std::string_view, kNumFieldCount> kNumNames = {"market_cap"
 constexpr std::array<std::string_view, kTextFieldCount> kTextNames = {"id", "name", "sector", "country",
                                                                       "currency"};
 
+constexpr double kMinAmount = 1e-150;
+constexpr double kMaxAmount = 1e150;
+constexpr double kMinLeverage = 1e-10;  // default point / equity value
+constexpr double kMaxLeverage = 1e10;
+constexpr double kMinEquityVol = 1e-4;
+
 std::string shortest(double v) {
   char buf[32];
   const auto r = std::to_chars(buf, buf + sizeof buf, v);
@@ -46,6 +52,15 @@ std::string_view to_string(NumField f) noexcept {
 }
 std::string_view to_string(TextField f) noexcept {
   return kTextNames[static_cast<std::size_t>(f)];
+}
+
+const std::vector<std::string>& obligor_field_names() {
+  static const std::vector<std::string> names = [] {
+    std::vector<std::string> v(kTextNames.begin(), kTextNames.end());
+    v.insert(v.end(), kNumNames.begin(), kNumNames.end());
+    return v;
+  }();
+  return names;
 }
 
 bool field_from_string(std::string_view name, std::optional<NumField>& num,
@@ -79,6 +94,7 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
   out.error.clear();
   out.has_ead = false;
   out.has_lgd = false;
+  out.drift_follows_rate = false;
   out.ead = 0.0;
   if (!rec.read_error.empty()) {
     out.error = rec.read_error;
@@ -144,6 +160,11 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
   in.equity_vol_annual = rec.get(NumField::equity_vol);
   if (!(in.equity_vol_annual > 0.0)) {
     out.error = value_error(NumField::equity_vol, "must be positive", in.equity_vol_annual);
+    return;
+  }
+  if (in.equity_vol_annual < kMinEquityVol) {
+    out.error =
+        value_error(NumField::equity_vol, "must be at least 0.0001 (0.01% a year)", in.equity_vol_annual);
     return;
   }
   if (in.equity_vol_annual > settings.max_equity_vol) {
@@ -217,6 +238,8 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
   }
 
   // Drift: risk-neutral measure forces mu = r; else obligor > book > rate.
+  out.drift_follows_rate =
+      settings.measure == Measure::risk_neutral || (!rec.has(NumField::drift) && !book.drift);
   if (settings.measure == Measure::risk_neutral) {
     in.drift_annual = in.risk_free_rate_cc;
   } else {
@@ -248,6 +271,24 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
   }
   if (out.lgd < 0.0 || out.lgd > 1.0) {
     out.error = value_error(NumField::lgd, "must be a decimal in [0, 1] (0.45 means 45%)", out.lgd);
+    return;
+  }
+  // Magnitudes: amounts far outside any balance sheet, or a default point and an equity value
+  // that differ by more than ten orders of magnitude, are unit mistakes, not obligors.
+  if (!(in.equity_value >= kMinAmount && in.equity_value <= kMaxAmount)) {
+    out.error =
+        value_error(NumField::market_cap, "equity value must lie in [1e-150, 1e150]", in.equity_value);
+    return;
+  }
+  if (!(in.default_point >= kMinAmount && in.default_point <= kMaxAmount)) {
+    out.error = value_error(NumField::default_point, "must lie in [1e-150, 1e150]", in.default_point);
+    return;
+  }
+  const double ratio = in.default_point / in.equity_value;
+  if (!(ratio >= kMinLeverage && ratio <= kMaxLeverage)) {
+    out.error =
+        value_error(NumField::default_point,
+                    "default point / equity value must lie in [1e-10, 1e10] (check the units)", ratio);
     return;
   }
   const MertonInputCheck check = validate(in);

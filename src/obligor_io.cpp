@@ -2,6 +2,7 @@
 
 #include <yaml-cpp/yaml.h>
 
+#include <algorithm>
 #include <string_view>
 #include <unordered_map>
 
@@ -16,24 +17,6 @@ bool ends_with(const std::string& s, std::string_view suffix) {
   return s.size() >= suffix.size() && s.compare(s.size() - suffix.size(), suffix.size(), suffix) == 0;
 }
 
-const std::initializer_list<std::string_view> kObligorKeys = {"id",
-                                                              "name",
-                                                              "sector",
-                                                              "country",
-                                                              "currency",
-                                                              "market_cap",
-                                                              "share_price",
-                                                              "shares_outstanding",
-                                                              "equity_vol",
-                                                              "short_term_debt",
-                                                              "long_term_debt",
-                                                              "default_point",
-                                                              "rate",
-                                                              "horizon",
-                                                              "drift",
-                                                              "ead",
-                                                              "lgd"};
-
 void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& rec) {
   rec.clear();
   rec.line = line;
@@ -41,14 +24,20 @@ void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& 
     rec.read_error = "obligor entry is not a map of field: value";
     return;
   }
+  std::vector<std::string> seen;
   for (const auto& kv : node) {
     const std::string key = kv.first.Scalar();
+    if (std::find(seen.begin(), seen.end(), key) != seen.end()) {
+      if (rec.read_error.empty()) rec.read_error = "field '" + key + "' is given twice";
+      continue;
+    }
+    seen.push_back(key);
     std::optional<NumField> num;
     std::optional<TextField> text;
     if (!field_from_string(key, num, text)) {
       if (rec.read_error.empty()) {
         rec.read_error = "unknown field '" + key + "'";
-        const std::string hint = detail::closest_name(key, kObligorKeys);
+        const std::string hint = detail::closest_name(key, obligor_field_names());
         if (!hint.empty()) rec.read_error += " (did you mean '" + hint + "'?)";
       }
       continue;
@@ -60,6 +49,9 @@ void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& 
     const std::string& value = kv.second.Scalar();
     if (text) {
       rec.get(*text) = value;
+      if (!valid_utf8(value) && rec.read_error.empty()) {
+        rec.read_error = "field '" + key + "': not valid UTF-8 (save the file as UTF-8)";
+      }
       continue;
     }
     if (value.empty() || value == "~" || value == "null") continue;  // left empty: absent
@@ -118,7 +110,7 @@ Book parse_yaml_book(const std::string& text, const std::string& origin) {
   return book;
 }
 
-Book parse_csv_book(const std::string& text, const std::string& origin) {
+Book parse_csv_book(const std::string& text, const std::string& origin, BookUse use) {
   Book book;
   book.origin = origin;
   std::string_view rest(text);
@@ -134,7 +126,7 @@ Book parse_csv_book(const std::string& text, const std::string& origin) {
   }
   if (rest.empty()) throw InputError(located(origin, 0, "empty file: a header row is required"));
   std::size_t used = split_csv_record(rest, fields, scratch, unterminated);
-  const CsvColumns cols = CsvColumns::from_header(fields, origin);
+  const CsvColumns cols = CsvColumns::from_header(fields, origin, use);
   for (const auto& u : cols.unused)
     book.notes.push_back(located(origin, line, "note: column '" + u + "' is not used"));
   line += count_lines(rest.substr(0, used));
@@ -156,10 +148,14 @@ Book parse_csv_book(const std::string& text, const std::string& origin) {
   return book;
 }
 
-Book load_book(const std::string& path) {
+Book load_book(const std::string& path, BookUse use) {
   const BookFormat fmt = book_format_of(path);
   const std::string text = detail::read_text_file(path);
-  return fmt == BookFormat::yaml ? parse_yaml_book(text, path) : parse_csv_book(text, path);
+  if (fmt == BookFormat::yaml && text.size() > kMaxYamlBookBytes) {
+    throw InputError("'" + path +
+                     "': a YAML book larger than 8 MiB; YAML is for hand-written books, use CSV");
+  }
+  return fmt == BookFormat::yaml ? parse_yaml_book(text, path) : parse_csv_book(text, path, use);
 }
 
 void mark_duplicate_ids(std::vector<ObligorRecord>& obligors) {

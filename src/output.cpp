@@ -1,5 +1,7 @@
 #include "firmcall/output.hpp"
 
+#include "firmcall/csv.hpp"
+
 #include <array>
 #include <bit>
 #include <charconv>
@@ -137,6 +139,13 @@ void append_number(std::string& out, double v) {
   out.append(buf, p);
 }
 
+void append_csv_names(std::string& out, const std::vector<std::string_view>& names) {
+  for (std::size_t i = 0; i < names.size(); ++i) {
+    if (i > 0) out.push_back(',');
+    out.append(names[i]);
+  }
+}
+
 void append_csv_text(std::string& out, std::string_view s) {
   if (s.find_first_of(",\"\r\n") == std::string_view::npos) {
     out.append(s);
@@ -151,6 +160,19 @@ void append_csv_text(std::string& out, std::string_view s) {
 }
 
 void append_json_string(std::string& out, std::string_view s) {
+  if (!valid_utf8(s)) {
+    // Keep the JSON well-formed: each byte outside ASCII becomes U+FFFD.
+    std::string clean;
+    for (char c : s) {
+      if (static_cast<unsigned char>(c) < 0x80) {
+        clean.push_back(c);
+      } else {
+        clean += "\xEF\xBF\xBD";
+      }
+    }
+    append_json_string(out, clean);
+    return;
+  }
   out.push_back('"');
   for (char c : s) {
     const auto u = static_cast<unsigned char>(c);
@@ -211,6 +233,111 @@ const std::vector<std::string_view>& score_columns() {
   return cols;
 }
 
+const std::vector<std::string_view>& sensitivity_columns() {
+  static const std::vector<std::string_view> cols = {"sensitivity_status",
+                                                     "dd_per_equity_pct",
+                                                     "pd_per_equity_pct",
+                                                     "spread_bp_per_equity_pct",
+                                                     "dd_per_equity_vol_pt",
+                                                     "pd_per_equity_vol_pt",
+                                                     "spread_bp_per_equity_vol_pt",
+                                                     "dd_per_default_point_pct",
+                                                     "pd_per_default_point_pct",
+                                                     "spread_bp_per_default_point_pct",
+                                                     "dd_per_rate_bp",
+                                                     "pd_per_rate_bp",
+                                                     "spread_bp_per_rate_bp"};
+  return cols;
+}
+
+MertonSensitivities sensitivities_of(const ResolvedObligor& resolved, const AssetSolution& solution) {
+  return merton_sensitivities(resolved.inputs, solution.asset_value, solution.asset_vol_annual,
+                              resolved.drift_follows_rate);
+}
+
+namespace {
+
+// The twelve sensitivity values in sensitivity_columns() order (after the status).
+std::array<double, 12> sensitivity_values(const MertonSensitivities& s) {
+  std::array<double, 12> v{};
+  const MeasureChange* groups[] = {&s.equity, &s.equity_vol, &s.default_point, &s.rate};
+  for (std::size_t g = 0; g < 4; ++g) {
+    v[3 * g] = groups[g]->distance_to_default;
+    v[3 * g + 1] = groups[g]->pd;
+    v[3 * g + 2] = groups[g]->spread_bp;
+  }
+  return v;
+}
+
+}  // namespace
+
+void append_sensitivities_csv(std::string& out, const MertonSensitivities& s, bool usable) {
+  out.push_back(',');
+  if (!usable) {
+    out.append(12, ',');
+    return;
+  }
+  out.append(to_string(s.status));
+  const auto v = sensitivity_values(s);
+  for (double x : v) {
+    out.push_back(',');
+    if (s.ok()) append_number(out, x);
+  }
+}
+
+void append_sensitivities_json(std::string& out, const MertonSensitivities& s, bool usable) {
+  const auto& cols = sensitivity_columns();
+  out += ", \"";
+  out += cols[0];
+  out += "\": ";
+  if (usable) {
+    append_json_string(out, to_string(s.status));
+  } else {
+    out += "null";
+  }
+  const auto v = sensitivity_values(s);
+  for (std::size_t i = 0; i < v.size(); ++i) {
+    out += ", \"";
+    out += cols[i + 1];
+    out += "\": ";
+    append_json_number(out, usable && s.ok() ? v[i] : std::nan(""));
+  }
+}
+
+void append_sensitivities_table_header(std::string& out, std::size_t indent) {
+  char buf[256];
+  std::snprintf(buf, sizeof buf, "%*s%-28s  %-28s  %-28s  %-28s\n", static_cast<int>(indent), "",
+                "per +1% equity value", "per +1 pt equity vol", "per +1% default point", "per +1 bp rate");
+  out += buf;
+  std::string line(indent, ' ');
+  for (int g = 0; g < 4; ++g) {
+    std::snprintf(buf, sizeof buf, "%s%8s %9s %9s", g > 0 ? "  " : "", "DD", "PD pp", "spread bp");
+    line += buf;
+  }
+  out += line + "\n";
+}
+
+void append_sensitivities_table(std::string& out, const MertonSensitivities& s, std::size_t indent) {
+  std::string line(indent, ' ');
+  if (!s.ok()) {
+    line += "sensitivities not available (";
+    line += to_string(s.status);
+    out += line + ")\n";
+    return;
+  }
+  char buf[64];
+  const auto v = sensitivity_values(s);
+  for (std::size_t g = 0; g < 4; ++g) {
+    // DD changes with 4 decimals, or in scientific notation when smaller than 0.01.
+    const double dd = v[3 * g];
+    const char* fmt =
+        std::fabs(dd) >= 0.01 || dd == 0.0 ? "%s%+8.4f %+9.2e %+9.2e" : "%s%+8.1e %+9.2e %+9.2e";
+    std::snprintf(buf, sizeof buf, fmt, g > 0 ? "  " : "", dd, 100.0 * v[3 * g + 1], v[3 * g + 2]);
+    line += buf;
+  }
+  out += line + "\n";
+}
+
 namespace {
 
 // Grade label of a scored obligor; empty when it was not scored.
@@ -243,13 +370,12 @@ NumericRow numeric_row(const ScoredObligor& s) {
 
 class CsvWriter final : public ScoreWriter {
  public:
-  explicit CsvWriter(const GradeScale* grades) : grades_(grades) {}
+  CsvWriter(bool sensitivities, const GradeScale* grades) : sensitivities_(sensitivities), grades_(grades) {}
   void begin(std::string& out) const override {
-    bool first = true;
-    for (auto c : score_columns()) {
-      if (!first) out.push_back(',');
-      out.append(c);
-      first = false;
+    append_csv_names(out, score_columns());
+    if (sensitivities_) {
+      out.push_back(',');
+      append_csv_names(out, sensitivity_columns());
     }
     if (grades_) out += ",grade";
     out.push_back('\n');
@@ -275,6 +401,11 @@ class CsvWriter final : public ScoreWriter {
     if (s.solution.residual >= 0.0) append_number(out, s.solution.residual);
     out.push_back(',');
     append_csv_text(out, s.message);
+    if (sensitivities_) {
+      const bool usable = s.status == RowStatus::ok;
+      append_sensitivities_csv(out, usable ? sensitivities_of(s.resolved, s.solution) : MertonSensitivities{},
+                               usable);
+    }
     if (grades_) {
       out.push_back(',');
       append_csv_text(out, grade_label(grades_, s));
@@ -284,13 +415,14 @@ class CsvWriter final : public ScoreWriter {
   void end(const ScoreSummary&, std::string&) const override {}
 
  private:
+  bool sensitivities_;
   const GradeScale* grades_;
 };
 
 class JsonWriter final : public ScoreWriter {
  public:
-  JsonWriter(std::string origin, const ScoreSettings& settings, const GradeScale* grades)
-      : origin_(std::move(origin)), settings_(settings), grades_(grades) {}
+  JsonWriter(std::string origin, const ScoreSettings& settings, bool sensitivities, const GradeScale* grades)
+      : origin_(std::move(origin)), settings_(settings), sensitivities_(sensitivities), grades_(grades) {}
   void begin(std::string& out) const override {
     out += "{\n  \"run\": {\"input\": ";
     append_json_string(out, origin_);
@@ -330,6 +462,11 @@ class JsonWriter final : public ScoreWriter {
     }
     out += ", \"message\": ";
     append_json_string(out, s.message);
+    if (sensitivities_) {
+      const bool usable = s.status == RowStatus::ok;
+      append_sensitivities_json(
+          out, usable ? sensitivities_of(s.resolved, s.solution) : MertonSensitivities{}, usable);
+    }
     if (grades_) {
       out += ", \"grade\": ";
       if (s.status == RowStatus::ok) {
@@ -350,13 +487,15 @@ class JsonWriter final : public ScoreWriter {
  private:
   std::string origin_;
   ScoreSettings settings_;
+  bool sensitivities_;
   const GradeScale* grades_;
 };
 
 // Fixed-width text for people: 116 columns (with grades: a grade column, and the name 6 narrower).
 class TableWriter final : public ScoreWriter {
  public:
-  explicit TableWriter(const GradeScale* grades) : grades_(grades) {}
+  TableWriter(bool sensitivities, const GradeScale* grades)
+      : sensitivities_(sensitivities), grades_(grades) {}
   void begin(std::string& out) const override {
     char buf[256];
     std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", "obligor",
@@ -366,6 +505,7 @@ class TableWriter final : public ScoreWriter {
     std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", "", name_width(), "",
                   "", "vol %", "point", "", "", "%", "bp", grade_cell("").c_str(), "");
     out += buf;
+    if (sensitivities_) append_sensitivities_table_header(out, 2);
     out += std::string(115, '-') + "\n";
   }
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
@@ -386,6 +526,7 @@ class TableWriter final : public ScoreWriter {
                   small(100.0 * m.pd, 4).c_str(), small(m.spread_bp, 2).c_str(),
                   grade_cell(grade_label(grades_, s)).c_str(), "ok");
     out += buf;
+    if (sensitivities_) append_sensitivities_table(out, sensitivities_of(s.resolved, s.solution), 2);
   }
   void end(const ScoreSummary& sum, std::string& out) const override {
     out += std::string(115, '-') + "\n";
@@ -404,6 +545,7 @@ class TableWriter final : public ScoreWriter {
   }
 
  private:
+  bool sensitivities_;
   int name_width() const { return grades_ ? 12 : 18; }
   // The grade column: empty without grades (one space then separates spread and status, as before).
   std::string grade_cell(std::string_view text) const {
@@ -445,16 +587,17 @@ class TableWriter final : public ScoreWriter {
 }  // namespace
 
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
-                                               const ScoreSettings& settings, const GradeScale* grades) {
+                                               const ScoreSettings& settings, bool sensitivities,
+                                               const GradeScale* grades) {
   switch (format) {
     case OutputFormat::csv:
-      return std::make_unique<CsvWriter>(grades);
+      return std::make_unique<CsvWriter>(sensitivities, grades);
     case OutputFormat::json:
-      return std::make_unique<JsonWriter>(origin, settings, grades);
+      return std::make_unique<JsonWriter>(origin, settings, sensitivities, grades);
     case OutputFormat::table:
-      return std::make_unique<TableWriter>(grades);
+      return std::make_unique<TableWriter>(sensitivities, grades);
   }
-  return std::make_unique<CsvWriter>(grades);
+  return std::make_unique<CsvWriter>(sensitivities, grades);
 }
 
 }  // namespace firmcall

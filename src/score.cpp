@@ -10,6 +10,7 @@
 #include "firmcall/csv.hpp"
 #include "firmcall/errors.hpp"
 #include "firmcall/output.hpp"
+#include "firmcall/parallel.hpp"
 
 namespace firmcall {
 
@@ -26,6 +27,8 @@ std::string_view to_string(RowStatus s) noexcept {
 }
 
 namespace {
+constexpr std::size_t kMaxRecordBytes = std::size_t{4} << 20;  // longest CSV row accepted
+
 // Status, message and measures once out.resolved and (for resolved obligors) out.solution are set.
 void complete_score(const ObligorRecord& rec, ScoredObligor& out) {
   out.message.clear();
@@ -37,8 +40,14 @@ void complete_score(const ObligorRecord& rec, ScoredObligor& out) {
   if (!out.solution.usable()) {
     out.status = RowStatus::not_converged;
     char buf[160];
-    std::snprintf(buf, sizeof buf, "line %zu: solver did not converge (residual %.3g after %d iterations)",
-                  rec.line, out.solution.residual, out.solution.iterations);
+    if (std::isfinite(out.solution.residual)) {
+      std::snprintf(buf, sizeof buf, "line %zu: solver did not converge (residual %.3g after %d iterations)",
+                    rec.line, out.solution.residual, out.solution.iterations);
+    } else {
+      std::snprintf(buf, sizeof buf,
+                    "line %zu: solver did not converge (no finite residual after %d iterations)", rec.line,
+                    out.solution.iterations);
+    }
     out.message = buf;
     return;
   }
@@ -65,23 +74,6 @@ void score_obligor(const ObligorRecord& rec, const BookDefaults& book, const Sco
 }
 
 namespace {
-
-// Runs fn(worker, begin, end) over [0, n) split into `threads` contiguous slices.
-void parallel_slices(std::size_t n, unsigned threads,
-                     const std::function<void(unsigned, std::size_t, std::size_t)>& fn) {
-  const unsigned t =
-      std::max(1U, std::min<unsigned>(threads, static_cast<unsigned>(std::max<std::size_t>(n / 64, 1))));
-  if (t == 1) {
-    fn(0, 0, n);
-    return;
-  }
-  std::vector<std::thread> pool;
-  pool.reserve(t - 1);
-  const auto bound = [&](unsigned w) { return n * w / t; };
-  for (unsigned w = 1; w < t; ++w) pool.emplace_back(fn, w, bound(w), bound(w + 1));
-  fn(0, 0, bound(1));
-  for (auto& th : pool) th.join();
-}
 
 // Ids seen so far, as 64-bit hashes with the line of first appearance (open addressing). A hash
 // collision between two different ids (probability ~ n^2 / 2^65) would be reported as a duplicate.
@@ -156,7 +148,7 @@ class BatchScorer {
         settings_(settings),
         run_(run),
         sink_(sink),
-        writer_(make_score_writer(run.format, origin, settings, run.grades)),
+        writer_(make_score_writer(run.format, origin, settings, run.sensitivities, run.grades)),
         workers_(std::max(1U, run.threads)) {}
 
   void begin() {
@@ -358,8 +350,31 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
         const void* nl = ::memrchr(all.data(), '\n', all.size());
         cut = nl ? static_cast<std::size_t>(static_cast<const char*>(nl) - all.data()) + 1 : 0;
       }
-      if (cut == 0) {  // one record longer than the buffer: read more before cutting
-        want = buf.size() * 2;
+      if (cut == 0) {
+        if (buf.size() < kMaxRecordBytes) {  // one record longer than the buffer: read more
+          want = std::min(buf.size() * 2, kMaxRecordBytes);
+          continue;
+        }
+        // A record longer than kMaxRecordBytes: report it and skip to the next line break, so
+        // that memory stays bounded whatever the file holds.
+        recs.resize(std::max<std::size_t>(recs.size(), 1));
+        recs[0].clear();
+        recs[0].line = line;
+        recs[0].read_error = "row is longer than " + std::to_string(kMaxRecordBytes) + " bytes (skipped)";
+        scorer.score(recs, 1);
+        while (true) {
+          const void* nl = std::memchr(buf.data(), '\n', buf.size());
+          if (nl != nullptr) {
+            buf.erase(0, static_cast<std::size_t>(static_cast<const char*>(nl) - buf.data()) + 1);
+            ++line;
+            break;
+          }
+          buf.clear();
+          if (eof) break;
+          fill(run.chunk_bytes);
+          if (buf.empty()) break;
+        }
+        want = run.chunk_bytes;
         continue;
       }
     }

@@ -65,7 +65,9 @@ double yaml_number(const YAML::Node& node, const std::string& origin, std::strin
   return value;
 }
 
-std::string closest_name(std::string_view name, std::initializer_list<std::string_view> candidates) {
+namespace {
+template <class Range>
+std::string closest_in(std::string_view name, const Range& candidates) {
   std::string best;
   std::size_t best_d = 3;
   for (std::string_view c : candidates) {
@@ -87,14 +89,29 @@ std::string closest_name(std::string_view name, std::initializer_list<std::strin
   }
   return best;
 }
+}  // namespace
+
+std::string closest_name(std::string_view name, std::initializer_list<std::string_view> candidates) {
+  return closest_in(name, candidates);
+}
+
+std::string closest_name(std::string_view name, const std::vector<std::string>& candidates) {
+  return closest_in(name, candidates);
+}
 
 void yaml_check_keys(const YAML::Node& node, std::initializer_list<std::string_view> allowed,
                      const std::string& origin, std::string_view where) {
   if (!node.IsMap()) {
     throw InputError(located(origin, yaml_line(node), std::string(where) + ": expected a map of key: value"));
   }
+  std::vector<std::string> seen;
   for (const auto& kv : node) {
     const std::string key = kv.first.Scalar();
+    if (std::find(seen.begin(), seen.end(), key) != seen.end()) {
+      throw InputError(
+          located(origin, yaml_line(kv.first), std::string(where) + ": key '" + key + "' is given twice"));
+    }
+    seen.push_back(key);
     if (std::find(allowed.begin(), allowed.end(), key) != allowed.end()) continue;
     std::string msg = std::string(where) + ": unknown key '" + key + "'";
     const std::string hint = closest_name(key, allowed);

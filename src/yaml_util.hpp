@@ -6,6 +6,7 @@
 #include <initializer_list>
 #include <string>
 #include <string_view>
+#include <vector>
 
 namespace firmcall::detail {
 
@@ -31,5 +32,7 @@ void yaml_check_keys(const YAML::Node& node, std::initializer_list<std::string_v
 
 /// The closest candidate by edit distance when it is within 2 edits, else empty.
 std::string closest_name(std::string_view name, std::initializer_list<std::string_view> candidates);
+/// The same for a run-time list of candidates (e.g. the sector names of a book).
+std::string closest_name(std::string_view name, const std::vector<std::string>& candidates);
 
 }  // namespace firmcall::detail

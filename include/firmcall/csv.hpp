@@ -37,14 +37,22 @@ struct CsvColumns {
   std::vector<std::string> unused;  ///< header names firmcall does not read (reported as a note)
 
   /// Maps a header record. Throws InputError (naming `origin` and the column) when a column is
-  /// repeated or the id column, the equity value or equity_vol is missing.
-  static CsvColumns from_header(const std::vector<std::string_view>& header, const std::string& origin);
+  /// repeated or the id column is missing, or (for BookUse::scoring) the equity value or
+  /// equity_vol is missing.
+  static CsvColumns from_header(const std::vector<std::string_view>& header, const std::string& origin,
+                                BookUse use = BookUse::scoring);
 };
 
 /// Fills `rec` from one record's fields (rec.line must be set by the caller). Number fields are
 /// parsed with std::from_chars; empty cells are absent; the first bad cell sets rec.read_error.
 void parse_obligor_fields(const std::vector<std::string_view>& fields, const CsvColumns& cols,
                           ObligorRecord& rec);
+
+/// s without leading and trailing spaces and tabs.
+std::string_view trim_blanks(std::string_view s) noexcept;
+
+/// True when s is well-formed UTF-8 (RFC 3629: no overlongs, surrogates or values past U+10FFFF).
+bool valid_utf8(std::string_view s) noexcept;
 
 /// Parses a decimal number cell (surrounding spaces allowed). Returns false on anything else,
 /// including nan, inf and out-of-range values.

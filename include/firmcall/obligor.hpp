@@ -8,6 +8,7 @@
 #include <optional>
 #include <string>
 #include <string_view>
+#include <vector>
 
 #include "firmcall/merton.hpp"
 #include "firmcall/settings.hpp"
@@ -38,6 +39,8 @@ inline constexpr std::size_t kTextFieldCount = static_cast<std::size_t>(TextFiel
 
 std::string_view to_string(NumField f) noexcept;
 std::string_view to_string(TextField f) noexcept;
+/// Every field name (text fields first), as used in CSV headers and YAML keys.
+const std::vector<std::string>& obligor_field_names();
 /// Looks a field name up among both kinds; returns false when it is neither.
 bool field_from_string(std::string_view name, std::optional<NumField>& num,
                        std::optional<TextField>& text) noexcept;
@@ -61,6 +64,10 @@ struct ObligorRecord {
   void clear() noexcept;
 };
 
+/// What a book is read for. scoring: the equity value and equity_vol columns are required.
+/// history: equity comes from a market history file, so a CSV book needs only the id column.
+enum class BookUse : std::uint8_t { scoring, history };
+
 /// Run-wide values a book may set (YAML `defaults:`); an obligor's own field wins over them.
 struct BookDefaults {
   std::optional<double> rate;
@@ -78,6 +85,8 @@ struct ResolvedObligor {
   bool has_ead = false;
   bool has_lgd = false;  ///< true when lgd came from the obligor or the book
   std::string error;     ///< empty when usable; else "field 'x': reason, got 'value'"
+  /// True when mu is the rate (risk-neutral measure, or no drift given): a rate change moves mu too.
+  bool drift_follows_rate = false;
   bool ok() const noexcept { return error.empty(); }
 };
 

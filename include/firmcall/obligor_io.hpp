@@ -30,6 +30,9 @@ struct Book {
 
 enum class BookFormat { yaml, csv };
 
+/// YAML books are parsed whole; larger ones are refused (CSV streams in constant memory).
+inline constexpr std::size_t kMaxYamlBookBytes = std::size_t{8} << 20;
+
 /// Format from the file name: .yaml/.yml are YAML, .csv is CSV; anything else is an InputError.
 BookFormat book_format_of(const std::string& path);
 
@@ -37,10 +40,10 @@ BookFormat book_format_of(const std::string& path);
 Book parse_yaml_book(const std::string& text, const std::string& origin);
 
 /// Parses a whole CSV book held in memory (see csv.hpp for the dialect).
-Book parse_csv_book(const std::string& text, const std::string& origin);
+Book parse_csv_book(const std::string& text, const std::string& origin, BookUse use = BookUse::scoring);
 
 /// Reads a book of either format from a file.
-Book load_book(const std::string& path);
+Book load_book(const std::string& path, BookUse use = BookUse::scoring);
 
 /// Marks every obligor whose id repeats an earlier one (read_error names the first line).
 void mark_duplicate_ids(std::vector<ObligorRecord>& obligors);

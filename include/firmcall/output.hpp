@@ -1,5 +1,5 @@
-// Output formatting shared by the commands: full-precision numbers, CSV and JSON escaping, and
-// the score writers (table for people, CSV and JSON for programs).
+// Output formatting shared by the commands: full-precision numbers, CSV and JSON escaping,
+// sensitivity columns, and the score writers (table for people, CSV and JSON for programs).
 #pragma once
 
 #include <memory>
@@ -9,11 +9,14 @@
 
 #include "firmcall/grades.hpp"
 #include "firmcall/score.hpp"
+#include "firmcall/sensitivity.hpp"
 
 namespace firmcall {
 
 /// Appends v with 17 significant digits (round-trips exactly); non-finite values append nothing.
 void append_number(std::string& out, double v);
+/// Appends column names joined by commas (a CSV header, or its continuation after a comma).
+void append_csv_names(std::string& out, const std::vector<std::string_view>& names);
 /// Appends a CSV cell, quoted when it holds a comma, quote or line break.
 void append_csv_text(std::string& out, std::string_view s);
 /// Appends a JSON string literal (with quotes), escaping as RFC 8259 requires.
@@ -23,6 +26,24 @@ void append_json_number(std::string& out, double v);
 
 /// Names of the machine-readable score columns, in order.
 const std::vector<std::string_view>& score_columns();
+
+/// Names of the optional sensitivity columns (--sensitivities), in order: sensitivity_status, then
+/// DD, PD and spread per +1% equity value, per +1 equity-volatility point, per +1% default point and
+/// per +1 bp of rate (units in sensitivity.hpp). Appended after the other columns.
+const std::vector<std::string_view>& sensitivity_columns();
+
+/// Sensitivities of a solved obligor (its own inputs and solution).
+MertonSensitivities sensitivities_of(const ResolvedObligor& resolved, const AssetSolution& solution);
+
+/// Appends ",status,v1,...,v12" in sensitivity_columns() order; cells are empty when `usable` is
+/// false or the sensitivities are not ok.
+void append_sensitivities_csv(std::string& out, const MertonSensitivities& s, bool usable);
+/// Appends ", \"sensitivity_status\": ..., \"dd_per_equity_pct\": ..." (null when not usable).
+void append_sensitivities_json(std::string& out, const MertonSensitivities& s, bool usable);
+/// Appends one fixed-width line of the twelve values under a table row (see the table header).
+void append_sensitivities_table(std::string& out, const MertonSensitivities& s, std::size_t indent);
+/// Appends the two header lines that explain append_sensitivities_table's columns.
+void append_sensitivities_table_header(std::string& out, std::size_t indent);
 
 /// Writes scored obligors in one format. Rows are appended to a caller's buffer so that workers
 /// can format in parallel; `separator` is written between rows by the caller.
@@ -35,10 +56,12 @@ class ScoreWriter {
   virtual void end(const ScoreSummary& summary, std::string& out) const = 0;
 };
 
-/// A writer for the format; `origin` and `settings` appear in the JSON run block. With `grades`,
-/// each scored obligor also shows its grade (a last CSV column and JSON key `grade`, a table column).
+/// A writer for the format; `origin` and `settings` appear in the JSON run block. With
+/// `sensitivities` every format adds the sensitivity columns (the table a second line per obligor).
+/// With `grades`, each scored obligor also shows its grade (a last CSV column and JSON key `grade`,
+/// a table column).
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
-                                               const ScoreSettings& settings,
+                                               const ScoreSettings& settings, bool sensitivities = false,
                                                const GradeScale* grades = nullptr);
 
 }  // namespace firmcall

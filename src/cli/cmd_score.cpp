@@ -23,6 +23,7 @@ struct ScoreCli {
   std::optional<double> weight;
   std::string measure;
   unsigned threads = 0;
+  bool sensitivities = false;
   bool grades = false;  // --grades: show each obligor's grade
   bool record = false;  // --record: also write the run to the history store
   std::string db;
@@ -57,6 +58,9 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
       ->check(CLI::IsMember({"physical", "risk-neutral"}));
   cmd->add_option("-j,--threads", opts->threads, "Worker threads (default: all cores)")
       ->check(CLI::Range(1, 1024));
+  cmd->add_flag("--sensitivities", opts->sensitivities,
+                "Add analytic sensitivities of DD, PD and spread per +1% equity value, +1 point equity "
+                "volatility, +1% default point and +1 bp rate");
   cmd->add_flag("--grades", opts->grades, "Show each obligor's grade on the master scale (settings: grades)");
   CLI::Option* record = cmd->add_flag("--record", opts->record, "Also record the run in the history store");
   cmd->add_option("--db", opts->db,
@@ -86,6 +90,7 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
                        : opts->format == "json" ? OutputFormat::json
                                                 : OutputFormat::table;
       runopts.threads = opts->threads > 0 ? opts->threads : default_threads();
+      runopts.sensitivities = opts->sensitivities;
       if (opts->grades) runopts.grades = &config.grades;
 
       const BookFormat fmt = book_format_of(opts->book);
@@ -111,6 +116,7 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
       }
       if (!global.quiet) {
         for (const auto& n : summary.notes) std::cerr << "firmcall: " << n << "\n";
+        if (summary.total == 0) std::cerr << "firmcall: note: " << opts->book << " has no obligors\n";
         if (runopts.format != OutputFormat::table) {
           for (const auto& p : summary.problems) std::cerr << "firmcall: " << p << "\n";
           if (summary.problems_not_listed > 0) {

@@ -41,6 +41,8 @@ inline constexpr const char* kCaution =
 unsigned default_threads();
 
 void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
+void add_history_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
+void add_stress_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
 void add_runs_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
 void add_movers_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
 void add_watchlist_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);

@@ -35,6 +35,8 @@ int main(int argc, char** argv) {
 
   cli::CommandRun run;
   cli::add_score_command(app, global, run);
+  cli::add_history_command(app, global, run);
+  cli::add_stress_command(app, global, run);
   cli::add_runs_command(app, global, run);
   cli::add_movers_command(app, global, run);
   cli::add_watchlist_command(app, global, run);

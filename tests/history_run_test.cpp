@@ -1,0 +1,328 @@
+// Tests of the history run (src/history_run.cpp): joining book, equity history and balance
+// sheets, per-obligor failures, output formats and the daily series.
+#include "firmcall/history_run.hpp"
+
+#include <doctest/doctest.h>
+
+#include <cstdio>
+#include <map>
+#include <string>
+#include <vector>
+
+#include "firmcall/csv.hpp"
+#include "firmcall/output.hpp"
+#include "simulated_history.hpp"
+
+using namespace firmcall;
+using firmcall::testing::simulate;
+using firmcall::testing::SimulatedHistory;
+
+namespace {
+
+constexpr std::int32_t kFirstDay = 20455;  // 2026-01-02
+
+std::string num(double v) {
+  char buf[40];
+  std::snprintf(buf, sizeof buf, "%.17g", v);
+  return buf;
+}
+
+// Appends rows "date,id,market_cap" for a simulated history, one calendar day apart.
+void append_rows(std::string& text, const std::string& id, const SimulatedHistory& s) {
+  for (std::size_t i = 0; i < s.equity_value.size(); ++i) {
+    text += format_iso_date(kFirstDay + s.day[i]) + "," + id + "," + num(s.equity_value[i]) + "\n";
+  }
+}
+
+// A parsed CSV output: header names to cells, one map per row.
+std::vector<std::map<std::string, std::string>> parse_output(const std::string& text) {
+  std::vector<std::map<std::string, std::string>> rows;
+  std::vector<std::string_view> fields;
+  std::string scratch;
+  bool open = false;
+  std::string_view rest(text);
+  std::size_t used = split_csv_record(rest, fields, scratch, open);
+  const std::vector<std::string> header(fields.begin(), fields.end());
+  rest.remove_prefix(used);
+  while (!rest.empty()) {
+    used = split_csv_record(rest, fields, scratch, open);
+    rest.remove_prefix(used);
+    REQUIRE(fields.size() == header.size());
+    auto& row = rows.emplace_back();
+    for (std::size_t i = 0; i < header.size(); ++i) row[header[i]] = std::string(fields[i]);
+  }
+  return rows;
+}
+
+double as_double(const std::string& cell) {
+  double v = 0.0;
+  REQUIRE(parse_number(cell, v));
+  return v;
+}
+
+struct Fixture {
+  SimulatedHistory a = simulate({.seed = 71, .asset_vol = 0.20, .default_point = 500});
+  SimulatedHistory b = simulate({.seed = 72, .asset_vol = 0.35, .default_point = 800});
+  Book book;
+  EquityHistory prices;
+  Fixture(const std::string& extra_rows = "", const std::string& extra_book = "") {
+    // default_point 500 for A via the debt rule 250 + 0.5 x 500; B gives default_point directly.
+    book = parse_yaml_book(
+        "defaults: {rate: 0.03}\n"
+        "obligors:\n"
+        "  - {id: A, name: Alpha, short_term_debt: 250, long_term_debt: 500}\n"
+        "  - {id: B, name: Beta, default_point: 800}\n" +
+            extra_book,
+        "book.yaml");
+    std::string text = "date,id,market_cap\n";
+    append_rows(text, "A", a);
+    append_rows(text, "B", b);
+    text += extra_rows;
+    prices = parse_equity_history(text, "prices.csv");
+  }
+  HistorySources sources() const { return {&book, &prices, nullptr}; }
+};
+
+std::string run_to_string(const HistorySources& src, const HistoryRunOptions& run,
+                          HistorySummary* summary = nullptr, std::string* series = nullptr,
+                          const HistorySettings& settings = {}) {
+  std::string out;
+  const TextSink series_sink = [series](std::string_view s) { series->append(s); };
+  const HistorySummary s = run_history(
+      src, ScoreSettings{}, settings, run, [&out](std::string_view t) { out.append(t); },
+      series != nullptr ? &series_sink : nullptr);
+  if (summary != nullptr) *summary = s;
+  return out;
+}
+
+}  // namespace
+
+TEST_CASE("history run: each obligor's own history reaches the estimator") {
+  // Independent path: the estimator called directly on the simulated arrays. The text round
+  // trip prints 17 significant digits, so the numbers must agree to the last bit or so.
+  const Fixture f;
+  for (HistoryMethod m : {HistoryMethod::iterative, HistoryMethod::mle, HistoryMethod::naive}) {
+    CAPTURE(to_string(m));
+    HistoryRunOptions run;
+    run.estimator.method = m;
+    const auto rows = parse_output(run_to_string(f.sources(), run));
+    REQUIRE(rows.size() == 2);
+    const SimulatedHistory* sims[] = {&f.a, &f.b};
+    for (std::size_t i = 0; i < 2; ++i) {
+      const SimulatedHistory& s = *sims[i];
+      HistoryWorkspace ws;
+      const AssetDynamics direct = estimate_asset_dynamics(
+          {s.equity_value, s.default_point, s.day, 0.03, 1.0}, {.method = m}, HistorySettings{}, ws);
+      REQUIRE(direct.usable());
+      const auto& row = rows[i];
+      CHECK(row.at("status") == "ok");
+      CHECK(row.at("method") == to_string(m));
+      CHECK(row.at("observations") == "253");
+      CHECK(row.at("as_of") == format_iso_date(kFirstDay + 252));
+      CHECK(as_double(row.at("asset_vol")) == doctest::Approx(direct.asset_vol_annual).epsilon(1e-14));
+      CHECK(as_double(row.at("distance_to_default")) ==
+            doctest::Approx(direct.distance_to_default).epsilon(1e-12));
+      CHECK(as_double(row.at("default_point")) == s.default_point.back());
+      CHECK(row.at("message").empty());
+      if (m == HistoryMethod::mle) {
+        CHECK(as_double(row.at("asset_vol_se")) == doctest::Approx(direct.asset_vol_se).epsilon(1e-9));
+        CHECK(as_double(row.at("pd_hi")) > as_double(row.at("pd")));
+      } else {
+        CHECK(row.at("asset_vol_se").empty());
+        CHECK(row.at("dd_lo").empty());
+      }
+    }
+  }
+}
+
+TEST_CASE("history run: bad obligors get a message naming file, line and field, and the rest still run") {
+  // C: a non-positive value; D: 40 rows (short); E: in the book, not in the history;
+  // F: no debt anywhere; G: no rate; X: in the history, not in the book (a note).
+  std::string extra;
+  for (int i = 0; i < 130; ++i) {
+    extra += format_iso_date(kFirstDay + i) + ",C," + (i == 77 ? "0" : std::to_string(100 + i % 7)) + "\n";
+  }
+  for (int i = 0; i < 40; ++i)
+    extra += format_iso_date(kFirstDay + i) + ",D," + std::to_string(100 + i % 5) + "\n";
+  for (int i = 0; i < 130; ++i) {
+    extra += format_iso_date(kFirstDay + i) + ",F," + std::to_string(100 + i % 7) + "\n";
+    extra += format_iso_date(kFirstDay + i) + ",G," + std::to_string(100 + i % 7) + "\n";
+    extra += format_iso_date(kFirstDay + i) + ",X," + std::to_string(100 + i % 7) + "\n";
+  }
+  const Fixture f(extra,
+                  "  - {id: C, default_point: 90}\n"
+                  "  - {id: D, default_point: 90}\n"
+                  "  - {id: E, default_point: 90}\n"
+                  "  - {id: F}\n"
+                  "  - {id: G, default_point: 90}\n");
+  Book book = f.book;
+  book.defaults.rate.reset();
+  book.obligors[0].set(NumField::rate, 0.03);
+  book.obligors[1].set(NumField::rate, 0.03);
+  for (std::size_t i = 2; i < 6; ++i) book.obligors[i].set(NumField::rate, 0.03);
+  HistorySummary summary;
+  HistoryRunOptions run;
+  const auto rows = parse_output(run_to_string({&book, &f.prices, nullptr}, run, &summary));
+  REQUIRE(rows.size() == 7);
+  CHECK(rows[0].at("status") == "ok");
+  CHECK(rows[1].at("status") == "ok");
+  const std::size_t c_line = 2 + 2 * 253 + 77;  // header, A and B rows, then C's 78th row
+  CHECK(rows[2].at("status") == "invalid_input");
+  CHECK(rows[2].at("message") == "prices.csv:" + std::to_string(c_line) +
+                                     ": obligor 'C': field 'market_cap': must be positive, got '0'");
+  CHECK(rows[3].at("message") ==
+        "prices.csv: obligor 'D': 40 observations, at least 120 needed (history.min_observations)");
+  CHECK(rows[3].at("observations") == "40");  // what is known is still reported
+  CHECK(rows[4].at("message") == "prices.csv: obligor 'E': no rows for this obligor in the equity history");
+  CHECK(rows[5].at("message") ==
+        "book.yaml:8: obligor 'F': the book gives no debt (short_term_debt and long_term_debt, or "
+        "default_point)");
+  CHECK(rows[6].at("message") ==
+        "book.yaml:9: obligor 'G': field 'rate': missing (give a rate, a book default or --rate)");
+  CHECK(summary.total == 7);
+  CHECK(summary.estimated == 2);
+  CHECK(summary.invalid == 5);
+  CHECK(summary.problems.size() == 5);
+  REQUIRE_FALSE(summary.notes.empty());
+  CHECK(summary.notes.back() == "prices.csv: note: 1 obligor not in the book (first 'X') ignored");
+}
+
+TEST_CASE("history run: the default point follows the latest balance sheet on or before each day") {
+  // Book debt (DP 500) applies before the first sheet; sheets on day 50 (DP 600) and day 120
+  // (default_point 700) take over from their dates on.
+  const Fixture f;
+  const BalanceSheets sheets = parse_balance_sheets(
+      "id,as_of,short_term_debt,long_term_debt,default_point\n"
+      "A," +
+          format_iso_date(kFirstDay + 120) +
+          ",,,700\n"
+          "A," +
+          format_iso_date(kFirstDay + 50) + ",300,600,\n",
+      "sheets.csv");
+  JoinedHistory j;
+  join_history(f.book.obligors[0], {&f.book, &f.prices, &sheets}, ScoreSettings{}, j);
+  REQUIRE(j.ok());
+  CHECK(j.default_point[49] == 500.0);
+  CHECK(j.default_point[50] == 600.0);
+  CHECK(j.default_point[119] == 600.0);
+  CHECK(j.default_point[120] == 700.0);
+  CHECK(j.default_point.back() == 700.0);
+  CHECK(j.last_default_point_from_sheet);
+  // --default-point-weight applies to sheets too: 300 + 0.25 x 600.
+  ScoreSettings w;
+  w.weight_override = 0.25;
+  join_history(f.book.obligors[0], {&f.book, &f.prices, &sheets}, w, j);
+  CHECK(j.default_point[60] == 450.0);
+
+  // Without book debt, days before the first sheet have no default point.
+  Book nodebt = parse_yaml_book("defaults: {rate: 0.03}\nobligors:\n  - {id: A}\n", "nodebt.yaml");
+  join_history(nodebt.obligors[0], {&nodebt, &f.prices, &sheets}, ScoreSettings{}, j);
+  CHECK_FALSE(j.ok());
+  CHECK(j.message("A") ==
+        "nodebt.yaml:3: obligor 'A': no balance sheet dated on or before 2026-01-02 and the "
+        "book gives no debt (short_term_debt and long_term_debt, or default_point)");
+  // A bad sheet fails that obligor with the sheet file's line.
+  const BalanceSheets bad =
+      parse_balance_sheets("id,as_of,short_term_debt,long_term_debt\nA,2026-02-30,1,2\n", "bad.csv");
+  join_history(f.book.obligors[0], {&f.book, &f.prices, &bad}, ScoreSettings{}, j);
+  CHECK(j.message("A") ==
+        "bad.csv:2: obligor 'A': field 'as_of': expected an ISO 8601 date such as 2026-03-31, got "
+        "'2026-02-30'");
+}
+
+TEST_CASE("history run: rate and horizon precedence") {
+  const Fixture f;
+  JoinedHistory j;
+  join_history(f.book.obligors[0], f.sources(), ScoreSettings{}, j);
+  CHECK(j.rate == 0.03);    // book default
+  CHECK(j.horizon == 1.0);  // configuration
+  ScoreSettings s;
+  s.rate_override = 0.05;
+  s.horizon_override = 2.0;
+  join_history(f.book.obligors[0], f.sources(), s, j);
+  CHECK(j.rate == 0.05);
+  CHECK(j.horizon == 2.0);
+}
+
+TEST_CASE("history run: the daily series ends at the reported last day") {
+  const Fixture f;
+  HistoryRunOptions run;
+  run.estimator.method = HistoryMethod::mle;
+  std::string series;
+  const auto rows = parse_output(run_to_string(f.sources(), run, nullptr, &series));
+  const auto daily = parse_output(series);
+  REQUIRE(daily.size() == 2 * 253);
+  CHECK(daily.front().at("id") == "A");
+  CHECK(daily.front().at("date") == "2026-01-02");
+  const auto& last_a = daily[252];
+  CHECK(last_a.at("date") == rows[0].at("as_of"));
+  CHECK(last_a.at("distance_to_default") == rows[0].at("distance_to_default"));
+  CHECK(last_a.at("asset_value") == rows[0].at("asset_value"));
+  CHECK(as_double(daily[100].at("asset_value")) == doctest::Approx(f.a.asset_value[100]).epsilon(0.02));
+}
+
+TEST_CASE("history run: output is identical whatever the threads and batch size") {
+  const Fixture f;
+  HistoryRunOptions one;
+  one.format = OutputFormat::json;
+  HistoryRunOptions many = one;
+  many.threads = 3;
+  many.batch_obligors = 1;
+  std::size_t calls = 0;
+  many.progress = [&calls](std::size_t done, std::size_t total) {
+    ++calls;
+    CHECK(done <= total);
+  };
+  CHECK(run_to_string(f.sources(), one) == run_to_string(f.sources(), many));
+  CHECK(calls == 2);
+}
+
+TEST_CASE("history run: no NaN or infinity is ever printed") {
+  // A failed estimate (budget of one pass) leaves estimates unknown: empty CSV cells, JSON null.
+  const Fixture f;
+  HistorySettings tight;
+  tight.max_iterations = 1;
+  for (OutputFormat fmt : {OutputFormat::csv, OutputFormat::json, OutputFormat::table}) {
+    HistoryRunOptions run;
+    run.format = fmt;
+    HistorySummary summary;
+    const std::string out = run_to_string(f.sources(), run, &summary, nullptr, tight);
+    CHECK(summary.not_converged == 2);
+    CHECK(out.find("nan") == std::string::npos);
+    CHECK(out.find("inf") == std::string::npos);
+    if (fmt == OutputFormat::json) CHECK(out.find("\"asset_vol\": null") != std::string::npos);
+    if (fmt == OutputFormat::csv) {
+      const auto rows = parse_output(out);
+      CHECK(rows[0].at("status") == "not_converged");
+      CHECK(rows[0].at("asset_vol").empty());
+      CHECK(rows[0].at("iterations") == "1");
+      CHECK(rows[0].at("message").rfind("prices.csv: obligor 'A': iterative: the iteration did not settle "
+                                        "within history.max_iterations "
+                                        "passes (1; last change in sV ",
+                                        0) == 0);
+    }
+  }
+}
+
+TEST_CASE("history run: --score scores with the history's last equity value and volatility") {
+  // Independent path: the same book scored by score_book after setting market_cap to the last
+  // equity value and equity_vol to estimate_equity_vol's EWMA figure by hand.
+  const Fixture f;
+  ScoreRunOptions run;
+  std::string via_history;
+  score_with_history(f.sources(), ScoreSettings{}, HistorySettings{}, VolEstimator::ewma, run,
+                     [&](std::string_view s) { via_history.append(s); });
+  Book manual = f.book;
+  const SimulatedHistory* sims[] = {&f.a, &f.b};
+  for (std::size_t i = 0; i < 2; ++i) {
+    const SimulatedHistory& s = *sims[i];
+    const EquityVolEstimate v =
+        estimate_equity_vol({s.equity_value, s.default_point, s.day, 0.03, 1.0}, HistorySettings{});
+    manual.obligors[i].set(NumField::market_cap, s.equity_value.back());
+    manual.obligors[i].set(NumField::equity_vol, v.ewma_annual);
+  }
+  std::string direct;
+  score_book(manual, ScoreSettings{}, run, [&](std::string_view s) { direct.append(s); });
+  CHECK(via_history == direct);
+  CHECK(parse_output(direct).at(0).at("status") == "ok");
+}

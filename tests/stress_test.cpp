@@ -1,0 +1,346 @@
+// Tests of stress runs (src/stress.cpp, src/stress_output.cpp): the engine, its summaries and
+// its output formats. Books and scenarios are fed from strings.
+#include "firmcall/stress.hpp"
+
+#include <doctest/doctest.h>
+
+#include <charconv>
+#include <cmath>
+#include <cstdio>
+#include <map>
+#include <sstream>
+#include <string>
+#include <vector>
+
+#include "csv_table.hpp"
+#include "firmcall/output.hpp"
+
+using namespace firmcall;
+
+namespace {
+
+// Invented obligors: a spread of leverage and volatility, one with an explicit drift, ead and lgd
+// on most, and BAD-5 whose equity volatility is missing.
+const char* kBook = R"(book: stress test book
+defaults: {rate: 0.03, horizon: 1}
+obligors:
+  - {id: OK-1, name: One, sector: Energy, country: DE, currency: EUR, market_cap: 2400, equity_vol: 0.31,
+     short_term_debt: 800, long_term_debt: 1900, ead: 40, lgd: 0.4}
+  - {id: OK-2, name: Two, sector: Utilities, country: GB, currency: GBP, market_cap: 800, equity_vol: 0.45,
+     short_term_debt: 900, long_term_debt: 1500, ead: 25}
+  - {id: OK-3, name: Three, sector: Energy, country: FR, currency: EUR, market_cap: 300, equity_vol: 0.7,
+     default_point: 900, drift: 0.08, ead: 10, lgd: 0.6}
+  - {id: OK-4, name: Four, sector: Technology, country: US, currency: USD, market_cap: 9000, equity_vol: 0.38,
+     short_term_debt: 300, long_term_debt: 1200, rate: 0.042}
+  - {id: BAD-5, name: Five, sector: Energy, country: DE, currency: EUR, market_cap: 500,
+     short_term_debt: 100, long_term_debt: 100, ead: 5}
+)";
+
+using Csv = testing::CsvTable;
+Csv parse_csv(const std::string& text) {
+  return testing::parse_csv_table(text);
+}
+
+struct Run {
+  StressSummary summary;
+  std::string text;
+};
+
+Run run(const Book& book, const std::string& scenario_yaml, OutputFormat format = OutputFormat::csv,
+        unsigned threads = 1, bool sensitivities = false, StressSettings stress = {}) {
+  const ScenarioSet set = parse_scenarios(scenario_yaml, "scen.yaml");
+  check_filters(set, book);
+  StressRunOptions opts;
+  opts.format = format;
+  opts.threads = threads;
+  opts.sensitivities = sensitivities;
+  opts.chunk_obligors = 3;  // several chunks even for a small book
+  Run r;
+  r.summary = run_stress(book, set.scenarios, set.origin, ScoreSettings{}, stress, opts,
+                         [&](std::string_view s) { r.text += s; });
+  return r;
+}
+
+Book book() {
+  return parse_yaml_book(kBook, "book.yaml");
+}
+
+ScoredObligor scored(const ObligorRecord& rec, const BookDefaults& defaults) {
+  ScoredObligor s;
+  score_obligor(rec, defaults, ScoreSettings{}, s);
+  return s;
+}
+
+}  // namespace
+
+TEST_CASE("a zero shock reproduces the base run exactly") {
+  const Book b = book();
+  const Run r = run(b, R"(scenarios:
+  - name: zero
+    shocks: [{equity_change: 0, equity_vol_multiplier: 1, equity_vol_add_points: 0, rate_shift_bp: 0,
+              default_point_change: 0}]
+)");
+  const Csv csv = parse_csv(r.text);
+  REQUIRE(csv.rows.size() == b.obligors.size());
+  for (std::size_t i = 0; i < b.obligors.size(); ++i) {
+    const ScoredObligor base = scored(b.obligors[i], b.defaults);
+    if (base.status != RowStatus::ok) continue;
+    CHECK(csv.cell(i, "shocked") == "true");  // re-solved, not copied
+    for (const char* m :
+         {"asset_value", "asset_vol", "distance_to_default", "pd", "spread_bp", "expected_loss"}) {
+      CHECK(csv.cell(i, m) == csv.cell(i, std::string(m) + "_stressed"));
+    }
+    CHECK(csv.number(i, "pd_change") == 0.0);
+    CHECK(csv.number(i, "spread_bp_change") == 0.0);
+    CHECK(csv.number(i, "distance_to_default_change") == 0.0);
+    // And the base columns are the score command's own values, to the last bit.
+    CHECK(csv.number(i, "pd") == base.measures.pd);
+    CHECK(csv.number(i, "distance_to_default") == base.measures.distance_to_default);
+    CHECK(csv.number(i, "spread_bp") == base.measures.spread_bp);
+  }
+  const ScenarioSummary& s = r.summary.scenarios.at(0);
+  CHECK(s.mean_pd == s.mean_pd_stressed);
+  CHECK(s.expected_loss == s.expected_loss_stressed);
+  CHECK(s.shocked == 4);
+}
+
+TEST_CASE("stressed results equal scoring a book whose inputs were shocked by hand") {
+  // Independent path: the shocked inputs are written into the obligor records and scored as a
+  // book (resolve_obligor, solve, measures), without the stress engine.
+  const Book b = book();
+  const Run r = run(b, R"(scenarios:
+  - name: combined
+    shocks:
+      - {equity_change: -0.3, equity_vol_multiplier: 1.5, rate_shift_bp: 25, default_point_change: 0.1}
+)");
+  const Csv csv = parse_csv(r.text);
+  for (std::size_t i = 0; i < 4; ++i) {
+    ObligorRecord rec = b.obligors[i];
+    const ScoredObligor base = scored(rec, b.defaults);
+    REQUIRE(base.status == RowStatus::ok);
+    const MertonInputs& in = base.resolved.inputs;
+    rec.set(NumField::market_cap, in.equity_value * (1.0 + -0.3));
+    rec.set(NumField::equity_vol, in.equity_vol_annual * 1.5 + 0.0);
+    rec.set(NumField::default_point, in.default_point * (1.0 + 0.1));
+    rec.set(NumField::rate, in.risk_free_rate_cc + 25.0 / 1e4);
+    // The drift follows the rate unless given (OK-3 gives 0.08, which stays).
+    const ScoredObligor by_hand = scored(rec, b.defaults);
+    REQUIRE(by_hand.status == RowStatus::ok);
+    CHECK(csv.number(i, "pd_stressed") == by_hand.measures.pd);
+    CHECK(csv.number(i, "distance_to_default_stressed") == by_hand.measures.distance_to_default);
+    CHECK(csv.number(i, "spread_bp_stressed") == by_hand.measures.spread_bp);
+    CHECK(csv.number(i, "asset_vol_stressed") == by_hand.measures.asset_vol_annual);
+  }
+}
+
+TEST_CASE("a bad obligor is an invalid row in every scenario while the others are stressed") {
+  const Book b = book();
+  const Run r = run(b, R"(scenarios:
+  - name: a
+    shocks: [{equity_change: -0.2}]
+  - name: b
+    shocks: [{filter: {sector: Energy}, equity_vol_multiplier: 2}]
+)");
+  const Csv csv = parse_csv(r.text);
+  REQUIRE(csv.rows.size() == 10);
+  for (std::size_t row : {4u, 9u}) {
+    CHECK(csv.cell(row, "id") == "BAD-5");
+    CHECK(csv.cell(row, "status") == "invalid_input");
+    CHECK(csv.cell(row, "message").find("field 'equity_vol': missing") != std::string::npos);
+    CHECK(csv.cell(row, "pd_stressed").empty());
+  }
+  for (std::size_t row : {0u, 1u, 2u, 3u, 5u, 6u, 7u, 8u}) CHECK(csv.cell(row, "status") == "ok");
+  CHECK(csv.cell(6, "shocked") == "false");  // OK-2 is not in Energy
+  CHECK(csv.cell(6, "pd_stressed") == csv.cell(6, "pd"));
+  CHECK(r.summary.base_invalid == 1);
+  CHECK(r.summary.failed_rows == 2);
+  CHECK(r.summary.scenarios[0].compared == 4);
+  CHECK(r.summary.scenarios[1].shocked == 2);
+  REQUIRE(r.summary.problems.size() == 1);  // listed once, not per scenario
+  CHECK(r.summary.problems[0] == "book.yaml:12: obligor 'BAD-5': field 'equity_vol': missing");
+}
+
+TEST_CASE("a shock that makes an input invalid for one obligor fails that row only") {
+  const Book b = book();
+  // -40 volatility points: OK-2 (0.45) and OK-3 (0.70) keep a positive volatility, OK-1 (0.31)
+  // and OK-4 (0.38) do not.
+  const Run r = run(b, "scenarios:\n  - name: calm\n    shocks: [{equity_vol_add_points: -40}]\n");
+  const Csv csv = parse_csv(r.text);
+  CHECK(csv.cell(0, "status") == "invalid_stress");
+  CHECK(csv.cell(0, "message") ==
+        "stressed field 'equity_vol': must be positive (check equity_vol_add_points), got "
+        "-0.09000000000000002");
+  CHECK(csv.cell(1, "status") == "ok");
+  CHECK(csv.cell(2, "status") == "ok");
+  CHECK(csv.cell(3, "status") == "invalid_stress");
+  CHECK(r.summary.scenarios[0].failed == 3);  // two stressed failures and BAD-5
+  CHECK(r.summary.problems.size() == 3);
+}
+
+TEST_CASE("scenario summaries agree with a recomputation from the rows") {
+  // Definitions (stress.hpp): mean over compared obligors; EAD weights; EL = sum PD x LGD x EAD over
+  // obligors with ead, LGD from the obligor, else the book, else 0.45 (common practice).
+  const Book b = book();
+  StressSettings st;
+  st.pd_threshold = 0.01;
+  const Run r =
+      run(b, "scenarios:\n  - name: s\n    shocks: [{equity_change: -0.3, equity_vol_multiplier: 1.8}]\n",
+          OutputFormat::csv, 1, false, st);
+  const Csv csv = parse_csv(r.text);
+  double n = 0, pd0 = 0, pd1 = 0, w = 0, wpd0 = 0, wpd1 = 0, el0 = 0, el1 = 0;
+  std::size_t above0 = 0, above1 = 0, newly = 0;
+  for (std::size_t i = 0; i < csv.rows.size(); ++i) {
+    if (csv.cell(i, "status") != "ok") continue;
+    const double p0 = csv.number(i, "pd");
+    const double p1 = csv.number(i, "pd_stressed");
+    n += 1;
+    pd0 += p0;
+    pd1 += p1;
+    above0 += p0 > 0.01;
+    above1 += p1 > 0.01;
+    newly += p0 <= 0.01 && p1 > 0.01;
+    if (!csv.cell(i, "ead").empty()) {
+      const double ead = csv.number(i, "ead");
+      const double lgd = csv.cell(i, "id") == "OK-2" ? 0.45 : csv.number(i, "lgd");  // OK-2 gives no lgd
+      CHECK(csv.number(i, "lgd") == lgd);
+      w += ead;
+      wpd0 += ead * p0;
+      wpd1 += ead * p1;
+      el0 += p0 * lgd * ead;
+      el1 += p1 * lgd * ead;
+      CHECK(csv.number(i, "expected_loss_stressed") == doctest::Approx(p1 * lgd * ead).epsilon(1e-15));
+    } else {
+      CHECK(csv.cell(i, "expected_loss").empty());
+    }
+  }
+  const ScenarioSummary& s = r.summary.scenarios.at(0);
+  CHECK(s.compared == 4);
+  CHECK(s.with_ead == 3);
+  CHECK(s.mean_pd == doctest::Approx(pd0 / n).epsilon(1e-14));
+  CHECK(s.mean_pd_stressed == doctest::Approx(pd1 / n).epsilon(1e-14));
+  CHECK(s.ead_total == 75.0);
+  CHECK(s.ead_weighted_pd == doctest::Approx(wpd0 / w).epsilon(1e-14));
+  CHECK(s.ead_weighted_pd_stressed == doctest::Approx(wpd1 / w).epsilon(1e-14));
+  CHECK(s.expected_loss == doctest::Approx(el0).epsilon(1e-14));
+  CHECK(s.expected_loss_stressed == doctest::Approx(el1).epsilon(1e-14));
+  CHECK(s.above_threshold == above0);
+  CHECK(s.above_threshold_stressed == above1);
+  CHECK(s.newly_above_threshold == newly);
+  CHECK(above1 > above0);  // the scenario is strong enough to move some obligors across 1%
+  const std::string summary = scenario_summary_csv(
+      r.summary,
+      parse_scenarios("scenarios:\n  - name: s\n    shocks: [{equity_change: -0.3}]\n", "x").scenarios);
+  const Csv sc = parse_csv(summary);
+  REQUIRE(sc.rows.size() == 1);
+  CHECK(sc.header.size() == stress_summary_columns().size());
+  CHECK(sc.number(0, "expected_loss_stressed") == s.expected_loss_stressed);
+}
+
+TEST_CASE("monotone where the model guarantees it: more equity volatility") {
+  // Guaranteed (derivation in sensitivity_test, "more equity volatility, more asset volatility"):
+  // raising equity volatility raises asset volatility, lowers asset value and raises the spread;
+  // PD rises while DD > -sV sqrt(T). Equity falls carry no such guarantee with equity volatility
+  // held (see the next test), so none is asserted for them.
+  const Book b = book();
+  std::string yaml = "scenarios:\n";
+  const double multipliers[] = {1.0, 1.1, 1.25, 1.5, 2.0, 3.0};
+  for (double m : multipliers) {
+    yaml += "  - name: m" + std::to_string(m) +
+            "\n    shocks: [{equity_vol_multiplier: " + std::to_string(m) + "}]\n";
+  }
+  const Csv csv = parse_csv(run(b, yaml).text);
+  const std::size_t n = b.obligors.size();
+  for (std::size_t i = 0; i < 4; ++i) {
+    for (std::size_t k = 1; k < std::size(multipliers); ++k) {
+      const std::size_t lo = (k - 1) * n + i;
+      const std::size_t hi = k * n + i;
+      CHECK(csv.number(hi, "asset_vol_stressed") > csv.number(lo, "asset_vol_stressed"));
+      CHECK(csv.number(hi, "asset_value_stressed") <= csv.number(lo, "asset_value_stressed"));
+      CHECK(csv.number(hi, "spread_bp_stressed") >= csv.number(lo, "spread_bp_stressed"));
+      const double sv = csv.number(hi, "asset_vol_stressed");
+      if (csv.number(hi, "distance_to_default_stressed") >
+          -sv * std::sqrt(csv.number(hi, "horizon_stressed"))) {
+        CHECK(csv.number(hi, "pd_stressed") >= csv.number(lo, "pd_stressed"));
+      }
+    }
+  }
+}
+
+TEST_CASE("an equity fall is a default-point rise of the inverse size (homogeneity)") {
+  // Ref: Black-Scholes is homogeneous of degree one in (V, K) (Merton 1973; from memory), so the
+  // Merton measures depend on E and DP only through E/DP: E x 0.7 must give the PD of DP / 0.7.
+  const Book b = book();
+  const Csv csv = parse_csv(run(b,
+                                "scenarios:\n  - name: e\n    shocks: [{equity_change: -0.3}]\n"
+                                "  - name: d\n    shocks: [{default_point_change: 0.42857142857142855}]\n")
+                                .text);
+  const std::size_t n = b.obligors.size();
+  for (std::size_t i = 0; i < 4; ++i) {
+    CHECK(csv.number(n + i, "pd_stressed") == doctest::Approx(csv.number(i, "pd_stressed")).epsilon(1e-10));
+    CHECK(csv.number(n + i, "spread_bp_stressed") ==
+          doctest::Approx(csv.number(i, "spread_bp_stressed")).epsilon(1e-10));
+  }
+}
+
+TEST_CASE("output does not depend on the number of threads") {
+  const Book b = book();
+  const std::string yaml =
+      "scenarios:\n  - name: a\n    shocks: [{equity_change: -0.2, rate_shift_bp: 40}]\n";
+  for (OutputFormat f : {OutputFormat::csv, OutputFormat::json, OutputFormat::table}) {
+    CHECK(run(b, yaml, f, 1, true).text == run(b, yaml, f, 3, true).text);
+  }
+}
+
+TEST_CASE("output formats: columns, JSON shape, table width, sensitivities at the stressed inputs") {
+  const Book b = book();
+  const std::string yaml =
+      "scenarios:\n  - name: a\n    shocks: [{equity_change: -0.2}]\n"
+      "  - name: b\n    description: \"second, with a comma\"\n    shocks: [{rate_shift_bp: 100}]\n";
+  const Csv csv = parse_csv(run(b, yaml, OutputFormat::csv, 1, true).text);
+  CHECK(csv.header.size() == stress_columns().size() + sensitivity_columns().size());
+  for (const auto& row : csv.rows) CHECK(row.size() == csv.header.size());
+  // Sensitivities are those of the stressed inputs.
+  const ScoredObligor base = scored(b.obligors[0], b.defaults);
+  MertonInputs in = base.resolved.inputs;
+  in.equity_value *= 1.0 + -0.2;
+  const AssetSolution sol = solve_asset(in);
+  const MertonSensitivities sens = merton_sensitivities(in, sol.asset_value, sol.asset_vol_annual, true);
+  CHECK(csv.number(0, "pd_per_equity_vol_pt") == sens.equity_vol.pd);
+  CHECK(csv.number(0, "spread_bp_per_rate_bp") == sens.rate.spread_bp);
+  CHECK(csv.cell(4, "sensitivity_status").empty());  // BAD-5
+
+  const std::string json = run(b, yaml, OutputFormat::json).text;
+  CHECK(json.rfind("{\n  \"run\": {\"book\": \"book.yaml\"", 0) == 0);
+  std::size_t ids = 0;
+  for (std::size_t p = json.find("{\"id\": "); p != std::string::npos; p = json.find("{\"id\": ", p + 1))
+    ++ids;
+  CHECK(ids == 10);
+  CHECK(json.find("\"description\": \"second, with a comma\"") != std::string::npos);
+  CHECK(json.find("nan") == std::string::npos);
+  CHECK(json.find("inf") == std::string::npos);
+  CHECK(json.substr(json.size() - 4) == "}\n}\n");
+
+  const std::string table = run(b, yaml, OutputFormat::table, 1, true).text;
+  std::istringstream lines(table);
+  std::string line;
+  std::size_t widest = 0;
+  while (std::getline(lines, line)) widest = std::max(widest, line.size());
+  MESSAGE("widest table line: " << widest);
+  CHECK(widest <= 120);
+}
+
+TEST_CASE("quick grids give a PD grid per obligor in the table") {
+  const Book b = book();
+  StressRunOptions opts;
+  opts.format = OutputFormat::table;
+  std::string text;
+  const auto grid = grid_scenarios({0.0, -0.3}, {1.0, 2.0});
+  const StressSummary s = run_stress(b, grid, "quick grid", ScoreSettings{}, StressSettings{}, opts,
+                                     [&](std::string_view v) { text += v; });
+  REQUIRE(s.grid.pd.size() == b.obligors.size() * 4);
+  // The (0%, x1) cell is the obligor as it stands.
+  CHECK(s.grid.pd[0] == s.grid.base_pd[0]);
+  CHECK(std::isnan(s.grid.pd[4 * 4]));  // BAD-5
+  CHECK(text.find("PD grid") != std::string::npos);
+  CHECK(text.find("equity -30% vol x2") != std::string::npos);  // in the scenario summary
+}
