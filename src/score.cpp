@@ -148,7 +148,7 @@ class BatchScorer {
         settings_(settings),
         run_(run),
         sink_(sink),
-        writer_(make_score_writer(run.format, origin, settings, run.sensitivities)),
+        writer_(make_score_writer(run.format, origin, settings, run.sensitivities, run.grades)),
         workers_(std::max(1U, run.threads)) {}
 
   void begin() {

@@ -27,6 +27,40 @@ TEST_CASE("the shipped config/firmcall.yaml equals the built-in defaults") {
   CHECK(shipped.history.iteration_tolerance == builtin.history.iteration_tolerance);
   CHECK(shipped.history.max_iterations == builtin.history.max_iterations);
   CHECK(shipped.history.confidence_level == builtin.history.confidence_level);
+  REQUIRE(shipped.grades.bands.size() == builtin.grades.bands.size());
+  for (std::size_t i = 0; i < builtin.grades.bands.size(); ++i) {
+    CHECK(shipped.grades.bands[i].label == builtin.grades.bands[i].label);
+    CHECK(shipped.grades.bands[i].max_pd == builtin.grades.bands[i].max_pd);
+  }
+  CHECK(shipped.monitor.store == builtin.monitor.store);
+  CHECK(shipped.monitor.busy_timeout_seconds == builtin.monitor.busy_timeout_seconds);
+  CHECK(shipped.monitor.alerts.dd_drop == builtin.monitor.alerts.dd_drop);
+  CHECK(shipped.monitor.alerts.pd_ratio == builtin.monitor.alerts.pd_ratio);
+  CHECK(shipped.monitor.alerts.pd_ratio_min_pd == builtin.monitor.alerts.pd_ratio_min_pd);
+  CHECK(shipped.monitor.alerts.downgrade_notches == builtin.monitor.alerts.downgrade_notches);
+  CHECK(shipped.monitor.alerts.pd_ceiling == builtin.monitor.alerts.pd_ceiling);
+}
+
+TEST_CASE("grade scales and alert rules from a settings file") {
+  const Config c = parse_config(
+      "grades:\n  - {label: low, max_pd: 0.01}\n  - {label: high, max_pd: 1}\n"
+      "monitoring:\n  store: /var/lib/risk/h.sqlite\n  alerts: {dd_drop: 0.5, downgrade_notches: 1}\n",
+      "c.yaml");
+  REQUIRE(c.grades.bands.size() == 2);
+  CHECK(c.grades.label_of(0.02) == "high");
+  CHECK(c.monitor.store == "/var/lib/risk/h.sqlite");
+  CHECK(c.monitor.alerts.dd_drop == 0.5);
+  CHECK(c.monitor.alerts.downgrade_notches == 1);
+  CHECK(c.monitor.alerts.pd_ratio == 2.0);  // not given: built-in default kept
+  CHECK_THROWS_WITH_AS(parse_config("grades:\n  - {label: a, max_pd: 0.5}\n", "c.yaml"),
+                       "c.yaml:2: grades: the last grade must have max_pd 1 (it holds every PD up to 1)",
+                       InputError);
+  CHECK_THROWS_WITH_AS(parse_config("grades:\n  - {label: a, max_pc: 1}\n", "c.yaml"),
+                       "c.yaml:2: grades: unknown key 'max_pc' (did you mean 'max_pd'?)", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("monitoring:\n  alerts: {pd_ratio: 0.5}\n", "c.yaml"),
+                       "c.yaml:2: key 'pd_ratio': must be above 1", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("monitoring:\n  alert: {}\n", "c.yaml"),
+                       "c.yaml:2: monitoring: unknown key 'alert' (did you mean 'alerts'?)", InputError);
 }
 
 TEST_CASE("configuration errors name the file, line and key") {

@@ -7,6 +7,7 @@
 #include <string_view>
 #include <vector>
 
+#include "firmcall/grades.hpp"
 #include "firmcall/score.hpp"
 #include "firmcall/sensitivity.hpp"
 
@@ -57,7 +58,10 @@ class ScoreWriter {
 
 /// A writer for the format; `origin` and `settings` appear in the JSON run block. With
 /// `sensitivities` every format adds the sensitivity columns (the table a second line per obligor).
+/// With `grades`, each scored obligor also shows its grade (a last CSV column and JSON key `grade`,
+/// a table column).
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
-                                               const ScoreSettings& settings, bool sensitivities = false);
+                                               const ScoreSettings& settings, bool sensitivities = false,
+                                               const GradeScale* grades = nullptr);
 
 }  // namespace firmcall

@@ -6,6 +6,7 @@
 #include <string>
 #include <string_view>
 
+#include "firmcall/grades.hpp"
 #include "firmcall/merton_solver.hpp"
 
 namespace firmcall {
@@ -45,11 +46,32 @@ struct HistorySettings {
   double confidence_level = 0.95;        ///< two-sided level of reported intervals
 };
 
+/// Watchlist alert rules (see movers.hpp): an obligor is flagged when any rule fires between two
+/// runs. A rule is switched off by a bound it cannot pass (e.g. pd_ceiling: 1).
+struct AlertRules {
+  double dd_drop = 1.0;           ///< distance to default fell by more than this, standard deviations
+  double pd_ratio = 2.0;          ///< PD grew by more than this factor ...
+  double pd_ratio_min_pd = 1e-4;  ///< ... and the new PD is at least this (far-tail ratios are noise)
+  int downgrade_notches = 2;      ///< grade worsened by at least this many notches
+  double pd_ceiling = 0.05;       ///< PD above this, probability
+};
+
+/// Settings of the monitoring commands (history store, alerts).
+struct MonitorSettings {
+  /// History store (SQLite file); empty: $XDG_DATA_HOME/firmcall/history.sqlite, else
+  /// ~/.local/share/firmcall/history.sqlite. The command-line option --db wins.
+  std::string store;
+  double busy_timeout_seconds = 10.0;  ///< how long to wait for another process writing the store
+  AlertRules alerts;
+};
+
 /// Everything in a configuration file.
 struct Config {
   ScoreSettings score;
   StressSettings stress;
   HistorySettings history;
+  GradeScale grades = default_grade_scale();  ///< master scale, best grade first
+  MonitorSettings monitor;
 };
 
 /// Reads a configuration file; unknown keys and bad values are errors (InputError naming the

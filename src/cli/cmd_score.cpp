@@ -8,6 +8,7 @@
 #include "firmcall/errors.hpp"
 #include "firmcall/obligor_io.hpp"
 #include "firmcall/output_file.hpp"
+#include "firmcall/recording.hpp"
 #include "firmcall/score.hpp"
 
 namespace firmcall::cli {
@@ -23,6 +24,10 @@ struct ScoreCli {
   std::string measure;
   unsigned threads = 0;
   bool sensitivities = false;
+  bool grades = false;  // --grades: show each obligor's grade
+  bool record = false;  // --record: also write the run to the history store
+  std::string db;
+  std::string as_of;
 };
 
 struct FileCloser {
@@ -56,6 +61,14 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
   cmd->add_flag("--sensitivities", opts->sensitivities,
                 "Add analytic sensitivities of DD, PD and spread per +1% equity value, +1 point equity "
                 "volatility, +1% default point and +1 bp rate");
+  cmd->add_flag("--grades", opts->grades, "Show each obligor's grade on the master scale (settings: grades)");
+  CLI::Option* record = cmd->add_flag("--record", opts->record, "Also record the run in the history store");
+  cmd->add_option("--db", opts->db,
+                  "History store file (default: monitoring.store, else the user's data folder)")
+      ->needs(record);
+  cmd->add_option("--as-of", opts->as_of,
+                  "As-of date YYYY-MM-DD of the recorded run (default: book's, else today)")
+      ->needs(record);
   cmd->footer(
       std::string("\nExit codes: 0 every obligor scored; 1 some obligors invalid or not converged "
                   "(the others are scored); 2 unreadable or malformed file or bad command line.\n\n") +
@@ -78,8 +91,16 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
                                                 : OutputFormat::table;
       runopts.threads = opts->threads > 0 ? opts->threads : default_threads();
       runopts.sensitivities = opts->sensitivities;
+      if (opts->grades) runopts.grades = &config.grades;
 
       const BookFormat fmt = book_format_of(opts->book);
+      std::string store_path;
+      if (opts->record) {
+        if (!opts->as_of.empty() && !is_calendar_date(opts->as_of)) {
+          throw InputError("--as-of: expected a date YYYY-MM-DD, got '" + opts->as_of + "'");
+        }
+        store_path = resolve_store_path(opts->db, config.monitor);
+      }
       ScoreSummary summary;
       {
         OutputFile out(opts->output);
@@ -116,6 +137,15 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
             std::cerr << buf;
           }
           std::cerr << "\n";
+        }
+      }
+      if (opts->record) {
+        const RecordResult rec =
+            record_book(opts->book, settings, config,
+                        {.store_path = store_path, .as_of = opts->as_of, .tool_version = FIRMCALL_VERSION});
+        if (!global.quiet) {
+          std::cerr << "firmcall: recorded run " << rec.run_id << " as of " << rec.as_of << " ("
+                    << rec.obligors << " obligors) in " << store_path << "\n";
         }
       }
       return summary.failed() > 0 ? kExitRowsFailed : kExitOk;
