@@ -27,6 +27,10 @@ TEST_CASE("the shipped config/firmcall.yaml equals the built-in defaults") {
   CHECK(shipped.history.iteration_tolerance == builtin.history.iteration_tolerance);
   CHECK(shipped.history.max_iterations == builtin.history.max_iterations);
   CHECK(shipped.history.confidence_level == builtin.history.confidence_level);
+  CHECK(shipped.term.calibration == builtin.term.calibration);
+  CHECK(shipped.term.barrier_ratio == builtin.term.barrier_ratio);
+  CHECK(shipped.term.barrier_ratio == 1.0);  // barrier at the default point (Black and Cox 1976 style)
+  CHECK(shipped.term.barrier_growth == builtin.term.barrier_growth);
 }
 
 TEST_CASE("configuration errors name the file, line and key") {
@@ -44,6 +48,17 @@ TEST_CASE("configuration errors name the file, line and key") {
                        "c.yaml:1: configuration: unknown key 'scorng' (did you mean 'scoring'?)", InputError);
   CHECK_THROWS_WITH_AS(load_config("/nonexistent/firmcall.yaml"),
                        "cannot open file '/nonexistent/firmcall.yaml'", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("term_structure:\n  calibration: each\n", "c.yaml"),
+                       "c.yaml:2: key 'calibration': expected once or per-horizon", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("term_structure:\n  barrier_growth: 3\n", "c.yaml"),
+                       "c.yaml:2: key 'barrier_growth': must lie in [-1, 1] (0.02 means 2% a year)",
+                       InputError);
+  CHECK_THROWS_WITH_AS(parse_config("term_structure:\n  barrier_ratio: 0\n", "c.yaml"),
+                       "c.yaml:2: key 'barrier_ratio': must be positive", InputError);
+  const Config t =
+      parse_config("term_structure:\n  calibration: per-horizon\n  barrier_ratio: 0.8\n", "c.yaml");
+  CHECK(t.term.calibration == Calibration::per_horizon);
+  CHECK(t.term.barrier_ratio == 0.8);
   const Config c = parse_config("scoring:\n  measure: risk-neutral\n  horizon: 2\n", "c.yaml");
   CHECK(c.score.measure == Measure::risk_neutral);
   CHECK(c.score.horizon_years == 2.0);

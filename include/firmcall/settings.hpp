@@ -7,6 +7,7 @@
 #include <string_view>
 
 #include "firmcall/merton_solver.hpp"
+#include "firmcall/term_structure.hpp"
 
 namespace firmcall {
 
@@ -45,11 +46,19 @@ struct HistorySettings {
   double confidence_level = 0.95;        ///< two-sided level of reported intervals
 };
 
+/// Settings of PD term structures and the first-passage model (term_structure.hpp).
+struct TermSettings {
+  Calibration calibration = Calibration::once;  ///< once: solve at each obligor's horizon, then project
+  double barrier_ratio = 1.0;                   ///< first-passage barrier H0 = ratio x default point
+  double barrier_growth = 0.0;                  ///< barrier growth g, cc decimal per year: H(t) = H0 e^(g t)
+};
+
 /// Everything in a configuration file.
 struct Config {
   ScoreSettings score;
   StressSettings stress;
   HistorySettings history;
+  TermSettings term;
 };
 
 /// Reads a configuration file; unknown keys and bad values are errors (InputError naming the
