@@ -3,6 +3,7 @@
 
 #include <cmath>
 #include <cstdio>
+#include <thread>
 
 #include "firmcall/output.hpp"
 
@@ -28,6 +29,43 @@ std::string fit(const std::string& s, std::size_t w) {
 }
 
 }  // namespace
+
+void parallel_slices(std::size_t n, unsigned threads,
+                     const std::function<void(unsigned, std::size_t, std::size_t)>& fn) {
+  const unsigned t =
+      std::max(1U, std::min<unsigned>(threads, static_cast<unsigned>(std::max<std::size_t>(n / 16, 1))));
+  if (t == 1) {
+    fn(0, 0, n);
+    return;
+  }
+  std::vector<std::thread> pool;
+  pool.reserve(t - 1);
+  const auto bound = [&](unsigned w) { return n * w / t; };
+  for (unsigned w = 1; w < t; ++w) pool.emplace_back(fn, w, bound(w), bound(w + 1));
+  fn(0, 0, bound(1));
+  for (auto& th : pool) th.join();
+}
+
+std::string wrapped(const std::string& text, std::size_t indent, std::size_t width) {
+  std::string out;
+  std::string line(indent, ' ');
+  std::size_t pos = 0;
+  while (pos < text.size()) {
+    std::size_t end = text.find(' ', pos);
+    if (end == std::string::npos) end = text.size();
+    const std::string word = text.substr(pos, end - pos);
+    const bool fresh = line.find_first_not_of(' ') == std::string::npos;
+    if (!fresh && line.size() + 1 + word.size() > width) {
+      out += line + "\n";
+      line.assign(2 * indent, ' ');
+    } else if (!fresh) {
+      line.push_back(' ');
+    }
+    line += word;
+    pos = end + 1;
+  }
+  return out + line + "\n";
+}
 
 std::string_view row_status_of(TermStatus status) noexcept {
   switch (status) {
@@ -327,28 +365,6 @@ class TableTermWriter final : public TermWriter {
     return s.size() >= static_cast<std::size_t>(w)
                ? " " + s
                : std::string(static_cast<std::size_t>(w) - s.size(), ' ') + s;
-  }
-  // Text broken at spaces into lines of at most `width` columns: `indent` spaces first, twice
-  // that on continuation lines.
-  static std::string wrapped(const std::string& text, std::size_t indent, std::size_t width) {
-    std::string out;
-    std::string line(indent, ' ');
-    std::size_t pos = 0;
-    while (pos < text.size()) {
-      std::size_t end = text.find(' ', pos);
-      if (end == std::string::npos) end = text.size();
-      const std::string word = text.substr(pos, end - pos);
-      const bool fresh = line.find_first_not_of(' ') == std::string::npos;
-      if (!fresh && line.size() + 1 + word.size() > width) {
-        out += line + "\n";
-        line.assign(2 * indent, ' ');
-      } else if (!fresh) {
-        line.push_back(' ');
-      }
-      line += word;
-      pos = end + 1;
-    }
-    return out + line + "\n";
   }
   std::string rule() const {
     const std::size_t cells = info_.run.horizons.empty() ? 1 : std::min(info_.run.horizons.size(), kPerLine);

@@ -2,8 +2,10 @@
 // firmcall_io: the public entry points are in firmcall/term_run.hpp.
 #pragma once
 
+#include <functional>
 #include <memory>
 #include <string>
+#include <vector>
 
 #include "firmcall/term_run.hpp"
 
@@ -29,6 +31,14 @@ class TermWriter {
 };
 
 std::unique_ptr<TermWriter> make_term_writer(OutputFormat format, const TermRunInfo& info);
+
+/// Runs fn(worker, begin, end) over [0, n) split into at most `threads` contiguous slices.
+void parallel_slices(std::size_t n, unsigned threads,
+                     const std::function<void(unsigned, std::size_t, std::size_t)>& fn);
+
+/// Text broken at spaces into lines of at most `width` columns, `indent` spaces first and twice that
+/// on continuation lines; ends with a line break.
+std::string wrapped(const std::string& text, std::size_t indent, std::size_t width);
 
 /// Row status of a point in the score vocabulary: ok, invalid_input or not_converged.
 std::string_view row_status_of(TermStatus status) noexcept;

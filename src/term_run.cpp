@@ -5,8 +5,6 @@
 #include <charconv>
 #include <cmath>
 #include <cstdio>
-#include <functional>
-#include <thread>
 
 #include "firmcall/errors.hpp"
 #include "term_output.hpp"
@@ -22,38 +20,21 @@ std::string quoted(std::string_view s) {
   return out;
 }
 
-// Runs fn(worker, begin, end) over [0, n) split into `threads` contiguous slices.
-void parallel_slices(std::size_t n, unsigned threads,
-                     const std::function<void(unsigned, std::size_t, std::size_t)>& fn) {
-  const unsigned t =
-      std::max(1U, std::min<unsigned>(threads, static_cast<unsigned>(std::max<std::size_t>(n / 16, 1))));
-  if (t == 1) {
-    fn(0, 0, n);
-    return;
-  }
-  std::vector<std::thread> pool;
-  pool.reserve(t - 1);
-  const auto bound = [&](unsigned w) { return n * w / t; };
-  for (unsigned w = 1; w < t; ++w) pool.emplace_back(fn, w, bound(w), bound(w + 1));
-  fn(0, 0, bound(1));
-  for (auto& th : pool) th.join();
-}
-
 std::string without_line(const std::string& m) {
   const auto colon = m.find(": ");
   return (m.rfind("line ", 0) == 0 && colon != std::string::npos) ? m.substr(colon + 2) : m;
 }
 
-// Why a point is not ok, as "line N: ..." (empty when ok).
-std::string point_message(const ObligorRecord& rec, const ResolvedObligor& r, TermModel model,
-                          const Barrier& barrier, const TermPoint& p) {
-  const std::string line = "line " + std::to_string(rec.line) + ": ";
+}  // namespace
+
+std::string term_point_problem(std::size_t line_number, const MertonInputs& in, TermModel model,
+                               const Barrier& barrier, const TermPoint& p) {
+  const std::string line = "line " + std::to_string(line_number) + ": ";
   char buf[400];
   switch (p.status) {
     case TermStatus::ok:
       return {};
     case TermStatus::invalid_input:
-      if (!r.ok()) return line + r.error;
       std::snprintf(buf, sizeof buf, "the %s model rejects these inputs at horizon %g",
                     std::string(to_string(model)).c_str(), p.horizon_years);
       return line + buf;
@@ -62,7 +43,6 @@ std::string point_message(const ObligorRecord& rec, const ResolvedObligor& r, Te
                     std::string(to_string(model)).c_str(), p.residual, p.iterations);
       return line + buf;
     case TermStatus::not_bracketed: {
-      const MertonInputs& in = r.inputs;
       const double t = p.calibration_horizon_years;
       const double h0 = barrier.default_point_ratio * in.default_point;
       const double riskless_floor = h0 - in.default_point * std::exp(-in.risk_free_rate_cc * t);
@@ -84,8 +64,6 @@ std::string point_message(const ObligorRecord& rec, const ResolvedObligor& r, Te
   }
   return line + "unknown status";
 }
-
-}  // namespace
 
 std::vector<double> parse_horizons(std::string_view text, std::string_view option) {
   const std::string name(option);
@@ -122,7 +100,7 @@ std::vector<double> parse_horizons(std::string_view text, std::string_view optio
 }
 
 bool wants_term_structure(const TermChoices& c) {
-  return !c.horizons.empty() || (!c.model.empty() && c.model != "merton");
+  return c.horizons.has_value() || (!c.model.empty() && c.model != "merton");
 }
 
 TermRunOptions term_run_options(const TermSettings& term, const TermChoices& c) {
@@ -140,7 +118,7 @@ TermRunOptions term_run_options(const TermSettings& term, const TermChoices& c) 
     }
     return run;
   }
-  if (!c.horizons.empty()) run.horizons = parse_horizons(c.horizons);
+  if (c.horizons) run.horizons = parse_horizons(*c.horizons);
   if (c.model.empty() || c.model == "merton") {
     run.models = {TermModel::merton};
   } else if (c.model == "first-passage") {
@@ -212,7 +190,10 @@ void score_term_obligor(const ObligorRecord& rec, const BookDefaults& book, cons
       }
     }
     for (std::size_t i = 0; i < nh; ++i) {
-      out.messages[m * nh + i] = point_message(rec, out.resolved, run.models[m], run.barrier, pts[i]);
+      out.messages[m * nh + i] =
+          out.resolved.ok()
+              ? term_point_problem(rec.line, out.resolved.inputs, run.models[m], run.barrier, pts[i])
+              : "line " + std::to_string(rec.line) + ": " + out.resolved.error;
       all_ok = all_ok && pts[i].ok();
     }
   }
@@ -255,7 +236,7 @@ ScoreSummary score_term_structure(const Book& book, const ScoreSettings& setting
   constexpr std::size_t kChunk = 4096;
   for (std::size_t c0 = 0; c0 < n; c0 += kChunk) {
     const std::size_t c1 = std::min(n, c0 + kChunk);
-    parallel_slices(c1 - c0, threads, [&](unsigned w, std::size_t b, std::size_t e) {
+    detail::parallel_slices(c1 - c0, threads, [&](unsigned w, std::size_t b, std::size_t e) {
       Worker& wk = workers[w];
       wk.out.clear();
       for (std::size_t i = c0 + b; i < c0 + e; ++i) {

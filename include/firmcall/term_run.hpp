@@ -46,9 +46,9 @@ struct TermRunOptions {
 
 /// Term-structure choices as typed on the command line (empty or unset: not given).
 struct TermChoices {
-  std::string horizons;     ///< --horizons, e.g. "0.5,1,2,5"
-  std::string model;        ///< --model: merton, first-passage or both
-  std::string calibration;  ///< --calibration: once or per-horizon
+  std::optional<std::string> horizons;  ///< --horizons, e.g. "0.5,1,2,5"
+  std::string model;                    ///< --model: merton, first-passage or both
+  std::string calibration;              ///< --calibration: once or per-horizon
   std::optional<double> barrier_ratio;
   std::optional<double> barrier_growth;
 };
@@ -74,6 +74,10 @@ struct TermScoredObligor {
 /// values: they become status invalid_input with a message naming the field.
 void score_term_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
                         const TermRunOptions& run, TermScoredObligor& out);
+
+/// Why a point computed for inputs `in` is not ok, as "line N: reason"; empty when it is ok.
+std::string term_point_problem(std::size_t line, const MertonInputs& in, TermModel model,
+                               const Barrier& barrier, const TermPoint& point);
 
 /// Column names of the machine-readable rows, in order.
 const std::vector<std::string_view>& term_columns();
