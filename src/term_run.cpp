@@ -47,11 +47,12 @@ std::string term_point_problem(std::size_t line_number, const MertonInputs& in, 
       const double h0 = barrier.default_point_ratio * in.default_point;
       const double riskless_floor = h0 - in.default_point * std::exp(-in.risk_free_rate_cc * t);
       if (barrier.growth_rate_cc <= in.risk_free_rate_cc && in.equity_value < riskless_floor) {
-        std::snprintf(buf, sizeof buf,
-                      "first-passage calibration found no solution: equity value %.6g is below barrier - "
-                      "default point x e^(-rT) = %.6g, about the least equity is worth this close to the "
-                      "barrier (a lower barrier ratio may help)",
-                      in.equity_value, riskless_floor);
+        std::snprintf(
+            buf, sizeof buf,
+            "first-passage calibration found no solution: equity value %.6g is below barrier - "
+            "default point x e^(-rT) = %.6g at T = %g, about the least equity is worth this close to "
+            "the barrier (a lower barrier ratio may help)",
+            in.equity_value, riskless_floor, t);
       } else {
         std::snprintf(buf, sizeof buf, "first-passage calibration found no solution for these inputs");
       }

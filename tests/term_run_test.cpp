@@ -142,9 +142,8 @@ TEST_CASE("CSV rows: one per obligor, model and horizon; bad obligors named; nev
   REQUIRE(sum.problems.size() == 2);
   CHECK(sum.problems[0] ==
         "book.yaml:6: obligor 'C-3': first-passage calibration found no solution: equity value 30 is below "
-        "barrier - default point x e^(-rT) = 48.7706, about the least equity is worth this close to the "
-        "barrier "
-        "(a lower barrier ratio may help)");
+        "barrier - default point x e^(-rT) = 48.7706 at T = 1, about the least equity is worth this close to "
+        "the barrier (a lower barrier ratio may help)");
   CHECK(sum.problems[1].rfind("book.yaml:7: obligor 'D-4': field 'equity_vol': must be an annualised decimal",
                               0) == 0);
   for (std::size_t r = 0; r < csv.rows.size(); ++r) {
