@@ -122,7 +122,7 @@ TEST_CASE("bad --horizons and misplaced term options: exit 2, a clear message, n
 }
 
 TEST_CASE(
-    "bad rows with --horizons: named with file, line, obligor and field; the good rows still computed") {
+    "bad rows with --horizons: named with file, line, obligor and field, the good rows still computed") {
   const auto r = run_firmcall("score samples/bad_rows.csv --horizons 1,5 --model both --format csv");
   CHECK(r.exit_code == 1);
   const auto csv = parse_csv_table(r.out);

@@ -126,7 +126,7 @@ TEST_CASE("term options: what applies where") {
   CHECK(from_settings.horizons.empty());
 }
 
-TEST_CASE("CSV rows: one per obligor, model and horizon; bad obligors named; never NaN or infinity") {
+TEST_CASE("CSV rows: one per obligor, model and horizon, bad obligors named, never NaN or infinity") {
   ScoreSummary sum;
   const std::string text = run_text(kBook, both_models("0.5,1,2,5,10"), OutputFormat::csv, 1, &sum);
   const testing::CsvTable csv = testing::parse_csv_table(text);

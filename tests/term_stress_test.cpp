@@ -147,7 +147,7 @@ TEST_CASE("stressed curves: zero shocks change nothing, shocked ones are the cur
         "equity_vol_add_points), got -0.2");
 }
 
-TEST_CASE("stressed curves: threads change nothing; JSON nests rows under scenarios; the table fits") {
+TEST_CASE("stressed curves: threads change nothing, JSON nests rows under scenarios, the table fits") {
   const std::string one = stress_text(OutputFormat::csv, 1);
   CHECK(stress_text(OutputFormat::csv, 3) == one);
   const std::string json = stress_text(OutputFormat::json, 2);
