@@ -141,6 +141,8 @@ TEST_CASE("re-solving at the calibration horizon reproduces the single-horizon s
 }
 
 TEST_CASE("calibrated once the curve keeps one (V, sV), re-solved each horizon has its own") {
+  // The two calibrations as defined in term_structure.hpp; the barrier of a constant-barrier run is
+  // the default point at every horizon (first_passage.hpp).
   const auto once = curve(kObligor, request(TermModel::first_passage));
   const auto per = curve(kObligor, request(TermModel::first_passage, Calibration::per_horizon));
   for (std::size_t i = 0; i < kHorizons.size(); ++i) {
