@@ -102,8 +102,8 @@ Config parse_config(const std::string& text, const std::string& origin) {
   Config c;
   const YAML::Node root = detail::yaml_load(text, origin);
   if (root.IsNull()) return c;
-  yaml_check_keys(root, {"scoring", "solver", "stress", "history", "grades", "monitoring"}, origin,
-                  "configuration");
+  yaml_check_keys(root, {"scoring", "solver", "stress", "history", "grades", "monitoring", "term_structure"},
+                  origin, "configuration");
   if (const auto s = root["scoring"]) {
     yaml_check_keys(s, {"default_point_weight", "horizon", "measure", "default_lgd", "max_equity_vol"},
                     origin, "scoring");
@@ -167,6 +167,26 @@ Config parse_config(const std::string& text, const std::string& origin) {
   }
   if (const auto s = root["grades"]) c.grades = parse_grade_scale(s, origin);
   if (const auto s = root["monitoring"]) c.monitor = parse_monitoring(s, origin);
+  if (const auto s = root["term_structure"]) {
+    yaml_check_keys(s, {"calibration", "barrier_ratio", "barrier_growth"}, origin, "term_structure");
+    if (s["calibration"]) {
+      const auto cal = calibration_from_string(detail::yaml_string(s["calibration"], origin, "calibration"));
+      if (!cal) {
+        throw InputError(
+            located(origin, yaml_line(s["calibration"]), "key 'calibration': expected once or per-horizon"));
+      }
+      c.term.calibration = *cal;
+    }
+    if (s["barrier_ratio"]) c.term.barrier_ratio = positive(s["barrier_ratio"], origin, "barrier_ratio");
+    if (s["barrier_growth"]) {
+      const double g = yaml_number(s["barrier_growth"], origin, "barrier_growth");
+      if (!(std::fabs(g) <= 1.0)) {
+        throw InputError(located(origin, yaml_line(s["barrier_growth"]),
+                                 "key 'barrier_growth': must lie in [-1, 1] (0.02 means 2% a year)"));
+      }
+      c.term.barrier_growth = g;
+    }
+  }
   return c;
 }
 

@@ -39,6 +39,10 @@ TEST_CASE("the shipped config/firmcall.yaml equals the built-in defaults") {
   CHECK(shipped.monitor.alerts.pd_ratio_min_pd == builtin.monitor.alerts.pd_ratio_min_pd);
   CHECK(shipped.monitor.alerts.downgrade_notches == builtin.monitor.alerts.downgrade_notches);
   CHECK(shipped.monitor.alerts.pd_ceiling == builtin.monitor.alerts.pd_ceiling);
+  CHECK(shipped.term.calibration == builtin.term.calibration);
+  CHECK(shipped.term.barrier_ratio == builtin.term.barrier_ratio);
+  CHECK(shipped.term.barrier_ratio == 1.0);  // barrier at the default point (Black and Cox 1976 style)
+  CHECK(shipped.term.barrier_growth == builtin.term.barrier_growth);
 }
 
 TEST_CASE("grade scales and alert rules from a settings file") {
@@ -78,6 +82,17 @@ TEST_CASE("configuration errors name the file, line and key") {
                        "c.yaml:1: configuration: unknown key 'scorng' (did you mean 'scoring'?)", InputError);
   CHECK_THROWS_WITH_AS(load_config("/nonexistent/firmcall.yaml"),
                        "cannot open file '/nonexistent/firmcall.yaml'", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("term_structure:\n  calibration: each\n", "c.yaml"),
+                       "c.yaml:2: key 'calibration': expected once or per-horizon", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("term_structure:\n  barrier_growth: 3\n", "c.yaml"),
+                       "c.yaml:2: key 'barrier_growth': must lie in [-1, 1] (0.02 means 2% a year)",
+                       InputError);
+  CHECK_THROWS_WITH_AS(parse_config("term_structure:\n  barrier_ratio: 0\n", "c.yaml"),
+                       "c.yaml:2: key 'barrier_ratio': must be positive", InputError);
+  const Config t =
+      parse_config("term_structure:\n  calibration: per-horizon\n  barrier_ratio: 0.8\n", "c.yaml");
+  CHECK(t.term.calibration == Calibration::per_horizon);
+  CHECK(t.term.barrier_ratio == 0.8);
   const Config c = parse_config("scoring:\n  measure: risk-neutral\n  horizon: 2\n", "c.yaml");
   CHECK(c.score.measure == Measure::risk_neutral);
   CHECK(c.score.horizon_years == 2.0);

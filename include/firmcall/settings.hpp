@@ -8,6 +8,7 @@
 
 #include "firmcall/grades.hpp"
 #include "firmcall/merton_solver.hpp"
+#include "firmcall/term_structure.hpp"
 
 namespace firmcall {
 
@@ -65,6 +66,13 @@ struct MonitorSettings {
   AlertRules alerts;
 };
 
+/// Settings of PD term structures and the first-passage model (term_structure.hpp).
+struct TermSettings {
+  Calibration calibration = Calibration::once;  ///< once: solve at each obligor's horizon, then project
+  double barrier_ratio = 1.0;                   ///< first-passage barrier H0 = ratio x default point
+  double barrier_growth = 0.0;                  ///< barrier growth g, cc decimal per year: H(t) = H0 e^(g t)
+};
+
 /// Everything in a configuration file.
 struct Config {
   ScoreSettings score;
@@ -72,6 +80,7 @@ struct Config {
   HistorySettings history;
   GradeScale grades = default_grade_scale();  ///< master scale, best grade first
   MonitorSettings monitor;
+  TermSettings term;
 };
 
 /// Reads a configuration file; unknown keys and bad values are errors (InputError naming the

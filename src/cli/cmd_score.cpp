@@ -10,6 +10,7 @@
 #include "firmcall/output_file.hpp"
 #include "firmcall/recording.hpp"
 #include "firmcall/score.hpp"
+#include "firmcall/term_run.hpp"
 
 namespace firmcall::cli {
 
@@ -28,11 +29,47 @@ struct ScoreCli {
   bool record = false;  // --record: also write the run to the history store
   std::string db;
   std::string as_of;
+  TermChoices term;
 };
 
 struct FileCloser {
   void operator()(std::FILE* f) const { std::fclose(f); }
 };
+
+// `score --horizons ...` / `--model ...`: the PD term-structure path (term_run.hpp).
+int run_term_structure(const std::string& book_path, const ScoreSettings& settings, const TermRunOptions& run,
+                       const std::string& output, bool quiet) {
+  ScoreSummary summary;
+  std::size_t rows = 0;
+  {
+    const Book book = load_book(book_path);
+    OutputFile out(output);
+    const TextSink sink = [&out](std::string_view s) { out.write(s); };
+    summary = score_term_structure(book, settings, run, sink);
+    out.commit();
+    rows = book.obligors.size() * run.models.size() * std::max<std::size_t>(run.horizons.size(), 1);
+  }
+  if (!quiet) {
+    for (const auto& n : summary.notes) std::cerr << "firmcall: " << n << "\n";
+    if (summary.total == 0) std::cerr << "firmcall: note: " << book_path << " has no obligors\n";
+    if (run.format != OutputFormat::table) {
+      for (const auto& p : summary.problems) std::cerr << "firmcall: " << p << "\n";
+      if (summary.problems_not_listed > 0) {
+        std::cerr << "firmcall: ... and " << summary.problems_not_listed << " more (column message)\n";
+      }
+    }
+    if (run.format != OutputFormat::table || !output.empty()) {
+      std::cerr << "firmcall: term structures of " << summary.scored << " of " << summary.total
+                << " obligors";
+      if (summary.failed() > 0) {
+        std::cerr << " (" << summary.invalid << " invalid input, " << summary.not_converged
+                  << " not converged)";
+      }
+      std::cerr << "; " << rows << " rows\n";
+    }
+  }
+  return summary.failed() > 0 ? kExitRowsFailed : kExitOk;
+}
 }  // namespace
 
 unsigned default_threads() {
@@ -69,6 +106,7 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
   cmd->add_option("--as-of", opts->as_of,
                   "As-of date YYYY-MM-DD of the recorded run (default: book's, else today)")
       ->needs(record);
+  add_term_options(cmd, opts->term);
   cmd->footer(
       std::string("\nExit codes: 0 every obligor scored; 1 some obligors invalid or not converged "
                   "(the others are scored); 2 unreadable or malformed file or bad command line.\n\n") +
@@ -92,6 +130,19 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
       runopts.threads = opts->threads > 0 ? opts->threads : default_threads();
       runopts.sensitivities = opts->sensitivities;
       if (opts->grades) runopts.grades = &config.grades;
+      TermRunOptions term = term_run_options(config.term, opts->term);  // checks the term options
+      if (wants_term_structure(opts->term)) {
+        if (opts->sensitivities) {
+          throw InputError("--sensitivities: not available with term structures (--horizons, --model)");
+        }
+        if (opts->grades || opts->record) {
+          throw InputError(std::string(opts->grades ? "--grades" : "--record") +
+                           ": not available with term structures (--horizons, --model)");
+        }
+        term.format = runopts.format;
+        term.threads = runopts.threads;
+        return run_term_structure(opts->book, settings, term, opts->output, global.quiet);
+      }
 
       const BookFormat fmt = book_format_of(opts->book);
       std::string store_path;

@@ -8,6 +8,7 @@
 
 #include "firmcall/score.hpp"
 #include "firmcall/settings.hpp"
+#include "firmcall/term_run.hpp"
 
 #ifndef FIRMCALL_VERSION
 #define FIRMCALL_VERSION "dev"
@@ -39,6 +40,21 @@ inline constexpr const char* kCaution =
 
 /// Worker threads when -j is not given: all cores (cmd_score.cpp).
 unsigned default_threads();
+/// Adds the PD term-structure options (shared by score and stress) to a command.
+inline void add_term_options(CLI::App* cmd, TermChoices& c) {
+  cmd->add_option("--horizons", c.horizons,
+                  "PD term structure at these horizons in years, e.g. 0.5,1,2,3,5,7,10 (one row per obligor, "
+                  "model and horizon)");
+  cmd->add_option("--model", c.model,
+                  "merton (default), first-passage (Black-Cox barrier) or both, side by side");
+  cmd->add_option("--calibration", c.calibration,
+                  "once (default: solve at each obligor's horizon, project the others) or per-horizon (solve "
+                  "again at every horizon)");
+  cmd->add_option("--barrier-ratio", c.barrier_ratio,
+                  "First-passage barrier as a multiple of the default point (default 1)");
+  cmd->add_option("--barrier-growth", c.barrier_growth,
+                  "Growth of the first-passage barrier, continuously compounded decimal a year (default 0)");
+}
 
 void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
 void add_history_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
