@@ -78,16 +78,23 @@ bool exact_17_digits(double v, std::uint64_t& n_out, int& exp10_out) noexcept {
   return false;
 }
 
-// Writes n (17 digits) into d[0..16].
-void seventeen_digits(std::uint64_t n, char* d) noexcept {
-  d[0] = static_cast<char>('0' + n / 10000000000000000ULL);
-  n %= 10000000000000000ULL;
-  for (int i = 15; i >= 0; i -= 2) {
-    const auto two = static_cast<std::size_t>(n % 100) * 2;
-    n /= 100;
-    d[1 + i - 1] = kDigitPairs[two];
-    d[1 + i] = kDigitPairs[two + 1];
+// Writes the w-digit number v (v < 10^w, w even) into d[0..w-1], two digits at a time.
+inline void even_digits(std::uint32_t v, char* d, int w) noexcept {
+  for (int i = w - 2; i >= 0; i -= 2) {
+    const std::uint32_t two = (v % 100) * 2;
+    v /= 100;
+    d[i] = kDigitPairs[two];
+    d[i + 1] = kDigitPairs[two + 1];
   }
+}
+
+// Writes n (17 digits) into d[0..16]: the leading digit, then two independent 8-digit halves.
+void seventeen_digits(std::uint64_t n, char* d) noexcept {
+  const auto first = static_cast<std::uint32_t>(n / 10000000000000000ULL);
+  const std::uint64_t rest = n % 10000000000000000ULL;
+  d[0] = static_cast<char>('0' + first);
+  even_digits(static_cast<std::uint32_t>(rest / 100000000ULL), d + 1, 8);
+  even_digits(static_cast<std::uint32_t>(rest % 100000000ULL), d + 9, 8);
 }
 
 }  // namespace
