@@ -33,7 +33,9 @@ const std::initializer_list<std::string_view> kObligorKeys = {"id",
                                                               "horizon",
                                                               "drift",
                                                               "ead",
-                                                              "lgd"};
+                                                              "lgd",
+                                                              "asset_correlation",
+                                                              "maturity"};
 
 void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& rec) {
   rec.clear();
