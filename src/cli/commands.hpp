@@ -30,5 +30,6 @@ inline constexpr const char* kCaution =
 void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
 void add_history_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
 void add_stress_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
+void add_portfolio_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
 
 }  // namespace firmcall::cli

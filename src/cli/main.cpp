@@ -37,6 +37,7 @@ int main(int argc, char** argv) {
   cli::add_score_command(app, global, run);
   cli::add_history_command(app, global, run);
   cli::add_stress_command(app, global, run);
+  cli::add_portfolio_command(app, global, run);
 
   try {
     app.parse(argc, argv);
