@@ -187,6 +187,13 @@ GroupTotals empty_group(std::string name, std::size_t levels, bool simulated) {
   return g;
 }
 
+std::vector<GroupTotals*> groups_of(PortfolioScenarioResult& res) {
+  std::vector<GroupTotals*> all = {&res.total};
+  for (GroupTotals& g : res.sectors) all.push_back(&g);
+  for (GroupTotals& g : res.countries) all.push_back(&g);
+  return all;
+}
+
 // Runs every model over the included obligors of `res` and fills its results.
 void compute(const Book& book, const CorrelationFile* corr, const Config& config,
              const PortfolioRunOptions& options, PortfolioScenarioResult& res,
@@ -286,6 +293,13 @@ void compute(const Book& book, const CorrelationFile* corr, const Config& config
   }
   for (auto& [k, g] : sectors) res.sectors.push_back(std::move(g));
   for (auto& [k, g] : countries) res.countries.push_back(std::move(g));
+  // Sums of contributions that were not computed are unknown, not zero.
+  const double nan = std::nan("");
+  for (GroupTotals* g : groups_of(res)) {
+    if (res.exact.es_contributions.empty()) std::fill(g->es_exact.begin(), g->es_exact.end(), nan);
+    if (res.limit.es_contributions.empty()) std::fill(g->es_limit.begin(), g->es_limit.end(), nan);
+    if (res.simulated && res.mc.es_contributions.empty()) std::fill(g->es_mc.begin(), g->es_mc.end(), nan);
+  }
 }
 
 }  // namespace
