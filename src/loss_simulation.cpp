@@ -1,11 +1,13 @@
 // Monte Carlo portfolio losses in the multi-factor model, with importance sampling by a shift of
-// the factor mean (Glasserman and Li 2005). See include/firmcall/loss_simulation.hpp.
+// the factor mean (Glasserman and Li 2005) in a defensive mixture (Hesterberg 1995). See
+// include/firmcall/loss_simulation.hpp.
 #include "firmcall/loss_simulation.hpp"
 
 #include <algorithm>
 #include <boost/random/normal_distribution.hpp>
 #include <cmath>
 #include <limits>
+#include <numbers>
 #include <numeric>
 
 #include "firmcall/normal.hpp"
@@ -88,14 +90,21 @@ double draw_scenario(const Model& m, std::uint64_t s, Scratch& sc, double& log_w
   const std::size_t nf = m.factors->factors;
   const double* a = m.factors->lower.data();
   log_w = 0.0;
+  // Importance sampling: odd scenarios draw G around the shifted mean, even ones from the model;
+  // the weight is the model density over the mixture's, 1 / (1/2 + exp(mu.G - |mu|^2 / 2) / 2),
+  // which never exceeds 2 (a deterministic defensive mixture).
+  const bool shifted = !m.shift.empty() && (s & 1U) != 0;
+  double mu_g = 0.0;
   for (std::size_t j = 0; j < nf; ++j) {
     sc.g[j] = normal(rng);
-    if (!m.shift.empty()) {
-      sc.g[j] += m.shift[j];
-      log_w -= m.shift[j] * sc.g[j];
-    }
+    if (shifted) sc.g[j] += m.shift[j];
+    if (!m.shift.empty()) mu_g += m.shift[j] * sc.g[j];
   }
-  if (!m.shift.empty()) log_w += 0.5 * m.shift_norm2;
+  if (!m.shift.empty()) {
+    const double x = mu_g - 0.5 * m.shift_norm2;  // log of phi(G - mu) / phi(G)
+    const double softplus = x > 0.0 ? x + std::log1p(std::exp(-x)) : std::log1p(std::exp(x));
+    log_w = std::numbers::ln2 - softplus;
+  }
   for (std::size_t i = 0; i < nf; ++i) {
     double v = 0.0;
     for (std::size_t j = 0; j <= i; ++j) v += a[i * nf + j] * sc.g[j];

@@ -75,7 +75,7 @@ TEST_CASE("one-factor Monte Carlo agrees with the exact distribution within its 
       // The shift points at the adverse factor outcome G(0.999) = -3.090 (one factor).
       REQUIRE(mc.factor_shift.size() == 1);
       CHECK(mc.factor_shift[0] == doctest::Approx(-3.090232306167813).epsilon(1e-12));
-      CHECK(mc.effective_scenarios < 0.5 * static_cast<double>(opt.scenarios));
+      CHECK(mc.effective_scenarios < 0.9 * static_cast<double>(opt.scenarios));
     } else {
       CHECK(mc.effective_scenarios == doctest::Approx(static_cast<double>(opt.scenarios)));
     }
@@ -103,7 +103,8 @@ TEST_CASE("importance sampling narrows the standard errors in the deep tail") {
   REQUIRE(plain.status == SimulationStatus::ok);
   REQUIRE(shifted.status == SimulationStatus::ok);
   // Glasserman and Li (2005) report variance reductions of one to two orders of magnitude at
-  // these levels; a factor of 3 in the standard error of the 99.9% ES is a loose check of that.
+  // these levels for a pure shift; the defensive mixture gives up part of that for safety. A
+  // factor of 3 in the standard error of the 99.9% ES (9 in variance) is the check.
   CHECK(shifted.tails[2].es_se * 3.0 < plain.tails[2].es_se);
 }
 

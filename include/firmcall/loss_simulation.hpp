@@ -1,10 +1,14 @@
 // Monte Carlo simulation of portfolio losses in the multi-factor default model (factor_model.hpp),
 // with standard errors on every reported figure and optional importance sampling.
 //
-// Scenario s draws G ~ N(mu, I) (mu = 0 without importance sampling), sets the sector factors
-// Y = A G, and for each obligor an idiosyncratic e ~ N(0, 1); obligor i defaults when
-// sqrt(rho_i) Y_s(i) + sqrt(1 - rho_i) e_i <= G(PD_i), losing l_i = LGD_i EAD_i. Each scenario
-// carries the likelihood ratio w = exp(-mu.G + |mu|^2 / 2) (1 without importance sampling).
+// Scenario s draws G ~ N(0, I), sets the sector factors Y = A G, and for each obligor an
+// idiosyncratic e ~ N(0, 1); obligor i defaults when sqrt(rho_i) Y_s(i) + sqrt(1 - rho_i) e_i <=
+// G(PD_i), losing l_i = LGD_i EAD_i. With importance sampling, every odd-numbered scenario draws
+// G ~ N(mu, I) instead, and every scenario carries the weight w = phi(G) / (phi(G)/2 +
+// phi(G - mu)/2): the model density over that of the half-and-half mixture (a deterministic
+// defensive mixture: Hesterberg 1995, Owen and Zhou 2000), so w <= 2 and the estimators stay
+// unbiased with reliable standard errors even where idiosyncratic defaults drive the tail, which
+// a pure shift handles badly. Without importance sampling w = 1.
 //
 // Random numbers: xoshiro256++ (Blackman and Vigna 2018) seeded for each scenario from (seed,
 // scenario index) by SplitMix64, normal variates by Boost.Random's ziggurat. A scenario's draws
@@ -18,9 +22,9 @@
 //             tails t -/+ the standard error of P(L > v);
 //   ES        v + (1/(n t)) sum w (L - v)^+, standard error sd(w (L - v)^+) / (t sqrt(n));
 //   ES_i      ((1/n) sum w X_i 1{L > v} + E[X_i | L = v] (t - P(L > v))) / t, adding up to ES.
-// Importance sampling shifts the mean of G to mu = G(a_max) u, u the unit direction in which the
-// large-portfolio loss grows fastest at mu (a fixed point), i.e. towards the most likely factor
-// outcomes of a loss at the highest level (Glasserman and Li 2005, the factor-mean shift).
+// The shift is mu = G(a_max) u, u the unit direction in which the large-portfolio loss grows
+// fastest at mu (a fixed point), i.e. towards the most likely factor outcome of a loss at the
+// highest level (Glasserman and Li 2005, the factor-mean shift); in one factor, mu = G(1 - a_max).
 //
 // Pure numerics: no I/O, nothing throws.
 //
