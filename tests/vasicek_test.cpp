@@ -26,7 +26,7 @@ double bvn_reference(double a, double b, double r) {
   using GK = boost::math::quadrature::gauss_kronrod<double, 61>;
   const double lo = -40.0;
   const double mid = std::clamp(a / r, lo, b);
-  return GK::integrate(f, lo, mid, 20, 1e-14) + GK::integrate(f, mid, b, 20, 1e-14);
+  return GK::integrate(f, lo, mid, 15, 1e-13) + GK::integrate(f, mid, b, 15, 1e-13);
 }
 }  // namespace
 
@@ -38,9 +38,9 @@ TEST_CASE("bivariate normal distribution function: Sheppard's formula and an ind
           doctest::Approx(0.25 + std::asin(r) / (2.0 * std::numbers::pi)).epsilon(1e-13));
   }
   // Independent computation: Boost.Math Gauss-Kronrod over the conditioning variable.
-  for (double r : {0.05, 0.3, 0.49, 0.8, 0.92, 0.93, 0.97, 0.995}) {
-    for (double a : {-6.0, -3.1, -1.0, 0.4, 2.5}) {
-      for (double b : {-4.5, -3.09, -0.5, 1.7}) {
+  for (double r : {0.05, 0.49, 0.92, 0.93, 0.995}) {
+    for (double a : {-6.0, -3.1, 0.4, 2.5}) {
+      for (double b : {-4.5, -0.5, 1.7}) {
         CAPTURE(r);
         CAPTURE(a);
         CAPTURE(b);
