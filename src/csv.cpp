@@ -9,14 +9,6 @@
 
 namespace firmcall {
 
-namespace {
-std::string_view trim(std::string_view s) noexcept {
-  while (!s.empty() && (s.front() == ' ' || s.front() == '\t')) s.remove_prefix(1);
-  while (!s.empty() && (s.back() == ' ' || s.back() == '\t')) s.remove_suffix(1);
-  return s;
-}
-}  // namespace
-
 std::size_t split_csv_record(std::string_view text, std::vector<std::string_view>& fields,
                              std::string& scratch, bool& unterminated) {
   fields.clear();
@@ -99,6 +91,12 @@ std::size_t count_lines(std::string_view text) noexcept {
   return static_cast<std::size_t>(std::count(text.begin(), text.end(), '\n'));
 }
 
+std::string_view trim_blanks(std::string_view s) noexcept {
+  while (!s.empty() && (s.front() == ' ' || s.front() == '\t')) s.remove_prefix(1);
+  while (!s.empty() && (s.back() == ' ' || s.back() == '\t')) s.remove_suffix(1);
+  return s;
+}
+
 bool valid_utf8(std::string_view s) noexcept {
   const auto* p = reinterpret_cast<const unsigned char*>(s.data());
   const auto* const end = p + s.size();
@@ -135,7 +133,7 @@ bool valid_utf8(std::string_view s) noexcept {
 }
 
 bool parse_number(std::string_view cell, double& value) noexcept {
-  cell = trim(cell);
+  cell = trim_blanks(cell);
   if (cell.empty()) return false;
   if (cell.front() == '+') cell.remove_prefix(1);
   const auto r = std::from_chars(cell.data(), cell.data() + cell.size(), value, std::chars_format::general);
@@ -149,7 +147,7 @@ CsvColumns CsvColumns::from_header(const std::vector<std::string_view>& header, 
   bool seen_text[kTextFieldCount] = {};
   for (std::size_t i = 0; i < header.size(); ++i) {
     Column c;
-    c.name = std::string(trim(header[i]));
+    c.name = std::string(trim_blanks(header[i]));
     if (c.name.empty()) {
       throw InputError(located(origin, 1, "header: column " + std::to_string(i + 1) + " has no name"));
     }
@@ -186,13 +184,13 @@ void parse_obligor_fields(const std::vector<std::string_view>& fields, const Csv
   for (std::size_t i = 0; i < n; ++i) {
     const CsvColumns::Column& c = cols.columns[i];
     if (c.text) {
-      const std::string_view cell = trim(fields[i]);
+      const std::string_view cell = trim_blanks(fields[i]);
       rec.get(*c.text).assign(cell);
       if (!valid_utf8(cell) && rec.read_error.empty()) {
         rec.read_error = "field '" + c.name + "': not valid UTF-8 (save the file as UTF-8)";
       }
     } else if (c.num) {
-      const std::string_view cell = trim(fields[i]);
+      const std::string_view cell = trim_blanks(fields[i]);
       if (cell.empty()) continue;
       double v = 0.0;
       if (parse_number(cell, v)) {

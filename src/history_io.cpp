@@ -15,12 +15,6 @@ namespace firmcall {
 
 namespace {
 
-std::string_view trim(std::string_view s) noexcept {
-  while (!s.empty() && (s.front() == ' ' || s.front() == '\t')) s.remove_prefix(1);
-  while (!s.empty() && (s.back() == ' ' || s.back() == '\t')) s.remove_suffix(1);
-  return s;
-}
-
 std::string quoted(std::string_view cell) {
   std::string s = "'";
   s += cell.substr(0, 40);
@@ -65,7 +59,7 @@ class CsvCursor {
       line_ += raw.size() > 0 && raw.find('\n') == raw.size() - 1 ? 1 : count_lines(raw);
       rest_.remove_prefix(used);
       if (unterminated) throw InputError(located(origin_, line, "a quoted field is never closed"));
-      if (fields.size() == 1 && trim(fields[0]).empty()) continue;  // blank line
+      if (fields.size() == 1 && trim_blanks(fields[0]).empty()) continue;  // blank line
       return true;
     }
     return false;
@@ -91,7 +85,7 @@ Header map_header(const std::vector<std::string_view>& fields, std::initializer_
   h.at.assign(known.size(), -1);
   h.width = fields.size();
   for (std::size_t i = 0; i < fields.size(); ++i) {
-    const std::string_view name = trim(fields[i]);
+    const std::string_view name = trim_blanks(fields[i]);
     if (name.empty()) {
       throw InputError(located(origin, line, "header: column " + std::to_string(i + 1) + " has no name"));
     }
@@ -127,29 +121,29 @@ void add_problem(LocatedProblem& error, std::size_t& more, std::size_t line, std
 // A number cell: absent when empty; the problem text when it does not parse.
 enum class Cell { absent, ok, bad };
 Cell read_number(std::string_view cell, double& v) {
-  cell = trim(cell);
+  cell = trim_blanks(cell);
   if (cell.empty()) return Cell::absent;
   return parse_number(cell, v) ? Cell::ok : Cell::bad;
 }
 
 std::string not_a_number(std::string_view field, std::string_view cell) {
   return "field '" + std::string(field) + "': expected a decimal number such as 24.5, got " +
-         quoted(trim(cell));
+         quoted(trim_blanks(cell));
 }
 
 std::string not_a_date(std::string_view field, std::string_view cell) {
   return "field '" + std::string(field) + "': expected an ISO 8601 date such as 2026-03-31, got " +
-         quoted(trim(cell));
+         quoted(trim_blanks(cell));
 }
 
 std::string not_positive(std::string_view field, std::string_view cell) {
-  return "field '" + std::string(field) + "': must be positive, got " + quoted(trim(cell));
+  return "field '" + std::string(field) + "': must be positive, got " + quoted(trim_blanks(cell));
 }
 
 }  // namespace
 
 std::optional<std::int32_t> parse_iso_date(std::string_view s) noexcept {
-  s = trim(s);
+  s = trim_blanks(s);
   if (s.size() != 10 || s[4] != '-' || s[7] != '-') return std::nullopt;
   int parts[3] = {0, 0, 0};
   const std::size_t starts[3] = {0, 5, 8};
@@ -228,7 +222,7 @@ EquityHistory parse_equity_history(std::string_view text, const std::string& ori
   std::int32_t last_date = 0;
   while (cursor.next(fields, line)) {
     const std::size_t id_col = col(kId);
-    const std::string_view id = id_col < fields.size() ? trim(fields[id_col]) : std::string_view{};
+    const std::string_view id = id_col < fields.size() ? trim_blanks(fields[id_col]) : std::string_view{};
     if (id.empty()) {
       throw InputError(located(origin, line, "field 'id': missing (every row needs an obligor id)"));
     }
@@ -426,7 +420,7 @@ BalanceSheets parse_balance_sheets(std::string_view text, const std::string& ori
   }
   while (cursor.next(fields, line)) {
     const std::size_t id_col = static_cast<std::size_t>(hdr.at[kId]);
-    const std::string_view id = id_col < fields.size() ? trim(fields[id_col]) : std::string_view{};
+    const std::string_view id = id_col < fields.size() ? trim_blanks(fields[id_col]) : std::string_view{};
     if (id.empty()) {
       throw InputError(located(origin, line, "field 'id': missing (every row needs an obligor id)"));
     }
@@ -467,7 +461,7 @@ BalanceSheets parse_balance_sheets(std::string_view text, const std::string& ori
       if (c == Cell::absent) continue;
       if (k == kDefaultPoint ? !(v > 0.0) : v < 0.0) {
         problem("field '" + std::string(name) + "': must be " +
-                (k == kDefaultPoint ? "positive" : "non-negative") + ", got " + quoted(trim(cell)));
+                (k == kDefaultPoint ? "positive" : "non-negative") + ", got " + quoted(trim_blanks(cell)));
         bad = true;
         break;
       }

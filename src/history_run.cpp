@@ -13,6 +13,7 @@
 
 #include "firmcall/errors.hpp"
 #include "firmcall/output.hpp"
+#include "firmcall/parallel.hpp"
 
 namespace firmcall {
 
@@ -28,23 +29,6 @@ std::string shortest(double v) {
 
 std::string obligor_prefix(std::string_view id) {
   return id.empty() ? std::string() : "obligor '" + std::string(id) + "': ";
-}
-
-// Runs fn(worker, begin, end) over [0, n) split into `threads` contiguous slices, in order.
-void parallel_slices(std::size_t n, unsigned threads,
-                     const std::function<void(unsigned, std::size_t, std::size_t)>& fn) {
-  const unsigned t =
-      std::max(1U, std::min<unsigned>(threads, static_cast<unsigned>(std::max<std::size_t>(n / 16, 1))));
-  if (t == 1) {
-    fn(0, 0, n);
-    return;
-  }
-  std::vector<std::thread> pool;
-  pool.reserve(t - 1);
-  const auto bound = [&](unsigned w) { return n * w / t; };
-  for (unsigned w = 1; w < t; ++w) pool.emplace_back(fn, w, bound(w), bound(w + 1));
-  fn(0, 0, bound(1));
-  for (auto& th : pool) th.join();
 }
 
 void fail(JoinedHistory& out, const std::string& file, std::size_t line, std::string text) {
@@ -338,12 +322,7 @@ class HistoryWriter {
 class CsvHistoryWriter final : public HistoryWriter {
  public:
   void begin(std::string& out) const override {
-    bool first = true;
-    for (auto c : history_columns()) {
-      if (!first) out.push_back(',');
-      out.append(c);
-      first = false;
-    }
+    append_csv_names(out, history_columns());
     out.push_back('\n');
   }
   void row(const ObligorRecord& rec, const HistoryResult& r, std::string& out) const override {
@@ -689,41 +668,44 @@ HistorySummary run_history(const HistorySources& src, const ScoreSettings& score
       wk.out.clear();
       wk.series.clear();
     }
-    parallel_slices(n, threads, [&](unsigned w, std::size_t b, std::size_t e) {
-      Worker& wk = workers[w];
-      for (std::size_t i = base + b; i < base + e; ++i) {
-        const ObligorRecord& rec = book.obligors[i];
-        estimate_one(rec, src, score_settings, settings, run.estimator, wk.joined, wk.ws, wk.result);
-        const HistoryResult& r = wk.result;
-        if (i > 0) wk.out.append(writer->separator());
-        writer->row(rec, r, wk.out);
-        switch (r.status) {
-          case RowStatus::ok:
-            ++wk.estimated;
-            wk.iterations += static_cast<std::size_t>(r.a.iterations);
-            if (series != nullptr) append_series(rec.get(TextField::id), wk.joined, wk.ws, wk.series);
-            for (const LocatedProblem& note : wk.joined.notes) {
-              if (wk.notes.size() < run.max_listed_problems) {
-                wk.notes.emplace_back(i,
-                                      located(src.history->origin, note.line,
-                                              obligor_prefix(rec.get(TextField::id)) + "note: " + note.text));
-              }
-              ++wk.note_count;
+    parallel_slices(
+        n, threads,
+        [&](unsigned w, std::size_t b, std::size_t e) {
+          Worker& wk = workers[w];
+          for (std::size_t i = base + b; i < base + e; ++i) {
+            const ObligorRecord& rec = book.obligors[i];
+            estimate_one(rec, src, score_settings, settings, run.estimator, wk.joined, wk.ws, wk.result);
+            const HistoryResult& r = wk.result;
+            if (i > 0) wk.out.append(writer->separator());
+            writer->row(rec, r, wk.out);
+            switch (r.status) {
+              case RowStatus::ok:
+                ++wk.estimated;
+                wk.iterations += static_cast<std::size_t>(r.a.iterations);
+                if (series != nullptr) append_series(rec.get(TextField::id), wk.joined, wk.ws, wk.series);
+                for (const LocatedProblem& note : wk.joined.notes) {
+                  if (wk.notes.size() < run.max_listed_problems) {
+                    wk.notes.emplace_back(
+                        i, located(src.history->origin, note.line,
+                                   obligor_prefix(rec.get(TextField::id)) + "note: " + note.text));
+                  }
+                  ++wk.note_count;
+                }
+                break;
+              case RowStatus::invalid_input:
+                ++wk.invalid;
+                break;
+              case RowStatus::not_converged:
+                ++wk.not_converged;
+                break;
             }
-            break;
-          case RowStatus::invalid_input:
-            ++wk.invalid;
-            break;
-          case RowStatus::not_converged:
-            ++wk.not_converged;
-            break;
-        }
-        if (r.status != RowStatus::ok) {
-          if (wk.problems.size() < run.max_listed_problems) wk.problems.emplace_back(i, r.message);
-          ++wk.problem_count;
-        }
-      }
-    });
+            if (r.status != RowStatus::ok) {
+              if (wk.problems.size() < run.max_listed_problems) wk.problems.emplace_back(i, r.message);
+              ++wk.problem_count;
+            }
+          }
+        },
+        16);
     for (Worker& wk : workers) {
       sink(wk.out);
       if (series != nullptr) (*series)(wk.series);

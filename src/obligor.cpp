@@ -56,6 +56,15 @@ std::string_view to_string(TextField f) noexcept {
   return kTextNames[static_cast<std::size_t>(f)];
 }
 
+const std::vector<std::string>& obligor_field_names() {
+  static const std::vector<std::string> names = [] {
+    std::vector<std::string> v(kTextNames.begin(), kTextNames.end());
+    v.insert(v.end(), kNumNames.begin(), kNumNames.end());
+    return v;
+  }();
+  return names;
+}
+
 bool field_from_string(std::string_view name, std::optional<NumField>& num,
                        std::optional<TextField>& text) noexcept {
   num.reset();

@@ -17,26 +17,6 @@ bool ends_with(const std::string& s, std::string_view suffix) {
   return s.size() >= suffix.size() && s.compare(s.size() - suffix.size(), suffix.size(), suffix) == 0;
 }
 
-const std::initializer_list<std::string_view> kObligorKeys = {"id",
-                                                              "name",
-                                                              "sector",
-                                                              "country",
-                                                              "currency",
-                                                              "market_cap",
-                                                              "share_price",
-                                                              "shares_outstanding",
-                                                              "equity_vol",
-                                                              "short_term_debt",
-                                                              "long_term_debt",
-                                                              "default_point",
-                                                              "rate",
-                                                              "horizon",
-                                                              "drift",
-                                                              "ead",
-                                                              "lgd",
-                                                              "asset_correlation",
-                                                              "maturity"};
-
 void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& rec) {
   rec.clear();
   rec.line = line;
@@ -57,7 +37,7 @@ void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& 
     if (!field_from_string(key, num, text)) {
       if (rec.read_error.empty()) {
         rec.read_error = "unknown field '" + key + "'";
-        const std::string hint = detail::closest_name(key, kObligorKeys);
+        const std::string hint = detail::closest_name(key, obligor_field_names());
         if (!hint.empty()) rec.read_error += " (did you mean '" + hint + "'?)";
       }
       continue;
@@ -173,7 +153,7 @@ Book load_book(const std::string& path, BookUse use) {
   const std::string text = detail::read_text_file(path);
   if (fmt == BookFormat::yaml && text.size() > kMaxYamlBookBytes) {
     throw InputError("'" + path +
-                     "': a YAML book larger than 64 MiB; YAML is for hand-written books, use CSV");
+                     "': a YAML book larger than 8 MiB; YAML is for hand-written books, use CSV");
   }
   return fmt == BookFormat::yaml ? parse_yaml_book(text, path) : parse_csv_book(text, path, use);
 }

@@ -139,6 +139,13 @@ void append_number(std::string& out, double v) {
   out.append(buf, p);
 }
 
+void append_csv_names(std::string& out, const std::vector<std::string_view>& names) {
+  for (std::size_t i = 0; i < names.size(); ++i) {
+    if (i > 0) out.push_back(',');
+    out.append(names[i]);
+  }
+}
+
 void append_csv_text(std::string& out, std::string_view s) {
   if (s.find_first_of(",\"\r\n") == std::string_view::npos) {
     out.append(s);
@@ -333,6 +340,12 @@ void append_sensitivities_table(std::string& out, const MertonSensitivities& s, 
 
 namespace {
 
+// Grade label of a scored obligor; empty when it was not scored.
+std::string grade_label(const GradeScale* grades, const ScoredObligor& s) {
+  if (!grades || s.status != RowStatus::ok) return {};
+  return std::string(grades->label_of(s.measures.pd));
+}
+
 // Values of the numeric columns equity_value .. spread_bp of score_columns(), in order.
 constexpr std::size_t kNumericColumns = 10;
 constexpr std::size_t kFirstNumericColumn = 3;
@@ -357,20 +370,14 @@ NumericRow numeric_row(const ScoredObligor& s) {
 
 class CsvWriter final : public ScoreWriter {
  public:
-  explicit CsvWriter(bool sensitivities) : sensitivities_(sensitivities) {}
+  CsvWriter(bool sensitivities, const GradeScale* grades) : sensitivities_(sensitivities), grades_(grades) {}
   void begin(std::string& out) const override {
-    bool first = true;
-    for (auto c : score_columns()) {
-      if (!first) out.push_back(',');
-      out.append(c);
-      first = false;
-    }
+    append_csv_names(out, score_columns());
     if (sensitivities_) {
-      for (auto c : sensitivity_columns()) {
-        out.push_back(',');
-        out.append(c);
-      }
+      out.push_back(',');
+      append_csv_names(out, sensitivity_columns());
     }
+    if (grades_) out += ",grade";
     out.push_back('\n');
   }
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
@@ -399,18 +406,23 @@ class CsvWriter final : public ScoreWriter {
       append_sensitivities_csv(out, usable ? sensitivities_of(s.resolved, s.solution) : MertonSensitivities{},
                                usable);
     }
+    if (grades_) {
+      out.push_back(',');
+      append_csv_text(out, grade_label(grades_, s));
+    }
     out.push_back('\n');
   }
   void end(const ScoreSummary&, std::string&) const override {}
 
  private:
   bool sensitivities_;
+  const GradeScale* grades_;
 };
 
 class JsonWriter final : public ScoreWriter {
  public:
-  JsonWriter(std::string origin, const ScoreSettings& settings, bool sensitivities)
-      : origin_(std::move(origin)), settings_(settings), sensitivities_(sensitivities) {}
+  JsonWriter(std::string origin, const ScoreSettings& settings, bool sensitivities, const GradeScale* grades)
+      : origin_(std::move(origin)), settings_(settings), sensitivities_(sensitivities), grades_(grades) {}
   void begin(std::string& out) const override {
     out += "{\n  \"run\": {\"input\": ";
     append_json_string(out, origin_);
@@ -455,6 +467,14 @@ class JsonWriter final : public ScoreWriter {
       append_sensitivities_json(
           out, usable ? sensitivities_of(s.resolved, s.solution) : MertonSensitivities{}, usable);
     }
+    if (grades_) {
+      out += ", \"grade\": ";
+      if (s.status == RowStatus::ok) {
+        append_json_string(out, grade_label(grades_, s));
+      } else {
+        out += "null";
+      }
+    }
     out += "}";
   }
   void end(const ScoreSummary& sum, std::string& out) const override {
@@ -468,19 +488,22 @@ class JsonWriter final : public ScoreWriter {
   std::string origin_;
   ScoreSettings settings_;
   bool sensitivities_;
+  const GradeScale* grades_;
 };
 
-// Fixed-width text for people: 116 columns.
+// Fixed-width text for people: 116 columns (with grades: a grade column, and the name 6 narrower).
 class TableWriter final : public ScoreWriter {
  public:
-  explicit TableWriter(bool sensitivities) : sensitivities_(sensitivities) {}
+  TableWriter(bool sensitivities, const GradeScale* grades)
+      : sensitivities_(sensitivities), grades_(grades) {}
   void begin(std::string& out) const override {
     char buf[256];
-    std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7s %12s %6s %7s %10s %10s  %s\n", "obligor", "name",
-                  "asset value", "asset", "default", "DP/V", "DD", "PD", "spread", "status");
+    std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", "obligor",
+                  name_width(), "name", "asset value", "asset", "default", "DP/V", "DD", "PD", "spread",
+                  grade_cell("grade").c_str(), "status");
     out += buf;
-    std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7s %12s %6s %7s %10s %10s  %s\n", "", "", "", "vol %",
-                  "point", "", "", "%", "bp", "");
+    std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", "", name_width(), "",
+                  "", "vol %", "point", "", "", "%", "bp", grade_cell("").c_str(), "");
     out += buf;
     if (sensitivities_) append_sensitivities_table_header(out, 2);
     out += std::string(115, '-') + "\n";
@@ -488,19 +511,20 @@ class TableWriter final : public ScoreWriter {
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
     char buf[320];
     const std::string id = fit(rec.get(TextField::id), 12);
-    const std::string name = fit(rec.get(TextField::name), 18);
+    const std::string name = fit(rec.get(TextField::name), static_cast<std::size_t>(name_width()));
     if (s.status != RowStatus::ok) {
-      std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7s %12s %6s %7s %10s %10s  %s\n", id.c_str(),
-                    name.c_str(), "-", "-", "-", "-", "-", "-", "-",
+      std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", id.c_str(),
+                    name_width(), name.c_str(), "-", "-", "-", "-", "-", "-", "-", grade_cell("-").c_str(),
                     std::string(to_string(s.status)).c_str());
       out += buf;
       return;
     }
     const MertonMeasures& m = s.measures;
-    std::snprintf(buf, sizeof buf, "%-12s %-18s %12s %7.2f %12s %6.3f %7.3f %10s %10s  %s\n", id.c_str(),
-                  name.c_str(), amount(m.asset_value).c_str(), 100.0 * m.asset_vol_annual,
+    std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7.2f %12s %6.3f %7.3f %10s %10s %s %s\n", id.c_str(),
+                  name_width(), name.c_str(), amount(m.asset_value).c_str(), 100.0 * m.asset_vol_annual,
                   amount(m.default_point).c_str(), m.leverage, m.distance_to_default,
-                  small(100.0 * m.pd, 4).c_str(), small(m.spread_bp, 2).c_str(), "ok");
+                  small(100.0 * m.pd, 4).c_str(), small(m.spread_bp, 2).c_str(),
+                  grade_cell(grade_label(grades_, s)).c_str(), "ok");
     out += buf;
     if (sensitivities_) append_sensitivities_table(out, sensitivities_of(s.resolved, s.solution), 2);
   }
@@ -522,6 +546,17 @@ class TableWriter final : public ScoreWriter {
 
  private:
   bool sensitivities_;
+  int name_width() const { return grades_ ? 12 : 18; }
+  // The grade column: empty without grades (one space then separates spread and status, as before).
+  std::string grade_cell(std::string_view text) const {
+    if (!grades_) return {};
+    std::string cell(1, ' ');
+    const std::string label = fit(std::string(text), 5);
+    cell += label;
+    cell.append(5 - label.size(), ' ');
+    return cell;
+  }
+  const GradeScale* grades_;
   static std::string fit(const std::string& s, std::size_t w) {
     if (s.size() <= w) return s;
     return s.substr(0, w - 1) + "~";
@@ -552,16 +587,17 @@ class TableWriter final : public ScoreWriter {
 }  // namespace
 
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
-                                               const ScoreSettings& settings, bool sensitivities) {
+                                               const ScoreSettings& settings, bool sensitivities,
+                                               const GradeScale* grades) {
   switch (format) {
     case OutputFormat::csv:
-      return std::make_unique<CsvWriter>(sensitivities);
+      return std::make_unique<CsvWriter>(sensitivities, grades);
     case OutputFormat::json:
-      return std::make_unique<JsonWriter>(origin, settings, sensitivities);
+      return std::make_unique<JsonWriter>(origin, settings, sensitivities, grades);
     case OutputFormat::table:
-      return std::make_unique<TableWriter>(sensitivities);
+      return std::make_unique<TableWriter>(sensitivities, grades);
   }
-  return std::make_unique<CsvWriter>(sensitivities);
+  return std::make_unique<CsvWriter>(sensitivities, grades);
 }
 
 }  // namespace firmcall

@@ -10,6 +10,7 @@
 #include "firmcall/csv.hpp"
 #include "firmcall/errors.hpp"
 #include "firmcall/output.hpp"
+#include "firmcall/parallel.hpp"
 
 namespace firmcall {
 
@@ -73,23 +74,6 @@ void score_obligor(const ObligorRecord& rec, const BookDefaults& book, const Sco
 }
 
 namespace {
-
-// Runs fn(worker, begin, end) over [0, n) split into `threads` contiguous slices.
-void parallel_slices(std::size_t n, unsigned threads,
-                     const std::function<void(unsigned, std::size_t, std::size_t)>& fn) {
-  const unsigned t =
-      std::max(1U, std::min<unsigned>(threads, static_cast<unsigned>(std::max<std::size_t>(n / 64, 1))));
-  if (t == 1) {
-    fn(0, 0, n);
-    return;
-  }
-  std::vector<std::thread> pool;
-  pool.reserve(t - 1);
-  const auto bound = [&](unsigned w) { return n * w / t; };
-  for (unsigned w = 1; w < t; ++w) pool.emplace_back(fn, w, bound(w), bound(w + 1));
-  fn(0, 0, bound(1));
-  for (auto& th : pool) th.join();
-}
 
 // Ids seen so far, as 64-bit hashes with the line of first appearance (open addressing). A hash
 // collision between two different ids (probability ~ n^2 / 2^65) would be reported as a duplicate.
@@ -164,7 +148,7 @@ class BatchScorer {
         settings_(settings),
         run_(run),
         sink_(sink),
-        writer_(make_score_writer(run.format, origin, settings, run.sensitivities)),
+        writer_(make_score_writer(run.format, origin, settings, run.sensitivities, run.grades)),
         workers_(std::max(1U, run.threads)) {}
 
   void begin() {

@@ -48,6 +48,54 @@ int positive_int(const YAML::Node& n, const std::string& origin, std::string_vie
   return static_cast<int>(v);
 }
 
+// `grades:` a list of {label, max_pd}, best grade first.
+GradeScale parse_grade_scale(const YAML::Node& list, const std::string& origin) {
+  if (!list.IsSequence()) {
+    throw InputError(located(origin, yaml_line(list), "key 'grades': expected a list of {label, max_pd}"));
+  }
+  GradeScale scale;
+  for (const auto& g : list) {
+    yaml_check_keys(g, {"label", "max_pd"}, origin, "grades");
+    if (!g["label"] || !g["max_pd"]) {
+      throw InputError(located(origin, yaml_line(g), "grades: each grade needs a label and a max_pd"));
+    }
+    scale.bands.push_back(
+        {detail::yaml_string(g["label"], origin, "label"), yaml_number(g["max_pd"], origin, "max_pd")});
+  }
+  if (const std::string problem = scale.problem(); !problem.empty()) {
+    throw InputError(located(origin, yaml_line(list), "grades: " + problem));
+  }
+  return scale;
+}
+
+MonitorSettings parse_monitoring(const YAML::Node& s, const std::string& origin) {
+  MonitorSettings m;
+  yaml_check_keys(s, {"store", "busy_timeout_seconds", "alerts"}, origin, "monitoring");
+  if (s["store"]) m.store = detail::yaml_string(s["store"], origin, "store");
+  if (s["busy_timeout_seconds"]) {
+    m.busy_timeout_seconds = positive(s["busy_timeout_seconds"], origin, "busy_timeout_seconds");
+  }
+  if (const auto a = s["alerts"]) {
+    yaml_check_keys(a, {"dd_drop", "pd_ratio", "pd_ratio_min_pd", "downgrade_notches", "pd_ceiling"}, origin,
+                    "alerts");
+    if (a["dd_drop"]) m.alerts.dd_drop = positive(a["dd_drop"], origin, "dd_drop");
+    if (a["pd_ratio"]) {
+      m.alerts.pd_ratio = yaml_number(a["pd_ratio"], origin, "pd_ratio");
+      if (!(m.alerts.pd_ratio > 1.0)) {
+        throw InputError(located(origin, yaml_line(a["pd_ratio"]), "key 'pd_ratio': must be above 1"));
+      }
+    }
+    if (a["pd_ratio_min_pd"]) {
+      m.alerts.pd_ratio_min_pd = in_unit_interval(a["pd_ratio_min_pd"], origin, "pd_ratio_min_pd", false);
+    }
+    if (a["downgrade_notches"]) {
+      m.alerts.downgrade_notches = positive_int(a["downgrade_notches"], origin, "downgrade_notches");
+    }
+    if (a["pd_ceiling"]) m.alerts.pd_ceiling = in_unit_interval(a["pd_ceiling"], origin, "pd_ceiling", false);
+  }
+  return m;
+}
+
 std::vector<double> confidence_levels(const YAML::Node& n, const std::string& origin) {
   const auto fail = [&](const std::string& why) {
     throw InputError(located(origin, yaml_line(n), "key 'confidence_levels': " + why));
@@ -70,8 +118,10 @@ Config parse_config(const std::string& text, const std::string& origin) {
   Config c;
   const YAML::Node root = detail::yaml_load(text, origin);
   if (root.IsNull()) return c;
-  yaml_check_keys(root, {"scoring", "solver", "stress", "history", "portfolio", "irb"}, origin,
-                  "configuration");
+  yaml_check_keys(root,
+                  {"scoring", "solver", "stress", "history", "grades", "monitoring", "term_structure",
+                   "portfolio", "irb"},
+                  origin, "configuration");
   if (const auto s = root["scoring"]) {
     yaml_check_keys(s, {"default_point_weight", "horizon", "measure", "default_lgd", "max_equity_vol"},
                     origin, "scoring");
@@ -131,6 +181,28 @@ Config parse_config(const std::string& text, const std::string& origin) {
       c.history.max_iterations = positive_int(s["max_iterations"], origin, "max_iterations");
     if (s["confidence_level"]) {
       c.history.confidence_level = in_unit_interval(s["confidence_level"], origin, "confidence_level", true);
+    }
+  }
+  if (const auto s = root["grades"]) c.grades = parse_grade_scale(s, origin);
+  if (const auto s = root["monitoring"]) c.monitor = parse_monitoring(s, origin);
+  if (const auto s = root["term_structure"]) {
+    yaml_check_keys(s, {"calibration", "barrier_ratio", "barrier_growth"}, origin, "term_structure");
+    if (s["calibration"]) {
+      const auto cal = calibration_from_string(detail::yaml_string(s["calibration"], origin, "calibration"));
+      if (!cal) {
+        throw InputError(
+            located(origin, yaml_line(s["calibration"]), "key 'calibration': expected once or per-horizon"));
+      }
+      c.term.calibration = *cal;
+    }
+    if (s["barrier_ratio"]) c.term.barrier_ratio = positive(s["barrier_ratio"], origin, "barrier_ratio");
+    if (s["barrier_growth"]) {
+      const double g = yaml_number(s["barrier_growth"], origin, "barrier_growth");
+      if (!(std::fabs(g) <= 1.0)) {
+        throw InputError(located(origin, yaml_line(s["barrier_growth"]),
+                                 "key 'barrier_growth': must lie in [-1, 1] (0.02 means 2% a year)"));
+      }
+      c.term.barrier_growth = g;
     }
   }
   if (const auto s = root["portfolio"]) {

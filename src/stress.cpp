@@ -10,6 +10,7 @@
 
 #include "firmcall/errors.hpp"
 #include "firmcall/output.hpp"
+#include "firmcall/parallel.hpp"
 #include "stress_output.hpp"
 
 namespace firmcall {
@@ -65,23 +66,6 @@ bool all_finite(const MertonMeasures& m) {
   const double all[] = {m.asset_value, m.asset_vol_annual, m.leverage,   m.distance_to_default,
                         m.pd,          m.pd_risk_neutral,  m.debt_value, m.spread_bp};
   return std::all_of(std::begin(all), std::end(all), [](double x) { return std::isfinite(x); });
-}
-
-// Runs fn(worker, begin, end) over [0, n) split into `threads` contiguous slices.
-void parallel_slices(std::size_t n, unsigned threads,
-                     const std::function<void(unsigned, std::size_t, std::size_t)>& fn) {
-  const unsigned t =
-      std::max(1U, std::min<unsigned>(threads, static_cast<unsigned>(std::max<std::size_t>(n / 64, 1))));
-  if (t == 1) {
-    fn(0, 0, n);
-    return;
-  }
-  std::vector<std::thread> pool;
-  pool.reserve(t - 1);
-  const auto bound = [&](unsigned w) { return n * w / t; };
-  for (unsigned w = 1; w < t; ++w) pool.emplace_back(fn, w, bound(w), bound(w + 1));
-  fn(0, 0, bound(1));
-  for (auto& th : pool) th.join();
 }
 
 std::string without_line(const std::string& m) {

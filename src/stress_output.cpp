@@ -171,17 +171,10 @@ class StressCsvWriter final : public detail::StressWriter {
  public:
   explicit StressCsvWriter(const detail::StressRunInfo& info) : info_(info) {}
   void begin(std::string& out) const override {
-    bool first = true;
-    for (auto c : stress_columns()) {
-      if (!first) out.push_back(',');
-      out.append(c);
-      first = false;
-    }
+    append_csv_names(out, stress_columns());
     if (info_.sensitivities) {
-      for (auto c : sensitivity_columns()) {
-        out.push_back(',');
-        out.append(c);
-      }
+      out.push_back(',');
+      append_csv_names(out, sensitivity_columns());
     }
     out.push_back('\n');
   }
@@ -538,12 +531,7 @@ class ReverseCsvWriter final : public detail::ReverseStressWriter {
  public:
   explicit ReverseCsvWriter(double target) : target_(target) {}
   void begin(std::string& out) const override {
-    bool first = true;
-    for (auto c : reverse_stress_columns()) {
-      if (!first) out.push_back(',');
-      out.append(c);
-      first = false;
-    }
+    append_csv_names(out, reverse_stress_columns());
     out.push_back('\n');
   }
   void row(const ObligorRecord& rec, const ScoredObligor& base, const ReverseStressRow& r, bool,
@@ -722,12 +710,7 @@ class ReverseTableWriter final : public detail::ReverseStressWriter {
 
 std::string scenario_summary_csv(const StressSummary& summary, const std::vector<Scenario>& scenarios) {
   std::string out;
-  bool first = true;
-  for (auto c : stress_summary_columns()) {
-    if (!first) out.push_back(',');
-    out.append(c);
-    first = false;
-  }
+  append_csv_names(out, stress_summary_columns());
   out.push_back('\n');
   for (std::size_t i = 0; i < summary.scenarios.size() && i < scenarios.size(); ++i) {
     const ScenarioSummary& s = summary.scenarios[i];

@@ -62,7 +62,7 @@ TEST_CASE("the table reads in a 120-column terminal and ends with a summary and 
   CHECK(r.out.find("GOR-33") != std::string::npos);
 }
 
-TEST_CASE("bad rows: each named with file, line, obligor and field; the good rows still scored; exit 1") {
+TEST_CASE("bad rows: each named with file, line, obligor and field, the good rows still scored, exit 1") {
   const auto r = run_firmcall("score samples/bad_rows.csv --format csv");
   CHECK(r.exit_code == 1);
   CHECK_FALSE(has_non_finite_word(r.out));
@@ -94,7 +94,7 @@ TEST_CASE("bad rows: each named with file, line, obligor and field; the good row
   CHECK(r.err.find("scored 2 of 16 obligors (14 invalid input, 0 not converged)") != std::string::npos);
 }
 
-TEST_CASE("file errors: exit 2 with the file (and line) named; nothing written") {
+TEST_CASE("file errors: exit 2 with the file (and line) named, nothing written") {
   TempDir t;
   auto r = run_firmcall("score no-such-book.csv");
   CHECK(r.exit_code == 2);
@@ -125,7 +125,7 @@ TEST_CASE("file errors: exit 2 with the file (and line) named; nothing written")
   CHECK(files == 3);  // bad.yaml, out.csv, noid.csv
 }
 
-TEST_CASE("--output writes the whole result; overrides apply; JSON parses") {
+TEST_CASE("--output writes the whole result, overrides apply, JSON parses") {
   TempDir t;
   const std::string out = t.file("scores.json");
   auto r =
@@ -154,7 +154,7 @@ TEST_CASE("--output writes the whole result; overrides apply; JSON parses") {
                       .c_str()) == 0);
 }
 
-TEST_CASE("--help carries the caution; the risk-neutral measure sets pd to pd_risk_neutral") {
+TEST_CASE("--help carries the caution, the risk-neutral measure sets pd to pd_risk_neutral") {
   auto r = run_firmcall("--help");
   CHECK(r.exit_code == 0);
   CHECK(r.out.find("not a credit decision on their own") != std::string::npos);

@@ -37,6 +37,44 @@ TEST_CASE("the shipped config/firmcall.yaml equals the built-in defaults") {
   CHECK(shipped.irb.pd_floor == 0.0003);  // Ref: BCBS 2006 para 285
   CHECK(shipped.irb.maturity_years == builtin.irb.maturity_years);
   CHECK(shipped.irb.maturity_years == 2.5);  // Ref: BCBS 2006 para 318 (foundation approach)
+  REQUIRE(shipped.grades.bands.size() == builtin.grades.bands.size());
+  for (std::size_t i = 0; i < builtin.grades.bands.size(); ++i) {
+    CHECK(shipped.grades.bands[i].label == builtin.grades.bands[i].label);
+    CHECK(shipped.grades.bands[i].max_pd == builtin.grades.bands[i].max_pd);
+  }
+  CHECK(shipped.monitor.store == builtin.monitor.store);
+  CHECK(shipped.monitor.busy_timeout_seconds == builtin.monitor.busy_timeout_seconds);
+  CHECK(shipped.monitor.alerts.dd_drop == builtin.monitor.alerts.dd_drop);
+  CHECK(shipped.monitor.alerts.pd_ratio == builtin.monitor.alerts.pd_ratio);
+  CHECK(shipped.monitor.alerts.pd_ratio_min_pd == builtin.monitor.alerts.pd_ratio_min_pd);
+  CHECK(shipped.monitor.alerts.downgrade_notches == builtin.monitor.alerts.downgrade_notches);
+  CHECK(shipped.monitor.alerts.pd_ceiling == builtin.monitor.alerts.pd_ceiling);
+  CHECK(shipped.term.calibration == builtin.term.calibration);
+  CHECK(shipped.term.barrier_ratio == builtin.term.barrier_ratio);
+  CHECK(shipped.term.barrier_ratio == 1.0);  // barrier at the default point (Black and Cox 1976 style)
+  CHECK(shipped.term.barrier_growth == builtin.term.barrier_growth);
+}
+
+TEST_CASE("grade scales and alert rules from a settings file") {
+  const Config c = parse_config(
+      "grades:\n  - {label: low, max_pd: 0.01}\n  - {label: high, max_pd: 1}\n"
+      "monitoring:\n  store: /var/lib/risk/h.sqlite\n  alerts: {dd_drop: 0.5, downgrade_notches: 1}\n",
+      "c.yaml");
+  REQUIRE(c.grades.bands.size() == 2);
+  CHECK(c.grades.label_of(0.02) == "high");
+  CHECK(c.monitor.store == "/var/lib/risk/h.sqlite");
+  CHECK(c.monitor.alerts.dd_drop == 0.5);
+  CHECK(c.monitor.alerts.downgrade_notches == 1);
+  CHECK(c.monitor.alerts.pd_ratio == 2.0);  // not given: built-in default kept
+  CHECK_THROWS_WITH_AS(parse_config("grades:\n  - {label: a, max_pd: 0.5}\n", "c.yaml"),
+                       "c.yaml:2: grades: the last grade must have max_pd 1 (it holds every PD up to 1)",
+                       InputError);
+  CHECK_THROWS_WITH_AS(parse_config("grades:\n  - {label: a, max_pc: 1}\n", "c.yaml"),
+                       "c.yaml:2: grades: unknown key 'max_pc' (did you mean 'max_pd'?)", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("monitoring:\n  alerts: {pd_ratio: 0.5}\n", "c.yaml"),
+                       "c.yaml:2: key 'pd_ratio': must be above 1", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("monitoring:\n  alert: {}\n", "c.yaml"),
+                       "c.yaml:2: monitoring: unknown key 'alert' (did you mean 'alerts'?)", InputError);
 }
 
 TEST_CASE("portfolio and irb settings are checked key by key") {
@@ -79,6 +117,17 @@ TEST_CASE("configuration errors name the file, line and key") {
                        "c.yaml:1: configuration: unknown key 'scorng' (did you mean 'scoring'?)", InputError);
   CHECK_THROWS_WITH_AS(load_config("/nonexistent/firmcall.yaml"),
                        "cannot open file '/nonexistent/firmcall.yaml'", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("term_structure:\n  calibration: each\n", "c.yaml"),
+                       "c.yaml:2: key 'calibration': expected once or per-horizon", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("term_structure:\n  barrier_growth: 3\n", "c.yaml"),
+                       "c.yaml:2: key 'barrier_growth': must lie in [-1, 1] (0.02 means 2% a year)",
+                       InputError);
+  CHECK_THROWS_WITH_AS(parse_config("term_structure:\n  barrier_ratio: 0\n", "c.yaml"),
+                       "c.yaml:2: key 'barrier_ratio': must be positive", InputError);
+  const Config t =
+      parse_config("term_structure:\n  calibration: per-horizon\n  barrier_ratio: 0.8\n", "c.yaml");
+  CHECK(t.term.calibration == Calibration::per_horizon);
+  CHECK(t.term.barrier_ratio == 0.8);
   const Config c = parse_config("scoring:\n  measure: risk-neutral\n  horizon: 2\n", "c.yaml");
   CHECK(c.score.measure == Measure::risk_neutral);
   CHECK(c.score.horizon_years == 2.0);

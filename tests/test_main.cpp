@@ -27,3 +27,11 @@ void operator delete(void* p) noexcept {
 void operator delete(void* p, std::size_t) noexcept {
   std::free(p);
 }
+// The nothrow form (used by std::stable_sort's temporary buffer) must come from the same heap.
+void* operator new(std::size_t n, const std::nothrow_t&) noexcept {
+  firmcall::testing::g_allocations.fetch_add(1, std::memory_order_relaxed);
+  return std::malloc(n == 0 ? 1 : n);
+}
+void operator delete(void* p, const std::nothrow_t&) noexcept {
+  std::free(p);
+}

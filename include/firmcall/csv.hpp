@@ -48,6 +48,9 @@ struct CsvColumns {
 void parse_obligor_fields(const std::vector<std::string_view>& fields, const CsvColumns& cols,
                           ObligorRecord& rec);
 
+/// s without leading and trailing spaces and tabs.
+std::string_view trim_blanks(std::string_view s) noexcept;
+
 /// True when s is well-formed UTF-8 (RFC 3629: no overlongs, surrogates or values past U+10FFFF).
 bool valid_utf8(std::string_view s) noexcept;
 

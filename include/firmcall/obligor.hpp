@@ -8,6 +8,7 @@
 #include <optional>
 #include <string>
 #include <string_view>
+#include <vector>
 
 #include "firmcall/merton.hpp"
 #include "firmcall/settings.hpp"
@@ -40,6 +41,8 @@ inline constexpr std::size_t kTextFieldCount = static_cast<std::size_t>(TextFiel
 
 std::string_view to_string(NumField f) noexcept;
 std::string_view to_string(TextField f) noexcept;
+/// Every field name (text fields first), as used in CSV headers and YAML keys.
+const std::vector<std::string>& obligor_field_names();
 /// Looks a field name up among both kinds; returns false when it is neither.
 bool field_from_string(std::string_view name, std::optional<NumField>& num,
                        std::optional<TextField>& text) noexcept;

@@ -7,6 +7,7 @@
 #include <string_view>
 #include <vector>
 
+#include "firmcall/grades.hpp"
 #include "firmcall/score.hpp"
 #include "firmcall/sensitivity.hpp"
 
@@ -14,6 +15,8 @@ namespace firmcall {
 
 /// Appends v with 17 significant digits (round-trips exactly); non-finite values append nothing.
 void append_number(std::string& out, double v);
+/// Appends column names joined by commas (a CSV header, or its continuation after a comma).
+void append_csv_names(std::string& out, const std::vector<std::string_view>& names);
 /// Appends a CSV cell, quoted when it holds a comma, quote or line break.
 void append_csv_text(std::string& out, std::string_view s);
 /// Appends a JSON string literal (with quotes), escaping as RFC 8259 requires.
@@ -55,7 +58,10 @@ class ScoreWriter {
 
 /// A writer for the format; `origin` and `settings` appear in the JSON run block. With
 /// `sensitivities` every format adds the sensitivity columns (the table a second line per obligor).
+/// With `grades`, each scored obligor also shows its grade (a last CSV column and JSON key `grade`,
+/// a table column).
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
-                                               const ScoreSettings& settings, bool sensitivities = false);
+                                               const ScoreSettings& settings, bool sensitivities = false,
+                                               const GradeScale* grades = nullptr);
 
 }  // namespace firmcall

@@ -8,7 +8,9 @@
 #include <string_view>
 #include <vector>
 
+#include "firmcall/grades.hpp"
 #include "firmcall/merton_solver.hpp"
+#include "firmcall/term_structure.hpp"
 
 namespace firmcall {
 
@@ -47,6 +49,32 @@ struct HistorySettings {
   double confidence_level = 0.95;        ///< two-sided level of reported intervals
 };
 
+/// Watchlist alert rules (see movers.hpp): an obligor is flagged when any rule fires between two
+/// runs. A rule is switched off by a bound it cannot pass (e.g. pd_ceiling: 1).
+struct AlertRules {
+  double dd_drop = 1.0;           ///< distance to default fell by more than this, standard deviations
+  double pd_ratio = 2.0;          ///< PD grew by more than this factor ...
+  double pd_ratio_min_pd = 1e-4;  ///< ... and the new PD is at least this (far-tail ratios are noise)
+  int downgrade_notches = 2;      ///< grade worsened by at least this many notches
+  double pd_ceiling = 0.05;       ///< PD above this, probability
+};
+
+/// Settings of the monitoring commands (history store, alerts).
+struct MonitorSettings {
+  /// History store (SQLite file); empty: $XDG_DATA_HOME/firmcall/history.sqlite, else
+  /// ~/.local/share/firmcall/history.sqlite. The command-line option --db wins.
+  std::string store;
+  double busy_timeout_seconds = 10.0;  ///< how long to wait for another process writing the store
+  AlertRules alerts;
+};
+
+/// Settings of PD term structures and the first-passage model (term_structure.hpp).
+struct TermSettings {
+  Calibration calibration = Calibration::once;  ///< once: solve at each obligor's horizon, then project
+  double barrier_ratio = 1.0;                   ///< first-passage barrier H0 = ratio x default point
+  double barrier_growth = 0.0;                  ///< barrier growth g, cc decimal per year: H(t) = H0 e^(g t)
+};
+
 /// Most confidence levels a portfolio run reports.
 inline constexpr std::size_t kMaxConfidenceLevels = 8;
 
@@ -72,6 +100,9 @@ struct Config {
   ScoreSettings score;
   StressSettings stress;
   HistorySettings history;
+  GradeScale grades = default_grade_scale();  ///< master scale, best grade first
+  MonitorSettings monitor;
+  TermSettings term;
   PortfolioSettings portfolio;
   IrbSettings irb;
 };

@@ -8,7 +8,9 @@
 #include "firmcall/errors.hpp"
 #include "firmcall/obligor_io.hpp"
 #include "firmcall/output_file.hpp"
+#include "firmcall/recording.hpp"
 #include "firmcall/score.hpp"
+#include "firmcall/term_run.hpp"
 
 namespace firmcall::cli {
 
@@ -23,11 +25,51 @@ struct ScoreCli {
   std::string measure;
   unsigned threads = 0;
   bool sensitivities = false;
+  bool grades = false;  // --grades: show each obligor's grade
+  bool record = false;  // --record: also write the run to the history store
+  std::string db;
+  std::string as_of;
+  TermChoices term;
 };
 
 struct FileCloser {
   void operator()(std::FILE* f) const { std::fclose(f); }
 };
+
+// `score --horizons ...` / `--model ...`: the PD term-structure path (term_run.hpp).
+int run_term_structure(const std::string& book_path, const ScoreSettings& settings, const TermRunOptions& run,
+                       const std::string& output, bool quiet) {
+  ScoreSummary summary;
+  std::size_t rows = 0;
+  {
+    const Book book = load_book(book_path);
+    OutputFile out(output);
+    const TextSink sink = [&out](std::string_view s) { out.write(s); };
+    summary = score_term_structure(book, settings, run, sink);
+    out.commit();
+    rows = book.obligors.size() * run.models.size() * std::max<std::size_t>(run.horizons.size(), 1);
+  }
+  if (!quiet) {
+    for (const auto& n : summary.notes) std::cerr << "firmcall: " << n << "\n";
+    if (summary.total == 0) std::cerr << "firmcall: note: " << book_path << " has no obligors\n";
+    if (run.format != OutputFormat::table) {
+      for (const auto& p : summary.problems) std::cerr << "firmcall: " << p << "\n";
+      if (summary.problems_not_listed > 0) {
+        std::cerr << "firmcall: ... and " << summary.problems_not_listed << " more (column message)\n";
+      }
+    }
+    if (run.format != OutputFormat::table || !output.empty()) {
+      std::cerr << "firmcall: term structures of " << summary.scored << " of " << summary.total
+                << " obligors";
+      if (summary.failed() > 0) {
+        std::cerr << " (" << summary.invalid << " invalid input, " << summary.not_converged
+                  << " not converged)";
+      }
+      std::cerr << "; " << rows << " rows\n";
+    }
+  }
+  return summary.failed() > 0 ? kExitRowsFailed : kExitOk;
+}
 }  // namespace
 
 unsigned default_threads() {
@@ -56,6 +98,15 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
   cmd->add_flag("--sensitivities", opts->sensitivities,
                 "Add analytic sensitivities of DD, PD and spread per +1% equity value, +1 point equity "
                 "volatility, +1% default point and +1 bp rate");
+  cmd->add_flag("--grades", opts->grades, "Show each obligor's grade on the master scale (settings: grades)");
+  CLI::Option* record = cmd->add_flag("--record", opts->record, "Also record the run in the history store");
+  cmd->add_option("--db", opts->db,
+                  "History store file (default: monitoring.store, else the user's data folder)")
+      ->needs(record);
+  cmd->add_option("--as-of", opts->as_of,
+                  "As-of date YYYY-MM-DD of the recorded run (default: book's, else today)")
+      ->needs(record);
+  add_term_options(cmd, opts->term);
   cmd->footer(
       std::string("\nExit codes: 0 every obligor scored; 1 some obligors invalid or not converged "
                   "(the others are scored); 2 unreadable or malformed file or bad command line.\n\n") +
@@ -78,8 +129,29 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
                                                 : OutputFormat::table;
       runopts.threads = opts->threads > 0 ? opts->threads : default_threads();
       runopts.sensitivities = opts->sensitivities;
+      if (opts->grades) runopts.grades = &config.grades;
+      TermRunOptions term = term_run_options(config.term, opts->term);  // checks the term options
+      if (wants_term_structure(opts->term)) {
+        if (opts->sensitivities) {
+          throw InputError("--sensitivities: not available with term structures (--horizons, --model)");
+        }
+        if (opts->grades || opts->record) {
+          throw InputError(std::string(opts->grades ? "--grades" : "--record") +
+                           ": not available with term structures (--horizons, --model)");
+        }
+        term.format = runopts.format;
+        term.threads = runopts.threads;
+        return run_term_structure(opts->book, settings, term, opts->output, global.quiet);
+      }
 
       const BookFormat fmt = book_format_of(opts->book);
+      std::string store_path;
+      if (opts->record) {
+        if (!opts->as_of.empty() && !is_calendar_date(opts->as_of)) {
+          throw InputError("--as-of: expected a date YYYY-MM-DD, got '" + opts->as_of + "'");
+        }
+        store_path = resolve_store_path(opts->db, config.monitor);
+      }
       ScoreSummary summary;
       {
         OutputFile out(opts->output);
@@ -116,6 +188,15 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
             std::cerr << buf;
           }
           std::cerr << "\n";
+        }
+      }
+      if (opts->record) {
+        const RecordResult rec =
+            record_book(opts->book, settings, config,
+                        {.store_path = store_path, .as_of = opts->as_of, .tool_version = FIRMCALL_VERSION});
+        if (!global.quiet) {
+          std::cerr << "firmcall: recorded run " << rec.run_id << " as of " << rec.as_of << " ("
+                    << rec.obligors << " obligors) in " << store_path << "\n";
         }
       }
       return summary.failed() > 0 ? kExitRowsFailed : kExitOk;

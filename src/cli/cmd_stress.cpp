@@ -11,6 +11,7 @@
 #include "firmcall/output_file.hpp"
 #include "firmcall/scenario.hpp"
 #include "firmcall/stress.hpp"
+#include "firmcall/term_stress.hpp"
 
 namespace firmcall::cli {
 
@@ -31,6 +32,7 @@ struct StressCli {
   std::optional<double> weight;
   std::string measure;
   unsigned threads = 0;
+  TermChoices term;
 };
 
 constexpr std::size_t kMaxGridValues = 50;
@@ -106,6 +108,7 @@ void add_stress_command(CLI::App& app, const GlobalOptions& global, CommandRun& 
       ->check(CLI::IsMember({"physical", "risk-neutral"}));
   cmd->add_option("-j,--threads", opts->threads, "Worker threads (default: all cores)")
       ->check(CLI::Range(1, 1024));
+  add_term_options(cmd, opts->term);
   cmd->footer(
       std::string("\nGive --scenarios FILE, or a quick grid (--equity-shocks and/or "
                   "--equity-vol-multipliers), or --reverse-pd LEVEL.\n"
@@ -139,6 +142,15 @@ void add_stress_command(CLI::App& app, const GlobalOptions& global, CommandRun& 
       check_grid(opts->vol_multipliers, "--equity-vol-multipliers", true);
 
       Config config = global.config();
+      TermRunOptions term = term_run_options(config.term, opts->term);  // checks the term options
+      const bool term_run = wants_term_structure(opts->term);
+      if (term_run && opts->reverse_pd) {
+        throw InputError("--reverse-pd: cannot be combined with term structures (--horizons, --model)");
+      }
+      if (term_run && (opts->sensitivities || !opts->summary_output.empty())) {
+        throw InputError(
+            "--horizons, --model: --sensitivities and --summary-output apply to single-horizon stress runs");
+      }
       ScoreSettings settings = config.score;
       settings.rate_override = opts->rate;
       settings.horizon_override = opts->horizon;
@@ -182,7 +194,18 @@ void add_stress_command(CLI::App& app, const GlobalOptions& global, CommandRun& 
         std::unique_ptr<OutputFile> summary_file;
         if (!opts->summary_output.empty()) summary_file = std::make_unique<OutputFile>(opts->summary_output);
         const TextSink sink = [&out](std::string_view s) { out.write(s); };
-        if (opts->reverse_pd) {
+        if (term_run) {
+          term.format = runopts.format;
+          term.threads = runopts.threads;
+          const TermStressSummary sum = run_stress_term(book, scenarios, origin, settings, term, sink);
+          failed = sum.failed();
+          notes = sum.notes;
+          problems = sum.problems;
+          not_listed = sum.problems_not_listed;
+          closing = "stressed the term structures of " + std::to_string(sum.obligors) + " obligors under " +
+                    std::to_string(sum.scenarios) + " scenarios: " + std::to_string(sum.rows) + " rows, " +
+                    std::to_string(sum.failed_rows) + " failed";
+        } else if (opts->reverse_pd) {
           const ReverseStressSummary sum =
               run_reverse_stress(book, *opts->reverse_pd, settings, runopts, sink);
           failed = sum.failed();

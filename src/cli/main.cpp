@@ -37,6 +37,11 @@ int main(int argc, char** argv) {
   cli::add_score_command(app, global, run);
   cli::add_history_command(app, global, run);
   cli::add_stress_command(app, global, run);
+  cli::add_runs_command(app, global, run);
+  cli::add_movers_command(app, global, run);
+  cli::add_watchlist_command(app, global, run);
+  cli::add_attribute_command(app, global, run);
+  cli::add_track_command(app, global, run);
   cli::add_portfolio_command(app, global, run);
 
   try {

@@ -8,7 +8,7 @@ cd "$(dirname "$0")/../.."
 seconds=${1:-600}
 shift || true
 targets=("$@")
-[ ${#targets[@]} -gt 0 ] || targets=(fuzz_csv_book fuzz_yaml_book fuzz_numbers)
+[ ${#targets[@]} -gt 0 ] || targets=(fuzz_csv_book fuzz_yaml_book fuzz_numbers fuzz_scenarios)
 CXX=clang++ cmake -S . -B build-fuzz -DFIRMCALL_FUZZ=ON -DFIRMCALL_WERROR=OFF -DCMAKE_BUILD_TYPE=RelWithDebInfo >/dev/null
 cmake --build build-fuzz -j"$(nproc)" --target "${targets[@]}" >/dev/null
 mkdir -p build-fuzz/findings
@@ -19,6 +19,7 @@ for t in "${targets[@]}"; do
     fuzz_csv_book) cp samples/*.csv tests/bad_inputs/*.csv "$corpus"/ ;;
     fuzz_yaml_book) cp samples/*.yaml tests/bad_inputs/*.yaml "$corpus"/ ;;
     fuzz_numbers) printf '0.35' > "$corpus/a"; printf '1.5e3' > "$corpus/b"; printf -- '-0.01' > "$corpus/c" ;;
+    fuzz_scenarios) cp samples/stress_scenarios.yaml bench/stress_10_scenarios.yaml "$corpus"/ ;;
   esac
   echo "== $t for ${seconds}s"
   build-fuzz/tests/fuzz/$t "$corpus" -max_total_time="$seconds" -max_len=65536 -timeout=10 \

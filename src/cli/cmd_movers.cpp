@@ -1,0 +1,48 @@
+// `firmcall movers`: what changed between two recorded runs.
+#include <memory>
+
+#include "commands.hpp"
+#include "firmcall/errors.hpp"
+#include "firmcall/monitor_report.hpp"
+#include "firmcall/movers.hpp"
+#include "firmcall/output_file.hpp"
+#include "firmcall/recording.hpp"
+
+namespace firmcall::cli {
+
+namespace {
+struct MoversCli {
+  StoreReadOptions store;
+  std::size_t top = 0;
+};
+}  // namespace
+
+void add_movers_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+  auto opts = std::make_shared<MoversCli>();
+  CLI::App* cmd = app.add_subcommand(
+      "movers",
+      "Compare a recorded run with an earlier one: DD, PD and grade changes, new and dropped obligors");
+  add_store_read_options(cmd, opts->store, true);
+  cmd->add_option("--top", opts->top, "Show at most N obligors, most severe first (default: all)");
+  cmd->footer(std::string("\n") + kCaution);
+  cmd->callback([opts, &global, &run]() {
+    run = [opts, &global]() -> int {
+      const Config config = global.config();
+      const RunStore store(resolve_store_path(opts->store.db, config.monitor), StoreOpen::existing,
+                           config.monitor.busy_timeout_seconds);
+      const RunPair pair = select_runs(store, opts->store.run, opts->store.against);
+      const auto before = store.obligors(pair.before.run_id, false);
+      const auto now = store.obligors(pair.now.run_id, false);
+      const Comparison c = compare_runs(before, now, config.grades, config.monitor.alerts);
+      std::string text;
+      write_movers_report(pair, c, config.grades, config.monitor.alerts,
+                          {.watchlist = false, .top = opts->top}, output_format(opts->store.format), text);
+      OutputFile out(opts->store.output);
+      out.write(text);
+      out.commit();
+      return kExitOk;
+    };
+  });
+}
+
+}  // namespace firmcall::cli
