@@ -18,7 +18,9 @@ constexpr std::array<std::string_view, kNumFieldCount> kNumNames = {"market_cap"
                                                                     "horizon",
                                                                     "drift",
                                                                     "ead",
-                                                                    "lgd"};
+                                                                    "lgd",
+                                                                    "asset_correlation",
+                                                                    "maturity"};
 constexpr std::array<std::string_view, kTextFieldCount> kTextNames = {"id", "name", "sector", "country",
                                                                       "currency"};
 
@@ -94,6 +96,8 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
   out.error.clear();
   out.has_ead = false;
   out.has_lgd = false;
+  out.has_asset_correlation = false;
+  out.has_maturity = false;
   out.drift_follows_rate = false;
   out.ead = 0.0;
   if (!rec.read_error.empty()) {
@@ -272,6 +276,23 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
   if (out.lgd < 0.0 || out.lgd > 1.0) {
     out.error = value_error(NumField::lgd, "must be a decimal in [0, 1] (0.45 means 45%)", out.lgd);
     return;
+  }
+  if (rec.has(NumField::asset_correlation)) {
+    out.asset_correlation = rec.get(NumField::asset_correlation);
+    if (!(out.asset_correlation >= 0.0 && out.asset_correlation < 1.0)) {
+      out.error = value_error(NumField::asset_correlation, "must be a decimal in [0, 1) (0.2 means 20%)",
+                              out.asset_correlation);
+      return;
+    }
+    out.has_asset_correlation = true;
+  }
+  if (rec.has(NumField::maturity)) {
+    out.maturity_years = rec.get(NumField::maturity);
+    if (!(out.maturity_years > 0.0) || out.maturity_years > 100.0) {
+      out.error = value_error(NumField::maturity, "must be positive years, at most 100", out.maturity_years);
+      return;
+    }
+    out.has_maturity = true;
   }
   // Magnitudes: amounts far outside any balance sheet, or a default point and an equity value
   // that differ by more than ten orders of magnitude, are unit mistakes, not obligors.

@@ -96,13 +96,31 @@ MonitorSettings parse_monitoring(const YAML::Node& s, const std::string& origin)
   return m;
 }
 
+std::vector<double> confidence_levels(const YAML::Node& n, const std::string& origin) {
+  const auto fail = [&](const std::string& why) {
+    throw InputError(located(origin, yaml_line(n), "key 'confidence_levels': " + why));
+  };
+  if (!n.IsSequence() || n.size() == 0) fail("expected a list such as [0.99, 0.995, 0.999]");
+  if (n.size() > kMaxConfidenceLevels) fail("at most " + std::to_string(kMaxConfidenceLevels) + " levels");
+  std::vector<double> levels;
+  for (const auto& item : n) {
+    const double v = yaml_number(item, origin, "confidence_levels");
+    if (!(v > 0.0 && v < 1.0)) fail("each level must lie in (0, 1) (0.999 means 99.9%)");
+    if (!levels.empty() && !(v > levels.back())) fail("levels must be listed in increasing order");
+    levels.push_back(v);
+  }
+  return levels;
+}
+
 }  // namespace
 
 Config parse_config(const std::string& text, const std::string& origin) {
   Config c;
   const YAML::Node root = detail::yaml_load(text, origin);
   if (root.IsNull()) return c;
-  yaml_check_keys(root, {"scoring", "solver", "stress", "history", "grades", "monitoring", "term_structure"},
+  yaml_check_keys(root,
+                  {"scoring", "solver", "stress", "history", "grades", "monitoring", "term_structure",
+                   "portfolio", "irb"},
                   origin, "configuration");
   if (const auto s = root["scoring"]) {
     yaml_check_keys(s, {"default_point_weight", "horizon", "measure", "default_lgd", "max_equity_vol"},
@@ -186,6 +204,49 @@ Config parse_config(const std::string& text, const std::string& origin) {
       }
       c.term.barrier_growth = g;
     }
+  }
+  if (const auto s = root["portfolio"]) {
+    yaml_check_keys(
+        s, {"confidence_levels", "asset_correlation", "loss_grid_points", "quadrature_tolerance", "seed"},
+        origin, "portfolio");
+    if (const auto levels = s["confidence_levels"]) {
+      c.portfolio.confidence_levels = confidence_levels(levels, origin);
+    }
+    if (const auto rho = s["asset_correlation"]) {
+      if (rho.IsScalar() && rho.Scalar() == "basel") {
+        c.portfolio.asset_correlation.reset();
+      } else {
+        const double v = yaml_number(rho, origin, "asset_correlation");
+        if (!(v >= 0.0 && v < 1.0)) {
+          throw InputError(located(origin, yaml_line(rho),
+                                   "key 'asset_correlation': expected basel or a decimal in [0, 1)"));
+        }
+        c.portfolio.asset_correlation = v;
+      }
+    }
+    if (s["loss_grid_points"]) {
+      c.portfolio.loss_grid_points = positive_int(s["loss_grid_points"], origin, "loss_grid_points");
+      if (c.portfolio.loss_grid_points < 16 || c.portfolio.loss_grid_points > (1 << 20)) {
+        throw InputError(located(origin, yaml_line(s["loss_grid_points"]),
+                                 "key 'loss_grid_points': must lie in [16, 1048576]"));
+      }
+    }
+    if (s["quadrature_tolerance"]) {
+      c.portfolio.quadrature_tolerance =
+          in_unit_interval(s["quadrature_tolerance"], origin, "quadrature_tolerance", true);
+    }
+    if (s["seed"]) {
+      const double v = yaml_number(s["seed"], origin, "seed");
+      if (!(v >= 0.0 && v <= 9007199254740992.0) || v != std::floor(v)) {
+        throw InputError(located(origin, yaml_line(s["seed"]), "key 'seed': must be a whole number >= 0"));
+      }
+      c.portfolio.seed = static_cast<std::uint64_t>(v);
+    }
+  }
+  if (const auto s = root["irb"]) {
+    yaml_check_keys(s, {"pd_floor", "maturity"}, origin, "irb");
+    if (s["pd_floor"]) c.irb.pd_floor = in_unit_interval(s["pd_floor"], origin, "pd_floor", false);
+    if (s["maturity"]) c.irb.maturity_years = positive(s["maturity"], origin, "maturity");
   }
   return c;
 }

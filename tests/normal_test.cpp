@@ -49,3 +49,32 @@ TEST_CASE("normal functions agree with Boost.Math over a wide range") {
     CHECK(norm_pdf(x) == doctest::Approx(boost::math::pdf(z, x)).epsilon(tol).scale(0));
   }
 }
+
+TEST_CASE("normal quantile inverts the distribution function and matches published critical values") {
+  using firmcall::norm_quantile;
+  using firmcall::norm_quantile_upper;
+  // Ref: standard normal critical values (common tables, from memory): N^-1(0.975) = 1.959963984540054,
+  // N^-1(0.999) = 3.090232306167813, N^-1(0.5) = 0.
+  CHECK(norm_quantile(0.975) == doctest::Approx(1.959963984540054).epsilon(1e-14));
+  CHECK(norm_quantile(0.999) == doctest::Approx(3.090232306167813).epsilon(1e-14));
+  CHECK(norm_quantile(0.5) == doctest::Approx(0.0).epsilon(1e-15));
+  CHECK(norm_quantile_upper(0.001) == doctest::Approx(3.090232306167813).epsilon(1e-14));
+  // Independent implementation: Boost.Math quantile of the normal distribution, lower and upper tail.
+  const boost::math::normal_distribution<double> z;
+  for (double lp = -300.0; lp < 0.0; lp += 7.3) {
+    const double p = std::pow(10.0, lp);
+    CAPTURE(p);
+    CHECK(norm_quantile(p) == doctest::Approx(boost::math::quantile(z, p)).epsilon(1e-14));
+    CHECK(norm_quantile_upper(p) ==
+          doctest::Approx(boost::math::quantile(boost::math::complement(z, p))).epsilon(1e-14));
+    // Round trip through the complements (the tail's relative condition number grows like x^2).
+    CHECK(firmcall::norm_sf(norm_quantile_upper(p)) == doctest::Approx(p).epsilon(1e-12).scale(0));
+  }
+  CHECK(std::isinf(norm_quantile(0.0)));
+  CHECK(norm_quantile(0.0) < 0.0);
+  CHECK(std::isinf(norm_quantile(1.0)));
+  CHECK(std::isnan(norm_quantile(1.5)));
+  CHECK(std::isnan(norm_quantile(-0.1)));
+  CHECK(std::isnan(norm_quantile(std::nan(""))));
+  CHECK(std::isnan(norm_quantile_upper(2.0)));
+}

@@ -204,6 +204,26 @@ TEST_CASE("resolving: every bad value names its field") {
   CHECK(resolve(hz.obligors[1]).error == "field 'horizon': must be positive years, at most 100, got -1");
   CHECK(resolve(hz.obligors[2]).error == "field 'lgd': must be a decimal in [0, 1] (0.45 means 45%), got 45");
   CHECK(resolve(hz.obligors[3]).error == "field 'ead': must not be negative, got -3");
+  // The portfolio fields: asset correlation in [0, 1), IRB maturity in (0, 100] years.
+  const Book pf = parse_csv_book(
+      "id,market_cap,equity_vol,default_point,rate,asset_correlation,maturity\n"
+      "A,1,0.3,1,0,1,\nB,1,0.3,1,0,-0.1,\nC,1,0.3,1,0,0.2,0\nD,1,0.3,1,0,0,2.5\nE,1,0.3,1,0,,\n",
+      "pf.csv");
+  CHECK(resolve(pf.obligors[0]).error ==
+        "field 'asset_correlation': must be a decimal in [0, 1) (0.2 means 20%), got 1");
+  CHECK(resolve(pf.obligors[1]).error ==
+        "field 'asset_correlation': must be a decimal in [0, 1) (0.2 means 20%), got -0.1");
+  CHECK(resolve(pf.obligors[2]).error == "field 'maturity': must be positive years, at most 100, got 0");
+  const ResolvedObligor d = resolve(pf.obligors[3]);
+  CHECK(d.ok());
+  CHECK(d.has_asset_correlation);
+  CHECK(d.asset_correlation == 0.0);
+  CHECK(d.has_maturity);
+  CHECK(d.maturity_years == 2.5);
+  const ResolvedObligor e = resolve(pf.obligors[4]);
+  CHECK(e.ok());
+  CHECK_FALSE(e.has_asset_correlation);
+  CHECK_FALSE(e.has_maturity);
 }
 
 TEST_CASE("resolving: precedence override > obligor > book > configuration") {

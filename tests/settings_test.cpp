@@ -27,6 +27,16 @@ TEST_CASE("the shipped config/firmcall.yaml equals the built-in defaults") {
   CHECK(shipped.history.iteration_tolerance == builtin.history.iteration_tolerance);
   CHECK(shipped.history.max_iterations == builtin.history.max_iterations);
   CHECK(shipped.history.confidence_level == builtin.history.confidence_level);
+  CHECK(shipped.portfolio.confidence_levels == builtin.portfolio.confidence_levels);
+  CHECK(shipped.portfolio.asset_correlation == builtin.portfolio.asset_correlation);
+  CHECK_FALSE(builtin.portfolio.asset_correlation.has_value());  // Basel function of PD by default
+  CHECK(shipped.portfolio.loss_grid_points == builtin.portfolio.loss_grid_points);
+  CHECK(shipped.portfolio.quadrature_tolerance == builtin.portfolio.quadrature_tolerance);
+  CHECK(shipped.portfolio.seed == builtin.portfolio.seed);
+  CHECK(shipped.irb.pd_floor == builtin.irb.pd_floor);
+  CHECK(shipped.irb.pd_floor == 0.0003);  // Ref: BCBS 2006 para 285
+  CHECK(shipped.irb.maturity_years == builtin.irb.maturity_years);
+  CHECK(shipped.irb.maturity_years == 2.5);  // Ref: BCBS 2006 para 318 (foundation approach)
   REQUIRE(shipped.grades.bands.size() == builtin.grades.bands.size());
   for (std::size_t i = 0; i < builtin.grades.bands.size(); ++i) {
     CHECK(shipped.grades.bands[i].label == builtin.grades.bands[i].label);
@@ -65,6 +75,31 @@ TEST_CASE("grade scales and alert rules from a settings file") {
                        "c.yaml:2: key 'pd_ratio': must be above 1", InputError);
   CHECK_THROWS_WITH_AS(parse_config("monitoring:\n  alert: {}\n", "c.yaml"),
                        "c.yaml:2: monitoring: unknown key 'alert' (did you mean 'alerts'?)", InputError);
+}
+
+TEST_CASE("portfolio and irb settings are checked key by key") {
+  const Config c = parse_config(
+      "portfolio:\n  confidence_levels: [0.95, 0.9999]\n  asset_correlation: 0.2\n  seed: 42\n"
+      "irb:\n  maturity: 1\n",
+      "c.yaml");
+  CHECK(c.portfolio.confidence_levels == std::vector<double>{0.95, 0.9999});
+  CHECK(c.portfolio.asset_correlation == 0.2);
+  CHECK(c.portfolio.seed == 42);
+  CHECK(c.irb.maturity_years == 1.0);
+  CHECK_FALSE(parse_config("portfolio:\n  asset_correlation: basel\n", "c.yaml").portfolio.asset_correlation);
+  CHECK_THROWS_WITH_AS(parse_config("portfolio:\n  confidence_levels: [0.999, 0.99]\n", "c.yaml"),
+                       "c.yaml:2: key 'confidence_levels': levels must be listed in increasing order",
+                       InputError);
+  CHECK_THROWS_WITH_AS(parse_config("portfolio:\n  confidence_levels: [99.9]\n", "c.yaml"),
+                       "c.yaml:2: key 'confidence_levels': each level must lie in (0, 1) (0.999 means 99.9%)",
+                       InputError);
+  CHECK_THROWS_WITH_AS(parse_config("portfolio:\n  asset_correlation: 1.2\n", "c.yaml"),
+                       "c.yaml:2: key 'asset_correlation': expected basel or a decimal in [0, 1)",
+                       InputError);
+  CHECK_THROWS_WITH_AS(parse_config("portfolio:\n  loss_grid_points: 8\n", "c.yaml"),
+                       "c.yaml:2: key 'loss_grid_points': must lie in [16, 1048576]", InputError);
+  CHECK_THROWS_WITH_AS(parse_config("irb:\n  pd_flor: 0.001\n", "c.yaml"),
+                       "c.yaml:2: irb: unknown key 'pd_flor' (did you mean 'pd_floor'?)", InputError);
 }
 
 TEST_CASE("configuration errors name the file, line and key") {

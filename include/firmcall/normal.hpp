@@ -28,4 +28,12 @@ inline double norm_sf(double x) noexcept {
   return 0.5 * std::erfc(x * kInvSqrt2);
 }
 
+/// Inverse of N: the x with N(x) = p (Boost.Math erfc_inv). p = 0 gives -inf, p = 1 gives +inf,
+/// anything outside [0, 1] or NaN gives NaN. Accurate in relative terms for tiny p.
+double norm_quantile(double p) noexcept;
+
+/// Inverse of the upper tail: the x with N(-x) = q, accurate for tiny q (a tail probability given
+/// as itself, never as 1 - q). q = 0 gives +inf, q = 1 gives -inf, anything else outside gives NaN.
+double norm_quantile_upper(double q) noexcept;
+
 }  // namespace firmcall

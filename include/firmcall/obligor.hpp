@@ -29,6 +29,8 @@ enum class NumField : std::uint8_t {
   drift,               ///< expected asset return mu, continuously compounded decimal
   ead,                 ///< exposure at default, currency units
   lgd,                 ///< loss given default, decimal in [0, 1]
+  asset_correlation,   ///< portfolio model: asset correlation rho (weight of the systematic factor), [0, 1)
+  maturity,            ///< Basel IRB effective maturity M, years (the formula holds it to [1, 5])
   count
 };
 inline constexpr std::size_t kNumFieldCount = static_cast<std::size_t>(NumField::count);
@@ -80,11 +82,15 @@ struct BookDefaults {
 /// An obligor ready for the model, or the reason it is not.
 struct ResolvedObligor {
   MertonInputs inputs;
-  double ead = 0.0;  ///< 0 when not given
-  double lgd = 0.0;  ///< the obligor's, else the book's, else the configured default
+  double ead = 0.0;                ///< 0 when not given
+  double lgd = 0.0;                ///< the obligor's, else the book's, else the configured default
+  double asset_correlation = 0.0;  ///< the obligor's own rho; meaningful when has_asset_correlation
+  double maturity_years = 0.0;     ///< the obligor's own IRB maturity; meaningful when has_maturity
   bool has_ead = false;
   bool has_lgd = false;  ///< true when lgd came from the obligor or the book
-  std::string error;     ///< empty when usable; else "field 'x': reason, got 'value'"
+  bool has_asset_correlation = false;
+  bool has_maturity = false;
+  std::string error;  ///< empty when usable; else "field 'x': reason, got 'value'"
   /// True when mu is the rate (risk-neutral measure, or no drift given): a rate change moves mu too.
   bool drift_follows_rate = false;
   bool ok() const noexcept { return error.empty(); }

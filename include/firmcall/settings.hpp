@@ -2,9 +2,11 @@
 // command line adds. The built-in values below equal the shipped file (a test checks it).
 #pragma once
 
+#include <cstdint>
 #include <optional>
 #include <string>
 #include <string_view>
+#include <vector>
 
 #include "firmcall/grades.hpp"
 #include "firmcall/merton_solver.hpp"
@@ -73,6 +75,26 @@ struct TermSettings {
   double barrier_growth = 0.0;                  ///< barrier growth g, cc decimal per year: H(t) = H0 e^(g t)
 };
 
+/// Most confidence levels a portfolio run reports.
+inline constexpr std::size_t kMaxConfidenceLevels = 8;
+
+/// Settings of the portfolio command (portfolio.hpp).
+struct PortfolioSettings {
+  std::vector<double> confidence_levels = {0.99, 0.995, 0.999};  ///< VaR and ES levels, ascending, in (0, 1)
+  /// Asset correlation when neither the obligor nor the correlation file gives one; empty: the
+  /// Basel corporate correlation function of PD (irb.hpp), 0.12 to 0.24.
+  std::optional<double> asset_correlation;
+  int loss_grid_points = 2048;         ///< points of the exact one-factor loss grid
+  double quadrature_tolerance = 1e-3;  ///< relative error allowed on exceedance probabilities
+  std::uint64_t seed = 1;              ///< Monte Carlo seed (results depend only on it and the inputs)
+};
+
+/// Settings of the Basel IRB capital formula (irb.hpp).
+struct IrbSettings {
+  double pd_floor = 0.0003;     ///< BCBS 2006 para 285
+  double maturity_years = 2.5;  ///< effective maturity M when the obligor gives none (para 318)
+};
+
 /// Everything in a configuration file.
 struct Config {
   ScoreSettings score;
@@ -81,6 +103,8 @@ struct Config {
   GradeScale grades = default_grade_scale();  ///< master scale, best grade first
   MonitorSettings monitor;
   TermSettings term;
+  PortfolioSettings portfolio;
+  IrbSettings irb;
 };
 
 /// Reads a configuration file; unknown keys and bad values are errors (InputError naming the

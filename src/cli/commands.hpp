@@ -97,5 +97,6 @@ inline void add_store_read_options(CLI::App* cmd, StoreReadOptions& o, bool runs
                   "The run to compare with: a run id or an as-of date (default: the run before --run)")
       ->check(selector);
 }
+void add_portfolio_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
 
 }  // namespace firmcall::cli
