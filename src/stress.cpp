@@ -38,7 +38,7 @@ std::string shortest(double v) {
 }
 
 // The first problem of stressed inputs, as "stressed field 'x': reason, got v"; empty if none.
-std::string check_stressed(const MertonInputs& in) {
+std::string check_stressed_impl(const MertonInputs& in) {
   const auto bad = [](std::string_view field, std::string_view reason, double v) {
     return "stressed field '" + std::string(field) + "': " + std::string(reason) + ", got " + shortest(v);
   };
@@ -112,6 +112,10 @@ std::vector<ScoredObligor> score_base(const Book& book, const ScoreSettings& set
 
 }  // namespace
 
+std::string stressed_input_problem(const MertonInputs& in) {
+  return check_stressed_impl(in);
+}
+
 void stress_obligor(const ScoredObligor& base, const ShockEffect& effect, const ScoreSettings& settings,
                     bool sensitivities, StressedObligor& out) {
   out.effect = effect;
@@ -133,7 +137,7 @@ void stress_obligor(const ScoredObligor& base, const ShockEffect& effect, const 
     out.measures = base.measures;
   } else {
     out.inputs = apply_shock(base.resolved.inputs, effect, base.resolved.drift_follows_rate);
-    out.message = check_stressed(out.inputs);
+    out.message = stressed_input_problem(out.inputs);
     if (!out.message.empty()) {
       out.status = StressStatus::invalid_stress;
       return;

@@ -15,37 +15,6 @@ namespace firmcall {
 
 namespace {
 
-std::string shortest(double v) {
-  char buf[32];
-  const auto r = std::to_chars(buf, buf + sizeof buf, v);
-  return std::string(buf, r.ptr);
-}
-
-// The first problem of stressed inputs, as "stressed field 'x': reason, got v"; empty if none.
-std::string stressed_problem(const MertonInputs& in) {
-  const auto bad = [](std::string_view field, std::string_view reason, double v) {
-    return "stressed field '" + std::string(field) + "': " + std::string(reason) + ", got " + shortest(v);
-  };
-  if (!(in.equity_value > 0.0) || !std::isfinite(in.equity_value)) {
-    return bad("market_cap", "must be positive and finite", in.equity_value);
-  }
-  if (!(in.equity_vol_annual > 0.0) || !std::isfinite(in.equity_vol_annual)) {
-    return bad("equity_vol", "must be positive (check equity_vol_add_points)", in.equity_vol_annual);
-  }
-  if (!(in.default_point > 0.0) || !std::isfinite(in.default_point)) {
-    return bad("default_point", "must be positive and finite", in.default_point);
-  }
-  if (!(in.risk_free_rate_cc >= -1.0 && in.risk_free_rate_cc <= 1.0)) {
-    return bad("rate", "must lie in [-1, 1] (check rate_shift_bp)", in.risk_free_rate_cc);
-  }
-  if (!(in.drift_annual >= -1.0 && in.drift_annual <= 1.0)) {
-    return bad("drift", "must lie in [-1, 1] (check rate_shift_bp)", in.drift_annual);
-  }
-  const MertonInputCheck check = validate(in);
-  if (!check.ok()) return "stressed field '" + std::string(to_string(check.field)) + "': " + check.message;
-  return {};
-}
-
 std::string without_line(const std::string& m) {
   const auto colon = m.find(": ");
   return (m.rfind("line ", 0) == 0 && colon != std::string::npos) ? m.substr(colon + 2) : m;
@@ -410,7 +379,7 @@ void stress_term_obligor(const ObligorRecord& rec, const TermScoredObligor& base
     return;
   }
   out.inputs = apply_shock(base.resolved.inputs, effect, base.resolved.drift_follows_rate);
-  const std::string problem = stressed_problem(out.inputs);
+  const std::string problem = stressed_input_problem(out.inputs);
   const std::string line = "line " + std::to_string(rec.line) + ": ";
   if (!problem.empty()) {
     out.status = StressStatus::invalid_stress;

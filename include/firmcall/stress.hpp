@@ -39,6 +39,9 @@ namespace firmcall {
 enum class StressStatus : std::uint8_t { ok, invalid_input, not_converged, invalid_stress };
 std::string_view to_string(StressStatus s) noexcept;
 
+/// The first problem of shocked model inputs, as "stressed field 'x': reason, got v"; empty if none.
+std::string stressed_input_problem(const MertonInputs& in);
+
 /// One obligor under one scenario.
 struct StressedObligor {
   StressStatus status = StressStatus::invalid_input;
