@@ -83,8 +83,14 @@ TEST_CASE("a 256 MiB line is skipped in bounded memory and the rows around it ar
         std::string::npos);
   CHECK(r.out.find("\nA,,ok,") != std::string::npos);
   CHECK(r.out.find("\nC,,ok,") != std::string::npos);
-  // The largest child so far (this run included) stayed far below the file size.
-  CHECK(max_child_rss_kb() < 100 * 1024);
+  // The largest child so far (this run included) stayed far below the file size (256 MiB).
+  // AddressSanitizer's shadow memory and quarantine add to the resident size of its builds.
+#if defined(__SANITIZE_ADDRESS__)
+  constexpr long kLimitKb = 200 * 1024;
+#else
+  constexpr long kLimitKb = 100 * 1024;
+#endif
+  CHECK(max_child_rss_kb() < kLimitKb);
 }
 
 TEST_CASE("a YAML book above 8 MiB is refused with advice to use CSV") {
