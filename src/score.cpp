@@ -1,10 +1,16 @@
 #include "firmcall/score.hpp"
 
+#include <sys/stat.h>
+
 #include <algorithm>
 #include <cmath>
+#include <condition_variable>
 #include <cstring>
+#include <deque>
 #include <exception>
 #include <functional>
+#include <memory>
+#include <mutex>
 #include <thread>
 
 #include "firmcall/csv.hpp"
@@ -94,7 +100,9 @@ class IdRegistry {
 
   /// Makes room for `more` ids without growing in between (so prefetching stays valid).
   void reserve(std::size_t more) {
-    while ((count_ + more) * 10 > slots_.size() * 7) grow();
+    std::size_t size = slots_.empty() ? 1024 : slots_.size();
+    while ((count_ + more) * 10 > size * 7) size *= 2;
+    if (size != slots_.size()) rehash(size);
   }
   /// Hints the cache that the slot of hash h will be probed soon.
   void prefetch(std::uint64_t h) const noexcept {
@@ -119,9 +127,10 @@ class IdRegistry {
     std::uint64_t hash = 0;
     std::size_t line = 0;  // 0: empty
   };
-  void grow() {
+  void grow() { rehash(slots_.empty() ? 1024 : slots_.size() * 2); }
+  void rehash(std::size_t size) {
     std::vector<Slot> old = std::move(slots_);
-    slots_.assign(old.empty() ? 1024 : old.size() * 2, Slot{});
+    slots_.assign(size, Slot{});
     for (const Slot& s : old) {
       if (s.line == 0) continue;
       std::size_t i = static_cast<std::size_t>(s.hash) & (slots_.size() - 1);
@@ -133,163 +142,401 @@ class IdRegistry {
   std::size_t count_ = 0;
 };
 
-// Per-worker state reused across batches.
-struct Worker {
-  std::string out;
+// Scratch space of one scoring thread, reused from piece to piece.
+struct Scratch {
   ScoredObligor scored;
-  std::vector<std::pair<std::size_t, std::string>> problems;  // (row index, text)
-  std::size_t problem_count = 0;
-  std::size_t scored_n = 0, invalid_n = 0, not_converged_n = 0, iterations = 0;
   std::vector<std::string_view> fields;
-  std::string scratch;
-  std::vector<ResolvedObligor> resolved;  // one per row of the slice
+  std::string unescaped;
+  std::vector<ResolvedObligor> resolved;  // one per row of the piece
   std::vector<MertonInputs> inputs;       // the resolved ones, solved together
   std::vector<AssetSolution> solutions;
 };
 
-// Scores records [0, n) of `recs` in parallel and writes them in order to the sink.
-class BatchScorer {
+// What a run needs to score and format rows, shared read-only by every thread.
+struct RunContext {
+  const std::string& origin;
+  const BookDefaults& book;
+  const ScoreSettings& settings;
+  const ScoreRunOptions& run;
+  const ScoreWriter& writer;
+  const TextSink& sink;
+};
+
+std::string problem_text(const RunContext& ctx, const ObligorRecord& rec, const ScoredObligor& s) {
+  const std::string& m = s.message;
+  const auto colon = m.find(": ");
+  const std::string why = (m.rfind("line ", 0) == 0 && colon != std::string::npos) ? m.substr(colon + 2) : m;
+  const std::string& id = rec.get(TextField::id);
+  return ctx.origin + ":" + std::to_string(rec.line) + ": obligor '" + (id.empty() ? std::string("?") : id) +
+         "': " + why;
+}
+
+// Formatted rows of one piece of the input, with what the summary needs.
+struct ScoredRows {
+  struct Row {
+    std::size_t begin = 0, end = 0;  // the row's text (after the separator before it)
+    RowStatus status = RowStatus::invalid_input;
+    int iterations = 0;
+  };
+  std::string text;  // the rows, with the format's separator between them (not before the first)
+  std::vector<Row> rows;
+  std::size_t scored = 0, invalid = 0, not_converged = 0, iterations = 0;
+  std::vector<std::pair<std::size_t, std::string>> problems;  // (row in the piece, text), the first few
+  std::size_t problem_count = 0;
+
+  void clear() {
+    text.clear();
+    rows.clear();
+    scored = invalid = not_converged = iterations = 0;
+    problems.clear();
+    problem_count = 0;
+  }
+  // Adds (sign +1) or removes (sign -1) a row from the counts.
+  void tally(RowStatus status, int row_iterations, int sign) {
+    const auto step = [sign](std::size_t& n) { n = sign > 0 ? n + 1 : n - 1; };
+    switch (status) {
+      case RowStatus::ok:
+        step(scored);
+        iterations = sign > 0 ? iterations + static_cast<std::size_t>(row_iterations)
+                              : iterations - static_cast<std::size_t>(row_iterations);
+        break;
+      case RowStatus::invalid_input:
+        step(invalid);
+        break;
+      case RowStatus::not_converged:
+        step(not_converged);
+        break;
+    }
+    if (status != RowStatus::ok) step(problem_count);
+  }
+  void note_problem(std::size_t row, std::string what, std::size_t most) {
+    if (problems.size() < most) problems.emplace_back(row, std::move(what));
+  }
+};
+
+// Resolves, solves (valid obligors together), measures and formats recs[0, n) into `out`.
+void score_rows(const RunContext& ctx, const ObligorRecord* recs, std::size_t n, Scratch& sc,
+                ScoredRows& out) {
+  out.clear();
+  if (sc.resolved.size() < n) sc.resolved.resize(n);
+  sc.inputs.clear();
+  for (std::size_t i = 0; i < n; ++i) {
+    resolve_obligor(recs[i], ctx.book, ctx.settings, sc.resolved[i]);
+    if (sc.resolved[i].ok()) sc.inputs.push_back(sc.resolved[i].inputs);
+  }
+  sc.solutions.resize(sc.inputs.size());
+  solve_asset_batch(sc.inputs.data(), sc.solutions.data(), sc.inputs.size(), ctx.settings.solver);
+  std::size_t solved_index = 0;
+  out.rows.resize(n);
+  for (std::size_t i = 0; i < n; ++i) {
+    std::swap(sc.scored.resolved, sc.resolved[i]);
+    sc.scored.solution = sc.scored.resolved.ok() ? sc.solutions[solved_index++] : AssetSolution{};
+    complete_score(recs[i], sc.scored);
+    if (i > 0) out.text.append(ctx.writer.separator());
+    ScoredRows::Row& row = out.rows[i];
+    row.begin = out.text.size();
+    ctx.writer.row(recs[i], sc.scored, out.text);
+    row.end = out.text.size();
+    row.status = sc.scored.status;
+    row.iterations = sc.scored.solution.iterations;
+    out.tally(row.status, row.iterations, +1);
+    if (row.status != RowStatus::ok)
+      out.note_problem(i, problem_text(ctx, recs[i], sc.scored), ctx.run.max_listed_problems);
+  }
+}
+
+// Writes pieces of scored rows in input order and keeps the run's summary.
+class OrderedOutput {
  public:
-  BatchScorer(const std::string& origin, const BookDefaults& book, const ScoreSettings& settings,
-              const ScoreRunOptions& run, const TextSink& sink)
-      : origin_(origin),
-        book_(book),
-        settings_(settings),
-        run_(run),
-        sink_(sink),
-        writer_(make_score_writer(run.format, origin, settings, run.sensitivities, run.grades)),
-        workers_(std::max(1U, run.threads)) {}
+  explicit OrderedOutput(const RunContext& ctx) : ctx_(ctx) {}
 
   void begin() {
     std::string s;
-    writer_->begin(s);
-    sink_(s);
+    ctx_.writer.begin(s);
+    ctx_.sink(s);
   }
 
-  void score(const std::vector<ObligorRecord>& recs, std::size_t n) {
-    const std::size_t base = summary_.total;
-    parallel_slices(n, run_.threads, [&](unsigned w, std::size_t b, std::size_t e) {
-      Worker& wk = workers_[w];
-      wk.out.clear();
-      // Resolve the slice, solve its valid obligors together, then measure and format in order.
-      if (wk.resolved.size() < e - b) wk.resolved.resize(e - b);
-      wk.inputs.clear();
-      for (std::size_t i = b; i < e; ++i) {
-        resolve_obligor(recs[i], book_, settings_, wk.resolved[i - b]);
-        if (wk.resolved[i - b].ok()) wk.inputs.push_back(wk.resolved[i - b].inputs);
-      }
-      wk.solutions.resize(wk.inputs.size());
-      solve_asset_batch(wk.inputs.data(), wk.solutions.data(), wk.inputs.size(), settings_.solver);
-      std::size_t solved_index = 0;
-      for (std::size_t i = b; i < e; ++i) {
-        std::swap(wk.scored.resolved, wk.resolved[i - b]);
-        wk.scored.solution = wk.scored.resolved.ok() ? wk.solutions[solved_index++] : AssetSolution{};
-        complete_score(recs[i], wk.scored);
-        if (base + i > 0) wk.out.append(writer_->separator());
-        writer_->row(recs[i], wk.scored, wk.out);
-        switch (wk.scored.status) {
-          case RowStatus::ok:
-            ++wk.scored_n;
-            wk.iterations += static_cast<std::size_t>(wk.scored.solution.iterations);
-            break;
-          case RowStatus::invalid_input:
-            ++wk.invalid_n;
-            break;
-          case RowStatus::not_converged:
-            ++wk.not_converged_n;
-            break;
-        }
-        if (wk.scored.status != RowStatus::ok) {
-          if (wk.problems.size() < run_.max_listed_problems) {
-            std::string id = recs[i].get(TextField::id);
-            wk.problems.emplace_back(base + i, origin_ + ":" + std::to_string(recs[i].line) + ": obligor '" +
-                                                   (id.empty() ? std::string("?") : id) +
-                                                   "': " + message_without_line(wk.scored.message));
-          }
-          ++wk.problem_count;
-        }
-      }
-    });
-    // Hand the formatted text to the writer thread, which writes it while the next batch is
-    // read and scored; its buffers come back to the workers for reuse.
-    wait_for_writer();
-    for (std::size_t w = 0; w < workers_.size(); ++w) std::swap(pending_[w], workers_[w].out);
-    writer_thread_ = std::thread([this]() {
-      try {
-        for (const std::string& text : pending_) sink_(text);
-      } catch (...) {
-        write_error_ = std::current_exception();
-      }
-    });
-    summary_.total += n;
+  void write(ScoredRows& piece) {
+    if (piece.rows.empty()) return;
+    if (rows_written_ > 0) ctx_.sink(ctx_.writer.separator());
+    ctx_.sink(piece.text);
+    rows_written_ += piece.rows.size();
+    summary_.total += piece.rows.size();
+    summary_.scored += piece.scored;
+    summary_.invalid += piece.invalid;
+    summary_.not_converged += piece.not_converged;
+    summary_.newton_iterations += piece.iterations;
+    problem_count_ += piece.problem_count;
+    std::sort(piece.problems.begin(), piece.problems.end());
+    for (auto& p : piece.problems) {
+      if (summary_.problems.size() >= ctx_.run.max_listed_problems) break;
+      summary_.problems.push_back(std::move(p.second));
+    }
   }
-
-  ~BatchScorer() {
-    if (writer_thread_.joinable()) writer_thread_.join();
-  }
-  BatchScorer(const BatchScorer&) = delete;
-  BatchScorer& operator=(const BatchScorer&) = delete;
 
   ScoreSummary finish(std::vector<std::string> notes) {
-    wait_for_writer();
-    std::vector<std::pair<std::size_t, std::string>> all;
-    std::size_t problem_count = 0;
-    for (Worker& wk : workers_) {
-      summary_.scored += wk.scored_n;
-      summary_.invalid += wk.invalid_n;
-      summary_.not_converged += wk.not_converged_n;
-      summary_.newton_iterations += wk.iterations;
-      problem_count += wk.problem_count;
-      for (auto& p : wk.problems) all.push_back(std::move(p));
-    }
-    std::sort(all.begin(), all.end());
-    for (std::size_t i = 0; i < all.size() && i < run_.max_listed_problems; ++i) {
-      summary_.problems.push_back(std::move(all[i].second));
-    }
-    summary_.problems_not_listed = problem_count - summary_.problems.size();
+    summary_.problems_not_listed = problem_count_ - summary_.problems.size();
     summary_.notes = std::move(notes);
     std::string s;
-    writer_->end(summary_, s);
-    sink_(s);
+    ctx_.writer.end(summary_, s);
+    ctx_.sink(s);
     return summary_;
   }
 
-  std::vector<Worker>& workers() { return workers_; }
-
  private:
-  void wait_for_writer() {
-    if (writer_thread_.joinable()) writer_thread_.join();
-    if (write_error_) {
-      std::exception_ptr e = write_error_;
-      write_error_ = nullptr;
-      std::rethrow_exception(e);
+  const RunContext& ctx_;
+  std::size_t rows_written_ = 0;
+  std::size_t problem_count_ = 0;
+  ScoreSummary summary_;
+};
+
+// One piece of a streamed CSV file: whole records, read by the main thread, parsed, scored and
+// formatted by one worker, then checked for duplicate ids and written in input order.
+struct Chunk {
+  std::string text;            // whole records
+  std::size_t first_line = 0;  // line of text[0]
+  bool quoted = false;         // the text holds a '"' (record ends must honour quotes)
+  std::string skipped;         // not empty: one over-long record at first_line, skipped with this reason
+  std::vector<ObligorRecord> recs;
+  std::size_t n = 0;  // records in use
+  std::vector<std::uint64_t> id_hashes;
+  ScoredRows rows;
+  std::exception_ptr error;
+  bool done = false;  // guarded by the pipeline's mutex
+};
+
+// Parses and scores one chunk (any thread).
+void process_chunk(const RunContext& ctx, const CsvColumns& cols, Chunk& c, Scratch& sc) {
+  c.n = 0;
+  const auto next_record = [&]() -> ObligorRecord& {
+    if (c.recs.size() <= c.n) c.recs.resize(c.n + 1 + c.n / 2);
+    ObligorRecord& rec = c.recs[c.n++];
+    rec.clear();
+    return rec;
+  };
+  if (!c.skipped.empty()) {
+    ObligorRecord& rec = next_record();
+    rec.line = c.first_line;
+    rec.read_error = c.skipped;
+  } else {
+    const std::string_view text(c.text);
+    std::size_t line = c.first_line;
+    std::size_t p = 0;
+    bool open_quote = false;
+    while (p < text.size()) {
+      // Record boundaries: line breaks, or (when the chunk has quotes) the CSV record end.
+      std::size_t e;
+      std::size_t breaks = 1;
+      if (!c.quoted) {
+        const void* nl = std::memchr(text.data() + p, '\n', text.size() - p);
+        e = nl ? static_cast<std::size_t>(static_cast<const char*>(nl) - text.data()) + 1 : text.size();
+      } else {
+        e = p + split_csv_record(text.substr(p), sc.fields, sc.unescaped, open_quote);
+        breaks = count_lines(text.substr(p, e - p));
+      }
+      const std::string_view rec_text = text.substr(p, e - p);
+      if (rec_text.find_first_not_of(" \t\r\n") != std::string_view::npos) {
+        ObligorRecord& rec = next_record();
+        rec.line = line;
+        split_csv_record(rec_text, sc.fields, sc.unescaped, open_quote);
+        parse_obligor_fields(sc.fields, cols, rec);
+        if (open_quote) rec.read_error = "a quoted field is never closed";
+      }
+      line += breaks;
+      p = e;
     }
   }
-  static std::string message_without_line(const std::string& m) {
-    const auto colon = m.find(": ");
-    return (m.rfind("line ", 0) == 0 && colon != std::string::npos) ? m.substr(colon + 2) : m;
+  c.id_hashes.resize(c.n);
+  for (std::size_t i = 0; i < c.n; ++i) c.id_hashes[i] = IdRegistry::hash(c.recs[i].get(TextField::id));
+  score_rows(ctx, c.recs.data(), c.n, sc, c.rows);
+}
+
+// The later of two rows with the same id is invalid. Checked in input order when a chunk is
+// written; such a row (rare) is scored again as invalid and its text replaced.
+class DuplicateCheck {
+ public:
+  explicit DuplicateCheck(const RunContext& ctx) : ctx_(ctx) {}
+
+  void reserve(std::size_t ids) { ids_.reserve(ids); }
+
+  void apply(Chunk& c, Scratch& sc) {
+    dups_.clear();
+    constexpr std::size_t kAhead = 16;  // the table's random probes are prefetched
+    for (std::size_t i = 0; i < c.n && i < kAhead; ++i) ids_.prefetch(c.id_hashes[i]);
+    ids_.reserve(c.n);
+    for (std::size_t i = 0; i < c.n; ++i) {
+      if (i + kAhead < c.n) ids_.prefetch(c.id_hashes[i + kAhead]);
+      ObligorRecord& rec = c.recs[i];
+      if (rec.get(TextField::id).empty()) continue;
+      const std::size_t first = ids_.insert(c.id_hashes[i], rec.line);
+      if (first != 0 && rec.read_error.empty()) {
+        rec.read_error = "field 'id': duplicate of the obligor at line " + std::to_string(first);
+        dups_.push_back(i);
+      }
+    }
+    if (dups_.empty()) return;
+    ScoredRows& rows = c.rows;
+    fixed_.clear();
+    std::size_t from = 0;
+    for (std::size_t i : dups_) {
+      ScoredRows::Row& row = rows.rows[i];
+      fixed_.append(rows.text, from, row.begin - from);
+      from = row.end;
+      rows.tally(row.status, row.iterations, -1);
+      std::erase_if(rows.problems, [i](const auto& p) { return p.first == i; });
+      score_obligor(c.recs[i], ctx_.book, ctx_.settings, sc.scored);
+      ctx_.writer.row(c.recs[i], sc.scored, fixed_);
+      row.status = sc.scored.status;
+      row.iterations = sc.scored.solution.iterations;
+      rows.tally(row.status, row.iterations, +1);
+      rows.note_problem(i, problem_text(ctx_, c.recs[i], sc.scored),
+                        ctx_.run.max_listed_problems + dups_.size());
+    }
+    fixed_.append(rows.text, from, std::string::npos);
+    std::swap(rows.text, fixed_);  // row offsets past this point are stale; only the text is used now
   }
-  const std::string& origin_;
-  const BookDefaults& book_;
-  const ScoreSettings& settings_;
-  const ScoreRunOptions& run_;
-  const TextSink& sink_;
-  std::unique_ptr<ScoreWriter> writer_;
-  std::vector<Worker> workers_;
-  std::vector<std::string> pending_ = std::vector<std::string>(workers_.size());  // being written
-  std::thread writer_thread_;
-  std::exception_ptr write_error_;
-  ScoreSummary summary_;
+
+ private:
+  const RunContext& ctx_;
+  IdRegistry ids_;
+  std::vector<std::size_t> dups_;
+  std::string fixed_;
+};
+
+// Chunks in flight: workers parse and score them in any order; the calling thread hands them out
+// and writes them in input order, so the output never depends on the number of threads.
+class ChunkPipeline {
+ public:
+  ChunkPipeline(const RunContext& ctx, const CsvColumns& cols, OrderedOutput& output, DuplicateCheck& dups,
+                unsigned threads)
+      : ctx_(ctx), cols_(cols), output_(output), dups_(dups), scratch_(threads + 1) {
+    max_in_flight_ = threads + 2;
+    if (threads > 1) {
+      for (unsigned t = 0; t < threads; ++t) workers_.emplace_back([this, t]() { work(t); });
+    }
+  }
+  ~ChunkPipeline() { stop(); }
+  ChunkPipeline(const ChunkPipeline&) = delete;
+  ChunkPipeline& operator=(const ChunkPipeline&) = delete;
+
+  /// A chunk to fill, writing the oldest ones first when too many are in flight.
+  Chunk& take() {
+    while (in_order_.size() >= max_in_flight_) write_oldest();
+    if (free_.empty()) {
+      pool_.push_back(std::make_unique<Chunk>());
+      free_.push_back(pool_.back().get());
+    }
+    Chunk* c = free_.back();
+    free_.pop_back();
+    c->skipped.clear();
+    c->error = nullptr;
+    c->done = false;
+    return *c;
+  }
+
+  /// Queues a filled chunk (processed at once when there are no worker threads).
+  void submit(Chunk& c) {
+    in_order_.push_back(&c);
+    if (workers_.empty()) {
+      process(c, scratch_[0]);
+      c.done = true;
+      return;
+    }
+    {
+      std::lock_guard<std::mutex> lock(mutex_);
+      queue_.push_back(&c);
+    }
+    work_ready_.notify_one();
+  }
+
+  /// Writes every chunk still in flight.
+  void drain() {
+    while (!in_order_.empty()) write_oldest();
+  }
+
+ private:
+  void process(Chunk& c, Scratch& sc) noexcept {
+    try {
+      process_chunk(ctx_, cols_, c, sc);
+    } catch (...) {
+      c.error = std::current_exception();
+    }
+  }
+
+  void work(unsigned t) {
+    while (true) {
+      Chunk* c = nullptr;
+      {
+        std::unique_lock<std::mutex> lock(mutex_);
+        work_ready_.wait(lock, [this]() { return stopping_ || !queue_.empty(); });
+        if (stopping_) return;
+        c = queue_.front();
+        queue_.pop_front();
+      }
+      process(*c, scratch_[t + 1]);
+      {
+        std::lock_guard<std::mutex> lock(mutex_);
+        c->done = true;
+      }
+      chunk_done_.notify_all();
+    }
+  }
+
+  void write_oldest() {
+    Chunk& c = *in_order_.front();
+    if (!workers_.empty()) {
+      std::unique_lock<std::mutex> lock(mutex_);
+      chunk_done_.wait(lock, [&c]() { return c.done; });
+    }
+    in_order_.pop_front();
+    free_.push_back(&c);
+    if (c.error) std::rethrow_exception(c.error);
+    dups_.apply(c, scratch_[0]);
+    output_.write(c.rows);
+  }
+
+  void stop() {
+    {
+      std::lock_guard<std::mutex> lock(mutex_);
+      stopping_ = true;
+    }
+    work_ready_.notify_all();
+    for (auto& w : workers_) w.join();
+    workers_.clear();
+  }
+
+  const RunContext& ctx_;
+  const CsvColumns& cols_;
+  OrderedOutput& output_;
+  DuplicateCheck& dups_;
+  std::vector<Scratch> scratch_;  // [0]: the calling thread; [t + 1]: worker t
+  std::size_t max_in_flight_ = 2;
+  std::vector<std::unique_ptr<Chunk>> pool_;
+  std::vector<Chunk*> free_;
+  std::deque<Chunk*> in_order_;  // submitted, oldest first
+  std::mutex mutex_;
+  std::condition_variable work_ready_, chunk_done_;
+  std::deque<Chunk*> queue_;  // submitted, not yet taken by a worker
+  bool stopping_ = false;
+  std::vector<std::thread> workers_;
 };
 
 }  // namespace
 
 ScoreSummary score_book(const Book& book, const ScoreSettings& settings, const ScoreRunOptions& run,
                         const TextSink& sink) {
-  BatchScorer scorer(book.origin, book.defaults, settings, run, sink);
-  scorer.begin();
-  scorer.score(book.obligors, book.obligors.size());
-  return scorer.finish(book.notes);
+  const auto writer = make_score_writer(run.format, book.origin, settings, run.sensitivities, run.grades);
+  const RunContext ctx{book.origin, book.defaults, settings, run, *writer, sink};
+  OrderedOutput output(ctx);
+  output.begin();
+  const unsigned threads = std::max(1U, run.threads);
+  std::vector<Scratch> scratch(threads);
+  std::vector<ScoredRows> pieces(threads);
+  parallel_slices(book.obligors.size(), threads, [&](unsigned w, std::size_t b, std::size_t e) {
+    score_rows(ctx, book.obligors.data() + b, e - b, scratch[w], pieces[w]);
+  });
+  for (ScoredRows& piece : pieces) output.write(piece);
+  return output.finish(book.notes);
 }
 
 ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const ScoreSettings& settings,
@@ -335,15 +582,21 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
   line += count_lines(std::string_view(buf).substr(pos, header_len));
   buf.erase(0, pos + header_len);
 
-  BatchScorer scorer(origin, no_defaults, settings, run, sink);
-  scorer.begin();
-  IdRegistry ids;
-  std::vector<ObligorRecord> recs;
-  std::vector<std::uint64_t> id_hashes;
-  struct Span {
-    std::size_t begin, end, line;
-  };
-  std::vector<Span> spans;
+  const auto writer = make_score_writer(run.format, origin, settings, run.sensitivities, run.grades);
+  const RunContext ctx{origin, no_defaults, settings, run, *writer, sink};
+  OrderedOutput output(ctx);
+  output.begin();
+  DuplicateCheck dups(ctx);
+  // Room for every id of a regular file at once (estimated from its size and the first rows), so
+  // that the table does not grow step by step.
+  struct stat st {};
+  if (::fstat(::fileno(in), &st) == 0 && S_ISREG(st.st_mode) && !buf.empty()) {
+    const std::size_t rows = std::max<std::size_t>(count_lines(buf), 1);
+    const double per_row = static_cast<double>(buf.size()) / static_cast<double>(rows);
+    const double expected = static_cast<double>(st.st_size) / per_row * 1.05;
+    dups.reserve(static_cast<std::size_t>(std::min(expected, 1e8)));
+  }
+  ChunkPipeline pipeline(ctx, cols, output, dups, std::max(1U, run.threads));
 
   std::size_t want = run.chunk_bytes;
   while (true) {
@@ -366,11 +619,11 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
         }
         // A record longer than kMaxRecordBytes: report it and skip to the next line break, so
         // that memory stays bounded whatever the file holds.
-        recs.resize(std::max<std::size_t>(recs.size(), 1));
-        recs[0].clear();
-        recs[0].line = line;
-        recs[0].read_error = "row is longer than " + std::to_string(kMaxRecordBytes) + " bytes (skipped)";
-        scorer.score(recs, 1);
+        Chunk& c = pipeline.take();
+        c.text.clear();
+        c.first_line = line;
+        c.skipped = "row is longer than " + std::to_string(kMaxRecordBytes) + " bytes (skipped)";
+        pipeline.submit(c);
         while (true) {
           const void* nl = std::memchr(buf.data(), '\n', buf.size());
           if (nl != nullptr) {
@@ -388,60 +641,16 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
       }
     }
     want = run.chunk_bytes;
-    const std::string_view text = all.substr(0, cut);
-    // 1. Record boundaries (sequential; quote-aware only when the chunk has quotes).
-    spans.clear();
-    std::size_t p = 0;
-    while (p < text.size()) {
-      std::size_t e;
-      std::size_t breaks = 1;
-      if (!quoted) {
-        const void* nl = std::memchr(text.data() + p, '\n', text.size() - p);
-        e = nl ? static_cast<std::size_t>(static_cast<const char*>(nl) - text.data()) + 1 : text.size();
-      } else {
-        e = p + split_csv_record(text.substr(p), fields, scratch, unterminated);
-        breaks = count_lines(text.substr(p, e - p));
-      }
-      const std::string_view rec_text = text.substr(p, e - p);
-      if (rec_text.find_first_not_of(" \t\r\n") != std::string_view::npos) spans.push_back({p, e, line});
-      line += breaks;
-      p = e;
-    }
-    if (recs.size() < spans.size()) recs.resize(spans.size());
-    id_hashes.resize(spans.size());
-    // 2. Parse (parallel).
-    parallel_slices(spans.size(), run.threads, [&](unsigned w, std::size_t b, std::size_t e) {
-      Worker& wk = scorer.workers()[w];
-      for (std::size_t i = b; i < e; ++i) {
-        ObligorRecord& rec = recs[i];
-        rec.clear();
-        rec.line = spans[i].line;
-        bool open_quote = false;
-        split_csv_record(text.substr(spans[i].begin, spans[i].end - spans[i].begin), wk.fields, wk.scratch,
-                         open_quote);
-        parse_obligor_fields(wk.fields, cols, rec);
-        if (open_quote) rec.read_error = "a quoted field is never closed";
-        id_hashes[i] = IdRegistry::hash(rec.get(TextField::id));
-      }
-    });
-    // 3. Duplicate ids (sequential, in input order; the table's random probes are prefetched).
-    ids.reserve(spans.size());
-    constexpr std::size_t kAhead = 16;
-    for (std::size_t i = 0; i < spans.size() && i < kAhead; ++i) ids.prefetch(id_hashes[i]);
-    for (std::size_t i = 0; i < spans.size(); ++i) {
-      if (i + kAhead < spans.size()) ids.prefetch(id_hashes[i + kAhead]);
-      ObligorRecord& rec = recs[i];
-      if (rec.get(TextField::id).empty()) continue;
-      const std::size_t first = ids.insert(id_hashes[i], rec.line);
-      if (first != 0 && rec.read_error.empty()) {
-        rec.read_error = "field 'id': duplicate of the obligor at line " + std::to_string(first);
-      }
-    }
-    // 4. Score and format (parallel); the writer thread writes in order.
-    scorer.score(recs, spans.size());
+    Chunk& c = pipeline.take();
+    c.text.assign(buf, 0, cut);
+    c.first_line = line;
+    c.quoted = quoted;
+    pipeline.submit(c);
+    line += count_lines(c.text);
     buf.erase(0, cut);
   }
-  return scorer.finish(std::move(notes));
+  pipeline.drain();
+  return output.finish(std::move(notes));
 }
 
 }  // namespace firmcall
