@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <charconv>
 #include <cmath>
+#include <cstdint>
 #include <cstring>
 
 #include "firmcall/errors.hpp"
@@ -88,7 +89,16 @@ std::size_t last_record_end(std::string_view text) noexcept {
 }
 
 std::size_t count_lines(std::string_view text) noexcept {
-  return static_cast<std::size_t>(std::count(text.begin(), text.end(), '\n'));
+  std::size_t n = 0;
+  const char* p = text.data();
+  const char* const end = p + text.size();
+  while (p < end) {
+    const void* nl = std::memchr(p, '\n', static_cast<std::size_t>(end - p));
+    if (nl == nullptr) break;
+    ++n;
+    p = static_cast<const char*>(nl) + 1;
+  }
+  return n;
 }
 
 std::string_view trim_blanks(std::string_view s) noexcept {
@@ -132,10 +142,52 @@ bool valid_utf8(std::string_view s) noexcept {
   return true;
 }
 
+namespace {
+
+// Exact powers of ten as doubles (10^22 is the largest one a double holds exactly).
+constexpr double kExactPow10[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,  1e10, 1e11,
+                                  1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
+
+// The common cell "[-]digits[.digits]" whose digits form an integer m <= 2^53 with at most 22
+// decimals: m and 10^decimals are exact doubles, so one division rounds correctly (Clinger 1990,
+// "How to read floating point numbers accurately") and gives the value from_chars gives. Returns
+// false for anything else, which from_chars then reads.
+bool plain_decimal(std::string_view s, double& value) noexcept {
+  const char* p = s.data();
+  const char* const end = p + s.size();
+  const bool negative = p < end && *p == '-';
+  if (negative) ++p;
+  std::uint64_t m = 0;
+  int digits = 0;
+  const char* const int_start = p;
+  for (; p < end && static_cast<unsigned>(*p - '0') < 10U; ++p, ++digits) {
+    if (digits >= 18) return false;
+    m = m * 10 + static_cast<unsigned>(*p - '0');
+  }
+  if (p == int_start) return false;
+  int decimals = 0;
+  if (p < end && *p == '.') {
+    ++p;
+    const char* const frac_start = p;
+    for (; p < end && static_cast<unsigned>(*p - '0') < 10U; ++p, ++digits, ++decimals) {
+      if (digits >= 18) return false;
+      m = m * 10 + static_cast<unsigned>(*p - '0');
+    }
+    if (p == frac_start) return false;
+  }
+  if (p != end || m > (std::uint64_t{1} << 53) || decimals > 22) return false;
+  const double v = static_cast<double>(m) / kExactPow10[decimals];
+  value = negative ? -v : v;
+  return true;
+}
+
+}  // namespace
+
 bool parse_number(std::string_view cell, double& value) noexcept {
   cell = trim_blanks(cell);
   if (cell.empty()) return false;
   if (cell.front() == '+') cell.remove_prefix(1);
+  if (plain_decimal(cell, value)) return true;
   const auto r = std::from_chars(cell.data(), cell.data() + cell.size(), value, std::chars_format::general);
   return r.ec == std::errc() && r.ptr == cell.data() + cell.size() && std::isfinite(value);
 }

@@ -8,6 +8,7 @@
 #include <cmath>
 #include <cstdint>
 #include <cstdio>
+#include <cstring>
 
 namespace firmcall {
 
@@ -23,11 +24,6 @@ constexpr std::array<u128, 33> kPow5 = [] {
   return p;
 }();
 
-constexpr char kDigitPairs[] =
-    "00010203040506070809101112131415161718192021222324252627282930313233343536373839"
-    "40414243444546474849505152535455565758596061626364656667686970717273747576777879"
-    "8081828384858687888990919293949596979899";
-
 // Exact 17-significant-digit decimal of |v| for 1e-16 <= |v| < 1e17: returns the 17 digits as an
 // integer n in [1e16, 1e17) and the decimal exponent of the first digit, or false outside the
 // range. Exact because v * 10^k = f * 5^k * 2^(e+k) is formed in 128-bit integers (k <= 32) and
@@ -38,8 +34,9 @@ bool exact_17_digits(double v, std::uint64_t& n_out, int& exp10_out) noexcept {
   const auto bits = std::bit_cast<std::uint64_t>(v);
   const std::uint64_t f = (bits & ((1ULL << 52) - 1)) | (1ULL << 52);
   const int e = static_cast<int>((bits >> 52) & 0x7ff) - 1075;
-  // floor(log10 v) is floor((e + 52) log10 2) or one more; the loop below corrects the guess.
-  int k = 16 - static_cast<int>(std::floor((e + 52) * 0.30102999566398120));
+  // floor(log10 v) is about floor((e + 52) log10 2), with log10 2 ~ 78913 / 2^18 (an arithmetic
+  // shift floors); the loop below corrects the guess when it is one off.
+  int k = 16 - (((e + 52) * 78913) >> 18);
   for (int attempt = 0; attempt < 3; ++attempt) {
     if (k < 0 || k > 32) return false;
     const u128 x = static_cast<u128>(f) * kPow5[static_cast<std::size_t>(k)];
@@ -78,72 +75,84 @@ bool exact_17_digits(double v, std::uint64_t& n_out, int& exp10_out) noexcept {
   return false;
 }
 
-// Writes the w-digit number v (v < 10^w, w even) into d[0..w-1], two digits at a time.
-inline void even_digits(std::uint32_t v, char* d, int w) noexcept {
-  for (int i = w - 2; i >= 0; i -= 2) {
-    const std::uint32_t two = (v % 100) * 2;
-    v /= 100;
-    d[i] = kDigitPairs[two];
-    d[i + 1] = kDigitPairs[two + 1];
-  }
+// The eight decimal digits of v < 10^8 as eight bytes 0..9, first digit in the lowest byte (read
+// as a little-endian word): each step splits every lane into its high and low half at once.
+inline std::uint64_t eight_digit_bytes(std::uint32_t v) noexcept {
+  const std::uint64_t x = (v / 10000) | (static_cast<std::uint64_t>(v % 10000) << 32);
+  const std::uint64_t hundreds = ((x * 10486) >> 20) & 0x0000007F0000007FULL;  // lane / 100 (lane < 10^4)
+  const std::uint64_t y = hundreds | ((x - hundreds * 100) << 16);
+  const std::uint64_t tens = ((y * 103) >> 10) & 0x000F000F000F000FULL;  // lane / 10 (lane < 100)
+  return tens | ((y - tens * 10) << 8);
 }
 
-// Writes n (17 digits) into d[0..16]: the leading digit, then two independent 8-digit halves.
-void seventeen_digits(std::uint64_t n, char* d) noexcept {
+// Writes n (17 digits) as ASCII into d[0..16] and returns the number of significant digits left
+// after dropping trailing zeros (as %g does), at least 1.
+inline int seventeen_digits(std::uint64_t n, char* d) noexcept {
+  static_assert(std::endian::native == std::endian::little, "digit bytes are laid out little-endian");
   const auto first = static_cast<std::uint32_t>(n / 10000000000000000ULL);
   const std::uint64_t rest = n % 10000000000000000ULL;
+  const std::uint64_t hi = eight_digit_bytes(static_cast<std::uint32_t>(rest / 100000000ULL));
+  const std::uint64_t lo = eight_digit_bytes(static_cast<std::uint32_t>(rest % 100000000ULL));
   d[0] = static_cast<char>('0' + first);
-  even_digits(static_cast<std::uint32_t>(rest / 100000000ULL), d + 1, 8);
-  even_digits(static_cast<std::uint32_t>(rest % 100000000ULL), d + 9, 8);
+  const std::uint64_t ascii = 0x3030303030303030ULL;
+  const std::uint64_t hi_ascii = hi | ascii, lo_ascii = lo | ascii;
+  std::memcpy(d + 1, &hi_ascii, 8);
+  std::memcpy(d + 9, &lo_ascii, 8);
+  // Trailing zero digits are the zero bytes at the high end of each word.
+  if (lo != 0) return 17 - std::countl_zero(lo) / 8;
+  if (hi != 0) return 9 - std::countl_zero(hi) / 8;
+  return 1;
 }
 
 }  // namespace
 
-void append_number(std::string& out, double v) {
-  if (!std::isfinite(v)) return;
-  char buf[40];
+char* write_number(char* p, double v) noexcept {
+  if (!std::isfinite(v)) return p;
+  if (v == 0.0) {
+    if (std::signbit(v)) *p++ = '-';
+    *p++ = '0';
+    return p;
+  }
   std::uint64_t n = 0;
   int x = 0;
   const double a = std::fabs(v);
   if (!exact_17_digits(a, n, x)) {
-    const auto r = std::to_chars(buf, buf + sizeof buf, v, std::chars_format::general, 17);
-    out.append(buf, r.ptr);
-    return;
+    return std::to_chars(p, p + kMaxNumberChars, v, std::chars_format::general, 17).ptr;
   }
-  char d[17];
-  seventeen_digits(n, d);
-  int len = 17;  // significant digits after dropping trailing zeros (as %g does)
-  while (len > 1 && d[len - 1] == '0') --len;
-  char* p = buf;
+  // Every copy below has a fixed size (so it compiles to a few moves) and may write past the
+  // end of the number, within the caller's kMaxNumberChars.
+  char d[40];
+  const int len = seventeen_digits(n, d);  // significant digits
   if (v < 0) *p++ = '-';
-  if (x >= -4 && x < 17) {
-    if (x >= 0) {
-      // Integer part: digits 0..x; fraction: digits x+1..len-1.
-      for (int i = 0; i <= x; ++i) *p++ = d[i];
-      if (len > x + 1) {
-        *p++ = '.';
-        for (int i = x + 1; i < len; ++i) *p++ = d[i];
-      }
-    } else {
-      *p++ = '0';
-      *p++ = '.';
-      for (int i = 0; i < -x - 1; ++i) *p++ = '0';
-      for (int i = 0; i < len; ++i) *p++ = d[i];
-    }
-  } else {
-    *p++ = d[0];
-    if (len > 1) {
-      *p++ = '.';
-      for (int i = 1; i < len; ++i) *p++ = d[i];
-    }
-    *p++ = 'e';
-    *p++ = x < 0 ? '-' : '+';
-    const int ax = x < 0 ? -x : x;
-    if (ax >= 100) *p++ = static_cast<char>('0' + ax / 100);
-    *p++ = static_cast<char>('0' + (ax / 10) % 10);
-    *p++ = static_cast<char>('0' + ax % 10);
+  if (x >= 0 && x < 17) {
+    // Integer part: digits 0..x; fraction: digits x+1..len-1.
+    std::memcpy(p, d, 17);
+    if (len <= x + 1) return p + x + 1;
+    std::memcpy(p + x + 2, d + x + 1, 16);
+    p[x + 1] = '.';
+    return p + len + 1;
   }
-  out.append(buf, p);
+  if (x < 0 && x >= -4) {
+    std::memcpy(p, "0.0000", 6);  // "0." and -x-1 zeros
+    std::memcpy(p + 1 - x, d, 17);
+    return p + 1 - x + len;
+  }
+  p[0] = d[0];
+  p[1] = '.';
+  std::memcpy(p + 2, d + 1, 16);
+  p += len > 1 ? len + 1 : 1;
+  *p++ = 'e';
+  *p++ = x < 0 ? '-' : '+';
+  const int ax = x < 0 ? -x : x;
+  if (ax >= 100) *p++ = static_cast<char>('0' + ax / 100);
+  *p++ = static_cast<char>('0' + (ax / 10) % 10);
+  *p++ = static_cast<char>('0' + ax % 10);
+  return p;
+}
+
+void append_number(std::string& out, double v) {
+  char buf[kMaxNumberChars];
+  out.append(buf, write_number(buf, v));
 }
 
 void append_csv_names(std::string& out, const std::vector<std::string_view>& names) {
@@ -393,20 +402,20 @@ class CsvWriter final : public ScoreWriter {
     append_csv_text(out, rec.get(TextField::name));
     out.push_back(',');
     out.append(to_string(s.status));
+    // The numbers are formatted into one buffer and appended at once.
     const NumericRow r = numeric_row(s);
+    char buf[(kNumericColumns + 2) * (kMaxNumberChars + 1) + 1];
+    char* p = buf;
     for (double v : r.v) {
-      out.push_back(',');
-      append_number(out, v);
+      *p++ = ',';
+      p = write_number(p, v);
     }
-    out.push_back(',');
-    if (s.solution.residual >= 0.0) {
-      char buf[16];
-      const auto res = std::to_chars(buf, buf + sizeof buf, s.solution.iterations);
-      out.append(buf, res.ptr);
-    }
-    out.push_back(',');
-    if (s.solution.residual >= 0.0) append_number(out, s.solution.residual);
-    out.push_back(',');
+    *p++ = ',';
+    if (s.solution.residual >= 0.0) p = std::to_chars(p, p + 16, s.solution.iterations).ptr;
+    *p++ = ',';
+    if (s.solution.residual >= 0.0) p = write_number(p, s.solution.residual);
+    *p++ = ',';
+    out.append(buf, p);
     append_csv_text(out, s.message);
     if (sensitivities_) {
       const bool usable = s.status == RowStatus::ok;

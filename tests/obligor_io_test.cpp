@@ -2,6 +2,11 @@
 #include <doctest/doctest.h>
 
 #include <cmath>
+#include <cstdlib>
+#include <cstring>
+#include <random>
+#include <string>
+#include <vector>
 
 #include "firmcall/csv.hpp"
 #include "firmcall/errors.hpp"
@@ -98,6 +103,54 @@ TEST_CASE("number cells: decimal and scientific notation accepted, the rest refu
     CAPTURE(bad);
     CHECK_FALSE(parse_number(bad, v));
   }
+}
+
+TEST_CASE("number cells: every decimal reads to the same double as the C library's strtod") {
+  // Reference: strtod (C standard library, correctly rounded in glibc). Covers the fast path for
+  // plain decimals and its edges: 2^53 and 2^53 + 1, 18 and 19 digits, 22 and 23 decimals.
+  std::mt19937_64 rng(20261202);
+  std::vector<std::string> cells = {"0",
+                                    "-0",
+                                    "1.",
+                                    ".5",
+                                    "-.5",
+                                    "00012.5000",
+                                    "9007199254740992",
+                                    "9007199254740993",
+                                    "0.1",
+                                    "123456789012345678",
+                                    "1234567890123456789",
+                                    "0.0000000000000000000001",
+                                    "0.00000000000000000000001",
+                                    "4.35",
+                                    "633.64"};
+  for (int i = 0; i < 200000; ++i) {
+    std::string c = (rng() % 4 == 0) ? "-" : "";
+    const int int_digits = static_cast<int>(rng() % 12);
+    const int frac_digits = static_cast<int>(rng() % 24);
+    for (int d = 0; d < int_digits; ++d) c += static_cast<char>('0' + rng() % 10);
+    if (int_digits == 0) c += '0';
+    if (frac_digits > 0) c += '.';
+    for (int d = 0; d < frac_digits; ++d) c += static_cast<char>('0' + rng() % 10);
+    cells.push_back(c);
+  }
+  std::size_t mismatches = 0;
+  for (const std::string& c : cells) {
+    double ours = 0.0;
+    const bool ok = parse_number(c, ours);
+    char* end = nullptr;
+    const double ref = std::strtod(c.c_str(), &end);
+    const bool ref_ok = end == c.c_str() + c.size();
+    if (ok != ref_ok || (ok && std::memcmp(&ours, &ref, sizeof ours) != 0)) {
+      ++mismatches;
+      if (mismatches < 5) {
+        CAPTURE(c);
+        CHECK(ok == ref_ok);
+        CHECK(ours == ref);
+      }
+    }
+  }
+  CHECK(mismatches == 0);
 }
 
 TEST_CASE("duplicate ids: the later obligor is invalid and names the first line") {

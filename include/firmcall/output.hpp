@@ -15,6 +15,12 @@ namespace firmcall {
 
 /// Appends v with 17 significant digits (round-trips exactly); non-finite values append nothing.
 void append_number(std::string& out, double v);
+
+/// Room write_number needs (it may write scratch bytes past the number's end, within this).
+inline constexpr std::size_t kMaxNumberChars = 40;
+
+/// Writes v as append_number does at p (room for kMaxNumberChars); returns the end.
+char* write_number(char* p, double v) noexcept;
 /// Appends column names joined by commas (a CSV header, or its continuation after a comma).
 void append_csv_names(std::string& out, const std::vector<std::string_view>& names);
 /// Appends a CSV cell, quoted when it holds a comma, quote or line break.
