@@ -21,6 +21,7 @@
 #include <limits>
 
 #include "firmcall/normal.hpp"
+#include "firmcall/vector_math.hpp"
 
 namespace firmcall {
 
@@ -63,6 +64,7 @@ struct Problem {
 struct Eval {
   double f1, f2;  // scaled residuals (see file comment)
   double v, sv, d1, d2, nd1;
+  double phi = 0.0;  // norm_pdf(d1); set by evaluate_block()
 };
 
 // x = ln(V/K), y = ln sV.
@@ -173,36 +175,162 @@ constexpr double kStepFloor = 1e-13;  // a step this small means the next would 
 constexpr double kSettled = 1e-4;     // stop once the residual is this fraction of the tolerance
 constexpr int kMaxHalvings = 60;
 
-// The damped Newton iteration for one obligor as a resumable state machine: trial() performs one
-// function evaluation (one line-search trial) and advances. solve_asset() runs one lane to the
-// end; solve_asset_batch() interleaves several lanes so that their independent evaluations
-// overlap in the processor, with exactly the same arithmetic per obligor.
+// One obligor's problem and the box that holds its solution, prepared eight at a time.
+struct Prepared {
+  Problem p;
+  double x_lo, x_hi, y_lo, y_hi;  // x = ln(V/K), y = ln sV
+};
+
+// Prepares in[idx[j]] for j < count (count <= kBlock) into out[j]; the logarithms and the
+// discount factor go through the block functions, the rare overflow cases through the C library.
+void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t count,
+                   Prepared* out) noexcept {
+  constexpr std::size_t B = vmath::kBlock;
+  double neg_rt[B], disc[B], ratio[B], log_ratio[B], log1p_ratio[B], vol_lo[B], log_vol_lo[B], vol_hi[B],
+      log_vol_hi[B];
+  for (std::size_t j = 0; j < B; ++j) {
+    const MertonInputs& m = in[idx[j < count ? j : 0]];
+    neg_rt[j] = -m.risk_free_rate_cc * m.horizon_years;
+  }
+  vmath::exp(neg_rt, disc);
+  for (std::size_t j = 0; j < B; ++j) {
+    const MertonInputs& m = in[idx[j < count ? j : 0]];
+    Problem& p = out[j].p;
+    const double k = m.default_point * disc[j];
+    p = Problem{m.equity_value, m.equity_vol_annual, k, std::sqrt(m.horizon_years), m.equity_value + k};
+    const double e_over_k = p.e / k;
+    ratio[j] = std::isfinite(e_over_k) ? e_over_k : 1.0;
+    vol_lo[j] = p.se * p.e / p.e_plus_k;
+    vol_hi[j] = p.se;
+  }
+  vmath::log(ratio, log_ratio);
+  vmath::log1p(ratio, log1p_ratio);
+  vmath::log(vol_lo, log_vol_lo);
+  vmath::log(vol_hi, log_vol_hi);
+  for (std::size_t j = 0; j < count; ++j) {
+    Prepared& q = out[j];
+    const double e_over_k = q.p.e / q.p.k;
+    q.x_lo = std::isfinite(e_over_k) && e_over_k > 0.0 ? log_ratio[j] : std::log(q.p.e) - std::log(q.p.k);
+    q.x_hi = std::isfinite(e_over_k) ? log1p_ratio[j] : q.x_lo + std::log1p(q.p.k / q.p.e);
+    q.y_lo = log_vol_lo[j];
+    q.y_hi = log_vol_hi[j];
+  }
+}
+
+// Residuals at one point per lane, p[j] at (x[j], y[j]) into out[j] (also norm_pdf(d1)): the same
+// arithmetic as evaluate(), with the block functions. Each lane depends only on its own values.
+void evaluate_block(const Problem* const* p, const double* x, const double* y, Eval* out) noexcept {
+  constexpr std::size_t B = vmath::kBlock;
+  double growth[B], sv[B], a1[B], a2[B], c1[B], c2[B], q[B], eq[B];
+  vmath::expm1(x, growth);
+  vmath::exp(y, sv);
+  for (std::size_t j = 0; j < B; ++j) {
+    Eval& ev = out[j];
+    const double st = sv[j] * p[j]->sqrt_t;
+    ev.sv = sv[j];
+    ev.d1 = x[j] / st + 0.5 * st;
+    ev.d2 = ev.d1 - st;
+    // d2 > 0: upper tails N(-d1), N(-d2) (norm_sf); else N(d1), N(d2) (norm_cdf).
+    const double sign = ev.d2 > 0.0 ? 1.0 : -1.0;
+    a1[j] = (sign * ev.d1) * kInvSqrt2;
+    a2[j] = (sign * ev.d2) * kInvSqrt2;
+    q[j] = -0.5 * ev.d1 * ev.d1;
+  }
+  vmath::erfc(a1, c1);
+  vmath::erfc(a2, c2);
+  vmath::exp(q, eq);
+  for (std::size_t j = 0; j < B; ++j) {
+    const Problem& pj = *p[j];
+    Eval& ev = out[j];
+    const double v_minus_k = pj.k * growth[j];
+    ev.v = pj.k + v_minus_k;
+    double call;
+    if (ev.d2 > 0.0) {
+      const double sf1 = 0.5 * c1[j];
+      ev.nd1 = 1.0 - sf1;
+      call = v_minus_k + (pj.k * (0.5 * c2[j]) - ev.v * sf1);
+    } else {
+      ev.nd1 = 0.5 * c1[j];
+      call = ev.v * ev.nd1 - pj.k * (0.5 * c2[j]);
+    }
+    ev.f1 = call / pj.e - 1.0;
+    ev.f2 = ev.nd1 * ev.sv * ev.v / (pj.se * pj.e) - 1.0;
+    ev.phi = kInvSqrt2Pi * eq[j];
+  }
+}
+
+// The damped Newton iteration for one obligor as a resumable state machine: next_point() names
+// the point to evaluate (the start, or one line-search trial), take() advances with its residuals.
+// solve_asset_batch() runs up to eight lanes, evaluating their points together; an obligor's
+// arithmetic never depends on the other lanes, so solve_asset() (a batch of one) returns the same.
 struct NewtonLane {
   Problem p;
   double x_lo, x_hi, y_lo, y_hi;  // box holding the solution: x = ln(V/K), y = ln sV
   double x, y;                    // current iterate
   Eval ev;                        // residuals at (x, y)
-  double merit;
+  double merit = 0.0;
   double dx = 0.0, dy = 0.0, lambda = 1.0;
   int halvings = 0;
   int iterations = 0;
+  bool fresh = true;  // the start point is not evaluated yet
   bool done = false;
 
-  void start(const MertonInputs& in, const MertonSolveOptions& o) noexcept {
-    const double k = in.default_point * std::exp(-in.risk_free_rate_cc * in.horizon_years);
-    p = Problem{in.equity_value, in.equity_vol_annual, k, std::sqrt(in.horizon_years), in.equity_value + k};
-    const double e_over_k = p.e / k;
-    x_lo = std::isfinite(e_over_k) && e_over_k > 0.0 ? std::log(e_over_k) : std::log(p.e) - std::log(k);
-    x_hi = std::isfinite(e_over_k) ? std::log1p(e_over_k) : x_lo + std::log1p(k / p.e);
-    y_lo = std::log(p.se * p.e / p.e_plus_k);
-    y_hi = std::log(p.se);
+  void begin(const Prepared& q) noexcept {
+    p = q.p;
+    x_lo = q.x_lo;
+    x_hi = q.x_hi;
+    y_lo = q.y_lo;
+    y_hi = q.y_hi;
     x = x_hi;  // V0 = E + K
     y = y_lo;  // sV0 = sE E / V0
-    ev = evaluate(p, x, y);
-    merit = merit_of(ev);
     iterations = 0;
+    fresh = true;
     done = false;
-    plan_step(o);
+  }
+
+  // The point to evaluate next; false (and done) when the line search cannot move any more.
+  bool next_point(double& xt, double& yt) noexcept {
+    if (fresh) {
+      xt = x;
+      yt = y;
+      return true;
+    }
+    xt = std::clamp(x + lambda * dx, x_lo, x_hi);
+    yt = std::clamp(y + lambda * dy, y_lo, y_hi);
+    if (xt == x && yt == y) {
+      done = true;
+      return false;
+    }
+    return true;
+  }
+
+  // Advances with the residuals et at the point next_point() gave.
+  void take(const Eval& et, double xt, double yt, const MertonSolveOptions& o) noexcept {
+    if (fresh) {
+      fresh = false;
+      ev = et;
+      merit = merit_of(ev);
+      plan_step(o);
+      return;
+    }
+    // One backtracking trial on |F|^2, projected into the box.
+    const double mt = merit_of(et);
+    if (mt < merit) {
+      const double taken = std::max(std::fabs(xt - x), std::fabs(yt - y));
+      x = xt;
+      y = yt;
+      ev = et;
+      merit = mt;
+      // At the rounding floor, or settled (a further quadratic step would chase rounding).
+      if (taken < kStepFloor || residual_of(p, ev) <= kSettled * o.residual_tolerance) {
+        done = true;
+        return;
+      }
+      plan_step(o);
+      return;
+    }
+    lambda *= 0.5;
+    if (++halvings >= kMaxHalvings) done = true;
   }
 
   // Newton direction from the analytic Jacobian at the current iterate.
@@ -212,7 +340,7 @@ struct NewtonLane {
       return;
     }
     ++iterations;
-    const double phi = norm_pdf(ev.d1);
+    const double phi = ev.phi;
     const double inv_e = 1.0 / p.e;
     const double inv_see = 1.0 / (p.se * p.e);
     const double j11 = ev.v * ev.nd1 * inv_e;
@@ -233,34 +361,6 @@ struct NewtonLane {
     }
     lambda = 1.0;
     halvings = 0;
-  }
-
-  // One backtracking trial on |F|^2, projected into the box.
-  void trial(const MertonSolveOptions& o) noexcept {
-    const double xt = std::clamp(x + lambda * dx, x_lo, x_hi);
-    const double yt = std::clamp(y + lambda * dy, y_lo, y_hi);
-    if (xt == x && yt == y) {
-      done = true;
-      return;
-    }
-    const Eval et = evaluate(p, xt, yt);
-    const double mt = merit_of(et);
-    if (mt < merit) {
-      const double taken = std::max(std::fabs(xt - x), std::fabs(yt - y));
-      x = xt;
-      y = yt;
-      ev = et;
-      merit = mt;
-      // At the rounding floor, or settled (a further quadratic step would chase rounding).
-      if (taken < kStepFloor || residual_of(p, ev) <= kSettled * o.residual_tolerance) {
-        done = true;
-        return;
-      }
-      plan_step(o);
-      return;
-    }
-    lambda *= 0.5;
-    if (++halvings >= kMaxHalvings) done = true;
   }
 
   // Result of a finished lane; runs the bracketed fallback when Newton fell short.
@@ -298,54 +398,69 @@ struct NewtonLane {
 
 AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& options) noexcept {
   AssetSolution out;
-  out.input_check = validate(in);
-  if (!out.input_check.ok()) return out;
-  NewtonLane lane;
-  lane.start(in, options);
-  while (!lane.done) lane.trial(options);
-  return lane.finish(options);
+  solve_asset_batch(&in, &out, 1, options);
+  return out;
 }
 
 void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n,
                        const MertonSolveOptions& options) noexcept {
-  constexpr std::size_t kLanes = 8;
-  NewtonLane lanes[kLanes];
-  std::size_t owner[kLanes];  // index of the obligor each lane is solving
-  std::size_t active = 0;
-  std::size_t next = 0;
-  // Loads the next valid obligor into lane s; returns false when none is left.
-  const auto load = [&](std::size_t s) {
-    while (next < n) {
-      const std::size_t i = next++;
-      out[i] = AssetSolution{};
-      out[i].input_check = validate(in[i]);
-      if (!out[i].input_check.ok()) continue;
-      lanes[s].start(in[i], options);
-      owner[s] = i;
-      if (!lanes[s].done) return true;
-      out[i] = lanes[s].finish(options);
+  constexpr std::size_t B = vmath::kBlock;
+  // Obligors are validated and prepared eight at a time, then handed to free lanes in order.
+  Prepared prepared[B];
+  std::size_t prepared_owner[B];
+  std::size_t prepared_count = 0, prepared_next = 0;
+  std::size_t next = 0;  // next obligor to validate
+  const auto take_prepared = [&](NewtonLane& lane, std::size_t& owner) {
+    if (prepared_next == prepared_count) {
+      prepared_count = prepared_next = 0;
+      while (next < n && prepared_count < B) {
+        const std::size_t i = next++;
+        out[i] = AssetSolution{};
+        out[i].input_check = validate(in[i]);
+        if (out[i].input_check.ok()) prepared_owner[prepared_count++] = i;
+      }
+      if (prepared_count == 0) return false;
+      prepare_block(in, prepared_owner, prepared_count, prepared);
     }
-    return false;
+    lane.begin(prepared[prepared_next]);
+    owner = prepared_owner[prepared_next++];
+    return true;
   };
-  for (std::size_t s = 0; s < kLanes && load(s); ++s) active = s + 1;
-  while (active > 0) {
-    for (std::size_t s = 0; s < active;) {
-      NewtonLane& lane = lanes[s];
-      lane.trial(options);
-      if (!lane.done) {
-        ++s;
-        continue;
+
+  NewtonLane lanes[B];
+  std::size_t owner[B];
+  bool busy[B] = {};
+  // Idle lanes evaluate a harmless fixed point whose results are ignored.
+  const Problem idle{1.0, 0.3, 1.0, 1.0, 2.0};
+  const Problem* problems[B];
+  double xs[B], ys[B];
+  Eval evals[B];
+  while (true) {
+    bool any = false;
+    for (std::size_t s = 0; s < B; ++s) {
+      if (!busy[s]) busy[s] = take_prepared(lanes[s], owner[s]);
+      // A lane whose line search is exhausted finishes and takes the next obligor.
+      while (busy[s] && !lanes[s].next_point(xs[s], ys[s])) {
+        out[owner[s]] = lanes[s].finish(options);
+        busy[s] = take_prepared(lanes[s], owner[s]);
       }
-      out[owner[s]] = lane.finish(options);
-      if (load(s)) {
-        ++s;
-        continue;
+      if (busy[s]) {
+        problems[s] = &lanes[s].p;
+        any = true;
+      } else {
+        problems[s] = &idle;
+        xs[s] = 0.0;
+        ys[s] = -1.0;
       }
-      // No obligor left: move the last active lane into this slot.
-      --active;
-      if (s != active) {
-        lanes[s] = lanes[active];
-        owner[s] = owner[active];
+    }
+    if (!any) return;
+    evaluate_block(problems, xs, ys, evals);
+    for (std::size_t s = 0; s < B; ++s) {
+      if (!busy[s]) continue;
+      lanes[s].take(evals[s], xs[s], ys[s], options);
+      if (lanes[s].done) {
+        out[owner[s]] = lanes[s].finish(options);
+        busy[s] = false;
       }
     }
   }

@@ -60,8 +60,9 @@ struct AssetSolution {
 /// Solves the Merton system for (V, sV). Never throws, never allocates.
 AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& options = {}) noexcept;
 
-/// Solves n obligors: out[i] is exactly what solve_asset(in[i], options) returns, but several
-/// obligors are iterated in an interleaved way so that their independent evaluations overlap.
+/// Solves n obligors: out[i] is exactly what solve_asset(in[i], options) returns, but eight
+/// obligors are iterated side by side so that their evaluations run as one block of vector math
+/// (vector_math.hpp); no obligor's arithmetic depends on the others.
 void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n,
                        const MertonSolveOptions& options = {}) noexcept;
 

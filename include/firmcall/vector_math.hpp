@@ -1,0 +1,29 @@
+// Elementwise exp, expm1, log, log1p and erfc on blocks of eight doubles, for the solver's hot
+// path. They come from glibc's vector math library (libmvec, part of the C library, maximum error
+// 4 ulp by its documentation): the AVX-512 versions when the processor has AVX-512F, else the
+// AVX2 versions on two halves, else the scalar C library one value at a time. The choice is made
+// once per process, so a given machine always computes the same values, whatever the block
+// holds next to each value and however the work is split over threads.
+//
+// **Example**:
+//   double x[firmcall::vmath::kBlock] = {...}, y[firmcall::vmath::kBlock];
+//   firmcall::vmath::exp(x, y);  // y[i] = e^x[i]
+#pragma once
+
+#include <cstddef>
+#include <string_view>
+
+namespace firmcall::vmath {
+
+inline constexpr std::size_t kBlock = 8;  ///< values per call
+
+void exp(const double* x, double* y) noexcept;    ///< y[i] = e^x[i], i < kBlock
+void expm1(const double* x, double* y) noexcept;  ///< y[i] = e^x[i] - 1
+void log(const double* x, double* y) noexcept;    ///< y[i] = ln x[i]
+void log1p(const double* x, double* y) noexcept;  ///< y[i] = ln(1 + x[i])
+void erfc(const double* x, double* y) noexcept;   ///< y[i] = erfc(x[i])
+
+/// The implementation in use on this machine: "avx512", "avx2" or "scalar".
+std::string_view implementation() noexcept;
+
+}  // namespace firmcall::vmath
