@@ -175,10 +175,50 @@ constexpr double kStepFloor = 1e-13;  // a step this small means the next would 
 constexpr double kSettled = 1e-4;     // stop once the residual is this fraction of the tolerance
 constexpr int kMaxHalvings = 60;
 
+// Residuals at one point per lane, p[j] at (x[j], y[j]) into out[j] (also norm_pdf(d1)): the same
+// arithmetic as evaluate(), with the block functions. Each lane depends only on its own values.
+void evaluate_block(const Problem* const* p, const double* x, const double* y, Eval* out) noexcept {
+  constexpr std::size_t B = vmath::kBlock;
+  double growth[B], sv[B], a1[B], a2[B], c1[B], c2[B], q[B], eq[B];
+  vmath::expm1(x, growth);
+  vmath::exp(y, sv);
+  for (std::size_t j = 0; j < B; ++j) {
+    Eval& ev = out[j];
+    const double st = sv[j] * p[j]->sqrt_t;
+    ev.sv = sv[j];
+    ev.d1 = x[j] / st + 0.5 * st;
+    ev.d2 = ev.d1 - st;
+    // d2 > 0: upper tails N(-d1), N(-d2) (norm_sf); else N(d1), N(d2) (norm_cdf).
+    const double sign = ev.d2 > 0.0 ? 1.0 : -1.0;
+    a1[j] = (sign * ev.d1) * kInvSqrt2;
+    a2[j] = (sign * ev.d2) * kInvSqrt2;
+    q[j] = -0.5 * ev.d1 * ev.d1;
+  }
+  vmath::erfc(a1, c1);
+  vmath::erfc(a2, c2);
+  vmath::exp(q, eq);
+  for (std::size_t j = 0; j < B; ++j) {
+    const Problem& pj = *p[j];
+    Eval& ev = out[j];
+    const double v_minus_k = pj.k * growth[j];
+    ev.v = pj.k + v_minus_k;
+    // Selected without branches (the lanes disagree often): the tails N(-d1), N(-d2) when d2 > 0.
+    const bool upper = ev.d2 > 0.0;
+    const double h1 = 0.5 * c1[j];
+    const double h2 = 0.5 * c2[j];
+    ev.nd1 = upper ? 1.0 - h1 : h1;
+    const double call = upper ? v_minus_k + (pj.k * h2 - ev.v * h1) : ev.v * h1 - pj.k * h2;
+    ev.f1 = call / pj.e - 1.0;
+    ev.f2 = ev.nd1 * ev.sv * ev.v / (pj.se * pj.e) - 1.0;
+    ev.phi = kInvSqrt2Pi * eq[j];
+  }
+}
+
 // One obligor's problem and the box that holds its solution, prepared eight at a time.
 struct Prepared {
   Problem p;
   double x_lo, x_hi, y_lo, y_hi;  // x = ln(V/K), y = ln sV
+  Eval start;                     // residuals at the start point (x_hi, y_lo)
 };
 
 // Prepares in[idx[j]] for j < count (count <= kBlock) into out[j]; the logarithms and the
@@ -215,52 +255,22 @@ void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t c
     q.y_lo = log_vol_lo[j];
     q.y_hi = log_vol_hi[j];
   }
-}
-
-// Residuals at one point per lane, p[j] at (x[j], y[j]) into out[j] (also norm_pdf(d1)): the same
-// arithmetic as evaluate(), with the block functions. Each lane depends only on its own values.
-void evaluate_block(const Problem* const* p, const double* x, const double* y, Eval* out) noexcept {
-  constexpr std::size_t B = vmath::kBlock;
-  double growth[B], sv[B], a1[B], a2[B], c1[B], c2[B], q[B], eq[B];
-  vmath::expm1(x, growth);
-  vmath::exp(y, sv);
+  // The start points, V0 = E + K and sV0 = sE E / V0, evaluated together.
+  const Problem* problems[B];
+  double xs[B], ys[B];
+  Eval evals[B];
   for (std::size_t j = 0; j < B; ++j) {
-    Eval& ev = out[j];
-    const double st = sv[j] * p[j]->sqrt_t;
-    ev.sv = sv[j];
-    ev.d1 = x[j] / st + 0.5 * st;
-    ev.d2 = ev.d1 - st;
-    // d2 > 0: upper tails N(-d1), N(-d2) (norm_sf); else N(d1), N(d2) (norm_cdf).
-    const double sign = ev.d2 > 0.0 ? 1.0 : -1.0;
-    a1[j] = (sign * ev.d1) * kInvSqrt2;
-    a2[j] = (sign * ev.d2) * kInvSqrt2;
-    q[j] = -0.5 * ev.d1 * ev.d1;
+    const Prepared& q = out[j < count ? j : 0];
+    problems[j] = &q.p;
+    xs[j] = q.x_hi;
+    ys[j] = q.y_lo;
   }
-  vmath::erfc(a1, c1);
-  vmath::erfc(a2, c2);
-  vmath::exp(q, eq);
-  for (std::size_t j = 0; j < B; ++j) {
-    const Problem& pj = *p[j];
-    Eval& ev = out[j];
-    const double v_minus_k = pj.k * growth[j];
-    ev.v = pj.k + v_minus_k;
-    double call;
-    if (ev.d2 > 0.0) {
-      const double sf1 = 0.5 * c1[j];
-      ev.nd1 = 1.0 - sf1;
-      call = v_minus_k + (pj.k * (0.5 * c2[j]) - ev.v * sf1);
-    } else {
-      ev.nd1 = 0.5 * c1[j];
-      call = ev.v * ev.nd1 - pj.k * (0.5 * c2[j]);
-    }
-    ev.f1 = call / pj.e - 1.0;
-    ev.f2 = ev.nd1 * ev.sv * ev.v / (pj.se * pj.e) - 1.0;
-    ev.phi = kInvSqrt2Pi * eq[j];
-  }
+  evaluate_block(problems, xs, ys, evals);
+  for (std::size_t j = 0; j < count; ++j) out[j].start = evals[j];
 }
 
 // The damped Newton iteration for one obligor as a resumable state machine: next_point() names
-// the point to evaluate (the start, or one line-search trial), take() advances with its residuals.
+// the next line-search trial, take() advances with its residuals.
 // solve_asset_batch() runs up to eight lanes, evaluating their points together; an obligor's
 // arithmetic never depends on the other lanes, so solve_asset() (a batch of one) returns the same.
 struct NewtonLane {
@@ -272,10 +282,9 @@ struct NewtonLane {
   double dx = 0.0, dy = 0.0, lambda = 1.0;
   int halvings = 0;
   int iterations = 0;
-  bool fresh = true;  // the start point is not evaluated yet
   bool done = false;
 
-  void begin(const Prepared& q) noexcept {
+  void begin(const Prepared& q, const MertonSolveOptions& o) noexcept {
     p = q.p;
     x_lo = q.x_lo;
     x_hi = q.x_hi;
@@ -283,18 +292,15 @@ struct NewtonLane {
     y_hi = q.y_hi;
     x = x_hi;  // V0 = E + K
     y = y_lo;  // sV0 = sE E / V0
+    ev = q.start;
+    merit = merit_of(ev);
     iterations = 0;
-    fresh = true;
     done = false;
+    plan_step(o);
   }
 
   // The point to evaluate next; false (and done) when the line search cannot move any more.
   bool next_point(double& xt, double& yt) noexcept {
-    if (fresh) {
-      xt = x;
-      yt = y;
-      return true;
-    }
     xt = std::clamp(x + lambda * dx, x_lo, x_hi);
     yt = std::clamp(y + lambda * dy, y_lo, y_hi);
     if (xt == x && yt == y) {
@@ -306,13 +312,6 @@ struct NewtonLane {
 
   // Advances with the residuals et at the point next_point() gave.
   void take(const Eval& et, double xt, double yt, const MertonSolveOptions& o) noexcept {
-    if (fresh) {
-      fresh = false;
-      ev = et;
-      merit = merit_of(ev);
-      plan_step(o);
-      return;
-    }
     // One backtracking trial on |F|^2, projected into the box.
     const double mt = merit_of(et);
     if (mt < merit) {
@@ -410,7 +409,7 @@ void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n
   std::size_t prepared_owner[B];
   std::size_t prepared_count = 0, prepared_next = 0;
   std::size_t next = 0;  // next obligor to validate
-  const auto take_prepared = [&](NewtonLane& lane, std::size_t& owner) {
+  const auto load_prepared = [&](NewtonLane& lane, std::size_t& owner) {
     if (prepared_next == prepared_count) {
       prepared_count = prepared_next = 0;
       while (next < n && prepared_count < B) {
@@ -422,9 +421,18 @@ void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n
       if (prepared_count == 0) return false;
       prepare_block(in, prepared_owner, prepared_count, prepared);
     }
-    lane.begin(prepared[prepared_next]);
+    lane.begin(prepared[prepared_next], options);
     owner = prepared_owner[prepared_next++];
     return true;
+  };
+  // Starts the next obligor on a lane; one that needs no step finishes at once. False when none
+  // is left.
+  const auto take_prepared = [&](NewtonLane& lane, std::size_t& owner) {
+    while (true) {
+      if (!load_prepared(lane, owner)) return false;
+      if (!lane.done) return true;
+      out[owner] = lane.finish(options);
+    }
   };
 
   NewtonLane lanes[B];
