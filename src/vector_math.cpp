@@ -8,8 +8,10 @@
 
 // The declarations pass vectors wider than the baseline x86-64 target; they are only called from
 // functions compiled for the matching instruction set.
+#if defined(__GNUC__) && !defined(__clang__)
 #pragma GCC diagnostic push
 #pragma GCC diagnostic ignored "-Wpsabi"
+#endif
 
 extern "C" {
 __m512d _ZGVeN8v_exp(__m512d);
@@ -106,4 +108,6 @@ std::string_view implementation() noexcept {
 
 }  // namespace firmcall::vmath
 
+#if defined(__GNUC__) && !defined(__clang__)
 #pragma GCC diagnostic pop
+#endif
