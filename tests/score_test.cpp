@@ -3,6 +3,7 @@
 #include <doctest/doctest.h>
 
 #include <cstdio>
+#include <stdexcept>
 #include <string>
 
 #include "firmcall/obligor_io.hpp"
@@ -129,4 +130,48 @@ TEST_CASE("duplicate ids are caught across chunk boundaries") {
   CHECK(summary.scored == 250);
   REQUIRE(!summary.problems.empty());
   CHECK(summary.problems[0] == "gen.csv:252: obligor 'X0': field 'id': duplicate of the obligor at line 2");
+}
+
+TEST_CASE("a duplicate row is written as invalid in place, and the problems stay in input order") {
+  // Rows 2..5 are fine, row 6 repeats row 3's id, row 7 is a bad value: with two threads and small
+  // chunks the duplicate is found while its chunk is written, after it was scored as fine.
+  const std::string csv =
+      "id,market_cap,equity_vol,default_point,rate\n"
+      "A,100,0.3,50,0.02\nB,100,0.3,50,0.02\nC,100,0.3,50,0.02\nD,100,0.3,50,0.02\n"
+      "B,100,0.3,50,0.02\nE,-5,0.3,50,0.02\nF,100,0.3,50,0.02\n";
+  for (std::size_t chunk : {16, 40, 4096}) {
+    CAPTURE(chunk);
+    ScoreSummary summary;
+    const std::string out = score_text(csv, OutputFormat::csv, 2, chunk, &summary);
+    const auto rows = testing::split_simple_csv(out);
+    REQUIRE(rows.size() == 8);
+    CHECK(rows[5][0] == "B");
+    CHECK(rows[5][2] == "invalid_input");
+    CHECK(rows[5].back() == "line 6: field 'id': duplicate of the obligor at line 3");
+    CHECK(rows[2][2] == "ok");
+    CHECK(summary.scored == 5);
+    CHECK(summary.invalid == 2);
+    REQUIRE(summary.problems.size() == 2);
+    CHECK(summary.problems[0].rfind("gen.csv:6: obligor 'B'", 0) == 0);
+    CHECK(summary.problems[1].rfind("gen.csv:7: obligor 'E'", 0) == 0);
+    CHECK(out == score_text(csv, OutputFormat::csv, 1, 4096));
+  }
+}
+
+TEST_CASE("a write error stops the streamed run with the error, whatever the threads are doing") {
+  const std::string csv = generated_csv(3000, 11);
+  for (unsigned threads : {1U, 2U, 4U}) {
+    CAPTURE(threads);
+    std::FILE* f = ::fmemopen(const_cast<char*>(csv.data()), csv.size(), "r");
+    REQUIRE(f != nullptr);
+    ScoreRunOptions run;
+    run.threads = threads;
+    run.chunk_bytes = 2048;
+    int writes = 0;
+    const TextSink failing = [&](std::string_view) {
+      if (++writes == 5) throw std::runtime_error("disk full");
+    };
+    CHECK_THROWS_WITH(score_csv_stream(f, "gen.csv", ScoreSettings{}, run, failing), "disk full");
+    std::fclose(f);
+  }
 }
