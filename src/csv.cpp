@@ -1,12 +1,17 @@
 #include "firmcall/csv.hpp"
 
 #include <algorithm>
+#include <bit>
 #include <charconv>
 #include <cmath>
 #include <cstdint>
 #include <cstring>
 
 #include "firmcall/errors.hpp"
+
+#ifdef __SSE2__
+#include <emmintrin.h>
+#endif
 
 namespace firmcall {
 
@@ -72,6 +77,48 @@ std::size_t split_csv_record(std::string_view text, std::vector<std::string_view
     if (p < end && *p == '\n') ++p;
     return static_cast<std::size_t>(p - text.data());
   }
+}
+
+std::size_t split_plain_record(std::string_view text, std::vector<std::string_view>& fields) {
+  fields.clear();
+  const char* const begin = text.data();
+  const char* const end = begin + text.size();
+  const char* field_start = begin;
+  // At a line break: the record's fields are complete; it is consumed up to the next '\n'.
+  const auto line_end = [&](const char* at) {
+    fields.emplace_back(field_start, static_cast<std::size_t>(at - field_start));
+    const void* nl = std::memchr(at, '\n', static_cast<std::size_t>(end - at));
+    return nl ? static_cast<std::size_t>(static_cast<const char*>(nl) - begin) + 1 : text.size();
+  };
+  const char* p = begin;
+#ifdef __SSE2__
+  const __m128i comma = _mm_set1_epi8(',');
+  const __m128i lf = _mm_set1_epi8('\n');
+  const __m128i cr = _mm_set1_epi8('\r');
+  while (end - p >= 16) {
+    const __m128i v = _mm_loadu_si128(reinterpret_cast<const __m128i*>(p));
+    auto mask = static_cast<unsigned>(_mm_movemask_epi8(
+        _mm_or_si128(_mm_cmpeq_epi8(v, comma), _mm_or_si128(_mm_cmpeq_epi8(v, lf), _mm_cmpeq_epi8(v, cr)))));
+    while (mask != 0) {
+      const char* q = p + std::countr_zero(mask);
+      mask &= mask - 1;
+      if (*q != ',') return line_end(q);
+      fields.emplace_back(field_start, static_cast<std::size_t>(q - field_start));
+      field_start = q + 1;
+    }
+    p += 16;
+  }
+#endif
+  for (; p < end; ++p) {
+    if (*p == ',') {
+      fields.emplace_back(field_start, static_cast<std::size_t>(p - field_start));
+      field_start = p + 1;
+    } else if (*p == '\n' || *p == '\r') {
+      return line_end(p);
+    }
+  }
+  fields.emplace_back(field_start, static_cast<std::size_t>(end - field_start));
+  return text.size();
 }
 
 std::size_t last_record_end(std::string_view text) noexcept {

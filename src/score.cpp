@@ -328,8 +328,7 @@ void process_chunk(const RunContext& ctx, const CsvColumns& cols, Chunk& c, Scra
       std::size_t e;
       std::size_t breaks = 1;
       if (!c.quoted) {
-        const void* nl = std::memchr(text.data() + p, '\n', text.size() - p);
-        e = nl ? static_cast<std::size_t>(static_cast<const char*>(nl) - text.data()) + 1 : text.size();
+        e = p + split_plain_record(text.substr(p), sc.fields);
       } else {
         e = p + split_csv_record(text.substr(p), sc.fields, sc.unescaped, open_quote);
         breaks = count_lines(text.substr(p, e - p));
@@ -338,7 +337,6 @@ void process_chunk(const RunContext& ctx, const CsvColumns& cols, Chunk& c, Scra
       if (rec_text.find_first_not_of(" \t\r\n") != std::string_view::npos) {
         ObligorRecord& rec = next_record();
         rec.line = line;
-        split_csv_record(rec_text, sc.fields, sc.unescaped, open_quote);
         parse_obligor_fields(sc.fields, cols, rec);
         if (open_quote) rec.read_error = "a quoted field is never closed";
       }

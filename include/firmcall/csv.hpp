@@ -19,6 +19,11 @@ namespace firmcall {
 std::size_t split_csv_record(std::string_view text, std::vector<std::string_view>& fields,
                              std::string& scratch, bool& unterminated);
 
+/// The same for a record known to hold no '"' (the common case), scanning 16 bytes at a time:
+/// fields are views into `text`, the record's fields end at the first '\r' or '\n', and the
+/// return value runs up to and including the next '\n' (or the whole text).
+std::size_t split_plain_record(std::string_view text, std::vector<std::string_view>& fields);
+
 /// Offset just past the last complete record in `text` (0 when none is complete), honouring
 /// quotes, so that a buffer can be cut between records.
 std::size_t last_record_end(std::string_view text) noexcept;
