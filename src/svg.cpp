@@ -194,26 +194,24 @@ void fit_axis(SvgAxis& axis, const std::vector<double>& values, bool include_zer
 SvgPlot::SvgPlot(SvgAxis x, SvgAxis y, std::string title, double width, double height)
     : x_(std::move(x)), y_(std::move(y)), title_(std::move(title)), width_(width), height_(height) {}
 
+namespace {
+
+// Where v lies along an axis, from 0 (min) to 1 (max), held to [0, 1].
+double axis_fraction(const SvgAxis& a, double v) {
+  const double f =
+      a.log ? (std::log10(std::max(v, a.min)) - std::log10(a.min)) / (std::log10(a.max) - std::log10(a.min))
+            : (v - a.min) / (a.max - a.min);
+  return clamp_to(f, 0.0, 1.0);
+}
+
+}  // namespace
+
 double SvgPlot::px(double x) const {
-  const double w = width_ - left_ - right_;
-  double f = 0.0;
-  if (x_.log) {
-    f = (std::log10(std::max(x, x_.min)) - std::log10(x_.min)) / (std::log10(x_.max) - std::log10(x_.min));
-  } else {
-    f = (x - x_.min) / (x_.max - x_.min);
-  }
-  return left_ + w * clamp_to(f, 0.0, 1.0);
+  return left_ + (width_ - left_ - right_) * axis_fraction(x_, x);
 }
 
 double SvgPlot::py(double y) const {
-  const double h = height_ - top_ - bottom_;
-  double f = 0.0;
-  if (y_.log) {
-    f = (std::log10(std::max(y, y_.min)) - std::log10(y_.min)) / (std::log10(y_.max) - std::log10(y_.min));
-  } else {
-    f = (y - y_.min) / (y_.max - y_.min);
-  }
-  return top_ + h * (1.0 - clamp_to(f, 0.0, 1.0));
+  return top_ + (height_ - top_ - bottom_) * (1.0 - axis_fraction(y_, y));
 }
 
 void SvgPlot::point(double x, double y, std::string_view css_class, std::string_view tooltip,
@@ -304,12 +302,14 @@ void SvgPlot::legend(std::string_view css_class, std::string_view name) {
 
 namespace {
 
-// Frame, grid, ticks and axis titles of a plot area [l, r] x [t, b].
-std::string frame(const std::string& title, double width, double height) {
+// The <svg> element's opening, its title, and the background of the plot area [l, r] x [t, b].
+std::string frame(const std::string& title, double width, double height, double l, double t, double r,
+                  double b) {
   return "<svg class=\"fc-chart\" viewBox=\"0 0 " + num(width) + " " + num(height) + "\" width=\"" +
          num(width) + "\" height=\"" + num(height) + "\" role=\"img\" aria-label=\"" + xml_escape(title) +
          "\">\n<title>" + xml_escape(title) + "</title>\n<text class=\"fc-chart-title\" x=\"12\" y=\"22\">" +
-         xml_escape(title) + "</text>\n";
+         xml_escape(title) + "</text>\n<rect class=\"fc-plot-bg\" x=\"" + num(l) + "\" y=\"" + num(t) +
+         "\" width=\"" + num(r - l) + "\" height=\"" + num(b - t) + "\"/>\n";
 }
 
 std::string legend_block(const std::vector<std::pair<std::string, std::string>>& entries, double right_edge,
@@ -336,10 +336,8 @@ std::string legend_block(const std::vector<std::pair<std::string, std::string>>&
 }  // namespace
 
 std::string SvgPlot::str() const {
-  std::string out = frame(title_, width_, height_);
   const double l = left_, r = width_ - right_, t = top_, b = height_ - bottom_;
-  out += "<rect class=\"fc-plot-bg\" x=\"" + num(l) + "\" y=\"" + num(t) + "\" width=\"" + num(r - l) +
-         "\" height=\"" + num(b - t) + "\"/>\n";
+  std::string out = frame(title_, width_, height_, l, t, r, b);
   const std::vector<double> xt = axis_ticks(x_, 7), yt = axis_ticks(y_, 6);
   const double xstep = xt.size() >= 2 ? xt[1] - xt[0] : 1.0, ystep = yt.size() >= 2 ? yt[1] - yt[0] : 1.0;
   for (const double v : xt) {
@@ -375,10 +373,8 @@ std::string svg_bar_chart(const std::vector<std::string>& categories, const std:
   std::vector<double> all;
   for (const BarSeries& s : series) all.insert(all.end(), s.values.begin(), s.values.end());
   fit_axis(y, all, true);
-  const auto py = [&](double v) { return b - (b - t) * clamp_to((v - y.min) / (y.max - y.min), 0.0, 1.0); };
-  std::string out = frame(title, width, height);
-  out += "<rect class=\"fc-plot-bg\" x=\"" + num(l) + "\" y=\"" + num(t) + "\" width=\"" + num(r - l) +
-         "\" height=\"" + num(b - t) + "\"/>\n";
+  const auto py = [&](double v) { return b - (b - t) * axis_fraction(y, v); };
+  std::string out = frame(title, width, height, l, t, r, b);
   const std::vector<double> yt = axis_ticks(y, 6);
   const double ystep = yt.size() >= 2 ? yt[1] - yt[0] : 1.0;
   for (const double v : yt) {
@@ -432,10 +428,8 @@ std::string svg_signed_bars(const std::vector<std::string>& categories, const st
   const double b = t + row * static_cast<double>(std::max<std::size_t>(1, categories.size()));
   const double height = b + 52.0;
   fit_axis(x, values, true);
-  const auto px = [&](double v) { return l + (r - l) * clamp_to((v - x.min) / (x.max - x.min), 0.0, 1.0); };
-  std::string out = frame(title, width, height);
-  out += "<rect class=\"fc-plot-bg\" x=\"" + num(l) + "\" y=\"" + num(t) + "\" width=\"" + num(r - l) +
-         "\" height=\"" + num(b - t) + "\"/>\n";
+  const auto px = [&](double v) { return l + (r - l) * axis_fraction(x, v); };
+  std::string out = frame(title, width, height, l, t, r, b);
   const std::vector<double> xt = axis_ticks(x, 6);
   const double xstep = xt.size() >= 2 ? xt[1] - xt[0] : 1.0;
   for (const double v : xt) {
