@@ -751,6 +751,7 @@ svg.fc-chart { display: block; max-width: 100%; height: auto; font-size: 12px; f
 .fc-table th { text-align: left; border-bottom: 2px solid var(--ink); padding: 4px 8px; font-weight: bold; }
 .fc-table td { border-bottom: 1px solid #ebe6da; padding: 3px 8px; }
 .fc-table .fc-num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+.fc-table th.fc-num { white-space: normal; vertical-align: bottom; }
 .fc-table tbody tr:nth-child(even) td { background: #faf8f2; }
 .fc-alert-row td { color: var(--brick); font-weight: bold; }
 .fc-note { font-size: 12.5px; color: var(--muted); }
