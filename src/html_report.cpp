@@ -528,6 +528,20 @@ std::string portfolio_section(const ReportData& d) {
           std::string(run.correlation_origin.empty() ? "no correlation file" : run.correlation_origin) +
           "). " + count(base.included) + " of " + count(base.obligors.size()) +
           " obligors are in the portfolio; losses in the book's EAD unit.");
+  if (base.included < base.obligors.size()) {
+    std::string left_out;
+    for (std::size_t i = 0; i < run.problems.size() && i < 5; ++i)
+      left_out += (i > 0 ? "; " : "") + run.problems[i];
+    const std::size_t more = run.problems.size() > 5 ? run.problems.size() - 5 + run.problems_not_listed : 0;
+    if (more > 0) left_out += "; and " + count(more) + " more";
+    out += "<p class=\"fc-note\">Left out of the portfolio: " + h(left_out) + ".</p>\n";
+  }
+  if (base.included == 0) {
+    out +=
+        "<p class=\"fc-note\">No obligor is in the portfolio, so there is no loss distribution to "
+        "show.</p>\n";
+    return out + "</section>\n";
+  }
   const bool usable = !dist.tails.empty() && !dist.exceedance.empty();
   if (!usable) {
     out += "<p class=\"fc-note\">The loss distribution could not be computed: " + h(dist.message) + "</p>\n";

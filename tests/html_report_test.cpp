@@ -305,6 +305,21 @@ TEST_CASE("report escapes names and marks obligors that could not be scored") {
   CHECK(failed[2].find("equity_vol") != std::string::npos);
 }
 
+TEST_CASE("report portfolio section names the obligors left out, and draws nothing when none is in") {
+  TempDir t;
+  const std::string book = t.write("b.csv",
+                                   "id,name,market_cap,equity_vol,short_term_debt,long_term_debt,rate,ead\n"
+                                   "NOE-01,No Exposure,1000,0.3,200,400,0.03,\n");
+  const auto r = run_firmcall("report '" + book + "' --portfolio --html '" + t.file("r.html") + "'");
+  CHECK(r.exit_code == 0);  // scored; only the portfolio leaves it out, as `firmcall portfolio` does
+  const std::string html = read_file(t.file("r.html"));
+  CHECK(html.find("<section id=\"portfolio\"") != std::string::npos);
+  CHECK(html.find("Left out of the portfolio: " + t.file("b.csv") +
+                  ":2: obligor &#39;NOE-01&#39;: field &#39;ead&#39;") != std::string::npos);
+  CHECK(html.find("No obligor is in the portfolio") != std::string::npos);
+  CHECK(html.find("fc-portfolio-levels") == std::string::npos);
+}
+
 TEST_CASE("report refuses bad input with exit code 2 and writes nothing") {
   TempDir t;
   const std::string out = t.file("r.html");
