@@ -638,6 +638,13 @@ std::string monitoring_section(const ReportData& d) {
                    "From the history store " + mon.store_path + " (" + count(mon.runs_in_store) +
                        " runs): " + run_text(mon.runs.now) + " against " + run_text(mon.runs.before) +
                        ". Alert rules from the settings (monitoring.alerts).");
+  if (mon.runs.now.book_path != d.book.origin) {
+    const std::string label = mon.runs.now.book_label.empty() ? "" : " (" + mon.runs.now.book_label + ")";
+    out += "<p class=\"fc-note\">The store's runs are of " + h(mon.runs.now.book_path + label) +
+           ", not of this report's book " + h(d.book.origin) +
+           ": names and figures here can differ from the "
+           "sections above.</p>\n";
+  }
   out += "<div class=\"fc-cards\">\n";
   out += card("continuing", count(c.continuing), count(c.added) + " new, " + count(c.dropped) + " dropped");
   out += card("downgraded", count(c.downgraded),

@@ -138,6 +138,9 @@ TEST_CASE("report on the full sample run: exit code, every section, nothing fetc
   // grades, DD/leverage, PD by scenario, 3 per-scenario changes, term, loss distribution, movers.
   CHECK(charts == 9);
   CHECK(f.html.find("Model caution.") != std::string::npos);
+  // The store holds the weekly books, not the demo book: the movers section says so.
+  CHECK(f.html.find("The store's runs are of samples/weekly/week4.yaml (Harbourline credit desk - weekly "
+                    "watch), not of this report's book samples/demo_book.yaml") != std::string::npos);
 }
 
 TEST_CASE("report tables show the score command's CSV values with the table's rounding") {
