@@ -98,5 +98,6 @@ inline void add_store_read_options(CLI::App* cmd, StoreReadOptions& o, bool runs
       ->check(selector);
 }
 void add_portfolio_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
+void add_report_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
 
 }  // namespace firmcall::cli

@@ -1,0 +1,74 @@
+#!/usr/bin/env python3
+"""Checks a firmcall HTML report with a real XML parser (the expat parser of Python's standard
+library): the whole page, and each inline SVG chart on its own, must be well-formed XML.
+
+    python3 tests/report_xml_check.py FIRMCALL SOURCE_DIR
+
+Records the weekly samples into a temporary store, writes the README's full sample report, then
+parses it. Exit code 0 when every check passes, 1 otherwise (CTest test report_xml_well_formed).
+"""
+import os
+import re
+import subprocess
+import sys
+import tempfile
+import xml.etree.ElementTree as ET
+
+
+def main():
+    firmcall, source = sys.argv[1], sys.argv[2]
+    failures = []
+    with tempfile.TemporaryDirectory() as tmp:
+        db = os.path.join(tmp, "weekly.sqlite")
+        for week in range(1, 5):
+            subprocess.run([firmcall, "-q", "score", f"samples/weekly/week{week}.yaml", "--record", "--db", db],
+                           cwd=source, check=True, stdout=subprocess.DEVNULL)
+        page = os.path.join(tmp, "report.html")
+        subprocess.run([firmcall, "-q", "report", "samples/demo_book.yaml", "--scenarios",
+                        "samples/stress_scenarios.yaml", "--names", "GOR-33,BEL-28,CIN-03,ALD-01", "--portfolio",
+                        "--db", db, "--html", page], cwd=source, check=True)
+        with open(page, encoding="utf-8") as f:
+            text = f.read()
+    # An XML parser does not know the HTML5 doctype; it is the only non-XML line of the page.
+    doctype = "<!DOCTYPE html>\n"
+    if not text.startswith(doctype):
+        failures.append("page does not start with the HTML5 doctype")
+    try:
+        root = ET.fromstring(text[len(doctype):])
+    except ET.ParseError as e:
+        failures.append(f"page is not well-formed XML: {e}")
+        root = None
+    svgs = re.findall(r"<svg\b.*?</svg>", text, flags=re.S)
+    if len(svgs) != 9:
+        failures.append(f"expected 9 charts in the full sample run, found {len(svgs)}")
+    for i, svg in enumerate(svgs):
+        try:
+            chart = ET.fromstring(svg)
+        except ET.ParseError as e:
+            failures.append(f"chart {i + 1} is not well-formed XML: {e}")
+            continue
+        if chart.find("title") is None or not (chart.find("title").text or "").strip():
+            failures.append(f"chart {i + 1} has no title")
+        axis_titles = [t for t in chart.iter("text") if "fc-axis-title" in t.get("class", "")]
+        if not axis_titles:
+            failures.append(f"chart {i + 1} has no axis title")
+    if root is not None:
+        sections = [s.get("id") for s in root.iter("section")]
+        expected = ["summary", "dd-leverage", "names", "stress", "term", "portfolio", "monitoring"]
+        if sections != expected:
+            failures.append(f"sections {sections}, expected {expected}")
+        if any(True for _ in root.iter("script")):
+            failures.append("the page has a script element")
+        for element in root.iter():
+            for name, value in element.attrib.items():
+                if name in ("href", "src", "xlink:href") and not value.startswith("#"):
+                    failures.append(f"link out of the page: {name}={value}")
+    for f in failures:
+        print("FAIL:", f)
+    if not failures:
+        print(f"ok: page and {len(svgs)} charts are well-formed XML; sections complete; no links out")
+    return 1 if failures else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
