@@ -5,12 +5,14 @@
 #include <algorithm>
 #include <cmath>
 #include <condition_variable>
+#include <cstdlib>
 #include <cstring>
 #include <deque>
 #include <exception>
 #include <functional>
 #include <memory>
 #include <mutex>
+#include <new>
 #include <thread>
 
 #include "firmcall/csv.hpp"
@@ -100,22 +102,22 @@ class IdRegistry {
 
   /// Makes room for `more` ids without growing in between (so prefetching stays valid).
   void reserve(std::size_t more) {
-    std::size_t size = slots_.empty() ? 1024 : slots_.size();
+    std::size_t size = size_ == 0 ? 1024 : size_;
     while ((count_ + more) * 10 > size * 7) size *= 2;
-    if (size != slots_.size()) rehash(size);
+    if (size != size_) rehash(size);
   }
   /// Hints the cache that the slot of hash h will be probed soon.
   void prefetch(std::uint64_t h) const noexcept {
-    if (!slots_.empty()) __builtin_prefetch(&slots_[static_cast<std::size_t>(h) & (slots_.size() - 1)]);
+    if (size_ != 0) __builtin_prefetch(&slots_[static_cast<std::size_t>(h) & (size_ - 1)]);
   }
 
   /// Returns 0 if the id with hash h is new, else the line where it was first seen.
   std::size_t insert(std::uint64_t h, std::size_t line) {
-    if ((count_ + 1) * 10 > slots_.size() * 7) grow();
-    std::size_t i = static_cast<std::size_t>(h) & (slots_.size() - 1);
+    if ((count_ + 1) * 10 > size_ * 7) grow();
+    std::size_t i = static_cast<std::size_t>(h) & (size_ - 1);
     while (slots_[i].line != 0) {
       if (slots_[i].hash == h) return slots_[i].line;
-      i = (i + 1) & (slots_.size() - 1);
+      i = (i + 1) & (size_ - 1);
     }
     slots_[i] = {h, line};
     ++count_;
@@ -124,21 +126,31 @@ class IdRegistry {
 
  private:
   struct Slot {
-    std::uint64_t hash = 0;
-    std::size_t line = 0;  // 0: empty
+    std::uint64_t hash;
+    std::size_t line;  // 0: empty
   };
-  void grow() { rehash(slots_.empty() ? 1024 : slots_.size() * 2); }
+  struct Free {
+    void operator()(Slot* p) const noexcept { std::free(p); }
+  };
+  void grow() { rehash(size_ == 0 ? 1024 : size_ * 2); }
   void rehash(std::size_t size) {
-    std::vector<Slot> old = std::move(slots_);
-    slots_.assign(size, Slot{});
-    for (const Slot& s : old) {
+    std::unique_ptr<Slot[], Free> old = std::move(slots_);
+    const std::size_t old_size = size_;
+    // All-zero slots are empty; calloc takes a large table as zero pages from the system, so its
+    // pages are touched as ids arrive instead of all at once before the first row.
+    slots_.reset(static_cast<Slot*>(std::calloc(size, sizeof(Slot))));
+    if (!slots_) throw std::bad_alloc();
+    size_ = size;
+    for (std::size_t k = 0; k < old_size; ++k) {
+      const Slot& s = old[k];
       if (s.line == 0) continue;
-      std::size_t i = static_cast<std::size_t>(s.hash) & (slots_.size() - 1);
-      while (slots_[i].line != 0) i = (i + 1) & (slots_.size() - 1);
+      std::size_t i = static_cast<std::size_t>(s.hash) & (size_ - 1);
+      while (slots_[i].line != 0) i = (i + 1) & (size_ - 1);
       slots_[i] = s;
     }
   }
-  std::vector<Slot> slots_;
+  std::unique_ptr<Slot[], Free> slots_;
+  std::size_t size_ = 0;
   std::size_t count_ = 0;
 };
 
