@@ -60,7 +60,7 @@ struct ScoreRunOptions {
   OutputFormat format = OutputFormat::csv;
   unsigned threads = 1;  ///< worker threads (>= 1); output order is the input order
   std::size_t max_listed_problems = 20;
-  std::size_t chunk_bytes = 1 << 19;   ///< CSV streaming: bytes read per step
+  std::size_t chunk_bytes = 1 << 18;   ///< CSV streaming: bytes read per step
   bool sensitivities = false;          ///< add the sensitivity columns (output.hpp, sensitivity.hpp)
   const GradeScale* grades = nullptr;  ///< when set, the output shows each obligor's grade
 };
