@@ -173,44 +173,68 @@ namespace {
 constexpr double kMaxStep = 2.0;      // cap on a Newton step in log units
 constexpr double kStepFloor = 1e-13;  // a step this small means the next would be below rounding
 constexpr double kSettled = 1e-4;     // stop once the residual is this fraction of the tolerance
-constexpr int kMaxHalvings = 60;
+constexpr double kMaxHalvings = 60.0;
+constexpr std::size_t B = vmath::kBlock;
 
-// Residuals at one point per lane, p[j] at (x[j], y[j]) into out[j] (also norm_pdf(d1)): the same
-// arithmetic as evaluate(), with the block functions. Each lane depends only on its own values.
-void evaluate_block(const Problem* const* p, const double* x, const double* y, Eval* out) noexcept {
-  constexpr std::size_t B = vmath::kBlock;
-  double growth[B], sv[B], a1[B], a2[B], c1[B], c2[B], q[B], eq[B];
+// The loops over a block's lanes are written without branches so that the compiler can run them
+// as vector instructions; one copy is compiled per instruction set and the processor's own is
+// chosen once, so a machine always computes the same values.
+#if defined(__x86_64__) && defined(__GNUC__) && !defined(__clang__) && !defined(__SANITIZE_ADDRESS__)
+#define FIRMCALL_LANE_CLONES __attribute__((target_clones("avx512f", "avx2", "default")))
+#else
+#define FIRMCALL_LANE_CLONES
+#endif
+
+// |v| is finite (NaN compares false), in a form the vectoriser takes.
+inline bool finite(double v) noexcept {
+  return std::fabs(v) <= std::numeric_limits<double>::max();
+}
+
+// The problems of a block's lanes, one array per quantity (see Problem).
+struct ProblemBlock {
+  double e[B], se[B], k[B], sqrt_t[B], e_plus_k[B];
+};
+
+// Residuals of a block's lanes at one point each (see Eval), with norm_pdf(d1).
+struct EvalBlock {
+  double f1[B], f2[B], v[B], sv[B], d1[B], d2[B], nd1[B], phi[B];
+};
+
+// Residuals of every lane j at (x[j], y[j]): the same arithmetic as evaluate(), with the block
+// functions. Each lane depends only on its own values.
+FIRMCALL_LANE_CLONES void evaluate_block(const ProblemBlock& p, const double* x, const double* y,
+                                         EvalBlock& out) noexcept {
+  double growth[B], a1[B], a2[B], c1[B], c2[B], q[B], eq[B];
   vmath::expm1(x, growth);
-  vmath::exp(y, sv);
+  vmath::exp(y, out.sv);
   for (std::size_t j = 0; j < B; ++j) {
-    Eval& ev = out[j];
-    const double st = sv[j] * p[j]->sqrt_t;
-    ev.sv = sv[j];
-    ev.d1 = x[j] / st + 0.5 * st;
-    ev.d2 = ev.d1 - st;
+    const double st = out.sv[j] * p.sqrt_t[j];
+    const double d1 = x[j] / st + 0.5 * st;
+    const double d2 = d1 - st;
+    out.d1[j] = d1;
+    out.d2[j] = d2;
     // d2 > 0: upper tails N(-d1), N(-d2) (norm_sf); else N(d1), N(d2) (norm_cdf).
-    const double sign = ev.d2 > 0.0 ? 1.0 : -1.0;
-    a1[j] = (sign * ev.d1) * kInvSqrt2;
-    a2[j] = (sign * ev.d2) * kInvSqrt2;
-    q[j] = -0.5 * ev.d1 * ev.d1;
+    const double sign = d2 > 0.0 ? 1.0 : -1.0;
+    a1[j] = (sign * d1) * kInvSqrt2;
+    a2[j] = (sign * d2) * kInvSqrt2;
+    q[j] = -0.5 * d1 * d1;
   }
   vmath::erfc(a1, c1);
   vmath::erfc(a2, c2);
   vmath::exp(q, eq);
   for (std::size_t j = 0; j < B; ++j) {
-    const Problem& pj = *p[j];
-    Eval& ev = out[j];
-    const double v_minus_k = pj.k * growth[j];
-    ev.v = pj.k + v_minus_k;
-    // Selected without branches (the lanes disagree often): the tails N(-d1), N(-d2) when d2 > 0.
-    const bool upper = ev.d2 > 0.0;
+    const double v_minus_k = p.k[j] * growth[j];
+    const double v = p.k[j] + v_minus_k;
+    const bool upper = out.d2[j] > 0.0;
     const double h1 = 0.5 * c1[j];
     const double h2 = 0.5 * c2[j];
-    ev.nd1 = upper ? 1.0 - h1 : h1;
-    const double call = upper ? v_minus_k + (pj.k * h2 - ev.v * h1) : ev.v * h1 - pj.k * h2;
-    ev.f1 = call / pj.e - 1.0;
-    ev.f2 = ev.nd1 * ev.sv * ev.v / (pj.se * pj.e) - 1.0;
-    ev.phi = kInvSqrt2Pi * eq[j];
+    const double nd1 = upper ? 1.0 - h1 : h1;
+    const double call = upper ? v_minus_k + (p.k[j] * h2 - v * h1) : v * h1 - p.k[j] * h2;
+    out.v[j] = v;
+    out.nd1[j] = nd1;
+    out.f1[j] = call / p.e[j] - 1.0;
+    out.f2[j] = nd1 * out.sv[j] * v / (p.se[j] * p.e[j]) - 1.0;
+    out.phi[j] = kInvSqrt2Pi * eq[j];
   }
 }
 
@@ -219,13 +243,13 @@ struct Prepared {
   Problem p;
   double x_lo, x_hi, y_lo, y_hi;  // x = ln(V/K), y = ln sV
   Eval start;                     // residuals at the start point (x_hi, y_lo)
+  double start_phi;               // norm_pdf(d1) there
 };
 
 // Prepares in[idx[j]] for j < count (count <= kBlock) into out[j]; the logarithms and the
 // discount factor go through the block functions, the rare overflow cases through the C library.
 void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t count,
                    Prepared* out) noexcept {
-  constexpr std::size_t B = vmath::kBlock;
   double neg_rt[B], disc[B], ratio[B], log_ratio[B], log1p_ratio[B], vol_lo[B], log_vol_lo[B], vol_hi[B],
       log_vol_hi[B];
   for (std::size_t j = 0; j < B; ++j) {
@@ -247,129 +271,195 @@ void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t c
   vmath::log1p(ratio, log1p_ratio);
   vmath::log(vol_lo, log_vol_lo);
   vmath::log(vol_hi, log_vol_hi);
-  for (std::size_t j = 0; j < count; ++j) {
+  ProblemBlock pb;
+  double xs[B], ys[B];
+  for (std::size_t j = 0; j < B; ++j) {
     Prepared& q = out[j];
     const double e_over_k = q.p.e / q.p.k;
     q.x_lo = std::isfinite(e_over_k) && e_over_k > 0.0 ? log_ratio[j] : std::log(q.p.e) - std::log(q.p.k);
     q.x_hi = std::isfinite(e_over_k) ? log1p_ratio[j] : q.x_lo + std::log1p(q.p.k / q.p.e);
     q.y_lo = log_vol_lo[j];
     q.y_hi = log_vol_hi[j];
-  }
-  // The start points, V0 = E + K and sV0 = sE E / V0, evaluated together.
-  const Problem* problems[B];
-  double xs[B], ys[B];
-  Eval evals[B];
-  for (std::size_t j = 0; j < B; ++j) {
-    const Prepared& q = out[j < count ? j : 0];
-    problems[j] = &q.p;
+    // The start points, V0 = E + K and sV0 = sE E / V0, evaluated together.
+    pb.e[j] = q.p.e;
+    pb.se[j] = q.p.se;
+    pb.k[j] = q.p.k;
+    pb.sqrt_t[j] = q.p.sqrt_t;
+    pb.e_plus_k[j] = q.p.e_plus_k;
     xs[j] = q.x_hi;
     ys[j] = q.y_lo;
   }
-  evaluate_block(problems, xs, ys, evals);
-  for (std::size_t j = 0; j < count; ++j) out[j].start = evals[j];
+  EvalBlock ev;
+  evaluate_block(pb, xs, ys, ev);
+  for (std::size_t j = 0; j < count; ++j) {
+    out[j].start = Eval{ev.f1[j], ev.f2[j], ev.v[j], ev.sv[j], ev.d1[j], ev.d2[j], ev.nd1[j]};
+    out[j].start_phi = ev.phi[j];
+  }
 }
 
-// The damped Newton iteration for one obligor as a resumable state machine: next_point() names
-// the next line-search trial, take() advances with its residuals.
-// solve_asset_batch() runs up to eight lanes, evaluating their points together; an obligor's
-// arithmetic never depends on the other lanes, so solve_asset() (a batch of one) returns the same.
-struct NewtonLane {
-  Problem p;
-  double x_lo, x_hi, y_lo, y_hi;  // box holding the solution: x = ln(V/K), y = ln sV
-  double x, y;                    // current iterate
-  Eval ev;                        // residuals at (x, y)
-  double merit = 0.0;
-  double dx = 0.0, dy = 0.0, lambda = 1.0;
-  int halvings = 0;
-  int iterations = 0;
-  bool done = false;
+// Newton direction from the analytic Jacobian (see the file comment), capped at kMaxStep; finite
+// is false when the direction is not finite.
+struct Direction {
+  double dx, dy;
+  bool finite;
+};
+inline Direction newton_direction(double e, double se, double sqrt_t, double f1, double f2, double v,
+                                  double sv, double d2, double nd1, double phi) noexcept {
+  const double inv_e = 1.0 / e;
+  const double inv_see = 1.0 / (se * e);
+  const double j11 = v * nd1 * inv_e;
+  const double j12 = v * phi * sv * sqrt_t * inv_e;
+  const double j21 = v * (sv * nd1 + phi / sqrt_t) * inv_see;
+  const double j22 = sv * v * (nd1 - phi * d2) * inv_see;
+  const double det = j11 * j22 - j12 * j21;
+  const double dx = (-f1 * j22 + f2 * j12) / det;
+  const double dy = (-f2 * j11 + f1 * j21) / det;
+  const double adx = std::fabs(dx);
+  const double ady = std::fabs(dy);
+  const double big = adx < ady ? ady : adx;
+  const bool cap = big > kMaxStep;
+  return {cap ? dx * (kMaxStep / big) : dx, cap ? dy * (kMaxStep / big) : dy,
+          static_cast<bool>(finite(dx) & finite(dy))};
+}
 
-  void begin(const Prepared& q, const MertonSolveOptions& o) noexcept {
-    p = q.p;
-    x_lo = q.x_lo;
-    x_hi = q.x_hi;
-    y_lo = q.y_lo;
-    y_hi = q.y_hi;
-    x = x_hi;  // V0 = E + K
-    y = y_lo;  // sV0 = sE E / V0
-    ev = q.start;
-    merit = merit_of(ev);
-    iterations = 0;
-    done = false;
-    plan_step(o);
+// Eight damped Newton iterations side by side (conditions combine with & and | rather than && and
+// ||, so that the loops have no branches), one obligor per lane, as arrays: step() makes one
+// line-search trial on every lane at once (idle lanes hold a harmless fixed problem). An
+// obligor's arithmetic never depends on the other lanes, so solve_asset() (a batch of one)
+// returns what solve_asset_batch() returns.
+struct NewtonBlock {
+  ProblemBlock p;
+  double x_lo[B], x_hi[B], y_lo[B], y_hi[B];
+  double x[B], y[B];  // current iterate: x = ln(V/K), y = ln sV
+  EvalBlock ev;       // residuals at (x, y)
+  double merit[B], dx[B], dy[B], lambda[B];
+  double halvings[B], iterations[B];  // small whole numbers, kept as doubles for the vector loops
+  std::int64_t done[B];
+  // Scratch of step().
+  double xt[B], yt[B];
+  EvalBlock et;
+
+  void idle(std::size_t j) noexcept {
+    p.e[j] = 1.0;
+    p.se[j] = 0.3;
+    p.k[j] = 1.0;
+    p.sqrt_t[j] = 1.0;
+    p.e_plus_k[j] = 2.0;
+    x_lo[j] = x_hi[j] = x[j] = 0.0;
+    y_lo[j] = y_hi[j] = y[j] = -1.0;
+    dx[j] = dy[j] = lambda[j] = 0.0;
+    done[j] = 1;
   }
 
-  // The point to evaluate next; false (and done) when the line search cannot move any more.
-  bool next_point(double& xt, double& yt) noexcept {
-    xt = std::clamp(x + lambda * dx, x_lo, x_hi);
-    yt = std::clamp(y + lambda * dy, y_lo, y_hi);
-    if (xt == x && yt == y) {
-      done = true;
-      return false;
+  // Starts lane j on a prepared obligor: the start is evaluated, the first direction planned.
+  void begin(std::size_t j, const Prepared& q, const MertonSolveOptions& o) noexcept {
+    p.e[j] = q.p.e;
+    p.se[j] = q.p.se;
+    p.k[j] = q.p.k;
+    p.sqrt_t[j] = q.p.sqrt_t;
+    p.e_plus_k[j] = q.p.e_plus_k;
+    x_lo[j] = q.x_lo;
+    x_hi[j] = q.x_hi;
+    y_lo[j] = q.y_lo;
+    y_hi[j] = q.y_hi;
+    x[j] = q.x_hi;  // V0 = E + K
+    y[j] = q.y_lo;  // sV0 = sE E / V0
+    const Eval& s = q.start;
+    ev.f1[j] = s.f1;
+    ev.f2[j] = s.f2;
+    ev.v[j] = s.v;
+    ev.sv[j] = s.sv;
+    ev.d1[j] = s.d1;
+    ev.d2[j] = s.d2;
+    ev.nd1[j] = s.nd1;
+    ev.phi[j] = q.start_phi;
+    merit[j] = s.f1 * s.f1 + s.f2 * s.f2;
+    iterations[j] = 0.0;
+    halvings[j] = 0.0;
+    lambda[j] = 1.0;
+    dx[j] = dy[j] = 0.0;
+    done[j] = 0;
+    if (o.max_newton_iterations <= 0 || !(merit[j] > 0.0)) {
+      done[j] = 1;
+      return;
     }
-    return true;
+    iterations[j] = 1.0;
+    const Direction d =
+        newton_direction(p.e[j], p.se[j], p.sqrt_t[j], s.f1, s.f2, s.v, s.sv, s.d2, s.nd1, q.start_phi);
+    dx[j] = d.dx;
+    dy[j] = d.dy;
+    if (!d.finite) done[j] = 1;
   }
 
-  // Advances with the residuals et at the point next_point() gave.
-  void take(const Eval& et, double xt, double yt, const MertonSolveOptions& o) noexcept {
-    // One backtracking trial on |F|^2, projected into the box.
-    const double mt = merit_of(et);
-    if (mt < merit) {
-      const double taken = std::max(std::fabs(xt - x), std::fabs(yt - y));
-      x = xt;
-      y = yt;
-      ev = et;
-      merit = mt;
+  // One backtracking trial on |F|^2 for every lane, projected into the box; then, where the
+  // trial was taken and the lane is not settled, the next Newton direction.
+  FIRMCALL_LANE_CLONES void step(const MertonSolveOptions& o) noexcept {
+    const double settle = kSettled * o.residual_tolerance;
+    const double max_it = o.max_newton_iterations;
+    for (std::size_t j = 0; j < B; ++j) {
+      const double xr = x[j] + lambda[j] * dx[j];
+      const double yr = y[j] + lambda[j] * dy[j];
+      // std::clamp (the box is never empty), as two selects.
+      const double xl = xr < x_lo[j] ? x_lo[j] : xr;
+      const double yl = yr < y_lo[j] ? y_lo[j] : yr;
+      xt[j] = x_hi[j] < xl ? x_hi[j] : xl;
+      yt[j] = y_hi[j] < yl ? y_hi[j] : yl;
+    }
+    evaluate_block(p, xt, yt, et);
+    for (std::size_t j = 0; j < B; ++j) {
+      const bool stuck = (xt[j] == x[j]) & (yt[j] == y[j]);
+      const double mt = et.f1[j] * et.f1[j] + et.f2[j] * et.f2[j];
+      const bool take = !stuck & (mt < merit[j]);
+      const double ax = std::fabs(xt[j] - x[j]);
+      const double ay = std::fabs(yt[j] - y[j]);
+      const double taken = ax < ay ? ay : ax;
+      x[j] = take ? xt[j] : x[j];
+      y[j] = take ? yt[j] : y[j];
+      ev.f1[j] = take ? et.f1[j] : ev.f1[j];
+      ev.f2[j] = take ? et.f2[j] : ev.f2[j];
+      ev.v[j] = take ? et.v[j] : ev.v[j];
+      ev.sv[j] = take ? et.sv[j] : ev.sv[j];
+      ev.d1[j] = take ? et.d1[j] : ev.d1[j];
+      ev.d2[j] = take ? et.d2[j] : ev.d2[j];
+      ev.nd1[j] = take ? et.nd1[j] : ev.nd1[j];
+      ev.phi[j] = take ? et.phi[j] : ev.phi[j];
+      merit[j] = take ? mt : merit[j];
+      // Residual as residual_of(), at the (possibly new) iterate.
+      const double r1 = std::fabs(ev.f1[j]) * p.e[j] / p.e_plus_k[j];
+      const double r2 = std::fabs(ev.f2[j]);
+      const double residual = r1 < r2 ? r2 : r1;
       // At the rounding floor, or settled (a further quadratic step would chase rounding).
-      if (taken < kStepFloor || residual_of(p, ev) <= kSettled * o.residual_tolerance) {
-        done = true;
-        return;
-      }
-      plan_step(o);
-      return;
+      const bool settled = take & ((taken < kStepFloor) | (residual <= settle));
+      const bool rejected = !stuck & !take;
+      lambda[j] = rejected ? lambda[j] * 0.5 : lambda[j];
+      halvings[j] = rejected ? halvings[j] + 1.0 : halvings[j];
+      const bool out_of_halvings = rejected & (halvings[j] >= kMaxHalvings);
+      const bool plan = take & !settled;
+      const bool limit = (iterations[j] >= max_it) | !(merit[j] > 0.0);
+      const Direction d = newton_direction(p.e[j], p.se[j], p.sqrt_t[j], ev.f1[j], ev.f2[j], ev.v[j],
+                                           ev.sv[j], ev.d2[j], ev.nd1[j], ev.phi[j]);
+      const bool planned = plan & !limit;
+      iterations[j] = planned ? iterations[j] + 1.0 : iterations[j];
+      const bool moved = planned & d.finite;
+      dx[j] = moved ? d.dx : dx[j];
+      dy[j] = moved ? d.dy : dy[j];
+      lambda[j] = moved ? 1.0 : lambda[j];
+      halvings[j] = moved ? 0.0 : halvings[j];
+      const bool finished = stuck | settled | out_of_halvings | (plan & (limit | !d.finite));
+      done[j] = finished ? 1 : done[j];
     }
-    lambda *= 0.5;
-    if (++halvings >= kMaxHalvings) done = true;
   }
 
-  // Newton direction from the analytic Jacobian at the current iterate.
-  void plan_step(const MertonSolveOptions& o) noexcept {
-    if (iterations >= o.max_newton_iterations || !(merit > 0.0)) {
-      done = true;
-      return;
-    }
-    ++iterations;
-    const double phi = ev.phi;
-    const double inv_e = 1.0 / p.e;
-    const double inv_see = 1.0 / (p.se * p.e);
-    const double j11 = ev.v * ev.nd1 * inv_e;
-    const double j12 = ev.v * phi * ev.sv * p.sqrt_t * inv_e;
-    const double j21 = ev.v * (ev.sv * ev.nd1 + phi / p.sqrt_t) * inv_see;
-    const double j22 = ev.sv * ev.v * (ev.nd1 - phi * ev.d2) * inv_see;
-    const double det = j11 * j22 - j12 * j21;
-    dx = (-ev.f1 * j22 + ev.f2 * j12) / det;
-    dy = (-ev.f2 * j11 + ev.f1 * j21) / det;
-    if (!std::isfinite(dx) || !std::isfinite(dy)) {
-      done = true;
-      return;
-    }
-    const double big = std::max(std::fabs(dx), std::fabs(dy));
-    if (big > kMaxStep) {
-      dx *= kMaxStep / big;
-      dy *= kMaxStep / big;
-    }
-    lambda = 1.0;
-    halvings = 0;
-  }
-
-  // Result of a finished lane; runs the bracketed fallback when Newton fell short.
-  AssetSolution finish(const MertonSolveOptions& o) const noexcept {
+  // Result of lane j once done; runs the bracketed fallback when Newton fell short.
+  AssetSolution finish(std::size_t j, const MertonSolveOptions& o) const noexcept {
+    const Problem pj{p.e[j], p.se[j], p.k[j], p.sqrt_t[j], p.e_plus_k[j]};
+    const Eval e{ev.f1[j], ev.f2[j], ev.v[j], ev.sv[j], ev.d1[j], ev.d2[j], ev.nd1[j]};
     AssetSolution out;
-    out.iterations = iterations;
-    out.residual = residual_of(p, ev);
+    out.iterations = static_cast<int>(iterations[j]);
+    out.residual = residual_of(pj, e);
     if (out.residual <= o.residual_tolerance) {
-      out.asset_value = ev.v;
-      out.asset_vol_annual = ev.sv;
+      out.asset_value = e.v;
+      out.asset_vol_annual = e.sv;
       out.status = SolveStatus::converged;
       out.method = SolveMethod::newton;
       return out;
@@ -377,11 +467,11 @@ struct NewtonLane {
     double xb = 0.0;
     double sv = 0.0;
     int evals = 0;
-    const bool ok = solve_bracketed(p, x_lo, x_hi, o.max_fallback_iterations, xb, sv, evals);
-    out.iterations = iterations + evals;
+    const bool ok = solve_bracketed(pj, x_lo[j], x_hi[j], o.max_fallback_iterations, xb, sv, evals);
+    out.iterations += evals;
     out.method = SolveMethod::bracketed;
-    const Eval eb = evaluate(p, xb, std::log(sv));
-    out.residual = residual_of(p, eb);
+    const Eval eb = evaluate(pj, xb, std::log(sv));
+    out.residual = residual_of(pj, eb);
     if (ok && out.residual <= o.residual_tolerance) {
       out.asset_value = eb.v;
       out.asset_vol_annual = sv;
@@ -403,73 +493,50 @@ AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& opti
 
 void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n,
                        const MertonSolveOptions& options) noexcept {
-  constexpr std::size_t B = vmath::kBlock;
   // Obligors are validated and prepared eight at a time, then handed to free lanes in order.
   Prepared prepared[B];
   std::size_t prepared_owner[B];
   std::size_t prepared_count = 0, prepared_next = 0;
   std::size_t next = 0;  // next obligor to validate
-  const auto load_prepared = [&](NewtonLane& lane, std::size_t& owner) {
-    if (prepared_next == prepared_count) {
-      prepared_count = prepared_next = 0;
-      while (next < n && prepared_count < B) {
-        const std::size_t i = next++;
-        out[i] = AssetSolution{};
-        out[i].input_check = validate(in[i]);
-        if (out[i].input_check.ok()) prepared_owner[prepared_count++] = i;
-      }
-      if (prepared_count == 0) return false;
-      prepare_block(in, prepared_owner, prepared_count, prepared);
-    }
-    lane.begin(prepared[prepared_next], options);
-    owner = prepared_owner[prepared_next++];
-    return true;
-  };
-  // Starts the next obligor on a lane; one that needs no step finishes at once. False when none
-  // is left.
-  const auto take_prepared = [&](NewtonLane& lane, std::size_t& owner) {
-    while (true) {
-      if (!load_prepared(lane, owner)) return false;
-      if (!lane.done) return true;
-      out[owner] = lane.finish(options);
-    }
-  };
-
-  NewtonLane lanes[B];
+  NewtonBlock block;
   std::size_t owner[B];
   bool busy[B] = {};
-  // Idle lanes evaluate a harmless fixed point whose results are ignored.
-  const Problem idle{1.0, 0.3, 1.0, 1.0, 2.0};
-  const Problem* problems[B];
-  double xs[B], ys[B];
-  Eval evals[B];
-  while (true) {
-    bool any = false;
-    for (std::size_t s = 0; s < B; ++s) {
-      if (!busy[s]) busy[s] = take_prepared(lanes[s], owner[s]);
-      // A lane whose line search is exhausted finishes and takes the next obligor.
-      while (busy[s] && !lanes[s].next_point(xs[s], ys[s])) {
-        out[owner[s]] = lanes[s].finish(options);
-        busy[s] = take_prepared(lanes[s], owner[s]);
+  // Starts the next obligor on lane j (one that needs no step finishes at once); false when none
+  // is left, and the lane is then idle.
+  const auto load = [&](std::size_t j) {
+    while (true) {
+      if (prepared_next == prepared_count) {
+        prepared_count = prepared_next = 0;
+        while (next < n && prepared_count < B) {
+          const std::size_t i = next++;
+          out[i] = AssetSolution{};
+          out[i].input_check = validate(in[i]);
+          if (out[i].input_check.ok()) prepared_owner[prepared_count++] = i;
+        }
+        if (prepared_count == 0) {
+          block.idle(j);
+          return false;
+        }
+        prepare_block(in, prepared_owner, prepared_count, prepared);
       }
-      if (busy[s]) {
-        problems[s] = &lanes[s].p;
-        any = true;
-      } else {
-        problems[s] = &idle;
-        xs[s] = 0.0;
-        ys[s] = -1.0;
-      }
+      block.begin(j, prepared[prepared_next], options);
+      owner[j] = prepared_owner[prepared_next++];
+      if (block.done[j] == 0) return true;
+      out[owner[j]] = block.finish(j, options);
     }
-    if (!any) return;
-    evaluate_block(problems, xs, ys, evals);
-    for (std::size_t s = 0; s < B; ++s) {
-      if (!busy[s]) continue;
-      lanes[s].take(evals[s], xs[s], ys[s], options);
-      if (lanes[s].done) {
-        out[owner[s]] = lanes[s].finish(options);
-        busy[s] = false;
-      }
+  };
+  std::size_t active = 0;
+  for (std::size_t j = 0; j < B; ++j) {
+    busy[j] = load(j);
+    active += busy[j];
+  }
+  while (active > 0) {
+    block.step(options);
+    for (std::size_t j = 0; j < B; ++j) {
+      if (!busy[j] || block.done[j] == 0) continue;
+      out[owner[j]] = block.finish(j, options);
+      busy[j] = load(j);
+      if (!busy[j]) --active;
     }
   }
 }
