@@ -13,6 +13,7 @@
 #include "firmcall/merton_solver.hpp"
 
 #include <algorithm>
+#include <bit>
 #include <boost/math/policies/policy.hpp>
 #include <boost/math/tools/roots.hpp>
 #include <boost/math/tools/toms748_solve.hpp>
@@ -242,8 +243,6 @@ FIRMCALL_LANE_CLONES void evaluate_block(const ProblemBlock& p, const double* x,
 struct Prepared {
   Problem p;
   double x_lo, x_hi, y_lo, y_hi;  // x = ln(V/K), y = ln sV
-  Eval start;                     // residuals at the start point (x_hi, y_lo)
-  double start_phi;               // norm_pdf(d1) there
 };
 
 // Prepares in[idx[j]] for j < count (count <= kBlock) into out[j]; the logarithms and the
@@ -271,29 +270,13 @@ void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t c
   vmath::log1p(ratio, log1p_ratio);
   vmath::log(vol_lo, log_vol_lo);
   vmath::log(vol_hi, log_vol_hi);
-  ProblemBlock pb;
-  double xs[B], ys[B];
-  for (std::size_t j = 0; j < B; ++j) {
+  for (std::size_t j = 0; j < count; ++j) {
     Prepared& q = out[j];
     const double e_over_k = q.p.e / q.p.k;
     q.x_lo = std::isfinite(e_over_k) && e_over_k > 0.0 ? log_ratio[j] : std::log(q.p.e) - std::log(q.p.k);
     q.x_hi = std::isfinite(e_over_k) ? log1p_ratio[j] : q.x_lo + std::log1p(q.p.k / q.p.e);
     q.y_lo = log_vol_lo[j];
     q.y_hi = log_vol_hi[j];
-    // The start points, V0 = E + K and sV0 = sE E / V0, evaluated together.
-    pb.e[j] = q.p.e;
-    pb.se[j] = q.p.se;
-    pb.k[j] = q.p.k;
-    pb.sqrt_t[j] = q.p.sqrt_t;
-    pb.e_plus_k[j] = q.p.e_plus_k;
-    xs[j] = q.x_hi;
-    ys[j] = q.y_lo;
-  }
-  EvalBlock ev;
-  evaluate_block(pb, xs, ys, ev);
-  for (std::size_t j = 0; j < count; ++j) {
-    out[j].start = Eval{ev.f1[j], ev.f2[j], ev.v[j], ev.sv[j], ev.d1[j], ev.d2[j], ev.nd1[j]};
-    out[j].start_phi = ev.phi[j];
   }
 }
 
@@ -334,6 +317,7 @@ struct NewtonBlock {
   EvalBlock ev;       // residuals at (x, y)
   double merit[B], dx[B], dy[B], lambda[B];
   double halvings[B], iterations[B];  // small whole numbers, kept as doubles for the vector loops
+  std::int64_t fresh[B];              // the start point is not evaluated yet
   std::int64_t done[B];
   // Scratch of step().
   double xt[B], yt[B];
@@ -348,11 +332,13 @@ struct NewtonBlock {
     x_lo[j] = x_hi[j] = x[j] = 0.0;
     y_lo[j] = y_hi[j] = y[j] = -1.0;
     dx[j] = dy[j] = lambda[j] = 0.0;
+    fresh[j] = 0;
     done[j] = 1;
   }
 
-  // Starts lane j on a prepared obligor: the start is evaluated, the first direction planned.
-  void begin(std::size_t j, const Prepared& q, const MertonSolveOptions& o) noexcept {
+  // Starts lane j on a prepared obligor: its next step() evaluates the start point and plans the
+  // first direction.
+  void begin(std::size_t j, const Prepared& q) noexcept {
     p.e[j] = q.p.e;
     p.se[j] = q.p.se;
     p.k[j] = q.p.k;
@@ -362,38 +348,21 @@ struct NewtonBlock {
     x_hi[j] = q.x_hi;
     y_lo[j] = q.y_lo;
     y_hi[j] = q.y_hi;
-    x[j] = q.x_hi;  // V0 = E + K
-    y[j] = q.y_lo;  // sV0 = sE E / V0
-    const Eval& s = q.start;
-    ev.f1[j] = s.f1;
-    ev.f2[j] = s.f2;
-    ev.v[j] = s.v;
-    ev.sv[j] = s.sv;
-    ev.d1[j] = s.d1;
-    ev.d2[j] = s.d2;
-    ev.nd1[j] = s.nd1;
-    ev.phi[j] = q.start_phi;
-    merit[j] = s.f1 * s.f1 + s.f2 * s.f2;
+    x[j] = q.x_hi;        // V0 = E + K
+    y[j] = q.y_lo;        // sV0 = sE E / V0
+    dx[j] = dy[j] = 0.0;  // so that the trial point is the start itself
+    lambda[j] = 1.0;
+    merit[j] = 0.0;
     iterations[j] = 0.0;
     halvings[j] = 0.0;
-    lambda[j] = 1.0;
-    dx[j] = dy[j] = 0.0;
+    fresh[j] = 1;
     done[j] = 0;
-    if (o.max_newton_iterations <= 0 || !(merit[j] > 0.0)) {
-      done[j] = 1;
-      return;
-    }
-    iterations[j] = 1.0;
-    const Direction d =
-        newton_direction(p.e[j], p.se[j], p.sqrt_t[j], s.f1, s.f2, s.v, s.sv, s.d2, s.nd1, q.start_phi);
-    dx[j] = d.dx;
-    dy[j] = d.dy;
-    if (!d.finite) done[j] = 1;
   }
 
-  // One backtracking trial on |F|^2 for every lane, projected into the box; then, where the
-  // trial was taken and the lane is not settled, the next Newton direction.
-  FIRMCALL_LANE_CLONES void step(const MertonSolveOptions& o) noexcept {
+  // One backtracking trial on |F|^2 for every lane, projected into the box (a fresh lane evaluates
+  // its start instead and always takes it); then, where the trial was taken and the lane is not
+  // settled, the next Newton direction. Returns the lanes that are done, bit j for lane j.
+  FIRMCALL_LANE_CLONES unsigned step(const MertonSolveOptions& o) noexcept {
     const double settle = kSettled * o.residual_tolerance;
     const double max_it = o.max_newton_iterations;
     for (std::size_t j = 0; j < B; ++j) {
@@ -407,9 +376,10 @@ struct NewtonBlock {
     }
     evaluate_block(p, xt, yt, et);
     for (std::size_t j = 0; j < B; ++j) {
-      const bool stuck = (xt[j] == x[j]) & (yt[j] == y[j]);
+      const bool start = fresh[j] != 0;
+      const bool stuck = !start & (xt[j] == x[j]) & (yt[j] == y[j]);
       const double mt = et.f1[j] * et.f1[j] + et.f2[j] * et.f2[j];
-      const bool take = !stuck & (mt < merit[j]);
+      const bool take = start | (!stuck & (mt < merit[j]));
       const double ax = std::fabs(xt[j] - x[j]);
       const double ay = std::fabs(yt[j] - y[j]);
       const double taken = ax < ay ? ay : ax;
@@ -429,7 +399,7 @@ struct NewtonBlock {
       const double r2 = std::fabs(ev.f2[j]);
       const double residual = r1 < r2 ? r2 : r1;
       // At the rounding floor, or settled (a further quadratic step would chase rounding).
-      const bool settled = take & ((taken < kStepFloor) | (residual <= settle));
+      const bool settled = take & !start & ((taken < kStepFloor) | (residual <= settle));
       const bool rejected = !stuck & !take;
       lambda[j] = rejected ? lambda[j] * 0.5 : lambda[j];
       halvings[j] = rejected ? halvings[j] + 1.0 : halvings[j];
@@ -447,7 +417,11 @@ struct NewtonBlock {
       halvings[j] = moved ? 0.0 : halvings[j];
       const bool finished = stuck | settled | out_of_halvings | (plan & (limit | !d.finite));
       done[j] = finished ? 1 : done[j];
+      fresh[j] = 0;
     }
+    unsigned mask = 0;
+    for (std::size_t j = 0; j < B; ++j) mask |= static_cast<unsigned>(done[j] != 0) << j;
+    return mask;
   }
 
   // Result of lane j once done; runs the bracketed fallback when Newton fell short.
@@ -500,43 +474,33 @@ void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n
   std::size_t next = 0;  // next obligor to validate
   NewtonBlock block;
   std::size_t owner[B];
-  bool busy[B] = {};
-  // Starts the next obligor on lane j (one that needs no step finishes at once); false when none
-  // is left, and the lane is then idle.
+  // Starts the next obligor on lane j; false when none is left, and the lane is then idle.
   const auto load = [&](std::size_t j) {
-    while (true) {
-      if (prepared_next == prepared_count) {
-        prepared_count = prepared_next = 0;
-        while (next < n && prepared_count < B) {
-          const std::size_t i = next++;
-          out[i] = AssetSolution{};
-          out[i].input_check = validate(in[i]);
-          if (out[i].input_check.ok()) prepared_owner[prepared_count++] = i;
-        }
-        if (prepared_count == 0) {
-          block.idle(j);
-          return false;
-        }
-        prepare_block(in, prepared_owner, prepared_count, prepared);
+    if (prepared_next == prepared_count) {
+      prepared_count = prepared_next = 0;
+      while (next < n && prepared_count < B) {
+        const std::size_t i = next++;
+        out[i] = AssetSolution{};
+        out[i].input_check = validate(in[i]);
+        if (out[i].input_check.ok()) prepared_owner[prepared_count++] = i;
       }
-      block.begin(j, prepared[prepared_next], options);
-      owner[j] = prepared_owner[prepared_next++];
-      if (block.done[j] == 0) return true;
-      out[owner[j]] = block.finish(j, options);
+      if (prepared_count == 0) {
+        block.idle(j);
+        return false;
+      }
+      prepare_block(in, prepared_owner, prepared_count, prepared);
     }
+    block.begin(j, prepared[prepared_next]);
+    owner[j] = prepared_owner[prepared_next++];
+    return true;
   };
-  std::size_t active = 0;
-  for (std::size_t j = 0; j < B; ++j) {
-    busy[j] = load(j);
-    active += busy[j];
-  }
-  while (active > 0) {
-    block.step(options);
-    for (std::size_t j = 0; j < B; ++j) {
-      if (!busy[j] || block.done[j] == 0) continue;
+  unsigned busy = 0;  // bit j: lane j holds an obligor
+  for (std::size_t j = 0; j < B; ++j) busy |= static_cast<unsigned>(load(j)) << j;
+  while (busy != 0) {
+    for (unsigned finished = block.step(options) & busy; finished != 0; finished &= finished - 1) {
+      const auto j = static_cast<std::size_t>(std::countr_zero(finished));
       out[owner[j]] = block.finish(j, options);
-      busy[j] = load(j);
-      if (!busy[j]) --active;
+      if (!load(j)) busy &= ~(1U << j);
     }
   }
 }
