@@ -194,6 +194,19 @@ inline bool finite(double v) noexcept {
 // The problems of a block's lanes, one array per quantity (see Problem).
 struct ProblemBlock {
   double e[B], se[B], k[B], sqrt_t[B], e_plus_k[B];
+  // Derived once per obligor, so that a step divides as little as possible.
+  double inv_e[B], inv_se_e[B], inv_sqrt_t[B], e_over_e_plus_k[B];
+  void set(std::size_t j, const Problem& q) noexcept {
+    e[j] = q.e;
+    se[j] = q.se;
+    k[j] = q.k;
+    sqrt_t[j] = q.sqrt_t;
+    e_plus_k[j] = q.e_plus_k;
+    inv_e[j] = 1.0 / q.e;
+    inv_se_e[j] = 1.0 / (q.se * q.e);
+    inv_sqrt_t[j] = 1.0 / q.sqrt_t;
+    e_over_e_plus_k[j] = q.e / q.e_plus_k;
+  }
 };
 
 // Residuals of a block's lanes at one point each (see Eval), with norm_pdf(d1).
@@ -233,8 +246,8 @@ FIRMCALL_LANE_CLONES void evaluate_block(const ProblemBlock& p, const double* x,
     const double call = upper ? v_minus_k + (p.k[j] * h2 - v * h1) : v * h1 - p.k[j] * h2;
     out.v[j] = v;
     out.nd1[j] = nd1;
-    out.f1[j] = call / p.e[j] - 1.0;
-    out.f2[j] = nd1 * out.sv[j] * v / (p.se[j] * p.e[j]) - 1.0;
+    out.f1[j] = call * p.inv_e[j] - 1.0;
+    out.f2[j] = nd1 * out.sv[j] * v * p.inv_se_e[j] - 1.0;
     out.phi[j] = kInvSqrt2Pi * eq[j];
   }
 }
@@ -286,17 +299,17 @@ struct Direction {
   double dx, dy;
   bool finite;
 };
-inline Direction newton_direction(double e, double se, double sqrt_t, double f1, double f2, double v,
+inline Direction newton_direction(const ProblemBlock& p, std::size_t j, double f1, double f2, double v,
                                   double sv, double d2, double nd1, double phi) noexcept {
-  const double inv_e = 1.0 / e;
-  const double inv_see = 1.0 / (se * e);
+  const double inv_e = p.inv_e[j];
+  const double inv_see = p.inv_se_e[j];
   const double j11 = v * nd1 * inv_e;
-  const double j12 = v * phi * sv * sqrt_t * inv_e;
-  const double j21 = v * (sv * nd1 + phi / sqrt_t) * inv_see;
+  const double j12 = v * phi * sv * p.sqrt_t[j] * inv_e;
+  const double j21 = v * (sv * nd1 + phi * p.inv_sqrt_t[j]) * inv_see;
   const double j22 = sv * v * (nd1 - phi * d2) * inv_see;
-  const double det = j11 * j22 - j12 * j21;
-  const double dx = (-f1 * j22 + f2 * j12) / det;
-  const double dy = (-f2 * j11 + f1 * j21) / det;
+  const double inv_det = 1.0 / (j11 * j22 - j12 * j21);
+  const double dx = (-f1 * j22 + f2 * j12) * inv_det;
+  const double dy = (-f2 * j11 + f1 * j21) * inv_det;
   const double adx = std::fabs(dx);
   const double ady = std::fabs(dy);
   const double big = adx < ady ? ady : adx;
@@ -324,11 +337,7 @@ struct NewtonBlock {
   EvalBlock et;
 
   void idle(std::size_t j) noexcept {
-    p.e[j] = 1.0;
-    p.se[j] = 0.3;
-    p.k[j] = 1.0;
-    p.sqrt_t[j] = 1.0;
-    p.e_plus_k[j] = 2.0;
+    p.set(j, Problem{1.0, 0.3, 1.0, 1.0, 2.0});
     x_lo[j] = x_hi[j] = x[j] = 0.0;
     y_lo[j] = y_hi[j] = y[j] = -1.0;
     dx[j] = dy[j] = lambda[j] = 0.0;
@@ -339,11 +348,7 @@ struct NewtonBlock {
   // Starts lane j on a prepared obligor: its next step() evaluates the start point and plans the
   // first direction.
   void begin(std::size_t j, const Prepared& q) noexcept {
-    p.e[j] = q.p.e;
-    p.se[j] = q.p.se;
-    p.k[j] = q.p.k;
-    p.sqrt_t[j] = q.p.sqrt_t;
-    p.e_plus_k[j] = q.p.e_plus_k;
+    p.set(j, q.p);
     x_lo[j] = q.x_lo;
     x_hi[j] = q.x_hi;
     y_lo[j] = q.y_lo;
@@ -395,7 +400,7 @@ struct NewtonBlock {
       ev.phi[j] = take ? et.phi[j] : ev.phi[j];
       merit[j] = take ? mt : merit[j];
       // Residual as residual_of(), at the (possibly new) iterate.
-      const double r1 = std::fabs(ev.f1[j]) * p.e[j] / p.e_plus_k[j];
+      const double r1 = std::fabs(ev.f1[j]) * p.e_over_e_plus_k[j];
       const double r2 = std::fabs(ev.f2[j]);
       const double residual = r1 < r2 ? r2 : r1;
       // At the rounding floor, or settled (a further quadratic step would chase rounding).
@@ -406,8 +411,8 @@ struct NewtonBlock {
       const bool out_of_halvings = rejected & (halvings[j] >= kMaxHalvings);
       const bool plan = take & !settled;
       const bool limit = (iterations[j] >= max_it) | !(merit[j] > 0.0);
-      const Direction d = newton_direction(p.e[j], p.se[j], p.sqrt_t[j], ev.f1[j], ev.f2[j], ev.v[j],
-                                           ev.sv[j], ev.d2[j], ev.nd1[j], ev.phi[j]);
+      const Direction d =
+          newton_direction(p, j, ev.f1[j], ev.f2[j], ev.v[j], ev.sv[j], ev.d2[j], ev.nd1[j], ev.phi[j]);
       const bool planned = plan & !limit;
       iterations[j] = planned ? iterations[j] + 1.0 : iterations[j];
       const bool moved = planned & d.finite;
