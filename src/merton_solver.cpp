@@ -217,11 +217,12 @@ struct EvalBlock {
 // Residuals of every lane j at (x[j], y[j]): the same arithmetic as evaluate(), with the block
 // functions. Each lane depends only on its own values.
 FIRMCALL_LANE_CLONES void evaluate_block(const ProblemBlock& p, const double* x, const double* y,
-                                         EvalBlock& out) noexcept {
-  double growth[B], a1[B], a2[B], c1[B], c2[B], q[B], eq[B];
+                                         EvalBlock& out, std::size_t lanes = B) noexcept {
+  // Lanes from `lanes` on are computed by the block functions too and ignored.
+  double growth[B], a1[B] = {}, a2[B] = {}, c1[B], c2[B], q[B] = {}, eq[B];
   vmath::expm1(x, growth);
   vmath::exp(y, out.sv);
-  for (std::size_t j = 0; j < B; ++j) {
+  for (std::size_t j = 0; j < lanes; ++j) {
     const double st = out.sv[j] * p.sqrt_t[j];
     const double d1 = x[j] / st + 0.5 * st;
     const double d2 = d1 - st;
@@ -236,7 +237,7 @@ FIRMCALL_LANE_CLONES void evaluate_block(const ProblemBlock& p, const double* x,
   vmath::erfc(a1, c1);
   vmath::erfc(a2, c2);
   vmath::exp(q, eq);
-  for (std::size_t j = 0; j < B; ++j) {
+  for (std::size_t j = 0; j < lanes; ++j) {
     const double v_minus_k = p.k[j] * growth[j];
     const double v = p.k[j] + v_minus_k;
     const bool upper = out.d2[j] > 0.0;
@@ -262,15 +263,17 @@ struct Prepared {
 // discount factor go through the block functions, the rare overflow cases through the C library.
 void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t count,
                    Prepared* out) noexcept {
-  double neg_rt[B], disc[B], ratio[B], log_ratio[B], log1p_ratio[B], vol_lo[B], log_vol_lo[B], vol_hi[B],
-      log_vol_hi[B];
+  // Unused entries (j >= count) hold 1: their results are ignored.
+  double neg_rt[B], disc[B], log_ratio[B], log1p_ratio[B], log_vol_lo[B], log_vol_hi[B];
+  double ratio[B] = {1, 1, 1, 1, 1, 1, 1, 1}, vol_lo[B] = {1, 1, 1, 1, 1, 1, 1, 1},
+         vol_hi[B] = {1, 1, 1, 1, 1, 1, 1, 1};
   for (std::size_t j = 0; j < B; ++j) {
     const MertonInputs& m = in[idx[j < count ? j : 0]];
     neg_rt[j] = -m.risk_free_rate_cc * m.horizon_years;
   }
   vmath::exp(neg_rt, disc);
-  for (std::size_t j = 0; j < B; ++j) {
-    const MertonInputs& m = in[idx[j < count ? j : 0]];
+  for (std::size_t j = 0; j < count; ++j) {
+    const MertonInputs& m = in[idx[j]];
     Problem& p = out[j].p;
     const double k = m.default_point * disc[j];
     p = Problem{m.equity_value, m.equity_vol_annual, k, std::sqrt(m.horizon_years), m.equity_value + k};
@@ -318,7 +321,7 @@ inline Direction newton_direction(const ProblemBlock& p, std::size_t j, double f
           static_cast<bool>(finite(dx) & finite(dy))};
 }
 
-// Eight damped Newton iterations side by side (conditions combine with & and | rather than && and
+// Up to eight damped Newton iterations side by side (conditions combine with & and | rather than && and
 // ||, so that the loops have no branches), one obligor per lane, as arrays: step() makes one
 // line-search trial on every lane at once (idle lanes hold a harmless fixed problem). An
 // obligor's arithmetic never depends on the other lanes, so solve_asset() (a batch of one)
@@ -335,9 +338,23 @@ struct NewtonBlock {
   // Scratch of step().
   double xt[B], yt[B];
   EvalBlock et;
+  std::size_t lanes;  // lanes in use, 1..B: a single obligor is solved on one lane
+
+  explicit NewtonBlock(std::size_t used) noexcept : lanes(std::clamp<std::size_t>(used, 1, B)) {
+    for (std::size_t j = 0; j < B; ++j) {
+      idle(j);
+      xt[j] = x[j];
+      yt[j] = y[j];
+    }
+  }
 
   void idle(std::size_t j) noexcept {
-    p.set(j, Problem{1.0, 0.3, 1.0, 1.0, 2.0});
+    // The problem E = 1, sE = 0.3, K = 1, T = 1 and its derived values, written out.
+    p.e[j] = p.k[j] = p.sqrt_t[j] = p.inv_e[j] = p.inv_sqrt_t[j] = 1.0;
+    p.se[j] = 0.3;
+    p.e_plus_k[j] = 2.0;
+    p.inv_se_e[j] = 1.0 / 0.3;
+    p.e_over_e_plus_k[j] = 0.5;
     x_lo[j] = x_hi[j] = x[j] = 0.0;
     y_lo[j] = y_hi[j] = y[j] = -1.0;
     dx[j] = dy[j] = lambda[j] = 0.0;
@@ -370,7 +387,7 @@ struct NewtonBlock {
   FIRMCALL_LANE_CLONES unsigned step(const MertonSolveOptions& o) noexcept {
     const double settle = kSettled * o.residual_tolerance;
     const double max_it = o.max_newton_iterations;
-    for (std::size_t j = 0; j < B; ++j) {
+    for (std::size_t j = 0; j < lanes; ++j) {
       const double xr = x[j] + lambda[j] * dx[j];
       const double yr = y[j] + lambda[j] * dy[j];
       // std::clamp (the box is never empty), as two selects.
@@ -379,8 +396,8 @@ struct NewtonBlock {
       xt[j] = x_hi[j] < xl ? x_hi[j] : xl;
       yt[j] = y_hi[j] < yl ? y_hi[j] : yl;
     }
-    evaluate_block(p, xt, yt, et);
-    for (std::size_t j = 0; j < B; ++j) {
+    evaluate_block(p, xt, yt, et, lanes);
+    for (std::size_t j = 0; j < lanes; ++j) {
       const bool start = fresh[j] != 0;
       const bool stuck = !start & (xt[j] == x[j]) & (yt[j] == y[j]);
       const double mt = et.f1[j] * et.f1[j] + et.f2[j] * et.f2[j];
@@ -425,7 +442,7 @@ struct NewtonBlock {
       fresh[j] = 0;
     }
     unsigned mask = 0;
-    for (std::size_t j = 0; j < B; ++j) mask |= static_cast<unsigned>(done[j] != 0) << j;
+    for (std::size_t j = 0; j < lanes; ++j) mask |= static_cast<unsigned>(done[j] != 0) << j;
     return mask;
   }
 
@@ -477,7 +494,7 @@ void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n
   std::size_t prepared_owner[B];
   std::size_t prepared_count = 0, prepared_next = 0;
   std::size_t next = 0;  // next obligor to validate
-  NewtonBlock block;
+  NewtonBlock block(n);
   std::size_t owner[B];
   // Starts the next obligor on lane j; false when none is left, and the lane is then idle.
   const auto load = [&](std::size_t j) {
@@ -500,7 +517,7 @@ void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n
     return true;
   };
   unsigned busy = 0;  // bit j: lane j holds an obligor
-  for (std::size_t j = 0; j < B; ++j) busy |= static_cast<unsigned>(load(j)) << j;
+  for (std::size_t j = 0; j < block.lanes; ++j) busy |= static_cast<unsigned>(load(j)) << j;
   while (busy != 0) {
     for (unsigned finished = block.step(options) & busy; finished != 0; finished &= finished - 1) {
       const auto j = static_cast<std::size_t>(std::countr_zero(finished));

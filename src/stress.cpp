@@ -116,8 +116,11 @@ std::string stressed_input_problem(const MertonInputs& in) {
   return check_stressed_impl(in);
 }
 
-void stress_obligor(const ScoredObligor& base, const ShockEffect& effect, const ScoreSettings& settings,
-                    bool sensitivities, StressedObligor& out) {
+namespace {
+
+// First half of stress_obligor: everything up to the solve. Returns true when out.inputs must be
+// solved (then finish_stressed completes out); otherwise out is complete.
+bool start_stressed(const ScoredObligor& base, const ShockEffect& effect, StressedObligor& out) {
   out.effect = effect;
   out.message.clear();
   out.inputs = base.resolved.inputs;
@@ -130,40 +133,79 @@ void stress_obligor(const ScoredObligor& base, const ShockEffect& effect, const 
     out.message = base.message;
     if (base.resolved.ok())
       out.inputs = apply_shock(base.resolved.inputs, effect, base.resolved.drift_follows_rate);
-    return;
+    return false;
   }
   if (effect.shocks == 0) {
     out.solution = base.solution;
     out.measures = base.measures;
-  } else {
-    out.inputs = apply_shock(base.resolved.inputs, effect, base.resolved.drift_follows_rate);
-    out.message = stressed_input_problem(out.inputs);
-    if (!out.message.empty()) {
-      out.status = StressStatus::invalid_stress;
-      return;
-    }
-    out.solution = solve_asset(out.inputs, settings.solver);
-    if (!out.solution.usable()) {
-      out.status = StressStatus::not_converged;
-      char buf[160];
-      std::snprintf(buf, sizeof buf,
-                    "stressed inputs: solver did not converge (residual %.3g after %d iterations)",
-                    out.solution.residual, out.solution.iterations);
-      out.message = buf;
-      return;
-    }
-    out.measures = merton_measures(out.inputs, out.solution.asset_value, out.solution.asset_vol_annual);
-    if (!all_finite(out.measures)) {
-      out.status = StressStatus::not_converged;
-      out.message = "stressed inputs: a derived measure is not finite";
-      return;
-    }
+    out.status = StressStatus::ok;
+    return false;
   }
-  if (sensitivities) {
-    out.sensitivities = merton_sensitivities(out.inputs, out.solution.asset_value,
-                                             out.solution.asset_vol_annual, base.resolved.drift_follows_rate);
+  out.inputs = apply_shock(base.resolved.inputs, effect, base.resolved.drift_follows_rate);
+  out.message = stressed_input_problem(out.inputs);
+  if (!out.message.empty()) {
+    out.status = StressStatus::invalid_stress;
+    return false;
+  }
+  return true;
+}
+
+// Second half, once out.solution holds the solve of out.inputs.
+void finish_stressed(StressedObligor& out) {
+  if (!out.solution.usable()) {
+    out.status = StressStatus::not_converged;
+    char buf[160];
+    std::snprintf(buf, sizeof buf,
+                  "stressed inputs: solver did not converge (residual %.3g after %d iterations)",
+                  out.solution.residual, out.solution.iterations);
+    out.message = buf;
+    return;
+  }
+  out.measures = merton_measures(out.inputs, out.solution.asset_value, out.solution.asset_vol_annual);
+  if (!all_finite(out.measures)) {
+    out.status = StressStatus::not_converged;
+    out.message = "stressed inputs: a derived measure is not finite";
+    return;
   }
   out.status = StressStatus::ok;
+}
+
+void add_sensitivities(const ScoredObligor& base, StressedObligor& out) {
+  if (out.status != StressStatus::ok) return;
+  out.sensitivities = merton_sensitivities(out.inputs, out.solution.asset_value,
+                                           out.solution.asset_vol_annual, base.resolved.drift_follows_rate);
+}
+
+}  // namespace
+
+void stress_obligor(const ScoredObligor& base, const ShockEffect& effect, const ScoreSettings& settings,
+                    bool sensitivities, StressedObligor& out) {
+  if (start_stressed(base, effect, out)) {
+    out.solution = solve_asset(out.inputs, settings.solver);
+    finish_stressed(out);
+  }
+  if (sensitivities) add_sensitivities(base, out);
+}
+
+void stress_obligors(const ScoredObligor* base, const ShockEffect* effects, std::size_t n,
+                     const ScoreSettings& settings, bool sensitivities, StressedObligor* out) {
+  std::vector<std::size_t> solve;
+  std::vector<MertonInputs> inputs;
+  for (std::size_t i = 0; i < n; ++i) {
+    if (start_stressed(base[i], effects[i], out[i])) {
+      solve.push_back(i);
+      inputs.push_back(out[i].inputs);
+    }
+  }
+  std::vector<AssetSolution> solutions(inputs.size());
+  solve_asset_batch(inputs.data(), solutions.data(), inputs.size(), settings.solver);
+  for (std::size_t k = 0; k < solve.size(); ++k) {
+    out[solve[k]].solution = solutions[k];
+    finish_stressed(out[solve[k]]);
+  }
+  if (sensitivities) {
+    for (std::size_t i = 0; i < n; ++i) add_sensitivities(base[i], out[i]);
+  }
 }
 
 StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenarios,
@@ -209,7 +251,8 @@ StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenario
 
   struct Worker {
     std::string out;
-    StressedObligor stressed;
+    std::vector<ShockEffect> effects;
+    std::vector<StressedObligor> stressed;
   };
   std::vector<Worker> workers(threads);
   std::vector<StressStatus> status(n);
@@ -229,13 +272,19 @@ StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenario
       parallel_slices(c1 - c0, threads, [&](unsigned w, std::size_t b, std::size_t e) {
         Worker& wk = workers[w];
         wk.out.clear();
+        // The slice's stressed obligors are solved together (solve_asset_batch).
+        wk.effects.resize(e - b);
+        if (wk.stressed.size() < e - b) wk.stressed.resize(e - b);
+        for (std::size_t i = c0 + b; i < c0 + e; ++i)
+          wk.effects[i - c0 - b] = sc.effect_for(book.obligors[i]);
+        stress_obligors(base.data() + c0 + b, wk.effects.data(), e - b, settings, run.sensitivities,
+                        wk.stressed.data());
         for (std::size_t i = c0 + b; i < c0 + e; ++i) {
-          const ObligorRecord& rec = book.obligors[i];
-          stress_obligor(base[i], sc.effect_for(rec), settings, run.sensitivities, wk.stressed);
-          status[i] = wk.stressed.status;
-          shocked[i] = wk.stressed.shocked() ? 1 : 0;
-          pd_stressed[i] = wk.stressed.status == StressStatus::ok ? wk.stressed.measures.pd : std::nan("");
-          if (rows) writer->row(sc, rec, base[i], wk.stressed, i == 0, wk.out);
+          const StressedObligor& st = wk.stressed[i - c0 - b];
+          status[i] = st.status;
+          shocked[i] = st.shocked() ? 1 : 0;
+          pd_stressed[i] = st.status == StressStatus::ok ? st.measures.pd : std::nan("");
+          if (rows) writer->row(sc, book.obligors[i], base[i], st, i == 0, wk.out);
         }
       });
       for (unsigned w = 0; w < threads; ++w) {
