@@ -65,7 +65,6 @@ struct Problem {
 struct Eval {
   double f1, f2;  // scaled residuals (see file comment)
   double v, sv, d1, d2, nd1;
-  double phi = 0.0;  // norm_pdf(d1); set by evaluate_block()
 };
 
 // x = ln(V/K), y = ln sV.
