@@ -174,7 +174,8 @@ constexpr double kMaxStep = 2.0;      // cap on a Newton step in log units
 constexpr double kStepFloor = 1e-13;  // a step this small means the next would be below rounding
 constexpr double kSettled = 1e-4;     // stop once the residual is this fraction of the tolerance
 constexpr double kMaxHalvings = 60.0;
-constexpr std::size_t B = vmath::kBlock;
+constexpr std::size_t B = vmath::kBlock;  // values per block-math call
+constexpr std::size_t L = 2 * B;          // lanes of a Newton block
 
 // The loops over a block's lanes are written without branches so that the compiler can run them
 // as vector instructions; one copy is compiled per instruction set and the processor's own is
@@ -192,9 +193,9 @@ inline bool finite(double v) noexcept {
 
 // The problems of a block's lanes, one array per quantity (see Problem).
 struct ProblemBlock {
-  double e[B], se[B], k[B], sqrt_t[B], e_plus_k[B];
+  double e[L], se[L], k[L], sqrt_t[L], e_plus_k[L];
   // Derived once per obligor, so that a step divides as little as possible.
-  double inv_e[B], inv_se_e[B], inv_sqrt_t[B], e_over_e_plus_k[B];
+  double inv_e[L], inv_se_e[L], inv_sqrt_t[L], e_over_e_plus_k[L];
   void set(std::size_t j, const Problem& q) noexcept {
     e[j] = q.e;
     se[j] = q.se;
@@ -210,17 +211,20 @@ struct ProblemBlock {
 
 // Residuals of a block's lanes at one point each (see Eval), with norm_pdf(d1).
 struct EvalBlock {
-  double f1[B], f2[B], v[B], sv[B], d1[B], d2[B], nd1[B], phi[B];
+  double f1[L], f2[L], v[L], sv[L], d1[L], d2[L], nd1[L], phi[L];
 };
 
 // Residuals of every lane j at (x[j], y[j]): the same arithmetic as evaluate(), with the block
 // functions. Each lane depends only on its own values.
 FIRMCALL_LANE_CLONES void evaluate_block(const ProblemBlock& p, const double* x, const double* y,
-                                         EvalBlock& out, std::size_t lanes = B) noexcept {
+                                         EvalBlock& out, std::size_t lanes = L) noexcept {
   // Lanes from `lanes` on are computed by the block functions too and ignored.
-  double growth[B], a1[B] = {}, a2[B] = {}, c1[B], c2[B], q[B] = {}, eq[B];
-  vmath::expm1(x, growth);
-  vmath::exp(y, out.sv);
+  double growth[L], a1[L] = {}, a2[L] = {}, c1[L], c2[L], q[L] = {}, eq[L];
+  const vmath::Kernels& k = vmath::kernels();
+  for (std::size_t c = 0; c < lanes; c += B) {
+    k.expm1(x + c, growth + c);
+    k.exp(y + c, out.sv + c);
+  }
   for (std::size_t j = 0; j < lanes; ++j) {
     const double st = out.sv[j] * p.sqrt_t[j];
     const double d1 = x[j] / st + 0.5 * st;
@@ -233,9 +237,11 @@ FIRMCALL_LANE_CLONES void evaluate_block(const ProblemBlock& p, const double* x,
     a2[j] = (sign * d2) * kInvSqrt2;
     q[j] = -0.5 * d1 * d1;
   }
-  vmath::erfc(a1, c1);
-  vmath::erfc(a2, c2);
-  vmath::exp(q, eq);
+  for (std::size_t c = 0; c < lanes; c += B) {
+    k.erfc(a1 + c, c1 + c);
+    k.erfc(a2 + c, c2 + c);
+    k.exp(q + c, eq + c);
+  }
   for (std::size_t j = 0; j < lanes; ++j) {
     const double v_minus_k = p.k[j] * growth[j];
     const double v = p.k[j] + v_minus_k;
@@ -327,20 +333,20 @@ inline Direction newton_direction(const ProblemBlock& p, std::size_t j, double f
 // returns what solve_asset_batch() returns.
 struct NewtonBlock {
   ProblemBlock p;
-  double x_lo[B], x_hi[B], y_lo[B], y_hi[B];
-  double x[B], y[B];  // current iterate: x = ln(V/K), y = ln sV
+  double x_lo[L], x_hi[L], y_lo[L], y_hi[L];
+  double x[L], y[L];  // current iterate: x = ln(V/K), y = ln sV
   EvalBlock ev;       // residuals at (x, y)
-  double merit[B], dx[B], dy[B], lambda[B];
-  double halvings[B], iterations[B];  // small whole numbers, kept as doubles for the vector loops
-  std::int64_t fresh[B];              // the start point is not evaluated yet
-  std::int64_t done[B];
+  double merit[L], dx[L], dy[L], lambda[L];
+  double halvings[L], iterations[L];  // small whole numbers, kept as doubles for the vector loops
+  std::int64_t fresh[L];              // the start point is not evaluated yet
+  std::int64_t done[L];
   // Scratch of step().
-  double xt[B], yt[B];
+  double xt[L], yt[L];
   EvalBlock et;
-  std::size_t lanes;  // lanes in use, 1..B: a single obligor is solved on one lane
+  std::size_t lanes;  // lanes in use, 1..L: a single obligor is solved on one lane
 
-  explicit NewtonBlock(std::size_t used) noexcept : lanes(std::clamp<std::size_t>(used, 1, B)) {
-    for (std::size_t j = 0; j < B; ++j) {
+  explicit NewtonBlock(std::size_t used) noexcept : lanes(std::clamp<std::size_t>(used, 1, L)) {
+    for (std::size_t j = 0; j < L; ++j) {
       idle(j);
       xt[j] = x[j];
       yt[j] = y[j];
@@ -494,7 +500,7 @@ void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n
   std::size_t prepared_count = 0, prepared_next = 0;
   std::size_t next = 0;  // next obligor to validate
   NewtonBlock block(n);
-  std::size_t owner[B];
+  std::size_t owner[L];
   // Starts the next obligor on lane j; false when none is left, and the lane is then idle.
   const auto load = [&](std::size_t j) {
     if (prepared_next == prepared_count) {

@@ -47,51 +47,73 @@ Isa isa() noexcept {
 using V8 = __m512d (*)(__m512d);
 using V4 = __m256d (*)(__m256d);
 
-__attribute__((target("avx512f"))) void run8(V8 f, const double* x, double* y) noexcept {
-  _mm512_storeu_pd(y, f(_mm512_loadu_pd(x)));
+template <V8 F>
+__attribute__((target("avx512f"))) void run8(const double* x, double* y) noexcept {
+  _mm512_storeu_pd(y, F(_mm512_loadu_pd(x)));
 }
 
-__attribute__((target("avx2,fma"))) void run4(V4 f, const double* x, double* y) noexcept {
-  _mm256_storeu_pd(y, f(_mm256_loadu_pd(x)));
-  _mm256_storeu_pd(y + 4, f(_mm256_loadu_pd(x + 4)));
+template <V4 F>
+__attribute__((target("avx2,fma"))) void run4(const double* x, double* y) noexcept {
+  _mm256_storeu_pd(y, F(_mm256_loadu_pd(x)));
+  _mm256_storeu_pd(y + 4, F(_mm256_loadu_pd(x + 4)));
 }
 
-template <typename Scalar>
-void apply(V8 f8, V4 f4, Scalar f, const double* x, double* y) noexcept {
+template <double (*F)(double)>
+void run1(const double* x, double* y) noexcept {
+  for (std::size_t i = 0; i < kBlock; ++i) y[i] = F(x[i]);
+}
+
+double exp1(double v) {
+  return std::exp(v);
+}
+double expm1_1(double v) {
+  return std::expm1(v);
+}
+double log_1(double v) {
+  return std::log(v);
+}
+double log1p_1(double v) {
+  return std::log1p(v);
+}
+double erfc1(double v) {
+  return std::erfc(v);
+}
+
+Kernels choose() noexcept {
   switch (isa()) {
     case Isa::avx512:
-      run8(f8, x, y);
-      return;
+      return {run8<_ZGVeN8v_exp>, run8<_ZGVeN8v_expm1>, run8<_ZGVeN8v_log>, run8<_ZGVeN8v_log1p>,
+              run8<_ZGVeN8v_erfc>};
     case Isa::avx2:
-      run4(f4, x, y);
-      return;
+      return {run4<_ZGVdN4v_exp>, run4<_ZGVdN4v_expm1>, run4<_ZGVdN4v_log>, run4<_ZGVdN4v_log1p>,
+              run4<_ZGVdN4v_erfc>};
     case Isa::scalar:
-      for (std::size_t i = 0; i < kBlock; ++i) y[i] = f(x[i]);
-      return;
+      break;
   }
+  return {run1<exp1>, run1<expm1_1>, run1<log_1>, run1<log1p_1>, run1<erfc1>};
 }
 
 }  // namespace
 
+const Kernels& kernels() noexcept {
+  static const Kernels chosen = choose();
+  return chosen;
+}
+
 void exp(const double* x, double* y) noexcept {
-  apply(
-      _ZGVeN8v_exp, _ZGVdN4v_exp, [](double v) { return std::exp(v); }, x, y);
+  kernels().exp(x, y);
 }
 void expm1(const double* x, double* y) noexcept {
-  apply(
-      _ZGVeN8v_expm1, _ZGVdN4v_expm1, [](double v) { return std::expm1(v); }, x, y);
+  kernels().expm1(x, y);
 }
 void log(const double* x, double* y) noexcept {
-  apply(
-      _ZGVeN8v_log, _ZGVdN4v_log, [](double v) { return std::log(v); }, x, y);
+  kernels().log(x, y);
 }
 void log1p(const double* x, double* y) noexcept {
-  apply(
-      _ZGVeN8v_log1p, _ZGVdN4v_log1p, [](double v) { return std::log1p(v); }, x, y);
+  kernels().log1p(x, y);
 }
 void erfc(const double* x, double* y) noexcept {
-  apply(
-      _ZGVeN8v_erfc, _ZGVdN4v_erfc, [](double v) { return std::erfc(v); }, x, y);
+  kernels().erfc(x, y);
 }
 
 std::string_view implementation() noexcept {

@@ -26,4 +26,12 @@ void erfc(const double* x, double* y) noexcept;   ///< y[i] = erfc(x[i])
 /// The implementation in use on this machine: "avx512", "avx2" or "scalar".
 std::string_view implementation() noexcept;
 
+/// The five functions as chosen for this machine, for loops that call them often (one indirect
+/// call each, no dispatch): the same values as the functions above.
+struct Kernels {
+  using Fn = void (*)(const double*, double*) noexcept;
+  Fn exp, expm1, log, log1p, erfc;
+};
+const Kernels& kernels() noexcept;
+
 }  // namespace firmcall::vmath
