@@ -326,7 +326,7 @@ inline Direction newton_direction(const ProblemBlock& p, std::size_t j, double f
           static_cast<bool>(finite(dx) & finite(dy))};
 }
 
-// Up to eight damped Newton iterations side by side (conditions combine with & and | rather than && and
+// Up to sixteen damped Newton iterations side by side (conditions combine with & and | rather than && and
 // ||, so that the loops have no branches), one obligor per lane, as arrays: step() makes one
 // line-search trial on every lane at once (idle lanes hold a harmless fixed problem). An
 // obligor's arithmetic never depends on the other lanes, so solve_asset() (a batch of one)

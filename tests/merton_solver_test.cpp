@@ -125,7 +125,7 @@ TEST_CASE("the solver allocates nothing") {
   CHECK(after == before);
 }
 
-TEST_CASE("the eight-lane batch solver returns exactly what the one-at-a-time solver returns") {
+TEST_CASE("the sixteen-lane batch solver returns exactly what the one-at-a-time solver returns") {
   std::vector<MertonInputs> book = testing::generated_obligors(3000, 314);
   // Mix in hard corners (fallback), invalid inputs and trivial ones.
   book.push_back({1.0, 1.5, 1e4, 0.0, 5.0, 0.0});
