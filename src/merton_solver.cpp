@@ -269,7 +269,7 @@ struct Prepared {
 void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t count,
                    Prepared* out) noexcept {
   // Unused entries (j >= count) hold 1: their results are ignored.
-  double neg_rt[B], disc[B], log_ratio[B], log1p_ratio[B], log_vol_lo[B], log_vol_hi[B];
+  double neg_rt[B], disc[B], e_over_k[B], log_ratio[B], log1p_ratio[B], log_vol_lo[B], log_vol_hi[B];
   double ratio[B] = {1, 1, 1, 1, 1, 1, 1, 1}, vol_lo[B] = {1, 1, 1, 1, 1, 1, 1, 1},
          vol_hi[B] = {1, 1, 1, 1, 1, 1, 1, 1};
   for (std::size_t j = 0; j < B; ++j) {
@@ -282,8 +282,8 @@ void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t c
     Problem& p = out[j].p;
     const double k = m.default_point * disc[j];
     p = Problem{m.equity_value, m.equity_vol_annual, k, std::sqrt(m.horizon_years), m.equity_value + k};
-    const double e_over_k = p.e / k;
-    ratio[j] = std::isfinite(e_over_k) ? e_over_k : 1.0;
+    e_over_k[j] = p.e / k;
+    ratio[j] = std::isfinite(e_over_k[j]) ? e_over_k[j] : 1.0;
     vol_lo[j] = p.se * p.e / p.e_plus_k;
     vol_hi[j] = p.se;
   }
@@ -293,9 +293,9 @@ void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t c
   vmath::log(vol_hi, log_vol_hi);
   for (std::size_t j = 0; j < count; ++j) {
     Prepared& q = out[j];
-    const double e_over_k = q.p.e / q.p.k;
-    q.x_lo = std::isfinite(e_over_k) && e_over_k > 0.0 ? log_ratio[j] : std::log(q.p.e) - std::log(q.p.k);
-    q.x_hi = std::isfinite(e_over_k) ? log1p_ratio[j] : q.x_lo + std::log1p(q.p.k / q.p.e);
+    const bool finite_ratio = std::isfinite(e_over_k[j]);
+    q.x_lo = finite_ratio && e_over_k[j] > 0.0 ? log_ratio[j] : std::log(q.p.e) - std::log(q.p.k);
+    q.x_hi = finite_ratio ? log1p_ratio[j] : q.x_lo + std::log1p(q.p.k / q.p.e);
     q.y_lo = log_vol_lo[j];
     q.y_hi = log_vol_hi[j];
   }

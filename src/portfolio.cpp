@@ -58,11 +58,6 @@ std::string line_prefix(const ObligorRecord& rec) {
   return "line " + std::to_string(rec.line) + ": ";
 }
 
-std::string without_line(const std::string& m) {
-  const auto colon = m.find(": ");
-  return (m.rfind("line ", 0) == 0 && colon != std::string::npos) ? m.substr(colon + 2) : m;
-}
-
 // Everything the portfolio needs about one obligor that does not depend on the scenario.
 struct Static {
   std::string error;  // a portfolio field is unusable (with "line N: ")
@@ -368,10 +363,8 @@ PortfolioRun run_portfolio(const Book& book, const std::vector<Scenario>& scenar
       return;
     }
     const ObligorRecord& rec = book.obligors[i];
-    const std::string& id = rec.get(TextField::id);
     std::string p = scenario.empty() ? "" : "scenario '" + scenario + "': ";
-    p += book.origin + ":" + std::to_string(rec.line) + ": obligor '" + (id.empty() ? std::string("?") : id) +
-         "': " + without_line(message);
+    p += obligor_problem(book.origin, rec, message);
     run.problems.push_back(p);
   };
 

@@ -74,6 +74,17 @@ void complete_score(const ObligorRecord& rec, ScoredObligor& out) {
 }
 }  // namespace
 
+std::string message_without_line(const std::string& message) {
+  const auto colon = message.find(": ");
+  return (message.rfind("line ", 0) == 0 && colon != std::string::npos) ? message.substr(colon + 2) : message;
+}
+
+std::string obligor_problem(const std::string& origin, const ObligorRecord& rec, const std::string& message) {
+  const std::string& id = rec.get(TextField::id);
+  return origin + ":" + std::to_string(rec.line) + ": obligor '" + (id.empty() ? std::string("?") : id) +
+         "': " + message_without_line(message);
+}
+
 void score_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
                    ScoredObligor& out) {
   out.solution = AssetSolution{};
@@ -207,12 +218,7 @@ struct RunContext {
 };
 
 std::string problem_text(const RunContext& ctx, const ObligorRecord& rec, const ScoredObligor& s) {
-  const std::string& m = s.message;
-  const auto colon = m.find(": ");
-  const std::string why = (m.rfind("line ", 0) == 0 && colon != std::string::npos) ? m.substr(colon + 2) : m;
-  const std::string& id = rec.get(TextField::id);
-  return ctx.origin + ":" + std::to_string(rec.line) + ": obligor '" + (id.empty() ? std::string("?") : id) +
-         "': " + why;
+  return obligor_problem(ctx.origin, rec, s.message);
 }
 
 // Formatted rows of one piece of the input, with what the summary needs.

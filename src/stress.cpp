@@ -68,15 +68,8 @@ bool all_finite(const MertonMeasures& m) {
   return std::all_of(std::begin(all), std::end(all), [](double x) { return std::isfinite(x); });
 }
 
-std::string without_line(const std::string& m) {
-  const auto colon = m.find(": ");
-  return (m.rfind("line ", 0) == 0 && colon != std::string::npos) ? m.substr(colon + 2) : m;
-}
-
 std::string problem_text(const Book& book, const ObligorRecord& rec, const std::string& message) {
-  const std::string& id = rec.get(TextField::id);
-  return book.origin + ":" + std::to_string(rec.line) + ": obligor '" + (id.empty() ? std::string("?") : id) +
-         "': " + without_line(message);
+  return obligor_problem(book.origin, rec, message);
 }
 
 // Scores every obligor as it stands (in parallel) and fills the base counts and problems.

@@ -602,12 +602,16 @@ class ReverseJsonWriter final : public detail::ReverseStressWriter {
     append_json_number(out, c.target);
     out += ", \"equity_fall\": ";
     append_json_number(out, c.fall);
+    // A search status exists only when the obligor is ok as it stands.
+    const auto status_or_null = [&](auto status) {
+      if (ok) {
+        append_json_string(out, to_string(status));
+      } else {
+        out += "null";
+      }
+    };
     out += ", \"equity_fall_status\": ";
-    if (ok) {
-      append_json_string(out, to_string(r.equity_fall.status));
-    } else {
-      out += "null";
-    }
+    status_or_null(r.equity_fall.status);
     out += ", \"equity_value_at_target\": ";
     append_json_number(out, c.equity_at);
     out += ", \"pd_at_equity_fall\": ";
@@ -615,11 +619,7 @@ class ReverseJsonWriter final : public detail::ReverseStressWriter {
     out += ", \"equity_vol_multiplier\": ";
     append_json_number(out, c.mult);
     out += ", \"equity_vol_multiplier_status\": ";
-    if (ok) {
-      append_json_string(out, to_string(r.vol_multiplier.status));
-    } else {
-      out += "null";
-    }
+    status_or_null(r.vol_multiplier.status);
     out += ", \"equity_vol_at_target\": ";
     append_json_number(out, c.vol_at);
     out += ", \"pd_at_equity_vol_multiplier\": ";

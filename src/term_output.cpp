@@ -129,6 +129,31 @@ std::string table_number(double v, int decimals) {
   return buf;
 }
 
+void append_term_run_fields(std::string& out, const TermRunOptions& run) {
+  out += ", \"models\": [";
+  for (std::size_t m = 0; m < run.models.size(); ++m) {
+    if (m > 0) out += ", ";
+    append_json_string(out, to_string(run.models[m]));
+  }
+  out += "], \"horizons\": ";
+  if (run.horizons.empty()) {
+    out += "null";
+  } else {
+    out += "[";
+    for (std::size_t i = 0; i < run.horizons.size(); ++i) {
+      if (i > 0) out += ", ";
+      append_json_number(out, run.horizons[i]);
+    }
+    out += "]";
+  }
+  out += ", \"calibration\": ";
+  append_json_string(out, to_string(run.calibration));
+  out += ", \"barrier_ratio\": ";
+  append_json_number(out, run.barrier.default_point_ratio);
+  out += ", \"barrier_growth\": ";
+  append_json_number(out, run.barrier.growth_rate_cc);
+}
+
 namespace {
 
 class CsvTermWriter final : public TermWriter {
@@ -183,28 +208,7 @@ class JsonTermWriter final : public TermWriter {
     append_json_string(out, info_.origin);
     out += ", \"measure\": ";
     append_json_string(out, to_string(st.measure));
-    out += ", \"models\": [";
-    for (std::size_t m = 0; m < run.models.size(); ++m) {
-      if (m > 0) out += ", ";
-      append_json_string(out, to_string(run.models[m]));
-    }
-    out += "], \"horizons\": ";
-    if (run.horizons.empty()) {
-      out += "null";
-    } else {
-      out += "[";
-      for (std::size_t i = 0; i < run.horizons.size(); ++i) {
-        if (i > 0) out += ", ";
-        append_json_number(out, run.horizons[i]);
-      }
-      out += "]";
-    }
-    out += ", \"calibration\": ";
-    append_json_string(out, to_string(run.calibration));
-    out += ", \"barrier_ratio\": ";
-    append_json_number(out, run.barrier.default_point_ratio);
-    out += ", \"barrier_growth\": ";
-    append_json_number(out, run.barrier.growth_rate_cc);
+    append_term_run_fields(out, run);
     out += ", \"default_point_weight\": ";
     append_json_number(out, st.weight_override.value_or(st.default_point_weight));
     out += ", \"rate_override\": ";

@@ -52,4 +52,8 @@ std::vector<double> term_numbers(const TermScoredObligor& s, const TermRunOption
 /// `decimals` fixed decimals while readable, else scientific; "-" for NaN.
 std::string table_number(double v, int decimals);
 
+/// Appends the JSON run fields that describe a term-structure run, from ", \"models\"" to the
+/// barrier growth, after fields the caller has written.
+void append_term_run_fields(std::string& out, const TermRunOptions& run);
+
 }  // namespace firmcall::detail

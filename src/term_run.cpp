@@ -20,11 +20,6 @@ std::string quoted(std::string_view s) {
   return out;
 }
 
-std::string without_line(const std::string& m) {
-  const auto colon = m.find(": ");
-  return (m.rfind("line ", 0) == 0 && colon != std::string::npos) ? m.substr(colon + 2) : m;
-}
-
 }  // namespace
 
 std::string term_point_problem(std::size_t line_number, const MertonInputs& in, TermModel model,
@@ -257,10 +252,7 @@ ScoreSummary score_term_structure(const Book& book, const ScoreSettings& setting
             break;
         }
         if (wk.problems.size() < run.max_listed_problems) {
-          const std::string& id = rec.get(TextField::id);
-          wk.problems.emplace_back(i, book.origin + ":" + std::to_string(rec.line) + ": obligor '" +
-                                          (id.empty() ? std::string("?") : id) +
-                                          "': " + without_line(wk.scored.first_problem()));
+          wk.problems.emplace_back(i, obligor_problem(book.origin, rec, wk.scored.first_problem()));
         }
         ++wk.problem_count;
       }

@@ -15,11 +15,6 @@ namespace firmcall {
 
 namespace {
 
-std::string without_line(const std::string& m) {
-  const auto colon = m.find(": ");
-  return (m.rfind("line ", 0) == 0 && colon != std::string::npos) ? m.substr(colon + 2) : m;
-}
-
 // Row status of one base / stressed point pair.
 StressStatus row_status(const StressedTerm& s, const TermPoint& base, const TermPoint& stressed) {
   if (s.status == StressStatus::invalid_input || s.status == StressStatus::invalid_stress) return s.status;
@@ -138,28 +133,7 @@ class JsonStressTermWriter final : public StressTermWriter {
     append_json_string(out, info_.scenario_origin);
     out += ", \"measure\": ";
     append_json_string(out, to_string(info_.settings.measure));
-    out += ", \"models\": [";
-    for (std::size_t m = 0; m < run.models.size(); ++m) {
-      if (m > 0) out += ", ";
-      append_json_string(out, to_string(run.models[m]));
-    }
-    out += "], \"horizons\": ";
-    if (run.horizons.empty()) {
-      out += "null";
-    } else {
-      out += "[";
-      for (std::size_t i = 0; i < run.horizons.size(); ++i) {
-        if (i > 0) out += ", ";
-        append_json_number(out, run.horizons[i]);
-      }
-      out += "]";
-    }
-    out += ", \"calibration\": ";
-    append_json_string(out, to_string(run.calibration));
-    out += ", \"barrier_ratio\": ";
-    append_json_number(out, run.barrier.default_point_ratio);
-    out += ", \"barrier_growth\": ";
-    append_json_number(out, run.barrier.growth_rate_cc);
+    detail::append_term_run_fields(out, run);
     out += "},\n  \"scenarios\": [";
   }
   void scenario_begin(const Scenario& sc, std::size_t index, std::string& out) const override {
@@ -403,7 +377,7 @@ void stress_term_obligor(const ObligorRecord& rec, const TermScoredObligor& base
       all_ok = all_ok && pts[i].ok() && base.points[k].ok();
       if (!base.messages[k].empty()) continue;  // the base problem is reported first
       const std::string why = term_point_problem(rec.line, out.inputs, run.models[m], run.barrier, pts[i]);
-      out.messages[k] = why.empty() ? std::string() : line + "stressed inputs: " + without_line(why);
+      out.messages[k] = why.empty() ? std::string() : line + "stressed inputs: " + message_without_line(why);
     }
   }
   out.status = all_ok ? StressStatus::ok : StressStatus::not_converged;
@@ -437,9 +411,7 @@ TermStressSummary run_stress_term(const Book& book, const std::vector<Scenario>&
       return;
     }
     const ObligorRecord& rec = book.obligors[i];
-    const std::string& id = rec.get(TextField::id);
-    sum.problems.push_back(book.origin + ":" + std::to_string(rec.line) + ": obligor '" +
-                           (id.empty() ? std::string("?") : id) + "': " + without_line(message));
+    sum.problems.push_back(obligor_problem(book.origin, rec, message));
   };
   for (std::size_t i = 0; i < n; ++i) {
     if (base[i].status == RowStatus::ok) {
@@ -487,7 +459,7 @@ TermStressSummary run_stress_term(const Book& book, const std::vector<Scenario>&
               }
             }
             if (wk.problems.size() < run.max_listed_problems) {
-              wk.problems.emplace_back(i, "scenario '" + sc.name + "': " + without_line(first));
+              wk.problems.emplace_back(i, "scenario '" + sc.name + "': " + message_without_line(first));
             } else {
               ++wk.not_listed;
             }

@@ -37,6 +37,12 @@ struct ScoredObligor {
 void score_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
                    ScoredObligor& out);
 
+/// The message without its leading "line N: " (problem lists put the location in front).
+std::string message_without_line(const std::string& message);
+
+/// One entry of a problem list: "origin:line: obligor 'id': why" ('?' when the id is empty).
+std::string obligor_problem(const std::string& origin, const ObligorRecord& rec, const std::string& message);
+
 /// Output formats.
 enum class OutputFormat { table, csv, json };
 
