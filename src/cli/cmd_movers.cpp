@@ -17,6 +17,22 @@ struct MoversCli {
 };
 }  // namespace
 
+int run_movers(const Config& config, const StoreReadOptions& store_options, std::size_t top, bool watchlist) {
+  const RunStore store(resolve_store_path(store_options.db, config.monitor), StoreOpen::existing,
+                       config.monitor.busy_timeout_seconds);
+  const RunPair pair = select_runs(store, store_options.run, store_options.against);
+  const auto before = store.obligors(pair.before.run_id, false);
+  const auto now = store.obligors(pair.now.run_id, false);
+  const Comparison c = compare_runs(before, now, config.grades, config.monitor.alerts);
+  std::string text;
+  write_movers_report(pair, c, config.grades, config.monitor.alerts, {.watchlist = watchlist, .top = top},
+                      output_format(store_options.format), text);
+  OutputFile out(store_options.output);
+  out.write(text);
+  out.commit();
+  return kExitOk;
+}
+
 void add_movers_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
   auto opts = std::make_shared<MoversCli>();
   CLI::App* cmd = app.add_subcommand(
@@ -26,22 +42,7 @@ void add_movers_command(CLI::App& app, const GlobalOptions& global, CommandRun& 
   cmd->add_option("--top", opts->top, "Show at most N obligors, most severe first (default: all)");
   cmd->footer(std::string("\n") + kCaution);
   cmd->callback([opts, &global, &run]() {
-    run = [opts, &global]() -> int {
-      const Config config = global.config();
-      const RunStore store(resolve_store_path(opts->store.db, config.monitor), StoreOpen::existing,
-                           config.monitor.busy_timeout_seconds);
-      const RunPair pair = select_runs(store, opts->store.run, opts->store.against);
-      const auto before = store.obligors(pair.before.run_id, false);
-      const auto now = store.obligors(pair.now.run_id, false);
-      const Comparison c = compare_runs(before, now, config.grades, config.monitor.alerts);
-      std::string text;
-      write_movers_report(pair, c, config.grades, config.monitor.alerts,
-                          {.watchlist = false, .top = opts->top}, output_format(opts->store.format), text);
-      OutputFile out(opts->store.output);
-      out.write(text);
-      out.commit();
-      return kExitOk;
-    };
+    run = [opts, &global]() -> int { return run_movers(global.config(), opts->store, opts->top, false); };
   });
 }
 

@@ -2,11 +2,6 @@
 #include <memory>
 
 #include "commands.hpp"
-#include "firmcall/errors.hpp"
-#include "firmcall/monitor_report.hpp"
-#include "firmcall/movers.hpp"
-#include "firmcall/output_file.hpp"
-#include "firmcall/recording.hpp"
 
 namespace firmcall::cli {
 
@@ -29,22 +24,7 @@ void add_watchlist_command(CLI::App& app, const GlobalOptions& global, CommandRu
       "pd_ceiling), not_scored (in the run but not scored). Severity: how many fire.\n\n" +
       std::string(kCaution));
   cmd->callback([opts, &global, &run]() {
-    run = [opts, &global]() -> int {
-      const Config config = global.config();
-      const RunStore store(resolve_store_path(opts->store.db, config.monitor), StoreOpen::existing,
-                           config.monitor.busy_timeout_seconds);
-      const RunPair pair = select_runs(store, opts->store.run, opts->store.against);
-      const auto before = store.obligors(pair.before.run_id, false);
-      const auto now = store.obligors(pair.now.run_id, false);
-      const Comparison c = compare_runs(before, now, config.grades, config.monitor.alerts);
-      std::string text;
-      write_movers_report(pair, c, config.grades, config.monitor.alerts,
-                          {.watchlist = true, .top = opts->top}, output_format(opts->store.format), text);
-      OutputFile out(opts->store.output);
-      out.write(text);
-      out.commit();
-      return kExitOk;
-    };
+    run = [opts, &global]() -> int { return run_movers(global.config(), opts->store, opts->top, true); };
   });
 }
 

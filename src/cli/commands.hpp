@@ -97,6 +97,10 @@ inline void add_store_read_options(CLI::App* cmd, StoreReadOptions& o, bool runs
                   "The run to compare with: a run id or an as-of date (default: the run before --run)")
       ->check(selector);
 }
+
+/// `firmcall movers` and `firmcall watchlist` (only obligors with an alert): compares the runs the
+/// options select and writes the report; returns the exit code.
+int run_movers(const Config& config, const StoreReadOptions& store, std::size_t top, bool watchlist);
 void add_portfolio_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
 void add_report_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
 
