@@ -41,8 +41,10 @@ TEST_CASE("generated obligors agree with the long-double reference within 1e-9 (
   }
   MESSAGE("generated: worst relative error vs reference = " << worst << ", mean iterations = "
                                                             << double(iterations) / 2000.0);
-  // Budget: realistic obligors need few Newton steps from the start V0 = E + K.
-  CHECK(double(iterations) / 2000.0 < 8.0);
+  // Budget: realistic obligors need few steps from the start V0 = E + K. With the third-order
+  // (Chebyshev) correction this book takes 1.9 steps on average; plain Newton steps to the same
+  // stopping rule take 2.7, so a wrong second derivative shows here.
+  CHECK(double(iterations) / 2000.0 < 2.1);
 }
 
 TEST_CASE("extreme grid: every valid input is solved, exact to 1e-10 against the reference") {

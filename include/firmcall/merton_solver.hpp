@@ -7,9 +7,11 @@
 // For every valid input the system has exactly one solution, inside the box
 //   E < V < E + K,   sE E / (E + K) < sV < sE.
 // The solver runs a damped Newton iteration on the 2x2 system in (ln V, ln sV) with the analytic
-// Jacobian, projected into that box, from the start V0 = E + K, sV0 = sE E / V0. If Newton does
-// not converge within its budget, a bracketed nested 1-D solve (Boost.Math TOMS 748, Alefeld,
-// Potra and Shi 1995) on the same box takes over; it cannot fail to bracket.
+// Jacobian and Chebyshev's third-order correction near the solution, projected into that box, from
+// the start V0 = E + K, sV0 = sE E / V0. It stops at an iterate whose next Newton step would be at
+// most 1e-15 in log units (relative error of that order), at a residual at the rounding floor, or
+// when a step is below rounding. If Newton does not converge within its budget, a bracketed nested 1-D solve
+// (Boost.Math TOMS 748, Alefeld, Potra and Shi 1995) on the same box takes over; it cannot fail to bracket.
 //
 // Nothing here allocates or throws; the result carries a status and diagnostics.
 //
