@@ -194,21 +194,29 @@ inline bool finite(double v) noexcept {
   return std::fabs(v) <= std::numeric_limits<double>::max();
 }
 
+// One obligor's problem, the values a step derives from it and the box that holds its solution,
+// prepared eight at a time.
+struct Prepared {
+  Problem p;
+  double inv_e, inv_se_e, inv_sqrt_t, e_over_e_plus_k;
+  double x_lo, x_hi, y_lo, y_hi;  // x = ln(V/K), y = ln sV
+};
+
 // The problems of a block's lanes, one array per quantity (see Problem).
 struct ProblemBlock {
   double e[L], se[L], k[L], sqrt_t[L], e_plus_k[L];
   // Derived once per obligor, so that a step divides as little as possible.
   double inv_e[L], inv_se_e[L], inv_sqrt_t[L], e_over_e_plus_k[L];
-  void set(std::size_t j, const Problem& q) noexcept {
-    e[j] = q.e;
-    se[j] = q.se;
-    k[j] = q.k;
-    sqrt_t[j] = q.sqrt_t;
-    e_plus_k[j] = q.e_plus_k;
-    inv_e[j] = 1.0 / q.e;
-    inv_se_e[j] = 1.0 / (q.se * q.e);
-    inv_sqrt_t[j] = 1.0 / q.sqrt_t;
-    e_over_e_plus_k[j] = q.e / q.e_plus_k;
+  void set(std::size_t j, const Prepared& q) noexcept {
+    e[j] = q.p.e;
+    se[j] = q.p.se;
+    k[j] = q.p.k;
+    sqrt_t[j] = q.p.sqrt_t;
+    e_plus_k[j] = q.p.e_plus_k;
+    inv_e[j] = q.inv_e;
+    inv_se_e[j] = q.inv_se_e;
+    inv_sqrt_t[j] = q.inv_sqrt_t;
+    e_over_e_plus_k[j] = q.e_over_e_plus_k;
   }
 };
 
@@ -261,46 +269,55 @@ FIRMCALL_LANE_CLONES void evaluate_block(const ProblemBlock& p, const double* x,
   }
 }
 
-// One obligor's problem and the box that holds its solution, prepared eight at a time.
-struct Prepared {
-  Problem p;
-  double x_lo, x_hi, y_lo, y_hi;  // x = ln(V/K), y = ln sV
-};
-
-// Prepares in[idx[j]] for j < count (count <= kBlock) into out[j]; the logarithms and the
-// discount factor go through the block functions, the rare overflow cases through the C library.
-void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t count,
-                   Prepared* out) noexcept {
-  // Unused entries (j >= count) hold 1: their results are ignored.
-  double neg_rt[B], disc[B], e_over_k[B], log_ratio[B], log1p_ratio[B], log_vol_lo[B], log_vol_hi[B];
-  double ratio[B] = {1, 1, 1, 1, 1, 1, 1, 1}, vol_lo[B] = {1, 1, 1, 1, 1, 1, 1, 1},
-         vol_hi[B] = {1, 1, 1, 1, 1, 1, 1, 1};
+// Prepares in[idx[j]] for j < count (count <= kBlock) into out[j]. The arithmetic runs on all
+// eight entries at once (unused entries hold a harmless problem), the logarithms and the discount
+// factor through the block functions, the rare overflow of E/K through the C library.
+FIRMCALL_LANE_CLONES void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t count,
+                                        Prepared* out) noexcept {
+  double e[B], se[B], dp[B], t[B], neg_rt[B], disc[B], k[B], sqrt_t[B], e_plus_k[B], inv_e[B], inv_se_e[B],
+      inv_sqrt_t[B], e_over_e_plus_k[B], ratio[B], vol_lo[B], log_ratio[B], log1p_ratio[B], y_lo[B], y_hi[B];
   for (std::size_t j = 0; j < B; ++j) {
-    const MertonInputs& m = in[idx[j < count ? j : 0]];
-    neg_rt[j] = -m.risk_free_rate_cc * m.horizon_years;
+    const bool used = j < count;
+    const MertonInputs& m = in[idx[used ? j : 0]];
+    e[j] = used ? m.equity_value : 1.0;
+    se[j] = used ? m.equity_vol_annual : 1.0;
+    dp[j] = used ? m.default_point : 1.0;
+    t[j] = used ? m.horizon_years : 1.0;
+    neg_rt[j] = used ? -m.risk_free_rate_cc * m.horizon_years : 0.0;
   }
-  vmath::exp(neg_rt, disc);
-  for (std::size_t j = 0; j < count; ++j) {
-    const MertonInputs& m = in[idx[j]];
-    Problem& p = out[j].p;
-    const double k = m.default_point * disc[j];
-    p = Problem{m.equity_value, m.equity_vol_annual, k, std::sqrt(m.horizon_years), m.equity_value + k};
-    e_over_k[j] = p.e / k;
-    ratio[j] = std::isfinite(e_over_k[j]) ? e_over_k[j] : 1.0;
-    vol_lo[j] = p.se * p.e / p.e_plus_k;
-    vol_hi[j] = p.se;
+  const vmath::Kernels& km = vmath::kernels();
+  km.exp(neg_rt, disc);
+  for (std::size_t j = 0; j < B; ++j) {
+    k[j] = dp[j] * disc[j];
+    sqrt_t[j] = std::sqrt(t[j]);
+    e_plus_k[j] = e[j] + k[j];
+    inv_e[j] = 1.0 / e[j];
+    inv_se_e[j] = 1.0 / (se[j] * e[j]);
+    inv_sqrt_t[j] = 1.0 / sqrt_t[j];
+    e_over_e_plus_k[j] = e[j] / e_plus_k[j];
+    const double r = e[j] / k[j];
+    ratio[j] = finite(r) ? r : 1.0;
+    vol_lo[j] = se[j] * e[j] / e_plus_k[j];
   }
-  vmath::log(ratio, log_ratio);
-  vmath::log1p(ratio, log1p_ratio);
-  vmath::log(vol_lo, log_vol_lo);
-  vmath::log(vol_hi, log_vol_hi);
+  km.log(ratio, log_ratio);
+  km.log1p(ratio, log1p_ratio);
+  km.log(vol_lo, y_lo);
+  km.log(se, y_hi);
   for (std::size_t j = 0; j < count; ++j) {
     Prepared& q = out[j];
-    const bool finite_ratio = std::isfinite(e_over_k[j]);
-    q.x_lo = finite_ratio && e_over_k[j] > 0.0 ? log_ratio[j] : std::log(q.p.e) - std::log(q.p.k);
-    q.x_hi = finite_ratio ? log1p_ratio[j] : q.x_lo + std::log1p(q.p.k / q.p.e);
-    q.y_lo = log_vol_lo[j];
-    q.y_hi = log_vol_hi[j];
+    q.p = Problem{e[j], se[j], k[j], sqrt_t[j], e_plus_k[j]};
+    q.inv_e = inv_e[j];
+    q.inv_se_e = inv_se_e[j];
+    q.inv_sqrt_t = inv_sqrt_t[j];
+    q.e_over_e_plus_k = e_over_e_plus_k[j];
+    q.x_lo = log_ratio[j];
+    q.x_hi = log1p_ratio[j];
+    q.y_lo = y_lo[j];
+    q.y_hi = y_hi[j];
+    if (!finite(e[j] / k[j])) {  // K underflows against E
+      q.x_lo = std::log(e[j]) - std::log(k[j]);
+      q.x_hi = q.x_lo + std::log1p(k[j] / e[j]);
+    }
   }
 }
 
@@ -374,7 +391,7 @@ struct NewtonBlock {
   double x_lo[L], x_hi[L], y_lo[L], y_hi[L];
   double x[L], y[L];  // current iterate: x = ln(V/K), y = ln sV
   EvalBlock ev;       // residuals at (x, y)
-  double merit[L], dx[L], dy[L], lambda[L];
+  double merit[L], residual[L], dx[L], dy[L], lambda[L];
   double halvings[L], iterations[L];  // small whole numbers, kept as doubles for the vector loops
   std::int64_t fresh[L];              // the start point is not evaluated yet
   std::int64_t done[L];
@@ -408,7 +425,7 @@ struct NewtonBlock {
   // Starts lane j on a prepared obligor: its next step() evaluates the start point and plans the
   // first direction.
   void begin(std::size_t j, const Prepared& q) noexcept {
-    p.set(j, q.p);
+    p.set(j, q);
     x_lo[j] = q.x_lo;
     x_hi[j] = q.x_hi;
     y_lo[j] = q.y_lo;
@@ -462,9 +479,10 @@ struct NewtonBlock {
       // Residual as residual_of(), at the (possibly new) iterate.
       const double r1 = std::fabs(ev.f1[j]) * p.e_over_e_plus_k[j];
       const double r2 = std::fabs(ev.f2[j]);
-      const double residual = r1 < r2 ? r2 : r1;
+      const double res = r1 < r2 ? r2 : r1;
+      residual[j] = res;
       // At the rounding floor, or settled (a further quadratic step would chase rounding).
-      const bool settled = take & !start & ((taken < kStepFloor) | (residual <= settle));
+      const bool settled = take & !start & ((taken < kStepFloor) | (res <= settle));
       const bool rejected = !stuck & !take;
       lambda[j] = rejected ? lambda[j] * 0.5 : lambda[j];
       halvings[j] = rejected ? halvings[j] + 1.0 : halvings[j];
@@ -492,18 +510,17 @@ struct NewtonBlock {
 
   // Result of lane j once done; runs the bracketed fallback when Newton fell short.
   AssetSolution finish(std::size_t j, const MertonSolveOptions& o) const noexcept {
-    const Problem pj{p.e[j], p.se[j], p.k[j], p.sqrt_t[j], p.e_plus_k[j]};
-    const Eval e{ev.f1[j], ev.f2[j], ev.v[j], ev.sv[j], ev.d1[j], ev.d2[j], ev.nd1[j]};
     AssetSolution out;
     out.iterations = static_cast<int>(iterations[j]);
-    out.residual = residual_of(pj, e);
+    out.residual = residual[j];
     if (out.residual <= o.residual_tolerance) {
-      out.asset_value = e.v;
-      out.asset_vol_annual = e.sv;
+      out.asset_value = ev.v[j];
+      out.asset_vol_annual = ev.sv[j];
       out.status = SolveStatus::converged;
       out.method = SolveMethod::newton;
       return out;
     }
+    const Problem pj{p.e[j], p.se[j], p.k[j], p.sqrt_t[j], p.e_plus_k[j]};
     double xb = 0.0;
     double sv = 0.0;
     int evals = 0;
