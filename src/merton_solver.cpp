@@ -194,12 +194,16 @@ inline bool finite(double v) noexcept {
   return std::fabs(v) <= std::numeric_limits<double>::max();
 }
 
-// One obligor's problem, the values a step derives from it and the box that holds its solution,
-// prepared eight at a time.
+// One obligor prepared for a lane: its problem, the values a step derives from it, the box that
+// holds its solution, and the start V0 = E + K, sV0 = sE E / V0 (x = x_hi, y = y_lo) evaluated with
+// the first direction planned. Prepared eight at a time.
 struct Prepared {
   Problem p;
   double inv_e, inv_se_e, inv_sqrt_t, e_over_e_plus_k;
   double x_lo, x_hi, y_lo, y_hi;  // x = ln(V/K), y = ln sV
+  double f1, f2, v, sv, d1, d2, nd1, phi;
+  double merit, residual, dx, dy, iterations;
+  bool finished;  // nothing to iterate: solved at the start, or no step possible
 };
 
 // The problems of a block's lanes, one array per quantity (see Problem).
@@ -225,8 +229,40 @@ struct EvalBlock {
   double f1[L], f2[L], v[L], sv[L], d1[L], d2[L], nd1[L], phi[L];
 };
 
-// Residuals of every lane j at (x[j], y[j]): the same arithmetic as evaluate(), with the block
-// functions. Each lane depends only on its own values.
+// An evaluation in two halves around the block functions (the same arithmetic as evaluate()):
+// from x = ln(V/K) and sV, d1, d2 and the arguments of erfc (twice) and exp;
+inline void evaluation_arguments(double x, double sv, double sqrt_t, double& d1, double& d2, double& a1,
+                                 double& a2, double& q) noexcept {
+  const double st = sv * sqrt_t;
+  d1 = x / st + 0.5 * st;
+  d2 = d1 - st;
+  // d2 > 0: upper tails N(-d1), N(-d2) (norm_sf); else N(d1), N(d2) (norm_cdf).
+  const double sign = d2 > 0.0 ? 1.0 : -1.0;
+  a1 = (sign * d1) * kInvSqrt2;
+  a2 = (sign * d2) * kInvSqrt2;
+  q = -0.5 * d1 * d1;
+}
+
+// then from their values c1 = erfc(a1), c2 = erfc(a2), eq = exp(q) and growth = V/K - 1, the
+// residuals (V, N(d1), F1, F2, phi(d1) into out[j]).
+inline void evaluation_residuals(double growth, double d2, double c1, double c2, double eq, double k,
+                                 double inv_e, double inv_se_e, double sv, EvalBlock& out,
+                                 std::size_t j) noexcept {
+  const double v_minus_k = k * growth;
+  const double v = k + v_minus_k;
+  const bool upper = d2 > 0.0;
+  const double h1 = 0.5 * c1;
+  const double h2 = 0.5 * c2;
+  const double nd1 = upper ? 1.0 - h1 : h1;
+  const double call = upper ? v_minus_k + (k * h2 - v * h1) : v * h1 - k * h2;
+  out.v[j] = v;
+  out.nd1[j] = nd1;
+  out.f1[j] = call * inv_e - 1.0;
+  out.f2[j] = nd1 * sv * v * inv_se_e - 1.0;
+  out.phi[j] = kInvSqrt2Pi * eq;
+}
+
+// Residuals of every lane j at (x[j], y[j]). Each lane depends only on its own values.
 FIRMCALL_LANE_CLONES void evaluate_block(const ProblemBlock& p, const double* x, const double* y,
                                          EvalBlock& out, std::size_t lanes = L) noexcept {
   // Lanes from `lanes` on are computed by the block functions too and ignored.
@@ -236,88 +272,16 @@ FIRMCALL_LANE_CLONES void evaluate_block(const ProblemBlock& p, const double* x,
     k.expm1(x + c, growth + c);
     k.exp(y + c, out.sv + c);
   }
-  for (std::size_t j = 0; j < lanes; ++j) {
-    const double st = out.sv[j] * p.sqrt_t[j];
-    const double d1 = x[j] / st + 0.5 * st;
-    const double d2 = d1 - st;
-    out.d1[j] = d1;
-    out.d2[j] = d2;
-    // d2 > 0: upper tails N(-d1), N(-d2) (norm_sf); else N(d1), N(d2) (norm_cdf).
-    const double sign = d2 > 0.0 ? 1.0 : -1.0;
-    a1[j] = (sign * d1) * kInvSqrt2;
-    a2[j] = (sign * d2) * kInvSqrt2;
-    q[j] = -0.5 * d1 * d1;
-  }
+  for (std::size_t j = 0; j < lanes; ++j)
+    evaluation_arguments(x[j], out.sv[j], p.sqrt_t[j], out.d1[j], out.d2[j], a1[j], a2[j], q[j]);
   for (std::size_t c = 0; c < lanes; c += B) {
     k.erfc(a1 + c, c1 + c);
     k.erfc(a2 + c, c2 + c);
     k.exp(q + c, eq + c);
   }
   for (std::size_t j = 0; j < lanes; ++j) {
-    const double v_minus_k = p.k[j] * growth[j];
-    const double v = p.k[j] + v_minus_k;
-    const bool upper = out.d2[j] > 0.0;
-    const double h1 = 0.5 * c1[j];
-    const double h2 = 0.5 * c2[j];
-    const double nd1 = upper ? 1.0 - h1 : h1;
-    const double call = upper ? v_minus_k + (p.k[j] * h2 - v * h1) : v * h1 - p.k[j] * h2;
-    out.v[j] = v;
-    out.nd1[j] = nd1;
-    out.f1[j] = call * p.inv_e[j] - 1.0;
-    out.f2[j] = nd1 * out.sv[j] * v * p.inv_se_e[j] - 1.0;
-    out.phi[j] = kInvSqrt2Pi * eq[j];
-  }
-}
-
-// Prepares in[idx[j]] for j < count (count <= kBlock) into out[j]. The arithmetic runs on all
-// eight entries at once (unused entries hold a harmless problem), the logarithms and the discount
-// factor through the block functions, the rare overflow of E/K through the C library.
-FIRMCALL_LANE_CLONES void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t count,
-                                        Prepared* out) noexcept {
-  double e[B], se[B], dp[B], t[B], neg_rt[B], disc[B], k[B], sqrt_t[B], e_plus_k[B], inv_e[B], inv_se_e[B],
-      inv_sqrt_t[B], e_over_e_plus_k[B], ratio[B], vol_lo[B], log_ratio[B], log1p_ratio[B], y_lo[B], y_hi[B];
-  for (std::size_t j = 0; j < B; ++j) {
-    const bool used = j < count;
-    const MertonInputs& m = in[idx[used ? j : 0]];
-    e[j] = used ? m.equity_value : 1.0;
-    se[j] = used ? m.equity_vol_annual : 1.0;
-    dp[j] = used ? m.default_point : 1.0;
-    t[j] = used ? m.horizon_years : 1.0;
-    neg_rt[j] = used ? -m.risk_free_rate_cc * m.horizon_years : 0.0;
-  }
-  const vmath::Kernels& km = vmath::kernels();
-  km.exp(neg_rt, disc);
-  for (std::size_t j = 0; j < B; ++j) {
-    k[j] = dp[j] * disc[j];
-    sqrt_t[j] = std::sqrt(t[j]);
-    e_plus_k[j] = e[j] + k[j];
-    inv_e[j] = 1.0 / e[j];
-    inv_se_e[j] = 1.0 / (se[j] * e[j]);
-    inv_sqrt_t[j] = 1.0 / sqrt_t[j];
-    e_over_e_plus_k[j] = e[j] / e_plus_k[j];
-    const double r = e[j] / k[j];
-    ratio[j] = finite(r) ? r : 1.0;
-    vol_lo[j] = se[j] * e[j] / e_plus_k[j];
-  }
-  km.log(ratio, log_ratio);
-  km.log1p(ratio, log1p_ratio);
-  km.log(vol_lo, y_lo);
-  km.log(se, y_hi);
-  for (std::size_t j = 0; j < count; ++j) {
-    Prepared& q = out[j];
-    q.p = Problem{e[j], se[j], k[j], sqrt_t[j], e_plus_k[j]};
-    q.inv_e = inv_e[j];
-    q.inv_se_e = inv_se_e[j];
-    q.inv_sqrt_t = inv_sqrt_t[j];
-    q.e_over_e_plus_k = e_over_e_plus_k[j];
-    q.x_lo = log_ratio[j];
-    q.x_hi = log1p_ratio[j];
-    q.y_lo = y_lo[j];
-    q.y_hi = y_hi[j];
-    if (!finite(e[j] / k[j])) {  // K underflows against E
-      q.x_lo = std::log(e[j]) - std::log(k[j]);
-      q.x_hi = q.x_lo + std::log1p(k[j] / e[j]);
-    }
+    evaluation_residuals(growth[j], out.d2[j], c1[j], c2[j], eq[j], p.k[j], p.inv_e[j], p.inv_se_e[j],
+                         out.sv[j], out, j);
   }
 }
 
@@ -337,11 +301,9 @@ struct Direction {
   double dx, dy, newton;
   bool finite;
 };
-inline Direction step_direction(const ProblemBlock& p, std::size_t j, double f1, double f2, double v,
+inline Direction step_direction(double inv_e, double inv_see, double sqrt_t, double f1, double f2, double v,
                                 double sv, double d1, double d2, double nd1, double phi) noexcept {
-  const double inv_e = p.inv_e[j];
-  const double inv_see = p.inv_se_e[j];
-  const double a = sv * p.sqrt_t[j];
+  const double a = sv * sqrt_t;
   const double inv_a = 1.0 / a;
   const double phi_a = phi * inv_a;
   const double j11 = v * nd1 * inv_e;
@@ -381,6 +343,137 @@ inline Direction step_direction(const ProblemBlock& p, std::size_t j, double f1,
           static_cast<bool>(finite(dx) & finite(dy))};
 }
 
+// Prepares in[idx[j]] for j < count (count <= kBlock) into out[j]: the arithmetic runs on all eight
+// entries at once (unused entries hold a harmless problem), the logarithms, the discount factor and
+// the start's evaluation through the block functions, the rare overflow of E/K through the C
+// library. At the start V0/K - 1 = E/K and sV0 = sE E/(E + K) are known without exp or expm1. The
+// decisions are those step() makes for a start point.
+FIRMCALL_LANE_CLONES void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t count,
+                                        const MertonSolveOptions& o, Prepared* out) noexcept {
+  double e[B], se[B], dp[B], t[B], neg_rt[B], disc[B], k[B], sqrt_t[B], e_plus_k[B], inv_e[B], inv_se_e[B],
+      inv_sqrt_t[B], e_over_e_plus_k[B], growth[B], ratio[B], vol_lo[B], x_lo[B], x_hi[B], y_lo[B], y_hi[B],
+      a1[B], a2[B], q[B], c1[B], c2[B], eq[B], merit[B], residual[B], dx[B], dy[B], iterations[B];
+  std::int64_t finished[B];
+  for (std::size_t j = 0; j < B; ++j) {
+    const bool used = j < count;
+    const MertonInputs& m = in[idx[used ? j : 0]];
+    e[j] = used ? m.equity_value : 1.0;
+    se[j] = used ? m.equity_vol_annual : 0.3;
+    dp[j] = used ? m.default_point : 1.0;
+    t[j] = used ? m.horizon_years : 1.0;
+    neg_rt[j] = used ? -m.risk_free_rate_cc * m.horizon_years : 0.0;
+  }
+  const vmath::Kernels& km = vmath::kernels();
+  km.exp(neg_rt, disc);
+  for (std::size_t j = 0; j < B; ++j) {
+    k[j] = dp[j] * disc[j];
+    sqrt_t[j] = std::sqrt(t[j]);
+    e_plus_k[j] = e[j] + k[j];
+    inv_e[j] = 1.0 / e[j];
+    inv_se_e[j] = 1.0 / (se[j] * e[j]);
+    inv_sqrt_t[j] = 1.0 / sqrt_t[j];
+    e_over_e_plus_k[j] = e[j] / e_plus_k[j];
+    growth[j] = e[j] / k[j];
+    ratio[j] = finite(growth[j]) ? growth[j] : 1.0;
+    vol_lo[j] = se[j] * e[j] / e_plus_k[j];
+  }
+  km.log(ratio, x_lo);
+  km.log1p(ratio, x_hi);
+  km.log(vol_lo, y_lo);
+  km.log(se, y_hi);
+  for (std::size_t j = 0; j < count; ++j) {
+    if (!finite(growth[j])) {  // K underflows against E
+      x_lo[j] = std::log(e[j]) - std::log(k[j]);
+      x_hi[j] = x_lo[j] + std::log1p(k[j] / e[j]);
+    }
+  }
+  EvalBlock ev;
+  for (std::size_t j = 0; j < B; ++j) {
+    ev.sv[j] = vol_lo[j];
+    evaluation_arguments(x_hi[j], vol_lo[j], sqrt_t[j], ev.d1[j], ev.d2[j], a1[j], a2[j], q[j]);
+  }
+  km.erfc(a1, c1);
+  km.erfc(a2, c2);
+  km.exp(q, eq);
+  const double max_it = o.max_newton_iterations;
+  for (std::size_t j = 0; j < B; ++j) {
+    evaluation_residuals(growth[j], ev.d2[j], c1[j], c2[j], eq[j], k[j], inv_e[j], inv_se_e[j], vol_lo[j], ev,
+                         j);
+    merit[j] = ev.f1[j] * ev.f1[j] + ev.f2[j] * ev.f2[j];
+    const double r1 = std::fabs(ev.f1[j]) * e_over_e_plus_k[j];
+    const double r2 = std::fabs(ev.f2[j]);
+    residual[j] = r1 < r2 ? r2 : r1;
+    const bool limit = (0.0 >= max_it) | !(merit[j] > 0.0);
+    const Direction d = step_direction(inv_e[j], inv_se_e[j], sqrt_t[j], ev.f1[j], ev.f2[j], ev.v[j],
+                                       ev.sv[j], ev.d1[j], ev.d2[j], ev.nd1[j], ev.phi[j]);
+    const bool close = d.finite & (d.newton <= kPlannedFloor);
+    const bool planned = !limit & !close;
+    const bool moved = planned & d.finite;
+    dx[j] = moved ? d.dx : 0.0;
+    dy[j] = moved ? d.dy : 0.0;
+    iterations[j] = planned ? 1.0 : 0.0;
+    finished[j] = (close | limit | !d.finite) ? 1 : 0;
+  }
+  for (std::size_t j = 0; j < count; ++j) {
+    Prepared& r = out[j];
+    r.p = Problem{e[j], se[j], k[j], sqrt_t[j], e_plus_k[j]};
+    r.inv_e = inv_e[j];
+    r.inv_se_e = inv_se_e[j];
+    r.inv_sqrt_t = inv_sqrt_t[j];
+    r.e_over_e_plus_k = e_over_e_plus_k[j];
+    r.x_lo = x_lo[j];
+    r.x_hi = x_hi[j];
+    r.y_lo = y_lo[j];
+    r.y_hi = y_hi[j];
+    r.f1 = ev.f1[j];
+    r.f2 = ev.f2[j];
+    r.v = ev.v[j];
+    r.sv = ev.sv[j];
+    r.d1 = ev.d1[j];
+    r.d2 = ev.d2[j];
+    r.nd1 = ev.nd1[j];
+    r.phi = ev.phi[j];
+    r.merit = merit[j];
+    r.residual = residual[j];
+    r.dx = dx[j];
+    r.dy = dy[j];
+    r.iterations = iterations[j];
+    r.finished = finished[j] != 0;
+  }
+}
+
+// Result of an obligor whose iterations are over, at the last iterate (V, sV) with its residual;
+// runs the bracketed fallback when Newton fell short.
+AssetSolution finish_solution(const Problem& p, double x_lo, double x_hi, double v, double sv,
+                              double residual, double iterations, const MertonSolveOptions& o) noexcept {
+  AssetSolution out;
+  out.iterations = static_cast<int>(iterations);
+  out.residual = residual;
+  if (out.residual <= o.residual_tolerance) {
+    out.asset_value = v;
+    out.asset_vol_annual = sv;
+    out.status = SolveStatus::converged;
+    out.method = SolveMethod::newton;
+    return out;
+  }
+  double xb = 0.0;
+  double svb = 0.0;
+  int evals = 0;
+  const bool ok = solve_bracketed(p, x_lo, x_hi, o.max_fallback_iterations, xb, svb, evals);
+  out.iterations += evals;
+  out.method = SolveMethod::bracketed;
+  const Eval eb = evaluate(p, xb, std::log(svb));
+  out.residual = residual_of(p, eb);
+  if (ok && out.residual <= o.residual_tolerance) {
+    out.asset_value = eb.v;
+    out.asset_vol_annual = svb;
+    out.status = SolveStatus::converged;
+  } else {
+    out.status = SolveStatus::max_iterations;
+  }
+  return out;
+}
+
 // Up to sixteen damped Newton iterations side by side (conditions combine with & and | rather than && and
 // ||, so that the loops have no branches), one obligor per lane, as arrays: step() makes one
 // line-search trial on every lane at once (idle lanes hold a harmless fixed problem). An
@@ -393,7 +486,6 @@ struct NewtonBlock {
   EvalBlock ev;       // residuals at (x, y)
   double merit[L], residual[L], dx[L], dy[L], lambda[L];
   double halvings[L], iterations[L];  // small whole numbers, kept as doubles for the vector loops
-  std::int64_t fresh[L];              // the start point is not evaluated yet
   std::int64_t done[L];
   // Scratch of step().
   double xt[L], yt[L];
@@ -418,32 +510,39 @@ struct NewtonBlock {
     x_lo[j] = x_hi[j] = x[j] = 0.0;
     y_lo[j] = y_hi[j] = y[j] = -1.0;
     dx[j] = dy[j] = lambda[j] = 0.0;
-    fresh[j] = 0;
     done[j] = 1;
   }
 
-  // Starts lane j on a prepared obligor: its next step() evaluates the start point and plans the
-  // first direction.
+  // Starts lane j on a prepared obligor at its start point, with its first direction planned.
   void begin(std::size_t j, const Prepared& q) noexcept {
     p.set(j, q);
     x_lo[j] = q.x_lo;
     x_hi[j] = q.x_hi;
     y_lo[j] = q.y_lo;
     y_hi[j] = q.y_hi;
-    x[j] = q.x_hi;        // V0 = E + K
-    y[j] = q.y_lo;        // sV0 = sE E / V0
-    dx[j] = dy[j] = 0.0;  // so that the trial point is the start itself
+    x[j] = q.x_hi;
+    y[j] = q.y_lo;
+    ev.f1[j] = q.f1;
+    ev.f2[j] = q.f2;
+    ev.v[j] = q.v;
+    ev.sv[j] = q.sv;
+    ev.d1[j] = q.d1;
+    ev.d2[j] = q.d2;
+    ev.nd1[j] = q.nd1;
+    ev.phi[j] = q.phi;
+    merit[j] = q.merit;
+    residual[j] = q.residual;
+    dx[j] = q.dx;
+    dy[j] = q.dy;
     lambda[j] = 1.0;
-    merit[j] = 0.0;
-    iterations[j] = 0.0;
+    iterations[j] = q.iterations;
     halvings[j] = 0.0;
-    fresh[j] = 1;
     done[j] = 0;
   }
 
-  // One backtracking trial on |F|^2 for every lane, projected into the box (a fresh lane evaluates
-  // its start instead and always takes it); then, where the trial was taken and the lane is not
-  // settled, the next Newton direction. Returns the lanes that are done, bit j for lane j.
+  // One backtracking trial on |F|^2 for every lane, projected into the box; then, where the trial
+  // was taken and the lane is not settled, the next direction. Returns the lanes that are done, bit j for
+  // lane j.
   FIRMCALL_LANE_CLONES unsigned step(const MertonSolveOptions& o) noexcept {
     const double settle = kSettled * o.residual_tolerance;
     const double max_it = o.max_newton_iterations;
@@ -458,10 +557,9 @@ struct NewtonBlock {
     }
     evaluate_block(p, xt, yt, et, lanes);
     for (std::size_t j = 0; j < lanes; ++j) {
-      const bool start = fresh[j] != 0;
-      const bool stuck = !start & (xt[j] == x[j]) & (yt[j] == y[j]);
+      const bool stuck = (xt[j] == x[j]) & (yt[j] == y[j]);
       const double mt = et.f1[j] * et.f1[j] + et.f2[j] * et.f2[j];
-      const bool take = start | (!stuck & (mt < merit[j]));
+      const bool take = !stuck & (mt < merit[j]);
       const double ax = std::fabs(xt[j] - x[j]);
       const double ay = std::fabs(yt[j] - y[j]);
       const double taken = ax < ay ? ay : ax;
@@ -482,15 +580,15 @@ struct NewtonBlock {
       const double res = r1 < r2 ? r2 : r1;
       residual[j] = res;
       // At the rounding floor, or settled (a further quadratic step would chase rounding).
-      const bool settled = take & !start & ((taken < kStepFloor) | (res <= settle));
+      const bool settled = take & ((taken < kStepFloor) | (res <= settle));
       const bool rejected = !stuck & !take;
       lambda[j] = rejected ? lambda[j] * 0.5 : lambda[j];
       halvings[j] = rejected ? halvings[j] + 1.0 : halvings[j];
       const bool out_of_halvings = rejected & (halvings[j] >= kMaxHalvings);
       const bool plan = take & !settled;
       const bool limit = (iterations[j] >= max_it) | !(merit[j] > 0.0);
-      const Direction d = step_direction(p, j, ev.f1[j], ev.f2[j], ev.v[j], ev.sv[j], ev.d1[j], ev.d2[j],
-                                         ev.nd1[j], ev.phi[j]);
+      const Direction d = step_direction(p.inv_e[j], p.inv_se_e[j], p.sqrt_t[j], ev.f1[j], ev.f2[j], ev.v[j],
+                                         ev.sv[j], ev.d1[j], ev.d2[j], ev.nd1[j], ev.phi[j]);
       const bool close = plan & d.finite & (d.newton <= kPlannedFloor);
       const bool planned = plan & !limit & !close;
       iterations[j] = planned ? iterations[j] + 1.0 : iterations[j];
@@ -501,42 +599,16 @@ struct NewtonBlock {
       halvings[j] = moved ? 0.0 : halvings[j];
       const bool finished = stuck | settled | close | out_of_halvings | (plan & (limit | !d.finite));
       done[j] = finished ? 1 : done[j];
-      fresh[j] = 0;
     }
     unsigned mask = 0;
     for (std::size_t j = 0; j < lanes; ++j) mask |= static_cast<unsigned>(done[j] != 0) << j;
     return mask;
   }
 
-  // Result of lane j once done; runs the bracketed fallback when Newton fell short.
+  // Result of lane j once done.
   AssetSolution finish(std::size_t j, const MertonSolveOptions& o) const noexcept {
-    AssetSolution out;
-    out.iterations = static_cast<int>(iterations[j]);
-    out.residual = residual[j];
-    if (out.residual <= o.residual_tolerance) {
-      out.asset_value = ev.v[j];
-      out.asset_vol_annual = ev.sv[j];
-      out.status = SolveStatus::converged;
-      out.method = SolveMethod::newton;
-      return out;
-    }
     const Problem pj{p.e[j], p.se[j], p.k[j], p.sqrt_t[j], p.e_plus_k[j]};
-    double xb = 0.0;
-    double sv = 0.0;
-    int evals = 0;
-    const bool ok = solve_bracketed(pj, x_lo[j], x_hi[j], o.max_fallback_iterations, xb, sv, evals);
-    out.iterations += evals;
-    out.method = SolveMethod::bracketed;
-    const Eval eb = evaluate(pj, xb, std::log(sv));
-    out.residual = residual_of(pj, eb);
-    if (ok && out.residual <= o.residual_tolerance) {
-      out.asset_value = eb.v;
-      out.asset_vol_annual = sv;
-      out.status = SolveStatus::converged;
-    } else {
-      out.status = SolveStatus::max_iterations;
-    }
-    return out;
+    return finish_solution(pj, x_lo[j], x_hi[j], ev.v[j], ev.sv[j], residual[j], iterations[j], o);
   }
 };
 
@@ -557,25 +629,34 @@ void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n
   std::size_t next = 0;  // next obligor to validate
   NewtonBlock block(n);
   std::size_t owner[L];
-  // Starts the next obligor on lane j; false when none is left, and the lane is then idle.
+  // Starts the next obligor that needs iterations on lane j (one solved at its start is finished
+  // here); false when none is left, and the lane is then idle.
   const auto load = [&](std::size_t j) {
-    if (prepared_next == prepared_count) {
-      prepared_count = prepared_next = 0;
-      while (next < n && prepared_count < B) {
-        const std::size_t i = next++;
-        out[i] = AssetSolution{};
-        out[i].input_check = validate(in[i]);
-        if (out[i].input_check.ok()) prepared_owner[prepared_count++] = i;
+    for (;;) {
+      if (prepared_next == prepared_count) {
+        prepared_count = prepared_next = 0;
+        while (next < n && prepared_count < B) {
+          const std::size_t i = next++;
+          out[i] = AssetSolution{};
+          out[i].input_check = validate(in[i]);
+          if (out[i].input_check.ok()) prepared_owner[prepared_count++] = i;
+        }
+        if (prepared_count == 0) {
+          block.idle(j);
+          return false;
+        }
+        prepare_block(in, prepared_owner, prepared_count, options, prepared);
       }
-      if (prepared_count == 0) {
-        block.idle(j);
-        return false;
+      const Prepared& q = prepared[prepared_next];
+      const std::size_t i = prepared_owner[prepared_next++];
+      if (q.finished) {
+        out[i] = finish_solution(q.p, q.x_lo, q.x_hi, q.v, q.sv, q.residual, q.iterations, options);
+        continue;
       }
-      prepare_block(in, prepared_owner, prepared_count, prepared);
+      block.begin(j, q);
+      owner[j] = i;
+      return true;
     }
-    block.begin(j, prepared[prepared_next]);
-    owner[j] = prepared_owner[prepared_next++];
-    return true;
   };
   unsigned busy = 0;  // bit j: lane j holds an obligor
   for (std::size_t j = 0; j < block.lanes; ++j) busy |= static_cast<unsigned>(load(j)) << j;
