@@ -194,39 +194,51 @@ inline bool finite(double v) noexcept {
   return std::fabs(v) <= std::numeric_limits<double>::max();
 }
 
-// One obligor prepared for a lane: its problem, the values a step derives from it, the box that
-// holds its solution, and the start V0 = E + K, sV0 = sE E / V0 (x = x_hi, y = y_lo) evaluated with
-// the first direction planned. Prepared eight at a time.
-struct Prepared {
-  Problem p;
-  double inv_e, inv_se_e, inv_sqrt_t, e_over_e_plus_k;
-  double x_lo, x_hi, y_lo, y_hi;  // x = ln(V/K), y = ln sV
-  double f1, f2, v, sv, d1, d2, nd1, phi;
-  double merit, residual, dx, dy, iterations;
-  bool finished;  // nothing to iterate: solved at the start, or no step possible
-};
+// validate(m).ok() without a call or a branch, for the inputs nearly every obligor has (the same
+// conditions; an input it refuses goes through validate() for the reason).
+inline bool plainly_valid(const MertonInputs& m) noexcept {
+  const double big = std::numeric_limits<double>::max();
+  const double rt = m.risk_free_rate_cc * m.horizon_years;
+  return static_cast<bool>((m.equity_value > 0.0) & (m.equity_value <= big) & (m.equity_vol_annual > 0.0) &
+                           (m.equity_vol_annual <= big) & (m.default_point > 0.0) & (m.default_point <= big) &
+                           (std::fabs(m.risk_free_rate_cc) <= big) & (m.horizon_years > 0.0) &
+                           (m.horizon_years <= big) & (std::fabs(m.drift_annual) <= big) &
+                           (std::fabs(rt) < 700.0));
+}
 
 // The problems of a block's lanes, one array per quantity (see Problem).
 struct ProblemBlock {
   double e[L], se[L], k[L], sqrt_t[L], e_plus_k[L];
   // Derived once per obligor, so that a step divides as little as possible.
   double inv_e[L], inv_se_e[L], inv_sqrt_t[L], e_over_e_plus_k[L];
-  void set(std::size_t j, const Prepared& q) noexcept {
-    e[j] = q.p.e;
-    se[j] = q.p.se;
-    k[j] = q.p.k;
-    sqrt_t[j] = q.p.sqrt_t;
-    e_plus_k[j] = q.p.e_plus_k;
-    inv_e[j] = q.inv_e;
-    inv_se_e[j] = q.inv_se_e;
-    inv_sqrt_t[j] = q.inv_sqrt_t;
-    e_over_e_plus_k[j] = q.e_over_e_plus_k;
+  void set(std::size_t j, const ProblemBlock& q, std::size_t i) noexcept {
+    e[j] = q.e[i];
+    se[j] = q.se[i];
+    k[j] = q.k[i];
+    sqrt_t[j] = q.sqrt_t[i];
+    e_plus_k[j] = q.e_plus_k[i];
+    inv_e[j] = q.inv_e[i];
+    inv_se_e[j] = q.inv_se_e[i];
+    inv_sqrt_t[j] = q.inv_sqrt_t[i];
+    e_over_e_plus_k[j] = q.e_over_e_plus_k[i];
   }
+  Problem problem(std::size_t j) const noexcept { return {e[j], se[j], k[j], sqrt_t[j], e_plus_k[j]}; }
 };
 
 // Residuals of a block's lanes at one point each (see Eval), with norm_pdf(d1).
 struct EvalBlock {
   double f1[L], f2[L], v[L], sv[L], d1[L], d2[L], nd1[L], phi[L];
+};
+
+// Obligors prepared for lanes, eight at a time (entry i of every array): the problem, the values a
+// step derives from it, the box that holds the solution, and the start V0 = E + K,
+// sV0 = sE E / V0 (x = x_hi, y = y_lo) evaluated with the first direction planned.
+struct PreparedBlock {
+  ProblemBlock p;
+  double x_lo[L], x_hi[L], y_lo[L], y_hi[L];  // x = ln(V/K), y = ln sV
+  EvalBlock ev;
+  double merit[L], residual[L], dx[L], dy[L], iterations[L];
+  std::int64_t finished[L];  // nothing to iterate: solved at the start, or no step possible
 };
 
 // An evaluation in two halves around the block functions (the same arithmetic as evaluate()):
@@ -349,16 +361,16 @@ inline Direction step_direction(double inv_e, double inv_see, double sqrt_t, dou
 // library. At the start V0/K - 1 = E/K and sV0 = sE E/(E + K) are known without exp or expm1. The
 // decisions are those step() makes for a start point.
 FIRMCALL_LANE_CLONES void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t count,
-                                        const MertonSolveOptions& o, Prepared* out) noexcept {
-  double e[B], se[B], dp[B], t[B], neg_rt[B], disc[B], k[B], sqrt_t[B], e_plus_k[B], inv_e[B], inv_se_e[B],
-      inv_sqrt_t[B], e_over_e_plus_k[B], growth[B], ratio[B], vol_lo[B], x_lo[B], x_hi[B], y_lo[B], y_hi[B],
-      a1[B], a2[B], q[B], c1[B], c2[B], eq[B], merit[B], residual[B], dx[B], dy[B], iterations[B];
-  std::int64_t finished[B];
+                                        const MertonSolveOptions& o, PreparedBlock& out) noexcept {
+  double dp[B], t[B], neg_rt[B], disc[B], growth[B], ratio[B], inv_ratio[B], log1p_inv[B], a1[B], a2[B], q[B],
+      c1[B], c2[B], eq[B];
+  ProblemBlock& p = out.p;
+  EvalBlock& ev = out.ev;
   for (std::size_t j = 0; j < B; ++j) {
     const bool used = j < count;
     const MertonInputs& m = in[idx[used ? j : 0]];
-    e[j] = used ? m.equity_value : 1.0;
-    se[j] = used ? m.equity_vol_annual : 0.3;
+    p.e[j] = used ? m.equity_value : 1.0;
+    p.se[j] = used ? m.equity_vol_annual : 0.3;
     dp[j] = used ? m.default_point : 1.0;
     t[j] = used ? m.horizon_years : 1.0;
     neg_rt[j] = used ? -m.risk_free_rate_cc * m.horizon_years : 0.0;
@@ -366,96 +378,64 @@ FIRMCALL_LANE_CLONES void prepare_block(const MertonInputs* in, const std::size_
   const vmath::Kernels& km = vmath::kernels();
   km.exp(neg_rt, disc);
   for (std::size_t j = 0; j < B; ++j) {
-    k[j] = dp[j] * disc[j];
-    sqrt_t[j] = std::sqrt(t[j]);
-    e_plus_k[j] = e[j] + k[j];
-    inv_e[j] = 1.0 / e[j];
-    inv_se_e[j] = 1.0 / (se[j] * e[j]);
-    inv_sqrt_t[j] = 1.0 / sqrt_t[j];
-    e_over_e_plus_k[j] = e[j] / e_plus_k[j];
-    growth[j] = e[j] / k[j];
+    const double e = p.e[j];
+    const double k = dp[j] * disc[j];
+    p.k[j] = k;
+    p.sqrt_t[j] = std::sqrt(t[j]);
+    p.e_plus_k[j] = e + k;
+    p.inv_e[j] = 1.0 / e;
+    p.inv_se_e[j] = 1.0 / (p.se[j] * e);
+    p.inv_sqrt_t[j] = 1.0 / p.sqrt_t[j];
+    p.e_over_e_plus_k[j] = e / p.e_plus_k[j];
+    growth[j] = e / k;
     ratio[j] = finite(growth[j]) ? growth[j] : 1.0;
-    vol_lo[j] = se[j] * e[j] / e_plus_k[j];
+    inv_ratio[j] = k / e;
+    ev.sv[j] = p.se[j] * e / p.e_plus_k[j];
   }
-  km.log(ratio, x_lo);
-  km.log1p(ratio, x_hi);
-  km.log(vol_lo, y_lo);
-  km.log(se, y_hi);
+  // ln(E/K), ln(1 + K/E) and ln sE give the box: ln(1 + E/K) = ln(E/K) + ln(1 + K/E) and
+  // ln(sE E/(E + K)) = ln sE - ln(1 + K/E).
+  km.log(ratio, out.x_lo);
+  km.log1p(inv_ratio, log1p_inv);
+  km.log(p.se, out.y_hi);
+  for (std::size_t j = 0; j < B; ++j) {
+    out.x_hi[j] = out.x_lo[j] + log1p_inv[j];
+    out.y_lo[j] = out.y_hi[j] - log1p_inv[j];
+  }
   for (std::size_t j = 0; j < count; ++j) {
     if (!finite(growth[j])) {  // K underflows against E
-      x_lo[j] = std::log(e[j]) - std::log(k[j]);
-      x_hi[j] = x_lo[j] + std::log1p(k[j] / e[j]);
+      out.x_lo[j] = std::log(p.e[j]) - std::log(p.k[j]);
+      out.x_hi[j] = out.x_lo[j] + log1p_inv[j];
     }
   }
-  EvalBlock ev;
-  for (std::size_t j = 0; j < B; ++j) {
-    ev.sv[j] = vol_lo[j];
-    evaluation_arguments(x_hi[j], vol_lo[j], sqrt_t[j], ev.d1[j], ev.d2[j], a1[j], a2[j], q[j]);
-  }
+  for (std::size_t j = 0; j < B; ++j)
+    evaluation_arguments(out.x_hi[j], ev.sv[j], p.sqrt_t[j], ev.d1[j], ev.d2[j], a1[j], a2[j], q[j]);
   km.erfc(a1, c1);
   km.erfc(a2, c2);
   km.exp(q, eq);
   const double max_it = o.max_newton_iterations;
   for (std::size_t j = 0; j < B; ++j) {
-    evaluation_residuals(growth[j], ev.d2[j], c1[j], c2[j], eq[j], k[j], inv_e[j], inv_se_e[j], vol_lo[j], ev,
-                         j);
-    merit[j] = ev.f1[j] * ev.f1[j] + ev.f2[j] * ev.f2[j];
-    const double r1 = std::fabs(ev.f1[j]) * e_over_e_plus_k[j];
+    evaluation_residuals(growth[j], ev.d2[j], c1[j], c2[j], eq[j], p.k[j], p.inv_e[j], p.inv_se_e[j],
+                         ev.sv[j], ev, j);
+    out.merit[j] = ev.f1[j] * ev.f1[j] + ev.f2[j] * ev.f2[j];
+    const double r1 = std::fabs(ev.f1[j]) * p.e_over_e_plus_k[j];
     const double r2 = std::fabs(ev.f2[j]);
-    residual[j] = r1 < r2 ? r2 : r1;
-    const bool limit = (0.0 >= max_it) | !(merit[j] > 0.0);
-    const Direction d = step_direction(inv_e[j], inv_se_e[j], sqrt_t[j], ev.f1[j], ev.f2[j], ev.v[j],
+    out.residual[j] = r1 < r2 ? r2 : r1;
+    const bool limit = (0.0 >= max_it) | !(out.merit[j] > 0.0);
+    const Direction d = step_direction(p.inv_e[j], p.inv_se_e[j], p.sqrt_t[j], ev.f1[j], ev.f2[j], ev.v[j],
                                        ev.sv[j], ev.d1[j], ev.d2[j], ev.nd1[j], ev.phi[j]);
     const bool close = d.finite & (d.newton <= kPlannedFloor);
     const bool planned = !limit & !close;
     const bool moved = planned & d.finite;
-    dx[j] = moved ? d.dx : 0.0;
-    dy[j] = moved ? d.dy : 0.0;
-    iterations[j] = planned ? 1.0 : 0.0;
-    finished[j] = (close | limit | !d.finite) ? 1 : 0;
-  }
-  for (std::size_t j = 0; j < count; ++j) {
-    Prepared& r = out[j];
-    r.p = Problem{e[j], se[j], k[j], sqrt_t[j], e_plus_k[j]};
-    r.inv_e = inv_e[j];
-    r.inv_se_e = inv_se_e[j];
-    r.inv_sqrt_t = inv_sqrt_t[j];
-    r.e_over_e_plus_k = e_over_e_plus_k[j];
-    r.x_lo = x_lo[j];
-    r.x_hi = x_hi[j];
-    r.y_lo = y_lo[j];
-    r.y_hi = y_hi[j];
-    r.f1 = ev.f1[j];
-    r.f2 = ev.f2[j];
-    r.v = ev.v[j];
-    r.sv = ev.sv[j];
-    r.d1 = ev.d1[j];
-    r.d2 = ev.d2[j];
-    r.nd1 = ev.nd1[j];
-    r.phi = ev.phi[j];
-    r.merit = merit[j];
-    r.residual = residual[j];
-    r.dx = dx[j];
-    r.dy = dy[j];
-    r.iterations = iterations[j];
-    r.finished = finished[j] != 0;
+    out.dx[j] = moved ? d.dx : 0.0;
+    out.dy[j] = moved ? d.dy : 0.0;
+    out.iterations[j] = planned ? 1.0 : 0.0;
+    out.finished[j] = (close | limit | !d.finite) ? 1 : 0;
   }
 }
 
-// Result of an obligor whose iterations are over, at the last iterate (V, sV) with its residual;
-// runs the bracketed fallback when Newton fell short.
-AssetSolution finish_solution(const Problem& p, double x_lo, double x_hi, double v, double sv,
-                              double residual, double iterations, const MertonSolveOptions& o) noexcept {
-  AssetSolution out;
-  out.iterations = static_cast<int>(iterations);
-  out.residual = residual;
-  if (out.residual <= o.residual_tolerance) {
-    out.asset_value = v;
-    out.asset_vol_annual = sv;
-    out.status = SolveStatus::converged;
-    out.method = SolveMethod::newton;
-    return out;
-  }
+// The bracketed fallback for an obligor Newton left short (see finish_solution).
+[[gnu::noinline]] void finish_bracketed(AssetSolution& out, const Problem& p, double x_lo, double x_hi,
+                                        const MertonSolveOptions& o) noexcept {
   double xb = 0.0;
   double svb = 0.0;
   int evals = 0;
@@ -469,9 +449,27 @@ AssetSolution finish_solution(const Problem& p, double x_lo, double x_hi, double
     out.asset_vol_annual = svb;
     out.status = SolveStatus::converged;
   } else {
+    out.asset_value = 0.0;
+    out.asset_vol_annual = 0.0;
     out.status = SolveStatus::max_iterations;
   }
-  return out;
+}
+
+// Writes every field of the result of an obligor whose iterations are over, at the last iterate
+// (V, sV) with its residual; runs the bracketed fallback when Newton fell short. Written field by
+// field in place: a whole result returned and copied would be read back before its parts are
+// stored.
+inline void finish_solution(AssetSolution& out, const Problem& p, double x_lo, double x_hi, double v,
+                            double sv, double residual, double iterations,
+                            const MertonSolveOptions& o) noexcept {
+  out.input_check = MertonInputCheck{};
+  out.iterations = static_cast<int>(iterations);
+  out.residual = residual;
+  out.asset_value = v;
+  out.asset_vol_annual = sv;
+  out.status = SolveStatus::converged;
+  out.method = SolveMethod::newton;
+  if (!(residual <= o.residual_tolerance)) finish_bracketed(out, p, x_lo, x_hi, o);
 }
 
 // Up to sixteen damped Newton iterations side by side (conditions combine with & and | rather than && and
@@ -513,29 +511,29 @@ struct NewtonBlock {
     done[j] = 1;
   }
 
-  // Starts lane j on a prepared obligor at its start point, with its first direction planned.
-  void begin(std::size_t j, const Prepared& q) noexcept {
-    p.set(j, q);
-    x_lo[j] = q.x_lo;
-    x_hi[j] = q.x_hi;
-    y_lo[j] = q.y_lo;
-    y_hi[j] = q.y_hi;
-    x[j] = q.x_hi;
-    y[j] = q.y_lo;
-    ev.f1[j] = q.f1;
-    ev.f2[j] = q.f2;
-    ev.v[j] = q.v;
-    ev.sv[j] = q.sv;
-    ev.d1[j] = q.d1;
-    ev.d2[j] = q.d2;
-    ev.nd1[j] = q.nd1;
-    ev.phi[j] = q.phi;
-    merit[j] = q.merit;
-    residual[j] = q.residual;
-    dx[j] = q.dx;
-    dy[j] = q.dy;
+  // Starts lane j on prepared obligor i at its start point, with its first direction planned.
+  void begin(std::size_t j, const PreparedBlock& q, std::size_t i) noexcept {
+    p.set(j, q.p, i);
+    x_lo[j] = q.x_lo[i];
+    x_hi[j] = q.x_hi[i];
+    y_lo[j] = q.y_lo[i];
+    y_hi[j] = q.y_hi[i];
+    x[j] = q.x_hi[i];
+    y[j] = q.y_lo[i];
+    ev.f1[j] = q.ev.f1[i];
+    ev.f2[j] = q.ev.f2[i];
+    ev.v[j] = q.ev.v[i];
+    ev.sv[j] = q.ev.sv[i];
+    ev.d1[j] = q.ev.d1[i];
+    ev.d2[j] = q.ev.d2[i];
+    ev.nd1[j] = q.ev.nd1[i];
+    ev.phi[j] = q.ev.phi[i];
+    merit[j] = q.merit[i];
+    residual[j] = q.residual[i];
+    dx[j] = q.dx[i];
+    dy[j] = q.dy[i];
     lambda[j] = 1.0;
-    iterations[j] = q.iterations;
+    iterations[j] = q.iterations[i];
     halvings[j] = 0.0;
     done[j] = 0;
   }
@@ -606,9 +604,8 @@ struct NewtonBlock {
   }
 
   // Result of lane j once done.
-  AssetSolution finish(std::size_t j, const MertonSolveOptions& o) const noexcept {
-    const Problem pj{p.e[j], p.se[j], p.k[j], p.sqrt_t[j], p.e_plus_k[j]};
-    return finish_solution(pj, x_lo[j], x_hi[j], ev.v[j], ev.sv[j], residual[j], iterations[j], o);
+  void finish(std::size_t j, const MertonSolveOptions& o, AssetSolution& out) const noexcept {
+    finish_solution(out, p.problem(j), x_lo[j], x_hi[j], ev.v[j], ev.sv[j], residual[j], iterations[j], o);
   }
 };
 
@@ -623,7 +620,7 @@ AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& opti
 void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n,
                        const MertonSolveOptions& options) noexcept {
   // Obligors are validated and prepared eight at a time, then handed to free lanes in order.
-  Prepared prepared[B];
+  PreparedBlock prepared;
   std::size_t prepared_owner[B];
   std::size_t prepared_count = 0, prepared_next = 0;
   std::size_t next = 0;  // next obligor to validate
@@ -637,6 +634,10 @@ void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n
         prepared_count = prepared_next = 0;
         while (next < n && prepared_count < B) {
           const std::size_t i = next++;
+          if (plainly_valid(in[i])) {
+            prepared_owner[prepared_count++] = i;
+            continue;
+          }
           out[i] = AssetSolution{};
           out[i].input_check = validate(in[i]);
           if (out[i].input_check.ok()) prepared_owner[prepared_count++] = i;
@@ -647,13 +648,14 @@ void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n
         }
         prepare_block(in, prepared_owner, prepared_count, options, prepared);
       }
-      const Prepared& q = prepared[prepared_next];
+      const std::size_t q = prepared_next;
       const std::size_t i = prepared_owner[prepared_next++];
-      if (q.finished) {
-        out[i] = finish_solution(q.p, q.x_lo, q.x_hi, q.v, q.sv, q.residual, q.iterations, options);
+      if (prepared.finished[q] != 0) {
+        finish_solution(out[i], prepared.p.problem(q), prepared.x_lo[q], prepared.x_hi[q], prepared.ev.v[q],
+                        prepared.ev.sv[q], prepared.residual[q], prepared.iterations[q], options);
         continue;
       }
-      block.begin(j, q);
+      block.begin(j, prepared, q);
       owner[j] = i;
       return true;
     }
@@ -663,7 +665,7 @@ void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n
   while (busy != 0) {
     for (unsigned finished = block.step(options) & busy; finished != 0; finished &= finished - 1) {
       const auto j = static_cast<std::size_t>(std::countr_zero(finished));
-      out[owner[j]] = block.finish(j, options);
+      block.finish(j, options, out[owner[j]]);
       if (!load(j)) busy &= ~(1U << j);
     }
   }

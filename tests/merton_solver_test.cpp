@@ -4,6 +4,8 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
+#include <vector>
 
 #include "firmcall/merton_solver.hpp"
 #include "reference_solver.hpp"
@@ -127,7 +129,7 @@ TEST_CASE("the solver allocates nothing") {
   CHECK(after == before);
 }
 
-TEST_CASE("the sixteen-lane batch solver returns exactly what the one-at-a-time solver returns") {
+TEST_CASE("the batch solver returns exactly what the one-at-a-time solver returns") {
   std::vector<MertonInputs> book = testing::generated_obligors(3000, 314);
   // Mix in hard corners (fallback), invalid inputs and trivial ones.
   book.push_back({1.0, 1.5, 1e4, 0.0, 5.0, 0.0});
@@ -150,4 +152,36 @@ TEST_CASE("the sixteen-lane batch solver returns exactly what the one-at-a-time 
   CHECK(batch[17].status == SolveStatus::invalid_input);
   CHECK(batch[3001].method == SolveMethod::bracketed);  // the leverage-1e4 corner
   solve_asset_batch(book.data(), batch.data(), 0);      // empty batch is fine
+}
+
+TEST_CASE("the batch solver refuses exactly the inputs validate() refuses, with validate()'s field") {
+  // Every field at the edges of its domain: zero, negative, infinite, NaN, the largest double, and
+  // rate x horizon at +-700 (validate's bound) and just inside it. Rules from merton.hpp.
+  const double inf = std::numeric_limits<double>::infinity();
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  const double big = std::numeric_limits<double>::max();
+  const double edges[] = {0.0, -0.0, -1.0, inf, -inf, nan, big, 1e-300, 0.5};
+  const MertonInputs base{400.0, 0.45, 700.0, 0.03, 1.0, 0.03};
+  std::vector<MertonInputs> book;
+  for (int field = 0; field < 6; ++field) {
+    for (const double v : edges) {
+      MertonInputs m = base;
+      double* f[] = {&m.equity_value,      &m.equity_vol_annual, &m.default_point,
+                     &m.risk_free_rate_cc, &m.horizon_years,     &m.drift_annual};
+      *f[field] = v;
+      book.push_back(m);
+    }
+  }
+  for (const double rt : {700.0, -700.0, 699.0, -699.0})
+    book.push_back({400.0, 0.45, 700.0, rt / 10.0, 10.0, 0.0});
+  std::vector<AssetSolution> batch(book.size());
+  solve_asset_batch(book.data(), batch.data(), book.size());
+  int refused = 0;
+  for (std::size_t i = 0; i < book.size(); ++i) {
+    const MertonInputCheck check = validate(book[i]);
+    CHECK(batch[i].input_check.field == check.field);
+    CHECK((batch[i].status == SolveStatus::invalid_input) == !check.ok());
+    refused += !check.ok();
+  }
+  CHECK(refused == 34);  // 6 fields x 9 edges minus the valid ones, plus rate x horizon = +-700
 }
