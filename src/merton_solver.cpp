@@ -491,7 +491,8 @@ struct NewtonBlock {
   std::size_t lanes;  // lanes in use, 1..L: a single obligor is solved on one lane
 
   explicit NewtonBlock(std::size_t used) noexcept : lanes(std::clamp<std::size_t>(used, 1, L)) {
-    for (std::size_t j = 0; j < L; ++j) {
+    // The block functions read whole groups of B lanes: those lanes hold a harmless problem.
+    for (std::size_t j = 0; j < (lanes + B - 1) / B * B; ++j) {
       idle(j);
       xt[j] = x[j];
       yt[j] = y[j];
