@@ -210,7 +210,7 @@ inline bool plainly_valid(const MertonInputs& m) noexcept {
 struct ProblemBlock {
   double e[L], se[L], k[L], sqrt_t[L], e_plus_k[L];
   // Derived once per obligor, so that a step divides as little as possible.
-  double inv_e[L], inv_se_e[L], inv_sqrt_t[L], e_over_e_plus_k[L];
+  double inv_e[L], inv_se_e[L], e_over_e_plus_k[L];
   void set(std::size_t j, const ProblemBlock& q, std::size_t i) noexcept {
     e[j] = q.e[i];
     se[j] = q.se[i];
@@ -219,7 +219,6 @@ struct ProblemBlock {
     e_plus_k[j] = q.e_plus_k[i];
     inv_e[j] = q.inv_e[i];
     inv_se_e[j] = q.inv_se_e[i];
-    inv_sqrt_t[j] = q.inv_sqrt_t[i];
     e_over_e_plus_k[j] = q.e_over_e_plus_k[i];
   }
   Problem problem(std::size_t j) const noexcept { return {e[j], se[j], k[j], sqrt_t[j], e_plus_k[j]}; }
@@ -239,6 +238,7 @@ struct PreparedBlock {
   EvalBlock ev;
   double merit[L], residual[L], dx[L], dy[L], iterations[L];
   std::int64_t finished[L];  // nothing to iterate: solved at the start, or no step possible
+  std::int64_t valid[L];     // the inputs passed plainly_valid(), and the entry was prepared
 };
 
 // An evaluation in two halves around the block functions (the same arithmetic as evaluate()):
@@ -355,20 +355,22 @@ inline Direction step_direction(double inv_e, double inv_see, double sqrt_t, dou
           static_cast<bool>(finite(dx) & finite(dy))};
 }
 
-// Prepares in[idx[j]] for j < count (count <= kBlock) into out[j]: the arithmetic runs on all eight
-// entries at once (unused entries hold a harmless problem), the logarithms, the discount factor and
-// the start's evaluation through the block functions, the rare overflow of E/K through the C
-// library. At the start V0/K - 1 = E/K and sV0 = sE E/(E + K) are known without exp or expm1. The
-// decisions are those step() makes for a start point.
-FIRMCALL_LANE_CLONES void prepare_block(const MertonInputs* in, const std::size_t* idx, std::size_t count,
+// Prepares in[j] for j < count (count <= kBlock) into entry j of `out`: the arithmetic runs on all
+// eight entries at once, the logarithms, the discount factor and the start's evaluation through the
+// block functions, the rare overflow of E/K through the C library. Entries past count and entries
+// whose inputs fail plainly_valid() (out.valid[j] == 0) hold a harmless problem instead. At the
+// start V0/K - 1 = E/K and sV0 = sE E/(E + K) are known without exp or expm1. The decisions are
+// those step() makes for a start point.
+FIRMCALL_LANE_CLONES void prepare_block(const MertonInputs* in, std::size_t count,
                                         const MertonSolveOptions& o, PreparedBlock& out) noexcept {
   double dp[B], t[B], neg_rt[B], disc[B], growth[B], ratio[B], inv_ratio[B], log1p_inv[B], a1[B], a2[B], q[B],
       c1[B], c2[B], eq[B];
   ProblemBlock& p = out.p;
   EvalBlock& ev = out.ev;
   for (std::size_t j = 0; j < B; ++j) {
-    const bool used = j < count;
-    const MertonInputs& m = in[idx[used ? j : 0]];
+    const MertonInputs& m = in[j < count ? j : 0];
+    const bool used = (j < count) & plainly_valid(m);
+    out.valid[j] = used ? 1 : 0;
     p.e[j] = used ? m.equity_value : 1.0;
     p.se[j] = used ? m.equity_vol_annual : 0.3;
     dp[j] = used ? m.default_point : 1.0;
@@ -385,7 +387,6 @@ FIRMCALL_LANE_CLONES void prepare_block(const MertonInputs* in, const std::size_
     p.e_plus_k[j] = e + k;
     p.inv_e[j] = 1.0 / e;
     p.inv_se_e[j] = 1.0 / (p.se[j] * e);
-    p.inv_sqrt_t[j] = 1.0 / p.sqrt_t[j];
     p.e_over_e_plus_k[j] = e / p.e_plus_k[j];
     growth[j] = e / k;
     ratio[j] = finite(growth[j]) ? growth[j] : 1.0;
@@ -401,7 +402,7 @@ FIRMCALL_LANE_CLONES void prepare_block(const MertonInputs* in, const std::size_
     out.x_hi[j] = out.x_lo[j] + log1p_inv[j];
     out.y_lo[j] = out.y_hi[j] - log1p_inv[j];
   }
-  for (std::size_t j = 0; j < count; ++j) {
+  for (std::size_t j = 0; j < B; ++j) {
     if (!finite(growth[j])) {  // K underflows against E
       out.x_lo[j] = std::log(p.e[j]) - std::log(p.k[j]);
       out.x_hi[j] = out.x_lo[j] + log1p_inv[j];
@@ -501,7 +502,7 @@ struct NewtonBlock {
 
   void idle(std::size_t j) noexcept {
     // The problem E = 1, sE = 0.3, K = 1, T = 1 and its derived values, written out.
-    p.e[j] = p.k[j] = p.sqrt_t[j] = p.inv_e[j] = p.inv_sqrt_t[j] = 1.0;
+    p.e[j] = p.k[j] = p.sqrt_t[j] = p.inv_e[j] = 1.0;
     p.se[j] = 0.3;
     p.e_plus_k[j] = 2.0;
     p.inv_se_e[j] = 1.0 / 0.3;
@@ -622,35 +623,30 @@ void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n
                        const MertonSolveOptions& options) noexcept {
   // Obligors are validated and prepared eight at a time, then handed to free lanes in order.
   PreparedBlock prepared;
-  std::size_t prepared_owner[B];
-  std::size_t prepared_count = 0, prepared_next = 0;
-  std::size_t next = 0;  // next obligor to validate
+  std::size_t prepared_first = 0, prepared_count = 0, prepared_next = 0;
   NewtonBlock block(n);
   std::size_t owner[L];
-  // Starts the next obligor that needs iterations on lane j (one solved at its start is finished
-  // here); false when none is left, and the lane is then idle.
+  // Starts the next obligor that needs iterations on lane j (one solved at its start, or with
+  // invalid inputs, is finished here); false when none is left, and the lane is then idle.
   const auto load = [&](std::size_t j) {
     for (;;) {
       if (prepared_next == prepared_count) {
-        prepared_count = prepared_next = 0;
-        while (next < n && prepared_count < B) {
-          const std::size_t i = next++;
-          if (plainly_valid(in[i])) {
-            prepared_owner[prepared_count++] = i;
-            continue;
-          }
-          out[i] = AssetSolution{};
-          out[i].input_check = validate(in[i]);
-          if (out[i].input_check.ok()) prepared_owner[prepared_count++] = i;
-        }
+        prepared_first += prepared_count;
+        prepared_next = 0;
+        prepared_count = std::min(B, n - prepared_first);
         if (prepared_count == 0) {
           block.idle(j);
           return false;
         }
-        prepare_block(in, prepared_owner, prepared_count, options, prepared);
+        prepare_block(in + prepared_first, prepared_count, options, prepared);
       }
-      const std::size_t q = prepared_next;
-      const std::size_t i = prepared_owner[prepared_next++];
+      const std::size_t q = prepared_next++;
+      const std::size_t i = prepared_first + q;
+      if (prepared.valid[q] == 0) {  // validate() states the same conditions and names the reason
+        out[i] = AssetSolution{};
+        out[i].input_check = validate(in[i]);
+        continue;
+      }
       if (prepared.finished[q] != 0) {
         finish_solution(out[i], prepared.p.problem(q), prepared.x_lo[q], prepared.x_hi[q], prepared.ev.v[q],
                         prepared.ev.sv[q], prepared.residual[q], prepared.iterations[q], options);
