@@ -29,6 +29,11 @@ runs_peer=3
 
 median() { sort -g | awk '{a[NR]=$1} END {print (NR%2 ? a[(NR+1)/2] : (a[NR/2]+a[NR/2+1])/2)}'; }
 
+# fresh OUTPUT: before a timed run (untimed, the same for both tools), delete the previous run's
+# output and flush dirty pages, so that a run does not pay for freeing or writing back the file the
+# run before it left (about 250 MB at 1,000,000 rows).
+fresh() { rm -f "$1"; sync; }
+
 # time_cmd FILE_FOR_RSS cmd...: prints wall seconds; appends max RSS (KB) to FILE_FOR_RSS
 time_cmd() {
   local rss=$1; shift
@@ -46,10 +51,11 @@ for n in "${sizes[@]}"; do
   [ -s "$f" ] || "$py" "$shared/tools/gen_obligors.py" --rows "$n" --seed 20261201 --out "$f"
   : > "$out/rss_ours_$n"; : > "$out/rss_peer_$n"
   # firmcall end to end: parse, solve, write CSV
-  ours=$(for i in $(seq $runs_ours); do time_cmd "$out/rss_ours_$n" build/firmcall -q score "$f" --format csv -o "$out/firmcall_$n.csv"; done | median)
+  ours=$(for i in $(seq $runs_ours); do fresh "$out/firmcall_$n.csv"; time_cmd "$out/rss_ours_$n" build/firmcall -q score "$f" --format csv -o "$out/firmcall_$n.csv"; done | median)
   # peer, vectorised Newton, end to end; its solve-only rate comes from its own stderr line
   peer_rates=()
   peer=$(for i in $(seq $runs_peer); do
+    fresh "$out/peer_$n.csv"
     time_cmd "$out/rss_peer_$n" "$py" "$shared/peers/merton_py.py" "$f" "$out/peer_$n.csv" --method newton
     grep -o 'rows_per_s=[0-9]*' "$out/.stderr" | cut -d= -f2 >> "$out/peer_rate_$n.tmp"
   done | median)
@@ -69,6 +75,7 @@ for n in "${sizes[@]}"; do
   if [ "$n" = 10000 ]; then
     : > "$out/rss_fs"
     fs_rates=$(for i in $(seq $runs_peer); do
+      fresh "$out/peer_fsolve_$n.csv"
       time_cmd "$out/rss_fs" "$py" "$shared/peers/merton_py.py" "$f" "$out/peer_fsolve_$n.csv" --method fsolve >/dev/null
       grep -o 'rows_per_s=[0-9]*' "$out/.stderr" | cut -d= -f2
     done | median)

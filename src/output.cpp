@@ -24,6 +24,12 @@ constexpr std::array<u128, 33> kPow5 = [] {
   return p;
 }();
 
+// 10^j for j = -16..17 as doubles (exact for j >= 0), at index j + 16.
+constexpr std::array<double, 34> kPow10 = {1e-16, 1e-15, 1e-14, 1e-13, 1e-12, 1e-11, 1e-10, 1e-9, 1e-8,
+                                           1e-7,  1e-6,  1e-5,  1e-4,  1e-3,  1e-2,  1e-1,  1e0,  1e1,
+                                           1e2,   1e3,   1e4,   1e5,   1e6,   1e7,   1e8,   1e9,  1e10,
+                                           1e11,  1e12,  1e13,  1e14,  1e15,  1e16,  1e17};
+
 // Exact 17-significant-digit decimal of |v| for 1e-16 <= |v| < 1e17: returns the 17 digits as an
 // integer n in [1e16, 1e17) and the decimal exponent of the first digit, or false outside the
 // range. Exact because v * 10^k = f * 5^k * 2^(e+k) is formed in 128-bit integers (k <= 32) and
@@ -36,7 +42,11 @@ bool exact_17_digits(double v, std::uint64_t& n_out, int& exp10_out) noexcept {
   const int e = static_cast<int>((bits >> 52) & 0x7ff) - 1075;
   // floor(log10 v) is about floor((e + 52) log10 2), with log10 2 ~ 78913 / 2^18 (an arithmetic
   // shift floors); the loop below corrects the guess when it is one off.
-  int k = 16 - (((e + 52) * 78913) >> 18);
+  const int e10 = ((e + 52) * 78913) >> 18;  // floor(log10 v) or one less, in -17..16
+  int k = 16 - e10;
+  // The mantissa may carry v past the next power of ten: compare with it (as a double, which may
+  // be rounded for negative powers; the loop still corrects a wrong guess).
+  if (v >= kPow10[static_cast<std::size_t>(e10 + 17)]) --k;
   for (int attempt = 0; attempt < 3; ++attempt) {
     if (k < 0 || k > 32) return false;
     const u128 x = static_cast<u128>(f) * kPow5[static_cast<std::size_t>(k)];
