@@ -1,12 +1,14 @@
 // Solver-only benchmark: reads an obligor CSV once, then times solve_asset_batch() over every row,
 // single-threaded and with N threads (each timed run repeats the file until it covers at least a
-// million solves), and checks that both give identical results.
+// million solves; threads take chunks of rows from a shared counter), and checks that both give
+// identical results.
 //
 //   firmcall_solver_bench FILE.csv [THREADS] [REPEATS]
 //
 // Prints one line: rows, ns per obligor (1 thread), obligors per second (1 and N threads), mean
 // Newton iterations, fallbacks, and whether the threaded results equal the single-threaded ones.
 #include <algorithm>
+#include <atomic>
 #include <chrono>
 #include <cstdio>
 #include <cstdlib>
@@ -26,23 +28,34 @@ double median(std::vector<double> v) {
   return v[v.size() / 2];
 }
 
-void solve_range(const std::vector<firmcall::MertonInputs>& in, std::vector<firmcall::AssetSolution>& out,
-                 std::size_t b, std::size_t e, int passes) {
-  for (int p = 0; p < passes; ++p) firmcall::solve_asset_batch(in.data() + b, out.data() + b, e - b);
-}
+// Seconds per pass over every row. The work is (passes x chunks of kChunk rows), handed out to the
+// threads one chunk at a time through a shared counter, as the streaming pipeline hands out chunks,
+// so that a core slowed by other work on the machine takes fewer chunks; a small file is repeated
+// `passes` times so that thread start-up does not count. Only the last pass writes `out` (earlier
+// passes solve into a per-thread scratch), so no row is ever written by two threads at once.
+constexpr std::size_t kChunk = 2048;
 
-// Seconds per pass over every row: each thread solves its slice `passes` times, so that a small
-// file is timed over enough work for thread start-up not to count.
 double run(const std::vector<firmcall::MertonInputs>& in, std::vector<firmcall::AssetSolution>& out,
            unsigned threads, int passes) {
+  const std::size_t n = in.size();
+  const std::size_t chunks = (n + kChunk - 1) / kChunk;
+  const std::size_t total = chunks * static_cast<std::size_t>(passes);
+  std::atomic<std::size_t> next{0};
+  const auto work = [&] {
+    std::vector<firmcall::AssetSolution> scratch(kChunk);
+    for (std::size_t id = next.fetch_add(1); id < total; id = next.fetch_add(1)) {
+      const std::size_t c = id % chunks;
+      const std::size_t b = c * kChunk;
+      const std::size_t e = std::min(n, b + kChunk);
+      firmcall::AssetSolution* dst =
+          id / chunks + 1 == static_cast<std::size_t>(passes) ? out.data() + b : scratch.data();
+      firmcall::solve_asset_batch(in.data() + b, dst, e - b);
+    }
+  };
   const auto t0 = Clock::now();
   std::vector<std::thread> pool;
-  const std::size_t n = in.size();
-  for (unsigned w = 1; w < threads; ++w) {
-    pool.emplace_back(solve_range, std::cref(in), std::ref(out), n * w / threads, n * (w + 1) / threads,
-                      passes);
-  }
-  solve_range(in, out, 0, n / threads, passes);
+  for (unsigned w = 1; w < threads; ++w) pool.emplace_back(work);
+  work();
   for (auto& t : pool) t.join();
   return std::chrono::duration<double>(Clock::now() - t0).count() / passes;
 }
