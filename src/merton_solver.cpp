@@ -227,6 +227,16 @@ struct ProblemBlock {
 // Residuals of a block's lanes at one point each (see Eval), with norm_pdf(d1).
 struct EvalBlock {
   double f1[L], f2[L], v[L], sv[L], d1[L], d2[L], nd1[L], phi[L];
+  void set(std::size_t j, const EvalBlock& q, std::size_t i) noexcept {
+    f1[j] = q.f1[i];
+    f2[j] = q.f2[i];
+    v[j] = q.v[i];
+    sv[j] = q.sv[i];
+    d1[j] = q.d1[i];
+    d2[j] = q.d2[i];
+    nd1[j] = q.nd1[i];
+    phi[j] = q.phi[i];
+  }
 };
 
 // Obligors prepared for lanes, eight at a time (entry i of every array): the problem, the values a
@@ -522,14 +532,7 @@ struct NewtonBlock {
     y_hi[j] = q.y_hi[i];
     x[j] = q.x_hi[i];
     y[j] = q.y_lo[i];
-    ev.f1[j] = q.ev.f1[i];
-    ev.f2[j] = q.ev.f2[i];
-    ev.v[j] = q.ev.v[i];
-    ev.sv[j] = q.ev.sv[i];
-    ev.d1[j] = q.ev.d1[i];
-    ev.d2[j] = q.ev.d2[i];
-    ev.nd1[j] = q.ev.nd1[i];
-    ev.phi[j] = q.ev.phi[i];
+    ev.set(j, q.ev, i);
     merit[j] = q.merit[i];
     residual[j] = q.residual[i];
     dx[j] = q.dx[i];
