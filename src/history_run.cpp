@@ -493,12 +493,8 @@ class TableHistoryWriter final : public HistoryWriter {
              " not converged (reasons below)";
     }
     out += "\n";
-    for (const auto& p : sum.problems) out += "  " + p + "\n";
-    if (sum.problems_not_listed > 0) {
-      out += "  ... and " + std::to_string(sum.problems_not_listed) +
-             " more (see --format csv, column message)\n";
-    }
-    out += "Model estimates under the Merton assumptions; not a credit decision on their own.\n";
+    append_table_problems(out, sum.problems, sum.problems_not_listed);
+    out += kTableCaution;
   }
 
  private:

@@ -244,7 +244,7 @@ void write_movers_report(const RunPair& runs, const Comparison& c, const GradeSc
       out += '\n';
     }
   }
-  out += "Model estimates under the Merton assumptions; not a credit decision on their own.\n";
+  out += kTableCaution;
 }
 
 void write_attribution_report(const RunPair& runs, const std::vector<AttributedMover>& rows,
@@ -327,7 +327,8 @@ void write_attribution_report(const RunPair& runs, const std::vector<AttributedM
   w.rule(out);
   out += std::to_string(rows.size()) + " obligors attributed";
   if (left_out > 0) out += "; " + std::to_string(left_out) + " not scored in both runs left out";
-  out += "\nModel estimates under the Merton assumptions; not a credit decision on their own.\n";
+  out += "\n";
+  out += kTableCaution;
 }
 
 void write_track_report(std::string_view obligor_id, const std::vector<RunStore::SeriesPoint>& series,
@@ -397,7 +398,7 @@ void write_track_report(std::string_view obligor_id, const std::vector<RunStore:
   }
   if (table) {
     w.rule(out);
-    out += "Model estimates under the Merton assumptions; not a credit decision on their own.\n";
+    out += kTableCaution;
   }
 }
 

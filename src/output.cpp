@@ -165,6 +165,38 @@ void append_number(std::string& out, double v) {
   out.append(buf, write_number(buf, v));
 }
 
+namespace detail {
+
+std::string wrapped(const std::string& text, std::size_t indent, std::size_t width) {
+  std::string out;
+  std::string line(indent, ' ');
+  std::size_t pos = 0;
+  while (pos < text.size()) {
+    std::size_t end = text.find(' ', pos);
+    if (end == std::string::npos) end = text.size();
+    const std::string word = text.substr(pos, end - pos);
+    const bool fresh = line.find_first_not_of(' ') == std::string::npos;
+    if (!fresh && line.size() + 1 + word.size() > width) {
+      out += line + "\n";
+      line.assign(2 * indent, ' ');
+    } else if (!fresh) {
+      line.push_back(' ');
+    }
+    line += word;
+    pos = end + 1;
+  }
+  return out + line + "\n";
+}
+
+}  // namespace detail
+
+void append_table_problems(std::string& out, const std::vector<std::string>& problems, std::size_t not_listed,
+                           std::size_t wrap_width) {
+  for (const auto& p : problems) out += wrap_width > 0 ? detail::wrapped(p, 2, wrap_width) : "  " + p + "\n";
+  if (not_listed > 0)
+    out += "  ... and " + std::to_string(not_listed) + " more (see --format csv, column message)\n";
+}
+
 void append_csv_names(std::string& out, const std::vector<std::string_view>& names) {
   for (std::size_t i = 0; i < names.size(); ++i) {
     if (i > 0) out.push_back(',');
@@ -562,12 +594,8 @@ class TableWriter final : public ScoreWriter {
              " not converged (reasons below)";
     }
     out += "\n";
-    for (const auto& p : sum.problems) out += "  " + p + "\n";
-    if (sum.problems_not_listed > 0) {
-      out += "  ... and " + std::to_string(sum.problems_not_listed) +
-             " more (see --format csv, column message)\n";
-    }
-    out += "Model estimates under the Merton assumptions; not a credit decision on their own.\n";
+    append_table_problems(out, sum.problems, sum.problems_not_listed);
+    out += kTableCaution;
   }
 
  private:

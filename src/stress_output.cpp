@@ -414,12 +414,8 @@ class StressTableWriter final : public detail::StressWriter {
            std::to_string(sum.scenarios.size()) + " scenarios)";
     if (sum.failed_rows > 0) out += "; " + std::to_string(sum.failed_rows) + " rows failed (reasons below)";
     out += "\n";
-    for (const auto& p : sum.problems) out += "  " + p + "\n";
-    if (sum.problems_not_listed > 0) {
-      out += "  ... and " + std::to_string(sum.problems_not_listed) +
-             " more (see --format csv, column message)\n";
-    }
-    out += "Model estimates under the Merton assumptions; not a credit decision on their own.\n";
+    append_table_problems(out, sum.problems, sum.problems_not_listed);
+    out += kTableCaution;
   }
 
  private:
@@ -692,12 +688,8 @@ class ReverseTableWriter final : public detail::ReverseStressWriter {
              " searches failed (reasons below)";
     }
     out += "\n";
-    for (const auto& p : sum.problems) out += "  " + p + "\n";
-    if (sum.problems_not_listed > 0) {
-      out += "  ... and " + std::to_string(sum.problems_not_listed) +
-             " more (see --format csv, column message)\n";
-    }
-    out += "Model estimates under the Merton assumptions; not a credit decision on their own.\n";
+    append_table_problems(out, sum.problems, sum.problems_not_listed);
+    out += kTableCaution;
   }
 
  private:

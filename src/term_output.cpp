@@ -46,27 +46,6 @@ void parallel_slices(std::size_t n, unsigned threads,
   for (auto& th : pool) th.join();
 }
 
-std::string wrapped(const std::string& text, std::size_t indent, std::size_t width) {
-  std::string out;
-  std::string line(indent, ' ');
-  std::size_t pos = 0;
-  while (pos < text.size()) {
-    std::size_t end = text.find(' ', pos);
-    if (end == std::string::npos) end = text.size();
-    const std::string word = text.substr(pos, end - pos);
-    const bool fresh = line.find_first_not_of(' ') == std::string::npos;
-    if (!fresh && line.size() + 1 + word.size() > width) {
-      out += line + "\n";
-      line.assign(2 * indent, ' ');
-    } else if (!fresh) {
-      line.push_back(' ');
-    }
-    line += word;
-    pos = end + 1;
-  }
-  return out + line + "\n";
-}
-
 std::string_view row_status_of(TermStatus status) noexcept {
   switch (status) {
     case TermStatus::ok:
@@ -346,16 +325,15 @@ class TableTermWriter final : public TermWriter {
              " not converged (reasons below)";
     }
     out += "\n";
-    for (const auto& p : sum.problems) out += wrapped(p, 2, 116);
-    if (sum.problems_not_listed > 0) {
-      out += "  ... and " + std::to_string(sum.problems_not_listed) +
-             " more (see --format csv, column message)\n";
-    }
+    append_table_problems(out, sum.problems, sum.problems_not_listed, 116);
     bool fp = false;
     for (TermModel m : info_.run.models) fp = fp || m == TermModel::first_passage;
-    out += fp ? "Model estimates under the Merton and Black-Cox assumptions; not a credit decision on their "
-                "own.\n"
-              : "Model estimates under the Merton assumptions; not a credit decision on their own.\n";
+    if (fp) {
+      out +=
+          "Model estimates under the Merton and Black-Cox assumptions; not a credit decision on their own.\n";
+    } else {
+      out += kTableCaution;
+    }
   }
 
  private:

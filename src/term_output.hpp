@@ -36,10 +36,6 @@ std::unique_ptr<TermWriter> make_term_writer(OutputFormat format, const TermRunI
 void parallel_slices(std::size_t n, unsigned threads,
                      const std::function<void(unsigned, std::size_t, std::size_t)>& fn);
 
-/// Text broken at spaces into lines of at most `width` columns, `indent` spaces first and twice that
-/// on continuation lines; ends with a line break.
-std::string wrapped(const std::string& text, std::size_t indent, std::size_t width);
-
 /// Row status of a point in the score vocabulary: ok, invalid_input or not_converged.
 std::string_view row_status_of(TermStatus status) noexcept;
 

@@ -260,16 +260,15 @@ class TableStressTermWriter final : public StressTermWriter {
     out += "\nrows " + std::to_string(sum.rows) + " (" + std::to_string(sum.obligors) + " obligors x " +
            std::to_string(sum.scenarios) + " scenarios x models x horizons), " +
            std::to_string(sum.failed_rows) + " failed\n";
-    for (const auto& p : sum.problems) out += detail::wrapped(p, 2, 116);
-    if (sum.problems_not_listed > 0) {
-      out += "  ... and " + std::to_string(sum.problems_not_listed) +
-             " more (see --format csv, column message)\n";
-    }
+    append_table_problems(out, sum.problems, sum.problems_not_listed, 116);
     bool fp = false;
     for (TermModel m : info_.run.models) fp = fp || m == TermModel::first_passage;
-    out += fp ? "Model estimates under the Merton and Black-Cox assumptions; not a credit decision on their "
-                "own.\n"
-              : "Model estimates under the Merton assumptions; not a credit decision on their own.\n";
+    if (fp) {
+      out +=
+          "Model estimates under the Merton and Black-Cox assumptions; not a credit decision on their own.\n";
+    } else {
+      out += kTableCaution;
+    }
   }
 
  private:

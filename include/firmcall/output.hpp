@@ -30,6 +30,22 @@ void append_json_string(std::string& out, std::string_view s);
 /// Appends a JSON number, or null when v is not finite.
 void append_json_number(std::string& out, double v);
 
+/// The caution printed under every table of a Merton-model run.
+inline constexpr std::string_view kTableCaution =
+    "Model estimates under the Merton assumptions; not a credit decision on their own.\n";
+
+/// Appends the problems listed under a table, one per line indented by two spaces (wrapped at
+/// `wrap_width` columns when it is not 0), then "  ... and N more (see --format csv, column
+/// message)" when `not_listed` is not 0.
+void append_table_problems(std::string& out, const std::vector<std::string>& problems, std::size_t not_listed,
+                           std::size_t wrap_width = 0);
+
+namespace detail {
+/// Text broken at spaces into lines of at most `width` columns, `indent` spaces first and twice that
+/// on continuation lines; ends with a line break.
+std::string wrapped(const std::string& text, std::size_t indent, std::size_t width);
+}  // namespace detail
+
 /// Names of the machine-readable score columns, in order.
 const std::vector<std::string_view>& score_columns();
 
