@@ -341,6 +341,12 @@ void json_key(std::string& out, std::string_view key) {
   out += "\": ";
 }
 
+// Appends "key": v (null when v is not finite).
+void json_number_field(std::string& out, std::string_view key, double v) {
+  json_key(out, key);
+  append_json_number(out, v);
+}
+
 void group_json(std::string& out, const PortfolioRun& run, const GroupTotals& g) {
   out += "{";
   json_key(out, "name");
@@ -418,11 +424,9 @@ void scenario_json(std::string& out, const PortfolioRun& run, const PortfolioSce
   json_key(out, "status");
   append_json_string(out, to_string(sc.exact.status));
   out += ", ";
-  json_key(out, "expected_loss");
-  append_json_number(out, sc.exact.expected_loss);
+  json_number_field(out, "expected_loss", sc.exact.expected_loss);
   out += ", ";
-  json_key(out, "loss_unit");
-  append_json_number(out, sc.exact.loss_unit);
+  json_number_field(out, "loss_unit", sc.exact.loss_unit);
   out += ", ";
   json_key(out, "grid_points");
   out += std::to_string(sc.exact.probability.size());
@@ -430,51 +434,39 @@ void scenario_json(std::string& out, const PortfolioRun& run, const PortfolioSce
   json_key(out, "factor_values");
   out += std::to_string(sc.exact.nodes);
   out += ", ";
-  json_key(out, "error_estimate");
-  append_json_number(out, sc.exact.error_estimate);
+  json_number_field(out, "error_estimate", sc.exact.error_estimate);
   out += ", ";
-  json_key(out, "top_mass");
-  append_json_number(out, sc.exact.top_mass);
+  json_number_field(out, "top_mass", sc.exact.top_mass);
   out += ", \"tails\": [";
   for (std::size_t l = 0; l < sc.exact.tails.size(); ++l) {
     const LossTail& t = sc.exact.tails[l];
     out += l == 0 ? "{" : ", {";
-    json_key(out, "confidence_level");
-    append_json_number(out, t.confidence_level);
+    json_number_field(out, "confidence_level", t.confidence_level);
     out += ", ";
-    json_key(out, "var");
-    append_json_number(out, t.var);
+    json_number_field(out, "var", t.var);
     out += ", ";
-    json_key(out, "es");
-    append_json_number(out, t.es);
+    json_number_field(out, "es", t.es);
     out += ", ";
-    json_key(out, "unexpected_loss");
-    append_json_number(out, t.var - sc.exact.expected_loss);
+    json_number_field(out, "unexpected_loss", t.var - sc.exact.expected_loss);
     out += ", ";
-    json_key(out, "exceedance");
-    append_json_number(out, t.exceedance);
+    json_number_field(out, "exceedance", t.exceedance);
     out += "}";
   }
   out += "]}";
   // Large-portfolio limit.
   out += ",\n     \"large_portfolio\": {";
-  json_key(out, "expected_loss");
-  append_json_number(out, sc.limit.expected_loss);
+  json_number_field(out, "expected_loss", sc.limit.expected_loss);
   out += ", \"tails\": [";
   for (std::size_t l = 0; l < sc.limit.tails.size(); ++l) {
     const LargePortfolioTail& t = sc.limit.tails[l];
     out += l == 0 ? "{" : ", {";
-    json_key(out, "confidence_level");
-    append_json_number(out, t.confidence_level);
+    json_number_field(out, "confidence_level", t.confidence_level);
     out += ", ";
-    json_key(out, "var");
-    append_json_number(out, t.var);
+    json_number_field(out, "var", t.var);
     out += ", ";
-    json_key(out, "es");
-    append_json_number(out, t.es);
+    json_number_field(out, "es", t.es);
     out += ", ";
-    json_key(out, "factor");
-    append_json_number(out, t.factor);
+    json_number_field(out, "factor", t.factor);
     out += "}";
   }
   out += "]}";
@@ -494,19 +486,16 @@ void scenario_json(std::string& out, const PortfolioRun& run, const PortfolioSce
     json_key(out, "importance_sampling");
     out += run.options.importance_sampling ? "true" : "false";
     out += ", ";
-    json_key(out, "effective_scenarios");
-    append_json_number(out, r.effective_scenarios);
+    json_number_field(out, "effective_scenarios", r.effective_scenarios);
     out += ", \"factor_shift\": [";
     for (std::size_t j = 0; j < r.factor_shift.size(); ++j) {
       if (j > 0) out += ", ";
       append_json_number(out, r.factor_shift[j]);
     }
     out += "], ";
-    json_key(out, "expected_loss");
-    append_json_number(out, r.expected_loss);
+    json_number_field(out, "expected_loss", r.expected_loss);
     out += ", ";
-    json_key(out, "expected_loss_se");
-    append_json_number(out, r.expected_loss_se);
+    json_number_field(out, "expected_loss_se", r.expected_loss_se);
     out += ", \"tails\": [";
     for (std::size_t l = 0; l < r.tails.size(); ++l) {
       const SimulatedTail& t = r.tails[l];
@@ -550,8 +539,7 @@ void write_json(const PortfolioRun& run, const Book& book, const TextSink& sink)
   json_key(out, "measure");
   append_json_string(out, to_string(run.settings.measure));
   out += ", ";
-  json_key(out, "default_lgd");
-  append_json_number(out, run.settings.default_lgd);
+  json_number_field(out, "default_lgd", run.settings.default_lgd);
   out += ", ";
   json_key(out, "asset_correlation");
   if (run.options.basel_correlation) {
@@ -571,11 +559,9 @@ void write_json(const PortfolioRun& run, const Book& book, const TextSink& sink)
   json_key(out, "seed");
   out += std::to_string(run.portfolio.seed);
   out += ", ";
-  json_key(out, "irb_pd_floor");
-  append_json_number(out, run.irb.pd_floor);
+  json_number_field(out, "irb_pd_floor", run.irb.pd_floor);
   out += ", ";
-  json_key(out, "irb_maturity");
-  append_json_number(out, run.irb.maturity_years);
+  json_number_field(out, "irb_maturity", run.irb.maturity_years);
   out += "},\n  \"scenarios\": [\n";
   sink(out);
   for (std::size_t s = 0; s < run.scenarios.size(); ++s) {
