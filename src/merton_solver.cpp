@@ -237,6 +237,23 @@ struct EvalBlock {
     nd1[j] = q.nd1[i];
     phi[j] = q.phi[i];
   }
+  // Lane j of q where `take`, as selects (no branch, for the vector loops).
+  void take_if(std::size_t j, bool take, const EvalBlock& q) noexcept {
+    f1[j] = take ? q.f1[j] : f1[j];
+    f2[j] = take ? q.f2[j] : f2[j];
+    v[j] = take ? q.v[j] : v[j];
+    sv[j] = take ? q.sv[j] : sv[j];
+    d1[j] = take ? q.d1[j] : d1[j];
+    d2[j] = take ? q.d2[j] : d2[j];
+    nd1[j] = take ? q.nd1[j] : nd1[j];
+    phi[j] = take ? q.phi[j] : phi[j];
+  }
+  // The acceptance measure of residual_of() at lane j, with e_over_e_plus_k = E/(E + K).
+  double residual(std::size_t j, double e_over_e_plus_k) const noexcept {
+    const double r1 = std::fabs(f1[j]) * e_over_e_plus_k;
+    const double r2 = std::fabs(f2[j]);
+    return r1 < r2 ? r2 : r1;
+  }
 };
 
 // Obligors prepared for lanes, eight at a time (entry i of every array): the problem, the values a
@@ -286,7 +303,7 @@ inline void evaluation_residuals(double growth, double d2, double c1, double c2,
 
 // Residuals of every lane j at (x[j], y[j]). Each lane depends only on its own values.
 FIRMCALL_LANE_CLONES void evaluate_block(const ProblemBlock& p, const double* x, const double* y,
-                                         EvalBlock& out, std::size_t lanes = L) noexcept {
+                                         EvalBlock& out, std::size_t lanes) noexcept {
   // Lanes from `lanes` on are computed by the block functions too and ignored.
   double growth[L], a1[L] = {}, a2[L] = {}, c1[L], c2[L], q[L] = {}, eq[L];
   const vmath::Kernels& k = vmath::kernels();
@@ -323,6 +340,17 @@ struct Direction {
   double dx, dy, newton;
   bool finite;
 };
+
+// What an iterate does with its direction d when its trial was taken (`plan`; a start point always
+// plans) and the step budget is or is not spent (`limit`): `planned` when a step is counted,
+// `moved` when the direction is taken up; returns true when the iterations end here (also when
+// the Newton step is at most kPlannedFloor: the iterate is then the answer).
+inline bool plan_step(bool plan, bool limit, const Direction& d, bool& planned, bool& moved) noexcept {
+  const bool close = plan & d.finite & (d.newton <= kPlannedFloor);
+  planned = plan & !limit & !close;
+  moved = planned & d.finite;
+  return plan & (close | limit | !d.finite);
+}
 inline Direction step_direction(double inv_e, double inv_see, double sqrt_t, double f1, double f2, double v,
                                 double sv, double d1, double d2, double nd1, double phi) noexcept {
   const double a = sv * sqrt_t;
@@ -428,19 +456,16 @@ FIRMCALL_LANE_CLONES void prepare_block(const MertonInputs* in, std::size_t coun
     evaluation_residuals(growth[j], ev.d2[j], c1[j], c2[j], eq[j], p.k[j], p.inv_e[j], p.inv_se_e[j],
                          ev.sv[j], ev, j);
     out.merit[j] = ev.f1[j] * ev.f1[j] + ev.f2[j] * ev.f2[j];
-    const double r1 = std::fabs(ev.f1[j]) * p.e_over_e_plus_k[j];
-    const double r2 = std::fabs(ev.f2[j]);
-    out.residual[j] = r1 < r2 ? r2 : r1;
+    out.residual[j] = ev.residual(j, p.e_over_e_plus_k[j]);
     const bool limit = (0.0 >= max_it) | !(out.merit[j] > 0.0);
     const Direction d = step_direction(p.inv_e[j], p.inv_se_e[j], p.sqrt_t[j], ev.f1[j], ev.f2[j], ev.v[j],
                                        ev.sv[j], ev.d1[j], ev.d2[j], ev.nd1[j], ev.phi[j]);
-    const bool close = d.finite & (d.newton <= kPlannedFloor);
-    const bool planned = !limit & !close;
-    const bool moved = planned & d.finite;
+    bool planned, moved;
+    const bool stop = plan_step(true, limit, d, planned, moved);
     out.dx[j] = moved ? d.dx : 0.0;
     out.dy[j] = moved ? d.dy : 0.0;
     out.iterations[j] = planned ? 1.0 : 0.0;
-    out.finished[j] = (close | limit | !d.finite) ? 1 : 0;
+    out.finished[j] = stop ? 1 : 0;
   }
 }
 
@@ -568,19 +593,9 @@ struct NewtonBlock {
       const double taken = ax < ay ? ay : ax;
       x[j] = take ? xt[j] : x[j];
       y[j] = take ? yt[j] : y[j];
-      ev.f1[j] = take ? et.f1[j] : ev.f1[j];
-      ev.f2[j] = take ? et.f2[j] : ev.f2[j];
-      ev.v[j] = take ? et.v[j] : ev.v[j];
-      ev.sv[j] = take ? et.sv[j] : ev.sv[j];
-      ev.d1[j] = take ? et.d1[j] : ev.d1[j];
-      ev.d2[j] = take ? et.d2[j] : ev.d2[j];
-      ev.nd1[j] = take ? et.nd1[j] : ev.nd1[j];
-      ev.phi[j] = take ? et.phi[j] : ev.phi[j];
+      ev.take_if(j, take, et);
       merit[j] = take ? mt : merit[j];
-      // Residual as residual_of(), at the (possibly new) iterate.
-      const double r1 = std::fabs(ev.f1[j]) * p.e_over_e_plus_k[j];
-      const double r2 = std::fabs(ev.f2[j]);
-      const double res = r1 < r2 ? r2 : r1;
+      const double res = ev.residual(j, p.e_over_e_plus_k[j]);  // at the (possibly new) iterate
       residual[j] = res;
       // At the rounding floor, or settled (a further quadratic step would chase rounding).
       const bool settled = take & ((taken < kStepFloor) | (res <= settle));
@@ -592,15 +607,14 @@ struct NewtonBlock {
       const bool limit = (iterations[j] >= max_it) | !(merit[j] > 0.0);
       const Direction d = step_direction(p.inv_e[j], p.inv_se_e[j], p.sqrt_t[j], ev.f1[j], ev.f2[j], ev.v[j],
                                          ev.sv[j], ev.d1[j], ev.d2[j], ev.nd1[j], ev.phi[j]);
-      const bool close = plan & d.finite & (d.newton <= kPlannedFloor);
-      const bool planned = plan & !limit & !close;
+      bool planned, moved;
+      const bool stop = plan_step(plan, limit, d, planned, moved);
       iterations[j] = planned ? iterations[j] + 1.0 : iterations[j];
-      const bool moved = planned & d.finite;
       dx[j] = moved ? d.dx : dx[j];
       dy[j] = moved ? d.dy : dy[j];
       lambda[j] = moved ? 1.0 : lambda[j];
       halvings[j] = moved ? 0.0 : halvings[j];
-      const bool finished = stuck | settled | close | out_of_halvings | (plan & (limit | !d.finite));
+      const bool finished = stuck | settled | out_of_halvings | stop;
       done[j] = finished ? 1 : done[j];
     }
     unsigned mask = 0;
