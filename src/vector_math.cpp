@@ -100,22 +100,6 @@ const Kernels& kernels() noexcept {
   return chosen;
 }
 
-void exp(const double* x, double* y) noexcept {
-  kernels().exp(x, y);
-}
-void expm1(const double* x, double* y) noexcept {
-  kernels().expm1(x, y);
-}
-void log(const double* x, double* y) noexcept {
-  kernels().log(x, y);
-}
-void log1p(const double* x, double* y) noexcept {
-  kernels().log1p(x, y);
-}
-void erfc(const double* x, double* y) noexcept {
-  kernels().erfc(x, y);
-}
-
 std::string_view implementation() noexcept {
   switch (isa()) {
     case Isa::avx512:

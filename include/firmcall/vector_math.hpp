@@ -7,7 +7,8 @@
 //
 // **Example**:
 //   double x[firmcall::vmath::kBlock] = {...}, y[firmcall::vmath::kBlock];
-//   firmcall::vmath::exp(x, y);  // y[i] = e^x[i]
+//   const firmcall::vmath::Kernels& k = firmcall::vmath::kernels();  // once, outside the loop
+//   k.exp(x, y);  // y[i] = e^x[i]
 #pragma once
 
 #include <cstddef>
@@ -17,17 +18,12 @@ namespace firmcall::vmath {
 
 inline constexpr std::size_t kBlock = 8;  ///< values per call
 
-void exp(const double* x, double* y) noexcept;    ///< y[i] = e^x[i], i < kBlock
-void expm1(const double* x, double* y) noexcept;  ///< y[i] = e^x[i] - 1
-void log(const double* x, double* y) noexcept;    ///< y[i] = ln x[i]
-void log1p(const double* x, double* y) noexcept;  ///< y[i] = ln(1 + x[i])
-void erfc(const double* x, double* y) noexcept;   ///< y[i] = erfc(x[i])
-
 /// The implementation in use on this machine: "avx512", "avx2" or "scalar".
 std::string_view implementation() noexcept;
 
-/// The five functions as chosen for this machine, for loops that call them often (one indirect
-/// call each, no dispatch): the same values as the functions above.
+/// The five functions as chosen for this machine, each on x[0..kBlock) into y[0..kBlock): exp
+/// (e^x), expm1 (e^x - 1), log (ln x), log1p (ln(1 + x)) and erfc. One indirect call each, no
+/// dispatch.
 struct Kernels {
   using Fn = void (*)(const double*, double*) noexcept;
   Fn exp, expm1, log, log1p, erfc;
