@@ -16,8 +16,8 @@
 #include <thread>
 #include <vector>
 
-#include "firmcall/merton_solver.hpp"
-#include "firmcall/obligor_io.hpp"
+#include "firmcall/io/obligor_io.hpp"
+#include "firmcall/model/merton_solver.hpp"
 
 namespace {
 

@@ -9,8 +9,8 @@
 #include <numeric>
 #include <vector>
 
-#include "firmcall/attribution.hpp"
-#include "firmcall/merton_solver.hpp"
+#include "firmcall/model/attribution.hpp"
+#include "firmcall/model/merton_solver.hpp"
 #include "test_util.hpp"
 
 using namespace firmcall;

@@ -4,7 +4,7 @@
 #include <filesystem>
 #include <sstream>
 
-#include "firmcall/output.hpp"
+#include "firmcall/engine/score_output.hpp"
 #include "test_util.hpp"
 
 using firmcall::testing::read_file;

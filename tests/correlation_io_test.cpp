@@ -4,8 +4,8 @@
 #include <cmath>
 #include <string>
 
-#include "firmcall/correlation_io.hpp"
-#include "firmcall/errors.hpp"
+#include "firmcall/book/errors.hpp"
+#include "firmcall/io/correlation_io.hpp"
 #include "test_util.hpp"
 
 using namespace firmcall;

@@ -4,7 +4,7 @@
 #include <cmath>
 #include <vector>
 
-#include "firmcall/factor_model.hpp"
+#include "firmcall/portfolio/factor_model.hpp"
 
 using namespace firmcall;
 

@@ -11,9 +11,9 @@
 #include <vector>
 
 #include "barrier_monte_carlo.hpp"
-#include "firmcall/first_passage.hpp"
-#include "firmcall/merton.hpp"
-#include "firmcall/normal.hpp"
+#include "firmcall/model/first_passage.hpp"
+#include "firmcall/model/merton.hpp"
+#include "firmcall/model/normal.hpp"
 #include "test_util.hpp"
 
 using namespace firmcall;

@@ -4,7 +4,7 @@
 #include <cmath>
 #include <limits>
 
-#include "firmcall/grades.hpp"
+#include "firmcall/book/grades.hpp"
 
 using firmcall::GradeScale;
 

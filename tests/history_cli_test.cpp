@@ -14,8 +14,8 @@
 #include <string>
 #include <vector>
 
-#include "firmcall/csv.hpp"
-#include "firmcall/output.hpp"
+#include "firmcall/engine/score_output.hpp"
+#include "firmcall/io/csv.hpp"
 
 namespace fs = std::filesystem;
 

@@ -1,12 +1,12 @@
 // Tests of the equity history and balance-sheet readers (src/history_io.cpp), fed from
 // in-memory text.
-#include "firmcall/history_io.hpp"
+#include "firmcall/io/history_io.hpp"
 
 #include <doctest/doctest.h>
 
 #include <string>
 
-#include "firmcall/errors.hpp"
+#include "firmcall/book/errors.hpp"
 
 using namespace firmcall;
 

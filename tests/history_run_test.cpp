@@ -1,6 +1,6 @@
 // Tests of the history run (src/history_run.cpp): joining book, equity history and balance
 // sheets, per-obligor failures, output formats and the daily series.
-#include "firmcall/history_run.hpp"
+#include "firmcall/engine/history_book.hpp"
 
 #include <doctest/doctest.h>
 
@@ -9,8 +9,8 @@
 #include <string>
 #include <vector>
 
-#include "firmcall/csv.hpp"
-#include "firmcall/output.hpp"
+#include "firmcall/engine/score_output.hpp"
+#include "firmcall/io/csv.hpp"
 #include "simulated_history.hpp"
 
 using namespace firmcall;

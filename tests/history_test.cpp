@@ -1,6 +1,6 @@
 // Tests of the history estimators (src/history.cpp) against simulated truth, published
 // definitions and independent computations.
-#include "firmcall/history.hpp"
+#include "firmcall/estimate/history.hpp"
 
 #include <doctest/doctest.h>
 
@@ -8,9 +8,9 @@
 #include <limits>
 #include <vector>
 
-#include "firmcall/merton.hpp"
-#include "firmcall/merton_solver.hpp"
-#include "firmcall/normal.hpp"
+#include "firmcall/model/merton.hpp"
+#include "firmcall/model/merton_solver.hpp"
+#include "firmcall/model/normal.hpp"
 #include "reference_solver.hpp"
 #include "simulated_history.hpp"
 

@@ -13,8 +13,8 @@
 #include <vector>
 
 #include "csv_table.hpp"
-#include "firmcall/html_report.hpp"
-#include "firmcall/svg.hpp"
+#include "firmcall/report/html_report.hpp"
+#include "firmcall/report/svg.hpp"
 #include "test_util.hpp"
 
 using firmcall::testing::CsvTable;

@@ -6,7 +6,7 @@
 #include <cmath>
 #include <string>
 
-#include "firmcall/irb.hpp"
+#include "firmcall/portfolio/irb.hpp"
 
 using namespace firmcall;
 

@@ -11,8 +11,8 @@
 #include <random>
 #include <vector>
 
-#include "firmcall/loss_distribution.hpp"
-#include "firmcall/vasicek.hpp"
+#include "firmcall/portfolio/loss_distribution.hpp"
+#include "firmcall/portfolio/vasicek.hpp"
 
 using namespace firmcall;
 

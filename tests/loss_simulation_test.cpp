@@ -8,9 +8,9 @@
 #include <cmath>
 #include <vector>
 
-#include "firmcall/factor_model.hpp"
-#include "firmcall/loss_distribution.hpp"
-#include "firmcall/loss_simulation.hpp"
+#include "firmcall/portfolio/factor_model.hpp"
+#include "firmcall/portfolio/loss_distribution.hpp"
+#include "firmcall/portfolio/loss_simulation.hpp"
 
 using namespace firmcall;
 

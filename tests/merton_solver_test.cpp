@@ -7,7 +7,7 @@
 #include <limits>
 #include <vector>
 
-#include "firmcall/merton_solver.hpp"
+#include "firmcall/model/merton_solver.hpp"
 #include "reference_solver.hpp"
 #include "test_util.hpp"
 

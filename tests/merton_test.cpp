@@ -5,8 +5,8 @@
 #include <cmath>
 #include <limits>
 
-#include "firmcall/merton.hpp"
-#include "firmcall/merton_solver.hpp"
+#include "firmcall/model/merton.hpp"
+#include "firmcall/model/merton_solver.hpp"
 #include "reference_solver.hpp"
 #include "test_util.hpp"
 

@@ -9,7 +9,7 @@
 #include <map>
 #include <sstream>
 
-#include "firmcall/settings.hpp"
+#include "firmcall/book/settings.hpp"
 #include "test_util.hpp"
 
 using firmcall::testing::read_file;

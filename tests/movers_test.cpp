@@ -4,7 +4,7 @@
 
 #include <cmath>
 
-#include "firmcall/movers.hpp"
+#include "firmcall/monitor/movers.hpp"
 #include "test_util.hpp"
 
 using namespace firmcall;

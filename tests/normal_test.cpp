@@ -4,7 +4,7 @@
 #include <boost/math/distributions/normal.hpp>
 #include <cmath>
 
-#include "firmcall/normal.hpp"
+#include "firmcall/model/normal.hpp"
 
 using firmcall::norm_cdf;
 using firmcall::norm_pdf;

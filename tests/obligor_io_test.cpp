@@ -8,9 +8,9 @@
 #include <string>
 #include <vector>
 
-#include "firmcall/csv.hpp"
-#include "firmcall/errors.hpp"
-#include "firmcall/obligor_io.hpp"
+#include "firmcall/book/errors.hpp"
+#include "firmcall/io/csv.hpp"
+#include "firmcall/io/obligor_io.hpp"
 
 using namespace firmcall;
 

@@ -6,7 +6,7 @@
 #include <cmath>
 #include <cstdint>
 
-#include "firmcall/merton.hpp"
+#include "firmcall/model/merton.hpp"
 
 namespace firmcall::testing {
 

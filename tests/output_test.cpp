@@ -9,7 +9,7 @@
 #include <random>
 #include <string>
 
-#include "firmcall/output.hpp"
+#include "firmcall/engine/score_output.hpp"
 
 using firmcall::append_number;
 

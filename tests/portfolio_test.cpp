@@ -1,7 +1,7 @@
 // Tests of portfolio runs (src/portfolio.cpp, src/portfolio_output.cpp): exposures and their
 // checks, the sources of asset correlation, groups, stress scenarios at portfolio level and the
 // output formats. Books, correlation files and scenarios are fed from strings.
-#include "firmcall/portfolio.hpp"
+#include "firmcall/engine/portfolio_book.hpp"
 
 #include <doctest/doctest.h>
 #include <yaml-cpp/yaml.h>
@@ -11,8 +11,8 @@
 #include <vector>
 
 #include "csv_table.hpp"
-#include "firmcall/errors.hpp"
-#include "firmcall/stress.hpp"
+#include "firmcall/book/errors.hpp"
+#include "firmcall/engine/stress_book.hpp"
 
 using namespace firmcall;
 

@@ -1,11 +1,11 @@
 // Tests of the reverse-stress searches (src/reverse_stress.cpp).
-#include "firmcall/reverse_stress.hpp"
+#include "firmcall/model/reverse_stress.hpp"
 
 #include <doctest/doctest.h>
 
 #include <cmath>
 
-#include "firmcall/shock.hpp"
+#include "firmcall/model/shock.hpp"
 #include "obligor_sample.hpp"
 #include "reference_solver.hpp"
 

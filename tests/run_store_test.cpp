@@ -11,7 +11,7 @@
 #include <filesystem>
 #include <limits>
 
-#include "firmcall/run_store.hpp"
+#include "firmcall/monitor/run_store.hpp"
 #include "test_util.hpp"
 
 using namespace firmcall;

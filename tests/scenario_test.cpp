@@ -1,12 +1,12 @@
 // Tests of scenario files and quick grids (src/scenario.cpp). Files are fed from strings.
-#include "firmcall/scenario.hpp"
+#include "firmcall/io/scenario.hpp"
 
 #include <doctest/doctest.h>
 
 #include <set>
 #include <string>
 
-#include "firmcall/errors.hpp"
+#include "firmcall/book/errors.hpp"
 
 using namespace firmcall;
 

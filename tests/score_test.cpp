@@ -6,9 +6,9 @@
 #include <stdexcept>
 #include <string>
 
-#include "firmcall/obligor_io.hpp"
-#include "firmcall/output.hpp"
-#include "firmcall/score.hpp"
+#include "firmcall/engine/score_book.hpp"
+#include "firmcall/engine/score_output.hpp"
+#include "firmcall/io/obligor_io.hpp"
 #include "reference_solver.hpp"
 #include "test_util.hpp"
 

@@ -1,6 +1,6 @@
 // Tests of the analytic sensitivities (src/sensitivity.cpp) against finite differences and
 // against identities of the Merton model that do not use our derivation.
-#include "firmcall/sensitivity.hpp"
+#include "firmcall/model/sensitivity.hpp"
 
 #include <doctest/doctest.h>
 
@@ -11,8 +11,8 @@
 #include <limits>
 #include <string>
 
-#include "firmcall/merton_solver.hpp"
-#include "firmcall/normal.hpp"
+#include "firmcall/model/merton_solver.hpp"
+#include "firmcall/model/normal.hpp"
 #include "obligor_sample.hpp"
 #include "reference_solver.hpp"
 

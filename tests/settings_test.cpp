@@ -1,8 +1,8 @@
 // Tests of the configuration file.
 #include <doctest/doctest.h>
 
-#include "firmcall/errors.hpp"
-#include "firmcall/settings.hpp"
+#include "firmcall/book/errors.hpp"
+#include "firmcall/book/settings.hpp"
 #include "test_util.hpp"
 
 using namespace firmcall;

@@ -5,7 +5,7 @@
 #include <random>
 #include <string>
 
-#include "firmcall/sha256.hpp"
+#include "firmcall/io/sha256.hpp"
 #include "test_util.hpp"
 
 using firmcall::sha256_hex;

@@ -1,6 +1,6 @@
 // Tests of stress shocks and their combination (src/shock.cpp). The expected values follow the
 // rules documented in include/firmcall/shock.hpp, recomputed here by hand.
-#include "firmcall/shock.hpp"
+#include "firmcall/model/shock.hpp"
 
 #include <doctest/doctest.h>
 

@@ -1,6 +1,6 @@
 // Tests of stress runs (src/stress.cpp, src/stress_output.cpp): the engine, its summaries and
 // its output formats. Books and scenarios are fed from strings.
-#include "firmcall/stress.hpp"
+#include "firmcall/engine/stress_book.hpp"
 
 #include <doctest/doctest.h>
 
@@ -13,7 +13,7 @@
 #include <vector>
 
 #include "csv_table.hpp"
-#include "firmcall/output.hpp"
+#include "firmcall/engine/score_output.hpp"
 
 using namespace firmcall;
 

@@ -6,11 +6,11 @@
 #include <string>
 
 #include "csv_table.hpp"
-#include "firmcall/errors.hpp"
-#include "firmcall/obligor_io.hpp"
-#include "firmcall/output.hpp"
-#include "firmcall/score.hpp"
-#include "firmcall/term_run.hpp"
+#include "firmcall/book/errors.hpp"
+#include "firmcall/engine/score_book.hpp"
+#include "firmcall/engine/score_output.hpp"
+#include "firmcall/engine/term_book.hpp"
+#include "firmcall/io/obligor_io.hpp"
 #include "test_util.hpp"
 
 using namespace firmcall;

@@ -7,10 +7,10 @@
 #include <string>
 
 #include "csv_table.hpp"
-#include "firmcall/obligor_io.hpp"
-#include "firmcall/scenario.hpp"
-#include "firmcall/term_run.hpp"
-#include "firmcall/term_stress.hpp"
+#include "firmcall/engine/term_book.hpp"
+#include "firmcall/engine/term_stress_book.hpp"
+#include "firmcall/io/obligor_io.hpp"
+#include "firmcall/io/scenario.hpp"
 
 using namespace firmcall;
 

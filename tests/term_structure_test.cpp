@@ -5,9 +5,9 @@
 #include <cmath>
 #include <vector>
 
-#include "firmcall/merton.hpp"
-#include "firmcall/merton_solver.hpp"
-#include "firmcall/term_structure.hpp"
+#include "firmcall/model/merton.hpp"
+#include "firmcall/model/merton_solver.hpp"
+#include "firmcall/model/term_structure.hpp"
 #include "test_util.hpp"
 
 using namespace firmcall;

@@ -14,7 +14,7 @@
 
 #include <sys/wait.h>
 
-#include "firmcall/merton.hpp"
+#include "firmcall/model/merton.hpp"
 
 namespace firmcall::testing {
 

@@ -8,8 +8,8 @@
 #include <numbers>
 #include <vector>
 
-#include "firmcall/irb.hpp"
-#include "firmcall/vasicek.hpp"
+#include "firmcall/portfolio/irb.hpp"
+#include "firmcall/portfolio/vasicek.hpp"
 
 using namespace firmcall;
 

@@ -1,7 +1,7 @@
 // Block math against the scalar C library (glibc libm, an independent implementation: correctly
 // rounded or within 1 ulp for these functions). libmvec documents a maximum error of 4 ulp; the
 // checks allow 4 ulp in the range where the results are normal numbers.
-#include "firmcall/vector_math.hpp"
+#include "firmcall/util/vector_math.hpp"
 
 #include <doctest/doctest.h>
 

@@ -19,7 +19,7 @@
 #include <string>
 #include <vector>
 
-#include "firmcall/merton.hpp"
+#include "firmcall/model/merton.hpp"
 
 namespace {
 

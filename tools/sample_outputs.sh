@@ -68,4 +68,6 @@ for c in score history stress runs movers watchlist attribute track portfolio re
 rm -f "$out/weekly.sqlite"
 # Paths of this checkout inside messages would differ between clones: write them as <root>.
 grep -rlF "$root" "$out" | xargs -r sed -i "s#$root#<root>#g"
+# Recording times are the clock's: write them as <time>.
+grep -lE '[0-9]{4}-[0-9]{2}-[0-9]{2}T[0-9]{2}:[0-9]{2}:[0-9]{2}Z' "$out"/runs*.out | xargs -r sed -i -E 's/[0-9]{4}-[0-9]{2}-[0-9]{2}T[0-9]{2}:[0-9]{2}:[0-9]{2}Z/<time>/g' 
 echo "sample outputs: $(ls "$out" | wc -l) files in $out"

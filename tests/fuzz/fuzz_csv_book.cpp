@@ -6,11 +6,11 @@
 #include <string>
 #include <vector>
 
-#include "firmcall/csv.hpp"
-#include "firmcall/errors.hpp"
-#include "firmcall/obligor_io.hpp"
-#include "firmcall/output.hpp"
-#include "firmcall/score.hpp"
+#include "firmcall/book/errors.hpp"
+#include "firmcall/engine/score_book.hpp"
+#include "firmcall/engine/score_output.hpp"
+#include "firmcall/io/csv.hpp"
+#include "firmcall/io/obligor_io.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   const std::string text(reinterpret_cast<const char*>(data), size);

@@ -6,8 +6,8 @@
 #include <cstring>
 #include <string>
 
-#include "firmcall/csv.hpp"
-#include "firmcall/output.hpp"
+#include "firmcall/engine/score_output.hpp"
+#include "firmcall/io/csv.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   const std::string text(reinterpret_cast<const char*>(data), size);

@@ -3,9 +3,9 @@
 #include <cstdint>
 #include <string>
 
-#include "firmcall/errors.hpp"
-#include "firmcall/obligor_io.hpp"
-#include "firmcall/scenario.hpp"
+#include "firmcall/book/errors.hpp"
+#include "firmcall/io/obligor_io.hpp"
+#include "firmcall/io/scenario.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   const std::string text(reinterpret_cast<const char*>(data), size);

@@ -2,9 +2,9 @@
 #include <cstdint>
 #include <string>
 
-#include "firmcall/errors.hpp"
-#include "firmcall/obligor_io.hpp"
-#include "firmcall/score.hpp"
+#include "firmcall/book/errors.hpp"
+#include "firmcall/engine/score_book.hpp"
+#include "firmcall/io/obligor_io.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   const std::string text(reinterpret_cast<const char*>(data), size);

@@ -1,0 +1,104 @@
+// One obligor as read from a book (YAML or CSV), before and after its model inputs are resolved.
+//
+// Field names are the CSV column names and the YAML keys (see README.md, "Input reference").
+#pragma once
+
+#include <array>
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "firmcall/book/settings.hpp"
+#include "firmcall/model/merton.hpp"
+
+namespace firmcall {
+
+/// Numeric fields of an obligor. Order is fixed (used as an index).
+enum class NumField : std::uint8_t {
+  market_cap,          ///< equity market value E, currency units
+  share_price,         ///< price per share, currency units
+  shares_outstanding,  ///< number of shares
+  equity_vol,          ///< annualised equity volatility, decimal
+  short_term_debt,     ///< debt due within a year, currency units
+  long_term_debt,      ///< debt due after a year, currency units
+  default_point,       ///< explicit default point, currency units (overrides the debt rule)
+  rate,                ///< risk-free rate, continuously compounded decimal
+  horizon,             ///< horizon, years
+  drift,               ///< expected asset return mu, continuously compounded decimal
+  ead,                 ///< exposure at default, currency units
+  lgd,                 ///< loss given default, decimal in [0, 1]
+  asset_correlation,   ///< portfolio model: asset correlation rho (weight of the systematic factor), [0, 1)
+  maturity,            ///< Basel IRB effective maturity M, years (the formula holds it to [1, 5])
+  count
+};
+inline constexpr std::size_t kNumFieldCount = static_cast<std::size_t>(NumField::count);
+
+/// Text fields of an obligor.
+enum class TextField : std::uint8_t { id, name, sector, country, currency, count };
+inline constexpr std::size_t kTextFieldCount = static_cast<std::size_t>(TextField::count);
+
+std::string_view to_string(NumField f) noexcept;
+std::string_view to_string(TextField f) noexcept;
+/// Every field name (text fields first), as used in CSV headers and YAML keys.
+const std::vector<std::string>& obligor_field_names();
+/// Looks a field name up among both kinds; returns false when it is neither.
+bool field_from_string(std::string_view name, std::optional<NumField>& num,
+                       std::optional<TextField>& text) noexcept;
+
+/// An obligor as read: raw numbers (absent ones flagged), text fields, and the first read error.
+struct ObligorRecord {
+  std::array<std::string, kTextFieldCount> text;
+  std::array<double, kNumFieldCount> num{};
+  std::uint32_t present = 0;  ///< bit i set: num[i] was given
+  std::string read_error;     ///< first problem met while reading (field named); empty if none
+  std::size_t line = 0;       ///< 1-based line in the source file (CSV) or of the YAML entry
+
+  bool has(NumField f) const noexcept { return (present >> static_cast<unsigned>(f)) & 1U; }
+  double get(NumField f) const noexcept { return num[static_cast<std::size_t>(f)]; }
+  void set(NumField f, double v) noexcept {
+    num[static_cast<std::size_t>(f)] = v;
+    present |= 1U << static_cast<unsigned>(f);
+  }
+  const std::string& get(TextField f) const noexcept { return text[static_cast<std::size_t>(f)]; }
+  std::string& get(TextField f) noexcept { return text[static_cast<std::size_t>(f)]; }
+  void clear() noexcept;
+};
+
+/// What a book is read for. scoring: the equity value and equity_vol columns are required.
+/// history: equity comes from a market history file, so a CSV book needs only the id column.
+enum class BookUse : std::uint8_t { scoring, history };
+
+/// Run-wide values a book may set (YAML `defaults:`); an obligor's own field wins over them.
+struct BookDefaults {
+  std::optional<double> rate;
+  std::optional<double> horizon;
+  std::optional<double> drift;
+  std::optional<double> default_point_weight;
+  std::optional<double> lgd;
+};
+
+/// An obligor ready for the model, or the reason it is not.
+struct ResolvedObligor {
+  MertonInputs inputs;
+  double ead = 0.0;                ///< 0 when not given
+  double lgd = 0.0;                ///< the obligor's, else the book's, else the configured default
+  double asset_correlation = 0.0;  ///< the obligor's own rho; meaningful when has_asset_correlation
+  double maturity_years = 0.0;     ///< the obligor's own IRB maturity; meaningful when has_maturity
+  bool has_ead = false;
+  bool has_lgd = false;  ///< true when lgd came from the obligor or the book
+  bool has_asset_correlation = false;
+  bool has_maturity = false;
+  std::string error;  ///< empty when usable; else "field 'x': reason, got 'value'"
+  /// True when mu is the rate (risk-neutral measure, or no drift given): a rate change moves mu too.
+  bool drift_follows_rate = false;
+  bool ok() const noexcept { return error.empty(); }
+};
+
+/// Resolves E, DP, r, T, mu (and EAD, LGD) with the precedence: command-line override > obligor
+/// field > book default > configuration default. Validates every value and names the field.
+void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
+                     ResolvedObligor& out);
+
+}  // namespace firmcall

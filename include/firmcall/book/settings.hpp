@@ -1,0 +1,108 @@
+// Run settings: the defaults shipped in config/firmcall.yaml, and the per-run overrides the
+// command line adds. The built-in values below equal the shipped file (a test checks it).
+#pragma once
+
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "firmcall/book/grades.hpp"
+#include "firmcall/estimate/history.hpp"
+#include "firmcall/model/merton_solver.hpp"
+#include "firmcall/model/term_structure.hpp"
+
+namespace firmcall {
+
+/// Which drift the distance to default uses: physical (the obligor's drift, default the rate)
+/// or risk-neutral (drift = rate, so pd equals pd_risk_neutral).
+enum class Measure { physical, risk_neutral };
+std::string_view to_string(Measure m) noexcept;
+std::optional<Measure> measure_from_string(std::string_view s) noexcept;
+
+/// Settings for scoring one book.
+struct ScoreSettings {
+  double default_point_weight = 0.5;  ///< DP = short_term_debt + w * long_term_debt (common practice)
+  double horizon_years = 1.0;         ///< used when neither obligor nor book gives a horizon
+  Measure measure = Measure::physical;
+  double default_lgd = 0.45;     ///< senior unsecured, common practice (Basel foundation IRB)
+  double max_equity_vol = 10.0;  ///< larger inputs are taken as percentages typed by mistake
+  MertonSolveOptions solver;
+  // Command-line overrides: when set they win over every file value.
+  std::optional<double> rate_override;
+  std::optional<double> horizon_override;
+  std::optional<double> weight_override;
+};
+
+/// Settings of the stress command (see stress.hpp).
+struct StressSettings {
+  double pd_threshold = 0.05;  ///< obligors with stressed PD above this are counted per scenario
+};
+
+/// Watchlist alert rules (see movers.hpp): an obligor is flagged when any rule fires between two
+/// runs. A rule is switched off by a bound it cannot pass (e.g. pd_ceiling: 1).
+struct AlertRules {
+  double dd_drop = 1.0;           ///< distance to default fell by more than this, standard deviations
+  double pd_ratio = 2.0;          ///< PD grew by more than this factor ...
+  double pd_ratio_min_pd = 1e-4;  ///< ... and the new PD is at least this (far-tail ratios are noise)
+  int downgrade_notches = 2;      ///< grade worsened by at least this many notches
+  double pd_ceiling = 0.05;       ///< PD above this, probability
+};
+
+/// Settings of the monitoring commands (history store, alerts).
+struct MonitorSettings {
+  /// History store (SQLite file); empty: $XDG_DATA_HOME/firmcall/history.sqlite, else
+  /// ~/.local/share/firmcall/history.sqlite. The command-line option --db wins.
+  std::string store;
+  double busy_timeout_seconds = 10.0;  ///< how long to wait for another process writing the store
+  AlertRules alerts;
+};
+
+/// Settings of PD term structures and the first-passage model (term_structure.hpp).
+struct TermSettings {
+  Calibration calibration = Calibration::once;  ///< once: solve at each obligor's horizon, then project
+  double barrier_ratio = 1.0;                   ///< first-passage barrier H0 = ratio x default point
+  double barrier_growth = 0.0;                  ///< barrier growth g, cc decimal per year: H(t) = H0 e^(g t)
+};
+
+/// Most confidence levels a portfolio run reports.
+inline constexpr std::size_t kMaxConfidenceLevels = 8;
+
+/// Settings of the portfolio command (portfolio.hpp).
+struct PortfolioSettings {
+  std::vector<double> confidence_levels = {0.99, 0.995, 0.999};  ///< VaR and ES levels, ascending, in (0, 1)
+  /// Asset correlation when neither the obligor nor the correlation file gives one; empty: the
+  /// Basel corporate correlation function of PD (irb.hpp), 0.12 to 0.24.
+  std::optional<double> asset_correlation;
+  int loss_grid_points = 2048;         ///< points of the exact one-factor loss grid
+  double quadrature_tolerance = 1e-3;  ///< relative error allowed on exceedance probabilities
+  std::uint64_t seed = 1;              ///< Monte Carlo seed (results depend only on it and the inputs)
+};
+
+/// Settings of the Basel IRB capital formula (irb.hpp).
+struct IrbSettings {
+  double pd_floor = 0.0003;     ///< BCBS 2006 para 285
+  double maturity_years = 2.5;  ///< effective maturity M when the obligor gives none (para 318)
+};
+
+/// Everything in a configuration file.
+struct Config {
+  ScoreSettings score;
+  StressSettings stress;
+  HistorySettings history;
+  GradeScale grades = default_grade_scale();  ///< master scale, best grade first
+  MonitorSettings monitor;
+  TermSettings term;
+  PortfolioSettings portfolio;
+  IrbSettings irb;
+};
+
+/// Reads a configuration file; unknown keys and bad values are errors (InputError naming the
+/// file and key). Keys not present keep the built-in defaults.
+Config load_config(const std::string& path);
+
+/// Parses configuration text (the same rules); `origin` names it in messages.
+Config parse_config(const std::string& yaml_text, const std::string& origin);
+
+}  // namespace firmcall

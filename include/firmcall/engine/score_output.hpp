@@ -1,0 +1,56 @@
+// The score writers (table for people, CSV and JSON for programs) and the sensitivity columns.
+#pragma once
+
+#include <memory>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "firmcall/book/grades.hpp"
+#include "firmcall/engine/score_book.hpp"
+#include "firmcall/format/cells.hpp"
+#include "firmcall/model/sensitivity.hpp"
+
+namespace firmcall {
+
+/// Names of the machine-readable score columns, in order.
+const std::vector<std::string_view>& score_columns();
+
+/// Names of the optional sensitivity columns (--sensitivities), in order: sensitivity_status, then
+/// DD, PD and spread per +1% equity value, per +1 equity-volatility point, per +1% default point and
+/// per +1 bp of rate (units in sensitivity.hpp). Appended after the other columns.
+const std::vector<std::string_view>& sensitivity_columns();
+
+/// Sensitivities of a solved obligor (its own inputs and solution).
+MertonSensitivities sensitivities_of(const ResolvedObligor& resolved, const AssetSolution& solution);
+
+/// Appends ",status,v1,...,v12" in sensitivity_columns() order; cells are empty when `usable` is
+/// false or the sensitivities are not ok.
+void append_sensitivities_csv(std::string& out, const MertonSensitivities& s, bool usable);
+/// Appends ", \"sensitivity_status\": ..., \"dd_per_equity_pct\": ..." (null when not usable).
+void append_sensitivities_json(std::string& out, const MertonSensitivities& s, bool usable);
+/// Appends one fixed-width line of the twelve values under a table row (see the table header).
+void append_sensitivities_table(std::string& out, const MertonSensitivities& s, std::size_t indent);
+/// Appends the two header lines that explain append_sensitivities_table's columns.
+void append_sensitivities_table_header(std::string& out, std::size_t indent);
+
+/// Writes scored obligors in one format. Rows are appended to a caller's buffer so that workers
+/// can format in parallel; `separator` is written between rows by the caller.
+class ScoreWriter {
+ public:
+  virtual ~ScoreWriter() = default;
+  virtual void begin(std::string& out) const = 0;
+  virtual void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const = 0;
+  virtual std::string_view separator() const { return {}; }
+  virtual void end(const ScoreSummary& summary, std::string& out) const = 0;
+};
+
+/// A writer for the format; `origin` and `settings` appear in the JSON run block. With
+/// `sensitivities` every format adds the sensitivity columns (the table a second line per obligor).
+/// With `grades`, each scored obligor also shows its grade (a last CSV column and JSON key `grade`,
+/// a table column).
+std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
+                                               const ScoreSettings& settings, bool sensitivities = false,
+                                               const GradeScale* grades = nullptr);
+
+}  // namespace firmcall

@@ -1,0 +1,171 @@
+// Stress runs: every obligor of a book is scored once as it stands (the base) and again under
+// each scenario, whose shocks move the observed inputs (shock.hpp, scenario.hpp); the stressed
+// inputs are re-solved for asset value and asset volatility. Output per obligor and scenario has
+// base and stressed DD, PD and spread and their changes; per scenario a summary (mean and
+// EAD-weighted PD, count above a PD threshold, expected loss PD x LGD x EAD). Reverse stress finds,
+// per obligor, the equity fall and the equity-volatility multiplier that move PD to a level
+// (reverse_stress.hpp).
+//
+// **Example**:
+//   firmcall::Book book = firmcall::load_book("samples/demo_book.yaml");
+//   firmcall::ScenarioSet set = firmcall::load_scenarios("samples/stress_scenarios.yaml");
+//   firmcall::check_filters(set, book);
+//   std::string out;
+//   auto summary = firmcall::run_stress(book, set.scenarios, set.origin, {}, {}, {},
+//                                       [&](std::string_view s) { out += s; });
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "firmcall/book/settings.hpp"
+#include "firmcall/engine/score_book.hpp"
+#include "firmcall/io/obligor_io.hpp"
+#include "firmcall/io/scenario.hpp"
+#include "firmcall/model/merton.hpp"
+#include "firmcall/model/merton_solver.hpp"
+#include "firmcall/model/reverse_stress.hpp"
+#include "firmcall/model/sensitivity.hpp"
+#include "firmcall/model/shock.hpp"
+
+namespace firmcall {
+
+/// Outcome of one obligor under one scenario. ok: base and stressed measures computed.
+/// invalid_input: the obligor's own data are unusable (as when scoring). not_converged: the base
+/// or the stressed solve failed. invalid_stress: the shocks make an input invalid for this obligor
+/// (e.g. a volatility addition that leaves a negative volatility).
+enum class StressStatus : std::uint8_t { ok, invalid_input, not_converged, invalid_stress };
+std::string_view to_string(StressStatus s) noexcept;
+
+/// The first problem of shocked model inputs, as "stressed field 'x': reason, got v"; empty if none.
+std::string stressed_input_problem(const MertonInputs& in);
+
+/// One obligor under one scenario.
+struct StressedObligor {
+  StressStatus status = StressStatus::invalid_input;
+  ShockEffect effect;                 ///< effect.shocks == 0: no shock hits this obligor (stressed = base)
+  MertonInputs inputs;                ///< stressed inputs (valid when the base is ok)
+  AssetSolution solution;             ///< stressed solution
+  MertonMeasures measures;            ///< stressed measures (valid when status == ok)
+  MertonSensitivities sensitivities;  ///< at the stressed inputs, when requested
+  std::string message;                ///< why status is not ok; empty when ok
+  bool shocked() const noexcept { return effect.shocks > 0; }
+};
+
+/// Stresses one obligor already scored as it stands. When no shock hits it (effect.shocks == 0)
+/// the stressed result is the base result; otherwise the shocked inputs are re-solved. Never
+/// throws for bad values.
+void stress_obligor(const ScoredObligor& base, const ShockEffect& effect, const ScoreSettings& settings,
+                    bool sensitivities, StressedObligor& out);
+
+/// stress_obligor for n obligors (base[i] under effects[i] into out[i]), their solves done
+/// together by solve_asset_batch: the same results, faster.
+void stress_obligors(const ScoredObligor* base, const ShockEffect* effects, std::size_t n,
+                     const ScoreSettings& settings, bool sensitivities, StressedObligor* out);
+
+/// Per-scenario figures over the obligors that are ok both as they stand and stressed.
+struct ScenarioSummary {
+  std::size_t obligors = 0;  ///< obligors in the book
+  std::size_t compared = 0;  ///< ok both as they stand and stressed (the rest of this summary is over these)
+  std::size_t shocked = 0;   ///< compared obligors hit by at least one shock
+  std::size_t failed = 0;    ///< rows whose status is not ok
+  double mean_pd = 0.0;      ///< simple mean of base PD
+  double mean_pd_stressed = 0.0;  ///< simple mean of stressed PD
+  std::size_t with_ead = 0;       ///< compared obligors that give ead
+  double ead_total = 0.0;         ///< sum of their ead
+  double ead_weighted_pd = 0.0;   ///< sum(ead PD)/sum(ead); NaN when ead_total is 0
+  double ead_weighted_pd_stressed = 0.0;
+  double pd_threshold = 0.0;                 ///< the threshold counted against
+  std::size_t above_threshold = 0;           ///< base PD > threshold
+  std::size_t above_threshold_stressed = 0;  ///< stressed PD > threshold
+  std::size_t newly_above_threshold = 0;     ///< base PD <= threshold < stressed PD
+  double expected_loss =
+      0.0;  ///< sum of PD x LGD x EAD over obligors with ead (LGD: obligor, book or default)
+  double expected_loss_stressed = 0.0;
+};
+
+/// PDs of the quick-grid scenarios per obligor, for the table's PD grid (filled for the table
+/// format only). pd[(i * rows + r) * columns + c]; NaN where the obligor could not be stressed.
+struct PdGrid {
+  std::vector<double> equity_changes;   ///< rows
+  std::vector<double> vol_multipliers;  ///< columns
+  std::vector<double> pd;
+  std::vector<double> base_pd;  ///< PD as it stands per obligor; NaN where not scored
+  bool empty() const noexcept { return equity_changes.empty() || vol_multipliers.empty(); }
+};
+
+struct StressSummary {
+  std::size_t obligors = 0;                ///< obligors in the book
+  std::size_t base_ok = 0;                 ///< scored as they stand
+  std::size_t base_invalid = 0;            ///< invalid input
+  std::size_t base_not_converged = 0;      ///< base solve failed
+  std::size_t rows = 0;                    ///< obligor x scenario rows written
+  std::size_t failed_rows = 0;             ///< rows whose status is not ok
+  std::vector<ScenarioSummary> scenarios;  ///< in scenario order
+  PdGrid grid;
+  std::vector<std::string> problems;  ///< "file:line: obligor 'id': message", the first few
+  std::size_t problems_not_listed = 0;
+  std::vector<std::string> notes;
+  std::size_t failed() const noexcept { return failed_rows; }
+};
+
+struct StressRunOptions {
+  OutputFormat format = OutputFormat::csv;
+  unsigned threads = 1;        ///< worker threads (>= 1); output order is the input order
+  bool sensitivities = false;  ///< add sensitivity columns at the stressed inputs
+  std::size_t max_listed_problems = 20;
+  std::size_t chunk_obligors = 8192;  ///< obligors formatted per parallel step
+};
+
+/// Column names of the machine-readable stress rows, in order (sensitivity columns follow when
+/// requested).
+const std::vector<std::string_view>& stress_columns();
+/// Column names of the per-scenario summary CSV, in order.
+const std::vector<std::string_view>& stress_summary_columns();
+
+/// Runs every scenario over the book and writes rows and summaries in `run.format`.
+/// `scenario_origin` names the scenario source in the output (a file name or "grid").
+StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenarios,
+                         const std::string& scenario_origin, const ScoreSettings& settings,
+                         const StressSettings& stress, const StressRunOptions& run, const TextSink& sink);
+
+/// The per-scenario summaries as CSV (header and one row per scenario), full precision.
+std::string scenario_summary_csv(const StressSummary& summary, const std::vector<Scenario>& scenarios);
+
+/// One obligor's reverse stress.
+struct ReverseStressRow {
+  RowStatus status = RowStatus::invalid_input;  ///< of the base solve
+  double pd = 0.0;                              ///< base PD
+  ReverseResult equity_fall;
+  ReverseResult vol_multiplier;
+  std::string message;
+};
+
+struct ReverseStressSummary {
+  std::size_t obligors = 0;
+  std::size_t base_ok = 0;
+  std::size_t base_invalid = 0;
+  std::size_t base_not_converged = 0;
+  std::size_t search_failed = 0;  ///< searches that ended not_converged
+  std::vector<std::string> problems;
+  std::size_t problems_not_listed = 0;
+  std::vector<std::string> notes;
+  std::size_t failed() const noexcept { return base_invalid + base_not_converged + search_failed; }
+};
+
+/// Reverse-stresses one obligor scored as it stands.
+void reverse_stress_obligor(const ScoredObligor& base, double target_pd, const ReverseStressOptions& options,
+                            ReverseStressRow& out);
+
+/// Column names of the machine-readable reverse-stress rows, in order.
+const std::vector<std::string_view>& reverse_stress_columns();
+
+/// For each obligor, the equity fall and equity-volatility multiplier at which PD reaches
+/// `target_pd`; written in `run.format`.
+ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, const ScoreSettings& settings,
+                                        const StressRunOptions& run, const TextSink& sink,
+                                        const ReverseStressOptions& options = {});
+
+}  // namespace firmcall

@@ -1,0 +1,52 @@
+// Cells of every output: numbers at 17 significant digits (they read back to the same double),
+// CSV and JSON escaping, the problem list and caution under tables, and the output format word.
+#pragma once
+
+#include <cstddef>
+#include <functional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+namespace firmcall {
+
+/// Output formats.
+enum class OutputFormat { table, csv, json };
+
+/// Where the output text goes (a file, stdout, or a string in tests).
+using TextSink = std::function<void(std::string_view)>;
+
+/// Appends v with 17 significant digits (round-trips exactly); non-finite values append nothing.
+void append_number(std::string& out, double v);
+
+/// Room write_number needs (it may write scratch bytes past the number's end, within this).
+inline constexpr std::size_t kMaxNumberChars = 40;
+
+/// Writes v as append_number does at p (room for kMaxNumberChars); returns the end.
+char* write_number(char* p, double v) noexcept;
+/// Appends column names joined by commas (a CSV header, or its continuation after a comma).
+void append_csv_names(std::string& out, const std::vector<std::string_view>& names);
+/// Appends a CSV cell, quoted when it holds a comma, quote or line break.
+void append_csv_text(std::string& out, std::string_view s);
+/// Appends a JSON string literal (with quotes), escaping as RFC 8259 requires.
+void append_json_string(std::string& out, std::string_view s);
+/// Appends a JSON number, or null when v is not finite.
+void append_json_number(std::string& out, double v);
+
+/// The caution printed under every table of a Merton-model run.
+inline constexpr std::string_view kTableCaution =
+    "Model estimates under the Merton assumptions; not a credit decision on their own.\n";
+
+/// Appends the problems listed under a table, one per line indented by two spaces (wrapped at
+/// `wrap_width` columns when it is not 0), then "  ... and N more (see --format csv, column
+/// message)" when `not_listed` is not 0.
+void append_table_problems(std::string& out, const std::vector<std::string>& problems, std::size_t not_listed,
+                           std::size_t wrap_width = 0);
+
+namespace detail {
+/// Text broken at spaces into lines of at most `width` columns, `indent` spaces first and twice that
+/// on continuation lines; ends with a line break.
+std::string wrapped(const std::string& text, std::size_t indent, std::size_t width);
+}  // namespace detail
+
+}  // namespace firmcall

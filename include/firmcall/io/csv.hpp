@@ -1,0 +1,64 @@
+// CSV reading (RFC 4180: comma separated, double-quoted fields may hold commas, quotes written
+// as "" and line breaks; CRLF or LF line ends; a UTF-8 byte-order mark is skipped) and the
+// mapping of an obligor CSV's header onto obligor fields.
+#pragma once
+
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "firmcall/book/obligor.hpp"
+#include "firmcall/util/utf8.hpp"
+
+namespace firmcall {
+
+/// Splits the first record of `text` into fields. Quoted fields that contain "" are unescaped
+/// into `scratch` (whose capacity is reserved first, so the views stay valid). Returns the number
+/// of bytes consumed including the line end; sets `unterminated` when a quote never closes.
+std::size_t split_csv_record(std::string_view text, std::vector<std::string_view>& fields,
+                             std::string& scratch, bool& unterminated);
+
+/// The same for a record known to hold no '"' (the common case), scanning 16 bytes at a time:
+/// fields are views into `text`, the record's fields end at the first '\r' or '\n', and the
+/// return value runs up to and including the next '\n' (or the whole text).
+std::size_t split_plain_record(std::string_view text, std::vector<std::string_view>& fields);
+
+/// Offset just past the last complete record in `text` (0 when none is complete), honouring
+/// quotes, so that a buffer can be cut between records.
+std::size_t last_record_end(std::string_view text) noexcept;
+
+/// Counts the line breaks in [text.begin(), text.begin() + n).
+std::size_t count_lines(std::string_view text) noexcept;
+
+/// Where each CSV column goes.
+struct CsvColumns {
+  struct Column {
+    std::optional<NumField> num;
+    std::optional<TextField> text;
+    std::string name;
+  };
+  std::vector<Column> columns;
+  std::vector<std::string> unused;  ///< header names firmcall does not read (reported as a note)
+
+  /// Maps a header record. Throws InputError (naming `origin` and the column) when a column is
+  /// repeated or the id column is missing, or (for BookUse::scoring) the equity value or
+  /// equity_vol is missing.
+  static CsvColumns from_header(const std::vector<std::string_view>& header, const std::string& origin,
+                                BookUse use = BookUse::scoring);
+};
+
+/// Fills `rec` from one record's fields (rec.line must be set by the caller). Number fields are
+/// parsed with std::from_chars; empty cells are absent; the first bad cell sets rec.read_error.
+void parse_obligor_fields(const std::vector<std::string_view>& fields, const CsvColumns& cols,
+                          ObligorRecord& rec);
+
+/// s without leading and trailing spaces and tabs.
+std::string_view trim_blanks(std::string_view s) noexcept;
+
+/// Parses a decimal number cell (surrounding spaces allowed). Returns false on anything else,
+/// including nan, inf and out-of-range values.
+bool parse_number(std::string_view cell, double& value) noexcept;
+
+}  // namespace firmcall

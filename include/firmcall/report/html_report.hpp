@@ -1,0 +1,108 @@
+// The book at a glance: one self-contained HTML page (inline CSS and SVG charts from svg.hpp, no
+// scripts, fonts or links to anywhere) for `firmcall report BOOK --html FILE`. Sections, each
+// present when its data exists:
+//   summary     counts, exposure-weighted PD, expected loss, PD distribution by grade
+//   dd-leverage distance to default against leverage DP/V, distressed names labelled
+//   names       the weakest and the strongest names
+//   stress      PD by scenario and per-obligor PD change (--scenarios; stress.hpp)
+//   term        cumulative PD term structures of chosen names (--names; term_run.hpp)
+//   portfolio   exact one-factor loss distribution with EL, VaR and ES (--portfolio; portfolio.hpp)
+//   monitoring  movers and alerts between two recorded runs (--db; movers.hpp)
+// The figures come from the same library calls as the score, stress, portfolio and movers commands,
+// and the tables use the table output's rounding, so they can be checked against their CSV output.
+// The page is XHTML-compatible (every element closed, attributes quoted, text escaped) and prints
+// one section a page.
+//
+// **Example**:
+//   firmcall::ReportOptions opt;
+//   opt.book_path = "samples/demo_book.yaml";
+//   opt.scenarios_path = "samples/stress_scenarios.yaml";
+//   firmcall::ReportData data = firmcall::gather_report(opt, firmcall::Config{});
+//   std::string html = firmcall::html_report(data);
+#pragma once
+
+#include <memory>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "firmcall/book/settings.hpp"
+#include "firmcall/engine/portfolio_book.hpp"
+#include "firmcall/engine/score_book.hpp"
+#include "firmcall/engine/stress_book.hpp"
+#include "firmcall/engine/term_book.hpp"
+#include "firmcall/io/obligor_io.hpp"
+#include "firmcall/io/scenario.hpp"
+#include "firmcall/monitor/movers.hpp"
+#include "firmcall/monitor/run_store.hpp"
+
+namespace firmcall {
+
+/// What the report is built from (the command line's choices).
+struct ReportOptions {
+  std::string book_path;                      ///< the book (YAML or CSV)
+  std::string scenarios_path;                 ///< stress scenario file; empty: no stress section
+  std::vector<std::string> term_ids;          ///< obligors whose PD term structure is drawn
+  std::string horizons = "0.5,1,2,3,5,7,10";  ///< horizons of the term structures, years
+  bool portfolio = false;                     ///< the loss distribution section
+  std::string correlation_path;               ///< sector correlation file for the portfolio
+  std::string store_path;                     ///< history store; empty: no monitoring section
+  std::string run;                            ///< run of the store to show ("" the latest)
+  std::string against;                        ///< run to compare with ("" the one before)
+  std::size_t top = 10;                       ///< rows of the name tables
+  unsigned threads = 1;                       ///< worker threads of the portfolio run
+  std::string title;                          ///< page title; empty: from the book's label
+  std::string tool_version;                   ///< shown in the page's footer
+};
+
+/// The stress section's figures.
+struct ReportStress {
+  std::string origin;                              ///< scenario file
+  std::vector<Scenario> scenarios;                 ///< in file order
+  StressSummary summary;                           ///< per-scenario summaries (run_stress)
+  std::vector<std::vector<StressedObligor>> rows;  ///< [scenario][obligor], book order
+};
+
+/// The monitoring section's figures. Comparison points into `before` and `now`.
+struct ReportMonitoring {
+  std::string store_path;
+  RunPair runs;
+  std::vector<StoredObligor> before;
+  std::vector<StoredObligor> now;
+  Comparison comparison;
+  std::size_t runs_in_store = 0;
+};
+
+/// Everything a report shows.
+struct ReportData {
+  ReportOptions options;
+  Config config;
+  Book book;
+  std::vector<ScoredObligor> scored;  ///< book order
+  std::unique_ptr<ReportStress> stress;
+  TermRunOptions term_run;
+  std::vector<std::size_t> term_index;   ///< book positions of the chosen names
+  std::vector<TermScoredObligor> terms;  ///< one per chosen name
+  std::unique_ptr<PortfolioRun> portfolio;
+  std::unique_ptr<ReportMonitoring> monitoring;
+};
+
+/// Reads the inputs and computes every section asked for. InputError (exit code 2) naming the file,
+/// option or obligor for an unreadable or malformed file, an id of --names not in the book, a bad
+/// horizon list, or a store that cannot be read or has fewer than two runs to compare.
+ReportData gather_report(const ReportOptions& options, const Config& config);
+
+/// The whole HTML page.
+std::string html_report(const ReportData& data);
+
+/// Ids of the page's sections, in page order.
+const std::vector<std::string>& report_section_ids();
+
+/// People's number formats used by the report (the table output's rounding):
+/// PD in percent as the score table ("0.2048%", "9.27e-05%"), spread in basis points ("1.37",
+/// "3.17e-04"), amounts with thousands separators ("1,307.50").
+std::string report_pd(double pd);
+std::string report_spread_bp(double spread_bp);
+std::string report_amount(double v, int decimals = 2);
+
+}  // namespace firmcall

@@ -1,0 +1,94 @@
+// `firmcall report BOOK --html FILE`: the book at a glance as one self-contained HTML page.
+#include <algorithm>
+#include <iostream>
+#include <memory>
+#include <thread>
+
+#include "commands.hpp"
+#include "firmcall/book/errors.hpp"
+#include "firmcall/io/output_file.hpp"
+#include "firmcall/report/html_report.hpp"
+
+namespace firmcall::cli {
+
+namespace {
+struct ReportCli {
+  ReportOptions report;
+  std::string html;
+  std::optional<std::string> horizons;
+  unsigned threads = 0;
+};
+}  // namespace
+
+void add_report_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+  auto opts = std::make_shared<ReportCli>();
+  CLI::App* cmd = app.add_subcommand(
+      "report",
+      "One self-contained HTML page with charts: book summary, DD against leverage, weakest and "
+      "strongest names, and stress, term-structure, portfolio and monitoring sections when asked");
+  cmd->add_option("book", opts->report.book_path, "Obligor book: .yaml/.yml or .csv")->required();
+  cmd->add_option("--html", opts->html, "Write the page here (all or nothing)")->required();
+  cmd->add_option("-s,--scenarios", opts->report.scenarios_path,
+                  "Stress scenario file (as for `firmcall stress`): adds the stress section");
+  cmd->add_option("--names", opts->report.term_ids,
+                  "Obligor ids whose PD term structure is drawn, e.g. GOR-33,ZEP-26: adds the term section")
+      ->delimiter(',');
+  cmd->add_option("--horizons", opts->horizons,
+                  "Horizons of the term structures in years (default 0.5,1,2,3,5,7,10); needs --names");
+  cmd->add_flag("--portfolio", opts->report.portfolio,
+                "Adds the portfolio loss distribution with EL, VaR and ES (every obligor needs ead)");
+  cmd->add_option("-c,--correlation", opts->report.correlation_path,
+                  "Sector correlation file for the portfolio section (as for `firmcall portfolio`)");
+  cmd->add_option("--db", opts->report.store_path, "History store: adds the movers and alerts section");
+  cmd->add_option("--run", opts->report.run,
+                  "Run of the store to show: run id or as-of date (default: latest)");
+  cmd->add_option("--against", opts->report.against,
+                  "Run to compare with: run id or as-of date (default: the run before --run)");
+  cmd->add_option("--top", opts->report.top, "Rows of the name tables (default 10)")
+      ->check(CLI::Range(1, 1000));
+  cmd->add_option("--title", opts->report.title, "Page title (default: the book's label)");
+  cmd->add_option("-j,--threads", opts->threads, "Worker threads of the portfolio run (default: all cores)")
+      ->check(CLI::Range(1, 1024));
+  cmd->footer(
+      std::string("\nExit codes: 0 every obligor scored; 1 the page was written but some obligors could "
+                  "not be scored (listed in it); 2 unreadable or malformed file, unknown id in --names, "
+                  "or bad command line (nothing written).\n\n") +
+      kCaution);
+  cmd->callback([opts, &global, &run]() {
+    run = [opts, &global]() -> int {
+      ReportOptions o = opts->report;
+      if (opts->horizons) {
+        if (o.term_ids.empty())
+          throw InputError("--horizons: applies to the term structures; give --names as well");
+        o.horizons = *opts->horizons;
+      }
+      if (!o.correlation_path.empty() && !o.portfolio) {
+        throw InputError("--correlation: applies to the portfolio section; give --portfolio as well");
+      }
+      if ((!o.run.empty() || !o.against.empty()) && o.store_path.empty()) {
+        throw InputError("--run/--against: apply to the movers section; give --db STORE as well");
+      }
+      o.threads = opts->threads > 0 ? opts->threads : std::max(1U, std::thread::hardware_concurrency());
+      o.tool_version = FIRMCALL_VERSION;
+      // Every input is read and every figure computed before the file is opened.
+      const ReportData data = gather_report(o, global.config());
+      const std::string html = html_report(data);
+      OutputFile out(opts->html);
+      out.write(html);
+      out.commit();
+      const auto failed = static_cast<std::size_t>(
+          std::count_if(data.scored.begin(), data.scored.end(),
+                        [](const ScoredObligor& s) { return s.status != RowStatus::ok; }));
+      if (!global.quiet) {
+        std::cerr << "firmcall: wrote " << opts->html << ": " << data.scored.size() << " obligors";
+        if (failed > 0) std::cerr << " (" << failed << " not scored)";
+        std::cerr << (data.stress ? ", stress" : "") << (!data.terms.empty() ? ", term structures" : "")
+                  << (data.portfolio ? ", portfolio" : "") << (data.monitoring ? ", movers and alerts" : "")
+                  << "\n";
+      }
+      return failed > 0 ? kExitRowsFailed : kExitOk;
+    };
+  });
+}
+
+}  // namespace firmcall::cli

@@ -1,0 +1,65 @@
+// firmcall command-line entry point: parses the command line and maps failures to exit codes
+// (see firmcall/errors.hpp and README.md).
+#include <cstdio>
+#include <exception>
+#include <iostream>
+
+#include "commands.hpp"
+#include "firmcall/book/errors.hpp"
+
+#ifndef FIRMCALL_VERSION
+#define FIRMCALL_VERSION "dev"
+#endif
+
+namespace firmcall::cli {
+
+Config GlobalOptions::config() const {
+  return config_path.empty() ? Config{} : load_config(config_path);
+}
+
+}  // namespace firmcall::cli
+
+int main(int argc, char** argv) {
+  using namespace firmcall;
+  CLI::App app{
+      "firmcall: structural credit risk from equity markets (Merton model).\n"
+      "Backs out asset value and asset volatility from equity value and volatility, then reports\n"
+      "distance to default, default probability, credit spread and debt value per obligor."};
+  app.footer(std::string("\n") + cli::kCaution);
+  app.set_version_flag("--version", std::string("firmcall ") + FIRMCALL_VERSION);
+  app.require_subcommand(1);
+  cli::GlobalOptions global;
+  app.add_option("--config", global.config_path, "Settings file (default: built-in, as config/firmcall.yaml)")
+      ->check(CLI::ExistingFile);
+  app.add_flag("-q,--quiet", global.quiet, "No notes or progress on standard error");
+
+  cli::CommandRun run;
+  cli::add_score_command(app, global, run);
+  cli::add_history_command(app, global, run);
+  cli::add_stress_command(app, global, run);
+  cli::add_runs_command(app, global, run);
+  cli::add_movers_command(app, global, run);
+  cli::add_watchlist_command(app, global, run);
+  cli::add_attribute_command(app, global, run);
+  cli::add_track_command(app, global, run);
+  cli::add_portfolio_command(app, global, run);
+  cli::add_report_command(app, global, run);
+
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::ParseError& e) {
+    const int code = app.exit(e);
+    return code == 0 ? kExitOk : kExitInputError;
+  }
+  try {
+    return run ? run() : kExitInputError;
+  } catch (const InputError& e) {
+    std::fflush(stdout);
+    std::cerr << "firmcall: error: " << e.what() << "\n";
+    return kExitInputError;
+  } catch (const std::exception& e) {
+    std::fflush(stdout);
+    std::cerr << "firmcall: internal error: " << e.what() << "\n";
+    return kExitInternal;
+  }
+}

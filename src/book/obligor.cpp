@@ -1,0 +1,319 @@
+#include "firmcall/book/obligor.hpp"
+
+#include <charconv>
+#include <cmath>
+#include <limits>
+
+namespace firmcall {
+
+namespace {
+constexpr std::array<std::string_view, kNumFieldCount> kNumNames = {"market_cap",
+                                                                    "share_price",
+                                                                    "shares_outstanding",
+                                                                    "equity_vol",
+                                                                    "short_term_debt",
+                                                                    "long_term_debt",
+                                                                    "default_point",
+                                                                    "rate",
+                                                                    "horizon",
+                                                                    "drift",
+                                                                    "ead",
+                                                                    "lgd",
+                                                                    "asset_correlation",
+                                                                    "maturity"};
+constexpr std::array<std::string_view, kTextFieldCount> kTextNames = {"id", "name", "sector", "country",
+                                                                      "currency"};
+
+constexpr double kMinAmount = 1e-150;
+constexpr double kMaxAmount = 1e150;
+constexpr double kMinLeverage = 1e-10;  // default point / equity value
+constexpr double kMaxLeverage = 1e10;
+constexpr double kMinEquityVol = 1e-4;
+
+std::string shortest(double v) {
+  char buf[32];
+  const auto r = std::to_chars(buf, buf + sizeof buf, v);
+  return std::string(buf, r.ptr);
+}
+
+std::string field_error(std::string_view field, std::string_view reason) {
+  std::string s = "field '";
+  s += field;
+  s += "': ";
+  s += reason;
+  return s;
+}
+
+std::string value_error(NumField f, std::string_view reason, double got) {
+  return field_error(to_string(f), std::string(reason) + ", got " + shortest(got));
+}
+}  // namespace
+
+std::string_view to_string(NumField f) noexcept {
+  return kNumNames[static_cast<std::size_t>(f)];
+}
+std::string_view to_string(TextField f) noexcept {
+  return kTextNames[static_cast<std::size_t>(f)];
+}
+
+const std::vector<std::string>& obligor_field_names() {
+  static const std::vector<std::string> names = [] {
+    std::vector<std::string> v(kTextNames.begin(), kTextNames.end());
+    v.insert(v.end(), kNumNames.begin(), kNumNames.end());
+    return v;
+  }();
+  return names;
+}
+
+bool field_from_string(std::string_view name, std::optional<NumField>& num,
+                       std::optional<TextField>& text) noexcept {
+  num.reset();
+  text.reset();
+  for (std::size_t i = 0; i < kNumFieldCount; ++i) {
+    if (kNumNames[i] == name) {
+      num = static_cast<NumField>(i);
+      return true;
+    }
+  }
+  for (std::size_t i = 0; i < kTextFieldCount; ++i) {
+    if (kTextNames[i] == name) {
+      text = static_cast<TextField>(i);
+      return true;
+    }
+  }
+  return false;
+}
+
+void ObligorRecord::clear() noexcept {
+  for (auto& t : text) t.clear();
+  present = 0;
+  read_error.clear();
+  line = 0;
+}
+
+void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
+                     ResolvedObligor& out) {
+  out.error.clear();
+  out.has_ead = false;
+  out.has_lgd = false;
+  out.has_asset_correlation = false;
+  out.has_maturity = false;
+  out.drift_follows_rate = false;
+  out.ead = 0.0;
+  if (!rec.read_error.empty()) {
+    out.error = rec.read_error;
+    return;
+  }
+  if (rec.get(TextField::id).empty()) {
+    out.error = field_error("id", "missing (every obligor needs an id)");
+    return;
+  }
+  // Every number that was given must at least be finite (the readers reject text already).
+  for (std::size_t i = 0; i < kNumFieldCount; ++i) {
+    const auto f = static_cast<NumField>(i);
+    if (rec.has(f) && !std::isfinite(rec.get(f))) {
+      out.error = field_error(to_string(f), "must be a finite number");
+      return;
+    }
+  }
+  MertonInputs& in = out.inputs;
+
+  // Equity value: market_cap, else share_price x shares_outstanding.
+  if (rec.has(NumField::market_cap)) {
+    in.equity_value = rec.get(NumField::market_cap);
+    if (!(in.equity_value > 0.0)) {
+      out.error = value_error(NumField::market_cap, "must be positive", in.equity_value);
+      return;
+    }
+  } else if (rec.has(NumField::share_price) || rec.has(NumField::shares_outstanding)) {
+    if (!rec.has(NumField::share_price)) {
+      out.error =
+          field_error("share_price", "missing (needed with shares_outstanding when market_cap is absent)");
+      return;
+    }
+    if (!rec.has(NumField::shares_outstanding)) {
+      out.error =
+          field_error("shares_outstanding", "missing (needed with share_price when market_cap is absent)");
+      return;
+    }
+    const double p = rec.get(NumField::share_price);
+    const double n = rec.get(NumField::shares_outstanding);
+    if (!(p > 0.0)) {
+      out.error = value_error(NumField::share_price, "must be positive", p);
+      return;
+    }
+    if (!(n > 0.0)) {
+      out.error = value_error(NumField::shares_outstanding, "must be positive", n);
+      return;
+    }
+    in.equity_value = p * n;
+    if (!std::isfinite(in.equity_value)) {
+      out.error = field_error("share_price", "share_price x shares_outstanding overflows");
+      return;
+    }
+  } else {
+    out.error = field_error("market_cap", "missing (give market_cap, or share_price and shares_outstanding)");
+    return;
+  }
+
+  // Equity volatility.
+  if (!rec.has(NumField::equity_vol)) {
+    out.error = field_error("equity_vol", "missing");
+    return;
+  }
+  in.equity_vol_annual = rec.get(NumField::equity_vol);
+  if (!(in.equity_vol_annual > 0.0)) {
+    out.error = value_error(NumField::equity_vol, "must be positive", in.equity_vol_annual);
+    return;
+  }
+  if (in.equity_vol_annual < kMinEquityVol) {
+    out.error =
+        value_error(NumField::equity_vol, "must be at least 0.0001 (0.01% a year)", in.equity_vol_annual);
+    return;
+  }
+  if (in.equity_vol_annual > settings.max_equity_vol) {
+    out.error = value_error(
+        NumField::equity_vol,
+        "must be an annualised decimal (0.35 means 35%) no larger than " + shortest(settings.max_equity_vol),
+        in.equity_vol_annual);
+    return;
+  }
+
+  // Debts are checked whenever given, even if default_point overrides them.
+  for (NumField f : {NumField::short_term_debt, NumField::long_term_debt}) {
+    if (rec.has(f) && rec.get(f) < 0.0) {
+      out.error = value_error(f, "must not be negative", rec.get(f));
+      return;
+    }
+  }
+  if (rec.has(NumField::default_point)) {
+    in.default_point = rec.get(NumField::default_point);
+    if (!(in.default_point > 0.0)) {
+      out.error = value_error(NumField::default_point, "must be positive", in.default_point);
+      return;
+    }
+  } else {
+    if (!rec.has(NumField::short_term_debt)) {
+      out.error = field_error("short_term_debt",
+                              "missing (give short_term_debt and long_term_debt, or default_point)");
+      return;
+    }
+    if (!rec.has(NumField::long_term_debt)) {
+      out.error = field_error("long_term_debt",
+                              "missing (give short_term_debt and long_term_debt, or default_point)");
+      return;
+    }
+    const double w =
+        settings.weight_override.value_or(book.default_point_weight.value_or(settings.default_point_weight));
+    in.default_point = rec.get(NumField::short_term_debt) + w * rec.get(NumField::long_term_debt);
+    if (!(in.default_point > 0.0)) {
+      out.error =
+          field_error("default_point",
+                      "short_term_debt + weight x long_term_debt is zero: the model needs positive debt");
+      return;
+    }
+  }
+
+  // Rate: override > obligor > book.
+  if (settings.rate_override) {
+    in.risk_free_rate_cc = *settings.rate_override;
+  } else if (rec.has(NumField::rate)) {
+    in.risk_free_rate_cc = rec.get(NumField::rate);
+  } else if (book.rate) {
+    in.risk_free_rate_cc = *book.rate;
+  } else {
+    out.error = field_error("rate", "missing (give a rate column, a book default or --rate)");
+    return;
+  }
+  if (in.risk_free_rate_cc < -1.0 || in.risk_free_rate_cc > 1.0) {
+    out.error =
+        value_error(NumField::rate, "must be a continuously compounded decimal in [-1, 1] (0.03 means 3%)",
+                    in.risk_free_rate_cc);
+    return;
+  }
+
+  // Horizon: override > obligor > book > configuration.
+  in.horizon_years = settings.horizon_override.value_or(rec.has(NumField::horizon)
+                                                            ? rec.get(NumField::horizon)
+                                                            : book.horizon.value_or(settings.horizon_years));
+  if (!(in.horizon_years > 0.0) || in.horizon_years > 100.0) {
+    out.error = value_error(NumField::horizon, "must be positive years, at most 100", in.horizon_years);
+    return;
+  }
+
+  // Drift: risk-neutral measure forces mu = r; else obligor > book > rate.
+  out.drift_follows_rate =
+      settings.measure == Measure::risk_neutral || (!rec.has(NumField::drift) && !book.drift);
+  if (settings.measure == Measure::risk_neutral) {
+    in.drift_annual = in.risk_free_rate_cc;
+  } else {
+    in.drift_annual =
+        rec.has(NumField::drift) ? rec.get(NumField::drift) : book.drift.value_or(in.risk_free_rate_cc);
+    if (in.drift_annual < -1.0 || in.drift_annual > 1.0) {
+      out.error = value_error(NumField::drift, "must be a continuously compounded decimal in [-1, 1]",
+                              in.drift_annual);
+      return;
+    }
+  }
+
+  if (rec.has(NumField::ead)) {
+    out.ead = rec.get(NumField::ead);
+    if (out.ead < 0.0) {
+      out.error = value_error(NumField::ead, "must not be negative", out.ead);
+      return;
+    }
+    out.has_ead = true;
+  }
+  if (rec.has(NumField::lgd)) {
+    out.lgd = rec.get(NumField::lgd);
+    out.has_lgd = true;
+  } else if (book.lgd) {
+    out.lgd = *book.lgd;
+    out.has_lgd = true;
+  } else {
+    out.lgd = settings.default_lgd;
+  }
+  if (out.lgd < 0.0 || out.lgd > 1.0) {
+    out.error = value_error(NumField::lgd, "must be a decimal in [0, 1] (0.45 means 45%)", out.lgd);
+    return;
+  }
+  if (rec.has(NumField::asset_correlation)) {
+    out.asset_correlation = rec.get(NumField::asset_correlation);
+    if (!(out.asset_correlation >= 0.0 && out.asset_correlation < 1.0)) {
+      out.error = value_error(NumField::asset_correlation, "must be a decimal in [0, 1) (0.2 means 20%)",
+                              out.asset_correlation);
+      return;
+    }
+    out.has_asset_correlation = true;
+  }
+  if (rec.has(NumField::maturity)) {
+    out.maturity_years = rec.get(NumField::maturity);
+    if (!(out.maturity_years > 0.0) || out.maturity_years > 100.0) {
+      out.error = value_error(NumField::maturity, "must be positive years, at most 100", out.maturity_years);
+      return;
+    }
+    out.has_maturity = true;
+  }
+  // Magnitudes: amounts far outside any balance sheet, or a default point and an equity value
+  // that differ by more than ten orders of magnitude, are unit mistakes, not obligors.
+  if (!(in.equity_value >= kMinAmount && in.equity_value <= kMaxAmount)) {
+    out.error =
+        value_error(NumField::market_cap, "equity value must lie in [1e-150, 1e150]", in.equity_value);
+    return;
+  }
+  if (!(in.default_point >= kMinAmount && in.default_point <= kMaxAmount)) {
+    out.error = value_error(NumField::default_point, "must lie in [1e-150, 1e150]", in.default_point);
+    return;
+  }
+  const double ratio = in.default_point / in.equity_value;
+  if (!(ratio >= kMinLeverage && ratio <= kMaxLeverage)) {
+    out.error =
+        value_error(NumField::default_point,
+                    "default point / equity value must lie in [1e-10, 1e10] (check the units)", ratio);
+    return;
+  }
+  const MertonInputCheck check = validate(in);
+  if (!check.ok()) out.error = field_error(to_string(check.field), check.message);
+}
+
+}  // namespace firmcall

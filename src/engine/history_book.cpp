@@ -1,0 +1,790 @@
+// Running the history estimators over a book. See include/firmcall/history_run.hpp.
+#include "firmcall/engine/history_book.hpp"
+
+#include <algorithm>
+#include <array>
+#include <charconv>
+#include <cmath>
+#include <cstdio>
+#include <limits>
+#include <memory>
+#include <thread>
+#include <unordered_map>
+
+#include "firmcall/book/errors.hpp"
+#include "firmcall/engine/score_output.hpp"
+#include "firmcall/util/parallel.hpp"
+
+namespace firmcall {
+
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+std::string shortest(double v) {
+  char buf[32];
+  const auto r = std::to_chars(buf, buf + sizeof buf, v);
+  return std::string(buf, r.ptr);
+}
+
+std::string obligor_prefix(std::string_view id) {
+  return id.empty() ? std::string() : "obligor '" + std::string(id) + "': ";
+}
+
+void fail(JoinedHistory& out, const std::string& file, std::size_t line, std::string text) {
+  out.error_file = file;
+  out.error_line = line;
+  out.error = std::move(text);
+}
+
+std::string with_more(const LocatedProblem& p, std::size_t more) {
+  if (more == 0) return p.text;
+  return p.text + " (and " + std::to_string(more) + " more problem" + (more == 1 ? "" : "s") + ")";
+}
+
+// Default point of a balance sheet under the weight w; <= 0 means unusable.
+double sheet_default_point(const BalanceSheet& s, double w) {
+  if (s.default_point) return *s.default_point;
+  return *s.short_term_debt + w * *s.long_term_debt;
+}
+
+}  // namespace
+
+std::string JoinedHistory::message(std::string_view id) const {
+  return located(error_file, error_line, obligor_prefix(id) + error);
+}
+
+void join_history(const ObligorRecord& rec, const HistorySources& src, const ScoreSettings& settings,
+                  JoinedHistory& out) {
+  out.equity_value.clear();
+  out.default_point.clear();
+  out.trading_day.clear();
+  out.date.clear();
+  out.line.clear();
+  out.notes.clear();
+  out.error.clear();
+  out.error_file.clear();
+  out.error_line = 0;
+  out.missing_days = 0;
+  out.last_default_point_from_sheet = false;
+  const Book& book = *src.book;
+  const std::string& id = rec.get(TextField::id);
+  if (!rec.read_error.empty()) return fail(out, book.origin, rec.line, rec.read_error);
+  if (id.empty()) return fail(out, book.origin, rec.line, "field 'id': missing (every obligor needs an id)");
+
+  // Rate: override > obligor > book.
+  if (settings.rate_override) {
+    out.rate = *settings.rate_override;
+  } else if (rec.has(NumField::rate)) {
+    out.rate = rec.get(NumField::rate);
+  } else if (book.defaults.rate) {
+    out.rate = *book.defaults.rate;
+  } else {
+    return fail(out, book.origin, rec.line, "field 'rate': missing (give a rate, a book default or --rate)");
+  }
+  if (!(out.rate >= -1.0 && out.rate <= 1.0)) {
+    return fail(out, book.origin, rec.line,
+                "field 'rate': must be a continuously compounded decimal in [-1, 1] (0.03 means 3%), got " +
+                    shortest(out.rate));
+  }
+  // Horizon: override > obligor > book > configuration.
+  out.horizon = settings.horizon_override.value_or(
+      rec.has(NumField::horizon) ? rec.get(NumField::horizon)
+                                 : book.defaults.horizon.value_or(settings.horizon_years));
+  if (!(out.horizon > 0.0) || out.horizon > 100.0) {
+    return fail(out, book.origin, rec.line,
+                "field 'horizon': must be positive years, at most 100, got " + shortest(out.horizon));
+  }
+  const double w = settings.weight_override.value_or(
+      book.defaults.default_point_weight.value_or(settings.default_point_weight));
+
+  // The book's default point, if it gives one.
+  std::optional<double> book_dp;
+  for (NumField f : {NumField::short_term_debt, NumField::long_term_debt}) {
+    if (rec.has(f) && !(rec.get(f) >= 0.0)) {
+      return fail(
+          out, book.origin, rec.line,
+          "field '" + std::string(to_string(f)) + "': must not be negative, got " + shortest(rec.get(f)));
+    }
+  }
+  if (rec.has(NumField::default_point)) {
+    if (!(rec.get(NumField::default_point) > 0.0)) {
+      return fail(
+          out, book.origin, rec.line,
+          "field 'default_point': must be positive, got " + shortest(rec.get(NumField::default_point)));
+    }
+    book_dp = rec.get(NumField::default_point);
+  } else if (rec.has(NumField::short_term_debt) && rec.has(NumField::long_term_debt)) {
+    book_dp = rec.get(NumField::short_term_debt) + w * rec.get(NumField::long_term_debt);
+    if (!(*book_dp > 0.0)) {
+      return fail(out, book.origin, rec.line,
+                  "field 'default_point': short_term_debt + weight x long_term_debt is zero: the model needs "
+                  "positive debt");
+    }
+  } else if (rec.has(NumField::short_term_debt) || rec.has(NumField::long_term_debt)) {
+    return fail(out, book.origin, rec.line,
+                std::string("field '") +
+                    (rec.has(NumField::short_term_debt) ? "long_term_debt" : "short_term_debt") +
+                    "': missing (give short_term_debt and long_term_debt, or default_point)");
+  }
+
+  // Equity history.
+  const EquityHistory& hist = *src.history;
+  const ObligorEquityHistory* oh = hist.find(id);
+  if (oh == nullptr) return fail(out, hist.origin, 0, "no rows for this obligor in the equity history");
+  if (!oh->usable()) return fail(out, hist.origin, oh->error.line, with_more(oh->error, oh->more_problems));
+  if (oh->rows.empty()) return fail(out, hist.origin, 0, "no equity values for this obligor in the history");
+  out.notes = oh->notes;
+  out.missing_days = oh->missing_days;
+
+  // Balance sheets.
+  const ObligorBalanceSheets* os = src.sheets != nullptr ? src.sheets->find(id) : nullptr;
+  if (os != nullptr && !os->error.empty()) {
+    return fail(out, src.sheets->origin, os->error.line, with_more(os->error, os->more_problems));
+  }
+  if (os != nullptr) {
+    for (const BalanceSheet& s : os->sheets) {
+      if (!(sheet_default_point(s, w) > 0.0)) {
+        return fail(
+            out, src.sheets->origin, s.line,
+            "field 'default_point': short_term_debt + weight x long_term_debt is zero: the model needs "
+            "positive debt");
+      }
+    }
+  }
+
+  const std::size_t n = oh->rows.size();
+  out.equity_value.reserve(n);
+  out.default_point.reserve(n);
+  out.trading_day.reserve(n);
+  out.date.reserve(n);
+  out.line.reserve(n);
+  std::size_t next_sheet = 0;
+  const BalanceSheet* in_force = nullptr;
+  for (const EquityRow& r : oh->rows) {
+    while (os != nullptr && next_sheet < os->sheets.size() && os->sheets[next_sheet].as_of <= r.date) {
+      in_force = &os->sheets[next_sheet++];
+    }
+    double dp;
+    if (in_force != nullptr) {
+      dp = sheet_default_point(*in_force, w);
+    } else if (book_dp) {
+      dp = *book_dp;
+    } else {
+      out.equity_value.clear();
+      return fail(
+          out, book.origin, rec.line,
+          (src.sheets != nullptr ? "no balance sheet dated on or before " + format_iso_date(r.date) + " and t"
+                                 : std::string("t")) +
+              "he book gives no debt (short_term_debt and long_term_debt, or default_point)");
+    }
+    out.equity_value.push_back(r.equity_value);
+    out.default_point.push_back(dp);
+    out.trading_day.push_back(r.trading_day);
+    out.date.push_back(r.date);
+    out.line.push_back(r.line);
+  }
+  out.last_default_point_from_sheet = in_force != nullptr;
+}
+
+namespace {
+
+// Everything written for one obligor.
+struct HistoryResult {
+  RowStatus status = RowStatus::invalid_input;
+  std::string message;  // problem (failed rows) or notes (estimated rows)
+  bool joined = false;  // the history arrays are usable (as_of, observations, equity known)
+  std::int32_t as_of = 0;
+  std::size_t observations = 0;
+  std::size_t missing_days = 0;
+  double equity_value = kNaN;
+  double default_point = kNaN;
+  double rate = kNaN;
+  double horizon = kNaN;
+  AssetDynamics a;
+};
+
+std::string core_problem(const JoinedHistory& j, const AssetDynamics& a, const HistorySettings& settings,
+                         const std::string& history_origin, std::string_view id) {
+  switch (a.status) {
+    case EstimateStatus::too_short:
+      return located(history_origin, 0,
+                     obligor_prefix(id) + std::to_string(j.equity_value.size()) + " observations, at least " +
+                         std::to_string(std::max(3, settings.min_observations)) +
+                         " needed (history.min_observations)");
+    case EstimateStatus::invalid_input:
+    case EstimateStatus::inversion_failed:
+      if (a.bad_index < j.line.size()) {
+        return located(history_origin, j.line[a.bad_index], obligor_prefix(id) + a.message);
+      }
+      return located(history_origin, 0, obligor_prefix(id) + a.message);
+    default: {
+      std::string m = located(history_origin, 0,
+                              obligor_prefix(id) + std::string(to_string(a.method)) + ": " + a.message);
+      if (a.status == EstimateStatus::max_iterations) {
+        m += " (" + std::to_string(settings.max_iterations) + "; last change in sV " +
+             shortest(a.last_change) + ")";
+      }
+      return m;
+    }
+  }
+}
+
+std::string joined_notes(const JoinedHistory& j, const std::string& origin) {
+  std::string s;
+  for (const LocatedProblem& n : j.notes) {
+    if (!s.empty()) s += "; ";
+    s += located(origin, n.line, "note: " + n.text);
+  }
+  return s;
+}
+
+void estimate_one(const ObligorRecord& rec, const HistorySources& src, const ScoreSettings& score_settings,
+                  const HistorySettings& settings, const AssetDynamicsOptions& est, JoinedHistory& j,
+                  HistoryWorkspace& ws, HistoryResult& r) {
+  r = HistoryResult{};
+  r.a.method = est.method;
+  const std::string& id = rec.get(TextField::id);
+  join_history(rec, src, score_settings, j);
+  if (!j.ok()) {
+    r.status = RowStatus::invalid_input;
+    r.message = j.message(id);
+    return;
+  }
+  r.joined = true;
+  r.as_of = j.date.back();
+  r.observations = j.equity_value.size();
+  r.missing_days = j.missing_days;
+  r.equity_value = j.equity_value.back();
+  r.default_point = j.default_point.back();
+  r.rate = j.rate;
+  r.horizon = j.horizon;
+  r.a = estimate_asset_dynamics(j.view(), est, settings, ws);
+  if (r.a.usable()) {
+    r.status = RowStatus::ok;
+    r.message = joined_notes(j, src.history->origin);
+    return;
+  }
+  const bool bad_input =
+      r.a.status == EstimateStatus::too_short || r.a.status == EstimateStatus::invalid_input;
+  r.status = bad_input ? RowStatus::invalid_input : RowStatus::not_converged;
+  r.message = core_problem(j, r.a, settings, src.history->origin, id);
+}
+
+// --- writers -----------------------------------------------------------------------------------
+
+constexpr std::size_t kNumericColumns = 25;  // equity_value .. log_likelihood
+
+// Numeric columns from equity_value to log_likelihood in history_columns() order (NaN: empty).
+std::array<double, kNumericColumns> row_values(const HistoryResult& r) {
+  std::array<double, kNumericColumns> x;
+  x.fill(kNaN);
+  if (!r.joined) return x;
+  const AssetDynamics& a = r.a;
+  const bool vol_known = a.equity_vol.returns > 0;
+  x[0] = r.equity_value;
+  x[1] = vol_known ? a.equity_vol.simple_annual : kNaN;
+  x[2] = vol_known ? a.equity_vol.ewma_annual : kNaN;
+  x[3] = r.default_point;
+  x[4] = r.rate;
+  x[5] = r.horizon;
+  if (a.iterations > 0) x[22] = a.iterations;
+  if (a.last_change >= 0.0) x[23] = a.last_change;
+  if (r.status != RowStatus::ok) return x;
+  const double est[] = {a.asset_value,  a.asset_vol_annual,
+                        a.asset_vol_se, a.asset_vol_lo,
+                        a.asset_vol_hi, a.drift_annual,
+                        a.drift_se,     a.drift_lo,
+                        a.drift_hi,     a.distance_to_default,
+                        a.dd_se,        a.dd_lo,
+                        a.dd_hi,        a.pd,
+                        a.pd_lo,        a.pd_hi};
+  std::copy(std::begin(est), std::end(est), x.begin() + 6);
+  x[24] = a.log_likelihood;
+  return x;
+}
+
+void append_count(std::string& out, std::size_t n) {
+  char buf[24];
+  const auto res = std::to_chars(buf, buf + sizeof buf, n);
+  out.append(buf, res.ptr);
+}
+
+class HistoryWriter {
+ public:
+  virtual ~HistoryWriter() = default;
+  virtual void begin(std::string& out) const = 0;
+  virtual void row(const ObligorRecord& rec, const HistoryResult& r, std::string& out) const = 0;
+  virtual std::string_view separator() const { return {}; }
+  virtual void end(const HistorySummary& summary, std::string& out) const = 0;
+};
+
+class CsvHistoryWriter final : public HistoryWriter {
+ public:
+  void begin(std::string& out) const override {
+    append_csv_names(out, history_columns());
+    out.push_back('\n');
+  }
+  void row(const ObligorRecord& rec, const HistoryResult& r, std::string& out) const override {
+    append_csv_text(out, rec.get(TextField::id));
+    out.push_back(',');
+    append_csv_text(out, rec.get(TextField::name));
+    out.push_back(',');
+    out.append(to_string(r.status));
+    out.push_back(',');
+    out.append(to_string(r.a.method));
+    out.push_back(',');
+    if (r.joined) out.append(format_iso_date(r.as_of));
+    out.push_back(',');
+    if (r.joined) append_count(out, r.observations);
+    out.push_back(',');
+    if (r.joined) append_count(out, r.missing_days);
+    for (double v : row_values(r)) {
+      out.push_back(',');
+      append_number(out, v);
+    }
+    out.push_back(',');
+    append_csv_text(out, r.message);
+    out.push_back('\n');
+  }
+  void end(const HistorySummary&, std::string&) const override {}
+};
+
+class JsonHistoryWriter final : public HistoryWriter {
+ public:
+  JsonHistoryWriter(const HistorySources& src, const HistorySettings& settings,
+                    const AssetDynamicsOptions& est)
+      : src_(src), settings_(settings), est_(est) {}
+  void begin(std::string& out) const override {
+    out += "{\n  \"run\": {\"book\": ";
+    append_json_string(out, src_.book->origin);
+    out += ", \"equity_history\": ";
+    append_json_string(out, src_.history->origin);
+    out += ", \"balance_sheets\": ";
+    if (src_.sheets != nullptr) {
+      append_json_string(out, src_.sheets->origin);
+    } else {
+      out += "null";
+    }
+    out += ", \"method\": ";
+    append_json_string(out, to_string(est_.method));
+    out += ", \"equity_vol_estimator\": ";
+    append_json_string(out, to_string(est_.equity_vol));
+    out += ", \"trading_days_per_year\": ";
+    append_json_number(out, settings_.trading_days_per_year);
+    out += ", \"ewma_decay\": ";
+    append_json_number(out, settings_.ewma_decay);
+    out += ", \"min_observations\": " + std::to_string(settings_.min_observations);
+    out += ", \"confidence_level\": ";
+    append_json_number(out, settings_.confidence_level);
+    out += "},\n  \"obligors\": [\n";
+  }
+  std::string_view separator() const override { return ",\n"; }
+  void row(const ObligorRecord& rec, const HistoryResult& r, std::string& out) const override {
+    const auto& cols = history_columns();
+    out += "    {\"id\": ";
+    append_json_string(out, rec.get(TextField::id));
+    out += ", \"name\": ";
+    append_json_string(out, rec.get(TextField::name));
+    out += ", \"status\": ";
+    append_json_string(out, to_string(r.status));
+    out += ", \"method\": ";
+    append_json_string(out, to_string(r.a.method));
+    out += ", \"as_of\": ";
+    if (r.joined) {
+      append_json_string(out, format_iso_date(r.as_of));
+      out += ", \"observations\": ";
+      append_count(out, r.observations);
+      out += ", \"missing_days\": ";
+      append_count(out, r.missing_days);
+    } else {
+      out += "null, \"observations\": null, \"missing_days\": null";
+    }
+    const auto values = row_values(r);
+    for (std::size_t i = 0; i < kNumericColumns; ++i) {
+      out += ", \"";
+      out += cols[7 + i];
+      out += "\": ";
+      append_json_number(out, values[i]);
+    }
+    out += ", \"message\": ";
+    append_json_string(out, r.message);
+    out += "}";
+  }
+  void end(const HistorySummary& s, std::string& out) const override {
+    out += "\n  ],\n  \"summary\": {\"obligors\": " + std::to_string(s.total) +
+           ", \"estimated\": " + std::to_string(s.estimated) +
+           ", \"invalid_input\": " + std::to_string(s.invalid) +
+           ", \"not_converged\": " + std::to_string(s.not_converged) + "}\n}\n";
+  }
+
+ private:
+  HistorySources src_;
+  HistorySettings settings_;
+  AssetDynamicsOptions est_;
+};
+
+// Fixed-width text for people.
+class TableHistoryWriter final : public HistoryWriter {
+ public:
+  TableHistoryWriter(const HistorySettings& settings, const AssetDynamicsOptions& est)
+      : settings_(settings), est_(est) {}
+  void begin(std::string& out) const override {
+    out += "method: ";
+    switch (est_.method) {
+      case HistoryMethod::iterative:
+        out += "iterative (Vassalou and Xing 2004; Bharath and Shumway 2008)";
+        break;
+      case HistoryMethod::mle:
+        out += "mle (Duan 1994); intervals at " + shortest(100.0 * settings_.confidence_level) + "%";
+        break;
+      case HistoryMethod::naive:
+        out += "naive (Bharath and Shumway 2008)";
+        break;
+    }
+    out += "; equity volatility: ";
+    out += to_string(est_.equity_vol);
+    out += "\n";
+    char buf[320];
+    std::snprintf(buf, sizeof buf, kFormat, "obligor", "as of", "asset value", "asset vol %", "drift %", "DD",
+                  "DD interval", "PD %", "PD interval %", "iter", "status");
+    out += buf;
+    out += std::string(kWidth, '-') + "\n";
+  }
+  void row(const ObligorRecord& rec, const HistoryResult& r, std::string& out) const override {
+    char buf[320];
+    const std::string id = fit(rec.get(TextField::id), 12);
+    const std::string as_of = r.joined ? format_iso_date(r.as_of) : "-";
+    if (r.status != RowStatus::ok) {
+      std::snprintf(buf, sizeof buf, kFormat, id.c_str(), as_of.c_str(), "-", "-", "-", "-", "-", "-", "-",
+                    "-", std::string(to_string(r.status)).c_str());
+      out += buf;
+      return;
+    }
+    const AssetDynamics& a = r.a;
+    char vol[40];
+    char drift[24];
+    char dd[24];
+    char ddi[48] = "-";
+    char pdi[48] = "-";
+    char iter[16] = "-";
+    if (std::isfinite(a.asset_vol_se)) {
+      std::snprintf(vol, sizeof vol, "%.2f +- %.2f", 100.0 * a.asset_vol_annual, 100.0 * a.asset_vol_se);
+    } else {
+      std::snprintf(vol, sizeof vol, "%.2f", 100.0 * a.asset_vol_annual);
+    }
+    std::snprintf(drift, sizeof drift, "%.2f", 100.0 * a.drift_annual);
+    std::snprintf(dd, sizeof dd, "%.3f", a.distance_to_default);
+    if (std::isfinite(a.dd_lo) && std::isfinite(a.dd_hi)) {
+      std::snprintf(ddi, sizeof ddi, "[%.3f, %.3f]", a.dd_lo, a.dd_hi);
+      std::snprintf(pdi, sizeof pdi, "[%s, %s]", small(100.0 * a.pd_lo).c_str(),
+                    small(100.0 * a.pd_hi).c_str());
+    }
+    if (a.iterations > 0) std::snprintf(iter, sizeof iter, "%d", a.iterations);
+    std::snprintf(buf, sizeof buf, kFormat, id.c_str(), as_of.c_str(), amount(a.asset_value).c_str(), vol,
+                  drift, dd, ddi, small(100.0 * a.pd).c_str(), pdi, iter, "ok");
+    out += buf;
+  }
+  void end(const HistorySummary& sum, std::string& out) const override {
+    out += std::string(kWidth, '-') + "\n";
+    out += "estimated " + std::to_string(sum.estimated) + " of " + std::to_string(sum.total) + " obligors";
+    if (sum.failed() > 0) {
+      out += "; " + std::to_string(sum.invalid) + " invalid input, " + std::to_string(sum.not_converged) +
+             " not converged (reasons below)";
+    }
+    out += "\n";
+    append_table_problems(out, sum.problems, sum.problems_not_listed);
+    out += kTableCaution;
+  }
+
+ private:
+  static constexpr const char* kFormat = "%-12s %-10s %13s %15s %8s %8s %18s %9s %20s %5s  %s\n";
+  static constexpr std::size_t kWidth = 133;
+  static std::string fit(const std::string& s, std::size_t w) {
+    if (s.size() <= w) return s;
+    return s.substr(0, w - 1) + "~";
+  }
+  static std::string amount(double v) {
+    char buf[64];
+    std::snprintf(buf, sizeof buf, std::fabs(v) < 1e11 ? "%.2f" : "%.4e", v);
+    return buf;
+  }
+  static std::string small(double v) {
+    char buf[64];
+    if (v == 0.0) {
+      std::snprintf(buf, sizeof buf, "0");
+    } else if (std::fabs(v) >= 1e-3 && std::fabs(v) < 1e7) {
+      std::snprintf(buf, sizeof buf, "%.4f", v);
+    } else {
+      std::snprintf(buf, sizeof buf, "%.2e", v);
+    }
+    return buf;
+  }
+  HistorySettings settings_;
+  AssetDynamicsOptions est_;
+};
+
+std::unique_ptr<HistoryWriter> make_history_writer(OutputFormat f, const HistorySources& src,
+                                                   const HistorySettings& settings,
+                                                   const AssetDynamicsOptions& est) {
+  switch (f) {
+    case OutputFormat::csv:
+      return std::make_unique<CsvHistoryWriter>();
+    case OutputFormat::json:
+      return std::make_unique<JsonHistoryWriter>(src, settings, est);
+    case OutputFormat::table:
+      return std::make_unique<TableHistoryWriter>(settings, est);
+  }
+  return std::make_unique<CsvHistoryWriter>();
+}
+
+void append_series(const std::string& id, const JoinedHistory& j, const HistoryWorkspace& ws,
+                   std::string& out) {
+  for (std::size_t t = 0; t < j.equity_value.size(); ++t) {
+    out += format_iso_date(j.date[t]);
+    out.push_back(',');
+    append_csv_text(out, id);
+    out.push_back(',');
+    append_number(out, j.equity_value[t]);
+    out.push_back(',');
+    append_number(out, j.default_point[t]);
+    out.push_back(',');
+    append_number(out, ws.asset_value[t]);
+    out.push_back(',');
+    append_number(out, ws.distance_to_default[t]);
+    out.push_back(',');
+    append_number(out, ws.pd[t]);
+    out.push_back('\n');
+  }
+}
+
+// Notes on ids present in a file but not in the book.
+void note_unknown_ids(const std::vector<std::string>& ids, const Book& book, const std::string& origin,
+                      std::vector<std::string>& notes) {
+  std::unordered_map<std::string_view, bool> in_book;
+  in_book.reserve(book.obligors.size());
+  for (const auto& rec : book.obligors) in_book.emplace(rec.get(TextField::id), true);
+  std::size_t count = 0;
+  std::string first;
+  for (const auto& id : ids) {
+    if (in_book.count(id) == 0) {
+      if (count++ == 0) first = id;
+    }
+  }
+  if (count > 0) {
+    notes.push_back(located(origin, 0,
+                            "note: " + std::to_string(count) + " obligor" + (count == 1 ? "" : "s") +
+                                " not in the book (first '" + first + "') ignored"));
+  }
+}
+
+struct Worker {
+  HistoryWorkspace ws;
+  JoinedHistory joined;
+  HistoryResult result;
+  std::string out;
+  std::string series;
+  std::vector<std::pair<std::size_t, std::string>> problems;
+  std::vector<std::pair<std::size_t, std::string>> notes;
+  std::size_t problem_count = 0, note_count = 0;
+  std::size_t estimated = 0, invalid = 0, not_converged = 0, iterations = 0;
+};
+
+}  // namespace
+
+const std::vector<std::string_view>& history_columns() {
+  static const std::vector<std::string_view> cols = {"id",
+                                                     "name",
+                                                     "status",
+                                                     "method",
+                                                     "as_of",
+                                                     "observations",
+                                                     "missing_days",
+                                                     "equity_value",
+                                                     "equity_vol_simple",
+                                                     "equity_vol_ewma",
+                                                     "default_point",
+                                                     "rate",
+                                                     "horizon",
+                                                     "asset_value",
+                                                     "asset_vol",
+                                                     "asset_vol_se",
+                                                     "asset_vol_lo",
+                                                     "asset_vol_hi",
+                                                     "drift",
+                                                     "drift_se",
+                                                     "drift_lo",
+                                                     "drift_hi",
+                                                     "distance_to_default",
+                                                     "dd_se",
+                                                     "dd_lo",
+                                                     "dd_hi",
+                                                     "pd",
+                                                     "pd_lo",
+                                                     "pd_hi",
+                                                     "iterations",
+                                                     "last_change",
+                                                     "log_likelihood",
+                                                     "message"};
+  return cols;
+}
+
+HistorySummary run_history(const HistorySources& src, const ScoreSettings& score_settings,
+                           const HistorySettings& settings, const HistoryRunOptions& run,
+                           const TextSink& sink, const TextSink* series) {
+  const Book& book = *src.book;
+  const auto writer = make_history_writer(run.format, src, settings, run.estimator);
+  HistorySummary summary;
+  summary.notes = book.notes;
+  summary.notes.insert(summary.notes.end(), src.history->notes.begin(), src.history->notes.end());
+  {
+    std::vector<std::string> ids;
+    ids.reserve(src.history->obligors.size());
+    for (const auto& ob : src.history->obligors) ids.push_back(ob.id);
+    note_unknown_ids(ids, book, src.history->origin, summary.notes);
+  }
+  if (src.sheets != nullptr) {
+    summary.notes.insert(summary.notes.end(), src.sheets->notes.begin(), src.sheets->notes.end());
+    note_unknown_ids(src.sheets->ids, book, src.sheets->origin, summary.notes);
+  }
+  {
+    std::string s;
+    writer->begin(s);
+    sink(s);
+  }
+  if (series != nullptr) (*series)("date,id,equity_value,default_point,asset_value,distance_to_default,pd\n");
+
+  const unsigned threads = std::max(1U, run.threads);
+  std::vector<Worker> workers(threads);
+  const std::size_t total = book.obligors.size();
+  const std::size_t batch = std::max<std::size_t>(1, run.batch_obligors);
+  for (std::size_t base = 0; base < total; base += batch) {
+    const std::size_t n = std::min(batch, total - base);
+    for (Worker& wk : workers) {
+      wk.out.clear();
+      wk.series.clear();
+    }
+    parallel_slices(
+        n, threads,
+        [&](unsigned w, std::size_t b, std::size_t e) {
+          Worker& wk = workers[w];
+          for (std::size_t i = base + b; i < base + e; ++i) {
+            const ObligorRecord& rec = book.obligors[i];
+            estimate_one(rec, src, score_settings, settings, run.estimator, wk.joined, wk.ws, wk.result);
+            const HistoryResult& r = wk.result;
+            if (i > 0) wk.out.append(writer->separator());
+            writer->row(rec, r, wk.out);
+            switch (r.status) {
+              case RowStatus::ok:
+                ++wk.estimated;
+                wk.iterations += static_cast<std::size_t>(r.a.iterations);
+                if (series != nullptr) append_series(rec.get(TextField::id), wk.joined, wk.ws, wk.series);
+                for (const LocatedProblem& note : wk.joined.notes) {
+                  if (wk.notes.size() < run.max_listed_problems) {
+                    wk.notes.emplace_back(
+                        i, located(src.history->origin, note.line,
+                                   obligor_prefix(rec.get(TextField::id)) + "note: " + note.text));
+                  }
+                  ++wk.note_count;
+                }
+                break;
+              case RowStatus::invalid_input:
+                ++wk.invalid;
+                break;
+              case RowStatus::not_converged:
+                ++wk.not_converged;
+                break;
+            }
+            if (r.status != RowStatus::ok) {
+              if (wk.problems.size() < run.max_listed_problems) wk.problems.emplace_back(i, r.message);
+              ++wk.problem_count;
+            }
+          }
+        },
+        16);
+    for (Worker& wk : workers) {
+      sink(wk.out);
+      if (series != nullptr) (*series)(wk.series);
+    }
+    if (run.progress) run.progress(base + n, total);
+  }
+
+  std::vector<std::pair<std::size_t, std::string>> problems;
+  std::vector<std::pair<std::size_t, std::string>> notes;
+  std::size_t problem_count = 0;
+  std::size_t note_count = 0;
+  for (Worker& wk : workers) {
+    summary.estimated += wk.estimated;
+    summary.invalid += wk.invalid;
+    summary.not_converged += wk.not_converged;
+    summary.iterations += wk.iterations;
+    problem_count += wk.problem_count;
+    note_count += wk.note_count;
+    for (auto& p : wk.problems) problems.push_back(std::move(p));
+    for (auto& p : wk.notes) notes.push_back(std::move(p));
+  }
+  std::sort(problems.begin(), problems.end());
+  std::sort(notes.begin(), notes.end());
+  for (std::size_t i = 0; i < problems.size() && i < run.max_listed_problems; ++i) {
+    summary.problems.push_back(std::move(problems[i].second));
+  }
+  summary.problems_not_listed = problem_count - summary.problems.size();
+  std::size_t listed_notes = 0;
+  for (std::size_t i = 0; i < notes.size() && i < run.max_listed_problems; ++i, ++listed_notes) {
+    summary.notes.push_back(std::move(notes[i].second));
+  }
+  if (note_count > listed_notes) {
+    summary.notes.push_back("... and " + std::to_string(note_count - listed_notes) +
+                            " more obligor notes (see --format csv, column message)");
+  }
+  summary.total = total;
+  std::string s;
+  writer->end(summary, s);
+  sink(s);
+  return summary;
+}
+
+ScoreSummary score_with_history(const HistorySources& src, const ScoreSettings& score_settings,
+                                const HistorySettings& settings, VolEstimator estimator,
+                                const ScoreRunOptions& run, const TextSink& sink) {
+  Book scored = *src.book;
+  scored.notes.insert(scored.notes.end(), src.history->notes.begin(), src.history->notes.end());
+  if (src.sheets != nullptr)
+    scored.notes.insert(scored.notes.end(), src.sheets->notes.begin(), src.sheets->notes.end());
+  JoinedHistory j;
+  std::size_t notes = 0;
+  for (ObligorRecord& rec : scored.obligors) {
+    if (!rec.read_error.empty()) continue;
+    join_history(rec, src, score_settings, j);
+    if (!j.ok()) {
+      rec.read_error = j.message({});
+      continue;
+    }
+    for (const LocatedProblem& note : j.notes) {
+      if (notes++ < run.max_listed_problems) {
+        scored.notes.push_back(located(src.history->origin, note.line,
+                                       obligor_prefix(rec.get(TextField::id)) + "note: " + note.text));
+      }
+    }
+    const HistoryCheck check = validate(j.view(), settings);
+    if (!check.ok()) {
+      AssetDynamics a;
+      a.status = check.status;
+      a.message = check.message;
+      a.bad_index = check.index;
+      rec.read_error = core_problem(j, a, settings, src.history->origin, {});
+      continue;
+    }
+    const EquityVolEstimate v = estimate_equity_vol(j.view(), settings);
+    rec.set(NumField::market_cap, j.equity_value.back());
+    rec.set(NumField::equity_vol, estimator == VolEstimator::ewma ? v.ewma_annual : v.simple_annual);
+    if (j.last_default_point_from_sheet) rec.set(NumField::default_point, j.default_point.back());
+  }
+  if (notes > run.max_listed_problems) {
+    scored.notes.push_back("... and " + std::to_string(notes - run.max_listed_problems) +
+                           " more obligor notes");
+  }
+  return score_book(scored, score_settings, run, sink);
+}
+
+}  // namespace firmcall

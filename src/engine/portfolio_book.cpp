@@ -1,0 +1,413 @@
+// Portfolio runs: obligors to exposures, then every model, as the book stands and under stress
+// scenarios. See include/firmcall/portfolio.hpp.
+#include "firmcall/engine/portfolio_book.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <map>
+#include <set>
+
+#include "firmcall/book/errors.hpp"
+#include "firmcall/engine/stress_book.hpp"
+#include "firmcall/util/parallel.hpp"
+#include "io/yaml_util.hpp"
+
+namespace firmcall {
+
+std::string_view to_string(CorrelationSource s) noexcept {
+  switch (s) {
+    case CorrelationSource::command_line:
+      return "command_line";
+    case CorrelationSource::obligor:
+      return "obligor";
+    case CorrelationSource::sector:
+      return "sector";
+    case CorrelationSource::setting:
+      return "setting";
+    case CorrelationSource::basel:
+      return "basel";
+  }
+  return "";
+}
+
+std::string_view to_string(PortfolioStatus s) noexcept {
+  switch (s) {
+    case PortfolioStatus::ok:
+      return "ok";
+    case PortfolioStatus::invalid_input:
+      return "invalid_input";
+    case PortfolioStatus::not_converged:
+      return "not_converged";
+    case PortfolioStatus::invalid_stress:
+      return "invalid_stress";
+  }
+  return "";
+}
+
+std::string level_label(double confidence_level) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%.10g", 100.0 * confidence_level);
+  std::string s = buf;
+  std::replace(s.begin(), s.end(), '.', 'p');
+  return s;
+}
+
+namespace {
+
+std::string line_prefix(const ObligorRecord& rec) {
+  return "line " + std::to_string(rec.line) + ": ";
+}
+
+// Everything the portfolio needs about one obligor that does not depend on the scenario.
+struct Static {
+  std::string error;  // a portfolio field is unusable (with "line N: ")
+  std::uint32_t factor = 0;
+};
+
+Static static_of(const ObligorRecord& rec, const ScoredObligor& base, const CorrelationFile* corr) {
+  Static s;
+  if (!base.resolved.ok()) return s;  // the scoring message says why
+  if (!base.resolved.has_ead) {
+    s.error = line_prefix(rec) + "field 'ead': missing (the portfolio needs an exposure at default)";
+    return s;
+  }
+  if (corr) {
+    const std::string& sector = rec.get(TextField::sector);
+    if (sector.empty()) {
+      s.error = line_prefix(rec) + "field 'sector': missing (the correlation file " + corr->origin +
+                " assigns factors by sector)";
+      return s;
+    }
+    const auto f = corr->find(sector);
+    if (!f) {
+      std::vector<std::string> names;
+      for (const SectorFactor& x : corr->factors) names.push_back(x.sector);
+      s.error = line_prefix(rec) + "field 'sector': '" + sector + "' is not a factor of " + corr->origin;
+      const std::string hint = detail::closest_name(sector, names);
+      if (!hint.empty()) s.error += " (did you mean '" + hint + "'?)";
+      return s;
+    }
+    s.factor = static_cast<std::uint32_t>(*f);
+  }
+  return s;
+}
+
+void fill_obligor(const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor* stressed,
+                  const Static& st, const CorrelationFile* corr, const Config& config,
+                  const PortfolioRunOptions& options, PortfolioObligor& out) {
+  out = PortfolioObligor{};
+  const ResolvedObligor& r = base.resolved;
+  if (r.ok()) {
+    out.lgd = r.lgd;
+    out.ead = r.has_ead ? r.ead : std::nan("");
+    out.horizon_years = r.inputs.horizon_years;
+  } else {
+    out.lgd = out.ead = out.horizon_years = std::nan("");
+  }
+  out.pd = base.status == RowStatus::ok ? base.measures.pd : std::nan("");
+  if (base.status != RowStatus::ok) {
+    out.status = base.status == RowStatus::invalid_input ? PortfolioStatus::invalid_input
+                                                         : PortfolioStatus::not_converged;
+    out.message = base.message;
+    return;
+  }
+  if (stressed) {
+    out.horizon_years = stressed->inputs.horizon_years;
+    if (stressed->status != StressStatus::ok) {
+      out.pd = std::nan("");
+      out.status = stressed->status == StressStatus::invalid_stress ? PortfolioStatus::invalid_stress
+                                                                    : PortfolioStatus::not_converged;
+      out.message = line_prefix(rec) + stressed->message;
+      return;
+    }
+    out.pd = stressed->measures.pd;
+  }
+  if (!st.error.empty()) {
+    out.status = PortfolioStatus::invalid_input;
+    out.message = st.error;
+    return;
+  }
+  out.factor = st.factor;
+  const double floored_pd = std::max(out.pd, config.irb.pd_floor);
+  if (options.basel_correlation) {
+    out.asset_correlation = irb_corporate_correlation(floored_pd);
+    out.correlation_source = CorrelationSource::basel;
+  } else if (options.asset_correlation) {
+    out.asset_correlation = *options.asset_correlation;
+    out.correlation_source = CorrelationSource::command_line;
+  } else if (r.has_asset_correlation) {
+    out.asset_correlation = r.asset_correlation;
+    out.correlation_source = CorrelationSource::obligor;
+  } else if (corr && corr->factors[st.factor].asset_correlation) {
+    out.asset_correlation = *corr->factors[st.factor].asset_correlation;
+    out.correlation_source = CorrelationSource::sector;
+  } else if (config.portfolio.asset_correlation) {
+    out.asset_correlation = *config.portfolio.asset_correlation;
+    out.correlation_source = CorrelationSource::setting;
+  } else {
+    out.asset_correlation = irb_corporate_correlation(floored_pd);
+    out.correlation_source = CorrelationSource::basel;
+  }
+  out.maturity_years = r.has_maturity ? r.maturity_years : config.irb.maturity_years;
+  IrbOptions irb_options;
+  irb_options.pd_floor = config.irb.pd_floor;
+  out.irb = irb_corporate(
+      {.pd = out.pd, .lgd = out.lgd, .ead = out.ead, .maturity_years = out.maturity_years}, irb_options);
+  out.expected_loss = out.pd * out.lgd * out.ead;
+  out.status = PortfolioStatus::ok;
+}
+
+// Adds an included obligor's figures to a group.
+void add_to_group(GroupTotals& g, const PortfolioScenarioResult& res, std::size_t i, std::size_t n,
+                  std::size_t levels) {
+  const PortfolioObligor& o = res.obligors[i];
+  g.obligors += 1;
+  g.ead += o.ead;
+  g.expected_loss += o.expected_loss;
+  g.irb_capital += o.irb.capital;
+  g.rwa += o.irb.rwa;
+  for (std::size_t l = 0; l < levels; ++l) {
+    if (!res.exact.es_contributions.empty()) g.es_exact[l] += res.exact.es_contributions[l * n + i];
+    if (!res.limit.es_contributions.empty()) g.es_limit[l] += res.limit.es_contributions[l * n + i];
+    if (res.simulated && !res.mc.es_contributions.empty()) g.es_mc[l] += res.mc.es_contributions[l * n + i];
+  }
+}
+
+GroupTotals empty_group(std::string name, std::size_t levels, bool simulated) {
+  GroupTotals g;
+  g.name = std::move(name);
+  g.es_exact.assign(levels, 0.0);
+  g.es_limit.assign(levels, 0.0);
+  if (simulated) g.es_mc.assign(levels, 0.0);
+  return g;
+}
+
+std::vector<GroupTotals*> groups_of(PortfolioScenarioResult& res) {
+  std::vector<GroupTotals*> all = {&res.total};
+  for (GroupTotals& g : res.sectors) all.push_back(&g);
+  for (GroupTotals& g : res.countries) all.push_back(&g);
+  return all;
+}
+
+// Runs every model over the included obligors of `res` and fills its results.
+void compute(const Book& book, const CorrelationFile* corr, const Config& config,
+             const PortfolioRunOptions& options, PortfolioScenarioResult& res,
+             std::vector<std::string>& notes) {
+  const std::size_t n = res.obligors.size();
+  const auto& levels = config.portfolio.confidence_levels;
+  const std::size_t L = levels.size();
+  std::vector<std::size_t> included;
+  std::vector<FactorExposure> one;
+  std::vector<SectorExposure> multi;
+  for (std::size_t i = 0; i < n; ++i) {
+    const PortfolioObligor& o = res.obligors[i];
+    if (!o.ok()) continue;
+    included.push_back(i);
+    one.push_back({o.pd, o.lgd * o.ead, o.asset_correlation});
+    multi.push_back({o.pd, o.lgd * o.ead, o.asset_correlation, o.factor});
+  }
+  res.included = included.size();
+  const std::size_t m = included.size();
+  // Results over the included obligors, spread back to book order.
+  const auto spread = [&](const std::vector<double>& v) {
+    std::vector<double> out;
+    if (v.empty()) return out;
+    out.assign(L * n, 0.0);
+    for (std::size_t l = 0; l < L; ++l) {
+      for (std::size_t j = 0; j < m; ++j) out[l * n + included[j]] = v[l * m + j];
+    }
+    return out;
+  };
+
+  OneFactorOptions exact_options;
+  exact_options.confidence_levels = levels;
+  exact_options.grid_points = static_cast<std::size_t>(config.portfolio.loss_grid_points);
+  exact_options.tolerance = config.portfolio.quadrature_tolerance;
+  exact_options.contributions = options.contributions;
+  exact_options.threads = options.threads;
+  res.exact = one_factor_loss_distribution(one, exact_options);
+  res.exact.es_contributions = spread(res.exact.es_contributions);
+  if (res.exact.status == LossStatus::tolerance_not_met) {
+    char buf[200];
+    std::snprintf(buf, sizeof buf,
+                  "%s: the exact distribution stopped at its budget of factor values with an estimated error "
+                  "of %.2g (tolerance %.2g)",
+                  res.name.c_str(), res.exact.error_estimate, config.portfolio.quadrature_tolerance);
+    notes.push_back(buf);
+  } else if (res.exact.status != LossStatus::ok) {
+    notes.push_back(res.name + ": exact distribution: " + res.exact.message);
+  }
+  res.limit = large_portfolio_measures(one, levels);
+  res.limit.var_contributions = spread(res.limit.var_contributions);
+  res.limit.es_contributions = spread(res.limit.es_contributions);
+  std::vector<double> grid_losses;
+  if (options.distribution && !res.exact.probability.empty()) {
+    grid_losses.resize(res.exact.probability.size());
+    for (std::size_t k = 0; k < grid_losses.size(); ++k)
+      grid_losses[k] = static_cast<double>(k) * res.exact.loss_unit;
+    res.limit_exceedance.assign(grid_losses.size(), 0.0);
+    large_portfolio_exceedance(one, grid_losses, res.limit_exceedance);
+  }
+  if (options.monte_carlo_scenarios > 0) {
+    SimulationOptions sim;
+    sim.scenarios = options.monte_carlo_scenarios;
+    sim.seed = config.portfolio.seed;
+    sim.confidence_levels = levels;
+    sim.importance_sampling = options.importance_sampling;
+    sim.contributions = options.contributions;
+    sim.threads = options.threads;
+    sim.exceedance_points = grid_losses;
+    if (options.progress) {
+      sim.progress = [&](std::uint64_t done, std::uint64_t all) { options.progress(res.name, done, all); };
+    }
+    const FactorCholesky one_factor = single_factor();
+    const FactorCholesky& factors = corr ? corr->cholesky : one_factor;
+    if (corr && !corr->multi_factor()) {
+      // Without a matrix every sector loads on the one factor.
+      for (SectorExposure& e : multi) e.factor = 0;
+    }
+    res.mc = simulate_losses(multi, factors, sim);
+    res.simulated = res.mc.status == SimulationStatus::ok;
+    if (!res.simulated) notes.push_back(res.name + ": simulation: " + res.mc.message);
+    res.mc.es_contributions = spread(res.mc.es_contributions);
+    res.mc.es_contribution_se = spread(res.mc.es_contribution_se);
+  }
+  // Groups.
+  res.total = empty_group("total", L, res.simulated);
+  std::map<std::string, GroupTotals> sectors, countries;
+  for (std::size_t i : included) {
+    add_to_group(res.total, res, i, n, L);
+    std::string s = book.obligors[i].get(TextField::sector);
+    std::string c = book.obligors[i].get(TextField::country);
+    if (s.empty()) s = "(none)";
+    if (c.empty()) c = "(none)";
+    auto si = sectors.try_emplace(s, empty_group(s, L, res.simulated)).first;
+    add_to_group(si->second, res, i, n, L);
+    auto ci = countries.try_emplace(c, empty_group(c, L, res.simulated)).first;
+    add_to_group(ci->second, res, i, n, L);
+  }
+  for (auto& [k, g] : sectors) res.sectors.push_back(std::move(g));
+  for (auto& [k, g] : countries) res.countries.push_back(std::move(g));
+  // Sums of contributions that were not computed are unknown, not zero.
+  const double nan = std::nan("");
+  for (GroupTotals* g : groups_of(res)) {
+    if (res.exact.es_contributions.empty()) std::fill(g->es_exact.begin(), g->es_exact.end(), nan);
+    if (res.limit.es_contributions.empty()) std::fill(g->es_limit.begin(), g->es_limit.end(), nan);
+    if (res.simulated && res.mc.es_contributions.empty()) std::fill(g->es_mc.begin(), g->es_mc.end(), nan);
+  }
+}
+
+}  // namespace
+
+PortfolioRun run_portfolio(const Book& book, const std::vector<Scenario>& scenarios,
+                           const std::string& scenario_origin, const CorrelationFile* corr,
+                           const Config& config, const PortfolioRunOptions& options) {
+  for (const Scenario& sc : scenarios) {
+    if (sc.name == "base") {
+      throw InputError(
+          located(scenario_origin, sc.line,
+                  "scenario 'base': the name is reserved for the book as it stands in portfolio runs"));
+    }
+  }
+  PortfolioRun run;
+  run.book_origin = book.origin;
+  run.correlation_origin = corr ? corr->origin : "";
+  run.scenario_origin = scenario_origin;
+  run.multi_factor = corr && corr->multi_factor();
+  run.factors = run.multi_factor ? corr->factors.size() : 1;
+  run.confidence_levels = config.portfolio.confidence_levels;
+  run.settings = config.score;
+  run.portfolio = config.portfolio;
+  run.irb = config.irb;
+  run.options = options;
+  run.options.progress = nullptr;
+  run.notes = book.notes;
+  const std::size_t n = book.obligors.size();
+  const unsigned threads = std::max(1U, options.threads);
+
+  std::vector<ScoredObligor> base(n);
+  parallel_for((n + 255) / 256, threads, [&](std::size_t t, unsigned) {
+    for (std::size_t i = t * 256; i < std::min(n, (t + 1) * 256); ++i) {
+      score_obligor(book.obligors[i], book.defaults, config.score, base[i]);
+    }
+  });
+  std::vector<Static> statics(n);
+  std::set<double> horizons;
+  for (std::size_t i = 0; i < n; ++i) {
+    statics[i] = static_of(book.obligors[i], base[i], corr);
+    if (base[i].resolved.ok()) horizons.insert(base[i].resolved.inputs.horizon_years);
+  }
+  if (horizons.size() > 1) {
+    char buf[240];
+    std::snprintf(buf, sizeof buf,
+                  "obligors have different horizons (%g to %g years): their PDs are combined as they are; "
+                  "give --horizon T to put every PD on one horizon",
+                  *horizons.begin(), *horizons.rbegin());
+    run.notes.push_back(buf);
+  }
+  if (corr) {
+    std::set<std::string> used;
+    for (const ObligorRecord& rec : book.obligors) used.insert(rec.get(TextField::sector));
+    for (const SectorFactor& f : corr->factors) {
+      if (!used.count(f.sector)) {
+        run.notes.push_back(corr->origin + ":" + std::to_string(f.line) + ": sector '" + f.sector +
+                            "' has no obligor in " + book.origin);
+      }
+    }
+  }
+
+  const auto problem = [&](const std::string& scenario, std::size_t i, const std::string& message) {
+    ++run.failed_rows;
+    if (run.problems.size() >= options.max_listed_problems) {
+      ++run.problems_not_listed;
+      return;
+    }
+    const ObligorRecord& rec = book.obligors[i];
+    std::string p = scenario.empty() ? "" : "scenario '" + scenario + "': ";
+    p += obligor_problem(book.origin, rec, message);
+    run.problems.push_back(p);
+  };
+
+  // The book as it stands.
+  {
+    PortfolioScenarioResult res;
+    res.name = "base";
+    res.description = "the book as it stands";
+    res.obligors.resize(n);
+    for (std::size_t i = 0; i < n; ++i) {
+      fill_obligor(book.obligors[i], base[i], nullptr, statics[i], corr, config, options, res.obligors[i]);
+      if (!res.obligors[i].ok()) problem("", i, res.obligors[i].message);
+    }
+    compute(book, corr, config, options, res, run.notes);
+    run.scenarios.push_back(std::move(res));
+  }
+  // Each scenario: obligors that were left out as the book stands stay out silently (listed once).
+  for (const Scenario& sc : scenarios) {
+    PortfolioScenarioResult res;
+    res.name = sc.name;
+    res.description = sc.description;
+    res.obligors.resize(n);
+    std::vector<StressedObligor> stressed(n);
+    parallel_for((n + 255) / 256, threads, [&](std::size_t t, unsigned) {
+      for (std::size_t i = t * 256; i < std::min(n, (t + 1) * 256); ++i) {
+        stress_obligor(base[i], sc.effect_for(book.obligors[i]), config.score, false, stressed[i]);
+      }
+    });
+    for (std::size_t i = 0; i < n; ++i) {
+      fill_obligor(book.obligors[i], base[i], &stressed[i], statics[i], corr, config, options,
+                   res.obligors[i]);
+      if (!res.obligors[i].ok()) {
+        if (run.scenarios.front().obligors[i].ok()) {
+          problem(sc.name, i, res.obligors[i].message);
+        } else {
+          ++run.failed_rows;
+        }
+      }
+    }
+    compute(book, corr, config, options, res, run.notes);
+    run.scenarios.push_back(std::move(res));
+  }
+  return run;
+}
+
+}  // namespace firmcall

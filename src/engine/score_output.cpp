@@ -1,0 +1,396 @@
+#include "firmcall/engine/score_output.hpp"
+
+#include <array>
+#include <bit>
+#include <charconv>
+#include <cmath>
+#include <cstdint>
+#include <cstdio>
+#include <cstring>
+
+namespace firmcall {
+
+const std::vector<std::string_view>& score_columns() {
+  static const std::vector<std::string_view> cols = {"id",
+                                                     "name",
+                                                     "status",
+                                                     "equity_value",
+                                                     "default_point",
+                                                     "asset_value",
+                                                     "asset_vol",
+                                                     "leverage",
+                                                     "distance_to_default",
+                                                     "pd",
+                                                     "pd_risk_neutral",
+                                                     "debt_value",
+                                                     "spread_bp",
+                                                     "iterations",
+                                                     "residual",
+                                                     "message"};
+  return cols;
+}
+
+const std::vector<std::string_view>& sensitivity_columns() {
+  static const std::vector<std::string_view> cols = {"sensitivity_status",
+                                                     "dd_per_equity_pct",
+                                                     "pd_per_equity_pct",
+                                                     "spread_bp_per_equity_pct",
+                                                     "dd_per_equity_vol_pt",
+                                                     "pd_per_equity_vol_pt",
+                                                     "spread_bp_per_equity_vol_pt",
+                                                     "dd_per_default_point_pct",
+                                                     "pd_per_default_point_pct",
+                                                     "spread_bp_per_default_point_pct",
+                                                     "dd_per_rate_bp",
+                                                     "pd_per_rate_bp",
+                                                     "spread_bp_per_rate_bp"};
+  return cols;
+}
+
+MertonSensitivities sensitivities_of(const ResolvedObligor& resolved, const AssetSolution& solution) {
+  return merton_sensitivities(resolved.inputs, solution.asset_value, solution.asset_vol_annual,
+                              resolved.drift_follows_rate);
+}
+
+namespace {
+
+// The twelve sensitivity values in sensitivity_columns() order (after the status).
+std::array<double, 12> sensitivity_values(const MertonSensitivities& s) {
+  std::array<double, 12> v{};
+  const MeasureChange* groups[] = {&s.equity, &s.equity_vol, &s.default_point, &s.rate};
+  for (std::size_t g = 0; g < 4; ++g) {
+    v[3 * g] = groups[g]->distance_to_default;
+    v[3 * g + 1] = groups[g]->pd;
+    v[3 * g + 2] = groups[g]->spread_bp;
+  }
+  return v;
+}
+
+}  // namespace
+
+void append_sensitivities_csv(std::string& out, const MertonSensitivities& s, bool usable) {
+  out.push_back(',');
+  if (!usable) {
+    out.append(12, ',');
+    return;
+  }
+  out.append(to_string(s.status));
+  const auto v = sensitivity_values(s);
+  for (double x : v) {
+    out.push_back(',');
+    if (s.ok()) append_number(out, x);
+  }
+}
+
+void append_sensitivities_json(std::string& out, const MertonSensitivities& s, bool usable) {
+  const auto& cols = sensitivity_columns();
+  out += ", \"";
+  out += cols[0];
+  out += "\": ";
+  if (usable) {
+    append_json_string(out, to_string(s.status));
+  } else {
+    out += "null";
+  }
+  const auto v = sensitivity_values(s);
+  for (std::size_t i = 0; i < v.size(); ++i) {
+    out += ", \"";
+    out += cols[i + 1];
+    out += "\": ";
+    append_json_number(out, usable && s.ok() ? v[i] : std::nan(""));
+  }
+}
+
+void append_sensitivities_table_header(std::string& out, std::size_t indent) {
+  char buf[256];
+  std::snprintf(buf, sizeof buf, "%*s%-28s  %-28s  %-28s  %-28s\n", static_cast<int>(indent), "",
+                "per +1% equity value", "per +1 pt equity vol", "per +1% default point", "per +1 bp rate");
+  out += buf;
+  std::string line(indent, ' ');
+  for (int g = 0; g < 4; ++g) {
+    std::snprintf(buf, sizeof buf, "%s%8s %9s %9s", g > 0 ? "  " : "", "DD", "PD pp", "spread bp");
+    line += buf;
+  }
+  out += line + "\n";
+}
+
+void append_sensitivities_table(std::string& out, const MertonSensitivities& s, std::size_t indent) {
+  std::string line(indent, ' ');
+  if (!s.ok()) {
+    line += "sensitivities not available (";
+    line += to_string(s.status);
+    out += line + ")\n";
+    return;
+  }
+  char buf[64];
+  const auto v = sensitivity_values(s);
+  for (std::size_t g = 0; g < 4; ++g) {
+    // DD changes with 4 decimals, or in scientific notation when smaller than 0.01.
+    const double dd = v[3 * g];
+    const char* fmt =
+        std::fabs(dd) >= 0.01 || dd == 0.0 ? "%s%+8.4f %+9.2e %+9.2e" : "%s%+8.1e %+9.2e %+9.2e";
+    std::snprintf(buf, sizeof buf, fmt, g > 0 ? "  " : "", dd, 100.0 * v[3 * g + 1], v[3 * g + 2]);
+    line += buf;
+  }
+  out += line + "\n";
+}
+
+namespace {
+
+// Grade label of a scored obligor; empty when it was not scored.
+std::string grade_label(const GradeScale* grades, const ScoredObligor& s) {
+  if (!grades || s.status != RowStatus::ok) return {};
+  return std::string(grades->label_of(s.measures.pd));
+}
+
+// Values of the numeric columns equity_value .. spread_bp of score_columns(), in order.
+constexpr std::size_t kNumericColumns = 10;
+constexpr std::size_t kFirstNumericColumn = 3;
+struct NumericRow {
+  double v[kNumericColumns];
+};
+
+NumericRow numeric_row(const ScoredObligor& s) {
+  NumericRow r{};
+  const bool resolved = s.resolved.ok();
+  const bool scored = s.status == RowStatus::ok;
+  const double nan = std::nan("");
+  const MertonInputs& in = s.resolved.inputs;
+  const MertonMeasures& m = s.measures;
+  r.v[0] = resolved ? in.equity_value : nan;
+  r.v[1] = resolved ? in.default_point : nan;
+  const double vals[] = {m.asset_value, m.asset_vol_annual, m.leverage,   m.distance_to_default,
+                         m.pd,          m.pd_risk_neutral,  m.debt_value, m.spread_bp};
+  for (int i = 0; i < 8; ++i) r.v[2 + i] = scored ? vals[i] : nan;
+  return r;
+}
+
+class CsvWriter final : public ScoreWriter {
+ public:
+  CsvWriter(bool sensitivities, const GradeScale* grades) : sensitivities_(sensitivities), grades_(grades) {}
+  void begin(std::string& out) const override {
+    append_csv_names(out, score_columns());
+    if (sensitivities_) {
+      out.push_back(',');
+      append_csv_names(out, sensitivity_columns());
+    }
+    if (grades_) out += ",grade";
+    out.push_back('\n');
+  }
+  void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
+    append_csv_text(out, rec.get(TextField::id));
+    out.push_back(',');
+    append_csv_text(out, rec.get(TextField::name));
+    out.push_back(',');
+    out.append(to_string(s.status));
+    // The numbers are formatted into one buffer and appended at once.
+    const NumericRow r = numeric_row(s);
+    char buf[(kNumericColumns + 2) * (kMaxNumberChars + 1) + 1];
+    char* p = buf;
+    for (double v : r.v) {
+      *p++ = ',';
+      p = write_number(p, v);
+    }
+    *p++ = ',';
+    if (s.solution.residual >= 0.0) p = std::to_chars(p, p + 16, s.solution.iterations).ptr;
+    *p++ = ',';
+    if (s.solution.residual >= 0.0) p = write_number(p, s.solution.residual);
+    *p++ = ',';
+    out.append(buf, p);
+    append_csv_text(out, s.message);
+    if (sensitivities_) {
+      const bool usable = s.status == RowStatus::ok;
+      append_sensitivities_csv(out, usable ? sensitivities_of(s.resolved, s.solution) : MertonSensitivities{},
+                               usable);
+    }
+    if (grades_) {
+      out.push_back(',');
+      append_csv_text(out, grade_label(grades_, s));
+    }
+    out.push_back('\n');
+  }
+  void end(const ScoreSummary&, std::string&) const override {}
+
+ private:
+  bool sensitivities_;
+  const GradeScale* grades_;
+};
+
+class JsonWriter final : public ScoreWriter {
+ public:
+  JsonWriter(std::string origin, const ScoreSettings& settings, bool sensitivities, const GradeScale* grades)
+      : origin_(std::move(origin)), settings_(settings), sensitivities_(sensitivities), grades_(grades) {}
+  void begin(std::string& out) const override {
+    out += "{\n  \"run\": {\"input\": ";
+    append_json_string(out, origin_);
+    out += ", \"measure\": ";
+    append_json_string(out, to_string(settings_.measure));
+    out += ", \"default_point_weight\": ";
+    append_json_number(out, settings_.weight_override.value_or(settings_.default_point_weight));
+    out += ", \"rate_override\": ";
+    append_json_number(out, settings_.rate_override.value_or(std::nan("")));
+    out += ", \"horizon_override\": ";
+    append_json_number(out, settings_.horizon_override.value_or(std::nan("")));
+    out += "},\n  \"obligors\": [\n";
+  }
+  std::string_view separator() const override { return ",\n"; }
+  void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
+    const auto& cols = score_columns();
+    out += "    {\"id\": ";
+    append_json_string(out, rec.get(TextField::id));
+    out += ", \"name\": ";
+    append_json_string(out, rec.get(TextField::name));
+    out += ", \"status\": ";
+    append_json_string(out, to_string(s.status));
+    const NumericRow r = numeric_row(s);
+    for (std::size_t i = 0; i < kNumericColumns; ++i) {
+      out += ", \"";
+      out += cols[kFirstNumericColumn + i];
+      out += "\": ";
+      append_json_number(out, r.v[i]);
+    }
+    out += ", \"iterations\": ";
+    if (s.solution.residual >= 0.0) {
+      out += std::to_string(s.solution.iterations);
+      out += ", \"residual\": ";
+      append_json_number(out, s.solution.residual);
+    } else {
+      out += "null, \"residual\": null";
+    }
+    out += ", \"message\": ";
+    append_json_string(out, s.message);
+    if (sensitivities_) {
+      const bool usable = s.status == RowStatus::ok;
+      append_sensitivities_json(
+          out, usable ? sensitivities_of(s.resolved, s.solution) : MertonSensitivities{}, usable);
+    }
+    if (grades_) {
+      out += ", \"grade\": ";
+      if (s.status == RowStatus::ok) {
+        append_json_string(out, grade_label(grades_, s));
+      } else {
+        out += "null";
+      }
+    }
+    out += "}";
+  }
+  void end(const ScoreSummary& sum, std::string& out) const override {
+    out += "\n  ],\n  \"summary\": {\"obligors\": " + std::to_string(sum.total) +
+           ", \"scored\": " + std::to_string(sum.scored) +
+           ", \"invalid_input\": " + std::to_string(sum.invalid) +
+           ", \"not_converged\": " + std::to_string(sum.not_converged) + "}\n}\n";
+  }
+
+ private:
+  std::string origin_;
+  ScoreSettings settings_;
+  bool sensitivities_;
+  const GradeScale* grades_;
+};
+
+// Fixed-width text for people: 116 columns (with grades: a grade column, and the name 6 narrower).
+class TableWriter final : public ScoreWriter {
+ public:
+  TableWriter(bool sensitivities, const GradeScale* grades)
+      : sensitivities_(sensitivities), grades_(grades) {}
+  void begin(std::string& out) const override {
+    char buf[256];
+    std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", "obligor",
+                  name_width(), "name", "asset value", "asset", "default", "DP/V", "DD", "PD", "spread",
+                  grade_cell("grade").c_str(), "status");
+    out += buf;
+    std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", "", name_width(), "",
+                  "", "vol %", "point", "", "", "%", "bp", grade_cell("").c_str(), "");
+    out += buf;
+    if (sensitivities_) append_sensitivities_table_header(out, 2);
+    out += std::string(115, '-') + "\n";
+  }
+  void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
+    char buf[320];
+    const std::string id = fit(rec.get(TextField::id), 12);
+    const std::string name = fit(rec.get(TextField::name), static_cast<std::size_t>(name_width()));
+    if (s.status != RowStatus::ok) {
+      std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", id.c_str(),
+                    name_width(), name.c_str(), "-", "-", "-", "-", "-", "-", "-", grade_cell("-").c_str(),
+                    std::string(to_string(s.status)).c_str());
+      out += buf;
+      return;
+    }
+    const MertonMeasures& m = s.measures;
+    std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7.2f %12s %6.3f %7.3f %10s %10s %s %s\n", id.c_str(),
+                  name_width(), name.c_str(), amount(m.asset_value).c_str(), 100.0 * m.asset_vol_annual,
+                  amount(m.default_point).c_str(), m.leverage, m.distance_to_default,
+                  small(100.0 * m.pd, 4).c_str(), small(m.spread_bp, 2).c_str(),
+                  grade_cell(grade_label(grades_, s)).c_str(), "ok");
+    out += buf;
+    if (sensitivities_) append_sensitivities_table(out, sensitivities_of(s.resolved, s.solution), 2);
+  }
+  void end(const ScoreSummary& sum, std::string& out) const override {
+    out += std::string(115, '-') + "\n";
+    out += "scored " + std::to_string(sum.scored) + " of " + std::to_string(sum.total) + " obligors";
+    if (sum.failed() > 0) {
+      out += "; " + std::to_string(sum.invalid) + " invalid input, " + std::to_string(sum.not_converged) +
+             " not converged (reasons below)";
+    }
+    out += "\n";
+    append_table_problems(out, sum.problems, sum.problems_not_listed);
+    out += kTableCaution;
+  }
+
+ private:
+  bool sensitivities_;
+  int name_width() const { return grades_ ? 12 : 18; }
+  // The grade column: empty without grades (one space then separates spread and status, as before).
+  std::string grade_cell(std::string_view text) const {
+    if (!grades_) return {};
+    std::string cell(1, ' ');
+    const std::string label = fit(std::string(text), 5);
+    cell += label;
+    cell.append(5 - label.size(), ' ');
+    return cell;
+  }
+  const GradeScale* grades_;
+  static std::string fit(const std::string& s, std::size_t w) {
+    if (s.size() <= w) return s;
+    return s.substr(0, w - 1) + "~";
+  }
+  static std::string amount(double v) {
+    char buf[64];
+    if (std::fabs(v) < 1e11) {
+      std::snprintf(buf, sizeof buf, "%.2f", v);
+    } else {
+      std::snprintf(buf, sizeof buf, "%.4e", v);
+    }
+    return buf;
+  }
+  // Fixed decimals while readable, scientific for tiny values (e.g. far-tail PDs).
+  static std::string small(double v, int decimals) {
+    char buf[64];
+    if (v == 0.0) {
+      std::snprintf(buf, sizeof buf, "0");
+    } else if (std::fabs(v) >= std::pow(10.0, -decimals + 1) && std::fabs(v) < 1e7) {
+      std::snprintf(buf, sizeof buf, "%.*f", decimals, v);
+    } else {
+      std::snprintf(buf, sizeof buf, "%.2e", v);
+    }
+    return buf;
+  }
+};
+
+}  // namespace
+
+std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
+                                               const ScoreSettings& settings, bool sensitivities,
+                                               const GradeScale* grades) {
+  switch (format) {
+    case OutputFormat::csv:
+      return std::make_unique<CsvWriter>(sensitivities, grades);
+    case OutputFormat::json:
+      return std::make_unique<JsonWriter>(origin, settings, sensitivities, grades);
+    case OutputFormat::table:
+      return std::make_unique<TableWriter>(sensitivities, grades);
+  }
+  return std::make_unique<CsvWriter>(sensitivities, grades);
+}
+
+}  // namespace firmcall

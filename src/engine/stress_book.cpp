@@ -1,0 +1,437 @@
+// Stress and reverse-stress runs over a book. See include/firmcall/stress.hpp.
+#include "firmcall/engine/stress_book.hpp"
+
+#include <algorithm>
+#include <charconv>
+#include <cmath>
+#include <cstdio>
+#include <functional>
+#include <thread>
+
+#include "engine/stress_output.hpp"
+#include "firmcall/book/errors.hpp"
+#include "firmcall/engine/score_output.hpp"
+#include "firmcall/util/parallel.hpp"
+
+namespace firmcall {
+
+std::string_view to_string(StressStatus s) noexcept {
+  switch (s) {
+    case StressStatus::ok:
+      return "ok";
+    case StressStatus::invalid_input:
+      return "invalid_input";
+    case StressStatus::not_converged:
+      return "not_converged";
+    case StressStatus::invalid_stress:
+      return "invalid_stress";
+  }
+  return "";
+}
+
+namespace {
+
+std::string shortest(double v) {
+  char buf[32];
+  const auto r = std::to_chars(buf, buf + sizeof buf, v);
+  return std::string(buf, r.ptr);
+}
+
+// The first problem of stressed inputs, as "stressed field 'x': reason, got v"; empty if none.
+std::string check_stressed_impl(const MertonInputs& in) {
+  const auto bad = [](std::string_view field, std::string_view reason, double v) {
+    return "stressed field '" + std::string(field) + "': " + std::string(reason) + ", got " + shortest(v);
+  };
+  if (!(in.equity_value > 0.0) || !std::isfinite(in.equity_value)) {
+    return bad("market_cap", "must be positive and finite", in.equity_value);
+  }
+  if (!(in.equity_vol_annual > 0.0) || !std::isfinite(in.equity_vol_annual)) {
+    return bad("equity_vol", "must be positive (check equity_vol_add_points)", in.equity_vol_annual);
+  }
+  if (!(in.default_point > 0.0) || !std::isfinite(in.default_point)) {
+    return bad("default_point", "must be positive and finite", in.default_point);
+  }
+  if (!(in.risk_free_rate_cc >= -1.0 && in.risk_free_rate_cc <= 1.0)) {
+    return bad("rate", "must lie in [-1, 1] (check rate_shift_bp)", in.risk_free_rate_cc);
+  }
+  if (!(in.drift_annual >= -1.0 && in.drift_annual <= 1.0)) {
+    return bad("drift", "must lie in [-1, 1] (check rate_shift_bp)", in.drift_annual);
+  }
+  const MertonInputCheck check = validate(in);
+  if (!check.ok()) return "stressed field '" + std::string(to_string(check.field)) + "': " + check.message;
+  return {};
+}
+
+bool all_finite(const MertonMeasures& m) {
+  const double all[] = {m.asset_value, m.asset_vol_annual, m.leverage,   m.distance_to_default,
+                        m.pd,          m.pd_risk_neutral,  m.debt_value, m.spread_bp};
+  return std::all_of(std::begin(all), std::end(all), [](double x) { return std::isfinite(x); });
+}
+
+std::string problem_text(const Book& book, const ObligorRecord& rec, const std::string& message) {
+  return obligor_problem(book.origin, rec, message);
+}
+
+// Scores every obligor as it stands (in parallel) and fills the base counts and problems.
+std::vector<ScoredObligor> score_base(const Book& book, const ScoreSettings& settings, unsigned threads,
+                                      std::size_t max_listed, std::size_t& ok, std::size_t& invalid,
+                                      std::size_t& not_converged, std::vector<std::string>& problems,
+                                      std::size_t& not_listed) {
+  const std::size_t n = book.obligors.size();
+  std::vector<ScoredObligor> base(n);
+  parallel_slices(n, threads, [&](unsigned, std::size_t b, std::size_t e) {
+    for (std::size_t i = b; i < e; ++i) score_obligor(book.obligors[i], book.defaults, settings, base[i]);
+  });
+  for (std::size_t i = 0; i < n; ++i) {
+    switch (base[i].status) {
+      case RowStatus::ok:
+        ++ok;
+        continue;
+      case RowStatus::invalid_input:
+        ++invalid;
+        break;
+      case RowStatus::not_converged:
+        ++not_converged;
+        break;
+    }
+    if (problems.size() < max_listed) {
+      problems.push_back(problem_text(book, book.obligors[i], base[i].message));
+    } else {
+      ++not_listed;
+    }
+  }
+  return base;
+}
+
+}  // namespace
+
+std::string stressed_input_problem(const MertonInputs& in) {
+  return check_stressed_impl(in);
+}
+
+namespace {
+
+// First half of stress_obligor: everything up to the solve. Returns true when out.inputs must be
+// solved (then finish_stressed completes out); otherwise out is complete.
+bool start_stressed(const ScoredObligor& base, const ShockEffect& effect, StressedObligor& out) {
+  out.effect = effect;
+  out.message.clear();
+  out.inputs = base.resolved.inputs;
+  out.solution = AssetSolution{};
+  out.measures = MertonMeasures{};
+  out.sensitivities = MertonSensitivities{};
+  if (base.status != RowStatus::ok) {
+    out.status =
+        base.status == RowStatus::invalid_input ? StressStatus::invalid_input : StressStatus::not_converged;
+    out.message = base.message;
+    if (base.resolved.ok())
+      out.inputs = apply_shock(base.resolved.inputs, effect, base.resolved.drift_follows_rate);
+    return false;
+  }
+  if (effect.shocks == 0) {
+    out.solution = base.solution;
+    out.measures = base.measures;
+    out.status = StressStatus::ok;
+    return false;
+  }
+  out.inputs = apply_shock(base.resolved.inputs, effect, base.resolved.drift_follows_rate);
+  out.message = stressed_input_problem(out.inputs);
+  if (!out.message.empty()) {
+    out.status = StressStatus::invalid_stress;
+    return false;
+  }
+  return true;
+}
+
+// Second half, once out.solution holds the solve of out.inputs.
+void finish_stressed(StressedObligor& out) {
+  if (!out.solution.usable()) {
+    out.status = StressStatus::not_converged;
+    char buf[160];
+    std::snprintf(buf, sizeof buf,
+                  "stressed inputs: solver did not converge (residual %.3g after %d iterations)",
+                  out.solution.residual, out.solution.iterations);
+    out.message = buf;
+    return;
+  }
+  out.measures = merton_measures(out.inputs, out.solution.asset_value, out.solution.asset_vol_annual);
+  if (!all_finite(out.measures)) {
+    out.status = StressStatus::not_converged;
+    out.message = "stressed inputs: a derived measure is not finite";
+    return;
+  }
+  out.status = StressStatus::ok;
+}
+
+void add_sensitivities(const ScoredObligor& base, StressedObligor& out) {
+  if (out.status != StressStatus::ok) return;
+  out.sensitivities = merton_sensitivities(out.inputs, out.solution.asset_value,
+                                           out.solution.asset_vol_annual, base.resolved.drift_follows_rate);
+}
+
+}  // namespace
+
+void stress_obligor(const ScoredObligor& base, const ShockEffect& effect, const ScoreSettings& settings,
+                    bool sensitivities, StressedObligor& out) {
+  if (start_stressed(base, effect, out)) {
+    out.solution = solve_asset(out.inputs, settings.solver);
+    finish_stressed(out);
+  }
+  if (sensitivities) add_sensitivities(base, out);
+}
+
+void stress_obligors(const ScoredObligor* base, const ShockEffect* effects, std::size_t n,
+                     const ScoreSettings& settings, bool sensitivities, StressedObligor* out) {
+  std::vector<std::size_t> solve;
+  std::vector<MertonInputs> inputs;
+  for (std::size_t i = 0; i < n; ++i) {
+    if (start_stressed(base[i], effects[i], out[i])) {
+      solve.push_back(i);
+      inputs.push_back(out[i].inputs);
+    }
+  }
+  std::vector<AssetSolution> solutions(inputs.size());
+  solve_asset_batch(inputs.data(), solutions.data(), inputs.size(), settings.solver);
+  for (std::size_t k = 0; k < solve.size(); ++k) {
+    out[solve[k]].solution = solutions[k];
+    finish_stressed(out[solve[k]]);
+  }
+  if (sensitivities) {
+    for (std::size_t i = 0; i < n; ++i) add_sensitivities(base[i], out[i]);
+  }
+}
+
+StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenarios,
+                         const std::string& scenario_origin, const ScoreSettings& settings,
+                         const StressSettings& stress, const StressRunOptions& run, const TextSink& sink) {
+  const std::size_t n = book.obligors.size();
+  const unsigned threads = std::max(1U, run.threads);
+  StressSummary sum;
+  sum.obligors = n;
+  sum.notes = book.notes;
+  const std::vector<ScoredObligor> base =
+      score_base(book, settings, threads, run.max_listed_problems, sum.base_ok, sum.base_invalid,
+                 sum.base_not_converged, sum.problems, sum.problems_not_listed);
+
+  detail::StressRunInfo info{book.origin, scenario_origin, settings, stress, run.sensitivities,
+                             n,           scenarios.size()};
+  const auto writer = detail::make_stress_writer(run.format, info);
+  {
+    std::string s;
+    writer->begin(s);
+    sink(s);
+  }
+
+  // The table's PD grid.
+  int grid_rows = 0;
+  int grid_columns = 0;
+  for (const Scenario& sc : scenarios) {
+    grid_rows = std::max(grid_rows, sc.grid_row + 1);
+    grid_columns = std::max(grid_columns, sc.grid_column + 1);
+  }
+  const bool keep_grid = run.format == OutputFormat::table && grid_rows > 0 && grid_columns > 0;
+  if (keep_grid) {
+    sum.grid.equity_changes.assign(static_cast<std::size_t>(grid_rows), 0.0);
+    sum.grid.vol_multipliers.assign(static_cast<std::size_t>(grid_columns), 1.0);
+    sum.grid.pd.assign(n * static_cast<std::size_t>(grid_rows * grid_columns), std::nan(""));
+    for (const Scenario& sc : scenarios) {
+      if (sc.grid_row < 0 || sc.shocks.empty()) continue;
+      sum.grid.equity_changes[static_cast<std::size_t>(sc.grid_row)] = sc.shocks[0].shock.equity_change;
+      sum.grid.vol_multipliers[static_cast<std::size_t>(sc.grid_column)] =
+          sc.shocks[0].shock.equity_vol_multiplier;
+    }
+  }
+
+  struct Worker {
+    std::string out;
+    std::vector<ShockEffect> effects;
+    std::vector<StressedObligor> stressed;
+  };
+  std::vector<Worker> workers(threads);
+  std::vector<StressStatus> status(n);
+  std::vector<std::uint8_t> shocked(n);
+  std::vector<double> pd_stressed(n);
+
+  for (std::size_t si = 0; si < scenarios.size(); ++si) {
+    const Scenario& sc = scenarios[si];
+    const bool rows = writer->wants_rows(sc);
+    {
+      std::string s;
+      writer->scenario_begin(sc, si, s);
+      sink(s);
+    }
+    for (std::size_t c0 = 0; c0 < n; c0 += std::max<std::size_t>(run.chunk_obligors, 1)) {
+      const std::size_t c1 = std::min(n, c0 + std::max<std::size_t>(run.chunk_obligors, 1));
+      parallel_slices(c1 - c0, threads, [&](unsigned w, std::size_t b, std::size_t e) {
+        Worker& wk = workers[w];
+        wk.out.clear();
+        // The slice's stressed obligors are solved together (solve_asset_batch).
+        wk.effects.resize(e - b);
+        if (wk.stressed.size() < e - b) wk.stressed.resize(e - b);
+        for (std::size_t i = c0 + b; i < c0 + e; ++i)
+          wk.effects[i - c0 - b] = sc.effect_for(book.obligors[i]);
+        stress_obligors(base.data() + c0 + b, wk.effects.data(), e - b, settings, run.sensitivities,
+                        wk.stressed.data());
+        for (std::size_t i = c0 + b; i < c0 + e; ++i) {
+          const StressedObligor& st = wk.stressed[i - c0 - b];
+          status[i] = st.status;
+          shocked[i] = st.shocked() ? 1 : 0;
+          pd_stressed[i] = st.status == StressStatus::ok ? st.measures.pd : std::nan("");
+          if (rows) writer->row(sc, book.obligors[i], base[i], st, i == 0, wk.out);
+        }
+      });
+      for (unsigned w = 0; w < threads; ++w) {
+        sink(workers[w].out);
+        workers[w].out.clear();
+      }
+    }
+
+    // Summary, sequentially in book order (the same figures whatever the thread count).
+    ScenarioSummary ss;
+    ss.obligors = n;
+    ss.pd_threshold = stress.pd_threshold;
+    double sum_pd = 0.0, sum_pd_s = 0.0, sum_w = 0.0, sum_wpd = 0.0, sum_wpd_s = 0.0;
+    for (std::size_t i = 0; i < n; ++i) {
+      if (status[i] != StressStatus::ok) {
+        ++ss.failed;
+        if (base[i].status == RowStatus::ok) {
+          // A failure caused by the scenario: list it (base failures are listed once above). The
+          // message is rebuilt here, only for the listed few.
+          if (sum.problems.size() < run.max_listed_problems) {
+            StressedObligor again;
+            stress_obligor(base[i], sc.effect_for(book.obligors[i]), settings, false, again);
+            sum.problems.push_back(
+                problem_text(book, book.obligors[i], "scenario '" + sc.name + "': " + again.message));
+          } else {
+            ++sum.problems_not_listed;
+          }
+        }
+        continue;
+      }
+      ++ss.compared;
+      if (shocked[i]) ++ss.shocked;
+      const double p0 = base[i].measures.pd;
+      const double p1 = pd_stressed[i];
+      sum_pd += p0;
+      sum_pd_s += p1;
+      if (p0 > stress.pd_threshold) ++ss.above_threshold;
+      if (p1 > stress.pd_threshold) ++ss.above_threshold_stressed;
+      if (p0 <= stress.pd_threshold && p1 > stress.pd_threshold) ++ss.newly_above_threshold;
+      const ResolvedObligor& r = base[i].resolved;
+      if (r.has_ead) {
+        ++ss.with_ead;
+        sum_w += r.ead;
+        sum_wpd += r.ead * p0;
+        sum_wpd_s += r.ead * p1;
+        ss.expected_loss += p0 * r.lgd * r.ead;
+        ss.expected_loss_stressed += p1 * r.lgd * r.ead;
+      }
+    }
+    const double nan = std::nan("");
+    ss.mean_pd = ss.compared > 0 ? sum_pd / static_cast<double>(ss.compared) : nan;
+    ss.mean_pd_stressed = ss.compared > 0 ? sum_pd_s / static_cast<double>(ss.compared) : nan;
+    ss.ead_total = sum_w;
+    ss.ead_weighted_pd = sum_w > 0.0 ? sum_wpd / sum_w : nan;
+    ss.ead_weighted_pd_stressed = sum_w > 0.0 ? sum_wpd_s / sum_w : nan;
+    sum.rows += n;
+    sum.failed_rows += ss.failed;
+    if (keep_grid && sc.grid_row >= 0) {
+      const std::size_t cells = static_cast<std::size_t>(grid_rows * grid_columns);
+      const std::size_t cell = static_cast<std::size_t>(sc.grid_row * grid_columns + sc.grid_column);
+      for (std::size_t i = 0; i < n; ++i) sum.grid.pd[i * cells + cell] = pd_stressed[i];
+    }
+    {
+      std::string s;
+      writer->scenario_end(sc, ss, s);
+      sink(s);
+    }
+    sum.scenarios.push_back(ss);
+  }
+  if (keep_grid) {
+    sum.grid.base_pd.assign(n, std::nan(""));
+    for (std::size_t i = 0; i < n; ++i) {
+      if (base[i].status == RowStatus::ok) sum.grid.base_pd[i] = base[i].measures.pd;
+    }
+  }
+  std::string s;
+  writer->end(sum, scenarios, book, s);
+  sink(s);
+  return sum;
+}
+
+void reverse_stress_obligor(const ScoredObligor& base, double target_pd, const ReverseStressOptions& options,
+                            ReverseStressRow& out) {
+  out.status = base.status;
+  out.message = base.message;
+  out.equity_fall = ReverseResult{};
+  out.vol_multiplier = ReverseResult{};
+  out.pd = base.status == RowStatus::ok ? base.measures.pd : std::nan("");
+  if (base.status != RowStatus::ok) return;
+  out.equity_fall = reverse_equity_fall(base.resolved.inputs, target_pd, options);
+  out.vol_multiplier = reverse_vol_multiplier(base.resolved.inputs, target_pd, options);
+  const bool fall_failed = out.equity_fall.status == ReverseStatus::not_converged;
+  const bool vol_failed = out.vol_multiplier.status == ReverseStatus::not_converged;
+  if (fall_failed || vol_failed) {
+    out.message = std::string("reverse stress: a solve on the ") +
+                  (fall_failed ? "equity-fall" : "volatility-multiplier") + " path did not converge";
+  }
+}
+
+ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, const ScoreSettings& settings,
+                                        const StressRunOptions& run, const TextSink& sink,
+                                        const ReverseStressOptions& options) {
+  const std::size_t n = book.obligors.size();
+  const unsigned threads = std::max(1U, run.threads);
+  ReverseStressSummary sum;
+  sum.obligors = n;
+  sum.notes = book.notes;
+  const std::vector<ScoredObligor> base =
+      score_base(book, settings, threads, run.max_listed_problems, sum.base_ok, sum.base_invalid,
+                 sum.base_not_converged, sum.problems, sum.problems_not_listed);
+  detail::StressRunInfo info{book.origin, "", settings, StressSettings{}, false, n, 0};
+  const auto writer = detail::make_reverse_stress_writer(run.format, info, target_pd, options);
+  {
+    std::string s;
+    writer->begin(s);
+    sink(s);
+  }
+  struct Worker {
+    std::string out;
+    ReverseStressRow row;
+  };
+  std::vector<Worker> workers(threads);
+  std::vector<std::uint8_t> failed(n);
+  const std::size_t chunk = std::max<std::size_t>(run.chunk_obligors, 1);
+  for (std::size_t c0 = 0; c0 < n; c0 += chunk) {
+    const std::size_t c1 = std::min(n, c0 + chunk);
+    parallel_slices(c1 - c0, threads, [&](unsigned w, std::size_t b, std::size_t e) {
+      Worker& wk = workers[w];
+      wk.out.clear();
+      for (std::size_t i = c0 + b; i < c0 + e; ++i) {
+        reverse_stress_obligor(base[i], target_pd, options, wk.row);
+        failed[i] = base[i].status == RowStatus::ok && !wk.row.message.empty() ? 1 : 0;
+        writer->row(book.obligors[i], base[i], wk.row, i == 0, wk.out);
+      }
+    });
+    for (unsigned w = 0; w < threads; ++w) {
+      sink(workers[w].out);
+      workers[w].out.clear();
+    }
+  }
+  for (std::size_t i = 0; i < n; ++i) {
+    if (!failed[i]) continue;
+    ++sum.search_failed;
+    if (sum.problems.size() < run.max_listed_problems) {
+      sum.problems.push_back(
+          problem_text(book, book.obligors[i], "reverse stress: a solve on the path did not converge"));
+    } else {
+      ++sum.problems_not_listed;
+    }
+  }
+  std::string s;
+  writer->end(sum, s);
+  sink(s);
+  return sum;
+}
+
+}  // namespace firmcall

@@ -1,0 +1,768 @@
+// Writers of the stress and reverse-stress outputs. See src/stress_output.hpp.
+#include "engine/stress_output.hpp"
+
+#include <array>
+#include <charconv>
+#include <cmath>
+#include <cstdio>
+
+#include "firmcall/engine/score_output.hpp"
+
+namespace firmcall {
+
+const std::vector<std::string_view>& stress_columns() {
+  static const std::vector<std::string_view> cols = {"scenario",
+                                                     "id",
+                                                     "name",
+                                                     "status",
+                                                     "shocked",
+                                                     "equity_value",
+                                                     "equity_value_stressed",
+                                                     "equity_vol",
+                                                     "equity_vol_stressed",
+                                                     "default_point",
+                                                     "default_point_stressed",
+                                                     "rate",
+                                                     "rate_stressed",
+                                                     "horizon",
+                                                     "horizon_stressed",
+                                                     "asset_value",
+                                                     "asset_value_stressed",
+                                                     "asset_vol",
+                                                     "asset_vol_stressed",
+                                                     "distance_to_default",
+                                                     "distance_to_default_stressed",
+                                                     "distance_to_default_change",
+                                                     "pd",
+                                                     "pd_stressed",
+                                                     "pd_change",
+                                                     "spread_bp",
+                                                     "spread_bp_stressed",
+                                                     "spread_bp_change",
+                                                     "ead",
+                                                     "lgd",
+                                                     "expected_loss",
+                                                     "expected_loss_stressed",
+                                                     "message"};
+  return cols;
+}
+
+const std::vector<std::string_view>& stress_summary_columns() {
+  static const std::vector<std::string_view> cols = {"scenario",
+                                                     "description",
+                                                     "obligors",
+                                                     "compared",
+                                                     "shocked",
+                                                     "failed",
+                                                     "mean_pd",
+                                                     "mean_pd_stressed",
+                                                     "obligors_with_ead",
+                                                     "ead_total",
+                                                     "ead_weighted_pd",
+                                                     "ead_weighted_pd_stressed",
+                                                     "pd_threshold",
+                                                     "above_threshold",
+                                                     "above_threshold_stressed",
+                                                     "newly_above_threshold",
+                                                     "expected_loss",
+                                                     "expected_loss_stressed",
+                                                     "expected_loss_change"};
+  return cols;
+}
+
+const std::vector<std::string_view>& reverse_stress_columns() {
+  static const std::vector<std::string_view> cols = {"id",
+                                                     "name",
+                                                     "status",
+                                                     "pd",
+                                                     "target_pd",
+                                                     "equity_fall",
+                                                     "equity_fall_status",
+                                                     "equity_value_at_target",
+                                                     "pd_at_equity_fall",
+                                                     "equity_vol_multiplier",
+                                                     "equity_vol_multiplier_status",
+                                                     "equity_vol_at_target",
+                                                     "pd_at_equity_vol_multiplier",
+                                                     "message"};
+  return cols;
+}
+
+namespace {
+
+constexpr std::size_t kStressNumbers = 27;  // stress_columns() from equity_value to expected_loss_stressed
+constexpr std::size_t kFirstNumber = 5;
+
+// The numeric cells of one stress row in stress_columns() order; NaN where not available.
+std::array<double, kStressNumbers> stress_numbers(const ScoredObligor& base, const StressedObligor& s) {
+  std::array<double, kStressNumbers> v;
+  v.fill(std::nan(""));
+  const ResolvedObligor& r = base.resolved;
+  if (!r.ok()) return v;
+  const MertonInputs& b = r.inputs;
+  const MertonInputs& x = s.inputs;
+  const double inputs[] = {b.equity_value,  x.equity_value,  b.equity_vol_annual, x.equity_vol_annual,
+                           b.default_point, x.default_point, b.risk_free_rate_cc, x.risk_free_rate_cc,
+                           b.horizon_years, x.horizon_years};
+  for (std::size_t i = 0; i < 10; ++i) v[i] = inputs[i];
+  if (r.has_ead) v[23] = r.ead;
+  v[24] = r.lgd;
+  if (base.status != RowStatus::ok) return v;
+  const MertonMeasures& m0 = base.measures;
+  v[10] = m0.asset_value;
+  v[12] = m0.asset_vol_annual;
+  v[14] = m0.distance_to_default;
+  v[17] = m0.pd;
+  v[20] = m0.spread_bp;
+  if (r.has_ead) v[25] = m0.pd * r.lgd * r.ead;
+  if (s.status != StressStatus::ok) return v;
+  const MertonMeasures& m1 = s.measures;
+  v[11] = m1.asset_value;
+  v[13] = m1.asset_vol_annual;
+  v[15] = m1.distance_to_default;
+  v[16] = m1.distance_to_default - m0.distance_to_default;
+  v[18] = m1.pd;
+  v[19] = m1.pd - m0.pd;
+  v[21] = m1.spread_bp;
+  v[22] = m1.spread_bp - m0.spread_bp;
+  if (r.has_ead) v[26] = m1.pd * r.lgd * r.ead;
+  return v;
+}
+
+// Fixed decimals while readable, scientific for tiny values (e.g. far-tail PDs); "-" for NaN.
+std::string small(double v, int decimals, bool sign = false) {
+  char buf[64];
+  if (!std::isfinite(v)) return "-";
+  if (v == 0.0) {
+    std::snprintf(buf, sizeof buf, sign ? "+0" : "0");
+  } else if (std::fabs(v) >= std::pow(10.0, -decimals + 1) && std::fabs(v) < 1e7) {
+    std::snprintf(buf, sizeof buf, sign ? "%+.*f" : "%.*f", decimals, v);
+  } else {
+    std::snprintf(buf, sizeof buf, sign ? "%+.2e" : "%.2e", v);
+  }
+  return buf;
+}
+
+std::string fixed(double v, int decimals, bool sign = false) {
+  if (!std::isfinite(v)) return "-";
+  char buf[64];
+  std::snprintf(buf, sizeof buf, sign ? "%+.*f" : "%.*f", decimals, v);
+  return buf;
+}
+
+std::string fit(const std::string& s, std::size_t w) {
+  if (s.size() <= w) return s;
+  return s.substr(0, w - 1) + "~";
+}
+
+std::string percent(double fraction) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%g%%", 100.0 * fraction);
+  return buf;
+}
+
+void append_count(std::string& out, std::size_t n) {
+  out += std::to_string(n);
+}
+
+// ---------------------------------------------------------------- stress: CSV
+
+class StressCsvWriter final : public detail::StressWriter {
+ public:
+  explicit StressCsvWriter(const detail::StressRunInfo& info) : info_(info) {}
+  void begin(std::string& out) const override {
+    append_csv_names(out, stress_columns());
+    if (info_.sensitivities) {
+      out.push_back(',');
+      append_csv_names(out, sensitivity_columns());
+    }
+    out.push_back('\n');
+  }
+  void scenario_begin(const Scenario&, std::size_t, std::string&) const override {}
+  void row(const Scenario& sc, const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor& s,
+           bool, std::string& out) const override {
+    append_csv_text(out, sc.name);
+    out.push_back(',');
+    append_csv_text(out, rec.get(TextField::id));
+    out.push_back(',');
+    append_csv_text(out, rec.get(TextField::name));
+    out.push_back(',');
+    out.append(to_string(s.status));
+    out.push_back(',');
+    out.append(s.shocked() ? "true" : "false");
+    for (double x : stress_numbers(base, s)) {
+      out.push_back(',');
+      append_number(out, x);
+    }
+    out.push_back(',');
+    append_csv_text(out, s.message);
+    if (info_.sensitivities) append_sensitivities_csv(out, s.sensitivities, s.status == StressStatus::ok);
+    out.push_back('\n');
+  }
+  void scenario_end(const Scenario&, const ScenarioSummary&, std::string&) const override {}
+  void end(const StressSummary&, const std::vector<Scenario>&, const Book&, std::string&) const override {}
+
+ private:
+  detail::StressRunInfo info_;
+};
+
+// ---------------------------------------------------------------- stress: JSON
+
+void append_summary_json(std::string& out, const ScenarioSummary& s) {
+  out += "{\"obligors\": ";
+  append_count(out, s.obligors);
+  out += ", \"compared\": ";
+  append_count(out, s.compared);
+  out += ", \"shocked\": ";
+  append_count(out, s.shocked);
+  out += ", \"failed\": ";
+  append_count(out, s.failed);
+  out += ", \"mean_pd\": ";
+  append_json_number(out, s.mean_pd);
+  out += ", \"mean_pd_stressed\": ";
+  append_json_number(out, s.mean_pd_stressed);
+  out += ", \"obligors_with_ead\": ";
+  append_count(out, s.with_ead);
+  out += ", \"ead_total\": ";
+  append_json_number(out, s.ead_total);
+  out += ", \"ead_weighted_pd\": ";
+  append_json_number(out, s.ead_weighted_pd);
+  out += ", \"ead_weighted_pd_stressed\": ";
+  append_json_number(out, s.ead_weighted_pd_stressed);
+  out += ", \"pd_threshold\": ";
+  append_json_number(out, s.pd_threshold);
+  out += ", \"above_threshold\": ";
+  append_count(out, s.above_threshold);
+  out += ", \"above_threshold_stressed\": ";
+  append_count(out, s.above_threshold_stressed);
+  out += ", \"newly_above_threshold\": ";
+  append_count(out, s.newly_above_threshold);
+  out += ", \"expected_loss\": ";
+  append_json_number(out, s.expected_loss);
+  out += ", \"expected_loss_stressed\": ";
+  append_json_number(out, s.expected_loss_stressed);
+  out += ", \"expected_loss_change\": ";
+  append_json_number(out, s.expected_loss_stressed - s.expected_loss);
+  out += "}";
+}
+
+class StressJsonWriter final : public detail::StressWriter {
+ public:
+  explicit StressJsonWriter(const detail::StressRunInfo& info) : info_(info) {}
+  void begin(std::string& out) const override {
+    out += "{\n  \"run\": {\"book\": ";
+    append_json_string(out, info_.book_origin);
+    out += ", \"scenarios\": ";
+    append_json_string(out, info_.scenario_origin);
+    out += ", \"measure\": ";
+    append_json_string(out, to_string(info_.settings.measure));
+    out += ", \"default_point_weight\": ";
+    append_json_number(out, info_.settings.weight_override.value_or(info_.settings.default_point_weight));
+    out += ", \"default_lgd\": ";
+    append_json_number(out, info_.settings.default_lgd);
+    out += ", \"pd_threshold\": ";
+    append_json_number(out, info_.stress.pd_threshold);
+    out += "},\n  \"scenarios\": [";
+  }
+  void scenario_begin(const Scenario& sc, std::size_t index, std::string& out) const override {
+    out += index > 0 ? ",\n    {\"name\": " : "\n    {\"name\": ";
+    append_json_string(out, sc.name);
+    out += ", \"description\": ";
+    append_json_string(out, sc.description);
+    out += ",\n     \"obligors\": [\n";
+  }
+  void row(const Scenario&, const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor& s,
+           bool first, std::string& out) const override {
+    const auto& cols = stress_columns();
+    if (!first) out += ",\n";
+    out += "      {\"id\": ";
+    append_json_string(out, rec.get(TextField::id));
+    out += ", \"name\": ";
+    append_json_string(out, rec.get(TextField::name));
+    out += ", \"status\": ";
+    append_json_string(out, to_string(s.status));
+    out += ", \"shocked\": ";
+    out += s.shocked() ? "true" : "false";
+    const auto v = stress_numbers(base, s);
+    for (std::size_t i = 0; i < v.size(); ++i) {
+      out += ", \"";
+      out += cols[kFirstNumber + i];
+      out += "\": ";
+      append_json_number(out, v[i]);
+    }
+    out += ", \"message\": ";
+    append_json_string(out, s.message);
+    if (info_.sensitivities) append_sensitivities_json(out, s.sensitivities, s.status == StressStatus::ok);
+    out += "}";
+  }
+  void scenario_end(const Scenario&, const ScenarioSummary& sum, std::string& out) const override {
+    out += "\n     ],\n     \"summary\": ";
+    append_summary_json(out, sum);
+    out += "}";
+  }
+  void end(const StressSummary& sum, const std::vector<Scenario>&, const Book&,
+           std::string& out) const override {
+    out += "\n  ],\n  \"summary\": {\"obligors\": ";
+    append_count(out, sum.obligors);
+    out += ", \"scored\": ";
+    append_count(out, sum.base_ok);
+    out += ", \"invalid_input\": ";
+    append_count(out, sum.base_invalid);
+    out += ", \"not_converged\": ";
+    append_count(out, sum.base_not_converged);
+    out += ", \"rows\": ";
+    append_count(out, sum.rows);
+    out += ", \"failed_rows\": ";
+    append_count(out, sum.failed_rows);
+    out += "}\n}\n";
+  }
+
+ private:
+  detail::StressRunInfo info_;
+};
+
+// ---------------------------------------------------------------- stress: table
+
+// Obligor rows: 120 columns at most.
+constexpr const char* kRowFormat = "%-10s %-12s %6s %6s %6s %9s %9s %9s %9s %9s %9s  %s\n";
+
+class StressTableWriter final : public detail::StressWriter {
+ public:
+  explicit StressTableWriter(const detail::StressRunInfo& info) : info_(info) {}
+  void begin(std::string& out) const override {
+    out += "Stress run: book " + info_.book_origin + " (" + std::to_string(info_.obligors) + " obligors), " +
+           std::to_string(info_.scenarios) + " scenarios from " + info_.scenario_origin + "\n";
+    out += "Measure " + std::string(to_string(info_.settings.measure)) + "; PD threshold " +
+           percent(info_.stress.pd_threshold) +
+           "; expected loss = PD x LGD x EAD over obligors with ead (LGD " +
+           percent(info_.settings.default_lgd) + " where none is given)\n";
+  }
+  bool wants_rows(const Scenario& sc) const override { return sc.grid_row < 0; }
+  void scenario_begin(const Scenario& sc, std::size_t index, std::string& out) const override {
+    if (!wants_rows(sc)) return;
+    out +=
+        "\nScenario " + std::to_string(index + 1) + " of " + std::to_string(info_.scenarios) + ": " + sc.name;
+    if (!sc.description.empty()) out += " - " + sc.description;
+    out += "\n";
+    char buf[256];
+    std::snprintf(buf, sizeof buf, kRowFormat, "obligor", "name", "DD", "DD", "DD", "PD %", "PD %", "PD",
+                  "spread", "spread", "spread", "status");
+    out += buf;
+    std::snprintf(buf, sizeof buf, kRowFormat, "", "", "base", "stress", "change", "base", "stressed",
+                  "change pp", "base bp", "stress bp", "change bp", "");
+    out += buf;
+    if (info_.sensitivities) append_sensitivities_table_header(out, 2);
+    out += std::string(118, '-') + "\n";
+  }
+  void row(const Scenario&, const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor& s,
+           bool, std::string& out) const override {
+    char buf[320];
+    const std::string id = fit(rec.get(TextField::id), 10);
+    const std::string name = fit(rec.get(TextField::name), 12);
+    const bool b = base.status == RowStatus::ok;
+    const bool x = s.status == StressStatus::ok;
+    const MertonMeasures& m0 = base.measures;
+    const MertonMeasures& m1 = s.measures;
+    const double nan = std::nan("");
+    const std::string status = x && !s.shocked() ? "no shock" : std::string(to_string(s.status));
+    std::snprintf(buf, sizeof buf, kRowFormat, id.c_str(), name.c_str(),
+                  fixed(b ? m0.distance_to_default : nan, 2).c_str(),
+                  fixed(x ? m1.distance_to_default : nan, 2).c_str(),
+                  fixed(x ? m1.distance_to_default - m0.distance_to_default : nan, 2, true).c_str(),
+                  small(b ? 100.0 * m0.pd : nan, 4).c_str(), small(x ? 100.0 * m1.pd : nan, 4).c_str(),
+                  small(x ? 100.0 * (m1.pd - m0.pd) : nan, 4, true).c_str(),
+                  small(b ? m0.spread_bp : nan, 2).c_str(), small(x ? m1.spread_bp : nan, 2).c_str(),
+                  small(x ? m1.spread_bp - m0.spread_bp : nan, 2, true).c_str(), status.c_str());
+    out += buf;
+    if (info_.sensitivities && x) append_sensitivities_table(out, s.sensitivities, 2);
+  }
+  void scenario_end(const Scenario& sc, const ScenarioSummary& s, std::string& out) const override {
+    if (!wants_rows(sc)) return;
+    out += std::string(118, '-') + "\n";
+    char buf[512];
+    std::snprintf(buf, sizeof buf, "  obligors %zu: %zu compared, %zu hit by a shock, %zu failed\n",
+                  s.obligors, s.compared, s.shocked, s.failed);
+    out += buf;
+    std::snprintf(buf, sizeof buf, "  mean PD          %s%% -> %s%%\n", small(100.0 * s.mean_pd, 4).c_str(),
+                  small(100.0 * s.mean_pd_stressed, 4).c_str());
+    out += buf;
+    if (s.with_ead > 0) {
+      std::snprintf(buf, sizeof buf, "  EAD-weighted PD  %s%% -> %s%%   (%zu obligors with ead, total %s)\n",
+                    small(100.0 * s.ead_weighted_pd, 4).c_str(),
+                    small(100.0 * s.ead_weighted_pd_stressed, 4).c_str(), s.with_ead,
+                    small(s.ead_total, 2).c_str());
+    } else {
+      std::snprintf(buf, sizeof buf, "  EAD-weighted PD  - (no obligor gives ead)\n");
+    }
+    out += buf;
+    std::snprintf(buf, sizeof buf, "  PD above %s      %zu -> %zu   (%zu newly above)\n",
+                  percent(s.pd_threshold).c_str(), s.above_threshold, s.above_threshold_stressed,
+                  s.newly_above_threshold);
+    out += buf;
+    if (s.with_ead > 0) {
+      std::snprintf(buf, sizeof buf, "  expected loss    %s -> %s   (change %s)\n",
+                    small(s.expected_loss, 4).c_str(), small(s.expected_loss_stressed, 4).c_str(),
+                    small(s.expected_loss_stressed - s.expected_loss, 4, true).c_str());
+      out += buf;
+    }
+  }
+  void end(const StressSummary& sum, const std::vector<Scenario>& scenarios, const Book& book,
+           std::string& out) const override {
+    if (!sum.grid.empty()) grid(sum, book, out);
+    overview(sum, scenarios, out);
+    out += "rows " + std::to_string(sum.rows) + " (" + std::to_string(sum.obligors) + " obligors x " +
+           std::to_string(sum.scenarios.size()) + " scenarios)";
+    if (sum.failed_rows > 0) out += "; " + std::to_string(sum.failed_rows) + " rows failed (reasons below)";
+    out += "\n";
+    append_table_problems(out, sum.problems, sum.problems_not_listed);
+    out += kTableCaution;
+  }
+
+ private:
+  void grid(const StressSummary& sum, const Book& book, std::string& out) const {
+    const PdGrid& g = sum.grid;
+    const std::size_t rows = g.equity_changes.size();
+    const std::size_t cols = g.vol_multipliers.size();
+    out += "\nPD grid: PD % after an equity change (rows) and an equity-volatility multiplier (columns)\n";
+    char buf[128];
+    for (std::size_t i = 0; i < book.obligors.size(); ++i) {
+      const ObligorRecord& rec = book.obligors[i];
+      out += '\n';
+      out += fit(rec.get(TextField::id), 12);
+      out += "  ";
+      out += fit(rec.get(TextField::name), 30);
+      if (!std::isfinite(g.base_pd[i])) {
+        out += "  (not scored; see below)\n";
+        continue;
+      }
+      out += "  PD as it stands " + small(100.0 * g.base_pd[i], 4) + "%\n";
+      std::snprintf(buf, sizeof buf, "  %8s", "equity");
+      out += buf;
+      for (std::size_t c = 0; c < cols; ++c) {
+        char head[32];
+        std::snprintf(head, sizeof head, "x%g", g.vol_multipliers[c]);
+        std::snprintf(buf, sizeof buf, " %10s", head);
+        out += buf;
+      }
+      out += "\n";
+      for (std::size_t r = 0; r < rows; ++r) {
+        char head[32];
+        std::snprintf(head, sizeof head, "%+g%%", 100.0 * g.equity_changes[r]);
+        std::snprintf(buf, sizeof buf, "  %8s", head);
+        out += buf;
+        for (std::size_t c = 0; c < cols; ++c) {
+          std::snprintf(buf, sizeof buf, " %10s", small(100.0 * g.pd[(i * rows + r) * cols + c], 4).c_str());
+          out += buf;
+        }
+        out += "\n";
+      }
+    }
+  }
+
+  void overview(const StressSummary& sum, const std::vector<Scenario>& scenarios, std::string& out) const {
+    const std::string thr = percent(info_.stress.pd_threshold);
+    out += "\nScenario summary (PD threshold " + thr + "; expected loss over obligors with ead)\n";
+    char buf[320];
+    const char* fmt = "%-24s %8s  %9s %9s  %9s %9s  %5s %5s  %11s %11s\n";
+    std::snprintf(buf, sizeof buf, "%-24s %8s  %19s  %19s  %11s  %23s\n", "scenario", "compared", "mean PD %",
+                  "EAD-weighted PD %", ("PD > " + thr).c_str(), "expected loss");
+    out += buf;
+    std::snprintf(buf, sizeof buf, fmt, "", "", "base", "stressed", "base", "stressed", "base", "str.",
+                  "base", "stressed");
+    out += buf;
+    out += std::string(110, '-') + "\n";
+    for (std::size_t i = 0; i < sum.scenarios.size(); ++i) {
+      const ScenarioSummary& s = sum.scenarios[i];
+      const bool ead = s.with_ead > 0;
+      std::snprintf(
+          buf, sizeof buf, fmt, fit(scenarios[i].name, 24).c_str(), std::to_string(s.compared).c_str(),
+          small(100.0 * s.mean_pd, 4).c_str(), small(100.0 * s.mean_pd_stressed, 4).c_str(),
+          ead ? small(100.0 * s.ead_weighted_pd, 4).c_str() : "-",
+          ead ? small(100.0 * s.ead_weighted_pd_stressed, 4).c_str() : "-",
+          std::to_string(s.above_threshold).c_str(), std::to_string(s.above_threshold_stressed).c_str(),
+          ead ? small(s.expected_loss, 4).c_str() : "-",
+          ead ? small(s.expected_loss_stressed, 4).c_str() : "-");
+      out += buf;
+    }
+    out += std::string(110, '-') + "\n";
+  }
+
+  detail::StressRunInfo info_;
+};
+
+// ---------------------------------------------------------------- reverse stress
+
+// Numeric cells after `status`: pd, target_pd, then per search (shock, value at target, PD at shock).
+struct ReverseCells {
+  double pd, target, fall, equity_at, pd_fall, mult, vol_at, pd_mult;
+};
+
+ReverseCells reverse_cells(const ScoredObligor& base, const ReverseStressRow& r, double target) {
+  const double nan = std::nan("");
+  ReverseCells c{nan, target, nan, nan, nan, nan, nan, nan};
+  if (base.status != RowStatus::ok) return c;
+  c.pd = r.pd;
+  const MertonInputs& in = base.resolved.inputs;
+  const auto usable = [](ReverseStatus s) {
+    return s == ReverseStatus::found || s == ReverseStatus::already_reached;
+  };
+  if (usable(r.equity_fall.status)) {
+    c.fall = r.equity_fall.shock;
+    c.equity_at = in.equity_value * (1.0 + -r.equity_fall.shock);
+    c.pd_fall = r.equity_fall.pd_at_shock;
+  }
+  if (usable(r.vol_multiplier.status)) {
+    c.mult = r.vol_multiplier.shock;
+    c.vol_at = in.equity_vol_annual * r.vol_multiplier.shock;
+    c.pd_mult = r.vol_multiplier.pd_at_shock;
+  }
+  return c;
+}
+
+std::string_view search_status(const ScoredObligor& base, const ReverseResult& r) {
+  return base.status == RowStatus::ok ? to_string(r.status) : std::string_view();
+}
+
+class ReverseCsvWriter final : public detail::ReverseStressWriter {
+ public:
+  explicit ReverseCsvWriter(double target) : target_(target) {}
+  void begin(std::string& out) const override {
+    append_csv_names(out, reverse_stress_columns());
+    out.push_back('\n');
+  }
+  void row(const ObligorRecord& rec, const ScoredObligor& base, const ReverseStressRow& r, bool,
+           std::string& out) const override {
+    const ReverseCells c = reverse_cells(base, r, target_);
+    append_csv_text(out, rec.get(TextField::id));
+    out.push_back(',');
+    append_csv_text(out, rec.get(TextField::name));
+    out.push_back(',');
+    out.append(to_string(r.status));
+    for (double x : {c.pd, c.target, c.fall}) {
+      out.push_back(',');
+      append_number(out, x);
+    }
+    out.push_back(',');
+    out.append(search_status(base, r.equity_fall));
+    for (double x : {c.equity_at, c.pd_fall, c.mult}) {
+      out.push_back(',');
+      append_number(out, x);
+    }
+    out.push_back(',');
+    out.append(search_status(base, r.vol_multiplier));
+    for (double x : {c.vol_at, c.pd_mult}) {
+      out.push_back(',');
+      append_number(out, x);
+    }
+    out.push_back(',');
+    append_csv_text(out, r.message);
+    out.push_back('\n');
+  }
+  void end(const ReverseStressSummary&, std::string&) const override {}
+
+ private:
+  double target_;
+};
+
+class ReverseJsonWriter final : public detail::ReverseStressWriter {
+ public:
+  ReverseJsonWriter(const detail::StressRunInfo& info, double target, const ReverseStressOptions& options)
+      : info_(info), target_(target), options_(options) {}
+  void begin(std::string& out) const override {
+    out += "{\n  \"run\": {\"book\": ";
+    append_json_string(out, info_.book_origin);
+    out += ", \"measure\": ";
+    append_json_string(out, to_string(info_.settings.measure));
+    out += ", \"target_pd\": ";
+    append_json_number(out, target_);
+    out += ", \"max_equity_fall\": ";
+    append_json_number(out, options_.max_equity_fall);
+    out += ", \"max_equity_vol_multiplier\": ";
+    append_json_number(out, options_.max_vol_multiplier);
+    out += "},\n  \"obligors\": [\n";
+  }
+  void row(const ObligorRecord& rec, const ScoredObligor& base, const ReverseStressRow& r, bool first,
+           std::string& out) const override {
+    const ReverseCells c = reverse_cells(base, r, target_);
+    const bool ok = base.status == RowStatus::ok;
+    if (!first) out += ",\n";
+    out += "    {\"id\": ";
+    append_json_string(out, rec.get(TextField::id));
+    out += ", \"name\": ";
+    append_json_string(out, rec.get(TextField::name));
+    out += ", \"status\": ";
+    append_json_string(out, to_string(r.status));
+    out += ", \"pd\": ";
+    append_json_number(out, c.pd);
+    out += ", \"target_pd\": ";
+    append_json_number(out, c.target);
+    out += ", \"equity_fall\": ";
+    append_json_number(out, c.fall);
+    // A search status exists only when the obligor is ok as it stands.
+    const auto status_or_null = [&](auto status) {
+      if (ok) {
+        append_json_string(out, to_string(status));
+      } else {
+        out += "null";
+      }
+    };
+    out += ", \"equity_fall_status\": ";
+    status_or_null(r.equity_fall.status);
+    out += ", \"equity_value_at_target\": ";
+    append_json_number(out, c.equity_at);
+    out += ", \"pd_at_equity_fall\": ";
+    append_json_number(out, c.pd_fall);
+    out += ", \"equity_vol_multiplier\": ";
+    append_json_number(out, c.mult);
+    out += ", \"equity_vol_multiplier_status\": ";
+    status_or_null(r.vol_multiplier.status);
+    out += ", \"equity_vol_at_target\": ";
+    append_json_number(out, c.vol_at);
+    out += ", \"pd_at_equity_vol_multiplier\": ";
+    append_json_number(out, c.pd_mult);
+    out += ", \"message\": ";
+    append_json_string(out, r.message);
+    out += "}";
+  }
+  void end(const ReverseStressSummary& sum, std::string& out) const override {
+    out += "\n  ],\n  \"summary\": {\"obligors\": " + std::to_string(sum.obligors) +
+           ", \"scored\": " + std::to_string(sum.base_ok) +
+           ", \"invalid_input\": " + std::to_string(sum.base_invalid) +
+           ", \"not_converged\": " + std::to_string(sum.base_not_converged) +
+           ", \"search_failed\": " + std::to_string(sum.search_failed) + "}\n}\n";
+  }
+
+ private:
+  detail::StressRunInfo info_;
+  double target_;
+  ReverseStressOptions options_;
+};
+
+constexpr const char* kReverseFormat = "%-10s %-14s %9s  %8s %12s %-15s  %8s %11s %-15s\n";
+
+class ReverseTableWriter final : public detail::ReverseStressWriter {
+ public:
+  ReverseTableWriter(const detail::StressRunInfo& info, double target, const ReverseStressOptions& options)
+      : info_(info), target_(target), options_(options) {}
+  void begin(std::string& out) const override {
+    char buf[320];
+    std::snprintf(buf, sizeof buf,
+                  "Reverse stress: the shock that moves each obligor's PD to %s, other inputs held\n"
+                  "(equity falls searched up to %s, equity-volatility multipliers up to x%g; book %s)\n",
+                  percent(target_).c_str(), percent(options_.max_equity_fall).c_str(),
+                  options_.max_vol_multiplier, info_.book_origin.c_str());
+    out += buf;
+    std::snprintf(buf, sizeof buf, kReverseFormat, "obligor", "name", "PD as it", "equity", "equity at", "",
+                  "equity", "equity vol", "");
+    out += buf;
+    std::snprintf(buf, sizeof buf, kReverseFormat, "", "", "stands %", "fall %", "target", "search", "vol x",
+                  "at target %", "search");
+    out += buf;
+    out += std::string(111, '-') + "\n";
+  }
+  void row(const ObligorRecord& rec, const ScoredObligor& base, const ReverseStressRow& r, bool,
+           std::string& out) const override {
+    const ReverseCells c = reverse_cells(base, r, target_);
+    char buf[320];
+    const std::string id = fit(rec.get(TextField::id), 10);
+    const std::string name = fit(rec.get(TextField::name), 14);
+    if (base.status != RowStatus::ok) {
+      std::snprintf(buf, sizeof buf, kReverseFormat, id.c_str(), name.c_str(), "-", "-", "-",
+                    std::string(to_string(r.status)).c_str(), "-", "-", "");
+      out += buf;
+      return;
+    }
+    std::snprintf(buf, sizeof buf, kReverseFormat, id.c_str(), name.c_str(), small(100.0 * c.pd, 4).c_str(),
+                  fixed(100.0 * c.fall, 2).c_str(), small(c.equity_at, 2).c_str(),
+                  std::string(to_string(r.equity_fall.status)).c_str(), fixed(c.mult, 3).c_str(),
+                  fixed(100.0 * c.vol_at, 2).c_str(),
+                  std::string(to_string(r.vol_multiplier.status)).c_str());
+    out += buf;
+  }
+  void end(const ReverseStressSummary& sum, std::string& out) const override {
+    out += std::string(111, '-') + "\n";
+    out += "scored " + std::to_string(sum.base_ok) + " of " + std::to_string(sum.obligors) + " obligors";
+    if (sum.failed() > 0) {
+      out += "; " + std::to_string(sum.base_invalid) + " invalid input, " +
+             std::to_string(sum.base_not_converged) + " not converged, " + std::to_string(sum.search_failed) +
+             " searches failed (reasons below)";
+    }
+    out += "\n";
+    append_table_problems(out, sum.problems, sum.problems_not_listed);
+    out += kTableCaution;
+  }
+
+ private:
+  detail::StressRunInfo info_;
+  double target_;
+  ReverseStressOptions options_;
+};
+
+}  // namespace
+
+std::string scenario_summary_csv(const StressSummary& summary, const std::vector<Scenario>& scenarios) {
+  std::string out;
+  append_csv_names(out, stress_summary_columns());
+  out.push_back('\n');
+  for (std::size_t i = 0; i < summary.scenarios.size() && i < scenarios.size(); ++i) {
+    const ScenarioSummary& s = summary.scenarios[i];
+    append_csv_text(out, scenarios[i].name);
+    out.push_back(',');
+    append_csv_text(out, scenarios[i].description);
+    for (std::size_t n : {s.obligors, s.compared, s.shocked, s.failed}) {
+      out.push_back(',');
+      append_count(out, n);
+    }
+    for (double x : {s.mean_pd, s.mean_pd_stressed}) {
+      out.push_back(',');
+      append_number(out, x);
+    }
+    out.push_back(',');
+    append_count(out, s.with_ead);
+    for (double x : {s.ead_total, s.ead_weighted_pd, s.ead_weighted_pd_stressed, s.pd_threshold}) {
+      out.push_back(',');
+      append_number(out, x);
+    }
+    for (std::size_t n : {s.above_threshold, s.above_threshold_stressed, s.newly_above_threshold}) {
+      out.push_back(',');
+      append_count(out, n);
+    }
+    for (double x : {s.expected_loss, s.expected_loss_stressed, s.expected_loss_stressed - s.expected_loss}) {
+      out.push_back(',');
+      append_number(out, x);
+    }
+    out.push_back('\n');
+  }
+  return out;
+}
+
+namespace detail {
+
+std::unique_ptr<StressWriter> make_stress_writer(OutputFormat format, const StressRunInfo& info) {
+  switch (format) {
+    case OutputFormat::csv:
+      return std::make_unique<StressCsvWriter>(info);
+    case OutputFormat::json:
+      return std::make_unique<StressJsonWriter>(info);
+    case OutputFormat::table:
+      return std::make_unique<StressTableWriter>(info);
+  }
+  return std::make_unique<StressCsvWriter>(info);
+}
+
+std::unique_ptr<ReverseStressWriter> make_reverse_stress_writer(OutputFormat format,
+                                                                const StressRunInfo& info, double target_pd,
+                                                                const ReverseStressOptions& options) {
+  switch (format) {
+    case OutputFormat::csv:
+      return std::make_unique<ReverseCsvWriter>(target_pd);
+    case OutputFormat::json:
+      return std::make_unique<ReverseJsonWriter>(info, target_pd, options);
+    case OutputFormat::table:
+      return std::make_unique<ReverseTableWriter>(info, target_pd, options);
+  }
+  return std::make_unique<ReverseCsvWriter>(target_pd);
+}
+
+}  // namespace detail
+}  // namespace firmcall

@@ -1,0 +1,498 @@
+// Reading equity histories and balance sheets. See include/firmcall/history_io.hpp.
+#include "firmcall/io/history_io.hpp"
+
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <limits>
+#include <memory>
+
+#include "firmcall/book/errors.hpp"
+#include "firmcall/io/csv.hpp"
+
+namespace firmcall {
+
+namespace {
+
+std::string quoted(std::string_view cell) {
+  std::string s = "'";
+  s += cell.substr(0, 40);
+  if (cell.size() > 40) s += "...";
+  s += "'";
+  return s;
+}
+
+struct FileCloser {
+  void operator()(std::FILE* f) const { std::fclose(f); }
+};
+
+std::string read_file(const std::string& path) {
+  std::unique_ptr<std::FILE, FileCloser> f(std::fopen(path.c_str(), "rb"));
+  if (!f) throw InputError("cannot open file '" + path + "'");
+  std::string text;
+  if (std::fseek(f.get(), 0, SEEK_END) == 0) {
+    const long size = std::ftell(f.get());
+    if (size > 0) text.reserve(static_cast<std::size_t>(size));
+    std::fseek(f.get(), 0, SEEK_SET);
+  }
+  char buf[1 << 16];
+  std::size_t got;
+  while ((got = std::fread(buf, 1, sizeof buf, f.get())) > 0) text.append(buf, got);
+  if (std::ferror(f.get())) throw InputError("cannot read file '" + path + "'");
+  return text;
+}
+
+// Walks the records of a CSV text with their first line numbers; skips a byte-order mark and
+// blank records. A quote that never closes is a file error.
+class CsvCursor {
+ public:
+  CsvCursor(std::string_view text, const std::string& origin) : rest_(text), origin_(origin) {
+    if (rest_.substr(0, 3) == "\xEF\xBB\xBF") rest_.remove_prefix(3);
+  }
+  bool next(std::vector<std::string_view>& fields, std::size_t& line) {
+    while (!rest_.empty()) {
+      bool unterminated = false;
+      const std::size_t used = split_csv_record(rest_, fields, scratch_, unterminated);
+      line = line_;
+      const std::string_view raw = rest_.substr(0, used);
+      line_ += raw.size() > 0 && raw.find('\n') == raw.size() - 1 ? 1 : count_lines(raw);
+      rest_.remove_prefix(used);
+      if (unterminated) throw InputError(located(origin_, line, "a quoted field is never closed"));
+      if (fields.size() == 1 && trim_blanks(fields[0]).empty()) continue;  // blank line
+      return true;
+    }
+    return false;
+  }
+
+ private:
+  std::string_view rest_;
+  const std::string& origin_;
+  std::string scratch_;
+  std::size_t line_ = 1;
+};
+
+// Column positions of a header, by the names a reader knows; unknown names become notes.
+struct Header {
+  std::vector<int> at;  // per known name: column index or -1
+  std::size_t width = 0;
+  bool has(std::size_t k) const { return at[k] >= 0; }
+};
+
+Header map_header(const std::vector<std::string_view>& fields, std::initializer_list<std::string_view> known,
+                  const std::string& origin, std::size_t line, std::vector<std::string>& notes) {
+  Header h;
+  h.at.assign(known.size(), -1);
+  h.width = fields.size();
+  for (std::size_t i = 0; i < fields.size(); ++i) {
+    const std::string_view name = trim_blanks(fields[i]);
+    if (name.empty()) {
+      throw InputError(located(origin, line, "header: column " + std::to_string(i + 1) + " has no name"));
+    }
+    const auto it = std::find(known.begin(), known.end(), name);
+    if (it == known.end()) {
+      notes.push_back(located(origin, line, "note: column '" + std::string(name) + "' is not used"));
+      continue;
+    }
+    int& slot = h.at[static_cast<std::size_t>(it - known.begin())];
+    if (slot >= 0) {
+      throw InputError(located(origin, line, "header: column '" + std::string(name) + "' appears twice"));
+    }
+    slot = static_cast<int>(i);
+  }
+  return h;
+}
+
+void require_column(const Header& h, std::size_t k, std::string_view name, const std::string& origin,
+                    std::size_t line) {
+  if (!h.has(k)) {
+    throw InputError(located(origin, line, "header: required column '" + std::string(name) + "' is missing"));
+  }
+}
+
+void add_problem(LocatedProblem& error, std::size_t& more, std::size_t line, std::string text) {
+  if (error.empty()) {
+    error = {line, std::move(text)};
+  } else {
+    ++more;
+  }
+}
+
+// A number cell: absent when empty; the problem text when it does not parse.
+enum class Cell { absent, ok, bad };
+Cell read_number(std::string_view cell, double& v) {
+  cell = trim_blanks(cell);
+  if (cell.empty()) return Cell::absent;
+  return parse_number(cell, v) ? Cell::ok : Cell::bad;
+}
+
+std::string not_a_number(std::string_view field, std::string_view cell) {
+  return "field '" + std::string(field) + "': expected a decimal number such as 24.5, got " +
+         quoted(trim_blanks(cell));
+}
+
+std::string not_a_date(std::string_view field, std::string_view cell) {
+  return "field '" + std::string(field) + "': expected an ISO 8601 date such as 2026-03-31, got " +
+         quoted(trim_blanks(cell));
+}
+
+std::string not_positive(std::string_view field, std::string_view cell) {
+  return "field '" + std::string(field) + "': must be positive, got " + quoted(trim_blanks(cell));
+}
+
+}  // namespace
+
+std::optional<std::int32_t> parse_iso_date(std::string_view s) noexcept {
+  s = trim_blanks(s);
+  if (s.size() != 10 || s[4] != '-' || s[7] != '-') return std::nullopt;
+  int parts[3] = {0, 0, 0};
+  const std::size_t starts[3] = {0, 5, 8};
+  const std::size_t lens[3] = {4, 2, 2};
+  for (int p = 0; p < 3; ++p) {
+    for (std::size_t i = 0; i < lens[p]; ++i) {
+      const char c = s[starts[p] + i];
+      if (c < '0' || c > '9') return std::nullopt;
+      parts[p] = parts[p] * 10 + (c - '0');
+    }
+  }
+  if (parts[0] < 1000) return std::nullopt;
+  const std::chrono::year_month_day ymd{std::chrono::year{parts[0]},
+                                        std::chrono::month{static_cast<unsigned>(parts[1])},
+                                        std::chrono::day{static_cast<unsigned>(parts[2])}};
+  if (!ymd.ok()) return std::nullopt;
+  return static_cast<std::int32_t>(std::chrono::sys_days{ymd}.time_since_epoch().count());
+}
+
+std::string format_iso_date(std::int32_t days) {
+  const std::chrono::year_month_day ymd{std::chrono::sys_days{std::chrono::days{days}}};
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%04d-%02u-%02u", static_cast<int>(ymd.year()),
+                static_cast<unsigned>(ymd.month()), static_cast<unsigned>(ymd.day()));
+  return buf;
+}
+
+const ObligorEquityHistory* EquityHistory::find(std::string_view id) const {
+  const auto it = index.find(id);
+  return it == index.end() ? nullptr : &obligors[it->second];
+}
+
+const ObligorBalanceSheets* BalanceSheets::find(std::string_view id) const {
+  const auto it = by_id.find(id);
+  return it == by_id.end() ? nullptr : &it->second;
+}
+
+EquityHistory parse_equity_history(std::string_view text, const std::string& origin) {
+  EquityHistory h;
+  h.origin = origin;
+  CsvCursor cursor(text, origin);
+  std::vector<std::string_view> fields;
+  std::size_t line = 0;
+  if (!cursor.next(fields, line))
+    throw InputError(located(origin, 0, "empty file: a header row is required"));
+  enum : std::size_t { kDate, kId, kMarketCap, kClose, kShares };
+  const Header hdr =
+      map_header(fields, {"date", "id", "market_cap", "close", "shares_outstanding"}, origin, line, h.notes);
+  require_column(hdr, kDate, "date", origin, line);
+  require_column(hdr, kId, "id", origin, line);
+  if (!hdr.has(kMarketCap) && !(hdr.has(kClose) && hdr.has(kShares))) {
+    throw InputError(located(origin, line,
+                             "header: required column 'market_cap' (or 'close' with 'shares_outstanding') "
+                             "is missing"));
+  }
+  const auto col = [&](std::size_t k) { return static_cast<std::size_t>(hdr.at[k]); };
+
+  struct Pending {
+    std::size_t empty_rows = 0;
+    std::size_t first_empty_line = 0;
+  };
+  std::vector<Pending> pending;
+  // Rows go to one array first (sized from the line count), then to exact-size per-obligor arrays.
+  struct ParsedRow {
+    std::uint32_t obligor;
+    std::int32_t date;
+    std::uint32_t line;
+    double equity_value;
+  };
+  std::vector<ParsedRow> parsed;
+  parsed.reserve(count_lines(text) + 1);
+  // Caches: files come grouped by obligor or by date with obligors in a fixed order, so the
+  // next id is usually the last one or the one after it, and the date usually the last one.
+  std::size_t last = static_cast<std::size_t>(-1);
+  std::string last_date_text;  // a copy: a quoted cell may live in reused scratch memory
+  std::int32_t last_date = 0;
+  while (cursor.next(fields, line)) {
+    const std::size_t id_col = col(kId);
+    const std::string_view id = id_col < fields.size() ? trim_blanks(fields[id_col]) : std::string_view{};
+    if (id.empty()) {
+      throw InputError(located(origin, line, "field 'id': missing (every row needs an obligor id)"));
+    }
+    if (last != static_cast<std::size_t>(-1) && h.obligors[last].id == id) {
+      // same obligor as the last row
+    } else if (last + 1 < h.obligors.size() && h.obligors[last + 1].id == id) {
+      ++last;
+    } else if (last != static_cast<std::size_t>(-1) && !h.obligors.empty() && h.obligors[0].id == id) {
+      last = 0;
+    } else {
+      const auto it = h.index.find(id);
+      if (it != h.index.end()) {
+        last = it->second;
+      } else {
+        last = h.obligors.size();
+        h.index.emplace(std::string(id), last);
+        h.obligors.emplace_back().id = std::string(id);
+        pending.emplace_back();
+      }
+    }
+    ObligorEquityHistory& ob = h.obligors[last];
+    const auto problem = [&](std::string t) { add_problem(ob.error, ob.more_problems, line, std::move(t)); };
+    if (fields.size() != hdr.width) {
+      problem("row has " + std::to_string(fields.size()) + " fields, the header has " +
+              std::to_string(hdr.width));
+      continue;
+    }
+    const std::string_view date_text = fields[col(kDate)];
+    std::optional<std::int32_t> date;
+    if (!last_date_text.empty() && date_text == last_date_text) {
+      date = last_date;
+    } else {
+      date = parse_iso_date(date_text);
+      if (!date) {
+        problem(not_a_date("date", date_text));
+        continue;
+      }
+      last_date_text.assign(date_text);
+      last_date = *date;
+    }
+    double e = 0.0;
+    Cell mc = Cell::absent;
+    if (hdr.has(kMarketCap)) {
+      mc = read_number(fields[col(kMarketCap)], e);
+      if (mc == Cell::bad) {
+        problem(not_a_number("market_cap", fields[col(kMarketCap)]));
+        continue;
+      }
+      if (mc == Cell::ok && !(e > 0.0)) {
+        problem(not_positive("market_cap", fields[col(kMarketCap)]));
+        continue;
+      }
+    }
+    if (mc == Cell::absent && hdr.has(kClose) && hdr.has(kShares)) {
+      double price = 0.0;
+      double shares = 0.0;
+      const Cell cp = read_number(fields[col(kClose)], price);
+      const Cell cs = read_number(fields[col(kShares)], shares);
+      if (cp == Cell::bad) {
+        problem(not_a_number("close", fields[col(kClose)]));
+        continue;
+      }
+      if (cs == Cell::bad) {
+        problem(not_a_number("shares_outstanding", fields[col(kShares)]));
+        continue;
+      }
+      if (cp == Cell::ok && !(price > 0.0)) {
+        problem(not_positive("close", fields[col(kClose)]));
+        continue;
+      }
+      if (cs == Cell::ok && !(shares > 0.0)) {
+        problem(not_positive("shares_outstanding", fields[col(kShares)]));
+        continue;
+      }
+      if (cp == Cell::ok && cs == Cell::absent) {
+        problem("field 'shares_outstanding': missing (needed with close when market_cap is empty)");
+        continue;
+      }
+      if (cp == Cell::absent && cs == Cell::ok) {
+        problem("field 'close': missing (needed with shares_outstanding when market_cap is empty)");
+        continue;
+      }
+      if (cp == Cell::ok) {
+        e = price * shares;
+        mc = Cell::ok;
+        if (!std::isfinite(e)) {
+          problem("field 'close': close x shares_outstanding overflows");
+          continue;
+        }
+      }
+    }
+    if (mc == Cell::absent) {
+      Pending& p = pending[last];
+      if (p.empty_rows++ == 0) p.first_empty_line = line;
+      continue;
+    }
+    parsed.push_back({static_cast<std::uint32_t>(last), *date, static_cast<std::uint32_t>(line), e});
+  }
+  {
+    std::vector<std::size_t> count(h.obligors.size(), 0);
+    for (const ParsedRow& r : parsed) ++count[r.obligor];
+    for (std::size_t i = 0; i < h.obligors.size(); ++i) h.obligors[i].rows.reserve(count[i]);
+    for (const ParsedRow& r : parsed)
+      h.obligors[r.obligor].rows.push_back({r.date, 0, r.line, r.equity_value});
+    std::vector<ParsedRow>().swap(parsed);
+  }
+
+  // Trading calendar: every date in the file.
+  std::int32_t lo = std::numeric_limits<std::int32_t>::max();
+  std::int32_t hi = std::numeric_limits<std::int32_t>::min();
+  for (const auto& ob : h.obligors) {
+    for (const auto& r : ob.rows) {
+      lo = std::min(lo, r.date);
+      hi = std::max(hi, r.date);
+    }
+  }
+  std::vector<std::int32_t> position;
+  if (lo <= hi) {
+    std::vector<char> seen(static_cast<std::size_t>(hi - lo) + 1, 0);
+    for (const auto& ob : h.obligors) {
+      for (const auto& r : ob.rows) seen[static_cast<std::size_t>(r.date - lo)] = 1;
+    }
+    position.assign(seen.size(), -1);
+    for (std::size_t d = 0; d < seen.size(); ++d) {
+      if (seen[d] != 0) {
+        position[d] = static_cast<std::int32_t>(h.calendar.size());
+        h.calendar.push_back(lo + static_cast<std::int32_t>(d));
+      }
+    }
+  }
+
+  for (std::size_t i = 0; i < h.obligors.size(); ++i) {
+    ObligorEquityHistory& ob = h.obligors[i];
+    auto& rows = ob.rows;
+    const auto by_date = [](const EquityRow& a, const EquityRow& b) { return a.date < b.date; };
+    const auto out_of_order = std::is_sorted_until(rows.begin(), rows.end(), by_date);
+    if (out_of_order != rows.end()) {
+      ob.notes.push_back({out_of_order->line, "rows are not in date order: sorted by date"});
+      std::stable_sort(rows.begin(), rows.end(), by_date);
+    }
+    for (std::size_t k = 1; k < rows.size(); ++k) {
+      if (rows[k].date == rows[k - 1].date) {
+        const std::size_t later = std::max(rows[k].line, rows[k - 1].line);
+        const std::size_t earlier = std::min(rows[k].line, rows[k - 1].line);
+        add_problem(ob.error, ob.more_problems, later,
+                    "field 'date': " + format_iso_date(rows[k].date) + " appears twice (also line " +
+                        std::to_string(earlier) + "); a date may appear once per obligor");
+      }
+    }
+    for (auto& r : rows) r.trading_day = position[static_cast<std::size_t>(r.date - lo)];
+    if (pending[i].empty_rows > 0) {
+      ob.notes.push_back(
+          {pending[i].first_empty_line, std::to_string(pending[i].empty_rows) +
+                                            (pending[i].empty_rows == 1 ? " row has" : " rows have") +
+                                            " no equity value: treated as missing days"});
+    }
+    if (ob.usable() && rows.size() >= 2) {
+      const std::int32_t span = rows.back().trading_day - rows.front().trading_day + 1;
+      ob.missing_days = static_cast<std::size_t>(span) - rows.size();
+      if (ob.missing_days > 0) {
+        std::size_t k = 1;
+        while (rows[k].trading_day == rows[k - 1].trading_day + 1) ++k;
+        const std::int32_t first_missing = h.calendar[static_cast<std::size_t>(rows[k - 1].trading_day) + 1];
+        ob.notes.push_back({0, std::to_string(ob.missing_days) +
+                                   " trading days missing between its first and last date (first " +
+                                   format_iso_date(first_missing) +
+                                   "); returns across a gap are taken as multi-day returns"});
+      }
+    }
+  }
+  return h;
+}
+
+EquityHistory load_equity_history(const std::string& path) {
+  return parse_equity_history(read_file(path), path);
+}
+
+BalanceSheets parse_balance_sheets(std::string_view text, const std::string& origin) {
+  BalanceSheets b;
+  b.origin = origin;
+  CsvCursor cursor(text, origin);
+  std::vector<std::string_view> fields;
+  std::size_t line = 0;
+  if (!cursor.next(fields, line))
+    throw InputError(located(origin, 0, "empty file: a header row is required"));
+  enum : std::size_t { kId, kAsOf, kShort, kLong, kDefaultPoint };
+  const Header hdr = map_header(fields, {"id", "as_of", "short_term_debt", "long_term_debt", "default_point"},
+                                origin, line, b.notes);
+  require_column(hdr, kId, "id", origin, line);
+  require_column(hdr, kAsOf, "as_of", origin, line);
+  if (!hdr.has(kDefaultPoint) && !(hdr.has(kShort) && hdr.has(kLong))) {
+    throw InputError(located(origin, line,
+                             "header: required columns 'short_term_debt' and 'long_term_debt' (or "
+                             "'default_point') are missing"));
+  }
+  while (cursor.next(fields, line)) {
+    const std::size_t id_col = static_cast<std::size_t>(hdr.at[kId]);
+    const std::string_view id = id_col < fields.size() ? trim_blanks(fields[id_col]) : std::string_view{};
+    if (id.empty()) {
+      throw InputError(located(origin, line, "field 'id': missing (every row needs an obligor id)"));
+    }
+    auto it = b.by_id.find(id);
+    if (it == b.by_id.end()) {
+      it = b.by_id.emplace(std::string(id), ObligorBalanceSheets{}).first;
+      b.ids.emplace_back(id);
+    }
+    ObligorBalanceSheets& ob = it->second;
+    const auto problem = [&](std::string t) { add_problem(ob.error, ob.more_problems, line, std::move(t)); };
+    if (fields.size() != hdr.width) {
+      problem("row has " + std::to_string(fields.size()) + " fields, the header has " +
+              std::to_string(hdr.width));
+      continue;
+    }
+    BalanceSheet s;
+    s.line = line;
+    const std::string_view as_of = fields[static_cast<std::size_t>(hdr.at[kAsOf])];
+    const std::optional<std::int32_t> date = parse_iso_date(as_of);
+    if (!date) {
+      problem(not_a_date("as_of", as_of));
+      continue;
+    }
+    s.as_of = *date;
+    bool bad = false;
+    const std::pair<std::size_t, std::string_view> number_fields[] = {
+        {kShort, "short_term_debt"}, {kLong, "long_term_debt"}, {kDefaultPoint, "default_point"}};
+    for (const auto& [k, name] : number_fields) {
+      if (!hdr.has(k)) continue;
+      const std::string_view cell = fields[static_cast<std::size_t>(hdr.at[k])];
+      double v = 0.0;
+      const Cell c = read_number(cell, v);
+      if (c == Cell::bad) {
+        problem(not_a_number(name, cell));
+        bad = true;
+        break;
+      }
+      if (c == Cell::absent) continue;
+      if (k == kDefaultPoint ? !(v > 0.0) : v < 0.0) {
+        problem("field '" + std::string(name) + "': must be " +
+                (k == kDefaultPoint ? "positive" : "non-negative") + ", got " + quoted(trim_blanks(cell)));
+        bad = true;
+        break;
+      }
+      (k == kShort ? s.short_term_debt : k == kLong ? s.long_term_debt : s.default_point) = v;
+    }
+    if (bad) continue;
+    if (!s.default_point && !(s.short_term_debt && s.long_term_debt)) {
+      problem(std::string("field '") + (s.short_term_debt ? "long_term_debt" : "short_term_debt") +
+              "': missing (give short_term_debt and long_term_debt, or default_point)");
+      continue;
+    }
+    ob.sheets.push_back(s);
+  }
+  for (auto& [id, ob] : b.by_id) {
+    auto& sheets = ob.sheets;
+    std::stable_sort(sheets.begin(), sheets.end(),
+                     [](const BalanceSheet& x, const BalanceSheet& y) { return x.as_of < y.as_of; });
+    for (std::size_t k = 1; k < sheets.size(); ++k) {
+      if (sheets[k].as_of == sheets[k - 1].as_of) {
+        add_problem(ob.error, ob.more_problems, std::max(sheets[k].line, sheets[k - 1].line),
+                    "field 'as_of': " + format_iso_date(sheets[k].as_of) + " appears twice (also line " +
+                        std::to_string(std::min(sheets[k].line, sheets[k - 1].line)) +
+                        "); one balance sheet per obligor and date");
+      }
+    }
+  }
+  return b;
+}
+
+BalanceSheets load_balance_sheets(const std::string& path) {
+  return parse_balance_sheets(read_file(path), path);
+}
+
+}  // namespace firmcall

@@ -1,0 +1,174 @@
+#include "firmcall/io/obligor_io.hpp"
+
+#include <yaml-cpp/yaml.h>
+
+#include <algorithm>
+#include <string_view>
+#include <unordered_map>
+
+#include "firmcall/book/errors.hpp"
+#include "firmcall/io/csv.hpp"
+#include "io/yaml_util.hpp"
+
+namespace firmcall {
+
+namespace {
+bool ends_with(const std::string& s, std::string_view suffix) {
+  return s.size() >= suffix.size() && s.compare(s.size() - suffix.size(), suffix.size(), suffix) == 0;
+}
+
+void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& rec) {
+  rec.clear();
+  rec.line = line;
+  if (!node.IsMap()) {
+    rec.read_error = "obligor entry is not a map of field: value";
+    return;
+  }
+  std::vector<std::string> seen;
+  for (const auto& kv : node) {
+    const std::string key = kv.first.Scalar();
+    if (std::find(seen.begin(), seen.end(), key) != seen.end()) {
+      if (rec.read_error.empty()) rec.read_error = "field '" + key + "' is given twice";
+      continue;
+    }
+    seen.push_back(key);
+    std::optional<NumField> num;
+    std::optional<TextField> text;
+    if (!field_from_string(key, num, text)) {
+      if (rec.read_error.empty()) {
+        rec.read_error = "unknown field '" + key + "'";
+        const std::string hint = detail::closest_name(key, obligor_field_names());
+        if (!hint.empty()) rec.read_error += " (did you mean '" + hint + "'?)";
+      }
+      continue;
+    }
+    if (!kv.second.IsScalar()) {
+      if (rec.read_error.empty()) rec.read_error = "field '" + key + "': expected a single value";
+      continue;
+    }
+    const std::string& value = kv.second.Scalar();
+    if (text) {
+      rec.get(*text) = value;
+      if (!valid_utf8(value) && rec.read_error.empty()) {
+        rec.read_error = "field '" + key + "': not valid UTF-8 (save the file as UTF-8)";
+      }
+      continue;
+    }
+    if (value.empty() || value == "~" || value == "null") continue;  // left empty: absent
+    double v = 0.0;
+    if (parse_number(value, v)) {
+      rec.set(*num, v);
+    } else if (rec.read_error.empty()) {
+      rec.read_error = "field '" + key + "': expected a finite decimal number such as 0.35, got '" +
+                       value.substr(0, 40) + "'";
+    }
+  }
+}
+}  // namespace
+
+BookFormat book_format_of(const std::string& path) {
+  if (ends_with(path, ".yaml") || ends_with(path, ".yml")) return BookFormat::yaml;
+  if (ends_with(path, ".csv")) return BookFormat::csv;
+  throw InputError("'" + path + "': unknown book format (name it .yaml, .yml or .csv)");
+}
+
+Book parse_yaml_book(const std::string& text, const std::string& origin) {
+  Book book;
+  book.origin = origin;
+  const YAML::Node root = detail::yaml_load(text, origin);
+  if (!root.IsMap()) throw InputError(located(origin, 0, "expected a map with an 'obligors' list"));
+  detail::yaml_check_keys(root, {"book", "as_of", "description", "defaults", "obligors"}, origin, "book");
+  if (root["book"]) book.label = detail::yaml_string(root["book"], origin, "book");
+  if (root["as_of"]) book.as_of = detail::yaml_string(root["as_of"], origin, "as_of");
+  if (const auto d = root["defaults"]) {
+    detail::yaml_check_keys(d, {"rate", "horizon", "drift", "default_point_weight", "lgd"}, origin,
+                            "defaults");
+    if (d["rate"]) book.defaults.rate = detail::yaml_number(d["rate"], origin, "rate");
+    if (d["horizon"]) book.defaults.horizon = detail::yaml_number(d["horizon"], origin, "horizon");
+    if (d["drift"]) book.defaults.drift = detail::yaml_number(d["drift"], origin, "drift");
+    if (d["lgd"]) book.defaults.lgd = detail::yaml_number(d["lgd"], origin, "lgd");
+    if (d["default_point_weight"]) {
+      const double w = detail::yaml_number(d["default_point_weight"], origin, "default_point_weight");
+      if (w < 0.0 || w > 1.0) {
+        throw InputError(located(origin, detail::yaml_line(d["default_point_weight"]),
+                                 "key 'default_point_weight': must lie in [0, 1]"));
+      }
+      book.defaults.default_point_weight = w;
+    }
+  }
+  const YAML::Node list = root["obligors"];
+  if (!list) throw InputError(located(origin, 0, "missing key 'obligors' (the list of obligors)"));
+  if (!list.IsSequence())
+    throw InputError(located(origin, detail::yaml_line(list), "'obligors' must be a list"));
+  book.obligors.resize(list.size());
+  std::size_t i = 0;
+  for (const auto& node : list) {
+    read_yaml_obligor(node, detail::yaml_line(node), book.obligors[i]);
+    ++i;
+  }
+  mark_duplicate_ids(book.obligors);
+  return book;
+}
+
+Book parse_csv_book(const std::string& text, const std::string& origin, BookUse use) {
+  Book book;
+  book.origin = origin;
+  std::string_view rest(text);
+  if (rest.substr(0, 3) == "\xEF\xBB\xBF") rest.remove_prefix(3);
+  std::vector<std::string_view> fields;
+  std::string scratch;
+  bool unterminated = false;
+  // Skip leading blank lines before the header.
+  std::size_t line = 1;
+  while (!rest.empty() && (rest.front() == '\n' || rest.front() == '\r')) {
+    if (rest.front() == '\n') ++line;
+    rest.remove_prefix(1);
+  }
+  if (rest.empty()) throw InputError(located(origin, 0, "empty file: a header row is required"));
+  std::size_t used = split_csv_record(rest, fields, scratch, unterminated);
+  const CsvColumns cols = CsvColumns::from_header(fields, origin, use);
+  for (const auto& u : cols.unused)
+    book.notes.push_back(located(origin, line, "note: column '" + u + "' is not used"));
+  line += count_lines(rest.substr(0, used));
+  rest.remove_prefix(used);
+  while (!rest.empty()) {
+    const std::size_t record_line = line;
+    used = split_csv_record(rest, fields, scratch, unterminated);
+    const std::string_view raw = rest.substr(0, used);
+    line += count_lines(raw);
+    rest.remove_prefix(used);
+    if (fields.size() == 1 && fields[0].find_first_not_of(" \t") == std::string_view::npos)
+      continue;  // blank
+    ObligorRecord& rec = book.obligors.emplace_back();
+    rec.line = record_line;
+    parse_obligor_fields(fields, cols, rec);
+    if (unterminated) rec.read_error = "a quoted field is never closed";
+  }
+  mark_duplicate_ids(book.obligors);
+  return book;
+}
+
+Book load_book(const std::string& path, BookUse use) {
+  const BookFormat fmt = book_format_of(path);
+  const std::string text = detail::read_text_file(path);
+  if (fmt == BookFormat::yaml && text.size() > kMaxYamlBookBytes) {
+    throw InputError("'" + path +
+                     "': a YAML book larger than 8 MiB; YAML is for hand-written books, use CSV");
+  }
+  return fmt == BookFormat::yaml ? parse_yaml_book(text, path) : parse_csv_book(text, path, use);
+}
+
+void mark_duplicate_ids(std::vector<ObligorRecord>& obligors) {
+  std::unordered_map<std::string_view, std::size_t> first;
+  first.reserve(obligors.size());
+  for (auto& rec : obligors) {
+    const std::string& id = rec.get(TextField::id);
+    if (id.empty()) continue;
+    const auto [it, inserted] = first.emplace(id, rec.line);
+    if (!inserted && rec.read_error.empty()) {
+      rec.read_error = "field 'id': duplicate of the obligor at line " + std::to_string(it->second);
+    }
+  }
+}
+
+}  // namespace firmcall

@@ -1,0 +1,417 @@
+// Monte Carlo portfolio losses in the multi-factor model, with importance sampling by a shift of
+// the factor mean (Glasserman and Li 2005) in a defensive mixture (Hesterberg 1995). See
+// include/firmcall/loss_simulation.hpp.
+#include "firmcall/portfolio/loss_simulation.hpp"
+
+#include <algorithm>
+#include <boost/random/normal_distribution.hpp>
+#include <cmath>
+#include <limits>
+#include <numbers>
+#include <numeric>
+
+#include "firmcall/model/normal.hpp"
+#include "firmcall/util/parallel.hpp"
+
+namespace firmcall {
+
+std::string_view to_string(SimulationStatus s) noexcept {
+  return s == SimulationStatus::ok ? "ok" : "invalid_input";
+}
+
+namespace {
+
+constexpr std::uint64_t kTask = 1024;  // scenarios per parallel task
+
+std::uint64_t splitmix64(std::uint64_t& x) noexcept {
+  std::uint64_t z = (x += 0x9E3779B97F4A7C15ULL);
+  z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ULL;
+  z = (z ^ (z >> 27)) * 0x94D049BB133111EBULL;
+  return z ^ (z >> 31);
+}
+
+// xoshiro256++ 1.0 (Blackman and Vigna 2018), a UniformRandomBitGenerator for Boost.Random.
+class Xoshiro256pp {
+ public:
+  using result_type = std::uint64_t;
+  Xoshiro256pp(std::uint64_t seed, std::uint64_t stream) noexcept {
+    std::uint64_t x = seed * 0x9E3779B97F4A7C15ULL ^ (stream + 1) * 0xD1B54A32D192ED03ULL;
+    for (auto& w : s_) w = splitmix64(x);
+  }
+  static constexpr result_type min() noexcept { return 0; }
+  static constexpr result_type max() noexcept { return std::numeric_limits<result_type>::max(); }
+  result_type operator()() noexcept {
+    const std::uint64_t result = rotl(s_[0] + s_[3], 23) + s_[0];
+    const std::uint64_t t = s_[1] << 17;
+    s_[2] ^= s_[0];
+    s_[3] ^= s_[1];
+    s_[1] ^= s_[2];
+    s_[0] ^= s_[3];
+    s_[2] ^= t;
+    s_[3] = rotl(s_[3], 45);
+    return result;
+  }
+
+ private:
+  static std::uint64_t rotl(std::uint64_t x, int k) noexcept { return (x << k) | (x >> (64 - k)); }
+  std::uint64_t s_[4];
+};
+
+struct Prepared {
+  std::size_t index = 0;   // in the book
+  double threshold = 0.0;  // G(PD); +inf for PD = 1
+  double loading = 0.0;    // sqrt(rho)
+  double inv_idio = 1.0;   // 1 / sqrt(1 - rho)
+  double loss = 0.0;
+  std::uint32_t factor = 0;
+};
+
+struct Model {
+  std::vector<Prepared> obligors;
+  const FactorCholesky* factors = nullptr;
+  std::vector<double> shift;  // mu, empty without importance sampling
+  double shift_norm2 = 0.0;
+  std::uint64_t seed = 0;
+};
+
+// Per-thread scratch.
+struct Scratch {
+  std::vector<double> g;
+  std::vector<double> y;
+};
+
+// Draws scenario s; returns its loss, sets its log-likelihood ratio, and calls on_default(k) for
+// each defaulting obligor (k in model order) when given.
+template <class OnDefault>
+double draw_scenario(const Model& m, std::uint64_t s, Scratch& sc, double& log_w,
+                     OnDefault&& on_default) noexcept {
+  Xoshiro256pp rng(m.seed, s);
+  boost::random::normal_distribution<double> normal;
+  const std::size_t nf = m.factors->factors;
+  const double* a = m.factors->lower.data();
+  log_w = 0.0;
+  // Importance sampling: odd scenarios draw G around the shifted mean, even ones from the model;
+  // the weight is the model density over the mixture's, 1 / (1/2 + exp(mu.G - |mu|^2 / 2) / 2),
+  // which never exceeds 2 (a deterministic defensive mixture).
+  const bool shifted = !m.shift.empty() && (s & 1U) != 0;
+  double mu_g = 0.0;
+  for (std::size_t j = 0; j < nf; ++j) {
+    sc.g[j] = normal(rng);
+    if (shifted) sc.g[j] += m.shift[j];
+    if (!m.shift.empty()) mu_g += m.shift[j] * sc.g[j];
+  }
+  if (!m.shift.empty()) {
+    const double x = mu_g - 0.5 * m.shift_norm2;  // log of phi(G - mu) / phi(G)
+    const double softplus = x > 0.0 ? x + std::log1p(std::exp(-x)) : std::log1p(std::exp(x));
+    log_w = std::numbers::ln2 - softplus;
+  }
+  for (std::size_t i = 0; i < nf; ++i) {
+    double v = 0.0;
+    for (std::size_t j = 0; j <= i; ++j) v += a[i * nf + j] * sc.g[j];
+    sc.y[i] = v;
+  }
+  double loss = 0.0;
+  for (std::size_t k = 0; k < m.obligors.size(); ++k) {
+    const Prepared& ob = m.obligors[k];
+    const double e = normal(rng);
+    if (e <= (ob.threshold - ob.loading * sc.y[ob.factor]) * ob.inv_idio) {
+      loss += ob.loss;
+      on_default(k);
+    }
+  }
+  return loss;
+}
+
+// Importance-sampling shift: the fixed point mu = r grad m(mu) / |grad m(mu)|, m the
+// large-portfolio loss as a function of the independent normals G, r = G(a_max).
+std::vector<double> factor_shift(const Model& m, double radius) {
+  const std::size_t nf = m.factors->factors;
+  const double* a = m.factors->lower.data();
+  std::vector<double> mu(nf, 0.0), y(nf), h(nf), grad(nf);
+  for (int iter = 0; iter < 100; ++iter) {
+    for (std::size_t i = 0; i < nf; ++i) {
+      double v = 0.0;
+      for (std::size_t j = 0; j <= i; ++j) v += a[i * nf + j] * mu[j];
+      y[i] = v;
+    }
+    std::fill(h.begin(), h.end(), 0.0);
+    for (const Prepared& ob : m.obligors) {
+      if (!std::isfinite(ob.threshold)) continue;
+      const double t = (ob.threshold - ob.loading * y[ob.factor]) * ob.inv_idio;
+      h[ob.factor] -= ob.loss * norm_pdf(t) * ob.loading * ob.inv_idio;  // d m / d y_f
+    }
+    double norm2 = 0.0;
+    for (std::size_t j = 0; j < nf; ++j) {  // grad = A^T h
+      double v = 0.0;
+      for (std::size_t i = j; i < nf; ++i) v += a[i * nf + j] * h[i];
+      grad[j] = v;
+      norm2 += v * v;
+    }
+    if (!(norm2 > 0.0)) return std::vector<double>(nf, 0.0);
+    const double scale = radius / std::sqrt(norm2);
+    double change = 0.0;
+    for (std::size_t j = 0; j < nf; ++j) {
+      const double next = scale * grad[j];
+      change = std::max(change, std::fabs(next - mu[j]));
+      mu[j] = next;
+    }
+    if (change < 1e-12 * radius) break;
+  }
+  return mu;
+}
+
+}  // namespace
+
+SimulationResult simulate_losses(std::span<const SectorExposure> book, const FactorCholesky& factors,
+                                 const SimulationOptions& opt) noexcept {
+  SimulationResult r;
+  try {
+    const auto& levels = opt.confidence_levels;
+    if (levels.empty() || !std::is_sorted(levels.begin(), levels.end()) ||
+        std::adjacent_find(levels.begin(), levels.end()) != levels.end() || !(levels.front() > 0.0) ||
+        !(levels.back() < 1.0)) {
+      r.message = "confidence levels must be distinct, ascending and inside (0, 1)";
+      return r;
+    }
+    if (opt.scenarios < 2 || opt.scenarios > (std::uint64_t{1} << 40)) {
+      r.message = "the number of scenarios must lie in [2, 2^40]";
+      return r;
+    }
+    if (factors.factors == 0 || factors.lower.size() != factors.factors * factors.factors) {
+      r.message = "the factor model has no valid Cholesky factor";
+      return r;
+    }
+    if (!std::is_sorted(opt.exceedance_points.begin(), opt.exceedance_points.end())) {
+      r.message = "exceedance points must be ascending";
+      return r;
+    }
+    const std::size_t n_book = book.size();
+    Model m;
+    m.factors = &factors;
+    m.seed = opt.seed;
+    for (std::size_t i = 0; i < n_book; ++i) {
+      const SectorExposure& e = book[i];
+      if (!(e.pd >= 0.0 && e.pd <= 1.0) || !(e.asset_correlation >= 0.0 && e.asset_correlation < 1.0) ||
+          !(e.loss_amount >= 0.0) || !std::isfinite(e.loss_amount) || e.factor >= factors.factors) {
+        r.message = "exposure " + std::to_string(i + 1) +
+                    ": PD must lie in [0, 1], asset correlation in [0, 1), the loss amount be finite and "
+                    "non-negative and the factor index below the number of factors";
+        return r;
+      }
+      if (e.pd == 0.0 || e.loss_amount == 0.0) continue;
+      Prepared p;
+      p.index = i;
+      p.threshold = e.pd == 1.0 ? std::numeric_limits<double>::infinity() : norm_quantile(e.pd);
+      p.loading = std::sqrt(e.asset_correlation);
+      p.inv_idio = 1.0 / std::sqrt(1.0 - e.asset_correlation);
+      p.loss = e.loss_amount;
+      p.factor = e.factor;
+      m.obligors.push_back(p);
+    }
+    if (opt.importance_sampling) {
+      m.shift = factor_shift(m, norm_quantile_upper(1.0 - levels.back()));
+      for (double x : m.shift) m.shift_norm2 += x * x;
+      r.factor_shift = m.shift;
+    }
+    const std::uint64_t n = opt.scenarios;
+    const unsigned threads = std::max(1U, opt.threads);
+    std::vector<double> loss(n);
+    std::vector<double> log_w(m.shift.empty() ? 0 : n);
+    std::vector<Scratch> scratch(threads);
+    for (Scratch& sc : scratch) {
+      sc.g.assign(factors.factors, 0.0);
+      sc.y.assign(factors.factors, 0.0);
+    }
+    // Batches of about 1% of the run between progress reports.
+    const std::uint64_t batch =
+        std::max<std::uint64_t>(kTask * threads, (n / 100 + kTask - 1) / kTask * kTask);
+    for (std::uint64_t b0 = 0; b0 < n; b0 += batch) {
+      const std::uint64_t b1 = std::min(n, b0 + batch);
+      const std::uint64_t tasks = (b1 - b0 + kTask - 1) / kTask;
+      parallel_for(static_cast<std::size_t>(tasks), threads, [&](std::size_t t, unsigned worker) {
+        const std::uint64_t s0 = b0 + t * kTask;
+        const std::uint64_t s1 = std::min(b1, s0 + kTask);
+        for (std::uint64_t s = s0; s < s1; ++s) {
+          double lw = 0.0;
+          loss[s] = draw_scenario(m, s, scratch[worker], lw, [](std::size_t) {});
+          if (!log_w.empty()) log_w[s] = lw;
+        }
+      });
+      if (opt.progress) opt.progress(b1, n);
+    }
+    const auto weight = [&](std::uint64_t s) { return log_w.empty() ? 1.0 : std::exp(log_w[s]); };
+    const double dn = static_cast<double>(n);
+
+    // Expected loss and the effective sample size, in scenario order.
+    double sum_wl = 0.0, sum_wl2 = 0.0, sum_w = 0.0, sum_w2 = 0.0;
+    for (std::uint64_t s = 0; s < n; ++s) {
+      const double w = weight(s);
+      sum_wl += w * loss[s];
+      sum_wl2 += (w * loss[s]) * (w * loss[s]);
+      sum_w += w;
+      sum_w2 += w * w;
+    }
+    r.scenarios = n;
+    r.expected_loss = sum_wl / dn;
+    r.expected_loss_se = std::sqrt(std::max(0.0, sum_wl2 / dn - r.expected_loss * r.expected_loss) / dn);
+    r.effective_scenarios = sum_w * sum_w / sum_w2;
+
+    // Losses in ascending order (ties by scenario index), and suffix sums of w and w^2.
+    std::vector<std::uint64_t> order(n);
+    std::iota(order.begin(), order.end(), std::uint64_t{0});
+    std::sort(order.begin(), order.end(), [&](std::uint64_t x, std::uint64_t y) {
+      return loss[x] < loss[y] || (loss[x] == loss[y] && x < y);
+    });
+    std::vector<double> sorted(n), s1(n + 1, 0.0), s2(n + 1, 0.0);
+    for (std::uint64_t k = 0; k < n; ++k) sorted[k] = loss[order[k]];
+    for (std::uint64_t k = n; k-- > 0;) {
+      const double w = weight(order[k]);
+      s1[k] = s1[k + 1] + w;
+      s2[k] = s2[k + 1] + w * w;
+    }
+    // P(L > x) and its standard error.
+    const auto above = [&](double x) {
+      return static_cast<std::uint64_t>(std::upper_bound(sorted.begin(), sorted.end(), x) - sorted.begin());
+    };
+    const auto exceed = [&](double x) { return s1[above(x)] / dn; };
+    const auto exceed_se = [&](double x) {
+      const std::uint64_t k = above(x);
+      const double p = s1[k] / dn;
+      return std::sqrt(std::max(0.0, s2[k] / dn - p * p) / dn);
+    };
+    // The smallest simulated loss v with P(L > v) <= tail (the largest loss when tail <= 0).
+    const auto quantile = [&](double tail) {
+      std::uint64_t lo = 0, hi = n - 1;  // exceed(sorted[n - 1]) = 0 <= tail when tail >= 0
+      if (tail < 0.0) return sorted[n - 1];
+      while (lo < hi) {
+        const std::uint64_t mid = lo + (hi - lo) / 2;
+        if (exceed(sorted[mid]) <= tail) {
+          hi = mid;
+        } else {
+          lo = mid + 1;
+        }
+      }
+      return sorted[lo];
+    };
+    r.tails.resize(levels.size());
+    for (std::size_t l = 0; l < levels.size(); ++l) {
+      const double tail = 1.0 - levels[l];
+      SimulatedTail& t = r.tails[l];
+      t.confidence_level = levels[l];
+      t.var = quantile(tail);
+      t.exceedance = exceed(t.var);
+      const double se_tail = exceed_se(t.var);
+      t.var_se = 0.5 * (quantile(tail - se_tail) - quantile(tail + se_tail));
+      double sum_e = 0.0, sum_e2 = 0.0;
+      for (std::uint64_t k = above(t.var); k < n; ++k) {
+        const double e = weight(order[k]) * (sorted[k] - t.var);
+        sum_e += e;
+        sum_e2 += e * e;
+      }
+      t.es = t.var + sum_e / (dn * tail);
+      const double mean_e = sum_e / dn;
+      t.es_se = std::sqrt(std::max(0.0, sum_e2 / dn - mean_e * mean_e) / dn) / tail;
+    }
+    r.exceedance.resize(opt.exceedance_points.size());
+    r.exceedance_se.resize(opt.exceedance_points.size());
+    for (std::size_t j = 0; j < opt.exceedance_points.size(); ++j) {
+      r.exceedance[j] = exceed(opt.exceedance_points[j]);
+      r.exceedance_se[j] = exceed_se(opt.exceedance_points[j]);
+    }
+
+    // Contributions: the scenarios at or above the smallest VaR are drawn again, in blocks whose
+    // sums are added in block order.
+    if (opt.contributions) {
+      const std::size_t L = levels.size();
+      const std::size_t nb = n_book;
+      std::vector<std::uint64_t> tail_scenarios(
+          order.begin() +
+              static_cast<std::ptrdiff_t>(std::lower_bound(sorted.begin(), sorted.end(), r.tails[0].var) -
+                                          sorted.begin()),
+          order.end());
+      std::sort(tail_scenarios.begin(), tail_scenarios.end());
+      std::vector<double> sum_above(L * nb, 0.0), sum_above2(L * nb, 0.0), sum_at(L * nb, 0.0);
+      std::vector<double> atom_weight(L, 0.0);
+      const std::size_t tasks = (tail_scenarios.size() + kTask - 1) / kTask;
+      struct Acc {
+        std::vector<double> above, above2, at, atom;
+        std::vector<std::size_t> defaulted;
+      };
+      std::vector<Acc> acc(threads);
+      for (Acc& x : acc) {
+        x.above.assign(L * nb, 0.0);
+        x.above2.assign(L * nb, 0.0);
+        x.at.assign(L * nb, 0.0);
+        x.atom.assign(L, 0.0);
+        x.defaulted.reserve(m.obligors.size());
+      }
+      for (std::size_t r0 = 0; r0 < tasks; r0 += threads) {
+        const std::size_t r1 = std::min(tasks, r0 + threads);
+        parallel_for(r1 - r0, threads, [&](std::size_t t, unsigned worker) {
+          Acc& x = acc[t];
+          std::fill(x.above.begin(), x.above.end(), 0.0);
+          std::fill(x.above2.begin(), x.above2.end(), 0.0);
+          std::fill(x.at.begin(), x.at.end(), 0.0);
+          std::fill(x.atom.begin(), x.atom.end(), 0.0);
+          const std::size_t k0 = (r0 + t) * kTask;
+          const std::size_t k1 = std::min(tail_scenarios.size(), k0 + kTask);
+          for (std::size_t k = k0; k < k1; ++k) {
+            const std::uint64_t s = tail_scenarios[k];
+            double lw = 0.0;
+            x.defaulted.clear();
+            const double l =
+                draw_scenario(m, s, scratch[worker], lw, [&](std::size_t j) { x.defaulted.push_back(j); });
+            const double w = std::exp(lw);
+            const double ws = m.shift.empty() ? 1.0 : w;
+            for (std::size_t lev = 0; lev < L; ++lev) {
+              const double v = r.tails[lev].var;
+              if (l > v) {
+                for (std::size_t j : x.defaulted) {
+                  const Prepared& ob = m.obligors[j];
+                  const double wx = ws * ob.loss;
+                  x.above[lev * nb + ob.index] += wx;
+                  x.above2[lev * nb + ob.index] += wx * wx;
+                }
+              } else if (l == v) {
+                x.atom[lev] += ws;
+                for (std::size_t j : x.defaulted) {
+                  const Prepared& ob = m.obligors[j];
+                  x.at[lev * nb + ob.index] += ws * ob.loss;
+                }
+              }
+            }
+          }
+        });
+        for (std::size_t t = 0; t < r1 - r0; ++t) {
+          for (std::size_t k = 0; k < L * nb; ++k) {
+            sum_above[k] += acc[t].above[k];
+            sum_above2[k] += acc[t].above2[k];
+            sum_at[k] += acc[t].at[k];
+          }
+          for (std::size_t lev = 0; lev < L; ++lev) atom_weight[lev] += acc[t].atom[lev];
+        }
+      }
+      r.es_contributions.assign(L * nb, 0.0);
+      r.es_contribution_se.assign(L * nb, 0.0);
+      for (std::size_t lev = 0; lev < L; ++lev) {
+        const double tail = 1.0 - levels[lev];
+        const double share =
+            atom_weight[lev] > 0.0 ? (tail - r.tails[lev].exceedance) / atom_weight[lev] : 0.0;
+        for (std::size_t i = 0; i < nb; ++i) {
+          const std::size_t k = lev * nb + i;
+          const double mean = sum_above[k] / dn;
+          r.es_contributions[k] = (mean + sum_at[k] * share) / tail;
+          r.es_contribution_se[k] = std::sqrt(std::max(0.0, sum_above2[k] / dn - mean * mean) / dn) / tail;
+        }
+      }
+    }
+    r.status = SimulationStatus::ok;
+    return r;
+  } catch (...) {
+    r = SimulationResult{};
+    r.message = "out of memory";
+    return r;
+  }
+}
+
+}  // namespace firmcall

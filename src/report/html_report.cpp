@@ -1,0 +1,955 @@
+#include "firmcall/report/html_report.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <numeric>
+
+#include "firmcall/book/errors.hpp"
+#include "firmcall/format/row_writer.hpp"
+#include "firmcall/model/normal.hpp"
+#include "firmcall/monitor/record_book.hpp"
+#include "firmcall/report/svg.hpp"
+
+namespace firmcall {
+
+namespace {
+
+constexpr const char* kChartCaution =
+    " Model estimates under the Merton assumptions; not a credit decision on their own.";
+
+std::string h(std::string_view s) {
+  return xml_escape(s);
+}
+
+std::string fixed(double v, int decimals) {
+  if (!std::isfinite(v)) return "-";
+  char buf[64];
+  std::snprintf(buf, sizeof buf, "%.*f", decimals, v);
+  return buf;
+}
+
+std::string count(std::size_t n) {
+  return group_thousands(static_cast<double>(n), 0);
+}
+
+std::string pp(double change) {
+  return std::isfinite(change) ? format_cell(change, CellStyle::signed_pp) + " pp" : "-";
+}
+
+std::string level_text(double level) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%g%%", 100.0 * level);
+  return buf;
+}
+
+std::string plain(double v) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%g", v);
+  return buf;
+}
+
+const std::string& id_of(const ObligorRecord& rec) {
+  return rec.get(TextField::id);
+}
+
+// "ALD-01 Alder Freight Lines", cut to `width` characters for chart labels.
+std::string short_name(const ObligorRecord& rec, std::size_t width = 28) {
+  std::string s = id_of(rec);
+  if (!rec.get(TextField::name).empty()) s += " " + rec.get(TextField::name);
+  return fit_text(s, width);
+}
+
+// A table: header cells, then rows; cells whose text starts with '\x01' are numbers (right-aligned).
+class HtmlTable {
+ public:
+  HtmlTable(std::string css_class, std::vector<std::string> heads)
+      : css_class_(std::move(css_class)), heads_(std::move(heads)) {}
+  void row(const std::vector<std::string>& cells, bool numeric_from_second, std::string_view row_class = "") {
+    rows_ += row_class.empty() ? "<tr>" : "<tr class=\"" + h(row_class) + "\">";
+    for (std::size_t i = 0; i < cells.size(); ++i) {
+      const bool numeric = numeric_from_second && i >= numeric_start_ && i < numeric_end_;
+      rows_ += numeric ? "<td class=\"fc-num\">" : "<td>";
+      rows_ += h(cells[i]) + "</td>";
+    }
+    rows_ += "</tr>\n";
+  }
+  void numeric_from(std::size_t column, std::size_t end = 999) {
+    numeric_start_ = column;
+    numeric_end_ = end;
+  }
+  std::string str() const {
+    std::string out = "<table class=\"" + h(css_class_) + "\">\n<thead><tr>";
+    for (std::size_t i = 0; i < heads_.size(); ++i) {
+      out += i >= numeric_start_ && i < numeric_end_ ? "<th class=\"fc-num\">" : "<th>";
+      out += h(heads_[i]) + "</th>";
+    }
+    return out + "</tr></thead>\n<tbody>\n" + rows_ + "</tbody>\n</table>\n";
+  }
+
+ private:
+  std::string css_class_;
+  std::vector<std::string> heads_;
+  std::string rows_;
+  std::size_t numeric_start_ = 1;
+  std::size_t numeric_end_ = 999;
+};
+
+std::string figure(const std::string& svg, const std::string& caption) {
+  return "<figure class=\"fc-figure\">\n" + svg + "<figcaption>" + h(caption) + h(kChartCaution) +
+         "</figcaption>\n</figure>\n";
+}
+
+std::string card(const std::string& label, const std::string& value, const std::string& note) {
+  return "<div class=\"fc-card\"><div class=\"fc-card-label\">" + h(label) +
+         "</div><div class=\"fc-card-value\">" + h(value) + "</div><div class=\"fc-card-note\">" + h(note) +
+         "</div></div>\n";
+}
+
+std::string section_open(const std::string& id, const std::string& title, const std::string& lead) {
+  return "<section id=\"" + id + "\" class=\"fc-section\">\n<h2>" + h(title) +
+         "</h2>\n<p class=\"fc-lead\">" + h(lead) + "</p>\n";
+}
+
+// Book-wide figures over the scored obligors.
+struct BookFigures {
+  std::size_t obligors = 0, scored = 0, invalid = 0, not_converged = 0;
+  std::size_t with_ead = 0;
+  double ead_total = 0.0;
+  double ead_weighted_pd = NAN;
+  double mean_pd = NAN;
+  double expected_loss = 0.0;
+  std::size_t above_threshold = 0;
+};
+
+BookFigures book_figures(const ReportData& d) {
+  BookFigures f;
+  f.obligors = d.scored.size();
+  double pd_sum = 0.0, ead_pd = 0.0;
+  for (const ScoredObligor& s : d.scored) {
+    if (s.status == RowStatus::invalid_input) ++f.invalid;
+    if (s.status == RowStatus::not_converged) ++f.not_converged;
+    if (s.status != RowStatus::ok) continue;
+    ++f.scored;
+    pd_sum += s.measures.pd;
+    if (s.measures.pd > d.config.stress.pd_threshold) ++f.above_threshold;
+    if (!s.resolved.has_ead) continue;
+    ++f.with_ead;
+    f.ead_total += s.resolved.ead;
+    ead_pd += s.resolved.ead * s.measures.pd;
+    f.expected_loss += s.measures.pd * s.resolved.lgd * s.resolved.ead;
+  }
+  if (f.scored > 0) f.mean_pd = pd_sum / static_cast<double>(f.scored);
+  if (f.ead_total > 0.0) f.ead_weighted_pd = ead_pd / f.ead_total;
+  return f;
+}
+
+// ---------------------------------------------------------------------------------------------
+// Sections
+
+std::string summary_section(const ReportData& d, const BookFigures& f) {
+  const GradeScale& scale = d.config.grades;
+  std::string out =
+      section_open("summary", "Book summary",
+                   "Every obligor of " + d.book.origin + " scored with the Merton model at its own horizon" +
+                       (d.book.as_of.empty() ? std::string() : ", figures as of " + d.book.as_of) + ".");
+  out += "<div class=\"fc-cards\">\n";
+  out += card("obligors", count(f.obligors),
+              count(f.scored) + " scored, " + count(f.invalid) + " invalid input, " + count(f.not_converged) +
+                  " not converged");
+  out += card("exposure-weighted PD", std::isfinite(f.ead_weighted_pd) ? report_pd(f.ead_weighted_pd) : "-",
+              "sum of EAD x PD over sum of EAD; " + count(f.with_ead) + " obligors give ead");
+  out +=
+      card("mean PD", std::isfinite(f.mean_pd) ? report_pd(f.mean_pd) : "-", "simple mean over scored names");
+  out += card("total EAD", report_amount(f.ead_total), "exposure at default, in the book's EAD unit");
+  out += card("expected loss", report_amount(f.expected_loss), "sum of PD x LGD x EAD");
+  out += card("PD above " + level_text(d.config.stress.pd_threshold), count(f.above_threshold),
+              "names over the stress PD threshold");
+  out += "</div>\n";
+
+  // PD distribution by grade.
+  const std::size_t grades = scale.bands.size();
+  std::vector<double> names(grades, 0.0), ead(grades, 0.0), ead_pd(grades, 0.0);
+  for (const ScoredObligor& s : d.scored) {
+    if (s.status != RowStatus::ok) continue;
+    const int g = scale.index_of(s.measures.pd);
+    if (g < 0) continue;
+    const auto gi = static_cast<std::size_t>(g);
+    names[gi] += 1.0;
+    if (s.resolved.has_ead) {
+      ead[gi] += s.resolved.ead;
+      ead_pd[gi] += s.resolved.ead * s.measures.pd;
+    }
+  }
+  std::vector<std::string> labels, value_labels;
+  for (std::size_t g = 0; g < grades; ++g) {
+    labels.push_back(scale.bands[g].label);
+    value_labels.push_back(names[g] > 0.0 ? fixed(names[g], 0) : "");
+  }
+  SvgAxis y{.label = "obligors (count)", .min = 0, .max = 1, .log = false, .format = TickFormat::plain};
+  const std::string chart =
+      svg_bar_chart(labels, {{"obligors", "fc-bar-base", names, value_labels}},
+                    "grade on the master scale (best on the left)", y, "Obligors by grade");
+  out +=
+      figure(chart,
+             "Each bar counts the scored obligors whose PD falls in a grade's band (table below). A book "
+             "leaning to the right holds more weak names; compare the EAD column to see where the money is.");
+  HtmlTable t("fc-table", {"grade", "PD band", "obligors", "EAD", "share of EAD", "exposure-weighted PD"});
+  t.numeric_from(2);
+  double lower = 0.0;
+  for (std::size_t g = 0; g < grades; ++g) {
+    const std::string band =
+        (g == 0 ? "up to " : "above " + level_text(lower) + " to ") + level_text(scale.bands[g].max_pd);
+    lower = scale.bands[g].max_pd;
+    t.row({scale.bands[g].label, band, fixed(names[g], 0), report_amount(ead[g]),
+           f.ead_total > 0.0 ? fixed(100.0 * ead[g] / f.ead_total, 1) + "%" : "-",
+           ead[g] > 0.0 ? report_pd(ead_pd[g] / ead[g]) : "-"},
+          true);
+  }
+  out += t.str();
+  return out + "</section>\n";
+}
+
+std::string scatter_section(const ReportData& d) {
+  const double threshold = d.config.stress.pd_threshold;
+  const GradeScale& scale = d.config.grades;
+  std::string out = section_open(
+      "dd-leverage", "Distance to default against leverage",
+      "Leverage is the default point over the implied asset value (DP/V); distance to default is how many "
+      "standard deviations of asset value lie between the assets and the default point at the horizon.");
+  std::vector<std::size_t> ok;
+  for (std::size_t i = 0; i < d.scored.size(); ++i) {
+    if (d.scored[i].status == RowStatus::ok) ok.push_back(i);
+  }
+  // Very large books: the 2,000 weakest names are drawn (said in the caption).
+  constexpr std::size_t kMaxPoints = 2000;
+  std::stable_sort(ok.begin(), ok.end(), [&](std::size_t a, std::size_t b) {
+    return d.scored[a].measures.pd > d.scored[b].measures.pd;
+  });
+  const std::size_t drawn = std::min(ok.size(), kMaxPoints);
+  std::vector<double> xs, ys;
+  for (std::size_t k = 0; k < drawn; ++k) {
+    xs.push_back(d.scored[ok[k]].measures.leverage);
+    ys.push_back(d.scored[ok[k]].measures.distance_to_default);
+  }
+  const double dd_threshold = norm_quantile_upper(threshold);
+  ys.push_back(dd_threshold);
+  SvgAxis x{.label = "leverage DP/V (ratio)", .min = 0, .max = 1, .log = false, .format = TickFormat::plain};
+  SvgAxis y{.label = "distance to default (standard deviations)",
+            .min = 0,
+            .max = 1,
+            .log = false,
+            .format = TickFormat::plain};
+  xs.push_back(0.0);
+  fit_axis(x, xs, true);
+  fit_axis(y, ys, true);
+  SvgPlot plot(x, y, "Distance to default against leverage", 720.0, 440.0);
+  plot.hline(dd_threshold, "fc-ref", "DD at PD " + level_text(threshold));
+  std::size_t labelled = 0;
+  // Weakest last, so that their markers and labels are drawn on top.
+  for (std::size_t k = drawn; k-- > 0;) {
+    const ScoredObligor& s = d.scored[ok[k]];
+    const ObligorRecord& rec = d.book.obligors[ok[k]];
+    const int g = scale.index_of(s.measures.pd);
+    const bool distressed = s.measures.pd > threshold;
+    const int n = static_cast<int>(scale.bands.size());
+    const char* cls = distressed      ? "fc-dot-distressed"
+                      : g * 3 < n     ? "fc-dot-strong"
+                      : g * 3 < 2 * n ? "fc-dot-middle"
+                                      : "fc-dot-weak";
+    const std::string tip = short_name(rec, 60) + ": DD " +
+                            format_cell(s.measures.distance_to_default, CellStyle::decimal3) + ", DP/V " +
+                            fixed(s.measures.leverage, 3) + ", PD " + report_pd(s.measures.pd);
+    if (distressed) ++labelled;
+    plot.point(s.measures.leverage, s.measures.distance_to_default, cls, tip, distressed ? id_of(rec) : "");
+  }
+  const int n = static_cast<int>(scale.bands.size());
+  plot.legend("fc-dot-strong",
+              "grades " + std::string(scale.label_at(0)) + " to " + std::string(scale.label_at((n - 1) / 3)));
+  plot.legend("fc-dot-middle", "grades " + std::string(scale.label_at((n + 2) / 3)) + " to " +
+                                   std::string(scale.label_at((2 * n - 1) / 3)));
+  plot.legend("fc-dot-weak", "grades " + std::string(scale.label_at((2 * n + 2) / 3)) + " and worse");
+  plot.legend("fc-dot-distressed", "PD above " + level_text(threshold) + " (labelled)");
+  std::string caption =
+      "One dot per scored obligor. Names further right carry more debt against their assets; names lower "
+      "down are closer to default. Dots below the dashed line have a PD above " +
+      level_text(threshold) + " and are labelled with their id (" + count(labelled) + " here).";
+  if (drawn < ok.size())
+    caption += " Only the " + count(drawn) + " weakest of " + count(ok.size()) + " are drawn.";
+  out += figure(plot.str(), caption);
+  return out + "</section>\n";
+}
+
+std::vector<std::string> name_row(const ReportData& d, std::size_t i) {
+  const ScoredObligor& s = d.scored[i];
+  const ObligorRecord& rec = d.book.obligors[i];
+  const MertonMeasures& m = s.measures;
+  const bool ead = s.resolved.has_ead;
+  return {id_of(rec),
+          rec.get(TextField::name),
+          rec.get(TextField::sector),
+          std::string(d.config.grades.label_of(m.pd)),
+          format_cell(m.distance_to_default, CellStyle::decimal3),
+          report_pd(m.pd),
+          report_spread_bp(m.spread_bp),
+          fixed(m.leverage, 3),
+          report_amount(m.asset_value),
+          ead ? report_amount(s.resolved.ead) : "-",
+          ead ? report_amount(m.pd * s.resolved.lgd * s.resolved.ead) : "-"};
+}
+
+std::string names_section(const ReportData& d) {
+  std::vector<std::size_t> ok;
+  for (std::size_t i = 0; i < d.scored.size(); ++i) {
+    if (d.scored[i].status == RowStatus::ok) ok.push_back(i);
+  }
+  std::stable_sort(ok.begin(), ok.end(), [&](std::size_t a, std::size_t b) {
+    return d.scored[a].measures.pd > d.scored[b].measures.pd;
+  });
+  const std::size_t n = std::min(d.options.top, ok.size());
+  std::string out = section_open("names", "Weakest and strongest names",
+                                 "The " + count(n) + " highest and " + count(n) +
+                                     " lowest PDs of the book. PD at each obligor's horizon, spread in basis "
+                                     "points, amounts in each obligor's currency unit (EAD in the book's).");
+  const std::vector<std::string> heads = {"obligor",   "name", "sector",      "grade", "DD",           "PD",
+                                          "spread bp", "DP/V", "asset value", "EAD",   "expected loss"};
+  const auto table = [&](const std::string& title, auto first, auto last, const char* cls) {
+    HtmlTable t(std::string("fc-table ") + cls, heads);
+    t.numeric_from(4);
+    for (auto it = first; it != last; ++it) t.row(name_row(d, *it), true);
+    return "<h3>" + h(title) + "</h3>\n" + t.str();
+  };
+  out += table("Weakest " + count(n) + " (highest PD first)", ok.begin(),
+               ok.begin() + static_cast<std::ptrdiff_t>(n), "fc-names-weak");
+  out += table("Strongest " + count(n) + " (lowest PD first)", ok.rbegin(),
+               ok.rbegin() + static_cast<std::ptrdiff_t>(n), "fc-names-strong");
+  std::vector<std::size_t> failed;
+  for (std::size_t i = 0; i < d.scored.size(); ++i) {
+    if (d.scored[i].status != RowStatus::ok) failed.push_back(i);
+  }
+  if (!failed.empty()) {
+    HtmlTable t("fc-table fc-failed", {"obligor", "status", "why"});
+    t.numeric_from(99);
+    for (const std::size_t i : failed) {
+      t.row({id_of(d.book.obligors[i]), std::string(to_string(d.scored[i].status)), d.scored[i].message},
+            false);
+    }
+    out += "<h3>Not scored (" + count(failed.size()) + ")</h3>\n" + t.str();
+  }
+  return out + "</section>\n";
+}
+
+std::string stress_section(const ReportData& d) {
+  const ReportStress& st = *d.stress;
+  std::string out = section_open(
+      "stress", "Stress results",
+      "Each scenario of " + st.origin +
+          " shocks the observed inputs (equity value and volatility, rate, default point), and every hit "
+          "obligor is solved again. Figures over the obligors scored both as they stand and stressed.");
+  // PD by scenario.
+  std::vector<std::string> cats{"as it stands"};
+  std::vector<double> weighted, mean;
+  std::vector<std::string> weighted_labels, mean_labels;
+  const ScenarioSummary* first = st.summary.scenarios.empty() ? nullptr : &st.summary.scenarios.front();
+  const auto add = [&](double w, double m) {
+    weighted.push_back(w);
+    mean.push_back(m);
+    weighted_labels.push_back(std::isfinite(w) ? fixed(100.0 * w, 2) + "%" : "");
+    mean_labels.push_back(std::isfinite(m) ? fixed(100.0 * m, 2) + "%" : "");
+  };
+  if (first) add(first->ead_weighted_pd, first->mean_pd);
+  for (std::size_t k = 0; k < st.scenarios.size() && k < st.summary.scenarios.size(); ++k) {
+    cats.push_back(st.scenarios[k].name);
+    add(st.summary.scenarios[k].ead_weighted_pd_stressed, st.summary.scenarios[k].mean_pd_stressed);
+  }
+  SvgAxis y{.label = "PD (percent)", .min = 0, .max = 1, .log = false, .format = TickFormat::percent};
+  out += figure(svg_bar_chart(cats,
+                              {{"exposure-weighted PD", "fc-bar-base", weighted, weighted_labels},
+                               {"mean PD", "fc-bar-alt", mean, mean_labels}},
+                              "scenario", y, "PD of the book by scenario"),
+                "The first group is the book as it stands; each further group is the same book under one "
+                "scenario. Exposure-weighted PD (sum of EAD x PD over sum of EAD) tracks where the money is; "
+                "the mean PD treats every name alike.");
+  HtmlTable t("fc-table fc-stress-summary",
+              {"scenario", "compared", "mean PD base", "mean PD stressed", "EAD-weighted PD base",
+               "EAD-weighted PD stressed", "PD > " + level_text(d.config.stress.pd_threshold) + " base",
+               "PD > " + level_text(d.config.stress.pd_threshold) + " stressed", "expected loss base",
+               "expected loss stressed"});
+  for (std::size_t k = 0; k < st.scenarios.size() && k < st.summary.scenarios.size(); ++k) {
+    const ScenarioSummary& s = st.summary.scenarios[k];
+    t.row({st.scenarios[k].name, count(s.compared), report_pd(s.mean_pd), report_pd(s.mean_pd_stressed),
+           report_pd(s.ead_weighted_pd), report_pd(s.ead_weighted_pd_stressed), count(s.above_threshold),
+           count(s.above_threshold_stressed), report_amount(s.expected_loss),
+           report_amount(s.expected_loss_stressed)},
+          true);
+  }
+  out += t.str();
+  out += "<ul class=\"fc-scenarios\">\n";
+  for (const Scenario& sc : st.scenarios) {
+    out += "<li><strong>" + h(sc.name) + "</strong>" +
+           (sc.description.empty() ? "" : ": " + h(sc.description)) + "</li>\n";
+  }
+  out += "</ul>\n";
+  // Per-obligor change, one chart per scenario: the names whose PD moved most.
+  const std::size_t shown = std::max<std::size_t>(d.options.top, 10);
+  for (std::size_t k = 0; k < st.scenarios.size() && k < st.rows.size(); ++k) {
+    std::vector<std::size_t> idx;
+    for (std::size_t i = 0; i < st.rows[k].size(); ++i) {
+      if (st.rows[k][i].status == StressStatus::ok && d.scored[i].status == RowStatus::ok &&
+          st.rows[k][i].shocked() && st.rows[k][i].measures.pd != d.scored[i].measures.pd) {
+        idx.push_back(i);
+      }
+    }
+    const auto change = [&](std::size_t i) { return st.rows[k][i].measures.pd - d.scored[i].measures.pd; };
+    std::stable_sort(idx.begin(), idx.end(), [&](std::size_t a, std::size_t b) {
+      return std::fabs(change(a)) > std::fabs(change(b));
+    });
+    idx.resize(std::min(idx.size(), shown));
+    std::vector<std::string> names, labels;
+    std::vector<double> values;
+    for (const std::size_t i : idx) {
+      names.push_back(short_name(d.book.obligors[i]));
+      values.push_back(100.0 * change(i));
+      labels.push_back(report_pd(d.scored[i].measures.pd) + " to " + report_pd(st.rows[k][i].measures.pd));
+    }
+    SvgAxis x{.label = "change of PD (percentage points)",
+              .min = 0,
+              .max = 1,
+              .log = false,
+              .format = TickFormat::plain};
+    out += figure(
+        svg_signed_bars(names, values, labels, x, "Largest PD changes under '" + st.scenarios[k].name + "'"),
+        "The " + count(idx.size()) +
+            " obligors whose PD moved most under this scenario (names no shock hits are left out). Bars to "
+            "the "
+            "right are rises in percentage points; the text beside each bar gives the PD as it stands and "
+            "stressed.");
+  }
+  // Per-obligor table: the names hit hardest in any scenario.
+  std::vector<std::size_t> idx;
+  std::vector<double> worst(d.scored.size(), -INFINITY);
+  for (std::size_t i = 0; i < d.scored.size(); ++i) {
+    if (d.scored[i].status != RowStatus::ok) continue;
+    for (std::size_t k = 0; k < st.rows.size(); ++k) {
+      if (st.rows[k][i].status == StressStatus::ok) {
+        worst[i] = std::max(worst[i], st.rows[k][i].measures.pd - d.scored[i].measures.pd);
+      }
+    }
+    idx.push_back(i);
+  }
+  std::stable_sort(idx.begin(), idx.end(), [&](std::size_t a, std::size_t b) { return worst[a] > worst[b]; });
+  idx.resize(std::min(idx.size(), 2 * shown));
+  std::vector<std::string> heads{"obligor", "name", "PD as it stands"};
+  for (const Scenario& s : st.scenarios) heads.push_back("PD " + s.name);
+  heads.push_back("largest change");
+  HtmlTable per("fc-table fc-stress-names", heads);
+  per.numeric_from(2);
+  for (const std::size_t i : idx) {
+    std::vector<std::string> cells{id_of(d.book.obligors[i]), d.book.obligors[i].get(TextField::name),
+                                   report_pd(d.scored[i].measures.pd)};
+    for (std::size_t k = 0; k < st.rows.size(); ++k) {
+      const StressedObligor& r = st.rows[k][i];
+      cells.push_back(r.status == StressStatus::ok ? report_pd(r.measures.pd)
+                                                   : std::string(to_string(r.status)));
+    }
+    cells.push_back(pp(worst[i]));
+    per.row(cells, true);
+  }
+  out += "<h3>Names hit hardest (" + count(idx.size()) + ", by their largest PD rise)</h3>\n" + per.str();
+  return out + "</section>\n";
+}
+
+std::string term_section(const ReportData& d) {
+  const std::vector<double>& hz = d.term_run.horizons;
+  std::string out =
+      section_open("term", "PD term structures",
+                   "Cumulative Merton PD by each horizon for the chosen names, each solved once at "
+                   "its own horizon and projected (firmcall score --horizons).");
+  SvgAxis x{.label = "horizon (years)", .min = 0, .max = 1, .log = false, .format = TickFormat::plain};
+  SvgAxis y{.label = "cumulative PD (percent, log scale)",
+            .min = 1e-8,
+            .max = 1,
+            .log = true,
+            .format = TickFormat::percent};
+  std::vector<double> xs{0.0}, ys;
+  for (const double t : hz) xs.push_back(t);
+  constexpr double kFloor = 1e-8;
+  for (const TermScoredObligor& t : d.terms) {
+    for (const TermPoint& p : t.points) {
+      if (p.ok()) ys.push_back(p.pd);
+    }
+  }
+  fit_axis(x, xs, true);
+  fit_axis(y, ys, false, kFloor);
+  SvgPlot plot(x, y, "Cumulative PD by horizon", 720.0, 420.0);
+  plot.legend_at_bottom(true);
+  HtmlTable t("fc-table fc-term", [&] {
+    std::vector<std::string> heads{"obligor", "name"};
+    for (const double v : hz) heads.push_back(fixed(v, v == std::floor(v) ? 0 : 2) + " y");
+    return heads;
+  }());
+  t.numeric_from(2);
+  for (std::size_t k = 0; k < d.terms.size(); ++k) {
+    const TermScoredObligor& term = d.terms[k];
+    const ObligorRecord& rec = d.book.obligors[d.term_index[k]];
+    std::vector<double> px, py;
+    std::vector<std::string> cells{id_of(rec), rec.get(TextField::name)};
+    for (std::size_t j = 0; j < term.points.size() && j < term.horizons.size(); ++j) {
+      const TermPoint& p = term.points[j];
+      px.push_back(p.horizon_years);
+      py.push_back(p.ok() ? std::max(p.pd, kFloor) : NAN);
+      cells.push_back(p.ok() ? report_pd(p.pd) : std::string(to_string(p.status)));
+    }
+    const std::string cls = "fc-s" + std::to_string(k % 6 + 1);
+    plot.line(px, py, cls, short_name(rec, 60));
+    plot.legend(cls, short_name(rec));
+    t.row(cells, true);
+  }
+  out += figure(
+      plot.str(),
+      "One line per chosen name: the probability of default by each horizon, on a log scale so that "
+      "safe and weak names share one chart. Steeper lines mean risk that builds with time; PDs below "
+      "0.000001% are drawn on the bottom edge (the table gives them). The Merton PD at t is the chance "
+      "of being below the default point at t, not of having reached it before, so for weak names whose "
+      "assets drift upwards it can fall at long horizons (the first-passage model of firmcall score "
+      "--model first-passage does not).");
+  out += t.str();
+  return out + "</section>\n";
+}
+
+std::string portfolio_section(const ReportData& d) {
+  const PortfolioRun& run = *d.portfolio;
+  const PortfolioScenarioResult& base = run.scenarios.front();
+  const LossDistribution& dist = base.exact;
+  std::string out = section_open(
+      "portfolio", "Portfolio loss distribution",
+      "Exact one-factor (Vasicek) loss distribution of the book as it stands: each obligor's Merton PD, its "
+      "LGD and EAD, and its asset correlation (" +
+          std::string(run.correlation_origin.empty() ? "no correlation file" : run.correlation_origin) +
+          "). " + count(base.included) + " of " + count(base.obligors.size()) +
+          " obligors are in the portfolio; losses in the book's EAD unit.");
+  if (base.included < base.obligors.size()) {
+    std::string left_out;
+    for (std::size_t i = 0; i < run.problems.size() && i < 5; ++i)
+      left_out += (i > 0 ? "; " : "") + run.problems[i];
+    const std::size_t more = run.problems.size() > 5 ? run.problems.size() - 5 + run.problems_not_listed : 0;
+    if (more > 0) left_out += "; and " + count(more) + " more";
+    out += "<p class=\"fc-note\">Left out of the portfolio: " + h(left_out) + ".</p>\n";
+  }
+  if (base.included == 0) {
+    out +=
+        "<p class=\"fc-note\">No obligor is in the portfolio, so there is no loss distribution to "
+        "show.</p>\n";
+    return out + "</section>\n";
+  }
+  const bool usable = !dist.tails.empty() && !dist.exceedance.empty();
+  if (!usable) {
+    out += "<p class=\"fc-note\">The loss distribution could not be computed: " + h(dist.message) + "</p>\n";
+    return out + "</section>\n";
+  }
+  const LossTail& top = dist.tails.back();
+  const double x_end = std::max(1.3 * top.es, 2.0 * dist.expected_loss);
+  const double floor = std::min(1e-5, 0.1 * (1.0 - top.confidence_level));
+  std::vector<double> xs, ys;
+  for (std::size_t k = 0; k < dist.exceedance.size(); ++k) {
+    const double loss = static_cast<double>(k) * dist.loss_unit;
+    if (loss > x_end) break;
+    xs.push_back(loss);
+    ys.push_back(dist.exceedance[k] > 0.0 ? std::max(dist.exceedance[k], floor) : NAN);
+  }
+  SvgAxis x{
+      .label = "portfolio loss (EAD unit)", .min = 0, .max = 1, .log = false, .format = TickFormat::amount};
+  SvgAxis y{.label = "P(loss > x), percent, log scale",
+            .min = floor,
+            .max = 1,
+            .log = true,
+            .format = TickFormat::percent};
+  std::vector<double> xfit = xs;
+  xfit.push_back(top.es);
+  fit_axis(x, xfit, true);
+  fit_axis(y, ys, false, floor);
+  SvgPlot plot(x, y, "Loss distribution: chance of losing more than x", 720.0, 420.0);
+  // Drawn without point markers: one line through every grid point.
+  plot.line(xs, ys, "fc-s1", "P(L > x)", false);
+  plot.vline(dist.expected_loss, "fc-mark-el", "EL " + report_amount(dist.expected_loss));
+  plot.vline(top.var, "fc-mark-var",
+             "VaR " + level_text(top.confidence_level) + " " + report_amount(top.var));
+  plot.vline(top.es, "fc-mark-es", "ES " + level_text(top.confidence_level) + " " + report_amount(top.es));
+  plot.hline(1.0 - top.confidence_level, "fc-ref", "tail " + level_text(1.0 - top.confidence_level));
+  out += figure(
+      plot.str(),
+      "Read across from a probability to the loss it exceeds: the curve gives the chance that the "
+      "portfolio loses more than x over the horizon. Marked: expected loss (EL), and at " +
+          level_text(top.confidence_level) +
+          " the value at risk (the loss exceeded with the tail probability) and the expected shortfall "
+          "(the mean loss beyond it).");
+  HtmlTable t("fc-table fc-portfolio-levels", {"confidence level", "VaR", "ES", "VaR less EL"});
+  for (const LossTail& tail : dist.tails) {
+    t.row({level_text(tail.confidence_level), report_amount(tail.var), report_amount(tail.es),
+           report_amount(tail.var - dist.expected_loss)},
+          true);
+  }
+  out += t.str();
+  out += "<p class=\"fc-note\">Expected loss " + h(report_amount(base.total.expected_loss)) + " on EAD " +
+         h(report_amount(base.total.ead)) + "; Basel IRB capital " +
+         h(report_amount(base.total.irb_capital)) + " (risk-weighted assets " +
+         h(report_amount(base.total.rwa)) + ").</p>\n";
+  // Largest contributors to ES at the top level.
+  const std::size_t n = base.obligors.size();
+  const std::size_t level = dist.tails.size() - 1;
+  if (dist.es_contributions.size() >= (level + 1) * n && n > 0) {
+    std::vector<std::size_t> idx(n);
+    std::iota(idx.begin(), idx.end(), std::size_t{0});
+    const auto contribution = [&](std::size_t i) { return dist.es_contributions[level * n + i]; };
+    std::stable_sort(idx.begin(), idx.end(),
+                     [&](std::size_t a, std::size_t b) { return contribution(a) > contribution(b); });
+    idx.resize(std::min(idx.size(), d.options.top));
+    HtmlTable c("fc-table fc-contributions",
+                {"obligor", "name", "PD", "EAD", "expected loss", "ES contribution", "share of ES"});
+    c.numeric_from(2);
+    for (const std::size_t i : idx) {
+      const PortfolioObligor& o = base.obligors[i];
+      if (!o.ok()) continue;
+      c.row({id_of(d.book.obligors[i]), d.book.obligors[i].get(TextField::name), report_pd(o.pd),
+             report_amount(o.ead), report_amount(o.expected_loss), report_amount(contribution(i)),
+             fixed(100.0 * contribution(i) / top.es, 1) + "%"},
+            true);
+    }
+    out += "<h3>Largest contributors to ES at " + h(level_text(top.confidence_level)) + "</h3>\n" + c.str();
+  }
+  return out + "</section>\n";
+}
+
+std::string grade_move(const GradeScale& scale, const Mover& m) {
+  const std::string a = m.grade_before >= 0 ? std::string(scale.label_at(m.grade_before)) : "-";
+  const std::string b = m.grade_now >= 0 ? std::string(scale.label_at(m.grade_now)) : "-";
+  return a == b ? a : a + " to " + b;
+}
+
+std::string monitoring_section(const ReportData& d) {
+  const ReportMonitoring& mon = *d.monitoring;
+  const Comparison& c = mon.comparison;
+  const GradeScale& scale = d.config.grades;
+  const auto run_text = [](const RunInfo& r) {
+    return "run " + std::to_string(r.run_id) + " (as of " + r.as_of + ")";
+  };
+  std::string out =
+      section_open("monitoring", "Movers and alerts",
+                   "From the history store " + mon.store_path + " (" + count(mon.runs_in_store) +
+                       " runs): " + run_text(mon.runs.now) + " against " + run_text(mon.runs.before) +
+                       ". Alert rules from the settings (monitoring.alerts).");
+  if (mon.runs.now.book_path != d.book.origin) {
+    const std::string label = mon.runs.now.book_label.empty() ? "" : " (" + mon.runs.now.book_label + ")";
+    out += "<p class=\"fc-note\">The store's runs are of " + h(mon.runs.now.book_path + label) +
+           ", not of this report's book " + h(d.book.origin) +
+           ": names and figures here can differ from the "
+           "sections above.</p>\n";
+  }
+  out += "<div class=\"fc-cards\">\n";
+  out += card("continuing", count(c.continuing), count(c.added) + " new, " + count(c.dropped) + " dropped");
+  out += card("downgraded", count(c.downgraded),
+              count(c.upgraded) + " upgraded, " + count(c.unchanged_grade) + " unchanged");
+  out += card("on the watchlist", count(c.flagged), "obligors with at least one alert");
+  out += "</div>\n";
+  // DD change of the names that moved most.
+  std::vector<const Mover*> moved;
+  for (const Mover& m : c.movers) {
+    if (std::isfinite(m.dd_change())) moved.push_back(&m);
+  }
+  std::stable_sort(moved.begin(), moved.end(), [](const Mover* a, const Mover* b) {
+    return std::fabs(a->dd_change()) > std::fabs(b->dd_change());
+  });
+  moved.resize(std::min(moved.size(), std::max<std::size_t>(d.options.top, 10)));
+  std::vector<std::string> names, labels;
+  std::vector<double> values;
+  for (const Mover* m : moved) {
+    names.push_back(fit_text(m->id + " " + m->name, 28));
+    values.push_back(m->dd_change());
+    labels.push_back(format_cell(m->dd_before, CellStyle::decimal3) + " to " +
+                     format_cell(m->dd_now, CellStyle::decimal3));
+  }
+  SvgAxis x{.label = "change of distance to default (standard deviations)",
+            .min = 0,
+            .max = 1,
+            .log = false,
+            .format = TickFormat::plain};
+  out += figure(svg_signed_bars(names, values, labels, x, "Largest moves in distance to default", false),
+                "The names whose distance to default moved most between the two runs. Bars to the left "
+                "(red) mean the obligor came closer to default; the text gives DD before and now.");
+  // Watchlist first (most severe first, as compare_runs orders them), then the other movers.
+  HtmlTable t("fc-table fc-movers", {"obligor", "name", "DD before", "DD now", "DD change", "PD before",
+                                     "PD now", "grade", "alerts"});
+  t.numeric_from(2, 7);
+  std::size_t rows = 0;
+  for (const Mover& m : c.movers) {
+    if (m.severity == 0 && rows >= std::max<std::size_t>(d.options.top, 10)) break;
+    std::string alerts = m.alert_list();
+    std::replace(alerts.begin(), alerts.end(), ';', ' ');
+    if (m.kind != MoveKind::continuing)
+      alerts = std::string(to_string(m.kind)) + (alerts.empty() ? "" : " " + alerts);
+    t.row({m.id, m.name, format_cell(m.dd_before, CellStyle::decimal3),
+           format_cell(m.dd_now, CellStyle::decimal3), format_cell(m.dd_change(), CellStyle::signed3),
+           std::isfinite(m.pd_before) ? report_pd(m.pd_before) : "-",
+           std::isfinite(m.pd_now) ? report_pd(m.pd_now) : "-", grade_move(scale, m), alerts},
+          true, m.severity > 0 ? "fc-alert-row" : "");
+    ++rows;
+  }
+  out += "<h3>Watchlist and movers (most severe first)</h3>\n" + t.str();
+  const AlertRules& r = d.config.monitor.alerts;
+  out += "<p class=\"fc-note\">Alerts: dd_drop, DD fell by more than " + h(plain(r.dd_drop)) +
+         "; pd_jump, PD grew more than " + h(plain(r.pd_ratio)) + " times to at least " +
+         h(level_text(r.pd_ratio_min_pd)) + "; downgrade, " + h(std::to_string(r.downgrade_notches)) +
+         " notches or more; pd_ceiling, PD above " + h(level_text(r.pd_ceiling)) +
+         "; not_scored, in the run but not scored.</p>\n";
+  return out + "</section>\n";
+}
+
+constexpr const char* kStyle = R"(
+:root { --ink: #1c2733; --muted: #5b6672; --paper: #fbfaf6; --rule: #d9d4c7; --teal: #1f6f6b; --sand: #c9a227;
+  --brick: #a63d2f; --slate: #5d7a99; --leaf: #6b8f3a; }
+* { box-sizing: border-box; }
+body { margin: 0; background: var(--paper); color: var(--ink);
+  font: 14px/1.45 "DejaVu Sans", "Liberation Sans", "Helvetica Neue", Arial, sans-serif; }
+.fc-masthead { background: var(--ink); color: #f4f1e8; padding: 22px 36px 18px; border-bottom: 6px solid var(--sand); }
+.fc-masthead h1 { margin: 0 0 4px; font-size: 26px; letter-spacing: 0.01em; }
+.fc-sub { margin: 0; color: #cfd6dc; }
+.fc-caution { margin: 14px 0 0; padding: 8px 12px; border-left: 4px solid var(--sand); background: #2a3744;
+  color: #f4f1e8; font-size: 13px; }
+.fc-toc { margin: 12px 0 0; font-size: 13px; }
+.fc-toc a { color: #f4f1e8; margin-right: 14px; text-decoration: none; border-bottom: 1px dotted #9fb0bf; }
+.fc-absent { margin: 8px 0 0; color: #cfd6dc; font-size: 12.5px; }
+main { padding: 8px 36px 24px; max-width: 1100px; }
+.fc-section { padding: 18px 0 12px; border-bottom: 1px solid var(--rule); }
+.fc-section h2 { font-size: 20px; margin: 6px 0 4px; color: var(--teal); }
+.fc-section h3 { font-size: 15px; margin: 18px 0 6px; }
+.fc-lead { margin: 0 0 12px; color: var(--muted); max-width: 860px; }
+.fc-cards { display: flex; flex-wrap: wrap; gap: 10px; margin: 8px 0 14px; }
+.fc-card { flex: 1 1 150px; background: #fff; border: 1px solid var(--rule); border-top: 3px solid var(--teal);
+  padding: 8px 10px; }
+.fc-card-label { font-size: 12px; color: var(--muted); text-transform: uppercase; letter-spacing: 0.04em; }
+.fc-card-value { font-size: 21px; font-weight: bold; margin: 2px 0; }
+.fc-card-note { font-size: 11.5px; color: var(--muted); }
+.fc-figure { margin: 10px 0 14px; background: #fff; border: 1px solid var(--rule); padding: 8px 10px 6px;
+  max-width: 760px; break-inside: avoid; }
+.fc-figure figcaption { font-size: 12.5px; color: var(--muted); margin: 4px 2px 2px; }
+svg.fc-chart { display: block; max-width: 100%; height: auto; font-size: 12px; font-family: inherit; }
+.fc-chart-title { font-size: 14px; font-weight: bold; fill: var(--ink); }
+.fc-plot-bg { fill: #fdfcf9; stroke: none; }
+.fc-grid { stroke: #e6e1d5; stroke-width: 1; }
+.fc-axis { fill: none; stroke: var(--ink); stroke-width: 1.2; }
+.fc-tick { fill: #3e4a56; font-size: 11px; }
+.fc-axis-title { fill: var(--ink); font-size: 12px; }
+.fc-legend { fill: var(--ink); font-size: 11px; }
+.fc-legend-bg { fill: #ffffff; fill-opacity: 0.85; stroke: var(--rule); }
+.fc-point-label { fill: var(--brick); font-size: 11px; font-weight: bold; }
+.fc-marker-label { font-size: 11px; font-weight: bold; fill: var(--ink); }
+.fc-dot-strong { fill: var(--teal); fill-opacity: 0.75; stroke: #ffffff; stroke-width: 0.8; }
+.fc-dot-middle { fill: var(--sand); fill-opacity: 0.85; stroke: #ffffff; stroke-width: 0.8; }
+.fc-dot-weak { fill: #d0742c; stroke: #ffffff; stroke-width: 0.8; }
+.fc-dot-distressed { fill: var(--brick); stroke: var(--ink); stroke-width: 1; }
+.fc-ref { stroke: var(--brick); stroke-width: 1.2; stroke-dasharray: 6 4; }
+.fc-ref-text { fill: var(--brick); }
+.fc-bar-base { fill: var(--teal); }
+.fc-bar-alt { fill: var(--sand); }
+.fc-bar-worse { fill: var(--brick); }
+.fc-bar-better { fill: var(--leaf); }
+.fc-bar-label { fill: var(--ink); font-size: 10.5px; }
+.fc-zero { stroke: var(--ink); stroke-width: 1.2; }
+.fc-line { fill: none; stroke-width: 2; }
+.fc-mark { stroke: #ffffff; stroke-width: 0.8; }
+.fc-s1 { stroke: var(--teal); fill: var(--teal); }
+.fc-s2 { stroke: var(--brick); fill: var(--brick); }
+.fc-s3 { stroke: var(--sand); fill: var(--sand); }
+.fc-s4 { stroke: var(--slate); fill: var(--slate); }
+.fc-s5 { stroke: var(--leaf); fill: var(--leaf); }
+.fc-s6 { stroke: #7a4f8c; fill: #7a4f8c; }
+.fc-line.fc-s1, .fc-line.fc-s2, .fc-line.fc-s3, .fc-line.fc-s4, .fc-line.fc-s5, .fc-line.fc-s6 { fill: none; }
+.fc-key { stroke: none; }
+.fc-mark-el { stroke: var(--leaf); stroke-width: 2; }
+.fc-mark-var { stroke: var(--sand); stroke-width: 2; }
+.fc-mark-es { stroke: var(--brick); stroke-width: 2; stroke-dasharray: 5 3; }
+.fc-table { border-collapse: collapse; margin: 6px 0 10px; font-size: 12.5px; background: #fff; }
+.fc-table th { text-align: left; border-bottom: 2px solid var(--ink); padding: 4px 8px; font-weight: bold; }
+.fc-table td { border-bottom: 1px solid #ebe6da; padding: 3px 8px; }
+.fc-table .fc-num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+.fc-table th.fc-num { white-space: normal; vertical-align: bottom; }
+.fc-table tbody tr:nth-child(even) td { background: #faf8f2; }
+.fc-alert-row td { color: var(--brick); font-weight: bold; }
+.fc-note { font-size: 12.5px; color: var(--muted); }
+.fc-scenarios { font-size: 12.5px; color: var(--muted); margin: 4px 0 12px; padding-left: 18px; }
+footer { padding: 14px 36px 28px; color: var(--muted); font-size: 12px; }
+@page { size: A4 landscape; margin: 12mm; }
+@media print {
+  body { background: #ffffff; font-size: 11px; }
+  .fc-masthead { background: #ffffff; color: var(--ink); border-bottom: 3px solid var(--ink); padding: 0 0 8px; }
+  .fc-sub, .fc-absent { color: var(--muted); }
+  .fc-caution { background: #ffffff; color: var(--ink); border: 1px solid var(--ink); }
+  .fc-toc { display: none; }
+  main { padding: 0; max-width: none; }
+  .fc-section { break-before: page; border-bottom: none; }
+  .fc-figure { border: none; padding: 0; }
+  .fc-table { font-size: 10px; }
+  tr { break-inside: avoid; }
+}
+)";
+
+}  // namespace
+
+std::string report_pd(double pd) {
+  return std::isfinite(pd) ? format_cell(pd, CellStyle::percent_pd) + "%" : "-";
+}
+
+std::string report_spread_bp(double v) {
+  if (!std::isfinite(v)) return "-";
+  char buf[64];
+  if (v == 0.0) {
+    std::snprintf(buf, sizeof buf, "0");
+  } else if (std::fabs(v) >= 0.1 && std::fabs(v) < 1e7) {
+    std::snprintf(buf, sizeof buf, "%.2f", v);
+  } else {
+    std::snprintf(buf, sizeof buf, "%.2e", v);
+  }
+  return buf;
+}
+
+std::string report_amount(double v, int decimals) {
+  return std::isfinite(v) ? group_thousands(v, decimals) : "-";
+}
+
+const std::vector<std::string>& report_section_ids() {
+  static const std::vector<std::string> ids = {"summary", "dd-leverage", "names",     "stress",
+                                               "term",    "portfolio",   "monitoring"};
+  return ids;
+}
+
+ReportData gather_report(const ReportOptions& options, const Config& config) {
+  ReportData d;
+  d.options = options;
+  d.config = config;
+  d.book = load_book(options.book_path);
+  const ScoreSettings& settings = config.score;
+  d.scored.resize(d.book.obligors.size());
+  for (std::size_t i = 0; i < d.book.obligors.size(); ++i) {
+    score_obligor(d.book.obligors[i], d.book.defaults, settings, d.scored[i]);
+  }
+  if (!options.term_ids.empty()) {
+    TermChoices choices;
+    choices.horizons = options.horizons;
+    d.term_run = term_run_options(config.term, choices);
+    for (const std::string& id : options.term_ids) {
+      const auto it = std::find_if(d.book.obligors.begin(), d.book.obligors.end(),
+                                   [&id](const ObligorRecord& r) { return id_of(r) == id; });
+      if (it == d.book.obligors.end()) {
+        throw InputError("--names: obligor '" + id + "' is not in " + d.book.origin);
+      }
+      const auto pos = static_cast<std::size_t>(it - d.book.obligors.begin());
+      if (std::find(d.term_index.begin(), d.term_index.end(), pos) != d.term_index.end()) {
+        throw InputError("--names: obligor '" + id + "' is named twice");
+      }
+      d.term_index.push_back(pos);
+      d.terms.emplace_back();
+      score_term_obligor(*it, d.book.defaults, settings, d.term_run, d.terms.back());
+    }
+  }
+  if (!options.scenarios_path.empty()) {
+    ScenarioSet set = load_scenarios(options.scenarios_path);
+    check_filters(set, d.book);
+    auto st = std::make_unique<ReportStress>();
+    st->origin = set.origin;
+    StressRunOptions run;
+    run.format = OutputFormat::csv;
+    st->summary =
+        run_stress(d.book, set.scenarios, set.origin, settings, config.stress, run, [](std::string_view) {});
+    for (const Scenario& sc : set.scenarios) {
+      std::vector<StressedObligor> rows(d.book.obligors.size());
+      for (std::size_t i = 0; i < rows.size(); ++i) {
+        stress_obligor(d.scored[i], sc.effect_for(d.book.obligors[i]), settings, false, rows[i]);
+      }
+      st->rows.push_back(std::move(rows));
+    }
+    st->scenarios = std::move(set.scenarios);
+    d.stress = std::move(st);
+  }
+  if (options.portfolio) {
+    std::unique_ptr<CorrelationFile> correlation;
+    if (!options.correlation_path.empty()) {
+      correlation = std::make_unique<CorrelationFile>(load_correlation_file(options.correlation_path));
+    }
+    PortfolioRunOptions ro;
+    ro.threads = std::max(1U, options.threads);
+    d.portfolio =
+        std::make_unique<PortfolioRun>(run_portfolio(d.book, {}, "", correlation.get(), config, ro));
+  }
+  if (!options.store_path.empty()) {
+    auto mon = std::make_unique<ReportMonitoring>();
+    const RunStore store(options.store_path, StoreOpen::existing, config.monitor.busy_timeout_seconds);
+    mon->store_path = options.store_path;
+    mon->runs_in_store = store.runs().size();
+    mon->runs = select_runs(store, options.run, options.against);
+    mon->before = store.obligors(mon->runs.before.run_id, false);
+    mon->now = store.obligors(mon->runs.now.run_id, false);
+    mon->comparison = compare_runs(mon->before, mon->now, config.grades, config.monitor.alerts);
+    d.monitoring = std::move(mon);
+  }
+  return d;
+}
+
+std::string html_report(const ReportData& d) {
+  const BookFigures f = book_figures(d);
+  std::string title = d.options.title;
+  if (title.empty()) title = d.book.label.empty() ? "Credit book report: " + d.book.origin : d.book.label;
+  std::string out =
+      "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n"
+      "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\"/>\n<title>" +
+      h(title) + "</title>\n<style>" + kStyle +
+      "</style>\n</head>\n<body>\n<header class=\"fc-masthead\">\n<h1>" + h(title) +
+      "</h1>\n<p class=\"fc-sub\">" + h(d.book.origin) +
+      (d.book.as_of.empty() ? std::string() : " &#183; as of " + h(d.book.as_of)) + " &#183; " +
+      h(count(f.obligors)) + " obligors &#183; " + h(to_string(d.config.score.measure)) +
+      " measure</p>\n<p class=\"fc-caution\"><strong>Model caution.</strong> These figures are model "
+      "estimates under stated assumptions (Merton 1974 and its extensions), not a credit decision on their "
+      "own. "
+      "Use them within your institution's model-risk policy and the regulation that applies to you.</p>\n";
+  struct Part {
+    std::string id, title, missing;
+    bool present;
+  };
+  const std::vector<Part> parts = {
+      {"summary", "Summary", "", true},
+      {"dd-leverage", "DD and leverage", "", f.scored > 0},
+      {"names", "Names", "", f.scored > 0},
+      {"stress", "Stress", "stress results (give --scenarios FILE)", d.stress != nullptr},
+      {"term", "Term structures", "PD term structures (give --names ID,ID)", !d.terms.empty()},
+      {"portfolio", "Portfolio loss", "portfolio loss distribution (give --portfolio)",
+       d.portfolio != nullptr},
+      {"monitoring", "Movers and alerts", "movers and alerts (give --db STORE)", d.monitoring != nullptr}};
+  out += "<nav class=\"fc-toc\">";
+  std::string missing;
+  for (const Part& p : parts) {
+    if (p.present) out += "<a href=\"#" + p.id + "\">" + h(p.title) + "</a>";
+    if (!p.present && !p.missing.empty()) missing += (missing.empty() ? "" : "; ") + p.missing;
+  }
+  out += "</nav>\n";
+  if (!missing.empty()) out += "<p class=\"fc-absent\">Not in this report: " + h(missing) + ".</p>\n";
+  out += "</header>\n<main>\n";
+  out += summary_section(d, f);
+  if (f.scored > 0) {
+    out += scatter_section(d);
+    out += names_section(d);
+  }
+  if (d.stress) out += stress_section(d);
+  if (!d.terms.empty()) out += term_section(d);
+  if (d.portfolio && !d.portfolio->scenarios.empty()) out += portfolio_section(d);
+  if (d.monitoring) out += monitoring_section(d);
+  out +=
+      "</main>\n<footer>\n<p>Made by firmcall " + h(d.options.tool_version) + " from " + h(d.book.origin) +
+      ". PD: Merton model, " + h(to_string(d.config.score.measure)) +
+      " measure, each obligor's own horizon; default point = short-term debt + w x long-term debt unless "
+      "given (w from the command line, the book or the settings); grades on the master scale of the "
+      "settings. Percentages of PD "
+      "follow the score table's rounding (four decimals, scientific below 0.001%).</p>\n<p>Model caution: "
+      "figures are model estimates, not a credit decision on their own.</p>\n</footer>\n</body>\n</html>\n";
+  return out;
+}
+
+}  // namespace firmcall
