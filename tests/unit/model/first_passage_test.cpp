@@ -144,7 +144,7 @@ TEST_CASE("in-out parity: down-and-out + down-and-in = vanilla call over a grid"
 }
 
 TEST_CASE("first-passage PD and the down-and-out call agree with Monte Carlo (Brownian bridge)") {
-  // Independent reference: tests/barrier_monte_carlo.hpp (exact log-normal steps, bridge-corrected
+  // Independent reference: tests/support/barrier_monte_carlo.hpp (exact log-normal steps, bridge-corrected
   // survival weights; fixed seeds). Each closed form must lie within 4 standard errors.
   const std::vector<double> horizons = {0.5, 1, 2, 3, 5, 7, 10};
   struct PdCase {

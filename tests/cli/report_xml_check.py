@@ -2,7 +2,7 @@
 """Checks a firmcall HTML report with a real XML parser (the expat parser of Python's standard
 library): the whole page, and each inline SVG chart on its own, must be well-formed XML.
 
-    python3 tests/report_xml_check.py FIRMCALL SOURCE_DIR
+    python3 tests/cli/report_xml_check.py FIRMCALL SOURCE_DIR
 
 Records the weekly samples into a temporary store, writes the README's full sample report, then
 parses it. Exit code 0 when every check passes, 1 otherwise (CTest test report_xml_well_formed).

@@ -1,5 +1,5 @@
 // Tests of the Merton inversion against an independent long-double reference solver
-// (tests/reference_solver.hpp: nested bisection), over realistic and extreme inputs.
+// (tests/support/reference_solver.hpp: nested bisection), over realistic and extreme inputs.
 #include <doctest/doctest.h>
 
 #include <algorithm>

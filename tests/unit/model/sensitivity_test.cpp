@@ -204,7 +204,7 @@ TEST_CASE("sensitivities agree with central finite differences over a wide gener
 }
 
 TEST_CASE("sensitivities agree with differences of the independent long-double reference solver") {
-  // Independent computation: tests/reference_solver.hpp solves the model by nested bisection in
+  // Independent computation: tests/support/reference_solver.hpp solves the model by nested bisection in
   // long double (none of src/ is used for the differences). Central differences with a 1e-5
   // relative step have truncation error ~1e-10 and, at long-double precision, rounding ~1e-14.
   testing::SampleGenerator gen(7);

@@ -23,7 +23,7 @@ double pd_after(const MertonInputs& base, const Shock& shock) {
   return merton_measures(in, s.asset_value, s.asset_vol_annual).pd;
 }
 
-// PD from the independent long-double reference solver (tests/reference_solver.hpp).
+// PD from the independent long-double reference solver (tests/support/reference_solver.hpp).
 double reference_pd(const MertonInputs& in) {
   const auto r = testing::reference_solve(in.equity_value, in.equity_vol_annual, in.default_point,
                                           in.risk_free_rate_cc, in.horizon_years);
@@ -80,7 +80,7 @@ TEST_CASE("re-running with the found shock gives the target PD to 1e-9") {
 }
 
 TEST_CASE("the found equity fall agrees with the independent long-double reference solver") {
-  // Independent computation: tests/reference_solver.hpp (nested bisection in long double).
+  // Independent computation: tests/support/reference_solver.hpp (nested bisection in long double).
   // This obligor's PD (about 1e-6 as it stands) approaches only about 6e-4 as its equity falls
   // towards 0 with equity volatility held, so the fall is searched for a 2e-4 level.
   const ReverseResult fall = reverse_equity_fall(kObligor, 2e-4);

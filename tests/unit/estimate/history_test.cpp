@@ -160,7 +160,7 @@ TEST_CASE("naive method over a history uses the window's volatility and return")
 }
 
 TEST_CASE("one-day inversion matches the long-double reference") {
-  // Reference: tests/reference_solver.hpp, nested bisection in long double (independent code).
+  // Reference: tests/support/reference_solver.hpp, nested bisection in long double (independent code).
   struct Case {
     double e, dp, r, t, sv;
   };
@@ -179,7 +179,7 @@ TEST_CASE("one-day inversion matches the long-double reference") {
 }
 
 TEST_CASE("iterative and mle recover the simulated asset volatility") {
-  // Simulated truth (tests/simulated_history.hpp). Tolerance: 4 asymptotic standard errors
+  // Simulated truth (tests/support/simulated_history.hpp). Tolerance: 4 asymptotic standard errors
   // sigma / sqrt(2n) for n returns; each check fails by chance with probability ~6e-5.
   struct Case {
     double sv, dp, mu;

@@ -3,7 +3,7 @@
 // out of the page), numbers shown against the CSV output of the score, stress, portfolio and movers
 // commands for the same inputs, sections left out when their data is missing, escaping, and bad
 // input. The XML well-formedness of the page and of each chart is checked by a real XML parser in
-// tests/report_xml_check.py (CTest test report_xml_well_formed).
+// tests/cli/report_xml_check.py (CTest test report_xml_well_formed).
 #include <doctest/doctest.h>
 
 #include <cmath>
