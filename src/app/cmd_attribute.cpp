@@ -19,7 +19,7 @@ struct AttributeCli {
 };
 }  // namespace
 
-void add_attribute_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+void add_attribute_command(CLI::App& app, const GlobalOptions& global, CommandAction& run) {
   auto opts = std::make_shared<AttributeCli>();
   CLI::App* cmd = app.add_subcommand("attribute",
                                      "Why PDs moved between two runs: each change split over equity value, "

@@ -41,7 +41,7 @@ void print_lines(const std::vector<std::string>& lines) {
 }
 }  // namespace
 
-void add_history_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+void add_history_command(CLI::App& app, const GlobalOptions& global, CommandAction& run) {
   auto opts = std::make_shared<HistoryCli>();
   CLI::App* cmd = app.add_subcommand(
       "history", "Estimate asset volatility, drift and distance to default from a history of equity values");
@@ -113,7 +113,7 @@ void add_history_command(CLI::App& app, const GlobalOptions& global, CommandRun&
       const HistorySources src{&book, &prices, sheets ? &*sheets : nullptr};
 
       if (opts->score) {
-        ScoreRunOptions runopts;
+        ScoreBookOptions runopts;
         runopts.format = format_of(opts->format);
         runopts.threads = threads;
         ScoreSummary summary;
@@ -143,7 +143,7 @@ void add_history_command(CLI::App& app, const GlobalOptions& global, CommandRun&
         return summary.failed() > 0 ? kExitRowsFailed : kExitOk;
       }
 
-      HistoryRunOptions runopts;
+      HistoryBookOptions runopts;
       runopts.estimator = {.method = *history_method_from_string(opts->method), .equity_vol = vol};
       runopts.format = format_of(opts->format);
       runopts.threads = threads;

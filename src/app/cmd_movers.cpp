@@ -33,7 +33,7 @@ int run_movers(const Config& config, const StoreReadOptions& store_options, std:
   return kExitOk;
 }
 
-void add_movers_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+void add_movers_command(CLI::App& app, const GlobalOptions& global, CommandAction& run) {
   auto opts = std::make_shared<MoversCli>();
   CLI::App* cmd = app.add_subcommand(
       "movers",

@@ -86,7 +86,7 @@ class Progress {
 
 }  // namespace
 
-void add_portfolio_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+void add_portfolio_command(CLI::App& app, const GlobalOptions& global, CommandAction& run) {
   auto opts = std::make_shared<PortfolioCli>();
   CLI::App* cmd = app.add_subcommand(
       "portfolio",
@@ -173,7 +173,7 @@ void add_portfolio_command(CLI::App& app, const GlobalOptions& global, CommandRu
       }
       if (opts->seed) config.portfolio.seed = *opts->seed;
       if (opts->loss_grid) config.portfolio.loss_grid_points = *opts->loss_grid;
-      PortfolioRunOptions ro;
+      PortfolioBookOptions ro;
       if (!opts->asset_correlation.empty()) {
         if (opts->asset_correlation == "basel") {
           ro.basel_correlation = true;
@@ -222,7 +222,7 @@ void add_portfolio_command(CLI::App& app, const GlobalOptions& global, CommandRu
       if (!opts->correlation.empty()) {
         correlation = std::make_unique<CorrelationFile>(load_correlation_file(opts->correlation));
       }
-      const PortfolioRun result =
+      const PortfolioResult result =
           run_portfolio(book, scenarios, opts->scenarios, correlation.get(), config, ro);
       progress.clear();
       {

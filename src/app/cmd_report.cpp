@@ -20,7 +20,7 @@ struct ReportCli {
 };
 }  // namespace
 
-void add_report_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+void add_report_command(CLI::App& app, const GlobalOptions& global, CommandAction& run) {
   auto opts = std::make_shared<ReportCli>();
   CLI::App* cmd = app.add_subcommand(
       "report",
@@ -40,7 +40,7 @@ void add_report_command(CLI::App& app, const GlobalOptions& global, CommandRun& 
   cmd->add_option("-c,--correlation", opts->report.correlation_path,
                   "Sector correlation file for the portfolio section (as for `firmcall portfolio`)");
   cmd->add_option("--db", opts->report.store_path, "History store: adds the movers and alerts section");
-  cmd->add_option("--run", opts->report.run,
+  cmd->add_option("--run", opts->report.store_run,
                   "Run of the store to show: run id or as-of date (default: latest)");
   cmd->add_option("--against", opts->report.against,
                   "Run to compare with: run id or as-of date (default: the run before --run)");
@@ -65,7 +65,7 @@ void add_report_command(CLI::App& app, const GlobalOptions& global, CommandRun& 
       if (!o.correlation_path.empty() && !o.portfolio) {
         throw InputError("--correlation: applies to the portfolio section; give --portfolio as well");
       }
-      if ((!o.run.empty() || !o.against.empty()) && o.store_path.empty()) {
+      if ((!o.store_run.empty() || !o.against.empty()) && o.store_path.empty()) {
         throw InputError("--run/--against: apply to the movers section; give --db STORE as well");
       }
       o.threads = opts->threads > 0 ? opts->threads : std::max(1U, std::thread::hardware_concurrency());

@@ -10,7 +10,7 @@
 
 namespace firmcall::cli {
 
-void add_runs_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+void add_runs_command(CLI::App& app, const GlobalOptions& global, CommandAction& run) {
   auto opts = std::make_shared<StoreReadOptions>();
   CLI::App* cmd = app.add_subcommand("runs", "List the runs recorded in the history store (score --record)");
   add_store_read_options(cmd, *opts, false);

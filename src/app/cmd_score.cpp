@@ -29,7 +29,7 @@ struct ScoreCli {
   bool record = false;  // --record: also write the run to the history store
   std::string db;
   std::string as_of;
-  TermChoices term;
+  TermOptionText term;
 };
 
 struct FileCloser {
@@ -37,8 +37,8 @@ struct FileCloser {
 };
 
 // `score --horizons ...` / `--model ...`: the PD term-structure path (term_run.hpp).
-int run_term_structure(const std::string& book_path, const ScoreSettings& settings, const TermRunOptions& run,
-                       const std::string& output, bool quiet) {
+int run_term_structure(const std::string& book_path, const ScoreSettings& settings,
+                       const TermBookOptions& run, const std::string& output, bool quiet) {
   ScoreSummary summary;
   std::size_t rows = 0;
   {
@@ -76,7 +76,7 @@ unsigned default_threads() {
   return std::max(1U, std::thread::hardware_concurrency());
 }
 
-void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+void add_score_command(CLI::App& app, const GlobalOptions& global, CommandAction& run) {
   auto opts = std::make_shared<ScoreCli>();
   CLI::App* cmd =
       app.add_subcommand("score", "Score every obligor of a book (YAML or CSV) with the Merton model");
@@ -123,14 +123,14 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& r
       if (opts->rate && (*opts->rate < -1.0 || *opts->rate > 1.0)) {
         throw InputError("--rate: expected a continuously compounded decimal in [-1, 1] (0.03 means 3%)");
       }
-      ScoreRunOptions runopts;
+      ScoreBookOptions runopts;
       runopts.format = opts->format == "csv"    ? OutputFormat::csv
                        : opts->format == "json" ? OutputFormat::json
                                                 : OutputFormat::table;
       runopts.threads = opts->threads > 0 ? opts->threads : default_threads();
       runopts.sensitivities = opts->sensitivities;
       if (opts->grades) runopts.grades = &config.grades;
-      TermRunOptions term = term_run_options(config.term, opts->term);  // checks the term options
+      TermBookOptions term = term_book_options(config.term, opts->term);  // checks the term options
       if (wants_term_structure(opts->term)) {
         if (opts->sensitivities) {
           throw InputError("--sensitivities: not available with term structures (--horizons, --model)");

@@ -32,7 +32,7 @@ struct StressCli {
   std::optional<double> weight;
   std::string measure;
   unsigned threads = 0;
-  TermChoices term;
+  TermOptionText term;
 };
 
 constexpr std::size_t kMaxGridValues = 50;
@@ -62,7 +62,7 @@ void check_grid(const std::vector<double>& values, const char* option, bool mult
 }
 }  // namespace
 
-void add_stress_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+void add_stress_command(CLI::App& app, const GlobalOptions& global, CommandAction& run) {
   auto opts = std::make_shared<StressCli>();
   CLI::App* cmd = app.add_subcommand(
       "stress",
@@ -142,7 +142,7 @@ void add_stress_command(CLI::App& app, const GlobalOptions& global, CommandRun& 
       check_grid(opts->vol_multipliers, "--equity-vol-multipliers", true);
 
       Config config = global.config();
-      TermRunOptions term = term_run_options(config.term, opts->term);  // checks the term options
+      TermBookOptions term = term_book_options(config.term, opts->term);  // checks the term options
       const bool term_run = wants_term_structure(opts->term);
       if (term_run && opts->reverse_pd) {
         throw InputError("--reverse-pd: cannot be combined with term structures (--horizons, --model)");
@@ -159,7 +159,7 @@ void add_stress_command(CLI::App& app, const GlobalOptions& global, CommandRun& 
       StressSettings stress = config.stress;
       if (opts->pd_threshold) stress.pd_threshold = *opts->pd_threshold;
 
-      StressRunOptions runopts;
+      StressBookOptions runopts;
       runopts.format = opts->format == "csv"    ? OutputFormat::csv
                        : opts->format == "json" ? OutputFormat::json
                                                 : OutputFormat::table;

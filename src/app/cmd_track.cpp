@@ -17,7 +17,7 @@ struct TrackCli {
 };
 }  // namespace
 
-void add_track_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+void add_track_command(CLI::App& app, const GlobalOptions& global, CommandAction& run) {
   auto opts = std::make_shared<TrackCli>();
   CLI::App* cmd =
       app.add_subcommand("track", "One obligor's distance to default, PD and grade in every recorded run");

@@ -12,7 +12,7 @@ struct WatchlistCli {
 };
 }  // namespace
 
-void add_watchlist_command(CLI::App& app, const GlobalOptions& global, CommandRun& run) {
+void add_watchlist_command(CLI::App& app, const GlobalOptions& global, CommandAction& run) {
   auto opts = std::make_shared<WatchlistCli>();
   CLI::App* cmd = app.add_subcommand(
       "watchlist", "Obligors that meet an alert rule (settings: monitoring.alerts), most severe first");

@@ -30,7 +30,7 @@ inline OutputFormat output_format(const std::string& word) {
 }
 
 /// A command's body, run after parsing; returns the process exit code.
-using CommandRun = std::function<int()>;
+using CommandAction = std::function<int()>;
 
 /// The caution printed in --help and the README.
 inline constexpr const char* kCaution =
@@ -41,7 +41,7 @@ inline constexpr const char* kCaution =
 /// Worker threads when -j is not given: all cores (cmd_score.cpp).
 unsigned default_threads();
 /// Adds the PD term-structure options (shared by score and stress) to a command.
-inline void add_term_options(CLI::App* cmd, TermChoices& c) {
+inline void add_term_options(CLI::App* cmd, TermOptionText& c) {
   cmd->add_option("--horizons", c.horizons,
                   "PD term structure at these horizons in years, e.g. 0.5,1,2,3,5,7,10 (one row per obligor, "
                   "model and horizon)");
@@ -56,14 +56,14 @@ inline void add_term_options(CLI::App* cmd, TermChoices& c) {
                   "Growth of the first-passage barrier, continuously compounded decimal a year (default 0)");
 }
 
-void add_score_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
-void add_history_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
-void add_stress_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
-void add_runs_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
-void add_movers_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
-void add_watchlist_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
-void add_attribute_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
-void add_track_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
+void add_score_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
+void add_history_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
+void add_stress_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
+void add_runs_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
+void add_movers_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
+void add_watchlist_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
+void add_attribute_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
+void add_track_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
 
 /// Options shared by the commands that read the history store.
 struct StoreReadOptions {
@@ -101,7 +101,7 @@ inline void add_store_read_options(CLI::App* cmd, StoreReadOptions& o, bool runs
 /// `firmcall movers` and `firmcall watchlist` (only obligors with an alert): compares the runs the
 /// options select and writes the report; returns the exit code.
 int run_movers(const Config& config, const StoreReadOptions& store, std::size_t top, bool watchlist);
-void add_portfolio_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
-void add_report_command(CLI::App& app, const GlobalOptions& global, CommandRun& run);
+void add_portfolio_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
+void add_report_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
 
 }  // namespace firmcall::cli

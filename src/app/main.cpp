@@ -33,7 +33,7 @@ int main(int argc, char** argv) {
       ->check(CLI::ExistingFile);
   app.add_flag("-q,--quiet", global.quiet, "No notes or progress on standard error");
 
-  cli::CommandRun run;
+  cli::CommandAction run;
   cli::add_score_command(app, global, run);
   cli::add_history_command(app, global, run);
   cli::add_stress_command(app, global, run);

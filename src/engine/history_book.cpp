@@ -630,7 +630,7 @@ const std::vector<std::string_view>& history_columns() {
 }
 
 HistorySummary run_history(const HistorySources& src, const ScoreSettings& score_settings,
-                           const HistorySettings& settings, const HistoryRunOptions& run,
+                           const HistorySettings& settings, const HistoryBookOptions& run,
                            const TextSink& sink, const TextSink* series) {
   const Book& book = *src.book;
   const auto writer = make_history_writer(run.format, src, settings, run.estimator);
@@ -746,7 +746,7 @@ HistorySummary run_history(const HistorySources& src, const ScoreSettings& score
 
 ScoreSummary score_with_history(const HistorySources& src, const ScoreSettings& score_settings,
                                 const HistorySettings& settings, VolEstimator estimator,
-                                const ScoreRunOptions& run, const TextSink& sink) {
+                                const ScoreBookOptions& run, const TextSink& sink) {
   Book scored = *src.book;
   scored.notes.insert(scored.notes.end(), src.history->notes.begin(), src.history->notes.end());
   if (src.sheets != nullptr)

@@ -94,7 +94,7 @@ Static static_of(const ObligorRecord& rec, const ScoredObligor& base, const Corr
 
 void fill_obligor(const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor* stressed,
                   const Static& st, const CorrelationFile* corr, const Config& config,
-                  const PortfolioRunOptions& options, PortfolioObligor& out) {
+                  const PortfolioBookOptions& options, PortfolioObligor& out) {
   out = PortfolioObligor{};
   const ResolvedObligor& r = base.resolved;
   if (r.ok()) {
@@ -191,7 +191,7 @@ std::vector<GroupTotals*> groups_of(PortfolioScenarioResult& res) {
 
 // Runs every model over the included obligors of `res` and fills its results.
 void compute(const Book& book, const CorrelationFile* corr, const Config& config,
-             const PortfolioRunOptions& options, PortfolioScenarioResult& res,
+             const PortfolioBookOptions& options, PortfolioScenarioResult& res,
              std::vector<std::string>& notes) {
   const std::size_t n = res.obligors.size();
   const auto& levels = config.portfolio.confidence_levels;
@@ -299,9 +299,9 @@ void compute(const Book& book, const CorrelationFile* corr, const Config& config
 
 }  // namespace
 
-PortfolioRun run_portfolio(const Book& book, const std::vector<Scenario>& scenarios,
-                           const std::string& scenario_origin, const CorrelationFile* corr,
-                           const Config& config, const PortfolioRunOptions& options) {
+PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& scenarios,
+                              const std::string& scenario_origin, const CorrelationFile* corr,
+                              const Config& config, const PortfolioBookOptions& options) {
   for (const Scenario& sc : scenarios) {
     if (sc.name == "base") {
       throw InputError(
@@ -309,7 +309,7 @@ PortfolioRun run_portfolio(const Book& book, const std::vector<Scenario>& scenar
                   "scenario 'base': the name is reserved for the book as it stands in portfolio runs"));
     }
   }
-  PortfolioRun run;
+  PortfolioResult run;
   run.book_origin = book.origin;
   run.correlation_origin = corr ? corr->origin : "";
   run.scenario_origin = scenario_origin;

@@ -27,7 +27,7 @@ Cell txt(std::string s) {
   return Cell{true, std::move(s), kNaN};
 }
 
-std::vector<Cell> row_cells(const PortfolioRun& run, const PortfolioScenarioResult& sc, const Book& book,
+std::vector<Cell> row_cells(const PortfolioResult& run, const PortfolioScenarioResult& sc, const Book& book,
                             std::size_t i) {
   const std::size_t n = sc.obligors.size();
   const std::size_t L = run.confidence_levels.size();
@@ -142,7 +142,7 @@ std::string with_se(double v, double se, int decimals) {
   return small(v, decimals) + " (" + small(se, decimals) + ")";
 }
 
-std::string correlation_text(const PortfolioRun& run) {
+std::string correlation_text(const PortfolioResult& run) {
   if (run.options.basel_correlation) return "the Basel corporate function of PD for every obligor";
   if (run.options.asset_correlation) {
     return small(100.0 * *run.options.asset_correlation, 1) + "% for every obligor (--asset-correlation)";
@@ -162,7 +162,7 @@ void group_line(std::string& out, const std::string& label, const GroupTotals& g
   out += buf;
 }
 
-void measures_table(std::string& out, const PortfolioRun& run, const PortfolioScenarioResult& sc) {
+void measures_table(std::string& out, const PortfolioResult& run, const PortfolioScenarioResult& sc) {
   const std::size_t L = run.confidence_levels.size();
   const bool mc = sc.simulated;
   const int width = mc ? 22 : 13;
@@ -219,7 +219,7 @@ void groups_table(std::string& out, const PortfolioScenarioResult& sc, bool with
   }
 }
 
-void obligor_table(std::string& out, const PortfolioRun& run, const PortfolioScenarioResult& sc,
+void obligor_table(std::string& out, const PortfolioResult& run, const PortfolioScenarioResult& sc,
                    const Book& book) {
   const std::size_t n = sc.obligors.size();
   const std::size_t L = run.confidence_levels.size();
@@ -259,7 +259,7 @@ void obligor_table(std::string& out, const PortfolioRun& run, const PortfolioSce
   }
 }
 
-void write_table(const PortfolioRun& run, const Book& book, const TextSink& sink) {
+void write_table(const PortfolioResult& run, const Book& book, const TextSink& sink) {
   std::string out;
   const PortfolioScenarioResult& base = run.scenarios.front();
   const std::size_t L = run.confidence_levels.size();
@@ -347,7 +347,7 @@ void json_number_field(std::string& out, std::string_view key, double v) {
   append_json_number(out, v);
 }
 
-void group_json(std::string& out, const PortfolioRun& run, const GroupTotals& g) {
+void group_json(std::string& out, const PortfolioResult& run, const GroupTotals& g) {
   out += "{";
   json_key(out, "name");
   append_json_string(out, g.name);
@@ -378,7 +378,7 @@ void group_json(std::string& out, const PortfolioRun& run, const GroupTotals& g)
   out += "}";
 }
 
-void scenario_json(std::string& out, const PortfolioRun& run, const PortfolioScenarioResult& sc,
+void scenario_json(std::string& out, const PortfolioResult& run, const PortfolioScenarioResult& sc,
                    const Book& book) {
   const std::vector<std::string> cols =
       portfolio_columns(run.confidence_levels, run.options.monte_carlo_scenarios > 0);
@@ -520,7 +520,7 @@ void scenario_json(std::string& out, const PortfolioRun& run, const PortfolioSce
   out += "}";
 }
 
-void write_json(const PortfolioRun& run, const Book& book, const TextSink& sink) {
+void write_json(const PortfolioResult& run, const Book& book, const TextSink& sink) {
   std::string out = "{\n  \"run\": {";
   json_key(out, "book");
   append_json_string(out, run.book_origin);
@@ -618,7 +618,8 @@ std::vector<std::string> portfolio_columns(const std::vector<double>& levels, bo
   return c;
 }
 
-void write_portfolio(const PortfolioRun& run, const Book& book, OutputFormat format, const TextSink& sink) {
+void write_portfolio(const PortfolioResult& run, const Book& book, OutputFormat format,
+                     const TextSink& sink) {
   if (format == OutputFormat::table) {
     write_table(run, book, sink);
     return;
@@ -641,7 +642,7 @@ void write_portfolio(const PortfolioRun& run, const Book& book, OutputFormat for
   sink(out);
 }
 
-std::string portfolio_summary_csv(const PortfolioRun& run) {
+std::string portfolio_summary_csv(const PortfolioResult& run) {
   std::string out = "scenario,group_by,group,method,measure,confidence_level,value,standard_error\n";
   const auto row = [&](const std::string& scenario, std::string_view group_by, const std::string& group,
                        std::string_view method, std::string_view measure, double level, double value,
@@ -706,7 +707,7 @@ std::string portfolio_summary_csv(const PortfolioRun& run) {
   return out;
 }
 
-std::string portfolio_distribution_csv(const PortfolioRun& run) {
+std::string portfolio_distribution_csv(const PortfolioResult& run) {
   const bool mc = run.options.monte_carlo_scenarios > 0;
   std::string out = "scenario,loss,probability,cumulative,exceedance,large_portfolio_exceedance";
   if (mc) out += ",monte_carlo_exceedance,monte_carlo_exceedance_se";

@@ -212,7 +212,7 @@ struct RunContext {
   const std::string& origin;
   const BookDefaults& book;
   const ScoreSettings& settings;
-  const ScoreRunOptions& run;
+  const ScoreBookOptions& run;
   const ScoreWriter& writer;
   const TextSink& sink;
 };
@@ -571,7 +571,7 @@ class ChunkPipeline {
 
 }  // namespace
 
-ScoreSummary score_book(const Book& book, const ScoreSettings& settings, const ScoreRunOptions& run,
+ScoreSummary score_book(const Book& book, const ScoreSettings& settings, const ScoreBookOptions& run,
                         const TextSink& sink) {
   const auto writer = make_score_writer(run.format, book.origin, settings, run.sensitivities, run.grades);
   const RunContext ctx{book.origin, book.defaults, settings, run, *writer, sink};
@@ -588,7 +588,7 @@ ScoreSummary score_book(const Book& book, const ScoreSettings& settings, const S
 }
 
 ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const ScoreSettings& settings,
-                              const ScoreRunOptions& run, const TextSink& sink) {
+                              const ScoreBookOptions& run, const TextSink& sink) {
   const BookDefaults no_defaults;
   std::string buf;
   bool eof = false;

@@ -203,7 +203,7 @@ void stress_obligors(const ScoredObligor* base, const ShockEffect* effects, std:
 
 StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenarios,
                          const std::string& scenario_origin, const ScoreSettings& settings,
-                         const StressSettings& stress, const StressRunOptions& run, const TextSink& sink) {
+                         const StressSettings& stress, const StressBookOptions& run, const TextSink& sink) {
   const std::size_t n = book.obligors.size();
   const unsigned threads = std::max(1U, run.threads);
   StressSummary sum;
@@ -378,7 +378,7 @@ void reverse_stress_obligor(const ScoredObligor& base, double target_pd, const R
 }
 
 ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, const ScoreSettings& settings,
-                                        const StressRunOptions& run, const TextSink& sink,
+                                        const StressBookOptions& run, const TextSink& sink,
                                         const ReverseStressOptions& options) {
   const std::size_t n = book.obligors.size();
   const unsigned threads = std::max(1U, run.threads);

@@ -95,12 +95,12 @@ std::vector<double> parse_horizons(std::string_view text, std::string_view optio
   return out;
 }
 
-bool wants_term_structure(const TermChoices& c) {
+bool wants_term_structure(const TermOptionText& c) {
   return c.horizons.has_value() || (!c.model.empty() && c.model != "merton");
 }
 
-TermRunOptions term_run_options(const TermSettings& term, const TermChoices& c) {
-  TermRunOptions run;
+TermBookOptions term_book_options(const TermSettings& term, const TermOptionText& c) {
+  TermBookOptions run;
   run.calibration = term.calibration;
   run.barrier = {term.barrier_ratio, term.barrier_growth};
   if (!wants_term_structure(c)) {
@@ -161,7 +161,7 @@ std::string TermScoredObligor::first_problem() const {
 }
 
 void score_term_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
-                        const TermRunOptions& run, TermScoredObligor& out) {
+                        const TermBookOptions& run, TermScoredObligor& out) {
   resolve_obligor(rec, book, settings, out.resolved);
   out.horizons = run.horizons;
   if (out.horizons.empty()) out.horizons = {out.resolved.ok() ? out.resolved.inputs.horizon_years : 0.0};
@@ -207,7 +207,7 @@ const std::vector<std::string_view>& term_columns() {
   return cols;
 }
 
-ScoreSummary score_term_structure(const Book& book, const ScoreSettings& settings, const TermRunOptions& run,
+ScoreSummary score_term_structure(const Book& book, const ScoreSettings& settings, const TermBookOptions& run,
                                   const TextSink& sink) {
   const std::size_t n = book.obligors.size();
   const unsigned threads = std::max(1U, run.threads);

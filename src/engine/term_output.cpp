@@ -60,7 +60,7 @@ std::string_view row_status_of(TermStatus status) noexcept {
   return "";
 }
 
-std::vector<double> term_numbers(const TermScoredObligor& s, const TermRunOptions& run, std::size_t model,
+std::vector<double> term_numbers(const TermScoredObligor& s, const TermBookOptions& run, std::size_t model,
                                  std::size_t horizon) {
   const double nan = std::nan("");
   std::vector<double> v(kNumbers, nan);
@@ -108,7 +108,7 @@ std::string table_number(double v, int decimals) {
   return buf;
 }
 
-void append_term_run_fields(std::string& out, const TermRunOptions& run) {
+void append_term_run_fields(std::string& out, const TermBookOptions& run) {
   out += ", \"models\": [";
   for (std::size_t m = 0; m < run.models.size(); ++m) {
     if (m > 0) out += ", ";
@@ -182,7 +182,7 @@ class JsonTermWriter final : public TermWriter {
   explicit JsonTermWriter(const TermRunInfo& info) : info_(info) {}
   void begin(std::string& out) const override {
     const ScoreSettings& st = info_.settings;
-    const TermRunOptions& run = info_.run;
+    const TermBookOptions& run = info_.run;
     out += "{\n  \"run\": {\"input\": ";
     append_json_string(out, info_.origin);
     out += ", \"measure\": ";
@@ -243,7 +243,7 @@ class TableTermWriter final : public TermWriter {
  public:
   explicit TableTermWriter(const TermRunInfo& info) : info_(info) {}
   void begin(std::string& out) const override {
-    const TermRunOptions& run = info_.run;
+    const TermBookOptions& run = info_.run;
     bool fp = false;
     for (TermModel m : run.models) fp = fp || m == TermModel::first_passage;
     char buf[320];
@@ -273,7 +273,7 @@ class TableTermWriter final : public TermWriter {
     out += head + "\n" + rule() + "\n";
   }
   void obligor(const ObligorRecord& rec, const TermScoredObligor& s, bool, std::string& out) const override {
-    const TermRunOptions& run = info_.run;
+    const TermBookOptions& run = info_.run;
     const std::size_t nh = s.horizons.size();
     std::string title = rec.get(TextField::id);
     if (!rec.get(TextField::name).empty()) title += "  " + fit(rec.get(TextField::name), 40);

@@ -15,7 +15,7 @@ namespace firmcall::detail {
 struct TermRunInfo {
   std::string origin;
   ScoreSettings settings;
-  TermRunOptions run;
+  TermBookOptions run;
   std::size_t obligors = 0;
 };
 
@@ -41,7 +41,7 @@ std::string_view row_status_of(TermStatus status) noexcept;
 
 /// Cell values of one point in term_columns() order from "calibration_horizon" to "residual"
 /// (NaN where a value does not exist; iterations as a double).
-std::vector<double> term_numbers(const TermScoredObligor& s, const TermRunOptions& run, std::size_t model,
+std::vector<double> term_numbers(const TermScoredObligor& s, const TermBookOptions& run, std::size_t model,
                                  std::size_t horizon);
 
 /// Fixed-width text of a probability in percent or a spread in basis points for the tables:
@@ -50,6 +50,6 @@ std::string table_number(double v, int decimals);
 
 /// Appends the JSON run fields that describe a term-structure run, from ", \"models\"" to the
 /// barrier growth, after fields the caller has written.
-void append_term_run_fields(std::string& out, const TermRunOptions& run);
+void append_term_run_fields(std::string& out, const TermBookOptions& run);
 
 }  // namespace firmcall::detail

@@ -56,7 +56,7 @@ struct WriterInfo {
   std::string book_origin;
   std::string scenario_origin;
   ScoreSettings settings;
-  TermRunOptions run;
+  TermBookOptions run;
   std::size_t obligors = 0;
   std::size_t scenarios = 0;
 };
@@ -126,7 +126,7 @@ class JsonStressTermWriter final : public StressTermWriter {
  public:
   explicit JsonStressTermWriter(const WriterInfo& info) : info_(info) {}
   void begin(std::string& out) const override {
-    const TermRunOptions& run = info_.run;
+    const TermBookOptions& run = info_.run;
     out += "{\n  \"run\": {\"input\": ";
     append_json_string(out, info_.book_origin);
     out += ", \"scenarios\": ";
@@ -338,7 +338,7 @@ const std::vector<std::string_view>& stress_term_columns() {
 }
 
 void stress_term_obligor(const ObligorRecord& rec, const TermScoredObligor& base, const ShockEffect& effect,
-                         const ScoreSettings& settings, const TermRunOptions& run, StressedTerm& out) {
+                         const ScoreSettings& settings, const TermBookOptions& run, StressedTerm& out) {
   out.shocked = effect.shocks > 0;
   out.points = base.points;
   out.messages = base.messages;
@@ -384,7 +384,7 @@ void stress_term_obligor(const ObligorRecord& rec, const TermScoredObligor& base
 
 TermStressSummary run_stress_term(const Book& book, const std::vector<Scenario>& scenarios,
                                   const std::string& scenario_origin, const ScoreSettings& settings,
-                                  const TermRunOptions& run, const TextSink& sink) {
+                                  const TermBookOptions& run, const TextSink& sink) {
   const std::size_t n = book.obligors.size();
   const unsigned threads = std::max(1U, run.threads);
   TermStressSummary sum;

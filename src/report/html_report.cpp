@@ -518,7 +518,7 @@ std::string term_section(const ReportData& d) {
 }
 
 std::string portfolio_section(const ReportData& d) {
-  const PortfolioRun& run = *d.portfolio;
+  const PortfolioResult& run = *d.portfolio;
   const PortfolioScenarioResult& base = run.scenarios.front();
   const LossDistribution& dist = base.exact;
   std::string out = section_open(
@@ -833,9 +833,9 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     score_obligor(d.book.obligors[i], d.book.defaults, settings, d.scored[i]);
   }
   if (!options.term_ids.empty()) {
-    TermChoices choices;
+    TermOptionText choices;
     choices.horizons = options.horizons;
-    d.term_run = term_run_options(config.term, choices);
+    d.term_run = term_book_options(config.term, choices);
     for (const std::string& id : options.term_ids) {
       const auto it = std::find_if(d.book.obligors.begin(), d.book.obligors.end(),
                                    [&id](const ObligorRecord& r) { return id_of(r) == id; });
@@ -856,7 +856,7 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     check_filters(set, d.book);
     auto st = std::make_unique<ReportStress>();
     st->origin = set.origin;
-    StressRunOptions run;
+    StressBookOptions run;
     run.format = OutputFormat::csv;
     st->summary =
         run_stress(d.book, set.scenarios, set.origin, settings, config.stress, run, [](std::string_view) {});
@@ -875,17 +875,17 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     if (!options.correlation_path.empty()) {
       correlation = std::make_unique<CorrelationFile>(load_correlation_file(options.correlation_path));
     }
-    PortfolioRunOptions ro;
+    PortfolioBookOptions ro;
     ro.threads = std::max(1U, options.threads);
     d.portfolio =
-        std::make_unique<PortfolioRun>(run_portfolio(d.book, {}, "", correlation.get(), config, ro));
+        std::make_unique<PortfolioResult>(run_portfolio(d.book, {}, "", correlation.get(), config, ro));
   }
   if (!options.store_path.empty()) {
     auto mon = std::make_unique<ReportMonitoring>();
     const RunStore store(options.store_path, StoreOpen::existing, config.monitor.busy_timeout_seconds);
     mon->store_path = options.store_path;
     mon->runs_in_store = store.runs().size();
-    mon->runs = select_runs(store, options.run, options.against);
+    mon->runs = select_runs(store, options.store_run, options.against);
     mon->before = store.obligors(mon->runs.before.run_id, false);
     mon->now = store.obligors(mon->runs.now.run_id, false);
     mon->comparison = compare_runs(mon->before, mon->now, config.grades, config.monitor.alerts);

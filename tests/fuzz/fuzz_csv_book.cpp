@@ -21,7 +21,7 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   }
   std::FILE* f = ::fmemopen(const_cast<char*>(text.data()), text.size(), "r");
   if (f == nullptr) return 0;
-  firmcall::ScoreRunOptions run;
+  firmcall::ScoreBookOptions run;
   run.threads = 1;
   run.chunk_bytes = 256;  // exercise the batch boundaries
   std::string out;

@@ -11,7 +11,7 @@
 // **Example**:
 //   const Book book = load_book("book.yaml", BookUse::history);
 //   const EquityHistory prices = load_equity_history("prices.csv");
-//   HistoryRunOptions run;
+//   HistoryBookOptions run;
 //   run.estimator.method = HistoryMethod::mle;
 //   HistorySummary s = run_history({&book, &prices, nullptr}, ScoreSettings{}, HistorySettings{}, run,
 //                                  [](std::string_view text) { fputs(std::string(text).c_str(), stdout); });
@@ -64,7 +64,7 @@ struct JoinedHistory {
 void join_history(const ObligorRecord& rec, const HistorySources& src, const ScoreSettings& settings,
                   JoinedHistory& out);
 
-struct HistoryRunOptions {
+struct HistoryBookOptions {
   AssetDynamicsOptions estimator;
   OutputFormat format = OutputFormat::csv;
   unsigned threads = 1;  ///< worker threads (>= 1); output order is the book's order
@@ -93,13 +93,13 @@ const std::vector<std::string_view>& history_columns();
 /// Estimates every book obligor and writes the results to `sink`; with `series` set, also
 /// writes the daily series (date,id,equity_value,default_point,asset_value,distance_to_default,pd).
 HistorySummary run_history(const HistorySources& src, const ScoreSettings& score_settings,
-                           const HistorySettings& settings, const HistoryRunOptions& run,
+                           const HistorySettings& settings, const HistoryBookOptions& run,
                            const TextSink& sink, const TextSink* series = nullptr);
 
 /// Scores the book as `firmcall score` does, with each obligor's equity value and default point
 /// taken from the history's last day and its equity volatility estimated from the history.
 ScoreSummary score_with_history(const HistorySources& src, const ScoreSettings& score_settings,
                                 const HistorySettings& settings, VolEstimator estimator,
-                                const ScoreRunOptions& run, const TextSink& sink);
+                                const ScoreBookOptions& run, const TextSink& sink);
 
 }  // namespace firmcall

@@ -18,7 +18,7 @@
 //
 // **Example**:
 //   firmcall::Book book = firmcall::load_book("samples/demo_book.yaml");
-//   firmcall::PortfolioRun run = firmcall::run_portfolio(book, {}, "", nullptr, firmcall::Config{}, {});
+//   firmcall::PortfolioResult run = firmcall::run_portfolio(book, {}, "", nullptr, firmcall::Config{}, {});
 //   std::string out;
 //   firmcall::write_portfolio(run, book, firmcall::OutputFormat::table, [&](std::string_view s) { out += s;
 //   });
@@ -100,7 +100,7 @@ struct PortfolioScenarioResult {
 };
 
 /// How to run (the command line's choices).
-struct PortfolioRunOptions {
+struct PortfolioBookOptions {
   unsigned threads = 1;                     ///< worker threads; results do not depend on it
   std::optional<double> asset_correlation;  ///< overrides every other source of rho
   bool basel_correlation = false;           ///< the Basel function of PD for every obligor
@@ -114,7 +114,7 @@ struct PortfolioRunOptions {
 };
 
 /// A whole portfolio run: the book as it stands first, then each stress scenario.
-struct PortfolioRun {
+struct PortfolioResult {
   std::string book_origin;
   std::string correlation_origin;  ///< empty without a correlation file
   std::string scenario_origin;     ///< empty without scenarios
@@ -124,7 +124,7 @@ struct PortfolioRun {
   ScoreSettings settings;
   PortfolioSettings portfolio;
   IrbSettings irb;
-  PortfolioRunOptions options;
+  PortfolioBookOptions options;
   std::vector<PortfolioScenarioResult> scenarios;
   std::vector<std::string> problems;  ///< "file:line: obligor 'id': message", the first few
   std::size_t problems_not_listed = 0;
@@ -135,9 +135,9 @@ struct PortfolioRun {
 /// Scores the book, builds the portfolio and runs every model, as the book stands and under each
 /// scenario. `correlation` may be null. Throws InputError for run-wide problems (a scenario named
 /// "base", an empty portfolio is not one: it reports zero losses).
-PortfolioRun run_portfolio(const Book& book, const std::vector<Scenario>& scenarios,
-                           const std::string& scenario_origin, const CorrelationFile* correlation,
-                           const Config& config, const PortfolioRunOptions& options);
+PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& scenarios,
+                              const std::string& scenario_origin, const CorrelationFile* correlation,
+                              const Config& config, const PortfolioBookOptions& options);
 
 /// Column names of the machine-readable obligor rows for these confidence levels (contribution
 /// columns are named by level: es_contribution_99p9 for 99.9%), with or without simulation columns.
@@ -145,15 +145,15 @@ std::vector<std::string> portfolio_columns(const std::vector<double>& confidence
 
 /// Writes the run: a table for people, or obligor rows as CSV or JSON (JSON adds the groups and
 /// portfolio measures).
-void write_portfolio(const PortfolioRun& run, const Book& book, OutputFormat format, const TextSink& sink);
+void write_portfolio(const PortfolioResult& run, const Book& book, OutputFormat format, const TextSink& sink);
 
 /// Portfolio and group measures as CSV, long format:
 /// scenario,group_by,group,method,measure,confidence_level,value,standard_error.
-std::string portfolio_summary_csv(const PortfolioRun& run);
+std::string portfolio_summary_csv(const PortfolioResult& run);
 
 /// The loss distributions as CSV for plotting: scenario,loss,probability,cumulative,exceedance,
 /// large_portfolio_exceedance[,monte_carlo_exceedance,monte_carlo_exceedance_se].
-std::string portfolio_distribution_csv(const PortfolioRun& run);
+std::string portfolio_distribution_csv(const PortfolioResult& run);
 
 /// "99p9" for 0.999, "99" for 0.99: a level as it appears in column names.
 std::string level_label(double confidence_level);

@@ -57,7 +57,7 @@ struct ScoreSummary {
   std::size_t failed() const noexcept { return invalid + not_converged; }
 };
 
-struct ScoreRunOptions {
+struct ScoreBookOptions {
   OutputFormat format = OutputFormat::csv;
   unsigned threads = 1;  ///< worker threads (>= 1); output order is the input order
   std::size_t max_listed_problems = 20;
@@ -67,11 +67,11 @@ struct ScoreRunOptions {
 };
 
 /// Scores a book already in memory (YAML, or a small CSV).
-ScoreSummary score_book(const Book& book, const ScoreSettings& settings, const ScoreRunOptions& run,
+ScoreSummary score_book(const Book& book, const ScoreSettings& settings, const ScoreBookOptions& run,
                         const TextSink& sink);
 
 /// Scores a CSV file streaming from `in`; `origin` names it in messages.
 ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const ScoreSettings& settings,
-                              const ScoreRunOptions& run, const TextSink& sink);
+                              const ScoreBookOptions& run, const TextSink& sink);
 
 }  // namespace firmcall

@@ -111,7 +111,7 @@ struct StressSummary {
   std::size_t failed() const noexcept { return failed_rows; }
 };
 
-struct StressRunOptions {
+struct StressBookOptions {
   OutputFormat format = OutputFormat::csv;
   unsigned threads = 1;        ///< worker threads (>= 1); output order is the input order
   bool sensitivities = false;  ///< add sensitivity columns at the stressed inputs
@@ -129,7 +129,7 @@ const std::vector<std::string_view>& stress_summary_columns();
 /// `scenario_origin` names the scenario source in the output (a file name or "grid").
 StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenarios,
                          const std::string& scenario_origin, const ScoreSettings& settings,
-                         const StressSettings& stress, const StressRunOptions& run, const TextSink& sink);
+                         const StressSettings& stress, const StressBookOptions& run, const TextSink& sink);
 
 /// The per-scenario summaries as CSV (header and one row per scenario), full precision.
 std::string scenario_summary_csv(const StressSummary& summary, const std::vector<Scenario>& scenarios);
@@ -165,7 +165,7 @@ const std::vector<std::string_view>& reverse_stress_columns();
 /// For each obligor, the equity fall and equity-volatility multiplier at which PD reaches
 /// `target_pd`; written in `run.format`.
 ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, const ScoreSettings& settings,
-                                        const StressRunOptions& run, const TextSink& sink,
+                                        const StressBookOptions& run, const TextSink& sink,
                                         const ReverseStressOptions& options = {});
 
 }  // namespace firmcall

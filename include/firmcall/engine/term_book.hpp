@@ -6,7 +6,7 @@
 //
 // **Example**:
 //   firmcall::Book book = firmcall::load_book("samples/demo_book.yaml");
-//   firmcall::TermRunOptions run;
+//   firmcall::TermBookOptions run;
 //   run.horizons = firmcall::parse_horizons("0.5,1,2,3,5,7,10");
 //   run.models = {firmcall::TermModel::merton, firmcall::TermModel::first_passage};
 //   std::string out;
@@ -34,7 +34,7 @@ inline constexpr std::size_t kMaxHorizons = 30;
 std::vector<double> parse_horizons(std::string_view text, std::string_view option = "--horizons");
 
 /// What a term-structure run computes.
-struct TermRunOptions {
+struct TermBookOptions {
   OutputFormat format = OutputFormat::csv;
   unsigned threads = 1;                              ///< worker threads (>= 1); output order is input order
   std::vector<double> horizons;                      ///< years, increasing; empty: each obligor's own horizon
@@ -45,7 +45,7 @@ struct TermRunOptions {
 };
 
 /// Term-structure choices as typed on the command line (empty or unset: not given).
-struct TermChoices {
+struct TermOptionText {
   std::optional<std::string> horizons;  ///< --horizons, e.g. "0.5,1,2,5"
   std::string model;                    ///< --model: merton, first-passage or both
   std::string calibration;              ///< --calibration: once or per-horizon
@@ -54,11 +54,11 @@ struct TermChoices {
 };
 
 /// True when the choices ask for a term-structure run: --horizons, or a model other than merton.
-bool wants_term_structure(const TermChoices& choices);
+bool wants_term_structure(const TermOptionText& choices);
 
 /// Checks the choices and builds the run options; what is not given comes from `term`. InputError
 /// (exit code 2) on a bad horizon list or value, or an option given where it does not apply.
-TermRunOptions term_run_options(const TermSettings& term, const TermChoices& choices);
+TermBookOptions term_book_options(const TermSettings& term, const TermOptionText& choices);
 
 /// One obligor's curves.
 struct TermScoredObligor {
@@ -73,7 +73,7 @@ struct TermScoredObligor {
 /// Resolves one obligor and computes its curves for every model of `run`. Never throws for bad
 /// values: they become status invalid_input with a message naming the field.
 void score_term_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
-                        const TermRunOptions& run, TermScoredObligor& out);
+                        const TermBookOptions& run, TermScoredObligor& out);
 
 /// Why a point computed for inputs `in` is not ok, as "line N: reason"; empty when it is ok.
 std::string term_point_problem(std::size_t line, const MertonInputs& in, TermModel model,
@@ -84,7 +84,7 @@ const std::vector<std::string_view>& term_columns();
 
 /// Computes and writes the curves of every obligor in `run.format`. The summary counts obligors:
 /// scored when all of its rows are ok.
-ScoreSummary score_term_structure(const Book& book, const ScoreSettings& settings, const TermRunOptions& run,
+ScoreSummary score_term_structure(const Book& book, const ScoreSettings& settings, const TermBookOptions& run,
                                   const TextSink& sink);
 
 }  // namespace firmcall

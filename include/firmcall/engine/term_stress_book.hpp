@@ -10,7 +10,7 @@
 //
 // **Example**:
 //   firmcall::ScenarioSet set = firmcall::load_scenarios("samples/stress_scenarios.yaml");
-//   firmcall::TermRunOptions run;
+//   firmcall::TermBookOptions run;
 //   run.horizons = {1, 5, 10};
 //   std::string out;
 //   auto s = firmcall::run_stress_term(book, set.scenarios, set.origin, {}, run,
@@ -41,7 +41,7 @@ struct StressedTerm {
 /// Stresses one obligor whose base curves are known. Unshocked obligors keep their base curves;
 /// shocked ones are calibrated again at the stressed inputs. Never throws for bad values.
 void stress_term_obligor(const ObligorRecord& rec, const TermScoredObligor& base, const ShockEffect& effect,
-                         const ScoreSettings& settings, const TermRunOptions& run, StressedTerm& out);
+                         const ScoreSettings& settings, const TermBookOptions& run, StressedTerm& out);
 
 struct TermStressSummary {
   std::size_t obligors = 0;
@@ -61,6 +61,6 @@ const std::vector<std::string_view>& stress_term_columns();
 /// Runs every scenario over the book and writes the rows in `run.format`.
 TermStressSummary run_stress_term(const Book& book, const std::vector<Scenario>& scenarios,
                                   const std::string& scenario_origin, const ScoreSettings& settings,
-                                  const TermRunOptions& run, const TextSink& sink);
+                                  const TermBookOptions& run, const TextSink& sink);
 
 }  // namespace firmcall

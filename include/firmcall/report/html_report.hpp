@@ -47,7 +47,7 @@ struct ReportOptions {
   bool portfolio = false;                     ///< the loss distribution section
   std::string correlation_path;               ///< sector correlation file for the portfolio
   std::string store_path;                     ///< history store; empty: no monitoring section
-  std::string run;                            ///< run of the store to show ("" the latest)
+  std::string store_run;                      ///< run of the store to show ("" the latest)
   std::string against;                        ///< run to compare with ("" the one before)
   std::size_t top = 10;                       ///< rows of the name tables
   unsigned threads = 1;                       ///< worker threads of the portfolio run
@@ -80,10 +80,10 @@ struct ReportData {
   Book book;
   std::vector<ScoredObligor> scored;  ///< book order
   std::unique_ptr<ReportStress> stress;
-  TermRunOptions term_run;
+  TermBookOptions term_run;
   std::vector<std::size_t> term_index;   ///< book positions of the chosen names
   std::vector<TermScoredObligor> terms;  ///< one per chosen name
-  std::unique_ptr<PortfolioRun> portfolio;
+  std::unique_ptr<PortfolioResult> portfolio;
   std::unique_ptr<ReportMonitoring> monitoring;
 };
 

@@ -83,7 +83,7 @@ struct Fixture {
   HistorySources sources() const { return {&book, &prices, nullptr}; }
 };
 
-std::string run_to_string(const HistorySources& src, const HistoryRunOptions& run,
+std::string run_to_string(const HistorySources& src, const HistoryBookOptions& run,
                           HistorySummary* summary = nullptr, std::string* series = nullptr,
                           const HistorySettings& settings = {}) {
   std::string out;
@@ -103,7 +103,7 @@ TEST_CASE("history run: each obligor's own history reaches the estimator") {
   const Fixture f;
   for (HistoryMethod m : {HistoryMethod::iterative, HistoryMethod::mle, HistoryMethod::naive}) {
     CAPTURE(to_string(m));
-    HistoryRunOptions run;
+    HistoryBookOptions run;
     run.estimator.method = m;
     const auto rows = parse_output(run_to_string(f.sources(), run));
     REQUIRE(rows.size() == 2);
@@ -161,7 +161,7 @@ TEST_CASE("history run: bad obligors get a message naming file, line and field, 
   book.obligors[1].set(NumField::rate, 0.03);
   for (std::size_t i = 2; i < 6; ++i) book.obligors[i].set(NumField::rate, 0.03);
   HistorySummary summary;
-  HistoryRunOptions run;
+  HistoryBookOptions run;
   const auto rows = parse_output(run_to_string({&book, &f.prices, nullptr}, run, &summary));
   REQUIRE(rows.size() == 7);
   CHECK(rows[0].at("status") == "ok");
@@ -246,7 +246,7 @@ TEST_CASE("history run: rate and horizon precedence") {
 
 TEST_CASE("history run: the daily series ends at the reported last day") {
   const Fixture f;
-  HistoryRunOptions run;
+  HistoryBookOptions run;
   run.estimator.method = HistoryMethod::mle;
   std::string series;
   const auto rows = parse_output(run_to_string(f.sources(), run, nullptr, &series));
@@ -263,9 +263,9 @@ TEST_CASE("history run: the daily series ends at the reported last day") {
 
 TEST_CASE("history run: output is identical whatever the threads and batch size") {
   const Fixture f;
-  HistoryRunOptions one;
+  HistoryBookOptions one;
   one.format = OutputFormat::json;
-  HistoryRunOptions many = one;
+  HistoryBookOptions many = one;
   many.threads = 3;
   many.batch_obligors = 1;
   std::size_t calls = 0;
@@ -283,7 +283,7 @@ TEST_CASE("history run: no NaN or infinity is ever printed") {
   HistorySettings tight;
   tight.max_iterations = 1;
   for (OutputFormat fmt : {OutputFormat::csv, OutputFormat::json, OutputFormat::table}) {
-    HistoryRunOptions run;
+    HistoryBookOptions run;
     run.format = fmt;
     HistorySummary summary;
     const std::string out = run_to_string(f.sources(), run, &summary, nullptr, tight);
@@ -308,7 +308,7 @@ TEST_CASE("history run: --score scores with the history's last equity value and 
   // Independent path: the same book scored by score_book after setting market_cap to the last
   // equity value and equity_vol to estimate_equity_vol's EWMA figure by hand.
   const Fixture f;
-  ScoreRunOptions run;
+  ScoreBookOptions run;
   std::string via_history;
   score_with_history(f.sources(), ScoreSettings{}, HistorySettings{}, VolEstimator::ewma, run,
                      [&](std::string_view s) { via_history.append(s); });

@@ -48,12 +48,12 @@ factor_correlation:
   - [0.3, 0.2, 1.0]
 )";
 
-PortfolioRun run(const Book& book, const CorrelationFile* corr, PortfolioRunOptions opt = {},
-                 const std::vector<Scenario>& scenarios = {}, Config config = {}) {
+PortfolioResult run(const Book& book, const CorrelationFile* corr, PortfolioBookOptions opt = {},
+                    const std::vector<Scenario>& scenarios = {}, Config config = {}) {
   return run_portfolio(book, scenarios, "scen.yaml", corr, config, opt);
 }
 
-std::string written(const PortfolioRun& r, const Book& book, OutputFormat f) {
+std::string written(const PortfolioResult& r, const Book& book, OutputFormat f) {
   std::string out;
   write_portfolio(r, book, f, [&](std::string_view s) { out += s; });
   return out;
@@ -64,7 +64,7 @@ std::string written(const PortfolioRun& r, const Book& book, OutputFormat f) {
 TEST_CASE("bad exposures are listed with file, line, obligor and field while the rest run") {
   const Book book = parse_yaml_book(kBook, "b.yaml");
   const CorrelationFile corr = parse_correlation_file(kCorrelation, "c.yaml");
-  const PortfolioRun r = run(book, &corr);
+  const PortfolioResult r = run(book, &corr);
   const PortfolioScenarioResult& base = r.scenarios.front();
   CHECK(base.included == 3);
   CHECK(r.failed_rows == 4);
@@ -95,7 +95,7 @@ TEST_CASE("bad exposures are listed with file, line, obligor and field while the
 
 TEST_CASE("expected loss by obligor, sector, country and in total is PD x LGD x EAD") {
   const Book book = parse_yaml_book(kBook, "b.yaml");
-  const PortfolioRun r = run(book, nullptr);
+  const PortfolioResult r = run(book, nullptr);
   const PortfolioScenarioResult& base = r.scenarios.front();
   CHECK(base.included == 4);  // A-7 is in: without a correlation file sectors are labels only
   double total = 0.0;
@@ -139,25 +139,25 @@ TEST_CASE("expected loss by obligor, sector, country and in total is PD x LGD x 
 TEST_CASE("asset correlation: command line, then obligor, then sector, then setting, then Basel") {
   const Book book = parse_yaml_book(kBook, "b.yaml");
   const CorrelationFile corr = parse_correlation_file(kCorrelation, "c.yaml");
-  const PortfolioRun r = run(book, &corr);
+  const PortfolioResult r = run(book, &corr);
   const auto& o = r.scenarios.front().obligors;
   CHECK(o[0].asset_correlation == 0.25);  // sector Energy
   CHECK(o[0].correlation_source == CorrelationSource::sector);
   CHECK(o[1].asset_correlation == 0.3);  // the obligor's own
   CHECK(o[1].correlation_source == CorrelationSource::obligor);
   // Ref: BCBS 2006 para 272 correlation function of the (floored) PD.
-  const PortfolioRun nofile = run(book, nullptr);
+  const PortfolioResult nofile = run(book, nullptr);
   const auto& b = nofile.scenarios.front().obligors;
   CHECK(b[0].correlation_source == CorrelationSource::basel);
   CHECK(b[0].asset_correlation == doctest::Approx(irb_corporate_correlation(std::max(b[0].pd, 0.0003))));
   Config config;
   config.portfolio.asset_correlation = 0.17;
-  const PortfolioRun set = run(book, nullptr, {}, {}, config);
+  const PortfolioResult set = run(book, nullptr, {}, {}, config);
   CHECK(set.scenarios.front().obligors[0].asset_correlation == 0.17);
   CHECK(set.scenarios.front().obligors[0].correlation_source == CorrelationSource::setting);
-  PortfolioRunOptions opt;
+  PortfolioBookOptions opt;
   opt.asset_correlation = 0.05;
-  const PortfolioRun cl = run(book, &corr, opt);
+  const PortfolioResult cl = run(book, &corr, opt);
   CHECK(cl.scenarios.front().obligors[1].asset_correlation == 0.05);
   CHECK(cl.scenarios.front().obligors[1].correlation_source == CorrelationSource::command_line);
 }
@@ -170,7 +170,7 @@ TEST_CASE("stress scenarios at portfolio level use the stress engine's PDs") {
       "  - name: fall\n    shocks:\n      - {equity_change: -0.3, equity_vol_multiplier: 1.4}\n",
       "scen.yaml");
   check_filters(set, book);
-  const PortfolioRun r = run(book, nullptr, {}, set.scenarios);
+  const PortfolioResult r = run(book, nullptr, {}, set.scenarios);
   REQUIRE(r.scenarios.size() == 3);
   const PortfolioScenarioResult& base = r.scenarios[0];
   const PortfolioScenarioResult& zero = r.scenarios[1];
@@ -180,7 +180,7 @@ TEST_CASE("stress scenarios at portfolio level use the stress engine's PDs") {
   CHECK(zero.total.expected_loss == base.total.expected_loss);
   // The stressed PDs are the stress engine's.
   std::string csv;
-  StressRunOptions so;
+  StressBookOptions so;
   const StressSummary ss = run_stress(book, set.scenarios, "scen.yaml", ScoreSettings{}, StressSettings{}, so,
                                       [&](std::string_view s) { csv += s; });
   const testing::CsvTable t = testing::parse_csv_table(csv);
@@ -208,10 +208,10 @@ TEST_CASE("stress scenarios at portfolio level use the stress engine's PDs") {
 TEST_CASE("output formats: CSV columns by level, JSON shape, summary and distribution files") {
   const Book book = parse_yaml_book(kBook, "b.yaml");
   const CorrelationFile corr = parse_correlation_file(kCorrelation, "c.yaml");
-  PortfolioRunOptions opt;
+  PortfolioBookOptions opt;
   opt.monte_carlo_scenarios = 5000;
   opt.distribution = true;
-  const PortfolioRun r = run(book, &corr, opt);
+  const PortfolioResult r = run(book, &corr, opt);
   const testing::CsvTable csv = testing::parse_csv_table(written(r, book, OutputFormat::csv));
   CHECK(csv.header == portfolio_columns(r.confidence_levels, true));
   CHECK(csv.rows.size() == book.obligors.size());

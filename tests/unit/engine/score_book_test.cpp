@@ -53,7 +53,7 @@ std::string score_text(const std::string& csv, OutputFormat fmt, unsigned thread
   std::FILE* f = ::fmemopen(const_cast<char*>(csv.data()), csv.size(), "r");
   REQUIRE(f != nullptr);
   std::string out;
-  ScoreRunOptions run;
+  ScoreBookOptions run;
   run.format = fmt;
   run.threads = threads;
   run.chunk_bytes = chunk;
@@ -76,7 +76,7 @@ TEST_CASE("streaming output does not depend on chunk size or thread count") {
   // The in-memory path (used for YAML books) writes the same bytes.
   const Book book = parse_csv_book(csv, "gen.csv");
   std::string mem;
-  ScoreRunOptions run;
+  ScoreBookOptions run;
   run.threads = 2;
   score_book(book, ScoreSettings{}, run, [&](std::string_view t) { mem += t; });
   CHECK(mem == score_text(csv, OutputFormat::csv, 1, 4 << 20));
@@ -164,7 +164,7 @@ TEST_CASE("a write error stops the streamed run with the error, whatever the thr
     CAPTURE(threads);
     std::FILE* f = ::fmemopen(const_cast<char*>(csv.data()), csv.size(), "r");
     REQUIRE(f != nullptr);
-    ScoreRunOptions run;
+    ScoreBookOptions run;
     run.threads = threads;
     run.chunk_bytes = 2048;
     int writes = 0;

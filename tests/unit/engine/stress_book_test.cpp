@@ -50,7 +50,7 @@ Run run(const Book& book, const std::string& scenario_yaml, OutputFormat format 
         unsigned threads = 1, bool sensitivities = false, StressSettings stress = {}) {
   const ScenarioSet set = parse_scenarios(scenario_yaml, "scen.yaml");
   check_filters(set, book);
-  StressRunOptions opts;
+  StressBookOptions opts;
   opts.format = format;
   opts.threads = threads;
   opts.sensitivities = sensitivities;
@@ -331,7 +331,7 @@ TEST_CASE("output formats: columns, JSON shape, table width, sensitivities at th
 
 TEST_CASE("quick grids give a PD grid per obligor in the table") {
   const Book b = book();
-  StressRunOptions opts;
+  StressBookOptions opts;
   opts.format = OutputFormat::table;
   std::string text;
   const auto grid = grid_scenarios({0.0, -0.3}, {1.0, 2.0});

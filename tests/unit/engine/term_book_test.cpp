@@ -29,7 +29,7 @@ obligors:
   - {id: E-5, name: Epsilon, market_cap: 1200, equity_vol: 0.6, default_point: 2500, horizon: 2}
 )";
 
-std::string run_text(const std::string& yaml, TermRunOptions run, OutputFormat format, unsigned threads = 1,
+std::string run_text(const std::string& yaml, TermBookOptions run, OutputFormat format, unsigned threads = 1,
                      ScoreSummary* summary = nullptr) {
   const Book book = parse_yaml_book(yaml, "book.yaml");
   run.format = format;
@@ -41,11 +41,11 @@ std::string run_text(const std::string& yaml, TermRunOptions run, OutputFormat f
   return out;
 }
 
-TermRunOptions both_models(const std::string& horizons) {
-  TermChoices c;
+TermBookOptions both_models(const std::string& horizons) {
+  TermOptionText c;
   c.horizons = horizons;
   c.model = "both";
-  return term_run_options(TermSettings{}, c);
+  return term_book_options(TermSettings{}, c);
 }
 
 }  // namespace
@@ -84,31 +84,31 @@ TEST_CASE("--horizons: a list of increasing years, or exit 2 with the reason") {
 }
 
 TEST_CASE("term options: what applies where") {
-  TermChoices c;
+  TermOptionText c;
   CHECK_FALSE(wants_term_structure(c));
   c.model = "merton";
   CHECK_FALSE(wants_term_structure(c));  // plain scoring
   c.calibration = "per-horizon";
   CHECK_THROWS_WITH_AS(
-      term_run_options({}, c),
+      term_book_options({}, c),
       "--calibration: applies to term structures; add --horizons LIST or --model first-passage|both",
       InputError);
   c = {};
   c.horizons = "1,2";
   c.barrier_ratio = 0.8;
-  CHECK_THROWS_WITH_AS(term_run_options({}, c),
+  CHECK_THROWS_WITH_AS(term_book_options({}, c),
                        "--barrier-ratio: applies to the first-passage model (--model first-passage or both)",
                        InputError);
   c.model = "black-cox";
-  CHECK_THROWS_WITH_AS(term_run_options({}, c),
+  CHECK_THROWS_WITH_AS(term_book_options({}, c),
                        "--model: expected merton, first-passage or both, got 'black-cox'", InputError);
   c.model = "first-passage";
   c.barrier_ratio = -1;
-  CHECK_THROWS_AS(term_run_options({}, c), InputError);
+  CHECK_THROWS_AS(term_book_options({}, c), InputError);
   c.barrier_ratio = 0.8;
   c.barrier_growth = 0.02;
   c.calibration = "per-horizon";
-  const TermRunOptions run = term_run_options({}, c);
+  const TermBookOptions run = term_book_options({}, c);
   CHECK(run.models == std::vector<TermModel>{TermModel::first_passage});
   CHECK(run.barrier.default_point_ratio == 0.8);
   CHECK(run.barrier.growth_rate_cc == 0.02);
@@ -120,7 +120,7 @@ TEST_CASE("term options: what applies where") {
   settings.calibration = Calibration::per_horizon;
   c = {};
   c.model = "first-passage";
-  const TermRunOptions from_settings = term_run_options(settings, c);
+  const TermBookOptions from_settings = term_book_options(settings, c);
   CHECK(from_settings.barrier.default_point_ratio == 0.7);
   CHECK(from_settings.calibration == Calibration::per_horizon);
   CHECK(from_settings.horizons.empty());
@@ -177,7 +177,7 @@ TEST_CASE("CSV rows: one per obligor, model and horizon, bad obligors named, nev
 }
 
 TEST_CASE("threads change nothing, and JSON carries the same numbers with null for the missing") {
-  const TermRunOptions run = both_models("1,3,7");
+  const TermBookOptions run = both_models("1,3,7");
   const std::string one = run_text(kBook, run, OutputFormat::csv, 1);
   CHECK(run_text(kBook, run, OutputFormat::csv, 4) == one);
   const std::string json = run_text(kBook, run, OutputFormat::json, 3);
@@ -233,17 +233,17 @@ obligors:
   - {id: F-6, market_cap: 90, equity_vol: 1.3, default_point: 2500, rate: -0.01}
 )";
   std::string scored;
-  ScoreRunOptions srun;
+  ScoreBookOptions srun;
   srun.format = OutputFormat::csv;
   score_book(parse_yaml_book(book, "b.yaml"), ScoreSettings{}, srun,
              [&](std::string_view t) { scored += t; });
   const testing::CsvTable score = testing::parse_csv_table(scored);
   for (const char* cal : {"once", "per-horizon"}) {
-    TermChoices c;
+    TermOptionText c;
     c.horizons = "1";
     c.calibration = cal;
     const testing::CsvTable term =
-        testing::parse_csv_table(run_text(book, term_run_options({}, c), OutputFormat::csv));
+        testing::parse_csv_table(run_text(book, term_book_options({}, c), OutputFormat::csv));
     REQUIRE(term.rows.size() == score.rows.size());
     for (std::size_t r = 0; r < term.rows.size(); ++r) {
       for (const char* col :

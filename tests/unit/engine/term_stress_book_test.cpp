@@ -44,11 +44,11 @@ const char* kScenarios = R"(scenarios:
         equity_vol_add_points: -50
 )";
 
-TermRunOptions options(const std::string& horizons, OutputFormat format, unsigned threads) {
-  TermChoices c;
+TermBookOptions options(const std::string& horizons, OutputFormat format, unsigned threads) {
+  TermOptionText c;
   c.horizons = horizons;
   c.model = "both";
-  TermRunOptions run = term_run_options(TermSettings{}, c);
+  TermBookOptions run = term_book_options(TermSettings{}, c);
   run.format = format;
   run.threads = threads;
   return run;
