@@ -6,9 +6,9 @@
 #include <functional>
 #include <string>
 
-#include "firmcall/book/settings.hpp"
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/engine/term_book.hpp"
+#include "firmcall/io/settings_io.hpp"
 
 #ifndef FIRMCALL_VERSION
 #define FIRMCALL_VERSION "dev"

@@ -9,7 +9,7 @@
 #include <map>
 #include <sstream>
 
-#include "firmcall/book/settings.hpp"
+#include "firmcall/io/settings_io.hpp"
 #include "test_util.hpp"
 
 using firmcall::testing::read_file;

@@ -2,7 +2,7 @@
 #include <doctest/doctest.h>
 
 #include "firmcall/book/errors.hpp"
-#include "firmcall/book/settings.hpp"
+#include "firmcall/io/settings_io.hpp"
 #include "test_util.hpp"
 
 using namespace firmcall;
