@@ -110,13 +110,20 @@ void require_column(const Header& h, std::size_t k, std::string_view name, const
   }
 }
 
+// A CSV text read record by record: after next(), `fields` and `line` describe the record.
+struct CsvRecords {
+  CsvRecords(std::string_view text, const std::string& origin) : cursor(text, origin) {}
+  bool next() { return cursor.next(fields, line); }
+  CsvCursor cursor;
+  std::vector<std::string_view> fields;
+  std::size_t line = 0;
+};
+
 // The first record of a file, as a header of the `known` columns; an empty file is an error.
-Header read_header(CsvCursor& cursor, std::vector<std::string_view>& fields, std::size_t& line,
-                   std::initializer_list<std::string_view> known, const std::string& origin,
+Header read_header(CsvRecords& in, std::initializer_list<std::string_view> known, const std::string& origin,
                    std::vector<std::string>& notes) {
-  if (!cursor.next(fields, line))
-    throw InputError(located(origin, 0, "empty file: a header row is required"));
-  return map_header(fields, known, origin, line, notes);
+  if (!in.next()) throw InputError(located(origin, 0, "empty file: a header row is required"));
+  return map_header(in.fields, known, origin, in.line, notes);
 }
 
 // The trimmed id cell of a row (column `k` of the header); a row without one is a file error.
@@ -210,10 +217,10 @@ namespace {
 
 enum : std::size_t { kDate, kId, kMarketCap, kClose, kShares };
 
-Header read_equity_header(CsvCursor& cursor, std::vector<std::string_view>& fields, std::size_t& line,
-                          EquityHistory& h) {
-  const Header hdr = read_header(
-      cursor, fields, line, {"date", "id", "market_cap", "close", "shares_outstanding"}, h.origin, h.notes);
+Header read_equity_header(CsvRecords& in, EquityHistory& h) {
+  const Header hdr =
+      read_header(in, {"date", "id", "market_cap", "close", "shares_outstanding"}, h.origin, h.notes);
+  const std::size_t line = in.line;
   require_column(hdr, kDate, "date", h.origin, line);
   require_column(hdr, kId, "id", h.origin, line);
   if (!hdr.has(kMarketCap) && !(hdr.has(kClose) && hdr.has(kShares))) {
@@ -377,10 +384,8 @@ void finish_obligor(ObligorEquityHistory& ob, const EmptyRows& empty,
 EquityHistory parse_equity_history(std::string_view text, const std::string& origin) {
   EquityHistory h;
   h.origin = origin;
-  CsvCursor cursor(text, origin);
-  std::vector<std::string_view> fields;
-  std::size_t line = 0;
-  const Header hdr = read_equity_header(cursor, fields, line, h);
+  CsvRecords in(text, origin);
+  const Header hdr = read_equity_header(in, h);
   std::vector<EmptyRows> empty_rows;
   // Rows go to one array first (sized from the line count), then to exact-size per-obligor arrays.
   std::vector<ParsedRow> parsed;
@@ -390,7 +395,9 @@ EquityHistory parse_equity_history(std::string_view text, const std::string& ori
   // reused scratch memory.
   std::string last_date_text;
   std::int32_t last_date = 0;
-  while (cursor.next(fields, line)) {
+  while (in.next()) {
+    const std::vector<std::string_view>& fields = in.fields;
+    const std::size_t line = in.line;
     last = obligor_index(h, empty_rows, last, row_id(fields, hdr, kId, origin, line));
     ObligorEquityHistory& ob = h.obligors[last];
     const auto problem = [&](std::string t) { add_problem(ob.error, ob.more_problems, line, std::move(t)); };
@@ -434,21 +441,20 @@ EquityHistory load_equity_history(const std::string& path) {
 BalanceSheets parse_balance_sheets(std::string_view text, const std::string& origin) {
   BalanceSheets b;
   b.origin = origin;
-  CsvCursor cursor(text, origin);
-  std::vector<std::string_view> fields;
-  std::size_t line = 0;
+  CsvRecords in(text, origin);
   enum : std::size_t { kSheetId, kAsOf, kShort, kLong, kDefaultPoint };
   const Header hdr =
-      read_header(cursor, fields, line, {"id", "as_of", "short_term_debt", "long_term_debt", "default_point"},
-                  origin, b.notes);
-  require_column(hdr, kSheetId, "id", origin, line);
-  require_column(hdr, kAsOf, "as_of", origin, line);
+      read_header(in, {"id", "as_of", "short_term_debt", "long_term_debt", "default_point"}, origin, b.notes);
+  require_column(hdr, kSheetId, "id", origin, in.line);
+  require_column(hdr, kAsOf, "as_of", origin, in.line);
   if (!hdr.has(kDefaultPoint) && !(hdr.has(kShort) && hdr.has(kLong))) {
-    throw InputError(located(origin, line,
+    throw InputError(located(origin, in.line,
                              "header: required columns 'short_term_debt' and 'long_term_debt' (or "
                              "'default_point') are missing"));
   }
-  while (cursor.next(fields, line)) {
+  while (in.next()) {
+    const std::vector<std::string_view>& fields = in.fields;
+    const std::size_t line = in.line;
     const std::string_view id = row_id(fields, hdr, kSheetId, origin, line);
     auto it = b.by_id.find(id);
     if (it == b.by_id.end()) {
