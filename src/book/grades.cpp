@@ -42,6 +42,12 @@ std::string GradeScale::problem() const {
   return {};
 }
 
+OptionCheck GradeScale::validate() const {
+  std::string why = problem();
+  if (why.empty()) return std::nullopt;
+  return OptionProblem{"bands", std::to_string(bands.size()) + " grades", std::move(why)};
+}
+
 GradeScale default_grade_scale() {
   // Invented for firmcall: roughly doubling bounds from 1 basis point, one-year PDs.
   return GradeScale{{{"FC1", 0.0001},

@@ -91,130 +91,139 @@ void ObligorRecord::clear() noexcept {
   line = 0;
 }
 
-void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
-                     ResolvedObligor& out) {
-  out.error.clear();
-  out.has_ead = false;
-  out.has_lgd = false;
-  out.has_asset_correlation = false;
-  out.has_maturity = false;
-  out.drift_follows_rate = false;
-  out.ead = 0.0;
+namespace {
+
+// The steps of resolve_obligor, in the order its checks run. Each returns false after writing the
+// first problem to `error`; none allocates unless it reports a problem.
+
+// A read error, a missing id, or a given number that is not finite.
+bool check_record(const ObligorRecord& rec, std::string& error) {
   if (!rec.read_error.empty()) {
-    out.error = rec.read_error;
-    return;
+    error = rec.read_error;
+    return false;
   }
   if (rec.get(TextField::id).empty()) {
-    out.error = field_error("id", "missing (every obligor needs an id)");
-    return;
+    error = field_error("id", "missing (every obligor needs an id)");
+    return false;
   }
   // Every number that was given must at least be finite (the readers reject text already).
   for (std::size_t i = 0; i < kNumFieldCount; ++i) {
     const auto f = static_cast<NumField>(i);
     if (rec.has(f) && !std::isfinite(rec.get(f))) {
-      out.error = field_error(to_string(f), "must be a finite number");
-      return;
+      error = field_error(to_string(f), "must be a finite number");
+      return false;
     }
   }
-  MertonInputs& in = out.inputs;
+  return true;
+}
 
-  // Equity value: market_cap, else share_price x shares_outstanding.
+// Equity value: market_cap, else share_price x shares_outstanding.
+bool resolve_equity_value(const ObligorRecord& rec, MertonInputs& in, std::string& error) {
   if (rec.has(NumField::market_cap)) {
     in.equity_value = rec.get(NumField::market_cap);
     if (!(in.equity_value > 0.0)) {
-      out.error = value_error(NumField::market_cap, "must be positive", in.equity_value);
-      return;
+      error = value_error(NumField::market_cap, "must be positive", in.equity_value);
+      return false;
     }
-  } else if (rec.has(NumField::share_price) || rec.has(NumField::shares_outstanding)) {
-    if (!rec.has(NumField::share_price)) {
-      out.error =
-          field_error("share_price", "missing (needed with shares_outstanding when market_cap is absent)");
-      return;
-    }
-    if (!rec.has(NumField::shares_outstanding)) {
-      out.error =
-          field_error("shares_outstanding", "missing (needed with share_price when market_cap is absent)");
-      return;
-    }
-    const double p = rec.get(NumField::share_price);
-    const double n = rec.get(NumField::shares_outstanding);
-    if (!(p > 0.0)) {
-      out.error = value_error(NumField::share_price, "must be positive", p);
-      return;
-    }
-    if (!(n > 0.0)) {
-      out.error = value_error(NumField::shares_outstanding, "must be positive", n);
-      return;
-    }
-    in.equity_value = p * n;
-    if (!std::isfinite(in.equity_value)) {
-      out.error = field_error("share_price", "share_price x shares_outstanding overflows");
-      return;
-    }
-  } else {
-    out.error = field_error("market_cap", "missing (give market_cap, or share_price and shares_outstanding)");
-    return;
+    return true;
   }
+  if (!rec.has(NumField::share_price) && !rec.has(NumField::shares_outstanding)) {
+    error = field_error("market_cap", "missing (give market_cap, or share_price and shares_outstanding)");
+    return false;
+  }
+  if (!rec.has(NumField::share_price)) {
+    error = field_error("share_price", "missing (needed with shares_outstanding when market_cap is absent)");
+    return false;
+  }
+  if (!rec.has(NumField::shares_outstanding)) {
+    error = field_error("shares_outstanding", "missing (needed with share_price when market_cap is absent)");
+    return false;
+  }
+  const double p = rec.get(NumField::share_price);
+  const double n = rec.get(NumField::shares_outstanding);
+  if (!(p > 0.0)) {
+    error = value_error(NumField::share_price, "must be positive", p);
+    return false;
+  }
+  if (!(n > 0.0)) {
+    error = value_error(NumField::shares_outstanding, "must be positive", n);
+    return false;
+  }
+  in.equity_value = p * n;
+  if (!std::isfinite(in.equity_value)) {
+    error = field_error("share_price", "share_price x shares_outstanding overflows");
+    return false;
+  }
+  return true;
+}
 
-  // Equity volatility.
+bool resolve_equity_vol(const ObligorRecord& rec, const ScoreSettings& settings, MertonInputs& in,
+                        std::string& error) {
   if (!rec.has(NumField::equity_vol)) {
-    out.error = field_error("equity_vol", "missing");
-    return;
+    error = field_error("equity_vol", "missing");
+    return false;
   }
   in.equity_vol_annual = rec.get(NumField::equity_vol);
   if (!(in.equity_vol_annual > 0.0)) {
-    out.error = value_error(NumField::equity_vol, "must be positive", in.equity_vol_annual);
-    return;
+    error = value_error(NumField::equity_vol, "must be positive", in.equity_vol_annual);
+    return false;
   }
   if (in.equity_vol_annual < kMinEquityVol) {
-    out.error =
-        value_error(NumField::equity_vol, "must be at least 0.0001 (0.01% a year)", in.equity_vol_annual);
-    return;
+    error = value_error(NumField::equity_vol, "must be at least 0.0001 (0.01% a year)", in.equity_vol_annual);
+    return false;
   }
   if (in.equity_vol_annual > settings.max_equity_vol) {
-    out.error = value_error(
+    error = value_error(
         NumField::equity_vol,
         "must be an annualised decimal (0.35 means 35%) no larger than " + shortest(settings.max_equity_vol),
         in.equity_vol_annual);
-    return;
+    return false;
   }
+  return true;
+}
 
+// Default point: the obligor's own, else short_term_debt + weight x long_term_debt.
+bool resolve_default_point(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
+                           MertonInputs& in, std::string& error) {
   // Debts are checked whenever given, even if default_point overrides them.
   for (NumField f : {NumField::short_term_debt, NumField::long_term_debt}) {
     if (rec.has(f) && rec.get(f) < 0.0) {
-      out.error = value_error(f, "must not be negative", rec.get(f));
-      return;
+      error = value_error(f, "must not be negative", rec.get(f));
+      return false;
     }
   }
   if (rec.has(NumField::default_point)) {
     in.default_point = rec.get(NumField::default_point);
     if (!(in.default_point > 0.0)) {
-      out.error = value_error(NumField::default_point, "must be positive", in.default_point);
-      return;
+      error = value_error(NumField::default_point, "must be positive", in.default_point);
+      return false;
     }
-  } else {
-    if (!rec.has(NumField::short_term_debt)) {
-      out.error = field_error("short_term_debt",
-                              "missing (give short_term_debt and long_term_debt, or default_point)");
-      return;
-    }
-    if (!rec.has(NumField::long_term_debt)) {
-      out.error = field_error("long_term_debt",
-                              "missing (give short_term_debt and long_term_debt, or default_point)");
-      return;
-    }
-    const double w =
-        settings.weight_override.value_or(book.default_point_weight.value_or(settings.default_point_weight));
-    in.default_point = rec.get(NumField::short_term_debt) + w * rec.get(NumField::long_term_debt);
-    if (!(in.default_point > 0.0)) {
-      out.error =
-          field_error("default_point",
-                      "short_term_debt + weight x long_term_debt is zero: the model needs positive debt");
-      return;
-    }
+    return true;
   }
+  if (!rec.has(NumField::short_term_debt)) {
+    error =
+        field_error("short_term_debt", "missing (give short_term_debt and long_term_debt, or default_point)");
+    return false;
+  }
+  if (!rec.has(NumField::long_term_debt)) {
+    error =
+        field_error("long_term_debt", "missing (give short_term_debt and long_term_debt, or default_point)");
+    return false;
+  }
+  const double w =
+      settings.weight_override.value_or(book.default_point_weight.value_or(settings.default_point_weight));
+  in.default_point = rec.get(NumField::short_term_debt) + w * rec.get(NumField::long_term_debt);
+  if (!(in.default_point > 0.0)) {
+    error = field_error("default_point",
+                        "short_term_debt + weight x long_term_debt is zero: the model needs positive debt");
+    return false;
+  }
+  return true;
+}
 
-  // Rate: override > obligor > book.
+// Rate: override > obligor > book.
+bool resolve_rate(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
+                  MertonInputs& in, std::string& error) {
   if (settings.rate_override) {
     in.risk_free_rate_cc = *settings.rate_override;
   } else if (rec.has(NumField::rate)) {
@@ -222,45 +231,59 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
   } else if (book.rate) {
     in.risk_free_rate_cc = *book.rate;
   } else {
-    out.error = field_error("rate", "missing (give a rate column, a book default or --rate)");
-    return;
+    error = field_error("rate", "missing (give a rate column, a book default or --rate)");
+    return false;
   }
   if (in.risk_free_rate_cc < -1.0 || in.risk_free_rate_cc > 1.0) {
-    out.error =
+    error =
         value_error(NumField::rate, "must be a continuously compounded decimal in [-1, 1] (0.03 means 3%)",
                     in.risk_free_rate_cc);
-    return;
+    return false;
   }
+  return true;
+}
 
-  // Horizon: override > obligor > book > configuration.
+// Horizon: override > obligor > book > configuration.
+bool resolve_horizon(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
+                     MertonInputs& in, std::string& error) {
   in.horizon_years = settings.horizon_override.value_or(rec.has(NumField::horizon)
                                                             ? rec.get(NumField::horizon)
                                                             : book.horizon.value_or(settings.horizon_years));
   if (!(in.horizon_years > 0.0) || in.horizon_years > 100.0) {
-    out.error = value_error(NumField::horizon, "must be positive years, at most 100", in.horizon_years);
-    return;
+    error = value_error(NumField::horizon, "must be positive years, at most 100", in.horizon_years);
+    return false;
   }
+  return true;
+}
 
-  // Drift: risk-neutral measure forces mu = r; else obligor > book > rate.
+// Drift: risk-neutral measure forces mu = r; else obligor > book > rate.
+bool resolve_drift(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
+                   ResolvedObligor& out) {
+  MertonInputs& in = out.inputs;
   out.drift_follows_rate =
       settings.measure == Measure::risk_neutral || (!rec.has(NumField::drift) && !book.drift);
   if (settings.measure == Measure::risk_neutral) {
     in.drift_annual = in.risk_free_rate_cc;
-  } else {
-    in.drift_annual =
-        rec.has(NumField::drift) ? rec.get(NumField::drift) : book.drift.value_or(in.risk_free_rate_cc);
-    if (in.drift_annual < -1.0 || in.drift_annual > 1.0) {
-      out.error = value_error(NumField::drift, "must be a continuously compounded decimal in [-1, 1]",
-                              in.drift_annual);
-      return;
-    }
+    return true;
   }
+  in.drift_annual =
+      rec.has(NumField::drift) ? rec.get(NumField::drift) : book.drift.value_or(in.risk_free_rate_cc);
+  if (in.drift_annual < -1.0 || in.drift_annual > 1.0) {
+    out.error =
+        value_error(NumField::drift, "must be a continuously compounded decimal in [-1, 1]", in.drift_annual);
+    return false;
+  }
+  return true;
+}
 
+// EAD, LGD (obligor > book > configuration), and the portfolio fields rho and maturity.
+bool resolve_loss_fields(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
+                         ResolvedObligor& out) {
   if (rec.has(NumField::ead)) {
     out.ead = rec.get(NumField::ead);
     if (out.ead < 0.0) {
       out.error = value_error(NumField::ead, "must not be negative", out.ead);
-      return;
+      return false;
     }
     out.has_ead = true;
   }
@@ -275,14 +298,14 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
   }
   if (out.lgd < 0.0 || out.lgd > 1.0) {
     out.error = value_error(NumField::lgd, "must be a decimal in [0, 1] (0.45 means 45%)", out.lgd);
-    return;
+    return false;
   }
   if (rec.has(NumField::asset_correlation)) {
     out.asset_correlation = rec.get(NumField::asset_correlation);
     if (!(out.asset_correlation >= 0.0 && out.asset_correlation < 1.0)) {
       out.error = value_error(NumField::asset_correlation, "must be a decimal in [0, 1) (0.2 means 20%)",
                               out.asset_correlation);
-      return;
+      return false;
     }
     out.has_asset_correlation = true;
   }
@@ -290,26 +313,51 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
     out.maturity_years = rec.get(NumField::maturity);
     if (!(out.maturity_years > 0.0) || out.maturity_years > 100.0) {
       out.error = value_error(NumField::maturity, "must be positive years, at most 100", out.maturity_years);
-      return;
+      return false;
     }
     out.has_maturity = true;
   }
-  // Magnitudes: amounts far outside any balance sheet, or a default point and an equity value
-  // that differ by more than ten orders of magnitude, are unit mistakes, not obligors.
+  return true;
+}
+
+// Magnitudes: amounts far outside any balance sheet, or a default point and an equity value
+// that differ by more than ten orders of magnitude, are unit mistakes, not obligors.
+bool check_magnitudes(const MertonInputs& in, std::string& error) {
   if (!(in.equity_value >= kMinAmount && in.equity_value <= kMaxAmount)) {
-    out.error =
-        value_error(NumField::market_cap, "equity value must lie in [1e-150, 1e150]", in.equity_value);
-    return;
+    error = value_error(NumField::market_cap, "equity value must lie in [1e-150, 1e150]", in.equity_value);
+    return false;
   }
   if (!(in.default_point >= kMinAmount && in.default_point <= kMaxAmount)) {
-    out.error = value_error(NumField::default_point, "must lie in [1e-150, 1e150]", in.default_point);
-    return;
+    error = value_error(NumField::default_point, "must lie in [1e-150, 1e150]", in.default_point);
+    return false;
   }
   const double ratio = in.default_point / in.equity_value;
   if (!(ratio >= kMinLeverage && ratio <= kMaxLeverage)) {
-    out.error =
-        value_error(NumField::default_point,
-                    "default point / equity value must lie in [1e-10, 1e10] (check the units)", ratio);
+    error = value_error(NumField::default_point,
+                        "default point / equity value must lie in [1e-10, 1e10] (check the units)", ratio);
+    return false;
+  }
+  return true;
+}
+
+}  // namespace
+
+void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
+                     ResolvedObligor& out) {
+  out.error.clear();
+  out.has_ead = false;
+  out.has_lgd = false;
+  out.has_asset_correlation = false;
+  out.has_maturity = false;
+  out.drift_follows_rate = false;
+  out.ead = 0.0;
+  MertonInputs& in = out.inputs;
+  if (!check_record(rec, out.error) || !resolve_equity_value(rec, in, out.error) ||
+      !resolve_equity_vol(rec, settings, in, out.error) ||
+      !resolve_default_point(rec, book, settings, in, out.error) ||
+      !resolve_rate(rec, book, settings, in, out.error) ||
+      !resolve_horizon(rec, book, settings, in, out.error) || !resolve_drift(rec, book, settings, out) ||
+      !resolve_loss_fields(rec, book, settings, out) || !check_magnitudes(in, out.error)) {
     return;
   }
   const MertonInputCheck check = validate(in);

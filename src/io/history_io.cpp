@@ -110,6 +110,36 @@ void require_column(const Header& h, std::size_t k, std::string_view name, const
   }
 }
 
+// A CSV text read record by record: after next(), `fields` and `line` describe the record.
+struct CsvRecords {
+  CsvRecords(std::string_view text, const std::string& origin) : cursor(text, origin) {}
+  bool next() { return cursor.next(fields, line); }
+  CsvCursor cursor;
+  std::vector<std::string_view> fields;
+  std::size_t line = 0;
+};
+
+// The first record of a file, as a header of the `known` columns; an empty file is an error.
+Header read_header(CsvRecords& in, std::initializer_list<std::string_view> known, const std::string& origin,
+                   std::vector<std::string>& notes) {
+  if (!in.next()) throw InputError(located(origin, 0, "empty file: a header row is required"));
+  return map_header(in.fields, known, origin, in.line, notes);
+}
+
+// The trimmed id cell of a row (column `k` of the header); a row without one is a file error.
+std::string_view row_id(const std::vector<std::string_view>& fields, const Header& hdr, std::size_t k,
+                        const std::string& origin, std::size_t line) {
+  const std::size_t id_col = static_cast<std::size_t>(hdr.at[k]);
+  const std::string_view id = id_col < fields.size() ? trim_blanks(fields[id_col]) : std::string_view{};
+  if (id.empty())
+    throw InputError(located(origin, line, "field 'id': missing (every row needs an obligor id)"));
+  return id;
+}
+
+std::string width_problem(std::size_t fields, std::size_t header_width) {
+  return "row has " + std::to_string(fields) + " fields, the header has " + std::to_string(header_width);
+}
+
 void add_problem(LocatedProblem& error, std::size_t& more, std::size_t line, std::string text) {
   if (error.empty()) {
     error = {line, std::move(text)};
@@ -181,157 +211,108 @@ const ObligorBalanceSheets* BalanceSheets::find(std::string_view id) const {
   return it == by_id.end() ? nullptr : &it->second;
 }
 
-EquityHistory parse_equity_history(std::string_view text, const std::string& origin) {
-  EquityHistory h;
-  h.origin = origin;
-  CsvCursor cursor(text, origin);
-  std::vector<std::string_view> fields;
-  std::size_t line = 0;
-  if (!cursor.next(fields, line))
-    throw InputError(located(origin, 0, "empty file: a header row is required"));
-  enum : std::size_t { kDate, kId, kMarketCap, kClose, kShares };
+namespace {
+
+// The steps of parse_equity_history.
+
+enum : std::size_t { kDate, kId, kMarketCap, kClose, kShares };
+
+Header read_equity_header(CsvRecords& in, EquityHistory& h) {
   const Header hdr =
-      map_header(fields, {"date", "id", "market_cap", "close", "shares_outstanding"}, origin, line, h.notes);
-  require_column(hdr, kDate, "date", origin, line);
-  require_column(hdr, kId, "id", origin, line);
+      read_header(in, {"date", "id", "market_cap", "close", "shares_outstanding"}, h.origin, h.notes);
+  const std::size_t line = in.line;
+  require_column(hdr, kDate, "date", h.origin, line);
+  require_column(hdr, kId, "id", h.origin, line);
   if (!hdr.has(kMarketCap) && !(hdr.has(kClose) && hdr.has(kShares))) {
-    throw InputError(located(origin, line,
+    throw InputError(located(h.origin, line,
                              "header: required column 'market_cap' (or 'close' with 'shares_outstanding') "
                              "is missing"));
   }
-  const auto col = [&](std::size_t k) { return static_cast<std::size_t>(hdr.at[k]); };
+  return hdr;
+}
 
-  struct Pending {
-    std::size_t empty_rows = 0;
-    std::size_t first_empty_line = 0;
-  };
-  std::vector<Pending> pending;
-  // Rows go to one array first (sized from the line count), then to exact-size per-obligor arrays.
-  struct ParsedRow {
-    std::uint32_t obligor;
-    std::int32_t date;
-    std::uint32_t line;
-    double equity_value;
-  };
-  std::vector<ParsedRow> parsed;
-  parsed.reserve(count_lines(text) + 1);
-  // Caches: files come grouped by obligor or by date with obligors in a fixed order, so the
-  // next id is usually the last one or the one after it, and the date usually the last one.
-  std::size_t last = static_cast<std::size_t>(-1);
-  std::string last_date_text;  // a copy: a quoted cell may live in reused scratch memory
-  std::int32_t last_date = 0;
-  while (cursor.next(fields, line)) {
-    const std::size_t id_col = col(kId);
-    const std::string_view id = id_col < fields.size() ? trim_blanks(fields[id_col]) : std::string_view{};
-    if (id.empty()) {
-      throw InputError(located(origin, line, "field 'id': missing (every row needs an obligor id)"));
-    }
-    if (last != static_cast<std::size_t>(-1) && h.obligors[last].id == id) {
-      // same obligor as the last row
-    } else if (last + 1 < h.obligors.size() && h.obligors[last + 1].id == id) {
-      ++last;
-    } else if (last != static_cast<std::size_t>(-1) && !h.obligors.empty() && h.obligors[0].id == id) {
-      last = 0;
-    } else {
-      const auto it = h.index.find(id);
-      if (it != h.index.end()) {
-        last = it->second;
-      } else {
-        last = h.obligors.size();
-        h.index.emplace(std::string(id), last);
-        h.obligors.emplace_back().id = std::string(id);
-        pending.emplace_back();
-      }
-    }
-    ObligorEquityHistory& ob = h.obligors[last];
-    const auto problem = [&](std::string t) { add_problem(ob.error, ob.more_problems, line, std::move(t)); };
-    if (fields.size() != hdr.width) {
-      problem("row has " + std::to_string(fields.size()) + " fields, the header has " +
-              std::to_string(hdr.width));
-      continue;
-    }
-    const std::string_view date_text = fields[col(kDate)];
-    std::optional<std::int32_t> date;
-    if (!last_date_text.empty() && date_text == last_date_text) {
-      date = last_date;
-    } else {
-      date = parse_iso_date(date_text);
-      if (!date) {
-        problem(not_a_date("date", date_text));
-        continue;
-      }
-      last_date_text.assign(date_text);
-      last_date = *date;
-    }
-    double e = 0.0;
-    Cell mc = Cell::absent;
-    if (hdr.has(kMarketCap)) {
-      mc = read_number(fields[col(kMarketCap)], e);
-      if (mc == Cell::bad) {
-        problem(not_a_number("market_cap", fields[col(kMarketCap)]));
-        continue;
-      }
-      if (mc == Cell::ok && !(e > 0.0)) {
-        problem(not_positive("market_cap", fields[col(kMarketCap)]));
-        continue;
-      }
-    }
-    if (mc == Cell::absent && hdr.has(kClose) && hdr.has(kShares)) {
-      double price = 0.0;
-      double shares = 0.0;
-      const Cell cp = read_number(fields[col(kClose)], price);
-      const Cell cs = read_number(fields[col(kShares)], shares);
-      if (cp == Cell::bad) {
-        problem(not_a_number("close", fields[col(kClose)]));
-        continue;
-      }
-      if (cs == Cell::bad) {
-        problem(not_a_number("shares_outstanding", fields[col(kShares)]));
-        continue;
-      }
-      if (cp == Cell::ok && !(price > 0.0)) {
-        problem(not_positive("close", fields[col(kClose)]));
-        continue;
-      }
-      if (cs == Cell::ok && !(shares > 0.0)) {
-        problem(not_positive("shares_outstanding", fields[col(kShares)]));
-        continue;
-      }
-      if (cp == Cell::ok && cs == Cell::absent) {
-        problem("field 'shares_outstanding': missing (needed with close when market_cap is empty)");
-        continue;
-      }
-      if (cp == Cell::absent && cs == Cell::ok) {
-        problem("field 'close': missing (needed with shares_outstanding when market_cap is empty)");
-        continue;
-      }
-      if (cp == Cell::ok) {
-        e = price * shares;
-        mc = Cell::ok;
-        if (!std::isfinite(e)) {
-          problem("field 'close': close x shares_outstanding overflows");
-          continue;
-        }
-      }
-    }
-    if (mc == Cell::absent) {
-      Pending& p = pending[last];
-      if (p.empty_rows++ == 0) p.first_empty_line = line;
-      continue;
-    }
-    parsed.push_back({static_cast<std::uint32_t>(last), *date, static_cast<std::uint32_t>(line), e});
-  }
-  {
-    std::vector<std::size_t> count(h.obligors.size(), 0);
-    for (const ParsedRow& r : parsed) ++count[r.obligor];
-    for (std::size_t i = 0; i < h.obligors.size(); ++i) h.obligors[i].rows.reserve(count[i]);
-    for (const ParsedRow& r : parsed)
-      h.obligors[r.obligor].rows.push_back({r.date, 0, r.line, r.equity_value});
-    std::vector<ParsedRow>().swap(parsed);
-  }
+// Rows without an equity value of one obligor, reported as one note.
+struct EmptyRows {
+  std::size_t count = 0;
+  std::size_t first_line = 0;
+};
 
-  // Trading calendar: every date in the file.
-  std::int32_t lo = std::numeric_limits<std::int32_t>::max();
+// Index of obligor `id` in h.obligors, adding it when new. `last` is the previous row's obligor
+// (npos before the first row): files come grouped by obligor or by date with obligors in a fixed
+// order, so the id is usually the last one or the one after it.
+std::size_t obligor_index(EquityHistory& h, std::vector<EmptyRows>& empty_rows, std::size_t last,
+                          std::string_view id) {
+  constexpr std::size_t npos = static_cast<std::size_t>(-1);
+  if (last != npos && h.obligors[last].id == id) return last;
+  if (last + 1 < h.obligors.size() && h.obligors[last + 1].id == id) return last + 1;
+  if (last != npos && !h.obligors.empty() && h.obligors[0].id == id) return 0;
+  const auto it = h.index.find(id);
+  if (it != h.index.end()) return it->second;
+  const std::size_t added = h.obligors.size();
+  h.index.emplace(std::string(id), added);
+  h.obligors.emplace_back().id = std::string(id);
+  empty_rows.emplace_back();
+  return added;
+}
+
+// The equity value of a row: market_cap, else close x shares_outstanding. Cell::bad after
+// reporting the problem through `problem`; Cell::absent when the row gives none.
+template <class Report>
+Cell row_equity_value(const std::vector<std::string_view>& fields, const Header& hdr, double& e,
+                      const Report& problem) {
+  const auto cell = [&](std::size_t k) { return fields[static_cast<std::size_t>(hdr.at[k])]; };
+  const auto fail = [&](std::string text) {
+    problem(std::move(text));
+    return Cell::bad;
+  };
+  Cell mc = Cell::absent;
+  if (hdr.has(kMarketCap)) {
+    mc = read_number(cell(kMarketCap), e);
+    if (mc == Cell::bad) return fail(not_a_number("market_cap", cell(kMarketCap)));
+    if (mc == Cell::ok && !(e > 0.0)) return fail(not_positive("market_cap", cell(kMarketCap)));
+  }
+  if (mc != Cell::absent || !hdr.has(kClose) || !hdr.has(kShares)) return mc;
+  double price = 0.0;
+  double shares = 0.0;
+  const Cell cp = read_number(cell(kClose), price);
+  const Cell cs = read_number(cell(kShares), shares);
+  if (cp == Cell::bad) return fail(not_a_number("close", cell(kClose)));
+  if (cs == Cell::bad) return fail(not_a_number("shares_outstanding", cell(kShares)));
+  if (cp == Cell::ok && !(price > 0.0)) return fail(not_positive("close", cell(kClose)));
+  if (cs == Cell::ok && !(shares > 0.0)) return fail(not_positive("shares_outstanding", cell(kShares)));
+  if (cp == Cell::ok && cs == Cell::absent) {
+    return fail("field 'shares_outstanding': missing (needed with close when market_cap is empty)");
+  }
+  if (cp == Cell::absent && cs == Cell::ok) {
+    return fail("field 'close': missing (needed with shares_outstanding when market_cap is empty)");
+  }
+  if (cp == Cell::absent) return Cell::absent;
+  e = price * shares;
+  if (!std::isfinite(e)) return fail("field 'close': close x shares_outstanding overflows");
+  return Cell::ok;
+}
+
+// A row read, before it goes to its obligor.
+struct ParsedRow {
+  std::uint32_t obligor;
+  std::int32_t date;
+  std::uint32_t line;
+  double equity_value;
+};
+
+// Moves the rows to exact-size per-obligor arrays, in file order.
+void distribute_rows(std::vector<ParsedRow>& parsed, EquityHistory& h) {
+  std::vector<std::size_t> count(h.obligors.size(), 0);
+  for (const ParsedRow& r : parsed) ++count[r.obligor];
+  for (std::size_t i = 0; i < h.obligors.size(); ++i) h.obligors[i].rows.reserve(count[i]);
+  for (const ParsedRow& r : parsed) h.obligors[r.obligor].rows.push_back({r.date, 0, r.line, r.equity_value});
+  std::vector<ParsedRow>().swap(parsed);
+}
+
+// Trading calendar: every date in the file, into h.calendar. Returns the calendar position of
+// each day from `lo` (the first date) on, -1 for days without rows.
+std::vector<std::int32_t> build_calendar(EquityHistory& h, std::int32_t& lo) {
+  lo = std::numeric_limits<std::int32_t>::max();
   std::int32_t hi = std::numeric_limits<std::int32_t>::min();
   for (const auto& ob : h.obligors) {
     for (const auto& r : ob.rows) {
@@ -353,45 +334,102 @@ EquityHistory parse_equity_history(std::string_view text, const std::string& ori
       }
     }
   }
+  return position;
+}
 
+// Sorts an obligor's rows by date, finds repeated dates, places the rows on the calendar and
+// notes empty rows and missing trading days.
+void finish_obligor(ObligorEquityHistory& ob, const EmptyRows& empty,
+                    const std::vector<std::int32_t>& position, std::int32_t lo,
+                    const std::vector<std::int32_t>& calendar) {
+  auto& rows = ob.rows;
+  const auto by_date = [](const EquityRow& a, const EquityRow& b) { return a.date < b.date; };
+  const auto out_of_order = std::is_sorted_until(rows.begin(), rows.end(), by_date);
+  if (out_of_order != rows.end()) {
+    ob.notes.push_back({out_of_order->line, "rows are not in date order: sorted by date"});
+    std::stable_sort(rows.begin(), rows.end(), by_date);
+  }
+  for (std::size_t k = 1; k < rows.size(); ++k) {
+    if (rows[k].date == rows[k - 1].date) {
+      const std::size_t later = std::max(rows[k].line, rows[k - 1].line);
+      const std::size_t earlier = std::min(rows[k].line, rows[k - 1].line);
+      add_problem(ob.error, ob.more_problems, later,
+                  "field 'date': " + format_iso_date(rows[k].date) + " appears twice (also line " +
+                      std::to_string(earlier) + "); a date may appear once per obligor");
+    }
+  }
+  for (auto& r : rows) r.trading_day = position[static_cast<std::size_t>(r.date - lo)];
+  if (empty.count > 0) {
+    ob.notes.push_back({empty.first_line, std::to_string(empty.count) +
+                                              (empty.count == 1 ? " row has" : " rows have") +
+                                              " no equity value: treated as missing days"});
+  }
+  if (ob.usable() && rows.size() >= 2) {
+    const std::int32_t span = rows.back().trading_day - rows.front().trading_day + 1;
+    ob.missing_days = static_cast<std::size_t>(span) - rows.size();
+    if (ob.missing_days > 0) {
+      std::size_t k = 1;
+      while (rows[k].trading_day == rows[k - 1].trading_day + 1) ++k;
+      const std::int32_t first_missing = calendar[static_cast<std::size_t>(rows[k - 1].trading_day) + 1];
+      ob.notes.push_back({0, std::to_string(ob.missing_days) +
+                                 " trading days missing between its first and last date (first " +
+                                 format_iso_date(first_missing) +
+                                 "); returns across a gap are taken as multi-day returns"});
+    }
+  }
+}
+
+}  // namespace
+
+EquityHistory parse_equity_history(std::string_view text, const std::string& origin) {
+  EquityHistory h;
+  h.origin = origin;
+  CsvRecords in(text, origin);
+  const Header hdr = read_equity_header(in, h);
+  std::vector<EmptyRows> empty_rows;
+  // Rows go to one array first (sized from the line count), then to exact-size per-obligor arrays.
+  std::vector<ParsedRow> parsed;
+  parsed.reserve(count_lines(text) + 1);
+  std::size_t last = static_cast<std::size_t>(-1);
+  // The date of the last row, usually that of the next: a copy, as a quoted cell may live in
+  // reused scratch memory.
+  std::string last_date_text;
+  std::int32_t last_date = 0;
+  while (in.next()) {
+    const std::vector<std::string_view>& fields = in.fields;
+    const std::size_t line = in.line;
+    last = obligor_index(h, empty_rows, last, row_id(fields, hdr, kId, origin, line));
+    ObligorEquityHistory& ob = h.obligors[last];
+    const auto problem = [&](std::string t) { add_problem(ob.error, ob.more_problems, line, std::move(t)); };
+    if (fields.size() != hdr.width) {
+      problem(width_problem(fields.size(), hdr.width));
+      continue;
+    }
+    const std::string_view date_text = fields[static_cast<std::size_t>(hdr.at[kDate])];
+    if (last_date_text.empty() || date_text != last_date_text) {
+      const std::optional<std::int32_t> date = parse_iso_date(date_text);
+      if (!date) {
+        problem(not_a_date("date", date_text));
+        continue;
+      }
+      last_date_text.assign(date_text);
+      last_date = *date;
+    }
+    double e = 0.0;
+    const Cell value = row_equity_value(fields, hdr, e, problem);
+    if (value == Cell::bad) continue;
+    if (value == Cell::absent) {
+      EmptyRows& p = empty_rows[last];
+      if (p.count++ == 0) p.first_line = line;
+      continue;
+    }
+    parsed.push_back({static_cast<std::uint32_t>(last), last_date, static_cast<std::uint32_t>(line), e});
+  }
+  distribute_rows(parsed, h);
+  std::int32_t lo = 0;
+  const std::vector<std::int32_t> position = build_calendar(h, lo);
   for (std::size_t i = 0; i < h.obligors.size(); ++i) {
-    ObligorEquityHistory& ob = h.obligors[i];
-    auto& rows = ob.rows;
-    const auto by_date = [](const EquityRow& a, const EquityRow& b) { return a.date < b.date; };
-    const auto out_of_order = std::is_sorted_until(rows.begin(), rows.end(), by_date);
-    if (out_of_order != rows.end()) {
-      ob.notes.push_back({out_of_order->line, "rows are not in date order: sorted by date"});
-      std::stable_sort(rows.begin(), rows.end(), by_date);
-    }
-    for (std::size_t k = 1; k < rows.size(); ++k) {
-      if (rows[k].date == rows[k - 1].date) {
-        const std::size_t later = std::max(rows[k].line, rows[k - 1].line);
-        const std::size_t earlier = std::min(rows[k].line, rows[k - 1].line);
-        add_problem(ob.error, ob.more_problems, later,
-                    "field 'date': " + format_iso_date(rows[k].date) + " appears twice (also line " +
-                        std::to_string(earlier) + "); a date may appear once per obligor");
-      }
-    }
-    for (auto& r : rows) r.trading_day = position[static_cast<std::size_t>(r.date - lo)];
-    if (pending[i].empty_rows > 0) {
-      ob.notes.push_back(
-          {pending[i].first_empty_line, std::to_string(pending[i].empty_rows) +
-                                            (pending[i].empty_rows == 1 ? " row has" : " rows have") +
-                                            " no equity value: treated as missing days"});
-    }
-    if (ob.usable() && rows.size() >= 2) {
-      const std::int32_t span = rows.back().trading_day - rows.front().trading_day + 1;
-      ob.missing_days = static_cast<std::size_t>(span) - rows.size();
-      if (ob.missing_days > 0) {
-        std::size_t k = 1;
-        while (rows[k].trading_day == rows[k - 1].trading_day + 1) ++k;
-        const std::int32_t first_missing = h.calendar[static_cast<std::size_t>(rows[k - 1].trading_day) + 1];
-        ob.notes.push_back({0, std::to_string(ob.missing_days) +
-                                   " trading days missing between its first and last date (first " +
-                                   format_iso_date(first_missing) +
-                                   "); returns across a gap are taken as multi-day returns"});
-      }
-    }
+    finish_obligor(h.obligors[i], empty_rows[i], position, lo, h.calendar);
   }
   return h;
 }
@@ -403,27 +441,21 @@ EquityHistory load_equity_history(const std::string& path) {
 BalanceSheets parse_balance_sheets(std::string_view text, const std::string& origin) {
   BalanceSheets b;
   b.origin = origin;
-  CsvCursor cursor(text, origin);
-  std::vector<std::string_view> fields;
-  std::size_t line = 0;
-  if (!cursor.next(fields, line))
-    throw InputError(located(origin, 0, "empty file: a header row is required"));
-  enum : std::size_t { kId, kAsOf, kShort, kLong, kDefaultPoint };
-  const Header hdr = map_header(fields, {"id", "as_of", "short_term_debt", "long_term_debt", "default_point"},
-                                origin, line, b.notes);
-  require_column(hdr, kId, "id", origin, line);
-  require_column(hdr, kAsOf, "as_of", origin, line);
+  CsvRecords in(text, origin);
+  enum : std::size_t { kSheetId, kAsOf, kShort, kLong, kDefaultPoint };
+  const Header hdr =
+      read_header(in, {"id", "as_of", "short_term_debt", "long_term_debt", "default_point"}, origin, b.notes);
+  require_column(hdr, kSheetId, "id", origin, in.line);
+  require_column(hdr, kAsOf, "as_of", origin, in.line);
   if (!hdr.has(kDefaultPoint) && !(hdr.has(kShort) && hdr.has(kLong))) {
-    throw InputError(located(origin, line,
+    throw InputError(located(origin, in.line,
                              "header: required columns 'short_term_debt' and 'long_term_debt' (or "
                              "'default_point') are missing"));
   }
-  while (cursor.next(fields, line)) {
-    const std::size_t id_col = static_cast<std::size_t>(hdr.at[kId]);
-    const std::string_view id = id_col < fields.size() ? trim_blanks(fields[id_col]) : std::string_view{};
-    if (id.empty()) {
-      throw InputError(located(origin, line, "field 'id': missing (every row needs an obligor id)"));
-    }
+  while (in.next()) {
+    const std::vector<std::string_view>& fields = in.fields;
+    const std::size_t line = in.line;
+    const std::string_view id = row_id(fields, hdr, kSheetId, origin, line);
     auto it = b.by_id.find(id);
     if (it == b.by_id.end()) {
       it = b.by_id.emplace(std::string(id), ObligorBalanceSheets{}).first;
@@ -432,8 +464,7 @@ BalanceSheets parse_balance_sheets(std::string_view text, const std::string& ori
     ObligorBalanceSheets& ob = it->second;
     const auto problem = [&](std::string t) { add_problem(ob.error, ob.more_problems, line, std::move(t)); };
     if (fields.size() != hdr.width) {
-      problem("row has " + std::to_string(fields.size()) + " fields, the header has " +
-              std::to_string(hdr.width));
+      problem(width_problem(fields.size(), hdr.width));
       continue;
     }
     BalanceSheet s;

@@ -54,6 +54,28 @@ const std::initializer_list<std::string_view> kShockKeys = {
     "rate_shift_bp", "default_point_change", "horizon_years"};
 const std::initializer_list<std::string_view> kFilterKeys = {"sector", "country", "currency", "ids"};
 
+// The numeric keys of a shock, in the order they are checked, each with its constraint.
+struct ShockValue {
+  const char* key;
+  double Shock::*field;
+  bool (*ok)(double);
+  const char* constraint;
+};
+constexpr ShockValue kShockValues[] = {
+    {"equity_change", &Shock::equity_change, [](double v) { return v > -1.0; },
+     "must be greater than -1 (a relative change of -1 or less makes the equity value non-positive)"},
+    {"equity_vol_multiplier", &Shock::equity_vol_multiplier, [](double v) { return v > 0.0; },
+     "must be positive (a factor on equity volatility)"},
+    {"equity_vol_add_points", &Shock::equity_vol_add_points, [](double v) { return std::fabs(v) <= 1000.0; },
+     "volatility points (5 means +0.05) between -1000 and 1000"},
+    {"rate_shift_bp", &Shock::rate_shift_bp, [](double v) { return std::fabs(v) <= 10000.0; },
+     "basis points (25 means +0.0025) between -10000 and 10000"},
+    {"default_point_change", &Shock::default_point_change, [](double v) { return v > -1.0; },
+     "must be greater than -1 (a relative change of -1 or less makes the default point non-positive)"},
+    {"horizon_years", &Shock::horizon_years, [](double v) { return v > 0.0 && v <= 100.0; },
+     "must be positive years, at most 100"},
+};
+
 std::string shortest(double v) {
   char buf[32];
   const auto r = std::to_chars(buf, buf + sizeof buf, v);
@@ -125,60 +147,14 @@ class Reader {
     if (!node.IsMap()) fail(node, context, "expected a map of shock: value");
     check_keys(node, kShockKeys, context);
     bool changes = false;
-    if (const auto n = node["equity_change"]) {
-      out.shock.equity_change = number(n, context, "equity_change");
-      if (!(out.shock.equity_change > -1.0)) {
-        fail(n, context,
-             "key 'equity_change': must be greater than -1 (a relative change of -1 or less makes the equity "
-             "value non-positive), got " +
-                 shortest(out.shock.equity_change));
+    for (const ShockValue& k : kShockValues) {
+      if (const auto n = node[k.key]) {
+        const double v = number(n, context, k.key);
+        if (!k.ok(v))
+          fail(n, context, "key '" + std::string(k.key) + "': " + k.constraint + ", got " + shortest(v));
+        out.shock.*k.field = v;
+        changes = true;
       }
-      changes = true;
-    }
-    if (const auto n = node["equity_vol_multiplier"]) {
-      out.shock.equity_vol_multiplier = number(n, context, "equity_vol_multiplier");
-      if (!(out.shock.equity_vol_multiplier > 0.0)) {
-        fail(n, context,
-             "key 'equity_vol_multiplier': must be positive (a factor on equity volatility), got " +
-                 shortest(out.shock.equity_vol_multiplier));
-      }
-      changes = true;
-    }
-    if (const auto n = node["equity_vol_add_points"]) {
-      out.shock.equity_vol_add_points = number(n, context, "equity_vol_add_points");
-      if (std::fabs(out.shock.equity_vol_add_points) > 1000.0) {
-        fail(n, context,
-             "key 'equity_vol_add_points': volatility points (5 means +0.05) between -1000 and 1000, got " +
-                 shortest(out.shock.equity_vol_add_points));
-      }
-      changes = true;
-    }
-    if (const auto n = node["rate_shift_bp"]) {
-      out.shock.rate_shift_bp = number(n, context, "rate_shift_bp");
-      if (std::fabs(out.shock.rate_shift_bp) > 10000.0) {
-        fail(n, context,
-             "key 'rate_shift_bp': basis points (25 means +0.0025) between -10000 and 10000, got " +
-                 shortest(out.shock.rate_shift_bp));
-      }
-      changes = true;
-    }
-    if (const auto n = node["default_point_change"]) {
-      out.shock.default_point_change = number(n, context, "default_point_change");
-      if (!(out.shock.default_point_change > -1.0)) {
-        fail(n, context,
-             "key 'default_point_change': must be greater than -1 (a relative change of -1 or less makes the "
-             "default point non-positive), got " +
-                 shortest(out.shock.default_point_change));
-      }
-      changes = true;
-    }
-    if (const auto n = node["horizon_years"]) {
-      const double h = number(n, context, "horizon_years");
-      if (!(h > 0.0 && h <= 100.0)) {
-        fail(n, context, "key 'horizon_years': must be positive years, at most 100, got " + shortest(h));
-      }
-      out.shock.horizon_years = h;
-      changes = true;
     }
     if (const auto f = node["filter"]) {
       const std::string fctx = context + ", filter";

@@ -1,5 +1,6 @@
 #include "firmcall/io/settings_io.hpp"
 
+#include <algorithm>
 #include <cmath>
 
 #include "firmcall/book/errors.hpp"
@@ -13,19 +14,60 @@ using detail::yaml_check_keys;
 using detail::yaml_line;
 using detail::yaml_number;
 
+// The constraints of each section are its validate()'s (book/settings.hpp); the reader checks
+// the section after storing each key, so the first broken constraint is the key just read (the
+// section's other fields hold defaults or values already checked) and is reported at that key's
+// line, in the order the keys are read below.
+template <class Section>
+void check_key(const Section& section, const YAML::Node& n, const std::string& origin, std::string_view key) {
+  if (const OptionCheck p = section.validate()) {
+    throw InputError(located(origin, yaml_line(n), "key '" + std::string(key) + "': " + p->constraint));
+  }
+}
+
+// A number key, when present: stored in `field`, then `section` is checked.
+template <class Section>
+void read_number(const YAML::Node& map, std::string_view key, double& field, const Section& section,
+                 const std::string& origin) {
+  if (const auto n = map[std::string(key)]) {
+    field = yaml_number(n, origin, key);
+    check_key(section, n, origin, key);
+  }
+}
+
+// A count key, when present: a positive value must be a whole number up to 1e9 to be stored in
+// an int; other values are stored as 0 or below, for the section's validate() to refuse.
+template <class Section>
+void read_count(const YAML::Node& map, std::string_view key, int& field, const Section& section,
+                const std::string& origin) {
+  if (const auto n = map[std::string(key)]) {
+    const double v = yaml_number(n, origin, key);
+    if (v > 0.0 && (v != std::floor(v) || v > 1e9)) {
+      throw InputError(
+          located(origin, yaml_line(n), "key '" + std::string(key) + "': must be a whole number"));
+    }
+    field = static_cast<int>(std::max(v, -1e9));
+    check_key(section, n, origin, key);
+  }
+}
+
+// A key naming one of an enumeration's values, when present; `parse` gives nullopt for other text.
+template <class Enum, class Parse>
+void read_choice(const YAML::Node& map, std::string_view key, Enum& field, Parse parse, const char* expected,
+                 const std::string& origin) {
+  if (const auto n = map[std::string(key)]) {
+    const std::optional<Enum> v = parse(detail::yaml_string(n, origin, key));
+    if (!v) throw InputError(located(origin, yaml_line(n), "key '" + std::string(key) + "': " + expected));
+    field = *v;
+  }
+}
+
+// The solver section's checks, until MertonSolveOptions (model layer) has a validate() of its
+// own for read_number / read_count to use.
 double positive(const YAML::Node& n, const std::string& origin, std::string_view key) {
   const double v = yaml_number(n, origin, key);
   if (!(v > 0.0)) {
     throw InputError(located(origin, yaml_line(n), "key '" + std::string(key) + "': must be positive"));
-  }
-  return v;
-}
-
-double in_unit_interval(const YAML::Node& n, const std::string& origin, std::string_view key, bool open) {
-  const double v = yaml_number(n, origin, key);
-  if (v < 0.0 || v > 1.0 || (open && (v == 0.0 || v == 1.0))) {
-    throw InputError(located(origin, yaml_line(n),
-                             "key '" + std::string(key) + "': must lie in " + (open ? "(0, 1)" : "[0, 1]")));
   }
   return v;
 }
@@ -36,6 +78,44 @@ int positive_int(const YAML::Node& n, const std::string& origin, std::string_vie
     throw InputError(located(origin, yaml_line(n), "key '" + std::string(key) + "': must be a whole number"));
   }
   return static_cast<int>(v);
+}
+
+void read_scoring(const YAML::Node& s, const std::string& origin, ScoreSettings& score) {
+  yaml_check_keys(s, {"default_point_weight", "horizon", "measure", "default_lgd", "max_equity_vol"}, origin,
+                  "scoring");
+  read_number(s, "default_point_weight", score.default_point_weight, score, origin);
+  read_number(s, "horizon", score.horizon_years, score, origin);
+  read_choice(s, "measure", score.measure, measure_from_string, "expected physical or risk-neutral", origin);
+  read_number(s, "default_lgd", score.default_lgd, score, origin);
+  read_number(s, "max_equity_vol", score.max_equity_vol, score, origin);
+}
+
+void read_solver(const YAML::Node& s, const std::string& origin, MertonSolveOptions& solver) {
+  yaml_check_keys(s, {"max_newton_iterations", "max_fallback_iterations", "residual_tolerance"}, origin,
+                  "solver");
+  if (s["max_newton_iterations"]) {
+    solver.max_newton_iterations = positive_int(s["max_newton_iterations"], origin, "max_newton_iterations");
+  }
+  if (s["max_fallback_iterations"]) {
+    solver.max_fallback_iterations =
+        positive_int(s["max_fallback_iterations"], origin, "max_fallback_iterations");
+  }
+  if (s["residual_tolerance"]) {
+    solver.residual_tolerance = positive(s["residual_tolerance"], origin, "residual_tolerance");
+  }
+}
+
+void read_history(const YAML::Node& s, const std::string& origin, HistorySettings& history) {
+  yaml_check_keys(s,
+                  {"min_observations", "trading_days_per_year", "ewma_decay", "iteration_tolerance",
+                   "max_iterations", "confidence_level"},
+                  origin, "history");
+  read_count(s, "min_observations", history.min_observations, history, origin);
+  read_number(s, "trading_days_per_year", history.trading_days_per_year, history, origin);
+  read_number(s, "ewma_decay", history.ewma_decay, history, origin);
+  read_number(s, "iteration_tolerance", history.iteration_tolerance, history, origin);
+  read_count(s, "max_iterations", history.max_iterations, history, origin);
+  read_number(s, "confidence_level", history.confidence_level, history, origin);
 }
 
 // `grades:` a list of {label, max_pd}, best grade first.
@@ -52,54 +132,80 @@ GradeScale parse_grade_scale(const YAML::Node& list, const std::string& origin) 
     scale.bands.push_back(
         {detail::yaml_string(g["label"], origin, "label"), yaml_number(g["max_pd"], origin, "max_pd")});
   }
-  if (const std::string problem = scale.problem(); !problem.empty()) {
-    throw InputError(located(origin, yaml_line(list), "grades: " + problem));
+  if (const OptionCheck p = scale.validate()) {
+    throw InputError(located(origin, yaml_line(list), "grades: " + p->constraint));
   }
   return scale;
 }
 
-MonitorSettings parse_monitoring(const YAML::Node& s, const std::string& origin) {
-  MonitorSettings m;
+void read_monitoring(const YAML::Node& s, const std::string& origin, MonitorSettings& m) {
   yaml_check_keys(s, {"store", "busy_timeout_seconds", "alerts"}, origin, "monitoring");
   if (s["store"]) m.store = detail::yaml_string(s["store"], origin, "store");
-  if (s["busy_timeout_seconds"]) {
-    m.busy_timeout_seconds = positive(s["busy_timeout_seconds"], origin, "busy_timeout_seconds");
-  }
+  read_number(s, "busy_timeout_seconds", m.busy_timeout_seconds, m, origin);
   if (const auto a = s["alerts"]) {
     yaml_check_keys(a, {"dd_drop", "pd_ratio", "pd_ratio_min_pd", "downgrade_notches", "pd_ceiling"}, origin,
                     "alerts");
-    if (a["dd_drop"]) m.alerts.dd_drop = positive(a["dd_drop"], origin, "dd_drop");
-    if (a["pd_ratio"]) {
-      m.alerts.pd_ratio = yaml_number(a["pd_ratio"], origin, "pd_ratio");
-      if (!(m.alerts.pd_ratio > 1.0)) {
-        throw InputError(located(origin, yaml_line(a["pd_ratio"]), "key 'pd_ratio': must be above 1"));
-      }
-    }
-    if (a["pd_ratio_min_pd"]) {
-      m.alerts.pd_ratio_min_pd = in_unit_interval(a["pd_ratio_min_pd"], origin, "pd_ratio_min_pd", false);
-    }
-    if (a["downgrade_notches"]) {
-      m.alerts.downgrade_notches = positive_int(a["downgrade_notches"], origin, "downgrade_notches");
-    }
-    if (a["pd_ceiling"]) m.alerts.pd_ceiling = in_unit_interval(a["pd_ceiling"], origin, "pd_ceiling", false);
+    read_number(a, "dd_drop", m.alerts.dd_drop, m.alerts, origin);
+    read_number(a, "pd_ratio", m.alerts.pd_ratio, m.alerts, origin);
+    read_number(a, "pd_ratio_min_pd", m.alerts.pd_ratio_min_pd, m.alerts, origin);
+    read_count(a, "downgrade_notches", m.alerts.downgrade_notches, m.alerts, origin);
+    read_number(a, "pd_ceiling", m.alerts.pd_ceiling, m.alerts, origin);
   }
-  return m;
 }
 
-std::vector<double> confidence_levels(const YAML::Node& n, const std::string& origin) {
-  const auto fail = [&](const std::string& why) {
-    throw InputError(located(origin, yaml_line(n), "key 'confidence_levels': " + why));
-  };
-  if (!n.IsSequence() || n.size() == 0) fail("expected a list such as [0.99, 0.995, 0.999]");
-  if (n.size() > kMaxConfidenceLevels) fail("at most " + std::to_string(kMaxConfidenceLevels) + " levels");
-  std::vector<double> levels;
-  for (const auto& item : n) {
-    const double v = yaml_number(item, origin, "confidence_levels");
-    if (!(v > 0.0 && v < 1.0)) fail("each level must lie in (0, 1) (0.999 means 99.9%)");
-    if (!levels.empty() && !(v > levels.back())) fail("levels must be listed in increasing order");
-    levels.push_back(v);
+void read_term_structure(const YAML::Node& s, const std::string& origin, TermSettings& term) {
+  yaml_check_keys(s, {"calibration", "barrier_ratio", "barrier_growth"}, origin, "term_structure");
+  read_choice(s, "calibration", term.calibration, calibration_from_string, "expected once or per-horizon",
+              origin);
+  read_number(s, "barrier_ratio", term.barrier_ratio, term, origin);
+  read_number(s, "barrier_growth", term.barrier_growth, term, origin);
+}
+
+// The list's shape is checked before its items (a list too long is refused unread), then each
+// level as it is read, so the first problem is the one met first in the list.
+void read_confidence_levels(const YAML::Node& n, const std::string& origin, PortfolioSettings& p) {
+  constexpr std::string_view key = "confidence_levels";
+  std::vector<double>& levels = p.confidence_levels;
+  levels.clear();
+  if (!n.IsSequence() || n.size() == 0 || n.size() > kMaxConfidenceLevels) {
+    if (n.IsSequence()) levels.resize(n.size());
+    check_key(p, n, origin, key);
   }
-  return levels;
+  for (const auto& item : n) {
+    levels.push_back(yaml_number(item, origin, key));
+    check_key(p, n, origin, key);
+  }
+}
+
+void read_portfolio(const YAML::Node& s, const std::string& origin, PortfolioSettings& p) {
+  yaml_check_keys(
+      s, {"confidence_levels", "asset_correlation", "loss_grid_points", "quadrature_tolerance", "seed"},
+      origin, "portfolio");
+  if (const auto levels = s["confidence_levels"]) read_confidence_levels(levels, origin, p);
+  if (const auto rho = s["asset_correlation"]) {
+    if (rho.IsScalar() && rho.Scalar() == "basel") {
+      p.asset_correlation.reset();
+    } else {
+      p.asset_correlation = yaml_number(rho, origin, "asset_correlation");
+      check_key(p, rho, origin, "asset_correlation");
+    }
+  }
+  read_count(s, "loss_grid_points", p.loss_grid_points, p, origin);
+  read_number(s, "quadrature_tolerance", p.quadrature_tolerance, p, origin);
+  // The seed is read through a double: whole numbers are exact up to 2^53.
+  if (s["seed"]) {
+    const double v = yaml_number(s["seed"], origin, "seed");
+    if (!(v >= 0.0 && v <= 9007199254740992.0) || v != std::floor(v)) {
+      throw InputError(located(origin, yaml_line(s["seed"]), "key 'seed': must be a whole number >= 0"));
+    }
+    p.seed = static_cast<std::uint64_t>(v);
+  }
+}
+
+void read_irb(const YAML::Node& s, const std::string& origin, IrbSettings& irb) {
+  yaml_check_keys(s, {"pd_floor", "maturity"}, origin, "irb");
+  read_number(s, "pd_floor", irb.pd_floor, irb, origin);
+  read_number(s, "maturity", irb.maturity_years, irb, origin);
 }
 
 }  // namespace
@@ -112,132 +218,18 @@ Config parse_config(const std::string& text, const std::string& origin) {
                   {"scoring", "solver", "stress", "history", "grades", "monitoring", "term_structure",
                    "portfolio", "irb"},
                   origin, "configuration");
-  if (const auto s = root["scoring"]) {
-    yaml_check_keys(s, {"default_point_weight", "horizon", "measure", "default_lgd", "max_equity_vol"},
-                    origin, "scoring");
-    if (s["default_point_weight"]) {
-      c.score.default_point_weight =
-          in_unit_interval(s["default_point_weight"], origin, "default_point_weight", false);
-    }
-    if (s["horizon"]) c.score.horizon_years = positive(s["horizon"], origin, "horizon");
-    if (s["measure"]) {
-      const auto m = measure_from_string(detail::yaml_string(s["measure"], origin, "measure"));
-      if (!m) {
-        throw InputError(
-            located(origin, yaml_line(s["measure"]), "key 'measure': expected physical or risk-neutral"));
-      }
-      c.score.measure = *m;
-    }
-    if (s["default_lgd"])
-      c.score.default_lgd = in_unit_interval(s["default_lgd"], origin, "default_lgd", false);
-    if (s["max_equity_vol"]) c.score.max_equity_vol = positive(s["max_equity_vol"], origin, "max_equity_vol");
-  }
-  if (const auto s = root["solver"]) {
-    yaml_check_keys(s, {"max_newton_iterations", "max_fallback_iterations", "residual_tolerance"}, origin,
-                    "solver");
-    if (s["max_newton_iterations"]) {
-      c.score.solver.max_newton_iterations =
-          positive_int(s["max_newton_iterations"], origin, "max_newton_iterations");
-    }
-    if (s["max_fallback_iterations"]) {
-      c.score.solver.max_fallback_iterations =
-          positive_int(s["max_fallback_iterations"], origin, "max_fallback_iterations");
-    }
-    if (s["residual_tolerance"]) {
-      c.score.solver.residual_tolerance = positive(s["residual_tolerance"], origin, "residual_tolerance");
-    }
-  }
+  if (const auto s = root["scoring"]) read_scoring(s, origin, c.score);
+  if (const auto s = root["solver"]) read_solver(s, origin, c.score.solver);
   if (const auto s = root["stress"]) {
     yaml_check_keys(s, {"pd_threshold"}, origin, "stress");
-    if (s["pd_threshold"])
-      c.stress.pd_threshold = in_unit_interval(s["pd_threshold"], origin, "pd_threshold", true);
+    read_number(s, "pd_threshold", c.stress.pd_threshold, c.stress, origin);
   }
-  if (const auto s = root["history"]) {
-    yaml_check_keys(s,
-                    {"min_observations", "trading_days_per_year", "ewma_decay", "iteration_tolerance",
-                     "max_iterations", "confidence_level"},
-                    origin, "history");
-    if (s["min_observations"]) {
-      c.history.min_observations = positive_int(s["min_observations"], origin, "min_observations");
-    }
-    if (s["trading_days_per_year"]) {
-      c.history.trading_days_per_year = positive(s["trading_days_per_year"], origin, "trading_days_per_year");
-    }
-    if (s["ewma_decay"]) c.history.ewma_decay = in_unit_interval(s["ewma_decay"], origin, "ewma_decay", true);
-    if (s["iteration_tolerance"]) {
-      c.history.iteration_tolerance = positive(s["iteration_tolerance"], origin, "iteration_tolerance");
-    }
-    if (s["max_iterations"])
-      c.history.max_iterations = positive_int(s["max_iterations"], origin, "max_iterations");
-    if (s["confidence_level"]) {
-      c.history.confidence_level = in_unit_interval(s["confidence_level"], origin, "confidence_level", true);
-    }
-  }
+  if (const auto s = root["history"]) read_history(s, origin, c.history);
   if (const auto s = root["grades"]) c.grades = parse_grade_scale(s, origin);
-  if (const auto s = root["monitoring"]) c.monitor = parse_monitoring(s, origin);
-  if (const auto s = root["term_structure"]) {
-    yaml_check_keys(s, {"calibration", "barrier_ratio", "barrier_growth"}, origin, "term_structure");
-    if (s["calibration"]) {
-      const auto cal = calibration_from_string(detail::yaml_string(s["calibration"], origin, "calibration"));
-      if (!cal) {
-        throw InputError(
-            located(origin, yaml_line(s["calibration"]), "key 'calibration': expected once or per-horizon"));
-      }
-      c.term.calibration = *cal;
-    }
-    if (s["barrier_ratio"]) c.term.barrier_ratio = positive(s["barrier_ratio"], origin, "barrier_ratio");
-    if (s["barrier_growth"]) {
-      const double g = yaml_number(s["barrier_growth"], origin, "barrier_growth");
-      if (!(std::fabs(g) <= 1.0)) {
-        throw InputError(located(origin, yaml_line(s["barrier_growth"]),
-                                 "key 'barrier_growth': must lie in [-1, 1] (0.02 means 2% a year)"));
-      }
-      c.term.barrier_growth = g;
-    }
-  }
-  if (const auto s = root["portfolio"]) {
-    yaml_check_keys(
-        s, {"confidence_levels", "asset_correlation", "loss_grid_points", "quadrature_tolerance", "seed"},
-        origin, "portfolio");
-    if (const auto levels = s["confidence_levels"]) {
-      c.portfolio.confidence_levels = confidence_levels(levels, origin);
-    }
-    if (const auto rho = s["asset_correlation"]) {
-      if (rho.IsScalar() && rho.Scalar() == "basel") {
-        c.portfolio.asset_correlation.reset();
-      } else {
-        const double v = yaml_number(rho, origin, "asset_correlation");
-        if (!(v >= 0.0 && v < 1.0)) {
-          throw InputError(located(origin, yaml_line(rho),
-                                   "key 'asset_correlation': expected basel or a decimal in [0, 1)"));
-        }
-        c.portfolio.asset_correlation = v;
-      }
-    }
-    if (s["loss_grid_points"]) {
-      c.portfolio.loss_grid_points = positive_int(s["loss_grid_points"], origin, "loss_grid_points");
-      if (c.portfolio.loss_grid_points < 16 || c.portfolio.loss_grid_points > (1 << 20)) {
-        throw InputError(located(origin, yaml_line(s["loss_grid_points"]),
-                                 "key 'loss_grid_points': must lie in [16, 1048576]"));
-      }
-    }
-    if (s["quadrature_tolerance"]) {
-      c.portfolio.quadrature_tolerance =
-          in_unit_interval(s["quadrature_tolerance"], origin, "quadrature_tolerance", true);
-    }
-    if (s["seed"]) {
-      const double v = yaml_number(s["seed"], origin, "seed");
-      if (!(v >= 0.0 && v <= 9007199254740992.0) || v != std::floor(v)) {
-        throw InputError(located(origin, yaml_line(s["seed"]), "key 'seed': must be a whole number >= 0"));
-      }
-      c.portfolio.seed = static_cast<std::uint64_t>(v);
-    }
-  }
-  if (const auto s = root["irb"]) {
-    yaml_check_keys(s, {"pd_floor", "maturity"}, origin, "irb");
-    if (s["pd_floor"]) c.irb.pd_floor = in_unit_interval(s["pd_floor"], origin, "pd_floor", false);
-    if (s["maturity"]) c.irb.maturity_years = positive(s["maturity"], origin, "maturity");
-  }
+  if (const auto s = root["monitoring"]) read_monitoring(s, origin, c.monitor);
+  if (const auto s = root["term_structure"]) read_term_structure(s, origin, c.term);
+  if (const auto s = root["portfolio"]) read_portfolio(s, origin, c.portfolio);
+  if (const auto s = root["irb"]) read_irb(s, origin, c.irb);
   return c;
 }
 

@@ -1,109 +1,43 @@
-// SHA-256 as specified in NIST FIPS 180-4, sections 4.1.2 (functions), 4.2.2 (constants),
-// 5.1.1 (padding), 5.3.3 (initial hash value) and 6.2.2 (computation).
+// SHA-256 through OpenSSL's EVP digest interface (EVP_sha256), which picks the fastest
+// implementation the processor offers (SHA extensions, AVX2, ...).
 #include "firmcall/io/sha256.hpp"
 
-#include <algorithm>
-#include <cstring>
+#include <openssl/evp.h>
+
+#include <stdexcept>
 
 namespace firmcall {
 
 namespace {
 
-constexpr std::array<std::uint32_t, 64> kRoundConstants = {
-    0x428a2f98, 0x71374491, 0xb5c0fbcf, 0xe9b5dba5, 0x3956c25b, 0x59f111f1, 0x923f82a4, 0xab1c5ed5,
-    0xd807aa98, 0x12835b01, 0x243185be, 0x550c7dc3, 0x72be5d74, 0x80deb1fe, 0x9bdc06a7, 0xc19bf174,
-    0xe49b69c1, 0xefbe4786, 0x0fc19dc6, 0x240ca1cc, 0x2de92c6f, 0x4a7484aa, 0x5cb0a9dc, 0x76f988da,
-    0x983e5152, 0xa831c66d, 0xb00327c8, 0xbf597fc7, 0xc6e00bf3, 0xd5a79147, 0x06ca6351, 0x14292967,
-    0x27b70a85, 0x2e1b2138, 0x4d2c6dfc, 0x53380d13, 0x650a7354, 0x766a0abb, 0x81c2c92e, 0x92722c85,
-    0xa2bfe8a1, 0xa81a664b, 0xc24b8b70, 0xc76c51a3, 0xd192e819, 0xd6990624, 0xf40e3585, 0x106aa070,
-    0x19a4c116, 0x1e376c08, 0x2748774c, 0x34b0bcb5, 0x391c0cb3, 0x4ed8aa4a, 0x5b9cca4f, 0x682e6ff3,
-    0x748f82ee, 0x78a5636f, 0x84c87814, 0x8cc70208, 0x90befffa, 0xa4506ceb, 0xbef9a3f7, 0xc67178f2};
-
-constexpr std::uint32_t rotr(std::uint32_t x, int n) noexcept {
-  return (x >> n) | (x << (32 - n));
+[[noreturn]] void fail(const char* what) {
+  throw std::runtime_error(std::string("SHA-256: OpenSSL ") + what + " failed");
 }
 
 }  // namespace
 
-void Sha256::compress(const std::uint8_t* block) noexcept {
-  std::uint32_t w[64];
-  for (int t = 0; t < 16; ++t) {
-    w[t] = (static_cast<std::uint32_t>(block[4 * t]) << 24) |
-           (static_cast<std::uint32_t>(block[4 * t + 1]) << 16) |
-           (static_cast<std::uint32_t>(block[4 * t + 2]) << 8) | static_cast<std::uint32_t>(block[4 * t + 3]);
-  }
-  for (int t = 16; t < 64; ++t) {
-    const std::uint32_t s0 = rotr(w[t - 15], 7) ^ rotr(w[t - 15], 18) ^ (w[t - 15] >> 3);
-    const std::uint32_t s1 = rotr(w[t - 2], 17) ^ rotr(w[t - 2], 19) ^ (w[t - 2] >> 10);
-    w[t] = w[t - 16] + s0 + w[t - 7] + s1;
-  }
-  std::uint32_t a = state_[0], b = state_[1], c = state_[2], d = state_[3];
-  std::uint32_t e = state_[4], f = state_[5], g = state_[6], h = state_[7];
-  for (std::size_t t = 0; t < 64; ++t) {
-    const std::uint32_t big_s1 = rotr(e, 6) ^ rotr(e, 11) ^ rotr(e, 25);
-    const std::uint32_t ch = (e & f) ^ (~e & g);
-    const std::uint32_t t1 = h + big_s1 + ch + kRoundConstants[t] + w[t];
-    const std::uint32_t big_s0 = rotr(a, 2) ^ rotr(a, 13) ^ rotr(a, 22);
-    const std::uint32_t maj = (a & b) ^ (a & c) ^ (b & c);
-    const std::uint32_t t2 = big_s0 + maj;
-    h = g;
-    g = f;
-    f = e;
-    e = d + t1;
-    d = c;
-    c = b;
-    b = a;
-    a = t1 + t2;
-  }
-  state_[0] += a;
-  state_[1] += b;
-  state_[2] += c;
-  state_[3] += d;
-  state_[4] += e;
-  state_[5] += f;
-  state_[6] += g;
-  state_[7] += h;
+void Sha256::ContextFree::operator()(evp_md_ctx_st* ctx) const noexcept {
+  EVP_MD_CTX_free(ctx);
 }
 
-void Sha256::update(std::string_view bytes) noexcept {
-  const auto* p = reinterpret_cast<const std::uint8_t*>(bytes.data());
-  std::size_t n = bytes.size();
-  length_ += n;
-  if (buffered_ > 0) {
-    const std::size_t take = std::min(n, buffer_.size() - buffered_);
-    std::memcpy(buffer_.data() + buffered_, p, take);
-    buffered_ += take;
-    p += take;
-    n -= take;
-    if (buffered_ < buffer_.size()) return;
-    compress(buffer_.data());
-    buffered_ = 0;
-  }
-  while (n >= 64) {
-    compress(p);
-    p += 64;
-    n -= 64;
-  }
-  std::memcpy(buffer_.data(), p, n);
-  buffered_ = n;
+Sha256::Sha256() : ctx_(EVP_MD_CTX_new()) {
+  if (!ctx_) fail("EVP_MD_CTX_new");
+  if (EVP_DigestInit_ex(ctx_.get(), EVP_sha256(), nullptr) != 1) fail("EVP_DigestInit_ex");
 }
 
-Sha256Digest Sha256::finish() noexcept {
-  const std::uint64_t bit_length = length_ * 8;
-  // Padding: a 1 bit, zeros to 56 bytes mod 64, then the length as a 64-bit big-endian integer.
-  buffer_[buffered_++] = 0x80;
-  if (buffered_ > 56) {
-    std::fill(buffer_.begin() + static_cast<std::ptrdiff_t>(buffered_), buffer_.end(), 0);
-    compress(buffer_.data());
-    buffered_ = 0;
-  }
-  std::fill(buffer_.begin() + static_cast<std::ptrdiff_t>(buffered_), buffer_.begin() + 56, 0);
-  for (int i = 0; i < 8; ++i)
-    buffer_[56 + static_cast<std::size_t>(i)] = static_cast<std::uint8_t>(bit_length >> (56 - 8 * i));
-  compress(buffer_.data());
+Sha256::~Sha256() = default;
+Sha256::Sha256(Sha256&&) noexcept = default;
+Sha256& Sha256::operator=(Sha256&&) noexcept = default;
+
+void Sha256::update(std::string_view bytes) {
+  if (EVP_DigestUpdate(ctx_.get(), bytes.data(), bytes.size()) != 1) fail("EVP_DigestUpdate");
+}
+
+Sha256Digest Sha256::finish() {
   Sha256Digest out{};
-  for (std::size_t i = 0; i < 8; ++i) {
-    for (std::size_t j = 0; j < 4; ++j) out[4 * i + j] = static_cast<std::uint8_t>(state_[i] >> (24 - 8 * j));
+  unsigned int size = 0;
+  if (EVP_DigestFinal_ex(ctx_.get(), out.data(), &size) != 1 || size != out.size()) {
+    fail("EVP_DigestFinal_ex");
   }
   return out;
 }
@@ -120,9 +54,13 @@ std::string to_hex(const Sha256Digest& digest) {
 }
 
 std::string sha256_hex(std::string_view bytes) {
-  Sha256 h;
-  h.update(bytes);
-  return to_hex(h.finish());
+  Sha256Digest out{};
+  unsigned int size = 0;
+  if (EVP_Digest(bytes.data(), bytes.size(), out.data(), &size, EVP_sha256(), nullptr) != 1 ||
+      size != out.size()) {
+    fail("EVP_Digest");
+  }
+  return to_hex(out);
 }
 
 }  // namespace firmcall

@@ -15,6 +15,8 @@
 #include <string_view>
 #include <vector>
 
+#include "firmcall/util/option_check.hpp"
+
 namespace firmcall {
 
 /// One grade: its label and the largest PD it covers.
@@ -36,6 +38,8 @@ struct GradeScale {
   /// Empty when the scale is usable; otherwise why not: at least one band, labels non-empty and
   /// unique, upper bounds strictly increasing within (0, 1], the last equal to 1.
   std::string problem() const;
+  /// problem() as an OptionProblem on the field "bands" (the value is the number of grades).
+  OptionCheck validate() const;
 };
 
 /// The built-in scale, equal to `grades:` in config/firmcall.yaml (ten invented notches).

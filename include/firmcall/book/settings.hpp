@@ -12,6 +12,7 @@
 #include "firmcall/estimate/history.hpp"
 #include "firmcall/model/merton_solver.hpp"
 #include "firmcall/model/term_structure.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -33,11 +34,18 @@ struct ScoreSettings {
   std::optional<double> rate_override;
   std::optional<double> horizon_override;
   std::optional<double> weight_override;
+
+  /// The first broken constraint among the file values, in the order of the fields (those the
+  /// settings reader enforces). The overrides are the command line's to check.
+  OptionCheck validate() const;
 };
 
 /// Settings of the stress command (see stress.hpp).
 struct StressSettings {
   double pd_threshold = 0.05;  ///< obligors with stressed PD above this are counted per scenario
+
+  /// The first broken constraint, in the order of the fields (those the settings reader enforces).
+  OptionCheck validate() const;
 };
 
 /// Watchlist alert rules (see movers.hpp): an obligor is flagged when any rule fires between two
@@ -48,6 +56,9 @@ struct AlertRules {
   double pd_ratio_min_pd = 1e-4;  ///< ... and the new PD is at least this (far-tail ratios are noise)
   int downgrade_notches = 2;      ///< grade worsened by at least this many notches
   double pd_ceiling = 0.05;       ///< PD above this, probability
+
+  /// The first broken constraint, in the order of the fields (those the settings reader enforces).
+  OptionCheck validate() const;
 };
 
 /// Settings of the monitoring commands (history store, alerts).
@@ -57,6 +68,9 @@ struct MonitorSettings {
   std::string store;
   double busy_timeout_seconds = 10.0;  ///< how long to wait for another process writing the store
   AlertRules alerts;
+
+  /// The first broken constraint, busy_timeout_seconds then the alert rules ("alerts.dd_drop").
+  OptionCheck validate() const;
 };
 
 /// Settings of PD term structures and the first-passage model (term_structure.hpp).
@@ -64,6 +78,9 @@ struct TermSettings {
   Calibration calibration = Calibration::once;  ///< once: solve at each obligor's horizon, then project
   double barrier_ratio = 1.0;                   ///< first-passage barrier H0 = ratio x default point
   double barrier_growth = 0.0;                  ///< barrier growth g, cc decimal per year: H(t) = H0 e^(g t)
+
+  /// The first broken constraint, in the order of the fields (those the settings reader enforces).
+  OptionCheck validate() const;
 };
 
 /// Most confidence levels a portfolio run reports.
@@ -78,12 +95,18 @@ struct PortfolioSettings {
   int loss_grid_points = 2048;         ///< points of the exact one-factor loss grid
   double quadrature_tolerance = 1e-3;  ///< relative error allowed on exceedance probabilities
   std::uint64_t seed = 1;              ///< Monte Carlo seed (results depend only on it and the inputs)
+
+  /// The first broken constraint, in the order of the fields (those the settings reader enforces).
+  OptionCheck validate() const;
 };
 
 /// Settings of the Basel IRB capital formula (irb.hpp).
 struct IrbSettings {
   double pd_floor = 0.0003;     ///< BCBS 2006 para 285
   double maturity_years = 2.5;  ///< effective maturity M when the obligor gives none (para 318)
+
+  /// The first broken constraint, in the order of the fields (those the settings reader enforces).
+  OptionCheck validate() const;
 };
 
 /// Everything in a configuration file.
@@ -96,6 +119,10 @@ struct Config {
   TermSettings term;
   PortfolioSettings portfolio;
   IrbSettings irb;
+
+  /// The first broken constraint of any section, the field named with its section
+  /// ("history.ewma_decay", "grades.bands").
+  OptionCheck validate() const;
 };
 
 }  // namespace firmcall

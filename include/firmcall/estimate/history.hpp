@@ -41,6 +41,8 @@
 #include <string_view>
 #include <vector>
 
+#include "firmcall/util/option_check.hpp"
+
 namespace firmcall {
 
 /// Settings of the history estimators.
@@ -51,6 +53,29 @@ struct HistorySettings {
   double iteration_tolerance = 1e-8;     ///< stop when |sV_new - sV_old| falls below this
   int max_iterations = 200;              ///< iterative method budget
   double confidence_level = 0.95;        ///< two-sided level of reported intervals
+
+  /// The first broken constraint, in the order of the fields (those the settings reader enforces).
+  OptionCheck validate() const {
+    const auto in_open_unit = [](double v) { return v > 0.0 && v < 1.0; };
+    if (!(min_observations > 0)) {
+      return OptionProblem{"min_observations", std::to_string(min_observations), "must be positive"};
+    }
+    if (!(trading_days_per_year > 0.0)) {
+      return OptionProblem{"trading_days_per_year", option_value_text(trading_days_per_year),
+                           "must be positive"};
+    }
+    if (!in_open_unit(ewma_decay))
+      return OptionProblem{"ewma_decay", option_value_text(ewma_decay), "must lie in (0, 1)"};
+    if (!(iteration_tolerance > 0.0)) {
+      return OptionProblem{"iteration_tolerance", option_value_text(iteration_tolerance), "must be positive"};
+    }
+    if (!(max_iterations > 0))
+      return OptionProblem{"max_iterations", std::to_string(max_iterations), "must be positive"};
+    if (!in_open_unit(confidence_level)) {
+      return OptionProblem{"confidence_level", option_value_text(confidence_level), "must lie in (0, 1)"};
+    }
+    return std::nullopt;
+  }
 };
 
 /// One obligor's history as the estimators see it; views on data the caller owns, oldest first.

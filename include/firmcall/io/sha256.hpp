@@ -1,5 +1,7 @@
 // SHA-256 (NIST FIPS 180-4, "Secure Hash Standard"), used to record the digest of each input
-// file a monitoring run was scored from. Pure computation: no I/O, nothing throws.
+// file a monitoring run was scored from. The digest is computed by OpenSSL's libcrypto (EVP
+// interface); no I/O. Errors from libcrypto (in practice only a failed allocation) throw
+// std::runtime_error.
 //
 // **Example**:
 //   firmcall::Sha256 h;
@@ -9,28 +11,36 @@
 
 #include <array>
 #include <cstdint>
+#include <memory>
 #include <string>
 #include <string_view>
+
+struct evp_md_ctx_st;  // OpenSSL's EVP_MD_CTX, kept out of this header
 
 namespace firmcall {
 
 using Sha256Digest = std::array<std::uint8_t, 32>;
 
-/// Incremental SHA-256 of a byte stream.
+/// Incremental SHA-256 of a byte stream. Movable, not copyable.
 class Sha256 {
  public:
+  Sha256();
+  ~Sha256();
+  Sha256(Sha256&&) noexcept;
+  Sha256& operator=(Sha256&&) noexcept;
+  Sha256(const Sha256&) = delete;
+  Sha256& operator=(const Sha256&) = delete;
+
   /// Appends bytes to the message.
-  void update(std::string_view bytes) noexcept;
+  void update(std::string_view bytes);
   /// Pads the message and returns its digest; the object must not be updated afterwards.
-  Sha256Digest finish() noexcept;
+  Sha256Digest finish();
 
  private:
-  void compress(const std::uint8_t* block) noexcept;
-  std::array<std::uint32_t, 8> state_ = {0x6a09e667, 0xbb67ae85, 0x3c6ef372, 0xa54ff53a,
-                                         0x510e527f, 0x9b05688c, 0x1f83d9ab, 0x5be0cd19};
-  std::array<std::uint8_t, 64> buffer_{};
-  std::size_t buffered_ = 0;  ///< bytes waiting in buffer_
-  std::uint64_t length_ = 0;  ///< message length so far, bytes
+  struct ContextFree {
+    void operator()(evp_md_ctx_st* ctx) const noexcept;
+  };
+  std::unique_ptr<evp_md_ctx_st, ContextFree> ctx_;
 };
 
 /// Lower-case hexadecimal of a digest (64 characters).

@@ -1,6 +1,9 @@
 // Tests of the configuration file.
 #include <doctest/doctest.h>
 
+#include <string>
+#include <utility>
+
 #include "firmcall/book/errors.hpp"
 #include "firmcall/io/settings_io.hpp"
 #include "test_util.hpp"
@@ -131,4 +134,52 @@ TEST_CASE("configuration errors name the file, line and key") {
   const Config c = parse_config("scoring:\n  measure: risk-neutral\n  horizon: 2\n", "c.yaml");
   CHECK(c.score.measure == Measure::risk_neutral);
   CHECK(c.score.horizon_years == 2.0);
+}
+
+TEST_CASE("the shipped config/firmcall.yaml validates") {
+  const Config shipped = load_config(testing::source_dir() + "/config/firmcall.yaml");
+  const OptionCheck p = shipped.validate();
+  CHECK_MESSAGE(!p, (p ? p->to_string() : std::string()));
+}
+
+TEST_CASE("the reader reports each settings constraint at its key") {
+  // Every constraint of the sections' validate(), as the reader words it: file, line, YAML key.
+  const std::pair<const char*, const char*> cases[] = {
+      {"scoring:\n  horizon: 0\n", "c.yaml:2: key 'horizon': must be positive"},
+      {"scoring:\n  default_lgd: -0.1\n", "c.yaml:2: key 'default_lgd': must lie in [0, 1]"},
+      {"scoring:\n  max_equity_vol: -2\n", "c.yaml:2: key 'max_equity_vol': must be positive"},
+      {"stress:\n  pd_threshold: 1\n", "c.yaml:2: key 'pd_threshold': must lie in (0, 1)"},
+      {"history:\n  min_observations: 0\n", "c.yaml:2: key 'min_observations': must be positive"},
+      {"history:\n  min_observations: -2.5\n", "c.yaml:2: key 'min_observations': must be positive"},
+      {"history:\n  min_observations: 2.5\n", "c.yaml:2: key 'min_observations': must be a whole number"},
+      {"history:\n  trading_days_per_year: 0\n", "c.yaml:2: key 'trading_days_per_year': must be positive"},
+      {"history:\n  ewma_decay: 0\n", "c.yaml:2: key 'ewma_decay': must lie in (0, 1)"},
+      {"history:\n  iteration_tolerance: -1e-8\n", "c.yaml:2: key 'iteration_tolerance': must be positive"},
+      {"history:\n  max_iterations: 2e9\n", "c.yaml:2: key 'max_iterations': must be a whole number"},
+      {"history:\n  confidence_level: 1\n", "c.yaml:2: key 'confidence_level': must lie in (0, 1)"},
+      {"monitoring:\n  busy_timeout_seconds: 0\n", "c.yaml:2: key 'busy_timeout_seconds': must be positive"},
+      {"monitoring:\n  alerts:\n    dd_drop: 0\n", "c.yaml:3: key 'dd_drop': must be positive"},
+      {"monitoring:\n  alerts:\n    pd_ratio_min_pd: 2\n",
+       "c.yaml:3: key 'pd_ratio_min_pd': must lie in [0, 1]"},
+      {"monitoring:\n  alerts:\n    downgrade_notches: 0\n",
+       "c.yaml:3: key 'downgrade_notches': must be positive"},
+      {"monitoring:\n  alerts:\n    pd_ceiling: -1\n", "c.yaml:3: key 'pd_ceiling': must lie in [0, 1]"},
+      {"portfolio:\n  confidence_levels: []\n",
+       "c.yaml:2: key 'confidence_levels': expected a list such as [0.99, 0.995, 0.999]"},
+      {"portfolio:\n  confidence_levels: 0.99\n",
+       "c.yaml:2: key 'confidence_levels': expected a list such as [0.99, 0.995, 0.999]"},
+      {"portfolio:\n  confidence_levels: [0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, x]\n",
+       "c.yaml:2: key 'confidence_levels': at most 8 levels"},
+      {"portfolio:\n  loss_grid_points: 0\n", "c.yaml:2: key 'loss_grid_points': must be positive"},
+      {"portfolio:\n  quadrature_tolerance: 1\n", "c.yaml:2: key 'quadrature_tolerance': must lie in (0, 1)"},
+      {"irb:\n  pd_floor: 1.5\n", "c.yaml:2: key 'pd_floor': must lie in [0, 1]"},
+      {"irb:\n  maturity: 0\n", "c.yaml:2: key 'maturity': must be positive"},
+      // The first broken key in the reader's order is the one reported.
+      {"history:\n  confidence_level: 2\n  ewma_decay: 2\n",
+       "c.yaml:3: key 'ewma_decay': must lie in (0, 1)"},
+  };
+  for (const auto& [yaml, message] : cases) {
+    CAPTURE(yaml);
+    CHECK_THROWS_WITH_AS(parse_config(yaml, "c.yaml"), message, InputError);
+  }
 }

@@ -22,6 +22,15 @@ TEST_CASE("SHA-256 matches the published test vectors") {
   CHECK(sha256_hex("") == "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855");
 }
 
+TEST_CASE("SHA-256 of a 1 MiB message matches Python's hashlib") {
+  // Ref: Python's hashlib (an independent implementation), digest taken as a literal from
+  //   python3 -c 'import hashlib; print(hashlib.sha256(bytes((i*7+3)%251 for i in
+  //   range(1<<20))).hexdigest())'
+  std::string data(std::size_t{1} << 20, '\0');
+  for (std::size_t i = 0; i < data.size(); ++i) data[i] = static_cast<char>((i * 7 + 3) % 251);
+  CHECK(sha256_hex(data) == "1ac437f476c488acba4000af7ae89ef53f7ffbeef2e937850985f5ceb8b5ae6f");
+}
+
 TEST_CASE("SHA-256 agrees with coreutils sha256sum around every padding boundary, fed in pieces") {
   // Ref: GNU coreutils sha256sum, an independent implementation, run on the same bytes.
   firmcall::testing::TempDir dir;
