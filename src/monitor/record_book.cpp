@@ -1,12 +1,12 @@
 #include "firmcall/monitor/record_book.hpp"
 
 #include <charconv>
-#include <ctime>
 
 #include "firmcall/book/errors.hpp"
 #include "firmcall/engine/score_output.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/sha256.hpp"
+#include "firmcall/util/timestamp.hpp"
 #include "io/yaml_util.hpp"
 
 namespace firmcall {
@@ -106,24 +106,6 @@ std::string settings_json(const ScoreSettings& s, const GradeScale& grades) {
   return out;
 }
 
-std::string today_local() {
-  const std::time_t t = std::time(nullptr);
-  std::tm tm{};
-  localtime_r(&t, &tm);
-  char buf[16];
-  std::strftime(buf, sizeof buf, "%Y-%m-%d", &tm);
-  return buf;
-}
-
-std::string utc_timestamp() {
-  const std::time_t t = std::time(nullptr);
-  std::tm tm{};
-  gmtime_r(&t, &tm);
-  char buf[32];
-  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", &tm);
-  return buf;
-}
-
 RecordResult record_book(const std::string& book_path, const ScoreSettings& settings, const Config& config,
                          const RecordOptions& options) {
   const BookFormat format = book_format_of(book_path);
@@ -144,12 +126,12 @@ RecordResult record_book(const std::string& book_path, const ScoreSettings& sett
     }
     result.as_of = book.as_of;
   } else {
-    result.as_of = today_local();
+    result.as_of = local_date_today();
   }
 
   RunInfo info;
   info.as_of = result.as_of;
-  info.recorded_at = utc_timestamp();
+  info.recorded_at = utc_timestamp_now();
   info.book_path = book_path;
   info.book_label = book.label;
   info.input_sha256 = sha256_hex(bytes);

@@ -49,10 +49,4 @@ std::string fields_json(const ObligorRecord& rec);
 /// the grade scale.
 std::string settings_json(const ScoreSettings& settings, const GradeScale& grades);
 
-/// Today's date in the local time zone, YYYY-MM-DD.
-std::string today_local();
-
-/// The time now, UTC, YYYY-MM-DDTHH:MM:SSZ.
-std::string utc_timestamp();
-
 }  // namespace firmcall
