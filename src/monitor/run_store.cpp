@@ -543,6 +543,12 @@ std::int64_t RunWriter::commit() {
   return run_id_;
 }
 
+std::string resolve_store_path(const std::string& db_option, const MonitorSettings& monitor) {
+  if (!db_option.empty()) return db_option;
+  if (!monitor.store.empty()) return monitor.store;
+  return default_store_path();
+}
+
 std::string default_store_path() {
   const char* xdg = std::getenv("XDG_DATA_HOME");
   if (xdg && xdg[0] == '/') return std::string(xdg) + "/firmcall/history.sqlite";
