@@ -692,6 +692,21 @@ void merge_workers(std::vector<Worker>& workers, std::size_t max_listed, History
 
 }  // namespace
 
+OptionCheck HistoryBookOptions::validate() const {
+  const auto number = [](auto e) { return std::to_string(static_cast<int>(e)); };
+  if (estimator.method != HistoryMethod::iterative && estimator.method != HistoryMethod::mle &&
+      estimator.method != HistoryMethod::naive) {
+    return OptionProblem{"estimator.method", number(estimator.method), "must be iterative, mle or naive"};
+  }
+  if (estimator.equity_vol != VolEstimator::simple && estimator.equity_vol != VolEstimator::ewma) {
+    return OptionProblem{"estimator.equity_vol", number(estimator.equity_vol), "must be simple or ewma"};
+  }
+  if (format != OutputFormat::table && format != OutputFormat::csv && format != OutputFormat::json) {
+    return OptionProblem{"format", number(format), "must be table, csv or json"};
+  }
+  return std::nullopt;
+}
+
 const std::vector<std::string_view>& history_columns() {
   static const std::vector<std::string_view> cols = {"id",
                                                      "name",

@@ -916,6 +916,27 @@ const std::vector<std::string>& report_section_ids() {
   return ids;
 }
 
+OptionCheck ReportOptions::validate() const {
+  if (book_path.empty()) return OptionProblem{"book_path", "", "must name the book"};
+  for (std::size_t i = 0; i < term_ids.size(); ++i) {
+    if (std::find(term_ids.begin(), term_ids.begin() + static_cast<std::ptrdiff_t>(i), term_ids[i]) !=
+        term_ids.begin() + static_cast<std::ptrdiff_t>(i)) {
+      return OptionProblem{"term_ids", term_ids[i], "must not name an obligor twice"};
+    }
+  }
+  if (!correlation_path.empty() && !portfolio) {
+    return OptionProblem{"correlation_path", correlation_path,
+                         "applies to the portfolio section: needs portfolio"};
+  }
+  if (!store_run.empty() && store_path.empty()) {
+    return OptionProblem{"store_run", store_run, "applies to the monitoring section: needs store_path"};
+  }
+  if (!against.empty() && store_path.empty()) {
+    return OptionProblem{"against", against, "applies to the monitoring section: needs store_path"};
+  }
+  return std::nullopt;
+}
+
 ReportData gather_report(const ReportOptions& options, const Config& config) {
   ReportData d;
   d.options = options;

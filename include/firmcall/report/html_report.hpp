@@ -35,6 +35,7 @@
 #include "firmcall/io/scenario.hpp"
 #include "firmcall/monitor/movers.hpp"
 #include "firmcall/monitor/run_store.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -53,6 +54,10 @@ struct ReportOptions {
   unsigned threads = 1;                       ///< worker threads of the portfolio run
   std::string title;                          ///< page title; empty: from the book's label
   std::string tool_version;                   ///< shown in the page's footer
+  /// A book; no id twice in term_ids (gather_report refuses it); correlation_path only with
+  /// portfolio, store_run and against only with store_path (`firmcall report` refuses them
+  /// otherwise). threads 0 is read as 1; horizons are checked when the term section is gathered.
+  OptionCheck validate() const;
 };
 
 /// The stress section's figures.
