@@ -145,12 +145,8 @@ bool usable_sheets(const ObligorBalanceSheets* os, const BalanceSheets* sheets, 
 // dated on or before the day, else the book's).
 void join_days(const ObligorEquityHistory& oh, const ObligorBalanceSheets* os, std::optional<double> book_dp,
                double w, const HistorySources& src, const ObligorRecord& rec, JoinedHistory& out) {
-  const std::size_t n = oh.rows.size();
-  out.equity_value.reserve(n);
-  out.default_point.reserve(n);
-  out.trading_day.reserve(n);
-  out.date.reserve(n);
-  out.line.reserve(n);
+  // No reserve: a worker joins every obligor into one JoinedHistory, whose arrays keep the
+  // capacity of the longest history so far.
   std::size_t next_sheet = 0;
   const BalanceSheet* in_force = nullptr;
   for (const EquityRow& r : oh.rows) {
@@ -483,7 +479,7 @@ class TableHistoryWriter final : public HistoryWriter {
   }
   void row(const ObligorRecord& rec, const HistoryResult& r, std::string& out) const override {
     char buf[320];
-    const std::string id = fit(rec.get(TextField::id), 12);
+    const std::string id = fit_text(rec.get(TextField::id), 12);
     const std::string as_of = r.joined ? format_iso_date(r.as_of) : "-";
     if (r.status != RowStatus::ok) {
       std::snprintf(buf, sizeof buf, kFormat, id.c_str(), as_of.c_str(), "-", "-", "-", "-", "-", "-", "-",
@@ -507,12 +503,13 @@ class TableHistoryWriter final : public HistoryWriter {
     std::snprintf(dd, sizeof dd, "%.3f", a.distance_to_default);
     if (std::isfinite(a.dd_lo) && std::isfinite(a.dd_hi)) {
       std::snprintf(ddi, sizeof ddi, "[%.3f, %.3f]", a.dd_lo, a.dd_hi);
-      std::snprintf(pdi, sizeof pdi, "[%s, %s]", small(100.0 * a.pd_lo).c_str(),
-                    small(100.0 * a.pd_hi).c_str());
+      std::snprintf(pdi, sizeof pdi, "[%s, %s]", format_cell(a.pd_lo, CellStyle::percent_pd).c_str(),
+                    format_cell(a.pd_hi, CellStyle::percent_pd).c_str());
     }
     if (a.iterations > 0) std::snprintf(iter, sizeof iter, "%d", a.iterations);
-    std::snprintf(buf, sizeof buf, kFormat, id.c_str(), as_of.c_str(), amount(a.asset_value).c_str(), vol,
-                  drift, dd, ddi, small(100.0 * a.pd).c_str(), pdi, iter, "ok");
+    std::snprintf(buf, sizeof buf, kFormat, id.c_str(), as_of.c_str(),
+                  format_cell(a.asset_value, CellStyle::amount).c_str(), vol, drift, dd, ddi,
+                  format_cell(a.pd, CellStyle::percent_pd).c_str(), pdi, iter, "ok");
     out += buf;
   }
   void end(const HistorySummary& sum, std::string& out) const override {
@@ -530,26 +527,6 @@ class TableHistoryWriter final : public HistoryWriter {
  private:
   static constexpr const char* kFormat = "%-12s %-10s %13s %15s %8s %8s %18s %9s %20s %5s  %s\n";
   static constexpr std::size_t kWidth = 133;
-  static std::string fit(const std::string& s, std::size_t w) {
-    if (s.size() <= w) return s;
-    return s.substr(0, w - 1) + "~";
-  }
-  static std::string amount(double v) {
-    char buf[64];
-    std::snprintf(buf, sizeof buf, std::fabs(v) < 1e11 ? "%.2f" : "%.4e", v);
-    return buf;
-  }
-  static std::string small(double v) {
-    char buf[64];
-    if (v == 0.0) {
-      std::snprintf(buf, sizeof buf, "0");
-    } else if (std::fabs(v) >= 1e-3 && std::fabs(v) < 1e7) {
-      std::snprintf(buf, sizeof buf, "%.4f", v);
-    } else {
-      std::snprintf(buf, sizeof buf, "%.2e", v);
-    }
-    return buf;
-  }
   HistorySettings settings_;
   AssetDynamicsOptions est_;
 };
