@@ -72,6 +72,10 @@ std::string number_text(double v, const char* fmt) {
 
 }  // namespace
 
+OptionCheck MoversOptions::validate() const {
+  return std::nullopt;
+}
+
 void write_runs_report(const std::string& store_path, const std::vector<RunInfo>& runs, OutputFormat format,
                        std::string& out) {
   ReportWriter w({{"run_id", "run", "", 5, Style::integer},
@@ -234,7 +238,8 @@ void migration_table(const RunPair& runs, const Comparison& c, const GradeScale&
 
 // Under the table: the counts, the alert rules and (movers only) the migration matrix.
 void movers_table_foot(const RunPair& runs, const Comparison& c, const GradeScale& scale,
-                       const AlertRules& rules, const MoversView& view, std::size_t shown, std::string& out) {
+                       const AlertRules& rules, const MoversOptions& view, std::size_t shown,
+                       std::string& out) {
   if (view.watchlist && shown == 0) out += "No obligor meets an alert rule.\n";
   out += std::to_string(c.continuing) + " continuing, " + std::to_string(c.added) + " new, " +
          std::to_string(c.dropped) + " dropped; grades " + std::to_string(c.downgraded) + " down, " +
@@ -257,7 +262,7 @@ void movers_table_foot(const RunPair& runs, const Comparison& c, const GradeScal
 }  // namespace
 
 void write_movers_report(const RunPair& runs, const Comparison& c, const GradeScale& scale,
-                         const AlertRules& rules, const MoversView& view, OutputFormat format,
+                         const AlertRules& rules, const MoversOptions& view, OutputFormat format,
                          std::string& out) {
   const bool table = format == OutputFormat::table;
   ReportWriter w(movers_columns(), format);
