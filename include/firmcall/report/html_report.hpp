@@ -4,10 +4,10 @@
 //   summary     counts, exposure-weighted PD, expected loss, PD distribution by grade
 //   dd-leverage distance to default against leverage DP/V, distressed names labelled
 //   names       the weakest and the strongest names
-//   stress      PD by scenario and per-obligor PD change (--scenarios; stress.hpp)
-//   term        cumulative PD term structures of chosen names (--names; term_run.hpp)
-//   portfolio   exact one-factor loss distribution with EL, VaR and ES (--portfolio; portfolio.hpp)
-//   monitoring  movers and alerts between two recorded runs (--db; movers.hpp)
+//   stress      PD by scenario and per-obligor PD change (--scenarios; engine/stress_book.hpp)
+//   term        cumulative PD term structures of chosen names (--names; engine/term_book.hpp)
+//   portfolio   exact one-factor loss distribution: EL, VaR, ES (--portfolio; engine/portfolio_book.hpp)
+//   monitoring  movers and alerts between two recorded runs (--db; monitor/movers.hpp)
 // The figures come from the same library calls as the score, stress, portfolio and movers commands,
 // and the tables use the table output's rounding, so they can be checked against their CSV output.
 // The page is XHTML-compatible (every element closed, attributes quoted, text escaped) and prints
