@@ -46,5 +46,6 @@
 #include "firmcall/report/svg.hpp"
 #include "firmcall/util/option_check.hpp"
 #include "firmcall/util/parallel.hpp"
+#include "firmcall/util/timestamp.hpp"
 #include "firmcall/util/utf8.hpp"
 #include "firmcall/util/vector_math.hpp"

@@ -6,7 +6,7 @@
 #include "firmcall/io/output_file.hpp"
 #include "firmcall/monitor/monitor_output.hpp"
 #include "firmcall/monitor/movers.hpp"
-#include "firmcall/monitor/record_book.hpp"
+#include "firmcall/monitor/run_store.hpp"
 
 namespace firmcall::cli {
 

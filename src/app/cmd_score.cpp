@@ -191,7 +191,7 @@ void add_score_command(CLI::App& app, const GlobalOptions& global, CommandAction
         }
       }
       if (opts->record) {
-        const RecordResult rec =
+        const RecordedRun rec =
             record_book(opts->book, settings, config,
                         {.store_path = store_path, .as_of = opts->as_of, .tool_version = FIRMCALL_VERSION});
         if (!global.quiet) {

@@ -5,7 +5,6 @@
 #include "firmcall/book/errors.hpp"
 #include "firmcall/io/output_file.hpp"
 #include "firmcall/monitor/monitor_output.hpp"
-#include "firmcall/monitor/record_book.hpp"
 #include "firmcall/monitor/run_store.hpp"
 
 namespace firmcall::cli {

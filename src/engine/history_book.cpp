@@ -1,4 +1,4 @@
-// Running the history estimators over a book. See include/firmcall/history_run.hpp.
+// Running the history estimators over a book. See history_book.hpp.
 #include "firmcall/engine/history_book.hpp"
 
 #include <algorithm>
@@ -13,6 +13,7 @@
 
 #include "firmcall/book/errors.hpp"
 #include "firmcall/engine/score_output.hpp"
+#include "firmcall/format/row_writer.hpp"
 #include "firmcall/util/parallel.hpp"
 
 namespace firmcall {
@@ -31,10 +32,12 @@ std::string obligor_prefix(std::string_view id) {
   return id.empty() ? std::string() : "obligor '" + std::string(id) + "': ";
 }
 
-void fail(JoinedHistory& out, const std::string& file, std::size_t line, std::string text) {
+// Sets the error of a join; false, so that a step of the join can `return fail(...)`.
+bool fail(JoinedHistory& out, const std::string& file, std::size_t line, std::string text) {
   out.error_file = file;
   out.error_line = line;
   out.error = std::move(text);
+  return false;
 }
 
 std::string with_more(const LocatedProblem& p, std::size_t more) {
@@ -48,14 +51,7 @@ double sheet_default_point(const BalanceSheet& s, double w) {
   return *s.short_term_debt + w * *s.long_term_debt;
 }
 
-}  // namespace
-
-std::string JoinedHistory::message(std::string_view id) const {
-  return located(error_file, error_line, obligor_prefix(id) + error);
-}
-
-void join_history(const ObligorRecord& rec, const HistorySources& src, const ScoreSettings& settings,
-                  JoinedHistory& out) {
+void clear_joined(JoinedHistory& out) {
   out.equity_value.clear();
   out.default_point.clear();
   out.trading_day.clear();
@@ -67,12 +63,11 @@ void join_history(const ObligorRecord& rec, const HistorySources& src, const Sco
   out.error_line = 0;
   out.missing_days = 0;
   out.last_default_point_from_sheet = false;
-  const Book& book = *src.book;
-  const std::string& id = rec.get(TextField::id);
-  if (!rec.read_error.empty()) return fail(out, book.origin, rec.line, rec.read_error);
-  if (id.empty()) return fail(out, book.origin, rec.line, "field 'id': missing (every obligor needs an id)");
+}
 
-  // Rate: override > obligor > book.
+// Rate (override > obligor > book) and horizon (override > obligor > book > configuration).
+bool join_rate_and_horizon(const ObligorRecord& rec, const Book& book, const ScoreSettings& settings,
+                           JoinedHistory& out) {
   if (settings.rate_override) {
     out.rate = *settings.rate_override;
   } else if (rec.has(NumField::rate)) {
@@ -87,7 +82,6 @@ void join_history(const ObligorRecord& rec, const HistorySources& src, const Sco
                 "field 'rate': must be a continuously compounded decimal in [-1, 1] (0.03 means 3%), got " +
                     shortest(out.rate));
   }
-  // Horizon: override > obligor > book > configuration.
   out.horizon = settings.horizon_override.value_or(
       rec.has(NumField::horizon) ? rec.get(NumField::horizon)
                                  : book.defaults.horizon.value_or(settings.horizon_years));
@@ -95,11 +89,12 @@ void join_history(const ObligorRecord& rec, const HistorySources& src, const Sco
     return fail(out, book.origin, rec.line,
                 "field 'horizon': must be positive years, at most 100, got " + shortest(out.horizon));
   }
-  const double w = settings.weight_override.value_or(
-      book.defaults.default_point_weight.value_or(settings.default_point_weight));
+  return true;
+}
 
-  // The book's default point, if it gives one.
-  std::optional<double> book_dp;
+// The book's default point, if it gives one (`dp` stays empty when it gives no debt).
+bool book_default_point(const ObligorRecord& rec, const Book& book, double w, JoinedHistory& out,
+                        std::optional<double>& dp) {
   for (NumField f : {NumField::short_term_debt, NumField::long_term_debt}) {
     if (rec.has(f) && !(rec.get(f) >= 0.0)) {
       return fail(
@@ -113,10 +108,10 @@ void join_history(const ObligorRecord& rec, const HistorySources& src, const Sco
           out, book.origin, rec.line,
           "field 'default_point': must be positive, got " + shortest(rec.get(NumField::default_point)));
     }
-    book_dp = rec.get(NumField::default_point);
+    dp = rec.get(NumField::default_point);
   } else if (rec.has(NumField::short_term_debt) && rec.has(NumField::long_term_debt)) {
-    book_dp = rec.get(NumField::short_term_debt) + w * rec.get(NumField::long_term_debt);
-    if (!(*book_dp > 0.0)) {
+    dp = rec.get(NumField::short_term_debt) + w * rec.get(NumField::long_term_debt);
+    if (!(*dp > 0.0)) {
       return fail(out, book.origin, rec.line,
                   "field 'default_point': short_term_debt + weight x long_term_debt is zero: the model needs "
                   "positive debt");
@@ -127,41 +122,34 @@ void join_history(const ObligorRecord& rec, const HistorySources& src, const Sco
                     (rec.has(NumField::short_term_debt) ? "long_term_debt" : "short_term_debt") +
                     "': missing (give short_term_debt and long_term_debt, or default_point)");
   }
+  return true;
+}
 
-  // Equity history.
-  const EquityHistory& hist = *src.history;
-  const ObligorEquityHistory* oh = hist.find(id);
-  if (oh == nullptr) return fail(out, hist.origin, 0, "no rows for this obligor in the equity history");
-  if (!oh->usable()) return fail(out, hist.origin, oh->error.line, with_more(oh->error, oh->more_problems));
-  if (oh->rows.empty()) return fail(out, hist.origin, 0, "no equity values for this obligor in the history");
-  out.notes = oh->notes;
-  out.missing_days = oh->missing_days;
-
-  // Balance sheets.
-  const ObligorBalanceSheets* os = src.sheets != nullptr ? src.sheets->find(id) : nullptr;
-  if (os != nullptr && !os->error.empty()) {
-    return fail(out, src.sheets->origin, os->error.line, with_more(os->error, os->more_problems));
-  }
-  if (os != nullptr) {
-    for (const BalanceSheet& s : os->sheets) {
-      if (!(sheet_default_point(s, w) > 0.0)) {
-        return fail(
-            out, src.sheets->origin, s.line,
-            "field 'default_point': short_term_debt + weight x long_term_debt is zero: the model needs "
-            "positive debt");
-      }
+// The obligor's balance sheets are usable (none is also usable).
+bool usable_sheets(const ObligorBalanceSheets* os, const BalanceSheets* sheets, double w,
+                   JoinedHistory& out) {
+  if (os == nullptr) return true;
+  if (!os->error.empty())
+    return fail(out, sheets->origin, os->error.line, with_more(os->error, os->more_problems));
+  for (const BalanceSheet& s : os->sheets) {
+    if (!(sheet_default_point(s, w) > 0.0)) {
+      return fail(out, sheets->origin, s.line,
+                  "field 'default_point': short_term_debt + weight x long_term_debt is zero: the model needs "
+                  "positive debt");
     }
   }
+  return true;
+}
 
-  const std::size_t n = oh->rows.size();
-  out.equity_value.reserve(n);
-  out.default_point.reserve(n);
-  out.trading_day.reserve(n);
-  out.date.reserve(n);
-  out.line.reserve(n);
+// The daily arrays: each day's equity value with the default point in force (the latest sheet
+// dated on or before the day, else the book's).
+void join_days(const ObligorEquityHistory& oh, const ObligorBalanceSheets* os, std::optional<double> book_dp,
+               double w, const HistorySources& src, const ObligorRecord& rec, JoinedHistory& out) {
+  // No reserve: a worker joins every obligor into one JoinedHistory, whose arrays keep the
+  // capacity of the longest history so far.
   std::size_t next_sheet = 0;
   const BalanceSheet* in_force = nullptr;
-  for (const EquityRow& r : oh->rows) {
+  for (const EquityRow& r : oh.rows) {
     while (os != nullptr && next_sheet < os->sheets.size() && os->sheets[next_sheet].as_of <= r.date) {
       in_force = &os->sheets[next_sheet++];
     }
@@ -172,11 +160,12 @@ void join_history(const ObligorRecord& rec, const HistorySources& src, const Sco
       dp = *book_dp;
     } else {
       out.equity_value.clear();
-      return fail(
-          out, book.origin, rec.line,
+      fail(
+          out, src.book->origin, rec.line,
           (src.sheets != nullptr ? "no balance sheet dated on or before " + format_iso_date(r.date) + " and t"
                                  : std::string("t")) +
               "he book gives no debt (short_term_debt and long_term_debt, or default_point)");
+      return;
     }
     out.equity_value.push_back(r.equity_value);
     out.default_point.push_back(dp);
@@ -185,6 +174,45 @@ void join_history(const ObligorRecord& rec, const HistorySources& src, const Sco
     out.line.push_back(r.line);
   }
   out.last_default_point_from_sheet = in_force != nullptr;
+}
+
+// The obligor's fields, its equity history and its balance sheets, checked; then the days.
+bool join_checked(const ObligorRecord& rec, const HistorySources& src, const ScoreSettings& settings,
+                  JoinedHistory& out) {
+  const Book& book = *src.book;
+  const std::string& id = rec.get(TextField::id);
+  if (!rec.read_error.empty()) return fail(out, book.origin, rec.line, rec.read_error);
+  if (id.empty()) return fail(out, book.origin, rec.line, "field 'id': missing (every obligor needs an id)");
+  if (!join_rate_and_horizon(rec, book, settings, out)) return false;
+  const double w = settings.weight_override.value_or(
+      book.defaults.default_point_weight.value_or(settings.default_point_weight));
+  std::optional<double> book_dp;
+  if (!book_default_point(rec, book, w, out, book_dp)) return false;
+
+  const EquityHistory& hist = *src.history;
+  const ObligorEquityHistory* oh = hist.find(id);
+  if (oh == nullptr) return fail(out, hist.origin, 0, "no rows for this obligor in the equity history");
+  if (!oh->usable()) return fail(out, hist.origin, oh->error.line, with_more(oh->error, oh->more_problems));
+  if (oh->rows.empty()) return fail(out, hist.origin, 0, "no equity values for this obligor in the history");
+  out.notes = oh->notes;
+  out.missing_days = oh->missing_days;
+
+  const ObligorBalanceSheets* os = src.sheets != nullptr ? src.sheets->find(id) : nullptr;
+  if (!usable_sheets(os, src.sheets, w, out)) return false;
+  join_days(*oh, os, book_dp, w, src, rec, out);
+  return true;
+}
+
+}  // namespace
+
+std::string JoinedHistory::message(std::string_view id) const {
+  return located(error_file, error_line, obligor_prefix(id) + error);
+}
+
+void join_history(const ObligorRecord& rec, const HistorySources& src, const ScoreSettings& settings,
+                  JoinedHistory& out) {
+  clear_joined(out);
+  join_checked(rec, src, settings, out);
 }
 
 namespace {
@@ -274,6 +302,7 @@ void estimate_one(const ObligorRecord& rec, const HistorySources& src, const Sco
 // --- writers -----------------------------------------------------------------------------------
 
 constexpr std::size_t kNumericColumns = 25;  // equity_value .. log_likelihood
+constexpr std::size_t kHistoryColumns = 33;  // history_columns().size()
 
 // Numeric columns from equity_value to log_likelihood in history_columns() order (NaN: empty).
 std::array<double, kNumericColumns> row_values(const HistoryResult& r) {
@@ -304,10 +333,44 @@ std::array<double, kNumericColumns> row_values(const HistoryResult& r) {
   return x;
 }
 
-void append_count(std::string& out, std::size_t n) {
-  char buf[24];
-  const auto res = std::to_chars(buf, buf + sizeof buf, n);
-  out.append(buf, res.ptr);
+// One obligor's cells in history_columns() order; the CSV and the JSON writer share them.
+using HistoryCells = std::array<ReportCell, kHistoryColumns>;
+
+void history_cells(const ObligorRecord& rec, const HistoryResult& r, HistoryCells& cells) {
+  cells[0] = ReportCell::text(rec.get(TextField::id));
+  cells[1] = ReportCell::text(rec.get(TextField::name));
+  cells[2] = ReportCell::text(std::string(to_string(r.status)));
+  cells[3] = ReportCell::text(std::string(to_string(r.a.method)));
+  cells[4] = r.joined ? ReportCell::text(format_iso_date(r.as_of)) : ReportCell::none();
+  cells[5] = r.joined ? ReportCell::number(static_cast<double>(r.observations)) : ReportCell::none();
+  cells[6] = r.joined ? ReportCell::number(static_cast<double>(r.missing_days)) : ReportCell::none();
+  const auto values = row_values(r);
+  for (std::size_t i = 0; i < kNumericColumns; ++i) cells[7 + i] = ReportCell::number(values[i]);
+  cells[kHistoryColumns - 1] = ReportCell::text(r.message);
+}
+
+// A cell as CSV (absent: nothing) and as a JSON value (absent: null).
+void append_csv_cell(std::string& out, const ReportCell& c) {
+  if (c.kind == ReportCell::Kind::number) append_number(out, c.number_value);
+  if (c.kind == ReportCell::Kind::text) append_csv_text(out, c.text_value);
+}
+void append_json_cell(std::string& out, const ReportCell& c) {
+  if (c.kind == ReportCell::Kind::text) return append_json_string(out, c.text_value);
+  append_json_number(out, c.kind == ReportCell::Kind::number ? c.number_value : kNaN);
+}
+
+// Members after an object's first: `, "key": value`.
+void json_text_member(std::string& out, std::string_view key, std::string_view text) {
+  out += ", \"";
+  out += key;
+  out += "\": ";
+  append_json_string(out, text);
+}
+void json_number_member(std::string& out, std::string_view key, double v) {
+  out += ", \"";
+  out += key;
+  out += "\": ";
+  append_json_number(out, v);
 }
 
 class HistoryWriter {
@@ -326,25 +389,12 @@ class CsvHistoryWriter final : public HistoryWriter {
     out.push_back('\n');
   }
   void row(const ObligorRecord& rec, const HistoryResult& r, std::string& out) const override {
-    append_csv_text(out, rec.get(TextField::id));
-    out.push_back(',');
-    append_csv_text(out, rec.get(TextField::name));
-    out.push_back(',');
-    out.append(to_string(r.status));
-    out.push_back(',');
-    out.append(to_string(r.a.method));
-    out.push_back(',');
-    if (r.joined) out.append(format_iso_date(r.as_of));
-    out.push_back(',');
-    if (r.joined) append_count(out, r.observations);
-    out.push_back(',');
-    if (r.joined) append_count(out, r.missing_days);
-    for (double v : row_values(r)) {
-      out.push_back(',');
-      append_number(out, v);
+    HistoryCells cells;
+    history_cells(rec, r, cells);
+    for (std::size_t i = 0; i < kHistoryColumns; ++i) {
+      if (i > 0) out.push_back(',');
+      append_csv_cell(out, cells[i]);
     }
-    out.push_back(',');
-    append_csv_text(out, r.message);
     out.push_back('\n');
   }
   void end(const HistorySummary&, std::string&) const override {}
@@ -358,57 +408,33 @@ class JsonHistoryWriter final : public HistoryWriter {
   void begin(std::string& out) const override {
     out += "{\n  \"run\": {\"book\": ";
     append_json_string(out, src_.book->origin);
-    out += ", \"equity_history\": ";
-    append_json_string(out, src_.history->origin);
+    json_text_member(out, "equity_history", src_.history->origin);
     out += ", \"balance_sheets\": ";
     if (src_.sheets != nullptr) {
       append_json_string(out, src_.sheets->origin);
     } else {
       out += "null";
     }
-    out += ", \"method\": ";
-    append_json_string(out, to_string(est_.method));
-    out += ", \"equity_vol_estimator\": ";
-    append_json_string(out, to_string(est_.equity_vol));
-    out += ", \"trading_days_per_year\": ";
-    append_json_number(out, settings_.trading_days_per_year);
-    out += ", \"ewma_decay\": ";
-    append_json_number(out, settings_.ewma_decay);
-    out += ", \"min_observations\": " + std::to_string(settings_.min_observations);
-    out += ", \"confidence_level\": ";
-    append_json_number(out, settings_.confidence_level);
+    json_text_member(out, "method", to_string(est_.method));
+    json_text_member(out, "equity_vol_estimator", to_string(est_.equity_vol));
+    json_number_member(out, "trading_days_per_year", settings_.trading_days_per_year);
+    json_number_member(out, "ewma_decay", settings_.ewma_decay);
+    json_number_member(out, "min_observations", settings_.min_observations);
+    json_number_member(out, "confidence_level", settings_.confidence_level);
     out += "},\n  \"obligors\": [\n";
   }
   std::string_view separator() const override { return ",\n"; }
   void row(const ObligorRecord& rec, const HistoryResult& r, std::string& out) const override {
     const auto& cols = history_columns();
-    out += "    {\"id\": ";
-    append_json_string(out, rec.get(TextField::id));
-    out += ", \"name\": ";
-    append_json_string(out, rec.get(TextField::name));
-    out += ", \"status\": ";
-    append_json_string(out, to_string(r.status));
-    out += ", \"method\": ";
-    append_json_string(out, to_string(r.a.method));
-    out += ", \"as_of\": ";
-    if (r.joined) {
-      append_json_string(out, format_iso_date(r.as_of));
-      out += ", \"observations\": ";
-      append_count(out, r.observations);
-      out += ", \"missing_days\": ";
-      append_count(out, r.missing_days);
-    } else {
-      out += "null, \"observations\": null, \"missing_days\": null";
+    HistoryCells cells;
+    history_cells(rec, r, cells);
+    out += "    {";
+    for (std::size_t i = 0; i < kHistoryColumns; ++i) {
+      if (i > 0) out += ", ";
+      append_json_string(out, cols[i]);
+      out += ": ";
+      append_json_cell(out, cells[i]);
     }
-    const auto values = row_values(r);
-    for (std::size_t i = 0; i < kNumericColumns; ++i) {
-      out += ", \"";
-      out += cols[7 + i];
-      out += "\": ";
-      append_json_number(out, values[i]);
-    }
-    out += ", \"message\": ";
-    append_json_string(out, r.message);
     out += "}";
   }
   void end(const HistorySummary& s, std::string& out) const override {
@@ -453,7 +479,7 @@ class TableHistoryWriter final : public HistoryWriter {
   }
   void row(const ObligorRecord& rec, const HistoryResult& r, std::string& out) const override {
     char buf[320];
-    const std::string id = fit(rec.get(TextField::id), 12);
+    const std::string id = fit_text(rec.get(TextField::id), 12);
     const std::string as_of = r.joined ? format_iso_date(r.as_of) : "-";
     if (r.status != RowStatus::ok) {
       std::snprintf(buf, sizeof buf, kFormat, id.c_str(), as_of.c_str(), "-", "-", "-", "-", "-", "-", "-",
@@ -477,12 +503,13 @@ class TableHistoryWriter final : public HistoryWriter {
     std::snprintf(dd, sizeof dd, "%.3f", a.distance_to_default);
     if (std::isfinite(a.dd_lo) && std::isfinite(a.dd_hi)) {
       std::snprintf(ddi, sizeof ddi, "[%.3f, %.3f]", a.dd_lo, a.dd_hi);
-      std::snprintf(pdi, sizeof pdi, "[%s, %s]", small(100.0 * a.pd_lo).c_str(),
-                    small(100.0 * a.pd_hi).c_str());
+      std::snprintf(pdi, sizeof pdi, "[%s, %s]", format_cell(a.pd_lo, CellStyle::percent_pd).c_str(),
+                    format_cell(a.pd_hi, CellStyle::percent_pd).c_str());
     }
     if (a.iterations > 0) std::snprintf(iter, sizeof iter, "%d", a.iterations);
-    std::snprintf(buf, sizeof buf, kFormat, id.c_str(), as_of.c_str(), amount(a.asset_value).c_str(), vol,
-                  drift, dd, ddi, small(100.0 * a.pd).c_str(), pdi, iter, "ok");
+    std::snprintf(buf, sizeof buf, kFormat, id.c_str(), as_of.c_str(),
+                  format_cell(a.asset_value, CellStyle::amount).c_str(), vol, drift, dd, ddi,
+                  format_cell(a.pd, CellStyle::percent_pd).c_str(), pdi, iter, "ok");
     out += buf;
   }
   void end(const HistorySummary& sum, std::string& out) const override {
@@ -500,26 +527,6 @@ class TableHistoryWriter final : public HistoryWriter {
  private:
   static constexpr const char* kFormat = "%-12s %-10s %13s %15s %8s %8s %18s %9s %20s %5s  %s\n";
   static constexpr std::size_t kWidth = 133;
-  static std::string fit(const std::string& s, std::size_t w) {
-    if (s.size() <= w) return s;
-    return s.substr(0, w - 1) + "~";
-  }
-  static std::string amount(double v) {
-    char buf[64];
-    std::snprintf(buf, sizeof buf, std::fabs(v) < 1e11 ? "%.2f" : "%.4e", v);
-    return buf;
-  }
-  static std::string small(double v) {
-    char buf[64];
-    if (v == 0.0) {
-      std::snprintf(buf, sizeof buf, "0");
-    } else if (std::fabs(v) >= 1e-3 && std::fabs(v) < 1e7) {
-      std::snprintf(buf, sizeof buf, "%.4f", v);
-    } else {
-      std::snprintf(buf, sizeof buf, "%.2e", v);
-    }
-    return buf;
-  }
   HistorySettings settings_;
   AssetDynamicsOptions est_;
 };
@@ -578,6 +585,23 @@ void note_unknown_ids(const std::vector<std::string>& ids, const Book& book, con
   }
 }
 
+// The notes on the input files: the book's, the history's, the sheets', and ids not in the book.
+std::vector<std::string> input_notes(const HistorySources& src) {
+  const Book& book = *src.book;
+  std::vector<std::string> notes = book.notes;
+  notes.insert(notes.end(), src.history->notes.begin(), src.history->notes.end());
+  std::vector<std::string> ids;
+  ids.reserve(src.history->obligors.size());
+  for (const auto& ob : src.history->obligors) ids.push_back(ob.id);
+  note_unknown_ids(ids, book, src.history->origin, notes);
+  if (src.sheets != nullptr) {
+    notes.insert(notes.end(), src.sheets->notes.begin(), src.sheets->notes.end());
+    note_unknown_ids(src.sheets->ids, book, src.sheets->origin, notes);
+  }
+  return notes;
+}
+
+// One worker thread's buffers and counts.
 struct Worker {
   HistoryWorkspace ws;
   JoinedHistory joined;
@@ -588,9 +612,77 @@ struct Worker {
   std::vector<std::pair<std::size_t, std::string>> notes;
   std::size_t problem_count = 0, note_count = 0;
   std::size_t estimated = 0, invalid = 0, not_converged = 0, iterations = 0;
+
+  // Counts `result` of the obligor at book position i, keeping its problem or notes among the
+  // first `max_listed`.
+  void tally(std::size_t i, const ObligorRecord& rec, const std::string& history_origin,
+             std::size_t max_listed) {
+    if (result.status != RowStatus::ok) {
+      ++(result.status == RowStatus::invalid_input ? invalid : not_converged);
+      if (problems.size() < max_listed) problems.emplace_back(i, result.message);
+      ++problem_count;
+      return;
+    }
+    ++estimated;
+    iterations += static_cast<std::size_t>(result.a.iterations);
+    for (const LocatedProblem& note : joined.notes) {
+      if (notes.size() < max_listed) {
+        notes.emplace_back(i, located(history_origin, note.line,
+                                      obligor_prefix(rec.get(TextField::id)) + "note: " + note.text));
+      }
+      ++note_count;
+    }
+  }
 };
 
+// The workers' counts, and the first problems and notes in book order, into the summary.
+void merge_workers(std::vector<Worker>& workers, std::size_t max_listed, HistorySummary& summary) {
+  std::vector<std::pair<std::size_t, std::string>> problems;
+  std::vector<std::pair<std::size_t, std::string>> notes;
+  std::size_t problem_count = 0;
+  std::size_t note_count = 0;
+  for (Worker& wk : workers) {
+    summary.estimated += wk.estimated;
+    summary.invalid += wk.invalid;
+    summary.not_converged += wk.not_converged;
+    summary.iterations += wk.iterations;
+    problem_count += wk.problem_count;
+    note_count += wk.note_count;
+    for (auto& p : wk.problems) problems.push_back(std::move(p));
+    for (auto& p : wk.notes) notes.push_back(std::move(p));
+  }
+  std::sort(problems.begin(), problems.end());
+  std::sort(notes.begin(), notes.end());
+  for (std::size_t i = 0; i < problems.size() && i < max_listed; ++i) {
+    summary.problems.push_back(std::move(problems[i].second));
+  }
+  summary.problems_not_listed = problem_count - summary.problems.size();
+  std::size_t listed_notes = 0;
+  for (std::size_t i = 0; i < notes.size() && i < max_listed; ++i, ++listed_notes) {
+    summary.notes.push_back(std::move(notes[i].second));
+  }
+  if (note_count > listed_notes) {
+    summary.notes.push_back("... and " + std::to_string(note_count - listed_notes) +
+                            " more obligor notes (see --format csv, column message)");
+  }
+}
+
 }  // namespace
+
+OptionCheck HistoryBookOptions::validate() const {
+  const auto number = [](auto e) { return std::to_string(static_cast<int>(e)); };
+  if (estimator.method != HistoryMethod::iterative && estimator.method != HistoryMethod::mle &&
+      estimator.method != HistoryMethod::naive) {
+    return OptionProblem{"estimator.method", number(estimator.method), "must be iterative, mle or naive"};
+  }
+  if (estimator.equity_vol != VolEstimator::simple && estimator.equity_vol != VolEstimator::ewma) {
+    return OptionProblem{"estimator.equity_vol", number(estimator.equity_vol), "must be simple or ewma"};
+  }
+  if (format != OutputFormat::table && format != OutputFormat::csv && format != OutputFormat::json) {
+    return OptionProblem{"format", number(format), "must be table, csv or json"};
+  }
+  return std::nullopt;
+}
 
 const std::vector<std::string_view>& history_columns() {
   static const std::vector<std::string_view> cols = {"id",
@@ -635,18 +727,7 @@ HistorySummary run_history(const HistorySources& src, const ScoreSettings& score
   const Book& book = *src.book;
   const auto writer = make_history_writer(run.format, src, settings, run.estimator);
   HistorySummary summary;
-  summary.notes = book.notes;
-  summary.notes.insert(summary.notes.end(), src.history->notes.begin(), src.history->notes.end());
-  {
-    std::vector<std::string> ids;
-    ids.reserve(src.history->obligors.size());
-    for (const auto& ob : src.history->obligors) ids.push_back(ob.id);
-    note_unknown_ids(ids, book, src.history->origin, summary.notes);
-  }
-  if (src.sheets != nullptr) {
-    summary.notes.insert(summary.notes.end(), src.sheets->notes.begin(), src.sheets->notes.end());
-    note_unknown_ids(src.sheets->ids, book, src.sheets->origin, summary.notes);
-  }
+  summary.notes = input_notes(src);
   {
     std::string s;
     writer->begin(s);
@@ -671,34 +752,12 @@ HistorySummary run_history(const HistorySources& src, const ScoreSettings& score
           for (std::size_t i = base + b; i < base + e; ++i) {
             const ObligorRecord& rec = book.obligors[i];
             estimate_one(rec, src, score_settings, settings, run.estimator, wk.joined, wk.ws, wk.result);
-            const HistoryResult& r = wk.result;
             if (i > 0) wk.out.append(writer->separator());
-            writer->row(rec, r, wk.out);
-            switch (r.status) {
-              case RowStatus::ok:
-                ++wk.estimated;
-                wk.iterations += static_cast<std::size_t>(r.a.iterations);
-                if (series != nullptr) append_series(rec.get(TextField::id), wk.joined, wk.ws, wk.series);
-                for (const LocatedProblem& note : wk.joined.notes) {
-                  if (wk.notes.size() < run.max_listed_problems) {
-                    wk.notes.emplace_back(
-                        i, located(src.history->origin, note.line,
-                                   obligor_prefix(rec.get(TextField::id)) + "note: " + note.text));
-                  }
-                  ++wk.note_count;
-                }
-                break;
-              case RowStatus::invalid_input:
-                ++wk.invalid;
-                break;
-              case RowStatus::not_converged:
-                ++wk.not_converged;
-                break;
+            writer->row(rec, wk.result, wk.out);
+            if (series != nullptr && wk.result.status == RowStatus::ok) {
+              append_series(rec.get(TextField::id), wk.joined, wk.ws, wk.series);
             }
-            if (r.status != RowStatus::ok) {
-              if (wk.problems.size() < run.max_listed_problems) wk.problems.emplace_back(i, r.message);
-              ++wk.problem_count;
-            }
+            wk.tally(i, rec, src.history->origin, run.max_listed_problems);
           }
         },
         16);
@@ -708,35 +767,7 @@ HistorySummary run_history(const HistorySources& src, const ScoreSettings& score
     }
     if (run.progress) run.progress(base + n, total);
   }
-
-  std::vector<std::pair<std::size_t, std::string>> problems;
-  std::vector<std::pair<std::size_t, std::string>> notes;
-  std::size_t problem_count = 0;
-  std::size_t note_count = 0;
-  for (Worker& wk : workers) {
-    summary.estimated += wk.estimated;
-    summary.invalid += wk.invalid;
-    summary.not_converged += wk.not_converged;
-    summary.iterations += wk.iterations;
-    problem_count += wk.problem_count;
-    note_count += wk.note_count;
-    for (auto& p : wk.problems) problems.push_back(std::move(p));
-    for (auto& p : wk.notes) notes.push_back(std::move(p));
-  }
-  std::sort(problems.begin(), problems.end());
-  std::sort(notes.begin(), notes.end());
-  for (std::size_t i = 0; i < problems.size() && i < run.max_listed_problems; ++i) {
-    summary.problems.push_back(std::move(problems[i].second));
-  }
-  summary.problems_not_listed = problem_count - summary.problems.size();
-  std::size_t listed_notes = 0;
-  for (std::size_t i = 0; i < notes.size() && i < run.max_listed_problems; ++i, ++listed_notes) {
-    summary.notes.push_back(std::move(notes[i].second));
-  }
-  if (note_count > listed_notes) {
-    summary.notes.push_back("... and " + std::to_string(note_count - listed_notes) +
-                            " more obligor notes (see --format csv, column message)");
-  }
+  merge_workers(workers, run.max_listed_problems, summary);
   summary.total = total;
   std::string s;
   writer->end(summary, s);

@@ -72,6 +72,10 @@ std::string number_text(double v, const char* fmt) {
 
 }  // namespace
 
+OptionCheck MoversOptions::validate() const {
+  return std::nullopt;
+}
+
 void write_runs_report(const std::string& store_path, const std::vector<RunInfo>& runs, OutputFormat format,
                        std::string& out) {
   ReportWriter w({{"run_id", "run", "", 5, Style::integer},
@@ -111,102 +115,131 @@ void write_runs_report(const std::string& store_path, const std::vector<RunInfo>
   }
 }
 
-void write_movers_report(const RunPair& runs, const Comparison& c, const GradeScale& scale,
-                         const AlertRules& rules, const MoversView& view, OutputFormat format,
-                         std::string& out) {
-  const bool table = format == OutputFormat::table;
-  ReportWriter w({{"id", "obligor", "", 12, Style::text},
-                  {"name", "name", "", 9, Style::text},
-                  {"change", "", "", 0, Style::text},
-                  {"status_before", "", "", 0, Style::text},
-                  {"status_now", "", "", 0, Style::text},
-                  {"dd_before", "DD", "before", 6, Style::decimal3},
-                  {"dd_now", "DD", "now", 6, Style::decimal3},
-                  {"dd_change", "DD", "change", 6, Style::signed3},
-                  {"pd_before", "PD %", "before", 9, Style::percent_pd},
-                  {"pd_now", "PD %", "now", 9, Style::percent_pd},
-                  {"pd_change", "", "", 0, Style::signed_pp},
-                  {"pd_ratio", "", "", 0, Style::ratio},
-                  {"grade_before", "", "", 0, Style::text},
-                  {"grade_now", "", "", 0, Style::text},
-                  {"", "grade", "from>to", 9, Style::text},
-                  {"notches", "notch", "down", 5, Style::integer},
-                  {"severity", "sev", "", 3, Style::integer},
-                  {"alerts", "", "", 0, Style::text},
-                  {"", "alerts and notes", "", 16, Style::text}},
-                 format);
-  const char* what = view.watchlist ? "Watchlist" : "Movers";
-  if (format == OutputFormat::json) {
-    out += "{\n  \"now\": ";
-    json_run(out, runs.now);
-    out += ",\n  \"before\": ";
-    json_run(out, runs.before);
-    out += ",\n  \"alert_rules\": {\"dd_drop\": ";
-    append_json_number(out, rules.dd_drop);
-    out += ", \"pd_ratio\": ";
-    append_json_number(out, rules.pd_ratio);
-    out += ", \"pd_ratio_min_pd\": ";
-    append_json_number(out, rules.pd_ratio_min_pd);
-    out += ", \"downgrade_notches\": " + std::to_string(rules.downgrade_notches) + ", \"pd_ceiling\": ";
-    append_json_number(out, rules.pd_ceiling);
-    out += "},\n  \"summary\": {\"continuing\": " + std::to_string(c.continuing) +
-           ", \"new\": " + std::to_string(c.added) + ", \"dropped\": " + std::to_string(c.dropped) +
-           ", \"downgraded\": " + std::to_string(c.downgraded) +
-           ", \"upgraded\": " + std::to_string(c.upgraded) +
-           ", \"unchanged_grade\": " + std::to_string(c.unchanged_grade) +
-           ", \"on_watchlist\": " + std::to_string(c.flagged) +
-           ", \"left_out\": " + std::to_string(c.skipped) + "},\n  \"migration\": {\"grades\": [";
-    for (std::size_t i = 0; i < scale.bands.size(); ++i) {
-      if (i > 0) out += ", ";
-      append_json_string(out, scale.bands[i].label);
-    }
-    out += "], \"counts\": [";
-    for (std::size_t i = 0; i < c.migration.size(); ++i) {
-      out += i == 0 ? "[" : ", [";
-      for (std::size_t j = 0; j < c.migration[i].size(); ++j) {
-        out += (j == 0 ? "" : ", ") + std::to_string(c.migration[i][j]);
-      }
-      out += "]";
-    }
-    out += "]}";
-    json_rows_begin(out, "obligors");
-  } else if (table) {
-    out += std::string(what) + ": " + run_title(runs.now) + " against " + run_title(runs.before) + "\n\n";
+namespace {
+
+std::vector<ReportColumn> movers_columns() {
+  return {{"id", "obligor", "", 12, Style::text},
+          {"name", "name", "", 9, Style::text},
+          {"change", "", "", 0, Style::text},
+          {"status_before", "", "", 0, Style::text},
+          {"status_now", "", "", 0, Style::text},
+          {"dd_before", "DD", "before", 6, Style::decimal3},
+          {"dd_now", "DD", "now", 6, Style::decimal3},
+          {"dd_change", "DD", "change", 6, Style::signed3},
+          {"pd_before", "PD %", "before", 9, Style::percent_pd},
+          {"pd_now", "PD %", "now", 9, Style::percent_pd},
+          {"pd_change", "", "", 0, Style::signed_pp},
+          {"pd_ratio", "", "", 0, Style::ratio},
+          {"grade_before", "", "", 0, Style::text},
+          {"grade_now", "", "", 0, Style::text},
+          {"", "grade", "from>to", 9, Style::text},
+          {"notches", "notch", "down", 5, Style::integer},
+          {"severity", "sev", "", 3, Style::integer},
+          {"alerts", "", "", 0, Style::text},
+          {"", "alerts and notes", "", 16, Style::text}};
+}
+
+// The JSON object up to its list of obligors: both runs, the alert rules, the counts and the
+// migration matrix.
+void json_movers_head(const RunPair& runs, const Comparison& c, const GradeScale& scale,
+                      const AlertRules& rules, std::string& out) {
+  out += "{\n  \"now\": ";
+  json_run(out, runs.now);
+  out += ",\n  \"before\": ";
+  json_run(out, runs.before);
+  out += ",\n  \"alert_rules\": {\"dd_drop\": ";
+  append_json_number(out, rules.dd_drop);
+  out += ", \"pd_ratio\": ";
+  append_json_number(out, rules.pd_ratio);
+  out += ", \"pd_ratio_min_pd\": ";
+  append_json_number(out, rules.pd_ratio_min_pd);
+  out += ", \"downgrade_notches\": " + std::to_string(rules.downgrade_notches) + ", \"pd_ceiling\": ";
+  append_json_number(out, rules.pd_ceiling);
+  out += "},\n  \"summary\": {\"continuing\": " + std::to_string(c.continuing) +
+         ", \"new\": " + std::to_string(c.added) + ", \"dropped\": " + std::to_string(c.dropped) +
+         ", \"downgraded\": " + std::to_string(c.downgraded) +
+         ", \"upgraded\": " + std::to_string(c.upgraded) +
+         ", \"unchanged_grade\": " + std::to_string(c.unchanged_grade) +
+         ", \"on_watchlist\": " + std::to_string(c.flagged) + ", \"left_out\": " + std::to_string(c.skipped) +
+         "},\n  \"migration\": {\"grades\": [";
+  for (std::size_t i = 0; i < scale.bands.size(); ++i) {
+    if (i > 0) out += ", ";
+    append_json_string(out, scale.bands[i].label);
   }
-  w.header(out);
-  std::size_t shown = 0;
-  for (const Mover& m : c.movers) {
-    if (view.watchlist && m.severity == 0) continue;
-    if (view.top > 0 && shown == view.top) break;
-    ++shown;
-    std::string notes;
-    if (table) {
-      if (m.kind != MoveKind::continuing) notes = std::string(to_string(m.kind));
-      for (std::size_t i = 0; i < kAlertCount; ++i) {
-        if (!m.has(static_cast<Alert>(i))) continue;
-        if (!notes.empty()) notes += ' ';
-        notes += to_string(static_cast<Alert>(i));
-      }
+  out += "], \"counts\": [";
+  for (std::size_t i = 0; i < c.migration.size(); ++i) {
+    out += i == 0 ? "[" : ", [";
+    for (std::size_t j = 0; j < c.migration[i].size(); ++j) {
+      out += (j == 0 ? "" : ", ") + std::to_string(c.migration[i][j]);
     }
-    const std::string move = (m.grade_before < 0 ? "-" : grade_text(scale, m.grade_before)) + ">" +
-                             (m.grade_now < 0 ? "-" : grade_text(scale, m.grade_now));
-    const bool graded_both = m.grade_before >= 0 && m.grade_now >= 0;
-    w.row({Cell::text(m.id), Cell::text(m.name), Cell::text(std::string(to_string(m.kind))),
-           m.before ? Cell::text(std::string(to_string(m.before->status))) : Cell::none(),
-           m.now ? Cell::text(std::string(to_string(m.now->status))) : Cell::none(),
-           Cell::number(m.dd_before), Cell::number(m.dd_now), Cell::number(m.dd_change()),
-           Cell::number(m.pd_before), Cell::number(m.pd_now), Cell::number(m.pd_change()),
-           Cell::number(m.pd_ratio()), grade_cell(scale, m.grade_before), grade_cell(scale, m.grade_now),
-           Cell::text(move), graded_both ? Cell::number(m.notches()) : Cell::none(), Cell::number(m.severity),
-           alerts_cell(m), Cell::text(notes)},
-          out);
+    out += "]";
   }
-  if (format == OutputFormat::json) {
-    json_rows_end(out, w.rows());
-    return;
+  out += "]}";
+  json_rows_begin(out, "obligors");
+}
+
+// One mover's cells in movers_columns() order; the table's notes column only for the table.
+std::vector<Cell> mover_cells(const Mover& m, const GradeScale& scale, bool table) {
+  std::string notes;
+  if (table) {
+    if (m.kind != MoveKind::continuing) notes = std::string(to_string(m.kind));
+    for (std::size_t i = 0; i < kAlertCount; ++i) {
+      if (!m.has(static_cast<Alert>(i))) continue;
+      if (!notes.empty()) notes += ' ';
+      notes += to_string(static_cast<Alert>(i));
+    }
   }
-  if (!table) return;
-  w.rule(out);
+  const std::string move = (m.grade_before < 0 ? "-" : grade_text(scale, m.grade_before)) + ">" +
+                           (m.grade_now < 0 ? "-" : grade_text(scale, m.grade_now));
+  const bool graded_both = m.grade_before >= 0 && m.grade_now >= 0;
+  return {Cell::text(m.id),
+          Cell::text(m.name),
+          Cell::text(std::string(to_string(m.kind))),
+          m.before ? Cell::text(std::string(to_string(m.before->status))) : Cell::none(),
+          m.now ? Cell::text(std::string(to_string(m.now->status))) : Cell::none(),
+          Cell::number(m.dd_before),
+          Cell::number(m.dd_now),
+          Cell::number(m.dd_change()),
+          Cell::number(m.pd_before),
+          Cell::number(m.pd_now),
+          Cell::number(m.pd_change()),
+          Cell::number(m.pd_ratio()),
+          grade_cell(scale, m.grade_before),
+          grade_cell(scale, m.grade_now),
+          Cell::text(move),
+          graded_both ? Cell::number(m.notches()) : Cell::none(),
+          Cell::number(m.severity),
+          alerts_cell(m),
+          Cell::text(notes)};
+}
+
+// Grade migration for the table: rows the older run's grade, columns the newer run's; '.' for none.
+void migration_table(const RunPair& runs, const Comparison& c, const GradeScale& scale, std::string& out) {
+  out += "\nGrade migration (rows: " + run_title(runs.before) + ", columns: " + run_title(runs.now) + ")\n";
+  // Cells right-aligned in 7 characters.
+  const auto cell = [&out](const std::string& text) {
+    const std::string t = fit_text(text, 6);
+    out.append(7 - t.size(), ' ');
+    out += t;
+  };
+  out.append(8, ' ');
+  for (const GradeBand& b : scale.bands) cell(b.label);
+  out += '\n';
+  for (std::size_t i = 0; i < c.migration.size(); ++i) {
+    const std::string label = fit_text(scale.bands[i].label, 8);
+    out += label;
+    out.append(8 - label.size(), ' ');
+    for (std::size_t j = 0; j < c.migration[i].size(); ++j) {
+      cell(c.migration[i][j] == 0 ? std::string(".") : std::to_string(c.migration[i][j]));
+    }
+    out += '\n';
+  }
+}
+
+// Under the table: the counts, the alert rules and (movers only) the migration matrix.
+void movers_table_foot(const RunPair& runs, const Comparison& c, const GradeScale& scale,
+                       const AlertRules& rules, const MoversOptions& view, std::size_t shown,
+                       std::string& out) {
   if (view.watchlist && shown == 0) out += "No obligor meets an alert rule.\n";
   out += std::to_string(c.continuing) + " continuing, " + std::to_string(c.added) + " new, " +
          std::to_string(c.dropped) + " dropped; grades " + std::to_string(c.downgraded) + " down, " +
@@ -222,29 +255,37 @@ void write_movers_report(const RunPair& runs, const Comparison& c, const GradeSc
          number_text(100.0 * rules.pd_ratio_min_pd, "%g") + "%; grade down " +
          std::to_string(rules.downgrade_notches) + "+ notches; PD above " +
          number_text(100.0 * rules.pd_ceiling, "%g") + "%; not scored\n";
-  if (!view.watchlist) {
-    // Migration matrix: rows the older run's grade, columns the newer run's; '.' for none.
-    out += "\nGrade migration (rows: " + run_title(runs.before) + ", columns: " + run_title(runs.now) + ")\n";
-    // Cells right-aligned in 7 characters.
-    const auto cell = [&out](const std::string& text) {
-      const std::string t = fit_text(text, 6);
-      out.append(7 - t.size(), ' ');
-      out += t;
-    };
-    out.append(8, ' ');
-    for (const GradeBand& b : scale.bands) cell(b.label);
-    out += '\n';
-    for (std::size_t i = 0; i < c.migration.size(); ++i) {
-      const std::string label = fit_text(scale.bands[i].label, 8);
-      out += label;
-      out.append(8 - label.size(), ' ');
-      for (std::size_t j = 0; j < c.migration[i].size(); ++j) {
-        cell(c.migration[i][j] == 0 ? std::string(".") : std::to_string(c.migration[i][j]));
-      }
-      out += '\n';
-    }
-  }
+  if (!view.watchlist) migration_table(runs, c, scale, out);
   out += kTableCaution;
+}
+
+}  // namespace
+
+void write_movers_report(const RunPair& runs, const Comparison& c, const GradeScale& scale,
+                         const AlertRules& rules, const MoversOptions& view, OutputFormat format,
+                         std::string& out) {
+  const bool table = format == OutputFormat::table;
+  ReportWriter w(movers_columns(), format);
+  if (format == OutputFormat::json) {
+    json_movers_head(runs, c, scale, rules, out);
+  } else if (table) {
+    const char* what = view.watchlist ? "Watchlist" : "Movers";
+    out += std::string(what) + ": " + run_title(runs.now) + " against " + run_title(runs.before) + "\n\n";
+  }
+  w.header(out);
+  std::size_t shown = 0;
+  for (const Mover& m : c.movers) {
+    if (view.watchlist && m.severity == 0) continue;
+    if (view.top > 0 && shown == view.top) break;
+    ++shown;
+    w.row(mover_cells(m, scale, table), out);
+  }
+  if (format == OutputFormat::json) {
+    json_rows_end(out, w.rows());
+  } else if (table) {
+    w.rule(out);
+    movers_table_foot(runs, c, scale, rules, view, shown, out);
+  }
 }
 
 void write_attribution_report(const RunPair& runs, const std::vector<AttributedMover>& rows,

@@ -1,45 +1,64 @@
 #include "firmcall/monitor/record_book.hpp"
 
 #include <charconv>
-#include <ctime>
 
 #include "firmcall/book/errors.hpp"
 #include "firmcall/engine/score_output.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/sha256.hpp"
+#include "firmcall/util/timestamp.hpp"
 #include "io/yaml_util.hpp"
 
 namespace firmcall {
 
-std::string resolve_store_path(const std::string& db_option, const MonitorSettings& monitor) {
-  if (!db_option.empty()) return db_option;
-  if (!monitor.store.empty()) return monitor.store;
-  return default_store_path();
+namespace {
+
+// Writes the members of one JSON object in order, `"key": value` joined by ", " (compact: by ","
+// with ":" after the key). The caller writes the braces.
+class JsonMembers {
+ public:
+  JsonMembers(std::string& out, bool compact) : out_(out), compact_(compact) {}
+  /// The separator and the key; the caller appends the value to the string returned.
+  std::string& key(std::string_view k) {
+    if (!first_) out_ += compact_ ? "," : ", ";
+    first_ = false;
+    append_json_string(out_, k);
+    out_ += compact_ ? ":" : ": ";
+    return out_;
+  }
+  void number(std::string_view k, double v) { append_json_number(key(k), v); }
+  void text(std::string_view k, std::string_view v) { append_json_string(key(k), v); }
+
+ private:
+  std::string& out_;
+  bool compact_;
+  bool first_ = true;
+};
+
+}  // namespace
+
+OptionCheck RecordBookOptions::validate() const {
+  if (store_path.empty()) return OptionProblem{"store_path", "", "must name the history store file"};
+  if (!as_of.empty() && !is_calendar_date(as_of)) {
+    return OptionProblem{"as_of", as_of, "must be empty or a date YYYY-MM-DD"};
+  }
+  return std::nullopt;
 }
 
 std::string fields_json(const ObligorRecord& rec) {
   std::string out = "{";
-  bool first = true;
-  const auto key = [&out, &first](std::string_view k) {
-    if (!first) out += ',';
-    first = false;
-    append_json_string(out, k);
-    out += ':';
-  };
+  JsonMembers fields(out, true);
   for (std::size_t i = 0; i < kTextFieldCount; ++i) {
     const auto f = static_cast<TextField>(i);
-    if (rec.get(f).empty()) continue;
-    key(to_string(f));
-    append_json_string(out, rec.get(f));
+    if (!rec.get(f).empty()) fields.text(to_string(f), rec.get(f));
   }
   for (std::size_t i = 0; i < kNumFieldCount; ++i) {
     const auto f = static_cast<NumField>(i);
     if (!rec.has(f)) continue;
-    key(to_string(f));
     // Shortest text that reads back as the same double: the store keeps it compact, and exact.
     char buf[32];
     const auto r = std::to_chars(buf, buf + sizeof buf, rec.get(f));
-    out.append(buf, r.ptr);
+    fields.key(to_string(f)).append(buf, r.ptr);
   }
   out += "}";
   return out;
@@ -67,71 +86,47 @@ StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& s, c
 }
 
 std::string settings_json(const ScoreSettings& s, const GradeScale& grades) {
-  std::string out = "{\"default_point_weight\": ";
-  append_json_number(out, s.default_point_weight);
-  out += ", \"horizon\": ";
-  append_json_number(out, s.horizon_years);
-  out += ", \"measure\": ";
-  append_json_string(out, to_string(s.measure));
-  out += ", \"default_lgd\": ";
-  append_json_number(out, s.default_lgd);
-  out += ", \"max_equity_vol\": ";
-  append_json_number(out, s.max_equity_vol);
-  out += ", \"solver\": {\"max_newton_iterations\": " + std::to_string(s.solver.max_newton_iterations) +
-         ", \"max_fallback_iterations\": " + std::to_string(s.solver.max_fallback_iterations) +
-         ", \"residual_tolerance\": ";
-  append_json_number(out, s.solver.residual_tolerance);
-  out += "}, \"overrides\": {";
-  bool first = true;
-  const auto over = [&](const char* name, const std::optional<double>& v) {
-    if (!v) return;
-    if (!first) out += ", ";
-    first = false;
-    append_json_string(out, name);
-    out += ": ";
-    append_json_number(out, *v);
-  };
-  over("rate", s.rate_override);
-  over("horizon", s.horizon_override);
-  over("default_point_weight", s.weight_override);
-  out += "}, \"grades\": [";
+  std::string out = "{";
+  JsonMembers run(out, false);
+  run.number("default_point_weight", s.default_point_weight);
+  run.number("horizon", s.horizon_years);
+  run.text("measure", to_string(s.measure));
+  run.number("default_lgd", s.default_lgd);
+  run.number("max_equity_vol", s.max_equity_vol);
+  run.key("solver") += "{";
+  JsonMembers solver(out, false);
+  solver.number("max_newton_iterations", s.solver.max_newton_iterations);
+  solver.number("max_fallback_iterations", s.solver.max_fallback_iterations);
+  solver.number("residual_tolerance", s.solver.residual_tolerance);
+  out += "}";
+  run.key("overrides") += "{";
+  JsonMembers overrides(out, false);
+  for (const auto& [name, value] :
+       {std::pair{"rate", s.rate_override}, std::pair{"horizon", s.horizon_override},
+        std::pair{"default_point_weight", s.weight_override}}) {
+    if (value) overrides.number(name, *value);
+  }
+  out += "}";
+  run.key("grades") += "[";
   for (std::size_t i = 0; i < grades.bands.size(); ++i) {
-    out += i == 0 ? "{\"label\": " : ", {\"label\": ";
-    append_json_string(out, grades.bands[i].label);
-    out += ", \"max_pd\": ";
-    append_json_number(out, grades.bands[i].max_pd);
+    out += i == 0 ? "{" : ", {";
+    JsonMembers band(out, false);
+    band.text("label", grades.bands[i].label);
+    band.number("max_pd", grades.bands[i].max_pd);
     out += "}";
   }
   out += "]}";
   return out;
 }
 
-std::string today_local() {
-  const std::time_t t = std::time(nullptr);
-  std::tm tm{};
-  localtime_r(&t, &tm);
-  char buf[16];
-  std::strftime(buf, sizeof buf, "%Y-%m-%d", &tm);
-  return buf;
-}
-
-std::string utc_timestamp() {
-  const std::time_t t = std::time(nullptr);
-  std::tm tm{};
-  gmtime_r(&t, &tm);
-  char buf[32];
-  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", &tm);
-  return buf;
-}
-
-RecordResult record_book(const std::string& book_path, const ScoreSettings& settings, const Config& config,
-                         const RecordOptions& options) {
+RecordedRun record_book(const std::string& book_path, const ScoreSettings& settings, const Config& config,
+                        const RecordBookOptions& options) {
   const BookFormat format = book_format_of(book_path);
   const std::string bytes = detail::read_text_file(book_path);
   const Book book =
       format == BookFormat::yaml ? parse_yaml_book(bytes, book_path) : parse_csv_book(bytes, book_path);
 
-  RecordResult result;
+  RecordedRun result;
   if (!options.as_of.empty()) {
     if (!is_calendar_date(options.as_of)) {
       throw InputError("--as-of: expected a date YYYY-MM-DD, got '" + options.as_of + "'");
@@ -144,12 +139,12 @@ RecordResult record_book(const std::string& book_path, const ScoreSettings& sett
     }
     result.as_of = book.as_of;
   } else {
-    result.as_of = today_local();
+    result.as_of = local_date_today();
   }
 
   RunInfo info;
   info.as_of = result.as_of;
-  info.recorded_at = utc_timestamp();
+  info.recorded_at = utc_timestamp_now();
   info.book_path = book_path;
   info.book_label = book.label;
   info.input_sha256 = sha256_hex(bytes);

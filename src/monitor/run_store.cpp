@@ -12,6 +12,8 @@
 #include <fstream>
 #include <limits>
 
+#include "firmcall/util/timestamp.hpp"
+
 namespace firmcall {
 
 namespace {
@@ -276,15 +278,6 @@ int read_version(const RunStore::Impl& im) {
   return static_cast<int>(v.integer(0));
 }
 
-std::string utc_now() {
-  const std::time_t t = std::time(nullptr);
-  std::tm tm{};
-  gmtime_r(&t, &tm);
-  char buf[32];
-  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", &tm);
-  return buf;
-}
-
 void migrate(RunStore::Impl& im) {
   const auto too_new = [&im](int v) {
     return InputError(
@@ -311,7 +304,7 @@ void migrate(RunStore::Impl& im) {
         if (m.version <= v) continue;
         im.exec(m.sql, "upgrading the schema to version " + std::to_string(m.version));
         Stmt mark(im, "INSERT INTO firmcall_schema (version, applied_at, note) VALUES (?, ?, ?)");
-        const std::string now = utc_now();
+        const std::string now = utc_timestamp_now();
         mark.bind_int(1, m.version);
         mark.bind_text(2, now);
         mark.bind_text(3, m.note);
@@ -548,6 +541,12 @@ std::int64_t RunWriter::commit() {
   im.exec("COMMIT", "finishing the run");
   open_ = false;
   return run_id_;
+}
+
+std::string resolve_store_path(const std::string& db_option, const MonitorSettings& monitor) {
+  if (!db_option.empty()) return db_option;
+  if (!monitor.store.empty()) return monitor.store;
+  return default_store_path();
 }
 
 std::string default_store_path() {

@@ -8,7 +8,6 @@
 #include "firmcall/book/errors.hpp"
 #include "firmcall/format/row_writer.hpp"
 #include "firmcall/model/normal.hpp"
-#include "firmcall/monitor/record_book.hpp"
 #include "firmcall/report/svg.hpp"
 
 namespace firmcall {
@@ -339,41 +338,49 @@ std::string names_section(const ReportData& d) {
   return out + "</section>\n";
 }
 
-std::string stress_section(const ReportData& d) {
-  const ReportStress& st = *d.stress;
-  std::string out = section_open(
-      "stress", "Stress results",
-      "Each scenario of " + st.origin +
-          " shocks the observed inputs (equity value and volatility, rate, default point), and every hit "
-          "obligor is solved again. Figures over the obligors scored both as they stand and stressed.");
-  // PD by scenario.
-  std::vector<std::string> cats{"as it stands"};
+// The PD-by-scenario chart's figures: the book as it stands, then each scenario.
+struct ScenarioPds {
+  std::vector<std::string> categories{"as it stands"};
   std::vector<double> weighted, mean;
   std::vector<std::string> weighted_labels, mean_labels;
-  const ScenarioSummary* first = st.summary.scenarios.empty() ? nullptr : &st.summary.scenarios.front();
-  const auto add = [&](double w, double m) {
+  void add(double w, double m) {
     weighted.push_back(w);
     mean.push_back(m);
     weighted_labels.push_back(std::isfinite(w) ? fixed(100.0 * w, 2) + "%" : "");
     mean_labels.push_back(std::isfinite(m) ? fixed(100.0 * m, 2) + "%" : "");
-  };
-  if (first) add(first->ead_weighted_pd, first->mean_pd);
-  for (std::size_t k = 0; k < st.scenarios.size() && k < st.summary.scenarios.size(); ++k) {
-    cats.push_back(st.scenarios[k].name);
-    add(st.summary.scenarios[k].ead_weighted_pd_stressed, st.summary.scenarios[k].mean_pd_stressed);
   }
+};
+
+ScenarioPds scenario_pds(const ReportStress& st) {
+  ScenarioPds p;
+  if (!st.summary.scenarios.empty()) {
+    p.add(st.summary.scenarios.front().ead_weighted_pd, st.summary.scenarios.front().mean_pd);
+  }
+  for (std::size_t k = 0; k < st.scenarios.size() && k < st.summary.scenarios.size(); ++k) {
+    p.categories.push_back(st.scenarios[k].name);
+    p.add(st.summary.scenarios[k].ead_weighted_pd_stressed, st.summary.scenarios[k].mean_pd_stressed);
+  }
+  return p;
+}
+
+std::string scenario_pd_chart(const ScenarioPds& p) {
   SvgAxis y{.label = "PD (percent)", .min = 0, .max = 1, .log = false, .format = TickFormat::percent};
-  out += figure(svg_bar_chart(cats,
-                              {{"exposure-weighted PD", "fc-bar-base", weighted, weighted_labels},
-                               {"mean PD", "fc-bar-alt", mean, mean_labels}},
+  return figure(svg_bar_chart(p.categories,
+                              {{"exposure-weighted PD", "fc-bar-base", p.weighted, p.weighted_labels},
+                               {"mean PD", "fc-bar-alt", p.mean, p.mean_labels}},
                               "scenario", y, "PD of the book by scenario"),
                 "The first group is the book as it stands; each further group is the same book under one "
                 "scenario. Exposure-weighted PD (sum of EAD x PD over sum of EAD) tracks where the money is; "
                 "the mean PD treats every name alike.");
+}
+
+// The per-scenario summary table and the list of scenarios with their descriptions.
+std::string scenario_summary_table(const ReportData& d) {
+  const ReportStress& st = *d.stress;
+  const std::string above = "PD > " + level_text(d.config.stress.pd_threshold);
   HtmlTable t("fc-table fc-stress-summary",
               {"scenario", "compared", "mean PD base", "mean PD stressed", "EAD-weighted PD base",
-               "EAD-weighted PD stressed", "PD > " + level_text(d.config.stress.pd_threshold) + " base",
-               "PD > " + level_text(d.config.stress.pd_threshold) + " stressed", "expected loss base",
+               "EAD-weighted PD stressed", above + " base", above + " stressed", "expected loss base",
                "expected loss stressed"});
   for (std::size_t k = 0; k < st.scenarios.size() && k < st.summary.scenarios.size(); ++k) {
     const ScenarioSummary& s = st.summary.scenarios[k];
@@ -383,68 +390,94 @@ std::string stress_section(const ReportData& d) {
            report_amount(s.expected_loss_stressed)},
           true);
   }
-  out += t.str();
+  std::string out = t.str();
   out += "<ul class=\"fc-scenarios\">\n";
   for (const Scenario& sc : st.scenarios) {
     out += "<li><strong>" + h(sc.name) + "</strong>" +
            (sc.description.empty() ? "" : ": " + h(sc.description)) + "</li>\n";
   }
-  out += "</ul>\n";
-  // Per-obligor change, one chart per scenario: the names whose PD moved most.
-  const std::size_t shown = std::max<std::size_t>(d.options.top, 10);
-  for (std::size_t k = 0; k < st.scenarios.size() && k < st.rows.size(); ++k) {
-    std::vector<std::size_t> idx;
-    for (std::size_t i = 0; i < st.rows[k].size(); ++i) {
-      if (st.rows[k][i].status == StressStatus::ok && d.scored[i].status == RowStatus::ok &&
-          st.rows[k][i].shocked() && st.rows[k][i].measures.pd != d.scored[i].measures.pd) {
-        idx.push_back(i);
-      }
-    }
-    const auto change = [&](std::size_t i) { return st.rows[k][i].measures.pd - d.scored[i].measures.pd; };
-    std::stable_sort(idx.begin(), idx.end(), [&](std::size_t a, std::size_t b) {
-      return std::fabs(change(a)) > std::fabs(change(b));
-    });
-    idx.resize(std::min(idx.size(), shown));
-    std::vector<std::string> names, labels;
-    std::vector<double> values;
-    for (const std::size_t i : idx) {
-      names.push_back(short_name(d.book.obligors[i]));
-      values.push_back(100.0 * change(i));
-      labels.push_back(report_pd(d.scored[i].measures.pd) + " to " + report_pd(st.rows[k][i].measures.pd));
-    }
-    SvgAxis x{.label = "change of PD (percentage points)",
-              .min = 0,
-              .max = 1,
-              .log = false,
-              .format = TickFormat::plain};
-    out += figure(
-        svg_signed_bars(names, values, labels, x, "Largest PD changes under '" + st.scenarios[k].name + "'"),
-        "The " + count(idx.size()) +
-            " obligors whose PD moved most under this scenario (names no shock hits are left out). Bars to "
-            "the "
-            "right are rises in percentage points; the text beside each bar gives the PD as it stands and "
-            "stressed.");
-  }
-  // Per-obligor table: the names hit hardest in any scenario.
+  return out + "</ul>\n";
+}
+
+// PD change of book obligor i under scenario k.
+double stressed_pd_change(const ReportData& d, std::size_t k, std::size_t i) {
+  return d.stress->rows[k][i].measures.pd - d.scored[i].measures.pd;
+}
+
+// Book positions of the obligors whose PD scenario k moved, largest change first, at most `shown`.
+std::vector<std::size_t> largest_pd_changes(const ReportData& d, std::size_t k, std::size_t shown) {
+  const std::vector<StressedObligor>& rows = d.stress->rows[k];
   std::vector<std::size_t> idx;
-  std::vector<double> worst(d.scored.size(), -INFINITY);
+  for (std::size_t i = 0; i < rows.size(); ++i) {
+    if (rows[i].status == StressStatus::ok && d.scored[i].status == RowStatus::ok && rows[i].shocked() &&
+        rows[i].measures.pd != d.scored[i].measures.pd) {
+      idx.push_back(i);
+    }
+  }
+  std::stable_sort(idx.begin(), idx.end(), [&](std::size_t a, std::size_t b) {
+    return std::fabs(stressed_pd_change(d, k, a)) > std::fabs(stressed_pd_change(d, k, b));
+  });
+  idx.resize(std::min(idx.size(), shown));
+  return idx;
+}
+
+std::string pd_change_chart(const ReportData& d, std::size_t k, const std::vector<std::size_t>& idx) {
+  const ReportStress& st = *d.stress;
+  std::vector<std::string> names, labels;
+  std::vector<double> values;
+  for (const std::size_t i : idx) {
+    names.push_back(short_name(d.book.obligors[i]));
+    values.push_back(100.0 * stressed_pd_change(d, k, i));
+    labels.push_back(report_pd(d.scored[i].measures.pd) + " to " + report_pd(st.rows[k][i].measures.pd));
+  }
+  SvgAxis x{.label = "change of PD (percentage points)",
+            .min = 0,
+            .max = 1,
+            .log = false,
+            .format = TickFormat::plain};
+  return figure(
+      svg_signed_bars(names, values, labels, x, "Largest PD changes under '" + st.scenarios[k].name + "'"),
+      "The " + count(idx.size()) +
+          " obligors whose PD moved most under this scenario (names no shock hits are left out). Bars to "
+          "the "
+          "right are rises in percentage points; the text beside each bar gives the PD as it stands and "
+          "stressed.");
+}
+
+// The names hit hardest in any scenario: each scored obligor's largest PD rise (-inf when no
+// scenario stressed it), and the book positions of the `limit` largest.
+struct HardestHit {
+  std::vector<double> worst;
+  std::vector<std::size_t> idx;
+};
+
+HardestHit hardest_hit(const ReportData& d, std::size_t limit) {
+  const ReportStress& st = *d.stress;
+  HardestHit hit;
+  hit.worst.assign(d.scored.size(), -INFINITY);
   for (std::size_t i = 0; i < d.scored.size(); ++i) {
     if (d.scored[i].status != RowStatus::ok) continue;
     for (std::size_t k = 0; k < st.rows.size(); ++k) {
       if (st.rows[k][i].status == StressStatus::ok) {
-        worst[i] = std::max(worst[i], st.rows[k][i].measures.pd - d.scored[i].measures.pd);
+        hit.worst[i] = std::max(hit.worst[i], stressed_pd_change(d, k, i));
       }
     }
-    idx.push_back(i);
+    hit.idx.push_back(i);
   }
-  std::stable_sort(idx.begin(), idx.end(), [&](std::size_t a, std::size_t b) { return worst[a] > worst[b]; });
-  idx.resize(std::min(idx.size(), 2 * shown));
+  std::stable_sort(hit.idx.begin(), hit.idx.end(),
+                   [&](std::size_t a, std::size_t b) { return hit.worst[a] > hit.worst[b]; });
+  hit.idx.resize(std::min(hit.idx.size(), limit));
+  return hit;
+}
+
+std::string hardest_hit_table(const ReportData& d, const HardestHit& hit) {
+  const ReportStress& st = *d.stress;
   std::vector<std::string> heads{"obligor", "name", "PD as it stands"};
   for (const Scenario& s : st.scenarios) heads.push_back("PD " + s.name);
   heads.push_back("largest change");
   HtmlTable per("fc-table fc-stress-names", heads);
   per.numeric_from(2);
-  for (const std::size_t i : idx) {
+  for (const std::size_t i : hit.idx) {
     std::vector<std::string> cells{id_of(d.book.obligors[i]), d.book.obligors[i].get(TextField::name),
                                    report_pd(d.scored[i].measures.pd)};
     for (std::size_t k = 0; k < st.rows.size(); ++k) {
@@ -452,10 +485,27 @@ std::string stress_section(const ReportData& d) {
       cells.push_back(r.status == StressStatus::ok ? report_pd(r.measures.pd)
                                                    : std::string(to_string(r.status)));
     }
-    cells.push_back(pp(worst[i]));
+    cells.push_back(pp(hit.worst[i]));
     per.row(cells, true);
   }
-  out += "<h3>Names hit hardest (" + count(idx.size()) + ", by their largest PD rise)</h3>\n" + per.str();
+  return "<h3>Names hit hardest (" + count(hit.idx.size()) + ", by their largest PD rise)</h3>\n" + per.str();
+}
+
+std::string stress_section(const ReportData& d) {
+  const ReportStress& st = *d.stress;
+  std::string out = section_open(
+      "stress", "Stress results",
+      "Each scenario of " + st.origin +
+          " shocks the observed inputs (equity value and volatility, rate, default point), and every hit "
+          "obligor is solved again. Figures over the obligors scored both as they stand and stressed.");
+  out += scenario_pd_chart(scenario_pds(st));
+  out += scenario_summary_table(d);
+  // Per-obligor change, one chart per scenario: the names whose PD moved most.
+  const std::size_t shown = std::max<std::size_t>(d.options.top, 10);
+  for (std::size_t k = 0; k < st.scenarios.size() && k < st.rows.size(); ++k) {
+    out += pd_change_chart(d, k, largest_pd_changes(d, k, shown));
+  }
+  out += hardest_hit_table(d, hardest_hit(d, 2 * shown));
   return out + "</section>\n";
 }
 
@@ -517,6 +567,121 @@ std::string term_section(const ReportData& d) {
   return out + "</section>\n";
 }
 
+// Why obligors are not in the portfolio: the first five problems, then how many more.
+std::string left_out_text(const PortfolioResult& run) {
+  std::string left_out;
+  for (std::size_t i = 0; i < run.problems.size() && i < 5; ++i)
+    left_out += (i > 0 ? "; " : "") + run.problems[i];
+  const std::size_t more = run.problems.size() > 5 ? run.problems.size() - 5 + run.problems_not_listed : 0;
+  if (more > 0) left_out += "; and " + count(more) + " more";
+  return left_out;
+}
+
+// The exceedance curve drawn: P(loss > x) on the loss grid up to a little past the top ES,
+// floored for the log scale (NaN where it is 0).
+struct ExceedanceCurve {
+  std::vector<double> loss, probability;
+  double floor = 0.0;
+};
+
+ExceedanceCurve exceedance_curve(const LossDistribution& dist) {
+  const LossTail& top = dist.tails.back();
+  const double x_end = std::max(1.3 * top.es, 2.0 * dist.expected_loss);
+  ExceedanceCurve c;
+  c.floor = std::min(1e-5, 0.1 * (1.0 - top.confidence_level));
+  for (std::size_t k = 0; k < dist.exceedance.size(); ++k) {
+    const double loss = static_cast<double>(k) * dist.loss_unit;
+    if (loss > x_end) break;
+    c.loss.push_back(loss);
+    c.probability.push_back(dist.exceedance[k] > 0.0 ? std::max(dist.exceedance[k], c.floor) : NAN);
+  }
+  return c;
+}
+
+std::string exceedance_chart(const LossDistribution& dist, const ExceedanceCurve& c) {
+  const LossTail& top = dist.tails.back();
+  SvgAxis x{
+      .label = "portfolio loss (EAD unit)", .min = 0, .max = 1, .log = false, .format = TickFormat::amount};
+  SvgAxis y{.label = "P(loss > x), percent, log scale",
+            .min = c.floor,
+            .max = 1,
+            .log = true,
+            .format = TickFormat::percent};
+  std::vector<double> xfit = c.loss;
+  xfit.push_back(top.es);
+  fit_axis(x, xfit, true);
+  fit_axis(y, c.probability, false, c.floor);
+  SvgPlot plot(x, y, "Loss distribution: chance of losing more than x", 720.0, 420.0);
+  // Drawn without point markers: one line through every grid point.
+  plot.line(c.loss, c.probability, "fc-s1", "P(L > x)", false);
+  plot.vline(dist.expected_loss, "fc-mark-el", "EL " + report_amount(dist.expected_loss));
+  plot.vline(top.var, "fc-mark-var",
+             "VaR " + level_text(top.confidence_level) + " " + report_amount(top.var));
+  plot.vline(top.es, "fc-mark-es", "ES " + level_text(top.confidence_level) + " " + report_amount(top.es));
+  plot.hline(1.0 - top.confidence_level, "fc-ref", "tail " + level_text(1.0 - top.confidence_level));
+  return figure(
+      plot.str(),
+      "Read across from a probability to the loss it exceeds: the curve gives the chance that the "
+      "portfolio loses more than x over the horizon. Marked: expected loss (EL), and at " +
+          level_text(top.confidence_level) +
+          " the value at risk (the loss exceeded with the tail probability) and the expected shortfall "
+          "(the mean loss beyond it).");
+}
+
+// VaR and ES at each confidence level, then EL, EAD and IRB capital of the book.
+std::string loss_levels_table(const PortfolioScenarioResult& base) {
+  const LossDistribution& dist = base.exact;
+  HtmlTable t("fc-table fc-portfolio-levels", {"confidence level", "VaR", "ES", "VaR less EL"});
+  for (const LossTail& tail : dist.tails) {
+    t.row({level_text(tail.confidence_level), report_amount(tail.var), report_amount(tail.es),
+           report_amount(tail.var - dist.expected_loss)},
+          true);
+  }
+  return t.str() + "<p class=\"fc-note\">Expected loss " + h(report_amount(base.total.expected_loss)) +
+         " on EAD " + h(report_amount(base.total.ead)) + "; Basel IRB capital " +
+         h(report_amount(base.total.irb_capital)) + " (risk-weighted assets " +
+         h(report_amount(base.total.rwa)) + ").</p>\n";
+}
+
+// Contributions to ES at the top confidence level, and the positions of the `limit` largest
+// (empty when the distribution has no contributions).
+struct EsContributors {
+  const double* contribution = nullptr;  // per obligor, at the top level
+  std::vector<std::size_t> idx;
+};
+
+EsContributors es_contributors(const PortfolioScenarioResult& base, std::size_t limit) {
+  const LossDistribution& dist = base.exact;
+  const std::size_t n = base.obligors.size();
+  const std::size_t level = dist.tails.size() - 1;
+  EsContributors top;
+  if (!(dist.es_contributions.size() >= (level + 1) * n && n > 0)) return top;
+  top.contribution = dist.es_contributions.data() + level * n;
+  top.idx.resize(n);
+  std::iota(top.idx.begin(), top.idx.end(), std::size_t{0});
+  std::stable_sort(top.idx.begin(), top.idx.end(),
+                   [&](std::size_t a, std::size_t b) { return top.contribution[a] > top.contribution[b]; });
+  top.idx.resize(std::min(top.idx.size(), limit));
+  return top;
+}
+
+std::string es_contributors_table(const ReportData& d, const PortfolioScenarioResult& base,
+                                  const EsContributors& top) {
+  const LossTail& level = base.exact.tails.back();
+  HtmlTable c("fc-table fc-contributions",
+              {"obligor", "name", "PD", "EAD", "expected loss", "ES contribution", "share of ES"});
+  c.numeric_from(2);
+  for (const std::size_t i : top.idx) {
+    const PortfolioObligor& o = base.obligors[i];
+    if (!o.ok()) continue;
+    c.row({id_of(d.book.obligors[i]), d.book.obligors[i].get(TextField::name), report_pd(o.pd),
+           report_amount(o.ead), report_amount(o.expected_loss), report_amount(top.contribution[i]),
+           fixed(100.0 * top.contribution[i] / level.es, 1) + "%"},
+          true);
+  }
+  return "<h3>Largest contributors to ES at " + h(level_text(level.confidence_level)) + "</h3>\n" + c.str();
+}
+
 std::string portfolio_section(const ReportData& d) {
   const PortfolioResult& run = *d.portfolio;
   const PortfolioScenarioResult& base = run.scenarios.front();
@@ -529,12 +694,7 @@ std::string portfolio_section(const ReportData& d) {
           "). " + count(base.included) + " of " + count(base.obligors.size()) +
           " obligors are in the portfolio; losses in the book's EAD unit.");
   if (base.included < base.obligors.size()) {
-    std::string left_out;
-    for (std::size_t i = 0; i < run.problems.size() && i < 5; ++i)
-      left_out += (i > 0 ? "; " : "") + run.problems[i];
-    const std::size_t more = run.problems.size() > 5 ? run.problems.size() - 5 + run.problems_not_listed : 0;
-    if (more > 0) left_out += "; and " + count(more) + " more";
-    out += "<p class=\"fc-note\">Left out of the portfolio: " + h(left_out) + ".</p>\n";
+    out += "<p class=\"fc-note\">Left out of the portfolio: " + h(left_out_text(run)) + ".</p>\n";
   }
   if (base.included == 0) {
     out +=
@@ -547,76 +707,10 @@ std::string portfolio_section(const ReportData& d) {
     out += "<p class=\"fc-note\">The loss distribution could not be computed: " + h(dist.message) + "</p>\n";
     return out + "</section>\n";
   }
-  const LossTail& top = dist.tails.back();
-  const double x_end = std::max(1.3 * top.es, 2.0 * dist.expected_loss);
-  const double floor = std::min(1e-5, 0.1 * (1.0 - top.confidence_level));
-  std::vector<double> xs, ys;
-  for (std::size_t k = 0; k < dist.exceedance.size(); ++k) {
-    const double loss = static_cast<double>(k) * dist.loss_unit;
-    if (loss > x_end) break;
-    xs.push_back(loss);
-    ys.push_back(dist.exceedance[k] > 0.0 ? std::max(dist.exceedance[k], floor) : NAN);
-  }
-  SvgAxis x{
-      .label = "portfolio loss (EAD unit)", .min = 0, .max = 1, .log = false, .format = TickFormat::amount};
-  SvgAxis y{.label = "P(loss > x), percent, log scale",
-            .min = floor,
-            .max = 1,
-            .log = true,
-            .format = TickFormat::percent};
-  std::vector<double> xfit = xs;
-  xfit.push_back(top.es);
-  fit_axis(x, xfit, true);
-  fit_axis(y, ys, false, floor);
-  SvgPlot plot(x, y, "Loss distribution: chance of losing more than x", 720.0, 420.0);
-  // Drawn without point markers: one line through every grid point.
-  plot.line(xs, ys, "fc-s1", "P(L > x)", false);
-  plot.vline(dist.expected_loss, "fc-mark-el", "EL " + report_amount(dist.expected_loss));
-  plot.vline(top.var, "fc-mark-var",
-             "VaR " + level_text(top.confidence_level) + " " + report_amount(top.var));
-  plot.vline(top.es, "fc-mark-es", "ES " + level_text(top.confidence_level) + " " + report_amount(top.es));
-  plot.hline(1.0 - top.confidence_level, "fc-ref", "tail " + level_text(1.0 - top.confidence_level));
-  out += figure(
-      plot.str(),
-      "Read across from a probability to the loss it exceeds: the curve gives the chance that the "
-      "portfolio loses more than x over the horizon. Marked: expected loss (EL), and at " +
-          level_text(top.confidence_level) +
-          " the value at risk (the loss exceeded with the tail probability) and the expected shortfall "
-          "(the mean loss beyond it).");
-  HtmlTable t("fc-table fc-portfolio-levels", {"confidence level", "VaR", "ES", "VaR less EL"});
-  for (const LossTail& tail : dist.tails) {
-    t.row({level_text(tail.confidence_level), report_amount(tail.var), report_amount(tail.es),
-           report_amount(tail.var - dist.expected_loss)},
-          true);
-  }
-  out += t.str();
-  out += "<p class=\"fc-note\">Expected loss " + h(report_amount(base.total.expected_loss)) + " on EAD " +
-         h(report_amount(base.total.ead)) + "; Basel IRB capital " +
-         h(report_amount(base.total.irb_capital)) + " (risk-weighted assets " +
-         h(report_amount(base.total.rwa)) + ").</p>\n";
-  // Largest contributors to ES at the top level.
-  const std::size_t n = base.obligors.size();
-  const std::size_t level = dist.tails.size() - 1;
-  if (dist.es_contributions.size() >= (level + 1) * n && n > 0) {
-    std::vector<std::size_t> idx(n);
-    std::iota(idx.begin(), idx.end(), std::size_t{0});
-    const auto contribution = [&](std::size_t i) { return dist.es_contributions[level * n + i]; };
-    std::stable_sort(idx.begin(), idx.end(),
-                     [&](std::size_t a, std::size_t b) { return contribution(a) > contribution(b); });
-    idx.resize(std::min(idx.size(), d.options.top));
-    HtmlTable c("fc-table fc-contributions",
-                {"obligor", "name", "PD", "EAD", "expected loss", "ES contribution", "share of ES"});
-    c.numeric_from(2);
-    for (const std::size_t i : idx) {
-      const PortfolioObligor& o = base.obligors[i];
-      if (!o.ok()) continue;
-      c.row({id_of(d.book.obligors[i]), d.book.obligors[i].get(TextField::name), report_pd(o.pd),
-             report_amount(o.ead), report_amount(o.expected_loss), report_amount(contribution(i)),
-             fixed(100.0 * contribution(i) / top.es, 1) + "%"},
-            true);
-    }
-    out += "<h3>Largest contributors to ES at " + h(level_text(top.confidence_level)) + "</h3>\n" + c.str();
-  }
+  out += exceedance_chart(dist, exceedance_curve(dist));
+  out += loss_levels_table(base);
+  const EsContributors top = es_contributors(base, d.options.top);
+  if (top.contribution != nullptr) out += es_contributors_table(d, base, top);
   return out + "</section>\n";
 }
 
@@ -820,6 +914,27 @@ const std::vector<std::string>& report_section_ids() {
   static const std::vector<std::string> ids = {"summary", "dd-leverage", "names",     "stress",
                                                "term",    "portfolio",   "monitoring"};
   return ids;
+}
+
+OptionCheck ReportOptions::validate() const {
+  if (book_path.empty()) return OptionProblem{"book_path", "", "must name the book"};
+  for (std::size_t i = 0; i < term_ids.size(); ++i) {
+    if (std::find(term_ids.begin(), term_ids.begin() + static_cast<std::ptrdiff_t>(i), term_ids[i]) !=
+        term_ids.begin() + static_cast<std::ptrdiff_t>(i)) {
+      return OptionProblem{"term_ids", term_ids[i], "must not name an obligor twice"};
+    }
+  }
+  if (!correlation_path.empty() && !portfolio) {
+    return OptionProblem{"correlation_path", correlation_path,
+                         "applies to the portfolio section: needs portfolio"};
+  }
+  if (!store_run.empty() && store_path.empty()) {
+    return OptionProblem{"store_run", store_run, "applies to the monitoring section: needs store_path"};
+  }
+  if (!against.empty() && store_path.empty()) {
+    return OptionProblem{"against", against, "applies to the monitoring section: needs store_path"};
+  }
+  return std::nullopt;
 }
 
 ReportData gather_report(const ReportOptions& options, const Config& config) {

@@ -28,6 +28,7 @@
 #include "firmcall/estimate/history.hpp"
 #include "firmcall/io/history_io.hpp"
 #include "firmcall/io/obligor_io.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -67,11 +68,14 @@ void join_history(const ObligorRecord& rec, const HistorySources& src, const Sco
 struct HistoryBookOptions {
   AssetDynamicsOptions estimator;
   OutputFormat format = OutputFormat::csv;
-  unsigned threads = 1;  ///< worker threads (>= 1); output order is the book's order
+  unsigned threads = 1;  ///< worker threads; 0 is read as 1; output order is the book's order
   std::size_t max_listed_problems = 20;
-  std::size_t batch_obligors = 256;  ///< obligors estimated between two writes
+  std::size_t batch_obligors = 256;  ///< obligors estimated between two writes; 0 is read as 1
   /// Called on the calling thread after each batch with (obligors done, total); may be empty.
   std::function<void(std::size_t, std::size_t)> progress;
+  /// The estimator's method and equity volatility estimator, and the format, each one of their
+  /// enumerators (the writers and the estimators know no others).
+  OptionCheck validate() const;
 };
 
 /// Counts for the closing summary.

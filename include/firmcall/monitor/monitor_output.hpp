@@ -11,6 +11,7 @@
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/monitor/movers.hpp"
 #include "firmcall/monitor/run_store.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -18,15 +19,18 @@ namespace firmcall {
 void write_runs_report(const std::string& store_path, const std::vector<RunInfo>& runs, OutputFormat format,
                        std::string& out);
 
-/// What a movers report shows.
-struct MoversView {
+/// Which movers write_movers_report() shows.
+struct MoversOptions {
   bool watchlist = false;  ///< only obligors with an alert (the watchlist)
   std::size_t top = 0;     ///< at most this many rows; 0: all
+  /// Every value is meaningful (top 0 shows all rows): nothing to refuse. Here so that every
+  /// options struct can be checked alike.
+  OptionCheck validate() const;
 };
 
 /// `firmcall movers` and `firmcall watchlist`: the comparison of two runs, most severe first.
 void write_movers_report(const RunPair& runs, const Comparison& comparison, const GradeScale& scale,
-                         const AlertRules& rules, const MoversView& view, OutputFormat format,
+                         const AlertRules& rules, const MoversOptions& view, OutputFormat format,
                          std::string& out);
 
 /// `firmcall attribute`: Shapley attribution of each PD change to its drivers.

@@ -1,9 +1,9 @@
-// Recording a scored book as a monitoring run in the history store (run_store.hpp): the glue
-// between the scoring engine and the store, used by `firmcall score BOOK --record`.
+// Recording a scored book as a run in the history store (run_store.hpp): the glue between the
+// scoring engine and the store, used by `firmcall score BOOK --record`.
 //
 // **Example**:
-//   firmcall::RecordOptions opt{.store_path = "h.sqlite", .as_of = "", .tool_version = "0.1.0"};
-//   firmcall::RecordResult r = firmcall::record_book("week1.yaml", config, opt);
+//   firmcall::RecordBookOptions opt{.store_path = "h.sqlite", .as_of = "", .tool_version = "0.1.0"};
+//   firmcall::RecordedRun r = firmcall::record_book("week1.yaml", config.score, config, opt);
 #pragma once
 
 #include <cstdint>
@@ -13,16 +13,22 @@
 #include "firmcall/book/settings.hpp"
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/monitor/run_store.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
-struct RecordOptions {
+/// Where and how record_book() records.
+struct RecordBookOptions {
   std::string store_path;    ///< history store file (see resolve_store_path)
   std::string as_of;         ///< YYYY-MM-DD; empty: the book's as_of, else today's local date
   std::string tool_version;  ///< written with the run
+  /// store_path not empty; as_of empty or a calendar date (is_calendar_date). record_book() throws
+  /// InputError for an as_of this refuses.
+  OptionCheck validate() const;
 };
 
-struct RecordResult {
+/// The run record_book() wrote.
+struct RecordedRun {
   std::int64_t run_id = 0;
   std::string as_of;
   std::size_t obligors = 0;
@@ -32,11 +38,8 @@ struct RecordResult {
 /// Reads the book once (the digest is of exactly the bytes scored), scores every obligor with
 /// `settings` and writes the run in one transaction. InputError for an unreadable book, a bad
 /// as-of date or an unusable store; StoreBusy when another process holds the store too long.
-RecordResult record_book(const std::string& book_path, const ScoreSettings& settings, const Config& config,
-                         const RecordOptions& options);
-
-/// The store file: `db_option` (--db) when given, else monitoring.store, else default_store_path().
-std::string resolve_store_path(const std::string& db_option, const MonitorSettings& monitor);
+RecordedRun record_book(const std::string& book_path, const ScoreSettings& settings, const Config& config,
+                        const RecordBookOptions& options);
 
 /// One obligor as stored: its fields as given, resolved inputs, measures and grade on `grades`.
 StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& scored, const GradeScale& grades);
@@ -48,11 +51,5 @@ std::string fields_json(const ObligorRecord& rec);
 /// The effective settings of a run as a JSON object: scoring, solver, command-line overrides and
 /// the grade scale.
 std::string settings_json(const ScoreSettings& settings, const GradeScale& grades);
-
-/// Today's date in the local time zone, YYYY-MM-DD.
-std::string today_local();
-
-/// The time now, UTC, YYYY-MM-DDTHH:MM:SSZ.
-std::string utc_timestamp();
 
 }  // namespace firmcall

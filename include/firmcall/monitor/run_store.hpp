@@ -24,6 +24,7 @@
 #include <vector>
 
 #include "firmcall/book/errors.hpp"
+#include "firmcall/book/settings.hpp"
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/model/merton.hpp"
 
@@ -143,6 +144,9 @@ class RunWriter {
   std::int64_t count_ = 0;
   bool open_ = false;
 };
+
+/// The store file: `db_option` (--db) when given, else monitoring.store, else default_store_path().
+std::string resolve_store_path(const std::string& db_option, const MonitorSettings& monitor);
 
 /// Default store location: $XDG_DATA_HOME/firmcall/history.sqlite when XDG_DATA_HOME is an
 /// absolute path, else $HOME/.local/share/firmcall/history.sqlite (XDG Base Directory spec).

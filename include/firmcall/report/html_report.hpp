@@ -4,10 +4,10 @@
 //   summary     counts, exposure-weighted PD, expected loss, PD distribution by grade
 //   dd-leverage distance to default against leverage DP/V, distressed names labelled
 //   names       the weakest and the strongest names
-//   stress      PD by scenario and per-obligor PD change (--scenarios; stress.hpp)
-//   term        cumulative PD term structures of chosen names (--names; term_run.hpp)
-//   portfolio   exact one-factor loss distribution with EL, VaR and ES (--portfolio; portfolio.hpp)
-//   monitoring  movers and alerts between two recorded runs (--db; movers.hpp)
+//   stress      PD by scenario and per-obligor PD change (--scenarios; engine/stress_book.hpp)
+//   term        cumulative PD term structures of chosen names (--names; engine/term_book.hpp)
+//   portfolio   exact one-factor loss distribution: EL, VaR, ES (--portfolio; engine/portfolio_book.hpp)
+//   monitoring  movers and alerts between two recorded runs (--db; monitor/movers.hpp)
 // The figures come from the same library calls as the score, stress, portfolio and movers commands,
 // and the tables use the table output's rounding, so they can be checked against their CSV output.
 // The page is XHTML-compatible (every element closed, attributes quoted, text escaped) and prints
@@ -35,6 +35,7 @@
 #include "firmcall/io/scenario.hpp"
 #include "firmcall/monitor/movers.hpp"
 #include "firmcall/monitor/run_store.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -53,6 +54,10 @@ struct ReportOptions {
   unsigned threads = 1;                       ///< worker threads of the portfolio run
   std::string title;                          ///< page title; empty: from the book's label
   std::string tool_version;                   ///< shown in the page's footer
+  /// A book; no id twice in term_ids (gather_report refuses it); correlation_path only with
+  /// portfolio, store_run and against only with store_path (`firmcall report` refuses them
+  /// otherwise). threads 0 is read as 1; horizons are checked when the term section is gathered.
+  OptionCheck validate() const;
 };
 
 /// The stress section's figures.

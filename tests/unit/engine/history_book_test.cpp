@@ -326,3 +326,34 @@ TEST_CASE("history run: --score scores with the history's last equity value and 
   CHECK(via_history == direct);
   CHECK(parse_output(direct).at(0).at("status") == "ok");
 }
+
+TEST_CASE("HistoryBookOptions::validate: the defaults, and each enumerator checked") {
+  HistoryBookOptions run;
+  CHECK_FALSE(run.validate().has_value());
+  run.threads = 0;  // read as one thread, as run_history always did
+  run.batch_obligors = 0;
+  CHECK_FALSE(run.validate().has_value());
+
+  HistoryBookOptions bad_method;
+  bad_method.estimator.method = static_cast<HistoryMethod>(7);
+  auto problem = bad_method.validate();
+  REQUIRE(problem.has_value());
+  CHECK(problem->field == "estimator.method");
+  CHECK(problem->value == "7");
+  CHECK(problem->constraint == "must be iterative, mle or naive");
+
+  HistoryBookOptions bad_vol;
+  bad_vol.estimator.equity_vol = static_cast<VolEstimator>(2);
+  problem = bad_vol.validate();
+  REQUIRE(problem.has_value());
+  CHECK(problem->field == "estimator.equity_vol");
+  CHECK(problem->constraint == "must be simple or ewma");
+
+  HistoryBookOptions bad_format;
+  bad_format.format = static_cast<OutputFormat>(3);
+  problem = bad_format.validate();
+  REQUIRE(problem.has_value());
+  CHECK(problem->field == "format");
+  CHECK(problem->value == "3");
+  CHECK(problem->constraint == "must be table, csv or json");
+}

@@ -4,6 +4,7 @@
 
 #include <cmath>
 
+#include "firmcall/monitor/monitor_output.hpp"
 #include "firmcall/monitor/movers.hpp"
 #include "test_util.hpp"
 
@@ -168,4 +169,10 @@ TEST_CASE("runs to compare: the latest and the one before, or as named") {
   CHECK(named.before.run_id == 1);
   CHECK_THROWS_WITH_AS(select_runs(store, "2", "2026-11-13"),
                        "run 2 would be compared with itself; name another run", InputError);
+}
+
+TEST_CASE("MoversOptions::validate: the defaults and every top, 0 meaning all rows") {
+  CHECK_FALSE(firmcall::MoversOptions{}.validate().has_value());
+  CHECK_FALSE(firmcall::MoversOptions{.watchlist = true, .top = 0}.validate().has_value());
+  CHECK_FALSE(firmcall::MoversOptions{.watchlist = false, .top = 1000000}.validate().has_value());
 }

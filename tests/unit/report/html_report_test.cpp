@@ -395,3 +395,49 @@ TEST_CASE("svg writer: escaping, ticks, labels and number formats") {
   CHECK(svg.find(">ID&amp;1</text>") != std::string::npos);
   CHECK(svg.find("tip &lt;1&gt;") != std::string::npos);
 }
+
+TEST_CASE("ReportOptions::validate: a book is enough; each rule of the sections caught") {
+  firmcall::ReportOptions o;
+  auto problem = o.validate();  // no book
+  REQUIRE(problem.has_value());
+  CHECK(problem->field == "book_path");
+  CHECK(problem->constraint == "must name the book");
+
+  o.book_path = "samples/demo_book.yaml";
+  CHECK_FALSE(o.validate().has_value());
+  o.threads = 0;  // read as one thread
+  o.term_ids = {"GOR-33", "BEL-28"};
+  CHECK_FALSE(o.validate().has_value());
+
+  o.term_ids = {"GOR-33", "BEL-28", "GOR-33"};
+  problem = o.validate();
+  REQUIRE(problem.has_value());
+  CHECK(problem->field == "term_ids");
+  CHECK(problem->value == "GOR-33");
+  CHECK(problem->constraint == "must not name an obligor twice");
+  o.term_ids.pop_back();
+
+  o.correlation_path = "samples/sector_correlations.yaml";
+  problem = o.validate();
+  REQUIRE(problem.has_value());
+  CHECK(problem->field == "correlation_path");
+  CHECK(problem->constraint == "applies to the portfolio section: needs portfolio");
+  o.portfolio = true;
+  CHECK_FALSE(o.validate().has_value());
+
+  o.store_run = "3";
+  problem = o.validate();
+  REQUIRE(problem.has_value());
+  CHECK(problem->field == "store_run");
+  CHECK(problem->constraint == "applies to the monitoring section: needs store_path");
+  o.store_run.clear();
+  o.against = "2026-11-06";
+  problem = o.validate();
+  REQUIRE(problem.has_value());
+  CHECK(problem->field == "against");
+  CHECK(problem->value == "2026-11-06");
+  CHECK(problem->constraint == "applies to the monitoring section: needs store_path");
+  o.store_path = "weekly.sqlite";
+  o.store_run = "3";
+  CHECK_FALSE(o.validate().has_value());
+}
