@@ -6,10 +6,16 @@
 # Each case leaves NAME.out (standard output), NAME.err (standard error), NAME.rc (exit code) and
 # the files it wrote, in OUT_DIR. The HTML report is kept too. Needs only the build and the samples.
 set -uo pipefail
-exe=$(realpath "${1:?usage: sample_outputs.sh FIRMCALL OUT_DIR}")
+src_exe=$(realpath "${1:?usage: sample_outputs.sh FIRMCALL OUT_DIR}")
 out=${2:?usage: sample_outputs.sh FIRMCALL OUT_DIR}
-root=$(cd "$(dirname "$0")/.." && pwd)
+checkout=$(cd "$(dirname "$0")/.." && pwd)
 rm -rf "$out" && mkdir -p "$out" && out=$(realpath "$out")
+# The executable and the samples are copied to a folder whose path has the same length on every
+# machine and checkout (tables cut long paths at a fixed width), and that path is written as <root>.
+root=$(mktemp -d /tmp/fcsamples.XXXXXX)
+trap 'rm -rf "$root"' EXIT
+cp "$src_exe" "$root/firmcall" && cp -r "$checkout/samples" "$root/samples"
+exe=$root/firmcall
 cd "$root"
 s=samples
 run() { # NAME ARGS...: one case, run from the checkout, files written into $out
@@ -66,7 +72,7 @@ run help --help
 for c in score history stress runs movers watchlist attribute track portfolio report; do run "help_$c" "$c" --help; done
 # The store holds times and paths of this run; what the commands read from it is compared above.
 rm -f "$out/weekly.sqlite"
-# Paths of this checkout inside messages would differ between clones: write them as <root>.
+# Paths of the copy inside messages differ from run to run: write them as <root>.
 grep -rlF "$root" "$out" | xargs -r sed -i "s#$root#<root>#g"
 # Recording times are the clock's: write them as <time>.
 grep -lE '[0-9]{4}-[0-9]{2}-[0-9]{2}T[0-9]{2}:[0-9]{2}:[0-9]{2}Z' "$out"/runs*.out | xargs -r sed -i -E 's/[0-9]{4}-[0-9]{2}-[0-9]{2}T[0-9]{2}:[0-9]{2}:[0-9]{2}Z/<time>/g' 
