@@ -20,7 +20,6 @@
 #include <Eigen/Cholesky>
 #include <Eigen/Core>
 #include <algorithm>
-#include <boost/math/policies/policy.hpp>
 #include <boost/math/special_functions/erf.hpp>
 #include <boost/math/tools/minima.hpp>
 #include <cmath>
@@ -28,6 +27,7 @@
 #include <limits>
 #include <numbers>
 
+#include "firmcall/model/math_policy.hpp"
 #include "firmcall/model/normal.hpp"
 
 namespace firmcall {
@@ -591,12 +591,8 @@ NaiveDistance naive_distance_to_default(double e, double f, double se, double r_
 }
 
 double two_sided_normal_quantile(double level) noexcept {
-  using NoThrow = boost::math::policies::policy<
-      boost::math::policies::domain_error<boost::math::policies::ignore_error>,
-      boost::math::policies::overflow_error<boost::math::policies::ignore_error>,
-      boost::math::policies::evaluation_error<boost::math::policies::ignore_error>>;
   if (!(level > 0.0 && level < 1.0)) return kNaN;
-  return std::numbers::sqrt2 * boost::math::erf_inv(level, NoThrow());
+  return std::numbers::sqrt2 * boost::math::erf_inv(level, NoThrowPolicy());
 }
 
 }  // namespace firmcall

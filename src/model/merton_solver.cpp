@@ -16,13 +16,13 @@
 
 #include <algorithm>
 #include <bit>
-#include <boost/math/policies/policy.hpp>
 #include <boost/math/tools/roots.hpp>
 #include <boost/math/tools/toms748_solve.hpp>
 #include <cmath>
 #include <cstdint>
 #include <limits>
 
+#include "firmcall/model/math_policy.hpp"
 #include "firmcall/model/normal.hpp"
 #include "firmcall/util/vector_math.hpp"
 
@@ -101,10 +101,6 @@ inline double residual_of(const Problem& p, const Eval& ev) noexcept {
 inline double merit_of(const Eval& ev) noexcept {
   return ev.f1 * ev.f1 + ev.f2 * ev.f2;
 }
-
-using NoThrowPolicy = boost::math::policies::policy<
-    boost::math::policies::domain_error<boost::math::policies::ignore_error>,
-    boost::math::policies::evaluation_error<boost::math::policies::ignore_error>>;
 
 // Bracketed nested 1-D solve: for a given sV, V(sV) solves C(V, sV) = E on (E, E + K) (C is
 // increasing in V, C(E) < E < C(E + K)), searched as x = ln(V/K) on [x_lo, x_hi]; then

@@ -2,12 +2,12 @@
 #include "firmcall/model/reverse_stress.hpp"
 
 #include <algorithm>
-#include <boost/math/policies/policy.hpp>
 #include <boost/math/tools/toms748_solve.hpp>
 #include <cmath>
 #include <cstdint>
 #include <limits>
 
+#include "firmcall/model/math_policy.hpp"
 #include "firmcall/model/shock.hpp"
 
 namespace firmcall {
@@ -29,10 +29,6 @@ std::string_view to_string(ReverseStatus s) noexcept {
 }
 
 namespace {
-
-using NoThrowPolicy = boost::math::policies::policy<
-    boost::math::policies::domain_error<boost::math::policies::ignore_error>,
-    boost::math::policies::evaluation_error<boost::math::policies::ignore_error>>;
 
 enum class Kind { equity_fall, vol_multiplier };
 
