@@ -12,6 +12,7 @@
 
 #include "firmcall/model/normal.hpp"
 #include "firmcall/util/parallel.hpp"
+#include "portfolio/confidence_levels.hpp"
 
 namespace firmcall {
 
@@ -27,6 +28,22 @@ std::string_view to_string(LossStatus s) noexcept {
       return "invalid_input";
   }
   return "";
+}
+
+OptionCheck OneFactorOptions::validate() const {
+  if (!detail::confidence_levels_valid(confidence_levels)) {
+    return OptionProblem{"confidence_levels", detail::number_list_text(confidence_levels),
+                         "must be distinct, ascending and inside (0, 1)"};
+  }
+  if (grid_points < 16 || grid_points > (std::size_t{1} << 24)) {
+    return OptionProblem{"grid_points", std::to_string(grid_points), "must lie in [16, 2^24]"};
+  }
+  if (!(tolerance > 0.0)) return OptionProblem{"tolerance", option_value_text(tolerance), "must be positive"};
+  if (!(loss_unit >= 0.0) || !std::isfinite(loss_unit)) {
+    return OptionProblem{"loss_unit", option_value_text(loss_unit), "must be finite and non-negative"};
+  }
+  if (max_nodes < 64) return OptionProblem{"max_nodes", std::to_string(max_nodes), "must be at least 64"};
+  return std::nullopt;
 }
 
 namespace {
@@ -754,15 +771,11 @@ LossDistribution one_factor_loss_distribution(std::span<const FactorExposure> bo
       }
     }
     const auto& levels = opt.confidence_levels;
-    if (levels.empty() || !std::is_sorted(levels.begin(), levels.end()) ||
-        std::adjacent_find(levels.begin(), levels.end()) != levels.end() || !(levels.front() > 0.0) ||
-        !(levels.back() < 1.0)) {
-      out.message = "confidence levels must be distinct, ascending and inside (0, 1)";
-      return out;
-    }
-    if (opt.grid_points < 16 || opt.grid_points > (std::size_t{1} << 24) || !(opt.tolerance > 0.0) ||
-        !(opt.loss_unit >= 0.0) || !std::isfinite(opt.loss_unit) || opt.max_nodes < 64) {
-      out.message = "options: grid points in [16, 2^24], tolerance > 0, loss unit >= 0, max nodes >= 64";
+    if (const OptionCheck bad = opt.validate()) {
+      out.message =
+          bad->field == "confidence_levels"
+              ? "confidence levels must be distinct, ascending and inside (0, 1)"
+              : "options: grid points in [16, 2^24], tolerance > 0, loss unit >= 0, max nodes >= 64";
       return out;
     }
     const std::size_t n = book.size();

@@ -12,11 +12,41 @@
 
 #include "firmcall/model/normal.hpp"
 #include "firmcall/util/parallel.hpp"
+#include "portfolio/confidence_levels.hpp"
 
 namespace firmcall {
 
 std::string_view to_string(SimulationStatus s) noexcept {
   return s == SimulationStatus::ok ? "ok" : "invalid_input";
+}
+
+OptionCheck SimulationOptions::validate() const {
+  if (!detail::confidence_levels_valid(confidence_levels)) {
+    return OptionProblem{"confidence_levels", detail::number_list_text(confidence_levels),
+                         "must be distinct, ascending and inside (0, 1)"};
+  }
+  if (scenarios < 2 || scenarios > (std::uint64_t{1} << 40)) {
+    return OptionProblem{"scenarios", std::to_string(scenarios), "must lie in [2, 2^40]"};
+  }
+  if (!std::is_sorted(exceedance_points.begin(), exceedance_points.end())) {
+    return OptionProblem{"exceedance_points", detail::number_list_text(exceedance_points),
+                         "must be ascending"};
+  }
+  return std::nullopt;
+}
+
+// The message simulate_losses gives for an invalid option or factor model ("" when all are valid),
+// in the order it has always checked them.
+std::string problem_of(const SimulationOptions& opt, const FactorCholesky& factors) {
+  const OptionCheck bad = opt.validate();
+  if (bad && bad->field == "confidence_levels")
+    return "confidence levels must be distinct, ascending and inside (0, 1)";
+  if (bad && bad->field == "scenarios") return "the number of scenarios must lie in [2, 2^40]";
+  if (factors.factors == 0 || factors.lower.size() != factors.factors * factors.factors) {
+    return "the factor model has no valid Cholesky factor";
+  }
+  if (bad) return "exceedance points must be ascending";
+  return {};
 }
 
 namespace {
@@ -167,24 +197,8 @@ SimulationResult simulate_losses(std::span<const SectorExposure> book, const Fac
   SimulationResult r;
   try {
     const auto& levels = opt.confidence_levels;
-    if (levels.empty() || !std::is_sorted(levels.begin(), levels.end()) ||
-        std::adjacent_find(levels.begin(), levels.end()) != levels.end() || !(levels.front() > 0.0) ||
-        !(levels.back() < 1.0)) {
-      r.message = "confidence levels must be distinct, ascending and inside (0, 1)";
-      return r;
-    }
-    if (opt.scenarios < 2 || opt.scenarios > (std::uint64_t{1} << 40)) {
-      r.message = "the number of scenarios must lie in [2, 2^40]";
-      return r;
-    }
-    if (factors.factors == 0 || factors.lower.size() != factors.factors * factors.factors) {
-      r.message = "the factor model has no valid Cholesky factor";
-      return r;
-    }
-    if (!std::is_sorted(opt.exceedance_points.begin(), opt.exceedance_points.end())) {
-      r.message = "exceedance points must be ascending";
-      return r;
-    }
+    r.message = problem_of(opt, factors);
+    if (!r.message.empty()) return r;
     const std::size_t n_book = book.size();
     Model m;
     m.factors = &factors;

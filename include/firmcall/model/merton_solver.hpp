@@ -27,6 +27,7 @@
 #include <string_view>
 
 #include "firmcall/model/merton.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -36,10 +37,14 @@ struct MertonSolveOptions {
   /// A solution is accepted ("converged") when
   ///   max(|E_model - E| / (E + K), |N(d1) sV V / (sE E) - 1|) <= residual_tolerance.
   double residual_tolerance = 1e-12;
+  /// Both budgets positive (as the settings reader requires), residual_tolerance positive (NaN is
+  /// refused). solve_asset() and solve_asset_batch() return invalid_input when this fails.
+  OptionCheck validate() const;
 };
 
 /// converged: residual within tolerance. max_iterations: budget spent, last iterate not usable.
-/// invalid_input: validate() rejected the inputs; the solver did not run.
+/// invalid_input: validate() rejected the inputs (input_check says why) or the options failed
+/// MertonSolveOptions::validate() (input_check then stays ok); the solver did not run.
 enum class SolveStatus : std::uint8_t { converged, max_iterations, invalid_input };
 
 /// Which method produced the final iterate.
