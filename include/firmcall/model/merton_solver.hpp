@@ -13,7 +13,8 @@
 // when a step is below rounding. If Newton does not converge within its budget, a bracketed nested 1-D solve
 // (Boost.Math TOMS 748, Alefeld, Potra and Shi 1995) on the same box takes over; it cannot fail to bracket.
 //
-// Nothing here allocates or throws; the result carries a status and diagnostics.
+// Nothing here throws, and nothing allocates for valid options (only options that fail validate()
+// build its message); the result carries a status and diagnostics.
 //
 // **Example**:
 //   firmcall::MertonInputs in{.equity_value = 400, .equity_vol_annual = 0.45, .default_point = 700,
@@ -64,7 +65,7 @@ struct AssetSolution {
   bool usable() const noexcept { return status == SolveStatus::converged; }
 };
 
-/// Solves the Merton system for (V, sV). Never throws, never allocates.
+/// Solves the Merton system for (V, sV). Never throws; allocates nothing for valid options.
 AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& options = {}) noexcept;
 
 /// Solves n obligors: out[i] is exactly what solve_asset(in[i], options) returns, but up to
