@@ -20,7 +20,6 @@
 #include <Eigen/Cholesky>
 #include <Eigen/Core>
 #include <algorithm>
-#include <boost/math/policies/policy.hpp>
 #include <boost/math/special_functions/erf.hpp>
 #include <boost/math/tools/minima.hpp>
 #include <cmath>
@@ -28,6 +27,7 @@
 #include <limits>
 #include <numbers>
 
+#include "firmcall/model/math_policy.hpp"
 #include "firmcall/model/normal.hpp"
 
 namespace firmcall {
@@ -58,6 +58,18 @@ std::string_view to_string(VolEstimator v) noexcept {
 std::optional<VolEstimator> vol_estimator_from_string(std::string_view s) noexcept {
   if (s == "simple") return VolEstimator::simple;
   if (s == "ewma") return VolEstimator::ewma;
+  return std::nullopt;
+}
+
+OptionCheck AssetDynamicsOptions::validate() const {
+  if (to_string(method).empty()) {
+    return OptionProblem{"method", std::to_string(static_cast<int>(method)),
+                         "must be iterative, mle or naive"};
+  }
+  if (equity_vol != VolEstimator::simple && equity_vol != VolEstimator::ewma) {
+    return OptionProblem{"equity_vol", std::to_string(static_cast<int>(equity_vol)),
+                         "must be simple or ewma"};
+  }
   return std::nullopt;
 }
 
@@ -244,6 +256,21 @@ void set_last_day(const EquityHistoryView& hv, const HistoryWorkspace& ws, Asset
   a.pd = ws.pd[last];
 }
 
+void set_inversion_failed(AssetDynamics& a) noexcept {
+  a.status = EstimateStatus::inversion_failed;
+  a.message = "the equity value of one day could not be inverted for the asset value";
+}
+
+// invert_all at sV; when a day fails, marks `a` inversion_failed at that day and returns false.
+bool invert_or_fail(const EquityHistoryView& hv, double sv, HistoryWorkspace& ws, AssetDynamics& a) noexcept {
+  if (const std::size_t bad = invert_all(hv, sv, ws); bad != 0) {
+    set_inversion_failed(a);
+    a.bad_index = bad - 1;
+    return false;
+  }
+  return true;
+}
+
 void run_iterative(const EquityHistoryView& hv, const HistorySettings& settings, HistoryWorkspace& ws,
                    AssetDynamics& a) noexcept {
   const std::size_t last = hv.equity_value.size() - 1;
@@ -253,12 +280,7 @@ void run_iterative(const EquityHistoryView& hv, const HistorySettings& settings,
   a.message = "the iteration did not settle within history.max_iterations passes";
   for (int k = 1; k <= settings.max_iterations; ++k) {
     a.iterations = k;
-    if (const std::size_t bad = invert_all(hv, sv, ws); bad != 0) {
-      a.status = EstimateStatus::inversion_failed;
-      a.message = "the equity value of one day could not be inverted for the asset value";
-      a.bad_index = bad - 1;
-      return;
-    }
+    if (!invert_or_fail(hv, sv, ws, a)) return;
     const ReturnStats st = log_return_stats(ws.asset_value, ws.span_years, ws.returns);
     const double sv_new = std::sqrt(st.s2);
     if (!(sv_new > 0.0) || !std::isfinite(sv_new)) {
@@ -278,12 +300,7 @@ void run_iterative(const EquityHistoryView& hv, const HistorySettings& settings,
   }
   if (a.status != EstimateStatus::converged) return;
   // Final pass at the converged sV so that V_t, mu and DD are consistent with it.
-  if (const std::size_t bad = invert_all(hv, sv, ws); bad != 0) {
-    a.status = EstimateStatus::inversion_failed;
-    a.message = "the equity value of one day could not be inverted for the asset value";
-    a.bad_index = bad - 1;
-    return;
-  }
+  if (!invert_or_fail(hv, sv, ws, a)) return;
   const ReturnStats st = log_return_stats(ws.asset_value, ws.span_years, ws.returns);
   a.asset_vol_annual = sv;
   a.drift_annual = st.m + 0.5 * sv * sv;
@@ -332,8 +349,10 @@ LikelihoodParts likelihood_parts(const EquityHistoryView& hv, double sv, History
   return p;
 }
 
-void run_mle(const EquityHistoryView& hv, const HistorySettings& settings, HistoryWorkspace& ws,
-             AssetDynamics& a) noexcept {
+// The maximum of the profile log-likelihood over u = ln sV (Brent) into sv_out; false, with `a`
+// saying why, when a day could not be inverted or the maximum lies on the edge of the interval.
+bool profile_maximum(const EquityHistoryView& hv, HistoryWorkspace& ws, AssetDynamics& a,
+                     double& sv_out) noexcept {
   const std::size_t n = hv.equity_value.size();
   // Search interval: the call's elasticity N(d1) V / E is at least 1 and at most (E + K)/E, so
   // sV lies near [sE min E/(E+K), sE]; widened by 10 below and 2 above.
@@ -361,17 +380,56 @@ void run_mle(const EquityHistoryView& hv, const HistorySettings& settings, Histo
                                                           std::numeric_limits<double>::digits / 2, max_iter);
   a.iterations = evals;
   if (failed) {
-    a.status = EstimateStatus::inversion_failed;
-    a.message = "the equity value of one day could not be inverted for the asset value";
-    return;
+    set_inversion_failed(a);
+    return false;
   }
   const double u_hat = best.first;
   if (u_hat - u_lo < 1e-6 || u_hi - u_hat < 1e-6) {
     a.status = EstimateStatus::boundary;
     a.message = "the likelihood maximum lies on the edge of the asset volatility search interval";
-    return;
+    return false;
   }
-  const double sv = std::exp(u_hat);
+  sv_out = std::exp(u_hat);
+  return true;
+}
+
+// Standard errors and Wald intervals at settings.confidence_level of sV, mu, DD and PD, from the
+// covariance of (sV, mu); after fill_series and set_last_day at (sv, mu).
+void set_mle_intervals(const EquityHistoryView& hv, const HistorySettings& settings,
+                       const HistoryWorkspace& ws, double sv, double mu, const Eigen::Matrix2d& cov,
+                       AssetDynamics& a) noexcept {
+  const double z = two_sided_normal_quantile(settings.confidence_level);
+  a.asset_vol_se = std::sqrt(cov(0, 0));
+  a.drift_se = std::sqrt(cov(1, 1));
+  a.asset_vol_lo = sv - z * a.asset_vol_se;
+  a.asset_vol_hi = sv + z * a.asset_vol_se;
+  a.drift_lo = mu - z * a.drift_se;
+  a.drift_hi = mu + z * a.drift_se;
+
+  // Delta method for DD = [ln(V_n/DP_n) + (mu - sV^2/2) T] / (sV sqrt T), where V_n depends on sV
+  // through C(V_n; sV) = E_n: d ln V_n / d sV = -vega / (N(d1) V) = -phi(d1) sqrt(T) / N(d1).
+  const std::size_t last = hv.equity_value.size() - 1;
+  const double t = hv.horizon_years;
+  const double sqrt_t = std::sqrt(t);
+  const double v_n = ws.asset_value[last];
+  const double d1 = std::log(v_n / ws.strike[last]) / (sv * sqrt_t) + 0.5 * sv * sqrt_t;
+  const double dlnv = -norm_pdf(d1) * sqrt_t / norm_cdf(d1);
+  const double dd = a.distance_to_default;
+  Eigen::Vector2d grad;
+  grad(0) = (dlnv - sv * t) / (sv * sqrt_t) - dd / sv;
+  grad(1) = sqrt_t / sv;
+  const double var_dd = grad.dot(cov * grad);
+  a.dd_se = var_dd >= 0.0 ? std::sqrt(var_dd) : kNaN;
+  a.dd_lo = dd - z * a.dd_se;
+  a.dd_hi = dd + z * a.dd_se;
+  a.pd_lo = norm_sf(a.dd_hi);
+  a.pd_hi = norm_sf(a.dd_lo);
+}
+
+void run_mle(const EquityHistoryView& hv, const HistorySettings& settings, HistoryWorkspace& ws,
+             AssetDynamics& a) noexcept {
+  double sv = 0.0;
+  if (!profile_maximum(hv, ws, a, sv)) return;
 
   // Hessian of L(sV, mu) at the optimum; mu enters only through c = mu - sV^2/2.
   const double delta = 2e-4 * sv;
@@ -379,8 +437,7 @@ void run_mle(const EquityHistoryView& hv, const HistorySettings& settings, Histo
   const LikelihoodParts dn = likelihood_parts(hv, sv - delta, ws);
   const LikelihoodParts at = likelihood_parts(hv, sv, ws);  // last: leaves V_t(sV hat) in ws
   if (!up.ok || !dn.ok || !at.ok) {
-    a.status = EstimateStatus::inversion_failed;
-    a.message = "the equity value of one day could not be inverted for the asset value";
+    set_inversion_failed(a);
     return;
   }
   const double c_hat = at.c_hat();
@@ -406,33 +463,7 @@ void run_mle(const EquityHistoryView& hv, const HistorySettings& settings, Histo
   const Eigen::Matrix2d cov = llt.solve(Eigen::Matrix2d::Identity());
   fill_series(hv, sv, mu, ws);
   set_last_day(hv, ws, a);
-
-  const double z = two_sided_normal_quantile(settings.confidence_level);
-  a.asset_vol_se = std::sqrt(cov(0, 0));
-  a.drift_se = std::sqrt(cov(1, 1));
-  a.asset_vol_lo = sv - z * a.asset_vol_se;
-  a.asset_vol_hi = sv + z * a.asset_vol_se;
-  a.drift_lo = mu - z * a.drift_se;
-  a.drift_hi = mu + z * a.drift_se;
-
-  // Delta method for DD = [ln(V_n/DP_n) + (mu - sV^2/2) T] / (sV sqrt T), where V_n depends on sV
-  // through C(V_n; sV) = E_n: d ln V_n / d sV = -vega / (N(d1) V) = -phi(d1) sqrt(T) / N(d1).
-  const std::size_t last = n - 1;
-  const double t = hv.horizon_years;
-  const double sqrt_t = std::sqrt(t);
-  const double v_n = ws.asset_value[last];
-  const double d1 = std::log(v_n / ws.strike[last]) / (sv * sqrt_t) + 0.5 * sv * sqrt_t;
-  const double dlnv = -norm_pdf(d1) * sqrt_t / norm_cdf(d1);
-  const double dd = a.distance_to_default;
-  Eigen::Vector2d grad;
-  grad(0) = (dlnv - sv * t) / (sv * sqrt_t) - dd / sv;
-  grad(1) = sqrt_t / sv;
-  const double var_dd = grad.dot(cov * grad);
-  a.dd_se = var_dd >= 0.0 ? std::sqrt(var_dd) : kNaN;
-  a.dd_lo = dd - z * a.dd_se;
-  a.dd_hi = dd + z * a.dd_se;
-  a.pd_lo = norm_sf(a.dd_hi);
-  a.pd_hi = norm_sf(a.dd_lo);
+  set_mle_intervals(hv, settings, ws, sv, mu, cov, a);
   a.status = EstimateStatus::converged;
   a.message = "";
 }
@@ -591,12 +622,8 @@ NaiveDistance naive_distance_to_default(double e, double f, double se, double r_
 }
 
 double two_sided_normal_quantile(double level) noexcept {
-  using NoThrow = boost::math::policies::policy<
-      boost::math::policies::domain_error<boost::math::policies::ignore_error>,
-      boost::math::policies::overflow_error<boost::math::policies::ignore_error>,
-      boost::math::policies::evaluation_error<boost::math::policies::ignore_error>>;
   if (!(level > 0.0 && level < 1.0)) return kNaN;
-  return std::numbers::sqrt2 * boost::math::erf_inv(level, NoThrow());
+  return std::numbers::sqrt2 * boost::math::erf_inv(level, NoThrowPolicy());
 }
 
 }  // namespace firmcall

@@ -8,13 +8,13 @@
 #include "firmcall/model/first_passage.hpp"
 
 #include <algorithm>
-#include <boost/math/policies/policy.hpp>
 #include <boost/math/tools/roots.hpp>
 #include <boost/math/tools/toms748_solve.hpp>
 #include <cmath>
 #include <cstdint>
 #include <limits>
 
+#include "firmcall/model/math_policy.hpp"
 #include "firmcall/model/normal.hpp"
 
 namespace firmcall {
@@ -174,10 +174,6 @@ double merit_of(const Eval& ev) noexcept {
   const double m = ev.f1 * ev.f1 + ev.f2 * ev.f2;
   return std::isfinite(m) ? m : std::numeric_limits<double>::infinity();
 }
-
-using NoThrowPolicy = boost::math::policies::policy<
-    boost::math::policies::domain_error<boost::math::policies::ignore_error>,
-    boost::math::policies::evaluation_error<boost::math::policies::ignore_error>>;
 
 constexpr double kMaxStep = 1.0;      // cap on a Newton step in log units
 constexpr double kDiffStep = 1e-5;    // central-difference step in log units

@@ -16,13 +16,14 @@
 
 #include <algorithm>
 #include <bit>
-#include <boost/math/policies/policy.hpp>
 #include <boost/math/tools/roots.hpp>
 #include <boost/math/tools/toms748_solve.hpp>
 #include <cmath>
 #include <cstdint>
 #include <limits>
+#include <string>
 
+#include "firmcall/model/math_policy.hpp"
 #include "firmcall/model/normal.hpp"
 #include "firmcall/util/vector_math.hpp"
 
@@ -38,6 +39,20 @@ std::string_view to_string(SolveStatus status) noexcept {
       return "invalid_input";
   }
   return "";
+}
+
+OptionCheck MertonSolveOptions::validate() const {
+  if (max_newton_iterations <= 0) {
+    return OptionProblem{"max_newton_iterations", std::to_string(max_newton_iterations), "must be positive"};
+  }
+  if (max_fallback_iterations <= 0) {
+    return OptionProblem{"max_fallback_iterations", std::to_string(max_fallback_iterations),
+                         "must be positive"};
+  }
+  if (!(residual_tolerance > 0.0)) {
+    return OptionProblem{"residual_tolerance", option_value_text(residual_tolerance), "must be positive"};
+  }
+  return std::nullopt;
 }
 
 std::string_view to_string(SolveMethod method) noexcept {
@@ -101,10 +116,6 @@ inline double residual_of(const Problem& p, const Eval& ev) noexcept {
 inline double merit_of(const Eval& ev) noexcept {
   return ev.f1 * ev.f1 + ev.f2 * ev.f2;
 }
-
-using NoThrowPolicy = boost::math::policies::policy<
-    boost::math::policies::domain_error<boost::math::policies::ignore_error>,
-    boost::math::policies::evaluation_error<boost::math::policies::ignore_error>>;
 
 // Bracketed nested 1-D solve: for a given sV, V(sV) solves C(V, sV) = E on (E, E + K) (C is
 // increasing in V, C(E) < E < C(E + K)), searched as x = ln(V/K) on [x_lo, x_hi]; then
@@ -638,6 +649,11 @@ AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& opti
 
 void solve_asset_batch(const MertonInputs* in, AssetSolution* out, std::size_t n,
                        const MertonSolveOptions& options) noexcept {
+  // Options are checked once per batch (a few comparisons): with invalid ones nothing is solved.
+  if (!options_valid(options)) {
+    for (std::size_t i = 0; i < n; ++i) out[i] = AssetSolution{};
+    return;
+  }
   // Obligors are validated and prepared eight at a time, then handed to free lanes in order.
   PreparedBlock prepared;
   std::size_t prepared_first = 0, prepared_count = 0, prepared_next = 0;

@@ -1,18 +1,15 @@
 // Inverse standard normal distribution. See include/firmcall/normal.hpp.
 #include "firmcall/model/normal.hpp"
 
-#include <boost/math/policies/policy.hpp>
 #include <boost/math/special_functions/erf.hpp>
 #include <limits>
 #include <numbers>
 
+#include "firmcall/model/math_policy.hpp"
+
 namespace firmcall {
 
 namespace {
-using NoThrowPolicy = boost::math::policies::policy<
-    boost::math::policies::domain_error<boost::math::policies::ignore_error>,
-    boost::math::policies::overflow_error<boost::math::policies::ignore_error>,
-    boost::math::policies::evaluation_error<boost::math::policies::ignore_error>>;
 constexpr double kInf = std::numeric_limits<double>::infinity();
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 }  // namespace

@@ -2,15 +2,35 @@
 #include "firmcall/model/reverse_stress.hpp"
 
 #include <algorithm>
-#include <boost/math/policies/policy.hpp>
 #include <boost/math/tools/toms748_solve.hpp>
 #include <cmath>
 #include <cstdint>
 #include <limits>
+#include <string>
 
+#include "firmcall/model/math_policy.hpp"
 #include "firmcall/model/shock.hpp"
 
 namespace firmcall {
+
+OptionCheck ReverseStressOptions::validate() const {
+  if (scan_points < 2) return OptionProblem{"scan_points", std::to_string(scan_points), "must be at least 2"};
+  if (max_refine_iterations <= 0) {
+    return OptionProblem{"max_refine_iterations", std::to_string(max_refine_iterations), "must be positive"};
+  }
+  if (!(max_equity_fall > 0.0 && max_equity_fall < 1.0)) {
+    return OptionProblem{"max_equity_fall", option_value_text(max_equity_fall), "must lie in (0, 1)"};
+  }
+  if (!(max_vol_multiplier > 1.0 && std::isfinite(max_vol_multiplier))) {
+    return OptionProblem{"max_vol_multiplier", option_value_text(max_vol_multiplier),
+                         "must be finite and greater than 1"};
+  }
+  if (OptionCheck solver_problem = solver.validate()) {
+    solver_problem->field = "solver." + solver_problem->field;
+    return solver_problem;
+  }
+  return std::nullopt;
+}
 
 std::string_view to_string(ReverseStatus s) noexcept {
   switch (s) {
@@ -29,10 +49,6 @@ std::string_view to_string(ReverseStatus s) noexcept {
 }
 
 namespace {
-
-using NoThrowPolicy = boost::math::policies::policy<
-    boost::math::policies::domain_error<boost::math::policies::ignore_error>,
-    boost::math::policies::evaluation_error<boost::math::policies::ignore_error>>;
 
 enum class Kind { equity_fall, vol_multiplier };
 
@@ -66,9 +82,7 @@ ReverseResult search(const MertonInputs& base, double target, Kind kind,
   const bool equity = kind == Kind::equity_fall;
   const double lo = equity ? 0.0 : 1.0;
   const double hi = equity ? options.max_equity_fall : options.max_vol_multiplier;
-  const bool options_ok = options.scan_points >= 2 && options.max_refine_iterations > 0 &&
-                          (equity ? (hi > 0.0 && hi < 1.0) : (hi > 1.0 && std::isfinite(hi)));
-  if (!(target > 0.0 && target < 1.0) || !validate(base).ok() || !options_ok) return r;
+  if (!(target > 0.0 && target < 1.0) || !validate(base).ok() || !options_valid(options)) return r;
 
   double pd = 0.0;
   if (!pd_after(base, kind, lo, options, pd, r.solves)) {

@@ -3,6 +3,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <string>
 
 #include "firmcall/model/normal.hpp"
 
@@ -11,6 +12,20 @@ namespace firmcall {
 namespace {
 constexpr double kIrbConfidence = 0.999;  // para 272: G(0.999)
 }  // namespace
+
+OptionCheck IrbOptions::validate() const {
+  if (!(pd_floor >= 0.0 && pd_floor < 1.0)) {
+    return OptionProblem{"pd_floor", option_value_text(pd_floor), "must lie in [0, 1)"};
+  }
+  if (!(min_maturity_years > 0.0)) {
+    return OptionProblem{"min_maturity_years", option_value_text(min_maturity_years), "must be positive"};
+  }
+  if (!(min_maturity_years <= max_maturity_years)) {
+    return OptionProblem{"max_maturity_years", option_value_text(max_maturity_years),
+                         "must be at least min_maturity_years"};
+  }
+  return std::nullopt;
+}
 
 std::string_view to_string(IrbStatus s) noexcept {
   return s == IrbStatus::ok ? "ok" : "invalid_input";
@@ -45,8 +60,7 @@ IrbResult irb_corporate(const IrbInputs& in, const IrbOptions& options) noexcept
     r.message = "field 'maturity': must be positive years";
     return r;
   }
-  if (!(options.pd_floor >= 0.0 && options.pd_floor < 1.0) ||
-      !(options.min_maturity_years > 0.0 && options.min_maturity_years <= options.max_maturity_years)) {
+  if (!options_valid(options)) {
     r.message = "IRB options: PD floor must lie in [0, 1) and 0 < minimum maturity <= maximum";
     return r;
   }

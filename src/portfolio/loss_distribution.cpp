@@ -12,6 +12,7 @@
 
 #include "firmcall/model/normal.hpp"
 #include "firmcall/util/parallel.hpp"
+#include "portfolio/confidence_levels.hpp"
 
 namespace firmcall {
 
@@ -27,6 +28,22 @@ std::string_view to_string(LossStatus s) noexcept {
       return "invalid_input";
   }
   return "";
+}
+
+OptionCheck OneFactorOptions::validate() const {
+  if (!detail::confidence_levels_valid(confidence_levels)) {
+    return OptionProblem{"confidence_levels", detail::number_list_text(confidence_levels),
+                         "must be distinct, ascending and inside (0, 1)"};
+  }
+  if (grid_points < 16 || grid_points > (std::size_t{1} << 24)) {
+    return OptionProblem{"grid_points", std::to_string(grid_points), "must lie in [16, 2^24]"};
+  }
+  if (!(tolerance > 0.0)) return OptionProblem{"tolerance", option_value_text(tolerance), "must be positive"};
+  if (!(loss_unit >= 0.0) || !std::isfinite(loss_unit)) {
+    return OptionProblem{"loss_unit", option_value_text(loss_unit), "must be finite and non-negative"};
+  }
+  if (max_nodes < 64) return OptionProblem{"max_nodes", std::to_string(max_nodes), "must be at least 64"};
+  return std::nullopt;
 }
 
 namespace {
@@ -283,12 +300,9 @@ void aggregate_weights(Quadrature& q) {
   q.node_weight[q.panels.back().n[4]] += outside;
 }
 
-// Runs the adaptive quadrature (q.converged tells whether the tolerance was met).
-void integrate(const Model& m, const OneFactorOptions& opt, double tail_floor, Quadrature& q,
-               std::vector<Workspace>& ws, unsigned threads) {
-  const std::size_t K = static_cast<std::size_t>(m.K);
-  q = Quadrature{};
-  // First panels, split until every product-Simpson weight is non-negative.
+// The first panels on [-kZMax, kZMax], each of width kInitialPanel split until every
+// product-Simpson weight is non-negative, with their nodes (not yet evaluated).
+void initial_panels(Quadrature& q) {
   std::vector<std::pair<double, double>> spans;
   for (double a = -kZMax; a < kZMax - 1e-12; a += kInitialPanel)
     spans.emplace_back(a, std::min(a + kInitialPanel, kZMax));
@@ -323,116 +337,148 @@ void integrate(const Model& m, const OneFactorOptions& opt, double tail_floor, Q
       q.panels.push_back(p);
     }
   }
-  evaluate_pending(m, q, 0, ws, threads);
+}
 
-  std::vector<double> total(K), exceed(K), diff(K), tail_diff(K), global(K);
+// The current estimate of the distribution (bisected rule of every panel) as exceedance
+// probabilities: exceed[k] = P(L > k).
+void current_exceedance(const Quadrature& q, std::vector<double>& total,
+                        std::vector<double>& exceed) noexcept {
+  std::fill(total.begin(), total.end(), 0.0);
+  for (const Panel& p : q.panels) {
+    add_node(total, q.nodes[p.n[0]], p.left[0]);
+    add_node(total, q.nodes[p.n[1]], p.left[1]);
+    add_node(total, q.nodes[p.n[2]], p.left[2] + p.right[0]);
+    add_node(total, q.nodes[p.n[3]], p.right[1]);
+    add_node(total, q.nodes[p.n[4]], p.right[2]);
+  }
+  double run = 0.0;
+  for (std::size_t k = total.size(); k-- > 0;) {
+    exceed[k] = run;  // P(L > k)
+    run += total[k];
+  }
+}
+
+// Error of each panel (p.error): bisected rule minus whole rule, as exceedance probabilities,
+// relative to exceed + tail_floor; `global` gets the absolute errors summed over panels. Returns
+// the sum of the panels' errors.
+double panel_errors(Quadrature& q, const std::vector<double>& exceed, double tail_floor,
+                    std::vector<double>& diff, std::vector<double>& global) noexcept {
+  std::fill(global.begin(), global.end(), 0.0);
+  double sum_errors = 0.0;
+  for (Panel& p : q.panels) {
+    Index lo = std::numeric_limits<Index>::max();
+    Index hi = -1;
+    for (std::size_t j : p.n) {
+      lo = std::min(lo, q.nodes[j].w.lo);
+      hi = std::max(hi, q.nodes[j].w.hi);
+    }
+    for (Index k = lo; k <= hi; ++k) diff[static_cast<std::size_t>(k)] = 0.0;
+    add_node(diff, q.nodes[p.n[0]], p.left[0] - p.whole[0]);
+    add_node(diff, q.nodes[p.n[1]], p.left[1]);
+    add_node(diff, q.nodes[p.n[2]], p.left[2] + p.right[0] - p.whole[1]);
+    add_node(diff, q.nodes[p.n[3]], p.right[1]);
+    add_node(diff, q.nodes[p.n[4]], p.right[2] - p.whole[2]);
+    double acc = 0.0;
+    double worst = 0.0;
+    for (Index k = hi; k >= lo; --k) {
+      const std::size_t uk = static_cast<std::size_t>(k);
+      const double e = std::fabs(acc);  // |sum over j > k of diff| = error of P(L > k)
+      global[uk] += e;
+      worst = std::max(worst, e / (exceed[uk] + tail_floor));
+      acc += diff[uk];
+    }
+    // Below the window the error of P(L > k) is the total difference (mass), ~0.
+    if (lo > 0) {
+      const double e = std::fabs(acc);
+      for (Index k = 0; k < lo; ++k) global[static_cast<std::size_t>(k)] += e;
+      worst = std::max(worst, e / (exceed[static_cast<std::size_t>(lo - 1)] + tail_floor));
+    }
+    p.error = worst;
+    sum_errors += worst;
+  }
+  return sum_errors;
+}
+
+// The worst panels carrying half of the summed error, within the node budget, in panel order.
+std::vector<std::size_t> panels_to_bisect(const Quadrature& q, const OneFactorOptions& opt,
+                                          double sum_errors) {
+  std::vector<std::size_t> order(q.panels.size());
+  std::iota(order.begin(), order.end(), 0);
+  std::sort(order.begin(), order.end(),
+            [&](std::size_t x, std::size_t y) { return q.panels[x].error > q.panels[y].error; });
+  std::vector<std::size_t> chosen;
+  double covered = 0.0;
+  for (std::size_t idx : order) {
+    const Panel& p = q.panels[idx];
+    if (p.b - p.a < kMinPanel) continue;
+    if (q.nodes.size() + 4 * (chosen.size() + 1) > opt.max_nodes) break;
+    if (covered >= 0.5 * sum_errors && !chosen.empty()) break;
+    chosen.push_back(idx);
+    covered += p.error;
+  }
+  std::sort(chosen.begin(), chosen.end());
+  return chosen;
+}
+
+// Splits each chosen panel (ascending indices) into halves, with four new nodes each.
+void bisect_panels(Quadrature& q, const std::vector<std::size_t>& chosen) {
+  std::vector<Panel> next;
+  next.reserve(q.panels.size() + chosen.size());
+  std::size_t ci = 0;
+  for (std::size_t idx = 0; idx < q.panels.size(); ++idx) {
+    const Panel& p = q.panels[idx];
+    if (ci < chosen.size() && chosen[ci] == idx) {
+      ++ci;
+      const double mid = 0.5 * (p.a + p.b);
+      const double h = 0.5 * (p.b - p.a);
+      Panel l;
+      l.a = p.a;
+      l.b = mid;
+      l.n[0] = p.n[0];
+      l.n[1] = new_node(q, p.a + 0.25 * h);
+      l.n[2] = p.n[1];
+      l.n[3] = new_node(q, p.a + 0.75 * h);
+      l.n[4] = p.n[2];
+      l.set_weights();
+      Panel r;
+      r.a = mid;
+      r.b = p.b;
+      r.n[0] = p.n[2];
+      r.n[1] = new_node(q, mid + 0.25 * h);
+      r.n[2] = p.n[3];
+      r.n[3] = new_node(q, mid + 0.75 * h);
+      r.n[4] = p.n[4];
+      r.set_weights();
+      next.push_back(l);
+      next.push_back(r);
+    } else {
+      next.push_back(p);
+    }
+  }
+  q.panels = std::move(next);
+}
+
+// Runs the adaptive quadrature (q.converged tells whether the tolerance was met).
+void integrate(const Model& m, const OneFactorOptions& opt, double tail_floor, Quadrature& q,
+               std::vector<Workspace>& ws, unsigned threads) {
+  const std::size_t K = static_cast<std::size_t>(m.K);
+  q = Quadrature{};
+  initial_panels(q);
+  evaluate_pending(m, q, 0, ws, threads);
+  std::vector<double> total(K), exceed(K), diff(K), global(K);
   for (;;) {
-    // Current estimate and its exceedance probabilities.
-    std::fill(total.begin(), total.end(), 0.0);
-    for (const Panel& p : q.panels) {
-      add_node(total, q.nodes[p.n[0]], p.left[0]);
-      add_node(total, q.nodes[p.n[1]], p.left[1]);
-      add_node(total, q.nodes[p.n[2]], p.left[2] + p.right[0]);
-      add_node(total, q.nodes[p.n[3]], p.right[1]);
-      add_node(total, q.nodes[p.n[4]], p.right[2]);
-    }
-    double run = 0.0;
-    for (std::size_t k = K; k-- > 0;) {
-      exceed[k] = run;  // P(L > k)
-      run += total[k];
-    }
-    // Error of each panel: bisected rule minus whole rule, as exceedance probabilities.
-    std::fill(global.begin(), global.end(), 0.0);
-    double sum_errors = 0.0;
-    for (Panel& p : q.panels) {
-      Index lo = std::numeric_limits<Index>::max();
-      Index hi = -1;
-      for (std::size_t j : p.n) {
-        lo = std::min(lo, q.nodes[j].w.lo);
-        hi = std::max(hi, q.nodes[j].w.hi);
-      }
-      for (Index k = lo; k <= hi; ++k) diff[static_cast<std::size_t>(k)] = 0.0;
-      add_node(diff, q.nodes[p.n[0]], p.left[0] - p.whole[0]);
-      add_node(diff, q.nodes[p.n[1]], p.left[1]);
-      add_node(diff, q.nodes[p.n[2]], p.left[2] + p.right[0] - p.whole[1]);
-      add_node(diff, q.nodes[p.n[3]], p.right[1]);
-      add_node(diff, q.nodes[p.n[4]], p.right[2] - p.whole[2]);
-      double acc = 0.0;
-      double worst = 0.0;
-      for (Index k = hi; k >= lo; --k) {
-        const std::size_t uk = static_cast<std::size_t>(k);
-        const double e = std::fabs(acc);  // |sum over j > k of diff| = error of P(L > k)
-        global[uk] += e;
-        worst = std::max(worst, e / (exceed[uk] + tail_floor));
-        acc += diff[uk];
-      }
-      // Below the window the error of P(L > k) is the total difference (mass), ~0.
-      if (lo > 0) {
-        const double e = std::fabs(acc);
-        for (Index k = 0; k < lo; ++k) global[static_cast<std::size_t>(k)] += e;
-        worst = std::max(worst, e / (exceed[static_cast<std::size_t>(lo - 1)] + tail_floor));
-      }
-      p.error = worst;
-      sum_errors += worst;
-    }
+    current_exceedance(q, total, exceed);
+    const double sum_errors = panel_errors(q, exceed, tail_floor, diff, global);
     q.error = 0.0;
     for (std::size_t k = 0; k < K; ++k) q.error = std::max(q.error, global[k] / (exceed[k] + tail_floor));
     if (q.error <= opt.tolerance) {
       q.converged = true;
       break;
     }
-    // Bisect the worst panels carrying half of the summed error, within the node budget.
-    std::vector<std::size_t> order(q.panels.size());
-    std::iota(order.begin(), order.end(), 0);
-    std::sort(order.begin(), order.end(),
-              [&](std::size_t x, std::size_t y) { return q.panels[x].error > q.panels[y].error; });
-    std::vector<std::size_t> chosen;
-    double covered = 0.0;
-    for (std::size_t idx : order) {
-      const Panel& p = q.panels[idx];
-      if (p.b - p.a < kMinPanel) continue;
-      if (q.nodes.size() + 4 * (chosen.size() + 1) > opt.max_nodes) break;
-      if (covered >= 0.5 * sum_errors && !chosen.empty()) break;
-      chosen.push_back(idx);
-      covered += p.error;
-    }
+    const std::vector<std::size_t> chosen = panels_to_bisect(q, opt, sum_errors);
     if (chosen.empty()) break;
-    std::sort(chosen.begin(), chosen.end());
     const std::size_t first_new = q.nodes.size();
-    std::vector<Panel> next;
-    next.reserve(q.panels.size() + chosen.size());
-    std::size_t ci = 0;
-    for (std::size_t idx = 0; idx < q.panels.size(); ++idx) {
-      const Panel& p = q.panels[idx];
-      if (ci < chosen.size() && chosen[ci] == idx) {
-        ++ci;
-        const double mid = 0.5 * (p.a + p.b);
-        const double h = 0.5 * (p.b - p.a);
-        Panel l;
-        l.a = p.a;
-        l.b = mid;
-        l.n[0] = p.n[0];
-        l.n[1] = new_node(q, p.a + 0.25 * h);
-        l.n[2] = p.n[1];
-        l.n[3] = new_node(q, p.a + 0.75 * h);
-        l.n[4] = p.n[2];
-        l.set_weights();
-        Panel r;
-        r.a = mid;
-        r.b = p.b;
-        r.n[0] = p.n[2];
-        r.n[1] = new_node(q, mid + 0.25 * h);
-        r.n[2] = p.n[3];
-        r.n[3] = new_node(q, mid + 0.75 * h);
-        r.n[4] = p.n[4];
-        r.set_weights();
-        next.push_back(l);
-        next.push_back(r);
-      } else {
-        next.push_back(p);
-      }
-    }
-    q.panels = std::move(next);
+    bisect_panels(q, chosen);
     evaluate_pending(m, q, first_new, ws, threads);
   }
   aggregate_weights(q);
@@ -466,6 +512,110 @@ struct ContributionWork {
 // deconvolution, which is stable only while p < 1/2.
 constexpr double kDeconvolveBelow = 0.4;
 
+// E[X_i 1{L > v} | z] and E[X_i 1{L = v} | z] at every VaR index v, into cw.a and cw.b at `index`,
+// for an obligor of PD p at the node whose loss is a grid units with probability 1 - f and a + 1
+// with f, from G(y) = P(L_-i >= y) and R(y) = P(L_-i = y) of the loss without it.
+template <class Tail, class Point>
+void set_obligor_terms(const std::vector<Index>& var_index, std::size_t n_all, std::size_t index, double p,
+                       Index a, double f, const Tail& G, const Point& R, ContributionWork& cw) noexcept {
+  const double la = static_cast<double>(a);
+  for (std::size_t l = 0; l < var_index.size(); ++l) {
+    const Index v = var_index[l];
+    const double g1 = G(v + 1 - a);
+    const double r0 = R(v - a);
+    double above = (1.0 - f) * la * g1;
+    double at = (1.0 - f) * la * r0;
+    if (f > 0.0) {
+      above += f * (la + 1.0) * (g1 + r0);  // G(v - a) = G(v + 1 - a) + R(v - a)
+      at += f * (la + 1.0) * R(v - a - 1);
+    }
+    cw.a[l * n_all + index] = p * above;
+    cw.b[l * n_all + index] = p * at;
+  }
+}
+
+// The full-length buffers of cw.storage (suffix checkpoints, then one block's suffixes) as
+// distributions, with their windows in cw.windows.
+struct SuffixSlots {
+  ContributionWork& cw;
+  Index K;
+  Dist get(std::size_t s) const noexcept {
+    Dist d;
+    d.v = buffer_at(cw.storage, s, K);
+    d.w = cw.windows[s];
+    return d;
+  }
+  void keep(std::size_t s, const Dist& d) const noexcept { cw.windows[s] = d.w; }
+};
+
+// Suffix sweep: S_j = distribution of the losses of seq[j..n), kept at the checkpoints j = 0,
+// step, 2 step, ... (slot j / step), S_n (the point mass at zero) in slot n_check.
+void sweep_suffixes(const Model& m, const std::vector<std::size_t>& seq, const std::vector<double>& pz,
+                    std::size_t step, std::size_t n_check, const SuffixSlots& slots, Workspace& ws,
+                    double& trimmed) noexcept {
+  Dist* cur = &ws.a;
+  Dist* next = &ws.b;
+  cur->set_point_mass_at_zero();
+  next->clear();
+  Dist last = slots.get(n_check);
+  last.copy_from(*cur);
+  slots.keep(n_check, last);
+  for (std::size_t j = seq.size(); j-- > 0;) {
+    const Prepared& ob = m.obligors[seq[j]];
+    convolve(cur->v, cur->w, next->v, next->w, m.K, pz[j], ob.units, ob.frac, trimmed);
+    std::swap(cur, next);
+    if (j % step == 0) {
+      Dist d = slots.get(j / step);
+      d.copy_from(*cur);
+      slots.keep(j / step, d);
+    }
+  }
+}
+
+// Suffixes S_{j0+1} .. S_{j1} of the block [j0, j1) into slots block_base + (j - j0 - 1), from
+// the checkpoint S_{j1}.
+void block_suffixes(const Model& m, const std::vector<std::size_t>& seq, const std::vector<double>& pz,
+                    std::size_t j0, std::size_t j1, std::size_t step, std::size_t n_check,
+                    std::size_t block_base, const SuffixSlots& slots, double& trimmed) noexcept {
+  Dist src = slots.get(j1 == seq.size() ? n_check : j1 / step);
+  Dist top_slot = slots.get(block_base + (j1 - j0 - 1));
+  top_slot.copy_from(src);
+  slots.keep(block_base + (j1 - j0 - 1), top_slot);
+  for (std::size_t j = j1 - 1; j > j0; --j) {
+    const Prepared& ob = m.obligors[seq[j]];
+    Dist from = slots.get(block_base + (j - j0));
+    Dist to = slots.get(block_base + (j - j0 - 1));
+    convolve(from.v, from.w, to.v, to.w, m.K, pz[j], ob.units, ob.frac, trimmed);
+    slots.keep(block_base + (j - j0 - 1), to);
+  }
+}
+
+// The terms of obligor `ob` (PD p) whose loss without it is pre * suf: pre of the obligors
+// before it, suf of those after it; each needed value is a dot product.
+void convolution_terms(const Dist& pre, const Dist& suf, Index reach, double p, const Prepared& ob,
+                       const std::vector<Index>& var_index, std::size_t n_all,
+                       ContributionWork& cw) noexcept {
+  tails_from(suf, reach, cw.suffix_tail);
+  tails_from(pre, reach, cw.prefix_tail);
+  // G(y) = P(L_-i >= y), R(y) = P(L_-i = y).
+  const auto G = [&](Index y) {
+    if (y <= 0) return cw.prefix_tail[0] * cw.suffix_tail[0];
+    double s = cw.prefix_tail[static_cast<std::size_t>(y)];
+    const Index hi = std::min(pre.w.hi, y - 1);
+    for (Index j = pre.w.lo; j <= hi; ++j) s += pre.v[j] * cw.suffix_tail[static_cast<std::size_t>(y - j)];
+    return s;
+  };
+  const auto R = [&](Index y) {
+    if (y < 0) return 0.0;
+    double s = 0.0;
+    const Index lo = std::max(pre.w.lo, y - suf.w.hi);
+    const Index hi = std::min(pre.w.hi, y - suf.w.lo);
+    for (Index j = lo; j <= hi; ++j) s += pre.v[j] * suf.v[y - j];
+    return s;
+  };
+  set_obligor_terms(var_index, n_all, ob.index, p, ob.units, ob.frac, G, R, cw);
+}
+
 // Obligors of the list `seq` (with their PDs at this node), taken out one at a time with prefix
 // and suffix convolutions: the loss without obligor i is prefix(before i) * suffix(after i),
 // starting from the distribution `start` of everything not in `seq`. Only a few values of it are
@@ -476,45 +626,19 @@ void contributions_by_convolution(const Model& m, const std::vector<std::size_t>
                                   const std::vector<Index>& var_index, std::size_t n_all,
                                   ContributionWork& cw, Workspace& ws) noexcept {
   const Index K = m.K;
-  const std::size_t levels = var_index.size();
   const std::size_t n = seq.size();
   const std::size_t step =
       std::max<std::size_t>(1, static_cast<std::size_t>(std::ceil(std::sqrt(double(n)))));
   const std::size_t n_check = n / step + 1;  // checkpoints at j = 0, step, 2 step, ...; S_n at n_check
-  const std::size_t slots = n_check + 1 + step;
-  if (cw.storage.size() < slots * buffer_stride(K)) {
-    cw.storage.assign(slots * buffer_stride(K), 0.0);
-    cw.windows.assign(slots, Window{});
+  const std::size_t slot_count = n_check + 1 + step;
+  if (cw.storage.size() < slot_count * buffer_stride(K)) {
+    cw.storage.assign(slot_count * buffer_stride(K), 0.0);
+    cw.windows.assign(slot_count, Window{});
   }
-  if (cw.windows.size() < slots) cw.windows.resize(slots, Window{});
-  auto slot = [&](std::size_t s) {
-    Dist d;
-    d.v = buffer_at(cw.storage, s, K);
-    d.w = cw.windows[s];
-    return d;
-  };
-  auto keep = [&](std::size_t s, const Dist& d) { cw.windows[s] = d.w; };
+  if (cw.windows.size() < slot_count) cw.windows.resize(slot_count, Window{});
+  const SuffixSlots slots{cw, K};
   double trimmed = 0.0;
-  // Suffix sweep: S_j = distribution of the losses of seq[j..n).
-  {
-    Dist* cur = &ws.a;
-    Dist* next = &ws.b;
-    cur->set_point_mass_at_zero();
-    next->clear();
-    Dist last = slot(n_check);
-    last.copy_from(*cur);
-    keep(n_check, last);
-    for (std::size_t j = n; j-- > 0;) {
-      const Prepared& ob = m.obligors[seq[j]];
-      convolve(cur->v, cur->w, next->v, next->w, K, pz[j], ob.units, ob.frac, trimmed);
-      std::swap(cur, next);
-      if (j % step == 0) {
-        Dist d = slot(j / step);
-        d.copy_from(*cur);
-        keep(j / step, d);
-      }
-    }
-  }
+  sweep_suffixes(m, seq, pz, step, n_check, slots, ws, trimmed);
   const Index max_v = *std::max_element(var_index.begin(), var_index.end());
   const Index reach = std::min(max_v + 2, K - 1);
   cw.suffix_tail.assign(static_cast<std::size_t>(reach) + 1, 0.0);
@@ -532,82 +656,24 @@ void contributions_by_convolution(const Model& m, const std::vector<std::size_t>
   Dist* pre_next = &pb;
   pre->copy_from(start);
   const std::size_t block_base = n_check + 1;
-
   for (std::size_t j0 = 0; j0 < n; j0 += step) {
     const std::size_t j1 = std::min(j0 + step, n);
-    // Suffixes S_{j0+1} .. S_{j1} of this block, from the checkpoint S_{j1}.
-    {
-      Dist src = slot(j1 == n ? n_check : j1 / step);
-      Dist top_slot = slot(block_base + (j1 - j0 - 1));
-      top_slot.copy_from(src);
-      keep(block_base + (j1 - j0 - 1), top_slot);
-      for (std::size_t j = j1 - 1; j > j0; --j) {
-        const Prepared& ob = m.obligors[seq[j]];
-        Dist from = slot(block_base + (j - j0));
-        Dist to = slot(block_base + (j - j0 - 1));
-        convolve(from.v, from.w, to.v, to.w, K, pz[j], ob.units, ob.frac, trimmed);
-        keep(block_base + (j - j0 - 1), to);
-      }
-    }
+    block_suffixes(m, seq, pz, j0, j1, step, n_check, block_base, slots, trimmed);
     for (std::size_t i = j0; i < j1; ++i) {
-      const Dist suf = slot(block_base + (i - j0));  // S_{i+1}
       const Prepared& ob = m.obligors[seq[i]];
-      tails_from(suf, reach, cw.suffix_tail);
-      tails_from(*pre, reach, cw.prefix_tail);
-      // G(y) = P(L_-i >= y), R(y) = P(L_-i = y).
-      const auto G = [&](Index y) {
-        if (y <= 0) return cw.prefix_tail[0] * cw.suffix_tail[0];
-        double s = cw.prefix_tail[static_cast<std::size_t>(y)];
-        const Index hi = std::min(pre->w.hi, y - 1);
-        for (Index j = pre->w.lo; j <= hi; ++j)
-          s += pre->v[j] * cw.suffix_tail[static_cast<std::size_t>(y - j)];
-        return s;
-      };
-      const auto R = [&](Index y) {
-        if (y < 0) return 0.0;
-        double s = 0.0;
-        const Index lo = std::max(pre->w.lo, y - suf.w.hi);
-        const Index hi = std::min(pre->w.hi, y - suf.w.lo);
-        for (Index j = lo; j <= hi; ++j) s += pre->v[j] * suf.v[y - j];
-        return s;
-      };
-      const double p = pz[i];
-      const Index a = ob.units;
-      const double f = ob.frac;
-      const double la = static_cast<double>(a);
-      for (std::size_t l = 0; l < levels; ++l) {
-        const Index v = var_index[l];
-        const double g1 = G(v + 1 - a);
-        const double r0 = R(v - a);
-        double above = (1.0 - f) * la * g1;
-        double at = (1.0 - f) * la * r0;
-        if (f > 0.0) {
-          above += f * (la + 1.0) * (g1 + r0);  // G(v - a) = G(v + 1 - a) + R(v - a)
-          at += f * (la + 1.0) * R(v - a - 1);
-        }
-        cw.a[l * n_all + m.obligors[seq[i]].index] = p * above;
-        cw.b[l * n_all + m.obligors[seq[i]].index] = p * at;
-      }
-      convolve(pre->v, pre->w, pre_next->v, pre_next->w, K, p, a, f, trimmed);
+      convolution_terms(*pre, slots.get(block_base + (i - j0)), reach, pz[i], ob, var_index, n_all, cw);
+      convolve(pre->v, pre->w, pre_next->v, pre_next->w, K, pz[i], ob.units, ob.frac, trimmed);
       std::swap(pre, pre_next);
     }
   }
 }
 
-// E[X_i 1{L > v} | z] and E[X_i 1{L = v} | z] for every obligor at a node where L straddles some
-// VaR. Obligors with p(z) < 0.4 are taken out of the node's distribution F by deconvolution,
-// Q(k) = (F(k) - c1 Q(k - a) - c2 Q(k - a - 1)) / c0, stable because c1 + c2 = p < c0 = 1 - p
-// (errors shrink by p / (1 - p) per step); the others by prefix and suffix convolutions.
-void node_contributions(const Model& m, const Node& node, const std::vector<Index>& var_index,
-                        std::size_t n_all, ContributionWork& cw, Workspace& ws) noexcept {
-  const std::size_t levels = var_index.size();
-  std::fill(cw.a.begin(), cw.a.end(), 0.0);
-  std::fill(cw.b.begin(), cw.b.end(), 0.0);
-  std::vector<std::size_t> low;
-  std::vector<std::size_t> high;
-  std::vector<double> p_high;
+// The obligors with p(z) > 0, in model order, by how they are taken out of the node: low
+// (p < kDeconvolveBelow) by deconvolution, high (with their PDs) by convolution.
+void split_by_pd(const Model& m, double z, std::vector<std::size_t>& low, std::vector<std::size_t>& high,
+                 std::vector<double>& p_high) {
   for (std::size_t i = 0; i < m.obligors.size(); ++i) {
-    const double p = m.obligors[i].pd_at(node.z);
+    const double p = m.obligors[i].pd_at(z);
     if (p == 0.0) continue;
     if (p < kDeconvolveBelow) {
       low.push_back(i);
@@ -616,7 +682,11 @@ void node_contributions(const Model& m, const Node& node, const std::vector<Inde
       p_high.push_back(p);
     }
   }
-  const Index max_v = *std::max_element(var_index.begin(), var_index.end());
+}
+
+// The node's distribution dense on [0, max_v] (cw.full) and its running sums (cw.cum); returns
+// the node's whole mass.
+double dense_cumulative(const Node& node, Index max_v, ContributionWork& cw) {
   const std::size_t dense = static_cast<std::size_t>(max_v) + 1;
   cw.full.assign(dense, 0.0);
   double mass = 0.0;
@@ -625,19 +695,24 @@ void node_contributions(const Model& m, const Node& node, const std::vector<Inde
     mass += x;
     if (k <= max_v) cw.full[static_cast<std::size_t>(k)] = x;
   }
-  // Cumulative distribution of the node, dense on [0, max_v].
   cw.cum.assign(dense, 0.0);
-  {
-    double run = 0.0;
-    for (std::size_t k = 0; k < dense; ++k) {
-      run += cw.full[k];
-      cw.cum[k] = run;
-    }
+  double run = 0.0;
+  for (std::size_t k = 0; k < dense; ++k) {
+    run += cw.full[k];
+    cw.cum[k] = run;
   }
-  // Deconvolution of the cumulative distribution C(k) = P(L_-i <= k), which obeys the same
-  // recursion as the probabilities. Obligors with the same loss units share the stride a and are
-  // run kLanes at a time, interleaved, so that the independent recursions overlap in the CPU.
+  return mass;
+}
+
+// The terms of the low obligors by deconvolution of the cumulative distribution cw.cum,
+// C(k) = P(L_-i <= k), which obeys the same recursion as the probabilities. Obligors with the same
+// loss units share the stride a and are run kLanes at a time, interleaved, so that the independent
+// recursions overlap in the CPU.
+void contributions_by_deconvolution(const Model& m, double z, const std::vector<std::size_t>& low,
+                                    Index max_v, double mass, const std::vector<Index>& var_index,
+                                    std::size_t n_all, ContributionWork& cw) {
   constexpr std::size_t kLanes = 4;
+  const std::size_t dense = static_cast<std::size_t>(max_v) + 1;
   const Index max_a = low.empty() ? 0 : m.obligors[low.back()].units;  // model order is by loss size
   const std::size_t pad = static_cast<std::size_t>(std::min(max_a, max_v) + 2);
   const std::size_t lane_stride = pad + dense;
@@ -651,7 +726,7 @@ void node_contributions(const Model& m, const Node& node, const std::vector<Inde
     double d_inv[kLanes], e1[kLanes], e2[kLanes], pz[kLanes];
     double* c[kLanes];
     for (std::size_t g = 0; g < kLanes; ++g) {
-      const double p = g < lanes ? m.obligors[low[g0 + g]].pd_at(node.z) : 0.0;
+      const double p = g < lanes ? m.obligors[low[g0 + g]].pd_at(z) : 0.0;
       const double f = g < lanes ? m.obligors[low[g0 + g]].frac : 0.0;
       pz[g] = p;
       const double c0 = 1.0 - p;
@@ -682,24 +757,27 @@ void node_contributions(const Model& m, const Node& node, const std::vector<Inde
       const auto C = [&](Index y) { return y < 0 ? 0.0 : cg[y]; };
       const auto G = [&](Index y) { return y <= 0 ? mass : mass - C(y - 1); };  // P(L_-i >= y)
       const auto R = [&](Index y) { return y < 0 ? 0.0 : C(y) - C(y - 1); };    // P(L_-i = y)
-      const double f = ob.frac;
-      const double la = static_cast<double>(a);
-      for (std::size_t l = 0; l < levels; ++l) {
-        const Index v = var_index[l];
-        const double g1v = G(v + 1 - a);
-        const double r0 = R(v - a);
-        double above = (1.0 - f) * la * g1v;
-        double at = (1.0 - f) * la * r0;
-        if (f > 0.0) {
-          above += f * (la + 1.0) * (g1v + r0);
-          at += f * (la + 1.0) * R(v - a - 1);
-        }
-        cw.a[l * n_all + ob.index] = pz[g] * above;
-        cw.b[l * n_all + ob.index] = pz[g] * at;
-      }
+      set_obligor_terms(var_index, n_all, ob.index, pz[g], a, ob.frac, G, R, cw);
     }
     g0 = g1;
   }
+}
+
+// E[X_i 1{L > v} | z] and E[X_i 1{L = v} | z] for every obligor at a node where L straddles some
+// VaR. Obligors with p(z) < 0.4 are taken out of the node's distribution F by deconvolution,
+// Q(k) = (F(k) - c1 Q(k - a) - c2 Q(k - a - 1)) / c0, stable because c1 + c2 = p < c0 = 1 - p
+// (errors shrink by p / (1 - p) per step); the others by prefix and suffix convolutions.
+void node_contributions(const Model& m, const Node& node, const std::vector<Index>& var_index,
+                        std::size_t n_all, ContributionWork& cw, Workspace& ws) noexcept {
+  std::fill(cw.a.begin(), cw.a.end(), 0.0);
+  std::fill(cw.b.begin(), cw.b.end(), 0.0);
+  std::vector<std::size_t> low;
+  std::vector<std::size_t> high;
+  std::vector<double> p_high;
+  split_by_pd(m, node.z, low, high, p_high);
+  const Index max_v = *std::max_element(var_index.begin(), var_index.end());
+  const double mass = dense_cumulative(node, max_v, cw);
+  contributions_by_deconvolution(m, node.z, low, max_v, mass, var_index, n_all, cw);
   if (high.empty()) return;
   // The distribution of the low obligors, then the high ones by convolution.
   Dist* cur = &ws.a;
@@ -735,34 +813,209 @@ double reach_estimate(std::span<const FactorExposure> book, double smallest_tail
   return 1.1 * (mean + 6.0 * std::sqrt(var) + largest);
 }
 
+// The message naming the first invalid exposure, or "" when all are valid.
+std::string exposure_problem(std::span<const FactorExposure> book) {
+  for (std::size_t i = 0; i < book.size(); ++i) {
+    const FactorExposure& e = book[i];
+    if (!(e.pd >= 0.0 && e.pd <= 1.0) || !(e.asset_correlation >= 0.0 && e.asset_correlation < 1.0) ||
+        !(e.loss_amount >= 0.0) || !std::isfinite(e.loss_amount)) {
+      return "exposure " + std::to_string(i + 1) +
+             ": PD must lie in [0, 1], asset correlation in [0, 1) and the loss amount be finite and "
+             "non-negative";
+    }
+  }
+  return {};
+}
+
+// The model on one grid: a fixed loss unit, or K points reaching `reach`; obligors that can
+// default and lose, small losses first (the windows then stay narrow for most of the recursion).
+Model grid_model(std::span<const FactorExposure> book, const OneFactorOptions& opt, double reach,
+                 double total_loss) {
+  Model m;
+  if (opt.loss_unit > 0.0) {
+    m.unit = opt.loss_unit;
+    const double span_units = std::floor(total_loss / m.unit) + 2.0;
+    m.K =
+        static_cast<Index>(std::min<double>(static_cast<double>(opt.grid_points), std::max(span_units, 2.0)));
+  } else {
+    m.K = static_cast<Index>(opt.grid_points);
+    m.unit = reach > 0.0 ? reach / static_cast<double>(m.K - 1) : 1.0;
+  }
+  for (std::size_t i = 0; i < book.size(); ++i) {
+    const FactorExposure& e = book[i];
+    if (e.pd == 0.0 || e.loss_amount == 0.0) continue;
+    Prepared p;
+    p.index = i;
+    p.certain = e.pd == 1.0;
+    const double s = std::sqrt(1.0 - e.asset_correlation);
+    p.a = p.certain ? 0.0 : norm_quantile(e.pd) / s;
+    p.b = std::sqrt(e.asset_correlation) / s;
+    const double units = e.loss_amount / m.unit;
+    const double whole = std::floor(units);
+    p.units = static_cast<Index>(std::min(whole, static_cast<double>(m.K)));
+    p.frac = whole >= static_cast<double>(m.K) ? 0.0 : units - whole;
+    m.obligors.push_back(p);
+  }
+  std::stable_sort(m.obligors.begin(), m.obligors.end(),
+                   [](const Prepared& x, const Prepared& y) { return x.mean_units() < y.mean_units(); });
+  return m;
+}
+
+// out.probability from the final weights, with the largest trimmed mass and the top point's mass.
+void set_probability(const Model& m, const Quadrature& q, LossDistribution& out) {
+  const std::size_t K = static_cast<std::size_t>(m.K);
+  out.probability.assign(K, 0.0);
+  out.trimmed_mass = 0.0;
+  for (std::size_t j = 0; j < q.nodes.size(); ++j) {
+    add_node(out.probability, q.nodes[j], q.node_weight[j]);
+    out.trimmed_mass = std::max(out.trimmed_mass, q.nodes[j].trimmed);
+  }
+  out.top_mass = out.probability[K - 1];
+}
+
+// The grid's summaries: unit, nodes, error, exceedance and cumulative probabilities.
+void set_summaries(const Model& m, const Quadrature& q, LossDistribution& out) {
+  const std::size_t K = static_cast<std::size_t>(m.K);
+  out.loss_unit = m.unit;
+  out.nodes = q.nodes.size();
+  out.error_estimate = q.error;
+  out.exceedance.assign(K, 0.0);
+  out.cumulative.assign(K, 0.0);
+  double run = 0.0;
+  for (std::size_t k = K; k-- > 0;) {
+    out.exceedance[k] = run;
+    run += out.probability[k];
+  }
+  run = 0.0;
+  for (std::size_t k = 0; k < K; ++k) {
+    run += out.probability[k];
+    out.cumulative[k] = run;
+  }
+}
+
+// VaR and ES at every level (grid_too_short when a VaR falls on the last point); returns the VaR
+// grid indices. grid_mean is the expected loss on the grid in grid units.
+std::vector<Index> set_tails(const Model& m, const std::vector<double>& levels, double grid_mean,
+                             LossDistribution& out) {
+  const std::size_t K = static_cast<std::size_t>(m.K);
+  out.tails.resize(levels.size());
+  std::vector<Index> var_index(levels.size());
+  for (std::size_t l = 0; l < levels.size(); ++l) {
+    const double tail = 1.0 - levels[l];
+    std::size_t v = 0;
+    while (v < K - 1 && out.exceedance[v] > tail) ++v;
+    LossTail& t = out.tails[l];
+    t.confidence_level = levels[l];
+    t.var_index = v;
+    t.var = static_cast<double>(v) * m.unit;
+    t.exceedance = out.exceedance[v];
+    var_index[l] = static_cast<Index>(v);
+    if (v == K - 1) {
+      out.status = LossStatus::grid_too_short;
+      out.message = "the VaR at " + std::to_string(levels[l]) +
+                    " lies on the last grid point: use more grid points or a larger loss unit";
+      continue;
+    }
+    double below = 0.0;  // E[L 1{L <= v}] in grid units
+    for (std::size_t k = 0; k <= v; ++k) below += static_cast<double>(k) * out.probability[k];
+    const double above = grid_mean - below;  // E[L 1{L > v}]
+    t.es = m.unit * (above + static_cast<double>(v) * (tail - t.exceedance)) / tail;
+  }
+  return var_index;
+}
+
+// Nodes where the loss straddles some VaR (their contributions need the node's distribution); at
+// every other node the obligors' conditional means are added to A for the levels the node lies
+// wholly above.
+std::vector<std::size_t> transition_nodes(const Model& m, const Quadrature& q,
+                                          const std::vector<Index>& var_index, std::size_t n,
+                                          std::vector<double>& A) {
+  const std::size_t L = var_index.size();
+  Index a_max = 0;
+  for (const Prepared& p : m.obligors) a_max = std::max(a_max, p.units + 1);
+  std::vector<std::size_t> transition;
+  for (std::size_t j = 0; j < q.nodes.size(); ++j) {
+    const Node& node = q.nodes[j];
+    const double w = q.node_weight[j];
+    bool any_transition = false;
+    std::vector<int> kind(L);  // 0 below, 1 above, 2 transition
+    for (std::size_t l = 0; l < L; ++l) {
+      const Index v = var_index[l];
+      if (node.mass_from(std::max<Index>(0, v - a_max - 1)) < kSure) {
+        kind[l] = 0;
+      } else if (node.mass_to(v + 1) < kSure) {
+        kind[l] = 1;
+      } else {
+        kind[l] = 2;
+        any_transition = true;
+      }
+    }
+    if (any_transition) {
+      transition.push_back(j);
+      continue;
+    }
+    for (std::size_t l = 0; l < L; ++l) {
+      if (kind[l] != 1) continue;
+      for (const Prepared& p : m.obligors) A[l * n + p.index] += w * p.pd_at(node.z) * p.mean_units();
+    }
+  }
+  return transition;
+}
+
+// Contributions to expected shortfall (Acerbi-Tasche), level-major, into out.es_contributions.
+void set_contributions(const Model& m, const Quadrature& q, const std::vector<Index>& var_index,
+                       const std::vector<double>& levels, std::size_t n, unsigned threads,
+                       std::vector<Workspace>& ws, LossDistribution& out) {
+  const std::size_t L = levels.size();
+  std::vector<double> A(L * n, 0.0);
+  std::vector<double> B(L * n, 0.0);
+  const std::vector<std::size_t> transition = transition_nodes(m, q, var_index, n, A);
+  out.transition_nodes = transition.size();
+  std::vector<ContributionWork> cws(threads);
+  for (ContributionWork& cw : cws) {
+    cw.a.assign(L * n, 0.0);
+    cw.b.assign(L * n, 0.0);
+  }
+  // Rounds of one node per worker, added in node order so that the sums never depend on threads.
+  for (std::size_t r0 = 0; r0 < transition.size(); r0 += threads) {
+    const std::size_t r1 = std::min(transition.size(), r0 + threads);
+    parallel_for(r1 - r0, threads, [&](std::size_t t, unsigned) {
+      node_contributions(m, q.nodes[transition[r0 + t]], var_index, n, cws[t], ws[t]);
+    });
+    for (std::size_t t = 0; t < r1 - r0; ++t) {
+      const double w = q.node_weight[transition[r0 + t]];
+      for (std::size_t k = 0; k < L * n; ++k) {
+        A[k] += w * cws[t].a[k];
+        B[k] += w * cws[t].b[k];
+      }
+    }
+  }
+  out.es_contributions.assign(L * n, 0.0);
+  for (std::size_t l = 0; l < L; ++l) {
+    const double tail = 1.0 - levels[l];
+    const std::size_t v = out.tails[l].var_index;
+    const double at_v = out.probability[v];
+    const double share = at_v > 0.0 ? (tail - out.tails[l].exceedance) / at_v : 0.0;
+    for (std::size_t i = 0; i < n; ++i) {
+      out.es_contributions[l * n + i] = m.unit * (A[l * n + i] + B[l * n + i] * share) / tail;
+    }
+  }
+}
+
 }  // namespace
 
 LossDistribution one_factor_loss_distribution(std::span<const FactorExposure> book,
                                               const OneFactorOptions& opt) noexcept {
   LossDistribution out;
   try {
-    // Checks.
-    for (std::size_t i = 0; i < book.size(); ++i) {
-      const FactorExposure& e = book[i];
-      if (!(e.pd >= 0.0 && e.pd <= 1.0) || !(e.asset_correlation >= 0.0 && e.asset_correlation < 1.0) ||
-          !(e.loss_amount >= 0.0) || !std::isfinite(e.loss_amount)) {
-        out.message =
-            "exposure " + std::to_string(i + 1) +
-            ": PD must lie in [0, 1], asset correlation in [0, 1) and the loss amount be finite and "
-            "non-negative";
-        return out;
-      }
-    }
+    out.message = exposure_problem(book);
+    if (!out.message.empty()) return out;
     const auto& levels = opt.confidence_levels;
-    if (levels.empty() || !std::is_sorted(levels.begin(), levels.end()) ||
-        std::adjacent_find(levels.begin(), levels.end()) != levels.end() || !(levels.front() > 0.0) ||
-        !(levels.back() < 1.0)) {
-      out.message = "confidence levels must be distinct, ascending and inside (0, 1)";
-      return out;
-    }
-    if (opt.grid_points < 16 || opt.grid_points > (std::size_t{1} << 24) || !(opt.tolerance > 0.0) ||
-        !(opt.loss_unit >= 0.0) || !std::isfinite(opt.loss_unit) || opt.max_nodes < 64) {
-      out.message = "options: grid points in [16, 2^24], tolerance > 0, loss unit >= 0, max nodes >= 64";
+    if (const OptionCheck bad = opt.validate()) {
+      out.message =
+          bad->field == "confidence_levels"
+              ? "confidence levels must be distinct, ascending and inside (0, 1)"
+              : "options: grid points in [16, 2^24], tolerance > 0, loss unit >= 0, max nodes >= 64";
       return out;
     }
     const std::size_t n = book.size();
@@ -775,52 +1028,17 @@ LossDistribution one_factor_loss_distribution(std::span<const FactorExposure> bo
       if (e.pd > 0.0) total_loss += e.loss_amount;
     }
 
-    // The grid: automatic reach (retried when the top holds too much) or a fixed unit.
+    // The grid: automatic reach (doubled while the top holds too much) or a fixed unit.
     double reach = opt.loss_unit > 0.0 ? 0.0 : std::min(total_loss, reach_estimate(book, smallest_tail));
     Quadrature q;
     Model m;
     std::vector<Workspace> ws(threads);
     for (int attempt = 1;; ++attempt) {
       out.grid_attempts = attempt;
-      m = Model{};
-      if (opt.loss_unit > 0.0) {
-        m.unit = opt.loss_unit;
-        const double span_units = std::floor(total_loss / m.unit) + 2.0;
-        m.K = static_cast<Index>(
-            std::min<double>(static_cast<double>(opt.grid_points), std::max(span_units, 2.0)));
-      } else {
-        m.K = static_cast<Index>(opt.grid_points);
-        m.unit = reach > 0.0 ? reach / static_cast<double>(m.K - 1) : 1.0;
-      }
-      for (std::size_t i = 0; i < n; ++i) {
-        const FactorExposure& e = book[i];
-        if (e.pd == 0.0 || e.loss_amount == 0.0) continue;
-        Prepared p;
-        p.index = i;
-        p.certain = e.pd == 1.0;
-        const double s = std::sqrt(1.0 - e.asset_correlation);
-        p.a = p.certain ? 0.0 : norm_quantile(e.pd) / s;
-        p.b = std::sqrt(e.asset_correlation) / s;
-        const double units = e.loss_amount / m.unit;
-        const double whole = std::floor(units);
-        p.units = static_cast<Index>(std::min(whole, static_cast<double>(m.K)));
-        p.frac = whole >= static_cast<double>(m.K) ? 0.0 : units - whole;
-        m.obligors.push_back(p);
-      }
-      // Small losses first: the windows then stay narrow for most of the recursion.
-      std::stable_sort(m.obligors.begin(), m.obligors.end(),
-                       [](const Prepared& x, const Prepared& y) { return x.mean_units() < y.mean_units(); });
+      m = grid_model(book, opt, reach, total_loss);
       for (Workspace& w : ws) w.init(m.K);
       integrate(m, opt, tail_floor, q, ws, threads);
-      // The distribution from the final weights.
-      const std::size_t K = static_cast<std::size_t>(m.K);
-      out.probability.assign(K, 0.0);
-      out.trimmed_mass = 0.0;
-      for (std::size_t j = 0; j < q.nodes.size(); ++j) {
-        add_node(out.probability, q.nodes[j], q.node_weight[j]);
-        out.trimmed_mass = std::max(out.trimmed_mass, q.nodes[j].trimmed);
-      }
-      out.top_mass = out.probability[K - 1];
+      set_probability(m, q, out);
       const bool short_grid = out.top_mass > 0.25 * smallest_tail;
       if (opt.loss_unit == 0.0 && short_grid && reach < total_loss && attempt < 8) {
         reach = std::min(total_loss, 2.0 * reach);
@@ -828,114 +1046,15 @@ LossDistribution one_factor_loss_distribution(std::span<const FactorExposure> bo
       }
       break;
     }
-    const std::size_t K = static_cast<std::size_t>(m.K);
-    out.loss_unit = m.unit;
-    out.nodes = q.nodes.size();
-    out.error_estimate = q.error;
-    out.exceedance.assign(K, 0.0);
-    out.cumulative.assign(K, 0.0);
-    double run = 0.0;
-    for (std::size_t k = K; k-- > 0;) {
-      out.exceedance[k] = run;
-      run += out.probability[k];
-    }
-    run = 0.0;
-    for (std::size_t k = 0; k < K; ++k) {
-      run += out.probability[k];
-      out.cumulative[k] = run;
-    }
+    set_summaries(m, q, out);
     // Expected loss on the grid from the conditional means (consistent with the contributions).
     double grid_mean = 0.0;
     for (std::size_t j = 0; j < q.nodes.size(); ++j) grid_mean += q.node_weight[j] * q.nodes[j].mean_units;
 
     out.status = q.converged ? LossStatus::ok : LossStatus::tolerance_not_met;
-    out.tails.resize(levels.size());
-    std::vector<Index> var_index(levels.size());
-    for (std::size_t l = 0; l < levels.size(); ++l) {
-      const double tail = 1.0 - levels[l];
-      std::size_t v = 0;
-      while (v < K - 1 && out.exceedance[v] > tail) ++v;
-      LossTail& t = out.tails[l];
-      t.confidence_level = levels[l];
-      t.var_index = v;
-      t.var = static_cast<double>(v) * m.unit;
-      t.exceedance = out.exceedance[v];
-      var_index[l] = static_cast<Index>(v);
-      if (v == K - 1) {
-        out.status = LossStatus::grid_too_short;
-        out.message = "the VaR at " + std::to_string(levels[l]) +
-                      " lies on the last grid point: use more grid points or a larger loss unit";
-        continue;
-      }
-      double below = 0.0;  // E[L 1{L <= v}] in grid units
-      for (std::size_t k = 0; k <= v; ++k) below += static_cast<double>(k) * out.probability[k];
-      const double above = grid_mean - below;  // E[L 1{L > v}]
-      t.es = m.unit * (above + static_cast<double>(v) * (tail - t.exceedance)) / tail;
-    }
+    const std::vector<Index> var_index = set_tails(m, levels, grid_mean, out);
     if (!opt.contributions || out.status == LossStatus::grid_too_short) return out;
-
-    // Contributions to expected shortfall.
-    const std::size_t L = levels.size();
-    std::vector<double> A(L * n, 0.0);
-    std::vector<double> B(L * n, 0.0);
-    Index a_max = 0;
-    for (const Prepared& p : m.obligors) a_max = std::max(a_max, p.units + 1);
-    std::vector<std::size_t> transition;
-    for (std::size_t j = 0; j < q.nodes.size(); ++j) {
-      const Node& node = q.nodes[j];
-      const double w = q.node_weight[j];
-      bool any_transition = false;
-      std::vector<int> kind(L);  // 0 below, 1 above, 2 transition
-      for (std::size_t l = 0; l < L; ++l) {
-        const Index v = var_index[l];
-        if (node.mass_from(std::max<Index>(0, v - a_max - 1)) < kSure) {
-          kind[l] = 0;
-        } else if (node.mass_to(v + 1) < kSure) {
-          kind[l] = 1;
-        } else {
-          kind[l] = 2;
-          any_transition = true;
-        }
-      }
-      if (any_transition) {
-        transition.push_back(j);
-        continue;
-      }
-      for (std::size_t l = 0; l < L; ++l) {
-        if (kind[l] != 1) continue;
-        for (const Prepared& p : m.obligors) A[l * n + p.index] += w * p.pd_at(node.z) * p.mean_units();
-      }
-    }
-    out.transition_nodes = transition.size();
-    std::vector<ContributionWork> cws(threads);
-    for (ContributionWork& cw : cws) {
-      cw.a.assign(L * n, 0.0);
-      cw.b.assign(L * n, 0.0);
-    }
-    // Rounds of one node per worker, added in node order so that the sums never depend on threads.
-    for (std::size_t r0 = 0; r0 < transition.size(); r0 += threads) {
-      const std::size_t r1 = std::min(transition.size(), r0 + threads);
-      parallel_for(r1 - r0, threads, [&](std::size_t t, unsigned) {
-        node_contributions(m, q.nodes[transition[r0 + t]], var_index, n, cws[t], ws[t]);
-      });
-      for (std::size_t t = 0; t < r1 - r0; ++t) {
-        const double w = q.node_weight[transition[r0 + t]];
-        for (std::size_t k = 0; k < L * n; ++k) {
-          A[k] += w * cws[t].a[k];
-          B[k] += w * cws[t].b[k];
-        }
-      }
-    }
-    out.es_contributions.assign(L * n, 0.0);
-    for (std::size_t l = 0; l < L; ++l) {
-      const double tail = 1.0 - levels[l];
-      const std::size_t v = out.tails[l].var_index;
-      const double at_v = out.probability[v];
-      const double share = at_v > 0.0 ? (tail - out.tails[l].exceedance) / at_v : 0.0;
-      for (std::size_t i = 0; i < n; ++i) {
-        out.es_contributions[l * n + i] = m.unit * (A[l * n + i] + B[l * n + i] * share) / tail;
-      }
-    }
+    set_contributions(m, q, var_index, levels, n, threads, ws, out);
     return out;
   } catch (...) {
     out = LossDistribution{};

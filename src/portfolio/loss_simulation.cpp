@@ -12,11 +12,27 @@
 
 #include "firmcall/model/normal.hpp"
 #include "firmcall/util/parallel.hpp"
+#include "portfolio/confidence_levels.hpp"
 
 namespace firmcall {
 
 std::string_view to_string(SimulationStatus s) noexcept {
   return s == SimulationStatus::ok ? "ok" : "invalid_input";
+}
+
+OptionCheck SimulationOptions::validate() const {
+  if (!detail::confidence_levels_valid(confidence_levels)) {
+    return OptionProblem{"confidence_levels", detail::number_list_text(confidence_levels),
+                         "must be distinct, ascending and inside (0, 1)"};
+  }
+  if (scenarios < 2 || scenarios > (std::uint64_t{1} << 40)) {
+    return OptionProblem{"scenarios", std::to_string(scenarios), "must lie in [2, 2^40]"};
+  }
+  if (!std::is_sorted(exceedance_points.begin(), exceedance_points.end())) {
+    return OptionProblem{"exceedance_points", detail::number_list_text(exceedance_points),
+                         "must be ascending"};
+  }
+  return std::nullopt;
 }
 
 namespace {
@@ -160,251 +176,319 @@ std::vector<double> factor_shift(const Model& m, double radius) {
   return mu;
 }
 
+// The exposures that can default and lose (PD > 0, loss > 0) into m.obligors, in book order; the
+// message naming the first invalid exposure, or "" when all are valid.
+std::string prepare_obligors(std::span<const SectorExposure> book, const FactorCholesky& factors, Model& m) {
+  for (std::size_t i = 0; i < book.size(); ++i) {
+    const SectorExposure& e = book[i];
+    if (!(e.pd >= 0.0 && e.pd <= 1.0) || !(e.asset_correlation >= 0.0 && e.asset_correlation < 1.0) ||
+        !(e.loss_amount >= 0.0) || !std::isfinite(e.loss_amount) || e.factor >= factors.factors) {
+      return "exposure " + std::to_string(i + 1) +
+             ": PD must lie in [0, 1], asset correlation in [0, 1), the loss amount be finite and "
+             "non-negative and the factor index below the number of factors";
+    }
+    if (e.pd == 0.0 || e.loss_amount == 0.0) continue;
+    Prepared p;
+    p.index = i;
+    p.threshold = e.pd == 1.0 ? std::numeric_limits<double>::infinity() : norm_quantile(e.pd);
+    p.loading = std::sqrt(e.asset_correlation);
+    p.inv_idio = 1.0 / std::sqrt(1.0 - e.asset_correlation);
+    p.loss = e.loss_amount;
+    p.factor = e.factor;
+    m.obligors.push_back(p);
+  }
+  return {};
+}
+
+std::vector<Scratch> make_scratch(unsigned threads, std::size_t factors) {
+  std::vector<Scratch> scratch(threads);
+  for (Scratch& sc : scratch) {
+    sc.g.assign(factors, 0.0);
+    sc.y.assign(factors, 0.0);
+  }
+  return scratch;
+}
+
+// Every scenario's loss and, with importance sampling, its log-likelihood ratio.
+struct Draws {
+  std::vector<double> loss;
+  std::vector<double> log_w;  // empty without importance sampling
+  double weight(std::uint64_t s) const noexcept { return log_w.empty() ? 1.0 : std::exp(log_w[s]); }
+};
+
+// Draws all scenarios in tasks of kTask, reporting progress between batches of about 1% of the run.
+Draws draw_losses(const Model& m, const SimulationOptions& opt, unsigned threads,
+                  std::vector<Scratch>& scratch) {
+  const std::uint64_t n = opt.scenarios;
+  Draws d;
+  d.loss.resize(n);
+  d.log_w.resize(m.shift.empty() ? 0 : n);
+  const std::uint64_t batch = std::max<std::uint64_t>(kTask * threads, (n / 100 + kTask - 1) / kTask * kTask);
+  for (std::uint64_t b0 = 0; b0 < n; b0 += batch) {
+    const std::uint64_t b1 = std::min(n, b0 + batch);
+    const std::uint64_t tasks = (b1 - b0 + kTask - 1) / kTask;
+    parallel_for(static_cast<std::size_t>(tasks), threads, [&](std::size_t t, unsigned worker) {
+      const std::uint64_t s0 = b0 + t * kTask;
+      const std::uint64_t s1 = std::min(b1, s0 + kTask);
+      for (std::uint64_t s = s0; s < s1; ++s) {
+        double lw = 0.0;
+        d.loss[s] = draw_scenario(m, s, scratch[worker], lw, [](std::size_t) {});
+        if (!d.log_w.empty()) d.log_w[s] = lw;
+      }
+    });
+    if (opt.progress) opt.progress(b1, n);
+  }
+  return d;
+}
+
+// Expected loss and the effective sample size, in scenario order.
+void set_expected_loss(const Draws& d, SimulationResult& r) noexcept {
+  const std::uint64_t n = d.loss.size();
+  const double dn = static_cast<double>(n);
+  double sum_wl = 0.0, sum_wl2 = 0.0, sum_w = 0.0, sum_w2 = 0.0;
+  for (std::uint64_t s = 0; s < n; ++s) {
+    const double w = d.weight(s);
+    sum_wl += w * d.loss[s];
+    sum_wl2 += (w * d.loss[s]) * (w * d.loss[s]);
+    sum_w += w;
+    sum_w2 += w * w;
+  }
+  r.scenarios = n;
+  r.expected_loss = sum_wl / dn;
+  r.expected_loss_se = std::sqrt(std::max(0.0, sum_wl2 / dn - r.expected_loss * r.expected_loss) / dn);
+  r.effective_scenarios = sum_w * sum_w / sum_w2;
+}
+
+// Losses in ascending order (ties by scenario index) with suffix sums of w and w^2: the estimates
+// of P(L > x) and of the loss quantiles.
+struct SortedLosses {
+  std::vector<std::uint64_t> order;
+  std::vector<double> sorted, s1, s2;
+  double dn = 0.0;
+
+  explicit SortedLosses(const Draws& d) {
+    const std::uint64_t n = d.loss.size();
+    const std::vector<double>& loss = d.loss;
+    dn = static_cast<double>(n);
+    order.resize(n);
+    std::iota(order.begin(), order.end(), std::uint64_t{0});
+    std::sort(order.begin(), order.end(), [&](std::uint64_t x, std::uint64_t y) {
+      return loss[x] < loss[y] || (loss[x] == loss[y] && x < y);
+    });
+    sorted.resize(n);
+    s1.assign(n + 1, 0.0);
+    s2.assign(n + 1, 0.0);
+    for (std::uint64_t k = 0; k < n; ++k) sorted[k] = loss[order[k]];
+    for (std::uint64_t k = n; k-- > 0;) {
+      const double w = d.weight(order[k]);
+      s1[k] = s1[k + 1] + w;
+      s2[k] = s2[k + 1] + w * w;
+    }
+  }
+  // Number of simulated losses at or below x.
+  std::uint64_t above(double x) const noexcept {
+    return static_cast<std::uint64_t>(std::upper_bound(sorted.begin(), sorted.end(), x) - sorted.begin());
+  }
+  // P(L > x) and its standard error.
+  double exceed(double x) const noexcept { return s1[above(x)] / dn; }
+  double exceed_se(double x) const noexcept {
+    const std::uint64_t k = above(x);
+    const double p = s1[k] / dn;
+    return std::sqrt(std::max(0.0, s2[k] / dn - p * p) / dn);
+  }
+  // The smallest simulated loss v with P(L > v) <= tail (the largest loss when tail <= 0).
+  double quantile(double tail) const noexcept {
+    const std::uint64_t n = sorted.size();
+    std::uint64_t lo = 0, hi = n - 1;  // exceed(sorted[n - 1]) = 0 <= tail when tail >= 0
+    if (tail < 0.0) return sorted[n - 1];
+    while (lo < hi) {
+      const std::uint64_t mid = lo + (hi - lo) / 2;
+      if (exceed(sorted[mid]) <= tail) {
+        hi = mid;
+      } else {
+        lo = mid + 1;
+      }
+    }
+    return sorted[lo];
+  }
+};
+
+// VaR, ES and their standard errors at every level, then P(L > x) at the exceedance points.
+void set_tails(const SimulationOptions& opt, const Draws& d, const SortedLosses& sl, SimulationResult& r) {
+  const auto& levels = opt.confidence_levels;
+  const std::uint64_t n = d.loss.size();
+  const double dn = sl.dn;
+  r.tails.resize(levels.size());
+  for (std::size_t l = 0; l < levels.size(); ++l) {
+    const double tail = 1.0 - levels[l];
+    SimulatedTail& t = r.tails[l];
+    t.confidence_level = levels[l];
+    t.var = sl.quantile(tail);
+    t.exceedance = sl.exceed(t.var);
+    const double se_tail = sl.exceed_se(t.var);
+    t.var_se = 0.5 * (sl.quantile(tail - se_tail) - sl.quantile(tail + se_tail));
+    double sum_e = 0.0, sum_e2 = 0.0;
+    for (std::uint64_t k = sl.above(t.var); k < n; ++k) {
+      const double e = d.weight(sl.order[k]) * (sl.sorted[k] - t.var);
+      sum_e += e;
+      sum_e2 += e * e;
+    }
+    t.es = t.var + sum_e / (dn * tail);
+    const double mean_e = sum_e / dn;
+    t.es_se = std::sqrt(std::max(0.0, sum_e2 / dn - mean_e * mean_e) / dn) / tail;
+  }
+  r.exceedance.resize(opt.exceedance_points.size());
+  r.exceedance_se.resize(opt.exceedance_points.size());
+  for (std::size_t j = 0; j < opt.exceedance_points.size(); ++j) {
+    r.exceedance[j] = sl.exceed(opt.exceedance_points[j]);
+    r.exceedance_se[j] = sl.exceed_se(opt.exceedance_points[j]);
+  }
+}
+
+// One task's sums for the contributions (level-major, lev * book size + book index).
+struct TailSums {
+  std::vector<double> above, above2, at, atom;
+  std::vector<std::size_t> defaulted;
+  TailSums(std::size_t levels, std::size_t book_size, std::size_t obligors) {
+    above.assign(levels * book_size, 0.0);
+    above2.assign(levels * book_size, 0.0);
+    at.assign(levels * book_size, 0.0);
+    atom.assign(levels, 0.0);
+    defaulted.reserve(obligors);
+  }
+  void reset() noexcept {
+    std::fill(above.begin(), above.end(), 0.0);
+    std::fill(above2.begin(), above2.end(), 0.0);
+    std::fill(at.begin(), at.end(), 0.0);
+    std::fill(atom.begin(), atom.end(), 0.0);
+  }
+};
+
+// Draws the tail scenarios tail[k0, k1) again and adds each defaulter's weighted loss to the sums
+// of the levels whose VaR the scenario's loss exceeds (above) or equals (at).
+void add_tail_scenarios(const Model& m, const std::vector<std::uint64_t>& tail, std::size_t k0,
+                        std::size_t k1, const std::vector<SimulatedTail>& tails, std::size_t nb, Scratch& sc,
+                        TailSums& x) {
+  const std::size_t L = tails.size();
+  for (std::size_t k = k0; k < k1; ++k) {
+    const std::uint64_t s = tail[k];
+    double lw = 0.0;
+    x.defaulted.clear();
+    const double l = draw_scenario(m, s, sc, lw, [&](std::size_t j) { x.defaulted.push_back(j); });
+    const double w = std::exp(lw);
+    const double ws = m.shift.empty() ? 1.0 : w;
+    for (std::size_t lev = 0; lev < L; ++lev) {
+      const double v = tails[lev].var;
+      if (l > v) {
+        for (std::size_t j : x.defaulted) {
+          const Prepared& ob = m.obligors[j];
+          const double wx = ws * ob.loss;
+          x.above[lev * nb + ob.index] += wx;
+          x.above2[lev * nb + ob.index] += wx * wx;
+        }
+      } else if (l == v) {
+        x.atom[lev] += ws;
+        for (std::size_t j : x.defaulted) {
+          const Prepared& ob = m.obligors[j];
+          x.at[lev * nb + ob.index] += ws * ob.loss;
+        }
+      }
+    }
+  }
+}
+
+// Contributions: the scenarios at or above the smallest VaR are drawn again, in blocks whose
+// sums are added in block order (rounds of one block per worker), so that they never depend on
+// the number of threads.
+void set_contributions(const Model& m, const SortedLosses& sl, std::size_t nb,
+                       const std::vector<double>& levels, unsigned threads, std::vector<Scratch>& scratch,
+                       SimulationResult& r) {
+  const std::size_t L = levels.size();
+  const double dn = sl.dn;
+  std::vector<std::uint64_t> tail_scenarios(
+      sl.order.begin() +
+          static_cast<std::ptrdiff_t>(std::lower_bound(sl.sorted.begin(), sl.sorted.end(), r.tails[0].var) -
+                                      sl.sorted.begin()),
+      sl.order.end());
+  std::sort(tail_scenarios.begin(), tail_scenarios.end());
+  std::vector<double> sum_above(L * nb, 0.0), sum_above2(L * nb, 0.0), sum_at(L * nb, 0.0);
+  std::vector<double> atom_weight(L, 0.0);
+  const std::size_t tasks = (tail_scenarios.size() + kTask - 1) / kTask;
+  std::vector<TailSums> acc;
+  acc.reserve(threads);
+  for (unsigned t = 0; t < threads; ++t) acc.emplace_back(L, nb, m.obligors.size());
+  for (std::size_t r0 = 0; r0 < tasks; r0 += threads) {
+    const std::size_t r1 = std::min(tasks, r0 + threads);
+    parallel_for(r1 - r0, threads, [&](std::size_t t, unsigned worker) {
+      TailSums& x = acc[t];
+      x.reset();
+      const std::size_t k0 = (r0 + t) * kTask;
+      const std::size_t k1 = std::min(tail_scenarios.size(), k0 + kTask);
+      add_tail_scenarios(m, tail_scenarios, k0, k1, r.tails, nb, scratch[worker], x);
+    });
+    for (std::size_t t = 0; t < r1 - r0; ++t) {
+      for (std::size_t k = 0; k < L * nb; ++k) {
+        sum_above[k] += acc[t].above[k];
+        sum_above2[k] += acc[t].above2[k];
+        sum_at[k] += acc[t].at[k];
+      }
+      for (std::size_t lev = 0; lev < L; ++lev) atom_weight[lev] += acc[t].atom[lev];
+    }
+  }
+  r.es_contributions.assign(L * nb, 0.0);
+  r.es_contribution_se.assign(L * nb, 0.0);
+  for (std::size_t lev = 0; lev < L; ++lev) {
+    const double tail = 1.0 - levels[lev];
+    const double share = atom_weight[lev] > 0.0 ? (tail - r.tails[lev].exceedance) / atom_weight[lev] : 0.0;
+    for (std::size_t i = 0; i < nb; ++i) {
+      const std::size_t k = lev * nb + i;
+      const double mean = sum_above[k] / dn;
+      r.es_contributions[k] = (mean + sum_at[k] * share) / tail;
+      r.es_contribution_se[k] = std::sqrt(std::max(0.0, sum_above2[k] / dn - mean * mean) / dn) / tail;
+    }
+  }
+}
+
+// The message simulate_losses gives for an invalid option or factor model ("" when all are valid),
+// in the order it has always checked them.
+std::string problem_of(const SimulationOptions& opt, const FactorCholesky& factors) {
+  const OptionCheck bad = opt.validate();
+  if (bad && bad->field == "confidence_levels")
+    return "confidence levels must be distinct, ascending and inside (0, 1)";
+  if (bad && bad->field == "scenarios") return "the number of scenarios must lie in [2, 2^40]";
+  if (factors.factors == 0 || factors.lower.size() != factors.factors * factors.factors) {
+    return "the factor model has no valid Cholesky factor";
+  }
+  if (bad) return "exceedance points must be ascending";
+  return {};
+}
+
 }  // namespace
 
 SimulationResult simulate_losses(std::span<const SectorExposure> book, const FactorCholesky& factors,
                                  const SimulationOptions& opt) noexcept {
   SimulationResult r;
   try {
-    const auto& levels = opt.confidence_levels;
-    if (levels.empty() || !std::is_sorted(levels.begin(), levels.end()) ||
-        std::adjacent_find(levels.begin(), levels.end()) != levels.end() || !(levels.front() > 0.0) ||
-        !(levels.back() < 1.0)) {
-      r.message = "confidence levels must be distinct, ascending and inside (0, 1)";
-      return r;
-    }
-    if (opt.scenarios < 2 || opt.scenarios > (std::uint64_t{1} << 40)) {
-      r.message = "the number of scenarios must lie in [2, 2^40]";
-      return r;
-    }
-    if (factors.factors == 0 || factors.lower.size() != factors.factors * factors.factors) {
-      r.message = "the factor model has no valid Cholesky factor";
-      return r;
-    }
-    if (!std::is_sorted(opt.exceedance_points.begin(), opt.exceedance_points.end())) {
-      r.message = "exceedance points must be ascending";
-      return r;
-    }
-    const std::size_t n_book = book.size();
+    r.message = problem_of(opt, factors);
+    if (!r.message.empty()) return r;
     Model m;
     m.factors = &factors;
     m.seed = opt.seed;
-    for (std::size_t i = 0; i < n_book; ++i) {
-      const SectorExposure& e = book[i];
-      if (!(e.pd >= 0.0 && e.pd <= 1.0) || !(e.asset_correlation >= 0.0 && e.asset_correlation < 1.0) ||
-          !(e.loss_amount >= 0.0) || !std::isfinite(e.loss_amount) || e.factor >= factors.factors) {
-        r.message = "exposure " + std::to_string(i + 1) +
-                    ": PD must lie in [0, 1], asset correlation in [0, 1), the loss amount be finite and "
-                    "non-negative and the factor index below the number of factors";
-        return r;
-      }
-      if (e.pd == 0.0 || e.loss_amount == 0.0) continue;
-      Prepared p;
-      p.index = i;
-      p.threshold = e.pd == 1.0 ? std::numeric_limits<double>::infinity() : norm_quantile(e.pd);
-      p.loading = std::sqrt(e.asset_correlation);
-      p.inv_idio = 1.0 / std::sqrt(1.0 - e.asset_correlation);
-      p.loss = e.loss_amount;
-      p.factor = e.factor;
-      m.obligors.push_back(p);
-    }
+    r.message = prepare_obligors(book, factors, m);
+    if (!r.message.empty()) return r;
     if (opt.importance_sampling) {
-      m.shift = factor_shift(m, norm_quantile_upper(1.0 - levels.back()));
+      m.shift = factor_shift(m, norm_quantile_upper(1.0 - opt.confidence_levels.back()));
       for (double x : m.shift) m.shift_norm2 += x * x;
       r.factor_shift = m.shift;
     }
-    const std::uint64_t n = opt.scenarios;
     const unsigned threads = std::max(1U, opt.threads);
-    std::vector<double> loss(n);
-    std::vector<double> log_w(m.shift.empty() ? 0 : n);
-    std::vector<Scratch> scratch(threads);
-    for (Scratch& sc : scratch) {
-      sc.g.assign(factors.factors, 0.0);
-      sc.y.assign(factors.factors, 0.0);
-    }
-    // Batches of about 1% of the run between progress reports.
-    const std::uint64_t batch =
-        std::max<std::uint64_t>(kTask * threads, (n / 100 + kTask - 1) / kTask * kTask);
-    for (std::uint64_t b0 = 0; b0 < n; b0 += batch) {
-      const std::uint64_t b1 = std::min(n, b0 + batch);
-      const std::uint64_t tasks = (b1 - b0 + kTask - 1) / kTask;
-      parallel_for(static_cast<std::size_t>(tasks), threads, [&](std::size_t t, unsigned worker) {
-        const std::uint64_t s0 = b0 + t * kTask;
-        const std::uint64_t s1 = std::min(b1, s0 + kTask);
-        for (std::uint64_t s = s0; s < s1; ++s) {
-          double lw = 0.0;
-          loss[s] = draw_scenario(m, s, scratch[worker], lw, [](std::size_t) {});
-          if (!log_w.empty()) log_w[s] = lw;
-        }
-      });
-      if (opt.progress) opt.progress(b1, n);
-    }
-    const auto weight = [&](std::uint64_t s) { return log_w.empty() ? 1.0 : std::exp(log_w[s]); };
-    const double dn = static_cast<double>(n);
-
-    // Expected loss and the effective sample size, in scenario order.
-    double sum_wl = 0.0, sum_wl2 = 0.0, sum_w = 0.0, sum_w2 = 0.0;
-    for (std::uint64_t s = 0; s < n; ++s) {
-      const double w = weight(s);
-      sum_wl += w * loss[s];
-      sum_wl2 += (w * loss[s]) * (w * loss[s]);
-      sum_w += w;
-      sum_w2 += w * w;
-    }
-    r.scenarios = n;
-    r.expected_loss = sum_wl / dn;
-    r.expected_loss_se = std::sqrt(std::max(0.0, sum_wl2 / dn - r.expected_loss * r.expected_loss) / dn);
-    r.effective_scenarios = sum_w * sum_w / sum_w2;
-
-    // Losses in ascending order (ties by scenario index), and suffix sums of w and w^2.
-    std::vector<std::uint64_t> order(n);
-    std::iota(order.begin(), order.end(), std::uint64_t{0});
-    std::sort(order.begin(), order.end(), [&](std::uint64_t x, std::uint64_t y) {
-      return loss[x] < loss[y] || (loss[x] == loss[y] && x < y);
-    });
-    std::vector<double> sorted(n), s1(n + 1, 0.0), s2(n + 1, 0.0);
-    for (std::uint64_t k = 0; k < n; ++k) sorted[k] = loss[order[k]];
-    for (std::uint64_t k = n; k-- > 0;) {
-      const double w = weight(order[k]);
-      s1[k] = s1[k + 1] + w;
-      s2[k] = s2[k + 1] + w * w;
-    }
-    // P(L > x) and its standard error.
-    const auto above = [&](double x) {
-      return static_cast<std::uint64_t>(std::upper_bound(sorted.begin(), sorted.end(), x) - sorted.begin());
-    };
-    const auto exceed = [&](double x) { return s1[above(x)] / dn; };
-    const auto exceed_se = [&](double x) {
-      const std::uint64_t k = above(x);
-      const double p = s1[k] / dn;
-      return std::sqrt(std::max(0.0, s2[k] / dn - p * p) / dn);
-    };
-    // The smallest simulated loss v with P(L > v) <= tail (the largest loss when tail <= 0).
-    const auto quantile = [&](double tail) {
-      std::uint64_t lo = 0, hi = n - 1;  // exceed(sorted[n - 1]) = 0 <= tail when tail >= 0
-      if (tail < 0.0) return sorted[n - 1];
-      while (lo < hi) {
-        const std::uint64_t mid = lo + (hi - lo) / 2;
-        if (exceed(sorted[mid]) <= tail) {
-          hi = mid;
-        } else {
-          lo = mid + 1;
-        }
-      }
-      return sorted[lo];
-    };
-    r.tails.resize(levels.size());
-    for (std::size_t l = 0; l < levels.size(); ++l) {
-      const double tail = 1.0 - levels[l];
-      SimulatedTail& t = r.tails[l];
-      t.confidence_level = levels[l];
-      t.var = quantile(tail);
-      t.exceedance = exceed(t.var);
-      const double se_tail = exceed_se(t.var);
-      t.var_se = 0.5 * (quantile(tail - se_tail) - quantile(tail + se_tail));
-      double sum_e = 0.0, sum_e2 = 0.0;
-      for (std::uint64_t k = above(t.var); k < n; ++k) {
-        const double e = weight(order[k]) * (sorted[k] - t.var);
-        sum_e += e;
-        sum_e2 += e * e;
-      }
-      t.es = t.var + sum_e / (dn * tail);
-      const double mean_e = sum_e / dn;
-      t.es_se = std::sqrt(std::max(0.0, sum_e2 / dn - mean_e * mean_e) / dn) / tail;
-    }
-    r.exceedance.resize(opt.exceedance_points.size());
-    r.exceedance_se.resize(opt.exceedance_points.size());
-    for (std::size_t j = 0; j < opt.exceedance_points.size(); ++j) {
-      r.exceedance[j] = exceed(opt.exceedance_points[j]);
-      r.exceedance_se[j] = exceed_se(opt.exceedance_points[j]);
-    }
-
-    // Contributions: the scenarios at or above the smallest VaR are drawn again, in blocks whose
-    // sums are added in block order.
-    if (opt.contributions) {
-      const std::size_t L = levels.size();
-      const std::size_t nb = n_book;
-      std::vector<std::uint64_t> tail_scenarios(
-          order.begin() +
-              static_cast<std::ptrdiff_t>(std::lower_bound(sorted.begin(), sorted.end(), r.tails[0].var) -
-                                          sorted.begin()),
-          order.end());
-      std::sort(tail_scenarios.begin(), tail_scenarios.end());
-      std::vector<double> sum_above(L * nb, 0.0), sum_above2(L * nb, 0.0), sum_at(L * nb, 0.0);
-      std::vector<double> atom_weight(L, 0.0);
-      const std::size_t tasks = (tail_scenarios.size() + kTask - 1) / kTask;
-      struct Acc {
-        std::vector<double> above, above2, at, atom;
-        std::vector<std::size_t> defaulted;
-      };
-      std::vector<Acc> acc(threads);
-      for (Acc& x : acc) {
-        x.above.assign(L * nb, 0.0);
-        x.above2.assign(L * nb, 0.0);
-        x.at.assign(L * nb, 0.0);
-        x.atom.assign(L, 0.0);
-        x.defaulted.reserve(m.obligors.size());
-      }
-      for (std::size_t r0 = 0; r0 < tasks; r0 += threads) {
-        const std::size_t r1 = std::min(tasks, r0 + threads);
-        parallel_for(r1 - r0, threads, [&](std::size_t t, unsigned worker) {
-          Acc& x = acc[t];
-          std::fill(x.above.begin(), x.above.end(), 0.0);
-          std::fill(x.above2.begin(), x.above2.end(), 0.0);
-          std::fill(x.at.begin(), x.at.end(), 0.0);
-          std::fill(x.atom.begin(), x.atom.end(), 0.0);
-          const std::size_t k0 = (r0 + t) * kTask;
-          const std::size_t k1 = std::min(tail_scenarios.size(), k0 + kTask);
-          for (std::size_t k = k0; k < k1; ++k) {
-            const std::uint64_t s = tail_scenarios[k];
-            double lw = 0.0;
-            x.defaulted.clear();
-            const double l =
-                draw_scenario(m, s, scratch[worker], lw, [&](std::size_t j) { x.defaulted.push_back(j); });
-            const double w = std::exp(lw);
-            const double ws = m.shift.empty() ? 1.0 : w;
-            for (std::size_t lev = 0; lev < L; ++lev) {
-              const double v = r.tails[lev].var;
-              if (l > v) {
-                for (std::size_t j : x.defaulted) {
-                  const Prepared& ob = m.obligors[j];
-                  const double wx = ws * ob.loss;
-                  x.above[lev * nb + ob.index] += wx;
-                  x.above2[lev * nb + ob.index] += wx * wx;
-                }
-              } else if (l == v) {
-                x.atom[lev] += ws;
-                for (std::size_t j : x.defaulted) {
-                  const Prepared& ob = m.obligors[j];
-                  x.at[lev * nb + ob.index] += ws * ob.loss;
-                }
-              }
-            }
-          }
-        });
-        for (std::size_t t = 0; t < r1 - r0; ++t) {
-          for (std::size_t k = 0; k < L * nb; ++k) {
-            sum_above[k] += acc[t].above[k];
-            sum_above2[k] += acc[t].above2[k];
-            sum_at[k] += acc[t].at[k];
-          }
-          for (std::size_t lev = 0; lev < L; ++lev) atom_weight[lev] += acc[t].atom[lev];
-        }
-      }
-      r.es_contributions.assign(L * nb, 0.0);
-      r.es_contribution_se.assign(L * nb, 0.0);
-      for (std::size_t lev = 0; lev < L; ++lev) {
-        const double tail = 1.0 - levels[lev];
-        const double share =
-            atom_weight[lev] > 0.0 ? (tail - r.tails[lev].exceedance) / atom_weight[lev] : 0.0;
-        for (std::size_t i = 0; i < nb; ++i) {
-          const std::size_t k = lev * nb + i;
-          const double mean = sum_above[k] / dn;
-          r.es_contributions[k] = (mean + sum_at[k] * share) / tail;
-          r.es_contribution_se[k] = std::sqrt(std::max(0.0, sum_above2[k] / dn - mean * mean) / dn) / tail;
-        }
-      }
-    }
+    std::vector<Scratch> scratch = make_scratch(threads, factors.factors);
+    const Draws draws = draw_losses(m, opt, threads, scratch);
+    set_expected_loss(draws, r);
+    const SortedLosses sorted(draws);
+    set_tails(opt, draws, sorted, r);
+    if (opt.contributions)
+      set_contributions(m, sorted, book.size(), opt.confidence_levels, threads, scratch, r);
     r.status = SimulationStatus::ok;
     return r;
   } catch (...) {

@@ -1,4 +1,4 @@
-// See include/firmcall/parallel.hpp.
+// See include/firmcall/util/parallel.hpp.
 #include "firmcall/util/parallel.hpp"
 
 #include <algorithm>

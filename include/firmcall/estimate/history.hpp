@@ -149,6 +149,8 @@ struct AssetDynamicsOptions {
   HistoryMethod method = HistoryMethod::iterative;
   /// Equity volatility used by the naive method and by the iterative start value.
   VolEstimator equity_vol = VolEstimator::simple;
+  /// method and equity_vol must be one of their enumerators.
+  OptionCheck validate() const;
 };
 
 /// Estimates and diagnostics for one obligor. Values that a method does not produce are NaN.

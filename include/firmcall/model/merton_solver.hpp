@@ -13,7 +13,8 @@
 // when a step is below rounding. If Newton does not converge within its budget, a bracketed nested 1-D solve
 // (Boost.Math TOMS 748, Alefeld, Potra and Shi 1995) on the same box takes over; it cannot fail to bracket.
 //
-// Nothing here allocates or throws; the result carries a status and diagnostics.
+// Nothing here throws, and nothing allocates for valid options (only options that fail validate()
+// build its message); the result carries a status and diagnostics.
 //
 // **Example**:
 //   firmcall::MertonInputs in{.equity_value = 400, .equity_vol_annual = 0.45, .default_point = 700,
@@ -27,6 +28,7 @@
 #include <string_view>
 
 #include "firmcall/model/merton.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -36,10 +38,14 @@ struct MertonSolveOptions {
   /// A solution is accepted ("converged") when
   ///   max(|E_model - E| / (E + K), |N(d1) sV V / (sE E) - 1|) <= residual_tolerance.
   double residual_tolerance = 1e-12;
+  /// Both budgets positive (as the settings reader requires), residual_tolerance positive (NaN is
+  /// refused). solve_asset() and solve_asset_batch() return invalid_input when this fails.
+  OptionCheck validate() const;
 };
 
 /// converged: residual within tolerance. max_iterations: budget spent, last iterate not usable.
-/// invalid_input: validate() rejected the inputs; the solver did not run.
+/// invalid_input: validate() rejected the inputs (input_check says why) or the options failed
+/// MertonSolveOptions::validate() (input_check then stays ok); the solver did not run.
 enum class SolveStatus : std::uint8_t { converged, max_iterations, invalid_input };
 
 /// Which method produced the final iterate.
@@ -59,7 +65,7 @@ struct AssetSolution {
   bool usable() const noexcept { return status == SolveStatus::converged; }
 };
 
-/// Solves the Merton system for (V, sV). Never throws, never allocates.
+/// Solves the Merton system for (V, sV). Never throws; allocates nothing for valid options.
 AssetSolution solve_asset(const MertonInputs& in, const MertonSolveOptions& options = {}) noexcept;
 
 /// Solves n obligors: out[i] is exactly what solve_asset(in[i], options) returns, but up to

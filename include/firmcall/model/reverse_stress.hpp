@@ -31,6 +31,10 @@ struct ReverseStressOptions {
   double max_equity_fall = 0.999;    ///< largest equity fall searched (0.999 keeps 0.1% of E)
   double max_vol_multiplier = 20.0;  ///< largest equity-volatility multiplier searched
   MertonSolveOptions solver;
+  /// scan_points >= 2, max_refine_iterations > 0, max_equity_fall in (0, 1), max_vol_multiplier
+  /// above 1 and finite (the searches refuse other values), then solver.validate() (its fields are
+  /// named "solver.<field>").
+  OptionCheck validate() const;
 };
 
 /// found: `shock` moves PD to the level. already_reached: PD is at or above the level without a

@@ -25,6 +25,8 @@
 #include <cstdint>
 #include <string_view>
 
+#include "firmcall/util/option_check.hpp"
+
 namespace firmcall {
 
 /// One exposure as the IRB formula sees it.
@@ -40,6 +42,9 @@ struct IrbOptions {
   double pd_floor = 0.0003;         ///< para 285: PD is at least 0.03%
   double min_maturity_years = 1.0;  ///< para 320: M is at least one year
   double max_maturity_years = 5.0;  ///< para 320: M is at most five years
+  /// pd_floor in [0, 1), min_maturity_years positive, max_maturity_years at least the minimum
+  /// (irb_corporate refuses other values).
+  OptionCheck validate() const;
 };
 
 /// ok: computed. invalid_input: a value is outside its range (message names it).

@@ -40,6 +40,7 @@
 #include <vector>
 
 #include "firmcall/portfolio/vasicek.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -53,6 +54,10 @@ struct OneFactorOptions {
   std::size_t max_nodes = 8193;  ///< quadrature budget (factor values evaluated)
   bool contributions = true;     ///< compute the ES contributions
   unsigned threads = 1;          ///< worker threads; results do not depend on it
+  /// confidence_levels non-empty, distinct, ascending, inside (0, 1); grid_points in [16, 2^24];
+  /// tolerance positive; loss_unit finite and >= 0; max_nodes >= 64 (what
+  /// one_factor_loss_distribution refuses otherwise).
+  OptionCheck validate() const;
 };
 
 /// ok: computed within tolerance. tolerance_not_met: the node budget ran out first (the result is

@@ -45,6 +45,7 @@
 #include <vector>
 
 #include "firmcall/portfolio/factor_model.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -66,6 +67,9 @@ struct SimulationOptions {
   std::vector<double> exceedance_points;  ///< losses x at which to estimate P(L > x), ascending
   /// Called on the calling thread between batches with (scenarios done, scenarios in all).
   std::function<void(std::uint64_t, std::uint64_t)> progress;
+  /// confidence_levels non-empty, distinct, ascending, inside (0, 1); scenarios in [2, 2^40];
+  /// exceedance_points ascending (what simulate_losses refuses otherwise).
+  OptionCheck validate() const;
 };
 
 enum class SimulationStatus : std::uint8_t { ok, invalid_input };

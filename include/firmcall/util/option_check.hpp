@@ -23,4 +23,15 @@ using OptionCheck = std::optional<OptionProblem>;
 /// The shortest text that reads back to v (for OptionProblem::value).
 std::string option_value_text(double v);
 
+/// options.validate() passes, for the numerical core's noexcept calls: building the message of a
+/// broken constraint may allocate, and a failed allocation counts as invalid.
+template <class Options>
+bool options_valid(const Options& options) noexcept {
+  try {
+    return !options.validate();
+  } catch (...) {
+    return false;
+  }
+}
+
 }  // namespace firmcall
