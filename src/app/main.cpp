@@ -1,10 +1,12 @@
-// firmcall command-line entry point: parses the command line and maps failures to exit codes
-// (see firmcall/errors.hpp and README.md).
+// firmcall command-line entry point: parses the command line and maps each class of failure to its
+// exit code (exit_codes.hpp and README.md): a bad command line or an InputError from the library
+// to 2, any other exception to 3; a command that ran returns 0 or 1 from its row statuses.
 #include <cstdio>
 #include <exception>
 #include <iostream>
 
 #include "commands.hpp"
+#include "exit_codes.hpp"
 #include "firmcall/book/errors.hpp"
 
 #ifndef FIRMCALL_VERSION
@@ -21,6 +23,7 @@ Config GlobalOptions::config() const {
 
 int main(int argc, char** argv) {
   using namespace firmcall;
+  using namespace firmcall::cli;
   CLI::App app{
       "firmcall: structural credit risk from equity markets (Merton model).\n"
       "Backs out asset value and asset volatility from equity value and volatility, then reports\n"

@@ -8,15 +8,7 @@
 
 namespace firmcall {
 
-/// Exit codes of the command-line tool (documented in README.md).
-enum ExitCode : int {
-  kExitOk = 0,          ///< every obligor scored
-  kExitRowsFailed = 1,  ///< the run completed, but at least one obligor could not be scored
-  kExitInputError = 2,  ///< a file could not be read or is malformed, or the command line is wrong
-  kExitInternal = 3,    ///< an unexpected internal error (a bug): please report it
-};
-
-/// A whole file (or the command line) is unusable. Carries the exit code kExitInputError.
+/// A whole file (or the command line) is unusable. The command-line tool exits with code 2 on it.
 class InputError : public std::runtime_error {
  public:
   using std::runtime_error::runtime_error;
