@@ -5,6 +5,7 @@
 #include <exception>
 #include <iostream>
 
+#include "command_line_errors.hpp"
 #include "commands.hpp"
 #include "exit_codes.hpp"
 #include "firmcall/book/errors.hpp"
@@ -18,6 +19,15 @@ namespace firmcall::cli {
 Config GlobalOptions::config() const {
   return config_path.empty() ? Config{} : load_config(config_path);
 }
+
+namespace {
+// Says why the command failed, after what it wrote to standard output; returns `code`.
+int failed(const char* kind, const std::string& message, ExitCode code) {
+  std::fflush(stdout);
+  std::cerr << "firmcall: " << kind << message << "\n";
+  return code;
+}
+}  // namespace
 
 }  // namespace firmcall::cli
 
@@ -56,13 +66,11 @@ int main(int argc, char** argv) {
   }
   try {
     return run ? run() : kExitInputError;
+  } catch (const OptionError& e) {
+    return cli::failed("error: ", command_line_message(e), kExitInputError);
   } catch (const InputError& e) {
-    std::fflush(stdout);
-    std::cerr << "firmcall: error: " << e.what() << "\n";
-    return kExitInputError;
+    return cli::failed("error: ", e.what(), kExitInputError);
   } catch (const std::exception& e) {
-    std::fflush(stdout);
-    std::cerr << "firmcall: internal error: " << e.what() << "\n";
-    return kExitInternal;
+    return cli::failed("internal error: ", e.what(), kExitInternal);
   }
 }
