@@ -35,4 +35,16 @@ std::string command_line_message(const OptionError& e) {
   return e.what();
 }
 
+std::string command_line_message(const StoreError& e) {
+  switch (e.advice()) {
+    case StoreAdvice::name_earlier_run:
+      return e.message() + " (name a run with --against)";
+    case StoreAdvice::record_first:
+      return e.message() + " (record a run first: firmcall score BOOK --record)";
+    case StoreAdvice::name_store_file:
+      return e.message() + "; name a file with --db or monitoring.store";
+  }
+  return e.what();
+}
+
 }  // namespace firmcall::cli

@@ -1,6 +1,7 @@
 // firmcall command-line entry point: parses the command line and maps each class of failure to its
 // exit code (exit_codes.hpp and README.md): a bad command line or an InputError from the library
-// to 2, any other exception to 3; a command that ran returns 0 or 1 from its row statuses.
+// to 2 (option and store errors worded as on the command line, command_line_errors.hpp), any other
+// exception to 3; a command that ran returns 0 or 1 from its row statuses.
 #include <cstdio>
 #include <exception>
 #include <iostream>
@@ -66,6 +67,8 @@ int main(int argc, char** argv) {
   }
   try {
     return run ? run() : kExitInputError;
+  } catch (const StoreError& e) {
+    return cli::failed("error: ", command_line_message(e), kExitInputError);
   } catch (const OptionError& e) {
     return cli::failed("error: ", command_line_message(e), kExitInputError);
   } catch (const InputError& e) {
