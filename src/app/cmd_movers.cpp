@@ -2,8 +2,6 @@
 #include <memory>
 
 #include "commands.hpp"
-#include "firmcall/book/errors.hpp"
-#include "firmcall/io/output_file.hpp"
 #include "firmcall/monitor/monitor_output.hpp"
 #include "firmcall/monitor/movers.hpp"
 #include "firmcall/monitor/run_store.hpp"
@@ -17,19 +15,17 @@ struct MoversCli {
 };
 }  // namespace
 
-int run_movers(const Config& config, const StoreReadOptions& store_options, std::size_t top, bool watchlist) {
-  const RunStore store(resolve_store_path(store_options.db, config.monitor), StoreOpen::existing,
-                       config.monitor.busy_timeout_seconds);
+ExitCode run_movers(const Config& config, const StoreReadOptions& store_options, std::size_t top,
+                    bool watchlist) {
+  const RunStore store = open_store(store_options.db, config);
   const RunPair pair = select_runs(store, store_options.run, store_options.against);
   const auto before = store.obligors(pair.before.run_id, false);
   const auto now = store.obligors(pair.now.run_id, false);
   const Comparison c = compare_runs(before, now, config.grades, config.monitor.alerts);
   std::string text;
   write_movers_report(pair, c, config.grades, config.monitor.alerts, {.watchlist = watchlist, .top = top},
-                      output_format(store_options.format), text);
-  OutputFile out(store_options.output);
-  out.write(text);
-  out.commit();
+                      store_options.out.format, text);
+  write_output(store_options.out.output, text);
   return kExitOk;
 }
 
@@ -41,9 +37,8 @@ void add_movers_command(CLI::App& app, const GlobalOptions& global, CommandActio
   add_store_read_options(cmd, opts->store, true);
   cmd->add_option("--top", opts->top, "Show at most N obligors, most severe first (default: all)");
   cmd->footer(std::string("\n") + kCaution);
-  cmd->callback([opts, &global, &run]() {
-    run = [opts, &global]() -> int { return run_movers(global.config(), opts->store, opts->top, false); };
-  });
+  set_action(cmd, run,
+             [opts, &global] { return run_movers(global.config(), opts->store, opts->top, false); });
 }
 
 }  // namespace firmcall::cli

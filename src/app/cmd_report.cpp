@@ -2,11 +2,9 @@
 #include <algorithm>
 #include <iostream>
 #include <memory>
-#include <thread>
 
 #include "commands.hpp"
 #include "firmcall/book/errors.hpp"
-#include "firmcall/io/output_file.hpp"
 #include "firmcall/report/html_report.hpp"
 
 namespace firmcall::cli {
@@ -18,6 +16,38 @@ struct ReportCli {
   std::optional<std::string> horizons;
   unsigned threads = 0;
 };
+
+ExitCode run_report(const ReportCli& opts, const GlobalOptions& global) {
+  ReportOptions o = opts.report;
+  if (opts.horizons) {
+    if (o.term_ids.empty())
+      throw InputError("--horizons: applies to the term structures; give --names as well");
+    o.horizons = *opts.horizons;
+  }
+  if (!o.correlation_path.empty() && !o.portfolio) {
+    throw InputError("--correlation: applies to the portfolio section; give --portfolio as well");
+  }
+  if ((!o.store_run.empty() || !o.against.empty()) && o.store_path.empty()) {
+    throw InputError("--run/--against: apply to the movers section; give --db STORE as well");
+  }
+  o.threads = thread_count(opts.threads);
+  o.tool_version = FIRMCALL_VERSION;
+  // Every input is read and every figure computed before the file is opened.
+  const ReportData data = gather_report(o, global.config());
+  const std::string html = html_report(data);
+  write_output(opts.html, html);
+  const auto failed = static_cast<std::size_t>(
+      std::count_if(data.scored.begin(), data.scored.end(),
+                    [](const ScoredObligor& s) { return s.status != RowStatus::ok; }));
+  if (!global.quiet) {
+    std::cerr << "firmcall: wrote " << opts.html << ": " << data.scored.size() << " obligors";
+    if (failed > 0) std::cerr << " (" << failed << " not scored)";
+    std::cerr << (data.stress ? ", stress" : "") << (!data.terms.empty() ? ", term structures" : "")
+              << (data.portfolio ? ", portfolio" : "") << (data.monitoring ? ", movers and alerts" : "")
+              << "\n";
+  }
+  return rows_exit_code(failed);
+}
 }  // namespace
 
 void add_report_command(CLI::App& app, const GlobalOptions& global, CommandAction& run) {
@@ -47,48 +77,13 @@ void add_report_command(CLI::App& app, const GlobalOptions& global, CommandActio
   cmd->add_option("--top", opts->report.top, "Rows of the name tables (default 10)")
       ->check(CLI::Range(1, 1000));
   cmd->add_option("--title", opts->report.title, "Page title (default: the book's label)");
-  cmd->add_option("-j,--threads", opts->threads, "Worker threads of the portfolio run (default: all cores)")
-      ->check(CLI::Range(1, 1024));
+  add_threads_option(cmd, opts->threads, "Worker threads of the portfolio run (default: all cores)");
   cmd->footer(
       std::string("\nExit codes: 0 every obligor scored; 1 the page was written but some obligors could "
                   "not be scored (listed in it); 2 unreadable or malformed file, unknown id in --names, "
                   "or bad command line (nothing written).\n\n") +
       kCaution);
-  cmd->callback([opts, &global, &run]() {
-    run = [opts, &global]() -> int {
-      ReportOptions o = opts->report;
-      if (opts->horizons) {
-        if (o.term_ids.empty())
-          throw InputError("--horizons: applies to the term structures; give --names as well");
-        o.horizons = *opts->horizons;
-      }
-      if (!o.correlation_path.empty() && !o.portfolio) {
-        throw InputError("--correlation: applies to the portfolio section; give --portfolio as well");
-      }
-      if ((!o.store_run.empty() || !o.against.empty()) && o.store_path.empty()) {
-        throw InputError("--run/--against: apply to the movers section; give --db STORE as well");
-      }
-      o.threads = opts->threads > 0 ? opts->threads : std::max(1U, std::thread::hardware_concurrency());
-      o.tool_version = FIRMCALL_VERSION;
-      // Every input is read and every figure computed before the file is opened.
-      const ReportData data = gather_report(o, global.config());
-      const std::string html = html_report(data);
-      OutputFile out(opts->html);
-      out.write(html);
-      out.commit();
-      const auto failed = static_cast<std::size_t>(
-          std::count_if(data.scored.begin(), data.scored.end(),
-                        [](const ScoredObligor& s) { return s.status != RowStatus::ok; }));
-      if (!global.quiet) {
-        std::cerr << "firmcall: wrote " << opts->html << ": " << data.scored.size() << " obligors";
-        if (failed > 0) std::cerr << " (" << failed << " not scored)";
-        std::cerr << (data.stress ? ", stress" : "") << (!data.terms.empty() ? ", term structures" : "")
-                  << (data.portfolio ? ", portfolio" : "") << (data.monitoring ? ", movers and alerts" : "")
-                  << "\n";
-      }
-      return failed > 0 ? kExitRowsFailed : kExitOk;
-    };
-  });
+  set_action(cmd, run, [opts, &global] { return run_report(*opts, global); });
 }
 
 }  // namespace firmcall::cli

@@ -3,7 +3,6 @@
 
 #include "commands.hpp"
 #include "firmcall/book/errors.hpp"
-#include "firmcall/io/output_file.hpp"
 #include "firmcall/monitor/monitor_output.hpp"
 #include "firmcall/monitor/run_store.hpp"
 
@@ -23,23 +22,18 @@ void add_track_command(CLI::App& app, const GlobalOptions& global, CommandAction
   cmd->add_option("id", opts->id, "Obligor id")->required();
   add_store_read_options(cmd, opts->store, false);
   cmd->footer(std::string("\n") + kCaution);
-  cmd->callback([opts, &global, &run]() {
-    run = [opts, &global]() -> int {
-      const Config config = global.config();
-      const RunStore store(resolve_store_path(opts->store.db, config.monitor), StoreOpen::existing,
-                           config.monitor.busy_timeout_seconds);
-      const auto series = store.series(opts->id);
-      if (series.empty()) {
-        throw InputError("history store '" + store.path() + "': obligor '" + opts->id +
-                         "' is in no recorded run");
-      }
-      std::string text;
-      write_track_report(opts->id, series, config.grades, output_format(opts->store.format), text);
-      OutputFile out(opts->store.output);
-      out.write(text);
-      out.commit();
-      return kExitOk;
-    };
+  set_action(cmd, run, [opts, &global] {
+    const Config config = global.config();
+    const RunStore store = open_store(opts->store.db, config);
+    const auto series = store.series(opts->id);
+    if (series.empty()) {
+      throw InputError("history store '" + store.path() + "': obligor '" + opts->id +
+                       "' is in no recorded run");
+    }
+    std::string text;
+    write_track_report(opts->id, series, config.grades, opts->store.out.format, text);
+    write_output(opts->store.out.output, text);
+    return kExitOk;
   });
 }
 

@@ -23,9 +23,7 @@ void add_watchlist_command(CLI::App& app, const GlobalOptions& global, CommandAc
       "least pd_ratio_min_pd), downgrade (grade worse by downgrade_notches or more), pd_ceiling (PD above\n"
       "pd_ceiling), not_scored (in the run but not scored). Severity: how many fire.\n\n" +
       std::string(kCaution));
-  cmd->callback([opts, &global, &run]() {
-    run = [opts, &global]() -> int { return run_movers(global.config(), opts->store, opts->top, true); };
-  });
+  set_action(cmd, run, [opts, &global] { return run_movers(global.config(), opts->store, opts->top, true); });
 }
 
 }  // namespace firmcall::cli

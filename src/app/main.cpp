@@ -1,10 +1,14 @@
-// firmcall command-line entry point: parses the command line and maps failures to exit codes
-// (see firmcall/errors.hpp and README.md).
+// firmcall command-line entry point: parses the command line and maps each class of failure to its
+// exit code (exit_codes.hpp and README.md): a bad command line or an InputError from the library
+// to 2 (option and store errors worded as on the command line, command_line_errors.hpp), any other
+// exception to 3; a command that ran returns 0 or 1 from its row statuses.
 #include <cstdio>
 #include <exception>
 #include <iostream>
 
+#include "command_line_errors.hpp"
 #include "commands.hpp"
+#include "exit_codes.hpp"
 #include "firmcall/book/errors.hpp"
 
 #ifndef FIRMCALL_VERSION
@@ -17,10 +21,20 @@ Config GlobalOptions::config() const {
   return config_path.empty() ? Config{} : load_config(config_path);
 }
 
+namespace {
+// Says why the command failed, after what it wrote to standard output; returns `code`.
+int failed(const char* kind, const std::string& message, ExitCode code) {
+  std::fflush(stdout);
+  std::cerr << "firmcall: " << kind << message << "\n";
+  return code;
+}
+}  // namespace
+
 }  // namespace firmcall::cli
 
 int main(int argc, char** argv) {
   using namespace firmcall;
+  using namespace firmcall::cli;
   CLI::App app{
       "firmcall: structural credit risk from equity markets (Merton model).\n"
       "Backs out asset value and asset volatility from equity value and volatility, then reports\n"
@@ -53,13 +67,13 @@ int main(int argc, char** argv) {
   }
   try {
     return run ? run() : kExitInputError;
+  } catch (const StoreError& e) {
+    return cli::failed("error: ", command_line_message(e), kExitInputError);
+  } catch (const OptionError& e) {
+    return cli::failed("error: ", command_line_message(e), kExitInputError);
   } catch (const InputError& e) {
-    std::fflush(stdout);
-    std::cerr << "firmcall: error: " << e.what() << "\n";
-    return kExitInputError;
+    return cli::failed("error: ", e.what(), kExitInputError);
   } catch (const std::exception& e) {
-    std::fflush(stdout);
-    std::cerr << "firmcall: internal error: " << e.what() << "\n";
-    return kExitInternal;
+    return cli::failed("internal error: ", e.what(), kExitInternal);
   }
 }

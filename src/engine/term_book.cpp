@@ -61,11 +61,11 @@ std::string term_point_problem(std::size_t line_number, const MertonInputs& in, 
   return line + "unknown status";
 }
 
-std::vector<double> parse_horizons(std::string_view text, std::string_view option) {
-  const std::string name(option);
+std::vector<double> parse_horizons(std::string_view text, std::string_view field) {
+  const std::string name(field);
   std::vector<double> out;
   const auto fail = [&](const std::string& why) {
-    throw InputError(name + ": " + why + " (a list of years such as 0.5,1,2,3,5,7,10)");
+    throw OptionError(name, why + " (a list of years such as 0.5,1,2,3,5,7,10)");
   };
   if (text.find_first_not_of(" \t") == std::string_view::npos) fail("empty list");
   std::size_t pos = 0;
@@ -104,12 +104,12 @@ TermBookOptions term_book_options(const TermSettings& term, const TermOptionText
   run.calibration = term.calibration;
   run.barrier = {term.barrier_ratio, term.barrier_growth};
   if (!wants_term_structure(c)) {
-    for (const auto& [given, name] : {std::pair{!c.calibration.empty(), "--calibration"},
-                                      std::pair{c.barrier_ratio.has_value(), "--barrier-ratio"},
-                                      std::pair{c.barrier_growth.has_value(), "--barrier-growth"}}) {
+    for (const auto& [given, name] : {std::pair{!c.calibration.empty(), "calibration"},
+                                      std::pair{c.barrier_ratio.has_value(), "barrier_ratio"},
+                                      std::pair{c.barrier_growth.has_value(), "barrier_growth"}}) {
       if (given) {
-        throw InputError(std::string(name) +
-                         ": applies to term structures; add --horizons LIST or --model first-passage|both");
+        throw OptionError(name, "applies to term structures; give horizons or a model other than merton",
+                          OptionNeed::term_structure);
       }
     }
     return run;
@@ -122,31 +122,31 @@ TermBookOptions term_book_options(const TermSettings& term, const TermOptionText
   } else if (c.model == "both") {
     run.models = {TermModel::merton, TermModel::first_passage};
   } else {
-    throw InputError("--model: expected merton, first-passage or both, got " + quoted(c.model));
+    throw OptionError("model", "expected merton, first-passage or both, got " + quoted(c.model));
   }
   if (!c.calibration.empty()) {
     const auto cal = calibration_from_string(c.calibration);
-    if (!cal) throw InputError("--calibration: expected once or per-horizon, got " + quoted(c.calibration));
+    if (!cal) throw OptionError("calibration", "expected once or per-horizon, got " + quoted(c.calibration));
     run.calibration = *cal;
   }
   const bool first_passage = run.models.back() == TermModel::first_passage;
   if ((c.barrier_ratio || c.barrier_growth) && !first_passage) {
-    throw InputError(std::string(c.barrier_ratio ? "--barrier-ratio" : "--barrier-growth") +
-                     ": applies to the first-passage model (--model first-passage or both)");
+    throw OptionError(c.barrier_ratio ? "barrier_ratio" : "barrier_growth",
+                      "applies to the first-passage model (model first-passage or both)",
+                      OptionNeed::first_passage);
   }
   if (c.barrier_ratio) {
     if (!std::isfinite(*c.barrier_ratio) || !(*c.barrier_ratio > 0.0)) {
-      throw InputError(
-          "--barrier-ratio: expected a positive multiple of the default point (1 puts the barrier "
-          "at the default point)");
+      throw OptionError("barrier_ratio",
+                        "expected a positive multiple of the default point (1 puts the barrier at the "
+                        "default point)");
     }
     run.barrier.default_point_ratio = *c.barrier_ratio;
   }
   if (c.barrier_growth) {
     if (!(std::fabs(*c.barrier_growth) <= 1.0)) {
-      throw InputError(
-          "--barrier-growth: expected a continuously compounded decimal in [-1, 1] (0.02 means 2% "
-          "a year)");
+      throw OptionError("barrier_growth",
+                        "expected a continuously compounded decimal in [-1, 1] (0.02 means 2% a year)");
     }
     run.barrier.growth_rate_cc = *c.barrier_growth;
   }

@@ -7,6 +7,7 @@
 #include <unordered_set>
 
 #include "firmcall/book/errors.hpp"
+#include "firmcall/monitor/store_error.hpp"
 
 namespace firmcall {
 
@@ -199,9 +200,9 @@ RunPair select_runs(const RunStore& store, std::string_view now_selector, std::s
   if (before_selector.empty()) {
     auto prev = store.previous(p.now);
     if (!prev) {
-      throw InputError("history store '" + store.path() + "': run " + std::to_string(p.now.run_id) +
-                       " (as of " + p.now.as_of +
-                       ") is the first one; nothing to compare it with (name a run with --against)");
+      throw StoreError("history store '" + store.path() + "': run " + std::to_string(p.now.run_id) +
+                           " (as of " + p.now.as_of + ") is the first one; nothing to compare it with",
+                       StoreAdvice::name_earlier_run);
     }
     p.before = std::move(*prev);
   } else {

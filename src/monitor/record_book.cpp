@@ -129,7 +129,7 @@ RecordedRun record_book(const std::string& book_path, const ScoreSettings& setti
   RecordedRun result;
   if (!options.as_of.empty()) {
     if (!is_calendar_date(options.as_of)) {
-      throw InputError("--as-of: expected a date YYYY-MM-DD, got '" + options.as_of + "'");
+      throw OptionError("as_of", "expected a date YYYY-MM-DD, got '" + options.as_of + "'");
     }
     result.as_of = options.as_of;
   } else if (!book.as_of.empty()) {

@@ -12,6 +12,7 @@
 #include <fstream>
 #include <limits>
 
+#include "firmcall/monitor/store_error.hpp"
 #include "firmcall/util/timestamp.hpp"
 
 namespace firmcall {
@@ -331,8 +332,7 @@ RunStore::RunStore(const std::string& path, StoreOpen mode, double busy_timeout_
   const fs::file_status st = fs::status(path, ec);
   if (!fs::exists(st)) {
     if (mode == StoreOpen::existing) {
-      throw InputError("no history store at '" + path +
-                       "' (record a run first: firmcall score BOOK --record)");
+      throw StoreError("no history store at '" + path + "'", StoreAdvice::record_first);
     }
     const fs::path folder = fs::path(path).parent_path();
     if (!folder.empty()) {
@@ -554,9 +554,8 @@ std::string default_store_path() {
   if (xdg && xdg[0] == '/') return std::string(xdg) + "/firmcall/history.sqlite";
   const char* home = std::getenv("HOME");
   if (home && home[0] == '/') return std::string(home) + "/.local/share/firmcall/history.sqlite";
-  throw InputError(
-      "no place for the history store: neither XDG_DATA_HOME nor HOME is set; name a file with --db or "
-      "monitoring.store");
+  throw StoreError("no place for the history store: neither XDG_DATA_HOME nor HOME is set",
+                   StoreAdvice::name_store_file);
 }
 
 bool is_calendar_date(std::string_view s) noexcept {

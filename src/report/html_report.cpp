@@ -955,11 +955,11 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
       const auto it = std::find_if(d.book.obligors.begin(), d.book.obligors.end(),
                                    [&id](const ObligorRecord& r) { return id_of(r) == id; });
       if (it == d.book.obligors.end()) {
-        throw InputError("--names: obligor '" + id + "' is not in " + d.book.origin);
+        throw OptionError("term_ids", "obligor '" + id + "' is not in " + d.book.origin);
       }
       const auto pos = static_cast<std::size_t>(it - d.book.obligors.begin());
       if (std::find(d.term_index.begin(), d.term_index.end(), pos) != d.term_index.end()) {
-        throw InputError("--names: obligor '" + id + "' is named twice");
+        throw OptionError("term_ids", "obligor '" + id + "' is named twice");
       }
       d.term_index.push_back(pos);
       d.terms.emplace_back();

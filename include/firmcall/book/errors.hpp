@@ -5,21 +5,41 @@
 
 #include <stdexcept>
 #include <string>
+#include <utility>
 
 namespace firmcall {
 
-/// Exit codes of the command-line tool (documented in README.md).
-enum ExitCode : int {
-  kExitOk = 0,          ///< every obligor scored
-  kExitRowsFailed = 1,  ///< the run completed, but at least one obligor could not be scored
-  kExitInputError = 2,  ///< a file could not be read or is malformed, or the command line is wrong
-  kExitInternal = 3,    ///< an unexpected internal error (a bug): please report it
-};
-
-/// A whole file (or the command line) is unusable. Carries the exit code kExitInputError.
+/// A whole file (or the command line) is unusable. The command-line tool exits with code 2 on it.
 class InputError : public std::runtime_error {
  public:
   using std::runtime_error::runtime_error;
+};
+
+/// What an option needs before it applies, carried by OptionError so that a caller can say it in
+/// its own terms (the command line names its flags).
+enum class OptionNeed {
+  none,            ///< the value itself is unusable
+  term_structure,  ///< applies to term structures only: horizons, or a model other than merton
+  first_passage,   ///< applies only when the first-passage model is among the models
+};
+
+/// An option with an unusable value, or given where it does not apply. It names the field of the
+/// options struct as spelled there, e.g. "barrier_ratio"; what() is "field 'barrier_ratio': reason".
+class OptionError : public InputError {
+ public:
+  OptionError(std::string field, std::string reason, OptionNeed need = OptionNeed::none)
+      : InputError("field '" + field + "': " + reason),
+        field_(std::move(field)),
+        reason_(std::move(reason)),
+        need_(need) {}
+  const std::string& field() const noexcept { return field_; }
+  const std::string& reason() const noexcept { return reason_; }
+  OptionNeed need() const noexcept { return need_; }
+
+ private:
+  std::string field_;
+  std::string reason_;
+  OptionNeed need_;
 };
 
 /// Formats "file:line: message" (line omitted when 0).

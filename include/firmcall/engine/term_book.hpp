@@ -26,12 +26,12 @@
 
 namespace firmcall {
 
-/// Longest --horizons list accepted.
+/// Longest horizons list accepted.
 inline constexpr std::size_t kMaxHorizons = 30;
 
 /// Parses a list of horizons in years such as "0.5,1,2,5": plain decimals, each in (0, 100],
-/// strictly increasing, at most kMaxHorizons. InputError naming `option` and the bad item otherwise.
-std::vector<double> parse_horizons(std::string_view text, std::string_view option = "--horizons");
+/// strictly increasing, at most kMaxHorizons. OptionError naming `field` and the bad item otherwise.
+std::vector<double> parse_horizons(std::string_view text, std::string_view field = "horizons");
 
 /// What a term-structure run computes.
 struct TermBookOptions {
@@ -44,20 +44,20 @@ struct TermBookOptions {
   std::size_t max_listed_problems = 20;
 };
 
-/// Term-structure choices as typed on the command line (empty or unset: not given).
+/// Term-structure choices as text (empty or unset: not given), e.g. as typed on the command line.
 struct TermOptionText {
-  std::optional<std::string> horizons;  ///< --horizons, e.g. "0.5,1,2,5"
-  std::string model;                    ///< --model: merton, first-passage or both
-  std::string calibration;              ///< --calibration: once or per-horizon
+  std::optional<std::string> horizons;  ///< e.g. "0.5,1,2,5"
+  std::string model;                    ///< merton, first-passage or both
+  std::string calibration;              ///< once or per-horizon
   std::optional<double> barrier_ratio;
   std::optional<double> barrier_growth;
 };
 
-/// True when the choices ask for a term-structure run: --horizons, or a model other than merton.
+/// True when the choices ask for a term-structure run: horizons, or a model other than merton.
 bool wants_term_structure(const TermOptionText& choices);
 
-/// Checks the choices and builds the run options; what is not given comes from `term`. InputError
-/// (exit code 2) on a bad horizon list or value, or an option given where it does not apply.
+/// Checks the choices and builds the run options; what is not given comes from `term`. OptionError
+/// naming the field on a bad horizon list or value, or a choice given where it does not apply.
 TermBookOptions term_book_options(const TermSettings& term, const TermOptionText& choices);
 
 /// One obligor's curves.

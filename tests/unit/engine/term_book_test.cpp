@@ -2,6 +2,7 @@
 // the long CSV and JSON rows, the table, bad obligors, and agreement with the score engine.
 #include <doctest/doctest.h>
 
+#include <optional>
 #include <sstream>
 #include <string>
 
@@ -54,33 +55,69 @@ TEST_CASE("--horizons: a list of increasing years, or exit 2 with the reason") {
   CHECK(parse_horizons("0.5,1,2,3,5,7,10") == std::vector<double>{0.5, 1, 2, 3, 5, 7, 10});
   CHECK(parse_horizons(" 0.25 , 1e1 ") == std::vector<double>{0.25, 10});
   const std::string tail = " (a list of years such as 0.5,1,2,3,5,7,10)";
-  CHECK_THROWS_WITH_AS(parse_horizons(""), ("--horizons: empty list" + tail).c_str(), InputError);
-  CHECK_THROWS_WITH_AS(parse_horizons("1,,2"), ("--horizons: empty item in '1,,2'" + tail).c_str(),
+  CHECK_THROWS_WITH_AS(parse_horizons(""), ("field 'horizons': empty list" + tail).c_str(), InputError);
+  CHECK_THROWS_WITH_AS(parse_horizons("1,,2"), ("field 'horizons': empty item in '1,,2'" + tail).c_str(),
                        InputError);
   CHECK_THROWS_WITH_AS(parse_horizons("1,two"),
-                       ("--horizons: expected a number of years, got 'two'" + tail).c_str(), InputError);
+                       ("field 'horizons': expected a number of years, got 'two'" + tail).c_str(),
+                       InputError);
   CHECK_THROWS_WITH_AS(parse_horizons("1,5y"),
-                       ("--horizons: expected a number of years, got '5y'" + tail).c_str(), InputError);
+                       ("field 'horizons': expected a number of years, got '5y'" + tail).c_str(), InputError);
   CHECK_THROWS_WITH_AS(parse_horizons("0,1"),
-                       ("--horizons: each horizon must lie in (0, 100] years, got '0'" + tail).c_str(),
+                       ("field 'horizons': each horizon must lie in (0, 100] years, got '0'" + tail).c_str(),
                        InputError);
-  CHECK_THROWS_WITH_AS(parse_horizons("1,150"),
-                       ("--horizons: each horizon must lie in (0, 100] years, got '150'" + tail).c_str(),
-                       InputError);
-  CHECK_THROWS_WITH_AS(parse_horizons("1,5,3"),
-                       ("--horizons: horizons must be strictly increasing, got '3' after '5'" + tail).c_str(),
-                       InputError);
-  CHECK_THROWS_WITH_AS(parse_horizons("2,2"),
-                       ("--horizons: horizons must be strictly increasing, got '2' after '2'" + tail).c_str(),
-                       InputError);
+  CHECK_THROWS_WITH_AS(
+      parse_horizons("1,150"),
+      ("field 'horizons': each horizon must lie in (0, 100] years, got '150'" + tail).c_str(), InputError);
+  CHECK_THROWS_WITH_AS(
+      parse_horizons("1,5,3"),
+      ("field 'horizons': horizons must be strictly increasing, got '3' after '5'" + tail).c_str(),
+      InputError);
+  CHECK_THROWS_WITH_AS(
+      parse_horizons("2,2"),
+      ("field 'horizons': horizons must be strictly increasing, got '2' after '2'" + tail).c_str(),
+      InputError);
   CHECK_THROWS_WITH_AS(parse_horizons("nan"),
-                       ("--horizons: expected a number of years, got 'nan'" + tail).c_str(), InputError);
+                       ("field 'horizons': expected a number of years, got 'nan'" + tail).c_str(),
+                       InputError);
   std::string many;
   for (int i = 1; i <= 31; ++i) {
     if (i > 1) many.push_back(',');
     many += std::to_string(i);
   }
-  CHECK_THROWS_WITH_AS(parse_horizons(many), ("--horizons: at most 30 horizons" + tail).c_str(), InputError);
+  CHECK_THROWS_WITH_AS(parse_horizons(many), ("field 'horizons': at most 30 horizons" + tail).c_str(),
+                       InputError);
+}
+
+TEST_CASE("term options: errors name the field and what it needs, for the caller to word") {
+  const auto error_of = [](const TermOptionText& c) -> std::optional<OptionError> {
+    try {
+      term_book_options({}, c);
+    } catch (const OptionError& e) {
+      return e;
+    }
+    return std::nullopt;
+  };
+  TermOptionText c;
+  c.barrier_growth = 0.01;
+  auto e = error_of(c);
+  REQUIRE(e);
+  CHECK(e->field() == "barrier_growth");
+  CHECK(e->need() == OptionNeed::term_structure);
+  c.horizons = "1,2";
+  e = error_of(c);
+  REQUIRE(e);
+  CHECK(e->field() == "barrier_growth");
+  CHECK(e->need() == OptionNeed::first_passage);
+  c = {};
+  c.horizons = "2,1";
+  e = error_of(c);
+  REQUIRE(e);
+  CHECK(e->field() == "horizons");
+  CHECK(e->need() == OptionNeed::none);
+  CHECK(e->reason() ==
+        "horizons must be strictly increasing, got '1' after '2' (a list of years such as "
+        "0.5,1,2,3,5,7,10)");
 }
 
 TEST_CASE("term options: what applies where") {
@@ -91,17 +128,17 @@ TEST_CASE("term options: what applies where") {
   c.calibration = "per-horizon";
   CHECK_THROWS_WITH_AS(
       term_book_options({}, c),
-      "--calibration: applies to term structures; add --horizons LIST or --model first-passage|both",
-      InputError);
+      "field 'calibration': applies to term structures; give horizons or a model other than merton",
+      OptionError);
   c = {};
   c.horizons = "1,2";
   c.barrier_ratio = 0.8;
-  CHECK_THROWS_WITH_AS(term_book_options({}, c),
-                       "--barrier-ratio: applies to the first-passage model (--model first-passage or both)",
-                       InputError);
+  CHECK_THROWS_WITH_AS(
+      term_book_options({}, c),
+      "field 'barrier_ratio': applies to the first-passage model (model first-passage or both)", OptionError);
   c.model = "black-cox";
   CHECK_THROWS_WITH_AS(term_book_options({}, c),
-                       "--model: expected merton, first-passage or both, got 'black-cox'", InputError);
+                       "field 'model': expected merton, first-passage or both, got 'black-cox'", OptionError);
   c.model = "first-passage";
   c.barrier_ratio = -1;
   CHECK_THROWS_AS(term_book_options({}, c), InputError);

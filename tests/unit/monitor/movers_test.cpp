@@ -6,6 +6,7 @@
 
 #include "firmcall/monitor/monitor_output.hpp"
 #include "firmcall/monitor/movers.hpp"
+#include "firmcall/monitor/store_error.hpp"
 #include "test_util.hpp"
 
 using namespace firmcall;
@@ -153,10 +154,10 @@ TEST_CASE("runs to compare: the latest and the one before, or as named") {
   CHECK_THROWS_WITH_AS(
       select_runs(store, "", ""),
       ("history store '" + dir.file("h.sqlite") +
-       "': run 1 (as of 2026-11-06) is the first one; nothing to compare it with (name a run with "
-       "--against)")
+       "': run 1 (as of 2026-11-06) is the first one; nothing to compare it with (name the run to compare "
+       "with)")
           .c_str(),
-      InputError);
+      StoreError);
   info.as_of = "2026-11-13";
   { RunWriter(store, info).commit(); }
   info.as_of = "2026-11-20";

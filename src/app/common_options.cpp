@@ -1,0 +1,144 @@
+// The options several commands share. See common_options.hpp.
+#include "common_options.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <iostream>
+#include <thread>
+
+#include "firmcall/book/errors.hpp"
+#include "firmcall/io/output_file.hpp"
+#include "firmcall/monitor/run_store.hpp"
+
+namespace firmcall::cli {
+
+void add_output_options(CLI::App* cmd, OutputOptions& o) {
+  cmd->add_option_function<std::string>(
+         "-f,--format",
+         [&o](const std::string& word) {
+           o.format = word == "csv"    ? OutputFormat::csv
+                      : word == "json" ? OutputFormat::json
+                                       : OutputFormat::table;
+         },
+         "Output format: table (for people), csv or json")
+      ->check(CLI::IsMember({"table", "csv", "json"}));
+  cmd->add_option("-o,--output", o.output, "Write here instead of standard output (all or nothing)");
+}
+
+void add_scoring_options(CLI::App* cmd, ScoringOptions& o, const char* horizon_help, bool measure) {
+  cmd->add_option("--rate", o.rate, "Risk-free rate for every obligor, continuously compounded decimal");
+  cmd->add_option("--horizon", o.horizon, horizon_help)->check(CLI::PositiveNumber);
+  cmd->add_option("--default-point-weight", o.weight,
+                  "Weight of long-term debt in the default point (default 0.5, common practice)")
+      ->check(CLI::Range(0.0, 1.0));
+  if (!measure) return;
+  cmd->add_option("--measure", o.measure, "physical (drift from the book, default the rate) or risk-neutral")
+      ->check(CLI::IsMember({"physical", "risk-neutral"}));
+}
+
+void check_rate(const ScoringOptions& o) {
+  if (o.rate && (*o.rate < -1.0 || *o.rate > 1.0)) {
+    throw InputError("--rate: expected a continuously compounded decimal in [-1, 1] (0.03 means 3%)");
+  }
+}
+
+ScoreSettings scoring_settings(ScoreSettings base, const ScoringOptions& o) {
+  check_rate(o);
+  base.rate_override = o.rate;
+  base.horizon_override = o.horizon;
+  base.weight_override = o.weight;
+  if (!o.measure.empty()) base.measure = *measure_from_string(o.measure);
+  return base;
+}
+
+void add_threads_option(CLI::App* cmd, unsigned& threads, const char* help) {
+  cmd->add_option("-j,--threads", threads, help)->check(CLI::Range(1, 1024));
+}
+
+unsigned default_threads() {
+  static const unsigned all_cores = std::max(1U, std::thread::hardware_concurrency());
+  return all_cores;
+}
+
+CLI::Option* add_db_option(CLI::App* cmd, std::string& db) {
+  return cmd->add_option("--db", db,
+                         "History store file (default: monitoring.store, else the user's data folder)");
+}
+
+void add_store_read_options(CLI::App* cmd, StoreReadOptions& o, bool runs) {
+  add_db_option(cmd, o.db);
+  add_output_options(cmd, o.out);
+  if (!runs) return;
+  const auto selector = CLI::Validator(
+      [](std::string& s) -> std::string {
+        if (s.find_first_not_of("0123456789") == std::string::npos && !s.empty() && s.size() <= 18) return {};
+        if (s.size() == 10 && s[4] == '-' && s[7] == '-') return {};  // dates are checked by the store
+        return "expected a run id or an as-of date YYYY-MM-DD, got '" + s + "'";
+      },
+      "ID|DATE");
+  cmd->add_option("--run", o.run,
+                  "The run to look at: a run id or an as-of date YYYY-MM-DD (default: the latest)")
+      ->check(selector);
+  cmd->add_option("--against", o.against,
+                  "The run to compare with: a run id or an as-of date (default: the run before --run)")
+      ->check(selector);
+}
+
+RunStore open_store(const std::string& db, const Config& config) {
+  return RunStore(resolve_store_path(db, config.monitor), StoreOpen::existing,
+                  config.monitor.busy_timeout_seconds);
+}
+
+void add_term_options(CLI::App* cmd, TermOptionText& c) {
+  cmd->add_option("--horizons", c.horizons,
+                  "PD term structure at these horizons in years, e.g. 0.5,1,2,3,5,7,10 (one row per obligor, "
+                  "model and horizon)");
+  cmd->add_option("--model", c.model,
+                  "merton (default), first-passage (Black-Cox barrier) or both, side by side");
+  cmd->add_option("--calibration", c.calibration,
+                  "once (default: solve at each obligor's horizon, project the others) or per-horizon (solve "
+                  "again at every horizon)");
+  cmd->add_option("--barrier-ratio", c.barrier_ratio,
+                  "First-passage barrier as a multiple of the default point (default 1)");
+  cmd->add_option("--barrier-growth", c.barrier_growth,
+                  "Growth of the first-passage barrier, continuously compounded decimal a year (default 0)");
+}
+
+void write_output(const std::string& path, std::string_view text) {
+  OutputFile out(path);
+  out.write(text);
+  out.commit();
+}
+
+void print_lines(const std::vector<std::string>& lines) {
+  for (const auto& l : lines) std::cerr << "firmcall: " << l << "\n";
+}
+
+void print_problems(const std::vector<std::string>& problems, std::size_t not_listed, OutputFormat format) {
+  if (format == OutputFormat::table) return;
+  print_lines(problems);
+  if (not_listed > 0) std::cerr << "firmcall: ... and " << not_listed << " more (column message)\n";
+}
+
+void print_run_notes(const std::vector<std::string>& notes, const std::vector<std::string>& problems,
+                     std::size_t not_listed, const OutputOptions& out, const std::string& closing) {
+  print_lines(notes);
+  print_problems(problems, not_listed, out.format);
+  if (out.wants_closing_line() && !closing.empty()) std::cerr << "firmcall: " << closing << "\n";
+}
+
+std::string failure_counts(std::size_t invalid, std::size_t not_converged) {
+  if (invalid + not_converged == 0) return {};
+  return " (" + std::to_string(invalid) + " invalid input, " + std::to_string(not_converged) +
+         " not converged)";
+}
+
+std::string brief(double v) {
+  if (!std::isfinite(v)) return "-";
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%.6g", v);
+  return buf;
+}
+
+}  // namespace firmcall::cli
