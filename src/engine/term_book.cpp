@@ -6,6 +6,7 @@
 #include <cmath>
 #include <cstdio>
 
+#include "engine/chunked_rows.hpp"
 #include "engine/term_output.hpp"
 #include "firmcall/book/errors.hpp"
 
@@ -199,11 +200,10 @@ void score_term_obligor(const ObligorRecord& rec, const BookDefaults& book, cons
 }
 
 const std::vector<std::string_view>& term_columns() {
-  static const std::vector<std::string_view> cols = {
-      "id",           "name",          "model",      "horizon",         "status",    "calibration_horizon",
-      "equity_value", "default_point", "barrier",    "asset_value",     "asset_vol", "distance_to_default",
-      "pd",           "pd_annualised", "pd_forward", "pd_risk_neutral", "spread_bp", "lgd",
-      "iterations",   "residual",      "message"};
+  static const std::vector<std::string_view> cols = split_names(
+      "id,name,model,horizon,status,calibration_horizon,equity_value,default_point,barrier,"
+      "asset_value,asset_vol,distance_to_default,pd,pd_annualised,pd_forward,pd_risk_neutral,"
+      "spread_bp,lgd,iterations,residual,message");
   return cols;
 }
 
@@ -216,11 +216,7 @@ ScoreSummary score_term_structure(const Book& book, const ScoreSettings& setting
   ScoreSummary sum;
   sum.total = n;
   sum.notes = book.notes;
-  {
-    std::string s;
-    writer->begin(s);
-    sink(s);
-  }
+  detail::sink_text(sink, [&](std::string& s) { writer->begin(s); });
   struct Worker {
     std::string out;
     TermScoredObligor scored;
@@ -230,38 +226,29 @@ ScoreSummary score_term_structure(const Book& book, const ScoreSettings& setting
   };
   std::vector<Worker> workers(threads);
   constexpr std::size_t kChunk = 4096;
-  for (std::size_t c0 = 0; c0 < n; c0 += kChunk) {
-    const std::size_t c1 = std::min(n, c0 + kChunk);
-    detail::parallel_slices(c1 - c0, threads, [&](unsigned w, std::size_t b, std::size_t e) {
-      Worker& wk = workers[w];
-      wk.out.clear();
-      for (std::size_t i = c0 + b; i < c0 + e; ++i) {
-        const ObligorRecord& rec = book.obligors[i];
-        score_term_obligor(rec, book.defaults, settings, run, wk.scored);
-        writer->obligor(rec, wk.scored, i == 0, wk.out);
-        switch (wk.scored.status) {
-          case RowStatus::ok:
-            ++wk.ok;
-            for (const TermPoint& p : wk.scored.points) wk.iterations += std::max(p.iterations, 0);
-            continue;
-          case RowStatus::invalid_input:
-            ++wk.invalid;
-            break;
-          case RowStatus::not_converged:
-            ++wk.not_converged;
-            break;
-        }
-        if (wk.problems.size() < run.max_listed_problems) {
-          wk.problems.emplace_back(i, obligor_problem(book.origin, rec, wk.scored.first_problem()));
-        }
-        ++wk.problem_count;
+  detail::write_in_chunks(n, kChunk, workers, 16, sink, [&](Worker& wk, std::size_t b, std::size_t e) {
+    for (std::size_t i = b; i < e; ++i) {
+      const ObligorRecord& rec = book.obligors[i];
+      score_term_obligor(rec, book.defaults, settings, run, wk.scored);
+      writer->obligor(rec, wk.scored, i == 0, wk.out);
+      switch (wk.scored.status) {
+        case RowStatus::ok:
+          ++wk.ok;
+          for (const TermPoint& p : wk.scored.points) wk.iterations += std::max(p.iterations, 0);
+          continue;
+        case RowStatus::invalid_input:
+          ++wk.invalid;
+          break;
+        case RowStatus::not_converged:
+          ++wk.not_converged;
+          break;
       }
-    });
-    for (Worker& wk : workers) {
-      sink(wk.out);
-      wk.out.clear();
+      if (wk.problems.size() < run.max_listed_problems) {
+        wk.problems.emplace_back(i, obligor_problem(book.origin, rec, wk.scored.first_problem()));
+      }
+      ++wk.problem_count;
     }
-  }
+  });
   std::vector<std::pair<std::size_t, std::string>> all;
   std::size_t problem_count = 0;
   for (Worker& wk : workers) {
@@ -277,9 +264,7 @@ ScoreSummary score_term_structure(const Book& book, const ScoreSettings& setting
     sum.problems.push_back(std::move(all[i].second));
   }
   sum.problems_not_listed = problem_count - sum.problems.size();
-  std::string s;
-  writer->end(sum, s);
-  sink(s);
+  detail::sink_text(sink, [&](std::string& s) { writer->end(sum, s); });
   return sum;
 }
 

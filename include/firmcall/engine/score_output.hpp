@@ -34,6 +34,15 @@ void append_sensitivities_table(std::string& out, const MertonSensitivities& s, 
 /// Appends the two header lines that explain append_sensitivities_table's columns.
 void append_sensitivities_table_header(std::string& out, std::size_t indent);
 
+/// Appends the JSON run fields of the score settings every Merton run shows: default_point_weight,
+/// rate_override and horizon_override (null when not overridden), after fields already written.
+void append_score_settings_json(std::string& out, const ScoreSettings& settings);
+/// Appends the end of a scored JSON document: the row list's close and the summary counts.
+void append_score_summary_json(std::string& out, const ScoreSummary& summary);
+/// Appends the tally under a table, "<what> N of M obligors" and the failures, then the problems.
+void append_score_tally(std::string& out, std::string_view what, const ScoreSummary& summary,
+                        std::size_t wrap_width = 0);
+
 /// Writes scored obligors in one format. Rows are appended to a caller's buffer so that workers
 /// can format in parallel; `separator` is written between rows by the caller.
 class ScoreWriter {
