@@ -410,4 +410,12 @@ PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& sce
   return run;
 }
 
+OptionCheck PortfolioBookOptions::validate() const {
+  if (threads < 1) return OptionProblem{"threads", std::to_string(threads), "must be at least 1"};
+  if (asset_correlation && !(*asset_correlation >= 0.0 && *asset_correlation < 1.0)) {
+    return OptionProblem{"asset_correlation", option_value_text(*asset_correlation), "must be in [0, 1)"};
+  }
+  return std::nullopt;
+}
+
 }  // namespace firmcall

@@ -701,4 +701,10 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
   return output.finish(std::move(notes));
 }
 
+OptionCheck ScoreBookOptions::validate() const {
+  if (threads < 1) return OptionProblem{"threads", std::to_string(threads), "must be at least 1"};
+  if (chunk_bytes == 0) return OptionProblem{"chunk_bytes", std::to_string(chunk_bytes), "must be positive"};
+  return std::nullopt;
+}
+
 }  // namespace firmcall

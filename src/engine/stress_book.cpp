@@ -424,4 +424,9 @@ ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, cons
   return sum;
 }
 
+OptionCheck StressBookOptions::validate() const {
+  if (threads < 1) return OptionProblem{"threads", std::to_string(threads), "must be at least 1"};
+  return std::nullopt;
+}
+
 }  // namespace firmcall

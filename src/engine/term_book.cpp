@@ -268,4 +268,30 @@ ScoreSummary score_term_structure(const Book& book, const ScoreSettings& setting
   return sum;
 }
 
+OptionCheck TermBookOptions::validate() const {
+  if (threads < 1) return OptionProblem{"threads", std::to_string(threads), "must be at least 1"};
+  if (horizons.size() > kMaxHorizons) {
+    return OptionProblem{"horizons", std::to_string(horizons.size()) + " horizons",
+                         "must hold at most " + std::to_string(kMaxHorizons) + " horizons"};
+  }
+  for (std::size_t i = 0; i < horizons.size(); ++i) {
+    const double t = horizons[i];
+    if (!(t > 0.0 && t <= 100.0))
+      return OptionProblem{"horizons", option_value_text(t), "must be in (0, 100] years"};
+    if (i > 0 && !(t > horizons[i - 1])) {
+      return OptionProblem{"horizons", option_value_text(t), "must be strictly increasing"};
+    }
+  }
+  if (models.empty()) return OptionProblem{"models", "none", "must name at least one model"};
+  if (!std::isfinite(barrier.default_point_ratio) || !(barrier.default_point_ratio > 0.0)) {
+    return OptionProblem{"barrier.default_point_ratio", option_value_text(barrier.default_point_ratio),
+                         "must be positive"};
+  }
+  if (!(std::fabs(barrier.growth_rate_cc) <= 1.0)) {
+    return OptionProblem{"barrier.growth_rate_cc", option_value_text(barrier.growth_rate_cc),
+                         "must be in [-1, 1]"};
+  }
+  return std::nullopt;
+}
+
 }  // namespace firmcall
