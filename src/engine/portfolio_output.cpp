@@ -6,6 +6,7 @@
 
 #include "firmcall/engine/portfolio_book.hpp"
 #include "firmcall/engine/score_output.hpp"
+#include "firmcall/format/json_writer.hpp"
 
 namespace firmcall {
 
@@ -378,6 +379,81 @@ void group_json(std::string& out, const PortfolioResult& run, const GroupTotals&
   out += "}";
 }
 
+// The exact one-factor distribution's figures and tails.
+void exact_json(std::string& out, const LossDistribution& d) {
+  out += "{";
+  JsonFields(out)
+      .text("status", to_string(d.status))
+      .number("expected_loss", d.expected_loss)
+      .number("loss_unit", d.loss_unit)
+      .count("grid_points", d.probability.size())
+      .raw("factor_values", std::to_string(d.nodes))
+      .number("error_estimate", d.error_estimate)
+      .number("top_mass", d.top_mass);
+  out += ", \"tails\": [";
+  for (std::size_t l = 0; l < d.tails.size(); ++l) {
+    const LossTail& t = d.tails[l];
+    out += l == 0 ? "{" : ", {";
+    JsonFields(out)
+        .number("confidence_level", t.confidence_level)
+        .number("var", t.var)
+        .number("es", t.es)
+        .number("unexpected_loss", t.var - d.expected_loss)
+        .number("exceedance", t.exceedance);
+    out += "}";
+  }
+  out += "]}";
+}
+
+// The large-portfolio limit's expected loss and tails.
+void limit_json(std::string& out, const LargePortfolioResult& r) {
+  out += "{";
+  JsonFields(out).number("expected_loss", r.expected_loss);
+  out += ", \"tails\": [";
+  for (std::size_t l = 0; l < r.tails.size(); ++l) {
+    const LargePortfolioTail& t = r.tails[l];
+    out += l == 0 ? "{" : ", {";
+    JsonFields(out)
+        .number("confidence_level", t.confidence_level)
+        .number("var", t.var)
+        .number("es", t.es)
+        .number("factor", t.factor);
+    out += "}";
+  }
+  out += "]}";
+}
+
+// The simulation's settings, figures and tails with their standard errors.
+void monte_carlo_json(std::string& out, const PortfolioResult& run, const SimulationResult& r) {
+  out += "{";
+  JsonFields(out)
+      .raw("scenarios", std::to_string(r.scenarios))
+      .raw("seed", std::to_string(run.portfolio.seed))
+      .boolean("importance_sampling", run.options.importance_sampling)
+      .number("effective_scenarios", r.effective_scenarios);
+  out += ", \"factor_shift\": [";
+  for (std::size_t j = 0; j < r.factor_shift.size(); ++j) {
+    if (j > 0) out += ", ";
+    append_json_number(out, r.factor_shift[j]);
+  }
+  out += "], ";
+  JsonFields(out).number("expected_loss", r.expected_loss).number("expected_loss_se", r.expected_loss_se);
+  out += ", \"tails\": [";
+  for (std::size_t l = 0; l < r.tails.size(); ++l) {
+    const SimulatedTail& t = r.tails[l];
+    out += l == 0 ? "{" : ", {";
+    JsonFields(out)
+        .number("confidence_level", t.confidence_level)
+        .number("var", t.var)
+        .number("var_se", t.var_se)
+        .number("es", t.es)
+        .number("es_se", t.es_se)
+        .number("exceedance", t.exceedance);
+    out += "}";
+  }
+  out += "]}";
+}
+
 void scenario_json(std::string& out, const PortfolioResult& run, const PortfolioScenarioResult& sc,
                    const Book& book) {
   const std::vector<std::string> cols =
@@ -419,103 +495,15 @@ void scenario_json(std::string& out, const PortfolioResult& run, const Portfolio
     }
     out += "]";
   }
-  // Exact one factor.
-  out += ",\n     \"exact_one_factor\": {";
-  json_key(out, "status");
-  append_json_string(out, to_string(sc.exact.status));
-  out += ", ";
-  json_number_field(out, "expected_loss", sc.exact.expected_loss);
-  out += ", ";
-  json_number_field(out, "loss_unit", sc.exact.loss_unit);
-  out += ", ";
-  json_key(out, "grid_points");
-  out += std::to_string(sc.exact.probability.size());
-  out += ", ";
-  json_key(out, "factor_values");
-  out += std::to_string(sc.exact.nodes);
-  out += ", ";
-  json_number_field(out, "error_estimate", sc.exact.error_estimate);
-  out += ", ";
-  json_number_field(out, "top_mass", sc.exact.top_mass);
-  out += ", \"tails\": [";
-  for (std::size_t l = 0; l < sc.exact.tails.size(); ++l) {
-    const LossTail& t = sc.exact.tails[l];
-    out += l == 0 ? "{" : ", {";
-    json_number_field(out, "confidence_level", t.confidence_level);
-    out += ", ";
-    json_number_field(out, "var", t.var);
-    out += ", ";
-    json_number_field(out, "es", t.es);
-    out += ", ";
-    json_number_field(out, "unexpected_loss", t.var - sc.exact.expected_loss);
-    out += ", ";
-    json_number_field(out, "exceedance", t.exceedance);
-    out += "}";
-  }
-  out += "]}";
-  // Large-portfolio limit.
-  out += ",\n     \"large_portfolio\": {";
-  json_number_field(out, "expected_loss", sc.limit.expected_loss);
-  out += ", \"tails\": [";
-  for (std::size_t l = 0; l < sc.limit.tails.size(); ++l) {
-    const LargePortfolioTail& t = sc.limit.tails[l];
-    out += l == 0 ? "{" : ", {";
-    json_number_field(out, "confidence_level", t.confidence_level);
-    out += ", ";
-    json_number_field(out, "var", t.var);
-    out += ", ";
-    json_number_field(out, "es", t.es);
-    out += ", ";
-    json_number_field(out, "factor", t.factor);
-    out += "}";
-  }
-  out += "]}";
-  // Monte Carlo.
+  out += ",\n     \"exact_one_factor\": ";
+  exact_json(out, sc.exact);
+  out += ",\n     \"large_portfolio\": ";
+  limit_json(out, sc.limit);
   out += ",\n     \"monte_carlo\": ";
-  if (!sc.simulated) {
-    out += "null";
+  if (sc.simulated) {
+    monte_carlo_json(out, run, sc.mc);
   } else {
-    const SimulationResult& r = sc.mc;
-    out += "{";
-    json_key(out, "scenarios");
-    out += std::to_string(r.scenarios);
-    out += ", ";
-    json_key(out, "seed");
-    out += std::to_string(run.portfolio.seed);
-    out += ", ";
-    json_key(out, "importance_sampling");
-    out += run.options.importance_sampling ? "true" : "false";
-    out += ", ";
-    json_number_field(out, "effective_scenarios", r.effective_scenarios);
-    out += ", \"factor_shift\": [";
-    for (std::size_t j = 0; j < r.factor_shift.size(); ++j) {
-      if (j > 0) out += ", ";
-      append_json_number(out, r.factor_shift[j]);
-    }
-    out += "], ";
-    json_number_field(out, "expected_loss", r.expected_loss);
-    out += ", ";
-    json_number_field(out, "expected_loss_se", r.expected_loss_se);
-    out += ", \"tails\": [";
-    for (std::size_t l = 0; l < r.tails.size(); ++l) {
-      const SimulatedTail& t = r.tails[l];
-      out += l == 0 ? "{" : ", {";
-      const std::pair<const char*, double> values[] = {{"confidence_level", t.confidence_level},
-                                                       {"var", t.var},
-                                                       {"var_se", t.var_se},
-                                                       {"es", t.es},
-                                                       {"es_se", t.es_se},
-                                                       {"exceedance", t.exceedance}};
-      bool first = true;
-      for (const auto& [k, v] : values) {
-        if (!first) out += ", ";
-        first = false;
-        json_key(out, k);
-        append_json_number(out, v);
-      }
-      out += "}";
-    }
-    out += "]}";
+    out += "null";
   }
   out += "}";
 }
