@@ -83,13 +83,19 @@ void append_score_settings_json(std::string& out, const ScoreSettings& settings)
       .number("horizon_override", settings.horizon_override.value_or(std::nan("")));
 }
 
-void append_score_summary_json(std::string& out, const ScoreSummary& sum) {
+JsonFields open_json_summary(std::string& out, std::size_t obligors, std::size_t scored, std::size_t invalid,
+                             std::size_t not_converged) {
   out += "\n  ],\n  \"summary\": {";
-  JsonFields(out)
-      .count("obligors", sum.total)
-      .count("scored", sum.scored)
-      .count("invalid_input", sum.invalid)
-      .count("not_converged", sum.not_converged);
+  JsonFields fields(out);
+  fields.count("obligors", obligors)
+      .count("scored", scored)
+      .count("invalid_input", invalid)
+      .count("not_converged", not_converged);
+  return fields;
+}
+
+void append_score_summary_json(std::string& out, const ScoreSummary& sum) {
+  open_json_summary(out, sum.total, sum.scored, sum.invalid, sum.not_converged);
   out += "}\n}\n";
 }
 

@@ -104,6 +104,16 @@ std::vector<ScoredObligor> score_base(const Book& book, const ScoreSettings& set
   return base;
 }
 
+// score_base into a run summary: its obligor count, the book's notes, the base counts and problems.
+template <class Summary>
+std::vector<ScoredObligor> score_base_into(const Book& book, const ScoreSettings& settings, unsigned threads,
+                                           std::size_t max_listed, Summary& sum) {
+  sum.obligors = book.obligors.size();
+  sum.notes = book.notes;
+  return score_base(book, settings, threads, max_listed, sum.base_ok, sum.base_invalid,
+                    sum.base_not_converged, sum.problems, sum.problems_not_listed);
+}
+
 }  // namespace
 
 std::string stressed_input_problem(const MertonInputs& in) {
@@ -304,11 +314,8 @@ StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenario
   const std::size_t n = book.obligors.size();
   const unsigned threads = std::max(1U, run.threads);
   StressSummary sum;
-  sum.obligors = n;
-  sum.notes = book.notes;
   const std::vector<ScoredObligor> base =
-      score_base(book, settings, threads, run.max_listed_problems, sum.base_ok, sum.base_invalid,
-                 sum.base_not_converged, sum.problems, sum.problems_not_listed);
+      score_base_into(book, settings, threads, run.max_listed_problems, sum);
 
   detail::StressRunInfo info{book.origin, scenario_origin, settings, stress, run.sensitivities,
                              n,           scenarios.size()};
@@ -388,11 +395,8 @@ ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, cons
   const std::size_t n = book.obligors.size();
   const unsigned threads = std::max(1U, run.threads);
   ReverseStressSummary sum;
-  sum.obligors = n;
-  sum.notes = book.notes;
   const std::vector<ScoredObligor> base =
-      score_base(book, settings, threads, run.max_listed_problems, sum.base_ok, sum.base_invalid,
-                 sum.base_not_converged, sum.problems, sum.problems_not_listed);
+      score_base_into(book, settings, threads, run.max_listed_problems, sum);
   detail::StressRunInfo info{book.origin, "", settings, StressSettings{}, false, n, 0};
   const auto writer = detail::make_reverse_stress_writer(run.format, info, target_pd, options);
   detail::sink_text(sink, [&](std::string& s) { writer->begin(s); });

@@ -207,12 +207,7 @@ class StressJsonWriter final : public detail::StressWriter {
   }
   void end(const StressSummary& sum, const std::vector<Scenario>&, const Book&,
            std::string& out) const override {
-    out += "\n  ],\n  \"summary\": {";
-    JsonFields(out)
-        .count("obligors", sum.obligors)
-        .count("scored", sum.base_ok)
-        .count("invalid_input", sum.base_invalid)
-        .count("not_converged", sum.base_not_converged)
+    open_json_summary(out, sum.obligors, sum.base_ok, sum.base_invalid, sum.base_not_converged)
         .count("rows", sum.rows)
         .count("failed_rows", sum.failed_rows);
     out += "}\n}\n";
@@ -505,12 +500,7 @@ class ReverseJsonWriter final : public detail::ReverseStressWriter {
     out += "}";
   }
   void end(const ReverseStressSummary& sum, std::string& out) const override {
-    out += "\n  ],\n  \"summary\": {";
-    JsonFields(out)
-        .count("obligors", sum.obligors)
-        .count("scored", sum.base_ok)
-        .count("invalid_input", sum.base_invalid)
-        .count("not_converged", sum.base_not_converged)
+    open_json_summary(out, sum.obligors, sum.base_ok, sum.base_invalid, sum.base_not_converged)
         .count("search_failed", sum.search_failed);
     out += "}\n}\n";
   }

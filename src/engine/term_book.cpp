@@ -173,12 +173,7 @@ void score_term_obligor(const ObligorRecord& rec, const BookDefaults& book, cons
   for (std::size_t m = 0; m < run.models.size(); ++m) {
     TermPoint* pts = out.points.data() + m * nh;
     if (out.resolved.ok()) {
-      TermRequest req;
-      req.model = run.models[m];
-      req.calibration = run.calibration;
-      req.barrier = run.barrier;
-      req.lgd = out.resolved.lgd;
-      req.solver = settings.solver;
+      const TermRequest req = detail::term_request(run, m, out.resolved.lgd, settings);
       term_structure(out.resolved.inputs, req, out.horizons.data(), nh, pts);
     } else {
       for (std::size_t i = 0; i < nh; ++i) {

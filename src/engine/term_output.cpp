@@ -78,6 +78,17 @@ std::string term_model_label(TermModel model) {
   return "  " + left_cell(to_string(model), 16);
 }
 
+TermRequest term_request(const TermBookOptions& run, std::size_t model, double lgd,
+                         const ScoreSettings& settings) {
+  TermRequest req;
+  req.model = run.models[model];
+  req.calibration = run.calibration;
+  req.barrier = run.barrier;
+  req.lgd = lgd;
+  req.solver = settings.solver;
+  return req;
+}
+
 bool has_first_passage(const TermBookOptions& run) {
   for (TermModel m : run.models) {
     if (m == TermModel::first_passage) return true;

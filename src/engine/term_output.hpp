@@ -39,6 +39,10 @@ std::string_view row_status_of(TermStatus status) noexcept;
 std::vector<double> term_numbers(const TermScoredObligor& s, const TermBookOptions& run, std::size_t model,
                                  std::size_t horizon);
 
+/// The request that computes model `model` of the run for an obligor with loss given default `lgd`.
+TermRequest term_request(const TermBookOptions& run, std::size_t model, double lgd,
+                         const ScoreSettings& settings);
+
 /// Layout of the term-structure tables: horizons per line, label and cell widths.
 inline constexpr std::size_t kTermPerLine = 8;
 inline constexpr std::size_t kTermLabelWidth = 35;

@@ -300,12 +300,7 @@ void stress_term_obligor(const ObligorRecord& rec, const TermScoredObligor& base
   const std::size_t nh = base.horizons.size();
   bool all_ok = true;
   for (std::size_t m = 0; m < run.models.size(); ++m) {
-    TermRequest req;
-    req.model = run.models[m];
-    req.calibration = run.calibration;
-    req.barrier = run.barrier;
-    req.lgd = base.resolved.lgd;
-    req.solver = settings.solver;
+    const TermRequest req = detail::term_request(run, m, base.resolved.lgd, settings);
     TermPoint* pts = out.points.data() + m * nh;
     term_structure(out.inputs, req, base.horizons.data(), nh, pts);
     for (std::size_t i = 0; i < nh; ++i) {

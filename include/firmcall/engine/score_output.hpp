@@ -9,6 +9,7 @@
 #include "firmcall/book/grades.hpp"
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/format/cells.hpp"
+#include "firmcall/format/json_writer.hpp"
 #include "firmcall/model/sensitivity.hpp"
 
 namespace firmcall {
@@ -37,6 +38,10 @@ void append_sensitivities_table_header(std::string& out, std::size_t indent);
 /// Appends the JSON run fields of the score settings every Merton run shows: default_point_weight,
 /// rate_override and horizon_override (null when not overridden), after fields already written.
 void append_score_settings_json(std::string& out, const ScoreSettings& settings);
+/// Appends the close of a JSON document's row list and opens its summary with the counts of the
+/// book as it stands; the caller may add fields to the returned writer, then appends "}\n}\n".
+JsonFields open_json_summary(std::string& out, std::size_t obligors, std::size_t scored, std::size_t invalid,
+                             std::size_t not_converged);
 /// Appends the end of a scored JSON document: the row list's close and the summary counts.
 void append_score_summary_json(std::string& out, const ScoreSummary& summary);
 /// Appends the tally under a table, "<what> N of M obligors" and the failures, then the problems.
