@@ -379,6 +379,14 @@ void group_json(std::string& out, const PortfolioResult& run, const GroupTotals&
   out += "}";
 }
 
+// Opens tail l of a "tails" list with its confidence level and VaR; the caller adds the rest and "}".
+JsonFields tail_fields(std::string& out, std::size_t l, double confidence_level, double var) {
+  out += l == 0 ? "{" : ", {";
+  JsonFields fields(out);
+  fields.number("confidence_level", confidence_level).number("var", var);
+  return fields;
+}
+
 // The exact one-factor distribution's figures and tails.
 void exact_json(std::string& out, const LossDistribution& d) {
   out += "{";
@@ -393,10 +401,7 @@ void exact_json(std::string& out, const LossDistribution& d) {
   out += ", \"tails\": [";
   for (std::size_t l = 0; l < d.tails.size(); ++l) {
     const LossTail& t = d.tails[l];
-    out += l == 0 ? "{" : ", {";
-    JsonFields(out)
-        .number("confidence_level", t.confidence_level)
-        .number("var", t.var)
+    tail_fields(out, l, t.confidence_level, t.var)
         .number("es", t.es)
         .number("unexpected_loss", t.var - d.expected_loss)
         .number("exceedance", t.exceedance);
@@ -412,12 +417,7 @@ void limit_json(std::string& out, const LargePortfolioResult& r) {
   out += ", \"tails\": [";
   for (std::size_t l = 0; l < r.tails.size(); ++l) {
     const LargePortfolioTail& t = r.tails[l];
-    out += l == 0 ? "{" : ", {";
-    JsonFields(out)
-        .number("confidence_level", t.confidence_level)
-        .number("var", t.var)
-        .number("es", t.es)
-        .number("factor", t.factor);
+    tail_fields(out, l, t.confidence_level, t.var).number("es", t.es).number("factor", t.factor);
     out += "}";
   }
   out += "]}";
@@ -441,10 +441,7 @@ void monte_carlo_json(std::string& out, const PortfolioResult& run, const Simula
   out += ", \"tails\": [";
   for (std::size_t l = 0; l < r.tails.size(); ++l) {
     const SimulatedTail& t = r.tails[l];
-    out += l == 0 ? "{" : ", {";
-    JsonFields(out)
-        .number("confidence_level", t.confidence_level)
-        .number("var", t.var)
+    tail_fields(out, l, t.confidence_level, t.var)
         .number("var_se", t.var_se)
         .number("es", t.es)
         .number("es_se", t.es_se)
