@@ -342,12 +342,6 @@ void json_key(std::string& out, std::string_view key) {
   out += "\": ";
 }
 
-// Appends "key": v (null when v is not finite).
-void json_number_field(std::string& out, std::string_view key, double v) {
-  json_key(out, key);
-  append_json_number(out, v);
-}
-
 void group_json(std::string& out, const PortfolioResult& run, const GroupTotals& g) {
   out += "{";
   json_key(out, "name");
@@ -456,14 +450,10 @@ void scenario_json(std::string& out, const PortfolioResult& run, const Portfolio
   const std::vector<std::string> cols =
       portfolio_columns(run.confidence_levels, run.options.monte_carlo_scenarios > 0);
   out += "    {";
-  json_key(out, "name");
-  append_json_string(out, sc.name);
-  out += ", ";
-  json_key(out, "description");
-  append_json_string(out, sc.description);
-  out += ", ";
-  json_key(out, "in_portfolio");
-  out += std::to_string(sc.included);
+  JsonFields(out)
+      .text("name", sc.name)
+      .text("description", sc.description)
+      .count("in_portfolio", sc.included);
   out += ",\n     \"obligors\": [\n";
   for (std::size_t i = 0; i < sc.obligors.size(); ++i) {
     const std::vector<Cell> cells = row_cells(run, sc, book, i);
@@ -507,46 +497,30 @@ void scenario_json(std::string& out, const PortfolioResult& run, const Portfolio
 
 void write_json(const PortfolioResult& run, const Book& book, const TextSink& sink) {
   std::string out = "{\n  \"run\": {";
-  json_key(out, "book");
-  append_json_string(out, run.book_origin);
-  out += ", ";
-  json_key(out, "correlation_file");
-  append_json_string(out, run.correlation_origin);
-  out += ", ";
-  json_key(out, "scenario_file");
-  append_json_string(out, run.scenario_origin);
+  JsonFields(out)
+      .text("book", run.book_origin)
+      .text("correlation_file", run.correlation_origin)
+      .text("scenario_file", run.scenario_origin);
   out += ", \"confidence_levels\": [";
   for (std::size_t l = 0; l < run.confidence_levels.size(); ++l) {
     if (l > 0) out += ", ";
     append_json_number(out, run.confidence_levels[l]);
   }
   out += "], ";
-  json_key(out, "measure");
-  append_json_string(out, to_string(run.settings.measure));
-  out += ", ";
-  json_number_field(out, "default_lgd", run.settings.default_lgd);
-  out += ", ";
-  json_key(out, "asset_correlation");
+  JsonFields fields(out);
+  fields.text("measure", to_string(run.settings.measure)).number("default_lgd", run.settings.default_lgd);
   if (run.options.basel_correlation) {
-    append_json_string(out, "basel");
+    fields.text("asset_correlation", "basel");
   } else if (run.options.asset_correlation) {
-    append_json_number(out, *run.options.asset_correlation);
+    fields.number("asset_correlation", *run.options.asset_correlation);
   } else {
-    append_json_string(out, "by obligor");
+    fields.text("asset_correlation", "by obligor");
   }
-  out += ", ";
-  json_key(out, "factors");
-  out += std::to_string(run.factors);
-  out += ", ";
-  json_key(out, "monte_carlo_scenarios");
-  out += std::to_string(run.options.monte_carlo_scenarios);
-  out += ", ";
-  json_key(out, "seed");
-  out += std::to_string(run.portfolio.seed);
-  out += ", ";
-  json_number_field(out, "irb_pd_floor", run.irb.pd_floor);
-  out += ", ";
-  json_number_field(out, "irb_maturity", run.irb.maturity_years);
+  fields.count("factors", run.factors)
+      .raw("monte_carlo_scenarios", std::to_string(run.options.monte_carlo_scenarios))
+      .raw("seed", std::to_string(run.portfolio.seed))
+      .number("irb_pd_floor", run.irb.pd_floor)
+      .number("irb_maturity", run.irb.maturity_years);
   out += "},\n  \"scenarios\": [\n";
   sink(out);
   for (std::size_t s = 0; s < run.scenarios.size(); ++s) {
@@ -556,14 +530,10 @@ void write_json(const PortfolioResult& run, const Book& book, const TextSink& si
     sink(out);
   }
   out = "\n  ],\n  \"summary\": {";
-  json_key(out, "obligors");
-  out += std::to_string(book.obligors.size());
-  out += ", ";
-  json_key(out, "in_portfolio");
-  out += std::to_string(run.scenarios.front().included);
-  out += ", ";
-  json_key(out, "failed_rows");
-  out += std::to_string(run.failed_rows);
+  JsonFields(out)
+      .count("obligors", book.obligors.size())
+      .count("in_portfolio", run.scenarios.front().included)
+      .count("failed_rows", run.failed_rows);
   out += "}\n}\n";
   sink(out);
 }

@@ -18,17 +18,9 @@ constexpr std::size_t kNumbers = 15;     // "calibration_horizon" .. "residual"
 }  // namespace
 
 std::string_view row_status_of(TermStatus status) noexcept {
-  switch (status) {
-    case TermStatus::ok:
-      return "ok";
-    case TermStatus::invalid_input:
-      return "invalid_input";
-    case TermStatus::max_iterations:
-    case TermStatus::not_bracketed:
-    case TermStatus::not_finite:
-      return "not_converged";
-  }
-  return "";
+  // ok and invalid_input read the same in both vocabularies; every solver failure is not_converged.
+  if (status == TermStatus::ok || status == TermStatus::invalid_input) return to_string(status);
+  return "not_converged";
 }
 
 std::vector<double> term_numbers(const TermScoredObligor& s, const TermBookOptions& run, std::size_t model,
