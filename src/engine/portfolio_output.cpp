@@ -424,14 +424,10 @@ void monte_carlo_json(std::string& out, const PortfolioResult& run, const Simula
       .raw("scenarios", std::to_string(r.scenarios))
       .raw("seed", std::to_string(run.portfolio.seed))
       .boolean("importance_sampling", run.options.importance_sampling)
-      .number("effective_scenarios", r.effective_scenarios);
-  out += ", \"factor_shift\": [";
-  for (std::size_t j = 0; j < r.factor_shift.size(); ++j) {
-    if (j > 0) out += ", ";
-    append_json_number(out, r.factor_shift[j]);
-  }
-  out += "], ";
-  JsonFields(out).number("expected_loss", r.expected_loss).number("expected_loss_se", r.expected_loss_se);
+      .number("effective_scenarios", r.effective_scenarios)
+      .number_list("factor_shift", r.factor_shift)
+      .number("expected_loss", r.expected_loss)
+      .number("expected_loss_se", r.expected_loss_se);
   out += ", \"tails\": [";
   for (std::size_t l = 0; l < r.tails.size(); ++l) {
     const SimulatedTail& t = r.tails[l];
@@ -497,18 +493,13 @@ void scenario_json(std::string& out, const PortfolioResult& run, const Portfolio
 
 void write_json(const PortfolioResult& run, const Book& book, const TextSink& sink) {
   std::string out = "{\n  \"run\": {";
-  JsonFields(out)
-      .text("book", run.book_origin)
-      .text("correlation_file", run.correlation_origin)
-      .text("scenario_file", run.scenario_origin);
-  out += ", \"confidence_levels\": [";
-  for (std::size_t l = 0; l < run.confidence_levels.size(); ++l) {
-    if (l > 0) out += ", ";
-    append_json_number(out, run.confidence_levels[l]);
-  }
-  out += "], ";
   JsonFields fields(out);
-  fields.text("measure", to_string(run.settings.measure)).number("default_lgd", run.settings.default_lgd);
+  fields.text("book", run.book_origin)
+      .text("correlation_file", run.correlation_origin)
+      .text("scenario_file", run.scenario_origin)
+      .number_list("confidence_levels", run.confidence_levels)
+      .text("measure", to_string(run.settings.measure))
+      .number("default_lgd", run.settings.default_lgd);
   if (run.options.basel_correlation) {
     fields.text("asset_correlation", "basel");
   } else if (run.options.asset_correlation) {

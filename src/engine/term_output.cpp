@@ -108,19 +108,14 @@ void append_term_run_fields(std::string& out, const TermBookOptions& run) {
     if (m > 0) out += ", ";
     append_json_string(out, to_string(run.models[m]));
   }
-  out += "], \"horizons\": ";
+  out += "]";
+  JsonFields fields(out, false);
   if (run.horizons.empty()) {
-    out += "null";
+    fields.null("horizons");
   } else {
-    out += "[";
-    for (std::size_t i = 0; i < run.horizons.size(); ++i) {
-      if (i > 0) out += ", ";
-      append_json_number(out, run.horizons[i]);
-    }
-    out += "]";
+    fields.number_list("horizons", run.horizons);
   }
-  JsonFields(out, false)
-      .text("calibration", to_string(run.calibration))
+  fields.text("calibration", to_string(run.calibration))
       .number("barrier_ratio", run.barrier.default_point_ratio)
       .number("barrier_growth", run.barrier.growth_rate_cc);
 }

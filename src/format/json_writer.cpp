@@ -23,6 +23,17 @@ JsonFields& JsonFields::numbers(std::span<const std::string_view> keys, std::spa
   return *this;
 }
 
+JsonFields& JsonFields::number_list(std::string_view k, std::span<const double> values) {
+  std::string& out = key(k);
+  out += '[';
+  for (std::size_t i = 0; i < values.size(); ++i) {
+    if (i > 0) out += ", ";
+    append_json_number(out, values[i]);
+  }
+  out += ']';
+  return *this;
+}
+
 JsonFields& JsonFields::count(std::string_view k, std::size_t n) {
   key(k) += std::to_string(n);
   return *this;

@@ -23,6 +23,8 @@ class JsonFields {
   JsonFields& number(std::string_view key, double v);
   /// Numbers under keys[i] for values[i] (both the same length).
   JsonFields& numbers(std::span<const std::string_view> keys, std::span<const double> values);
+  /// A list of numbers, `[a, b, ...]` (null for each that is not finite).
+  JsonFields& number_list(std::string_view key, std::span<const double> values);
   /// A whole count.
   JsonFields& count(std::string_view key, std::size_t n);
   /// A string literal, escaped.
