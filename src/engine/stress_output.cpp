@@ -124,10 +124,7 @@ class StressCsvWriter final : public detail::StressWriter {
     out.append(to_string(s.status));
     out.push_back(',');
     out.append(s.shocked() ? "true" : "false");
-    for (double x : stress_numbers(base, s)) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, stress_numbers(base, s));
     out.push_back(',');
     append_csv_text(out, s.message);
     if (info_.sensitivities) append_sensitivities_csv(out, s.sensitivities, s.status == StressStatus::ok);
@@ -435,22 +432,13 @@ class ReverseCsvWriter final : public detail::ReverseStressWriter {
     append_csv_text(out, rec.get(TextField::name));
     out.push_back(',');
     out.append(to_string(r.status));
-    for (double x : {c.pd, c.target, c.fall}) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, std::initializer_list<double>{c.pd, c.target, c.fall});
     out.push_back(',');
     out.append(search_status(base, r.equity_fall));
-    for (double x : {c.equity_at, c.pd_fall, c.mult}) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, std::initializer_list<double>{c.equity_at, c.pd_fall, c.mult});
     out.push_back(',');
     out.append(search_status(base, r.vol_multiplier));
-    for (double x : {c.vol_at, c.pd_mult}) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, std::initializer_list<double>{c.vol_at, c.pd_mult});
     out.push_back(',');
     append_csv_text(out, r.message);
     out.push_back('\n');
@@ -586,24 +574,17 @@ std::string scenario_summary_csv(const StressSummary& summary, const std::vector
       out.push_back(',');
       append_count(out, n);
     }
-    for (double x : {s.mean_pd, s.mean_pd_stressed}) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, std::initializer_list<double>{s.mean_pd, s.mean_pd_stressed});
     out.push_back(',');
     append_count(out, s.with_ead);
-    for (double x : {s.ead_total, s.ead_weighted_pd, s.ead_weighted_pd_stressed, s.pd_threshold}) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, std::initializer_list<double>{s.ead_total, s.ead_weighted_pd,
+                                                          s.ead_weighted_pd_stressed, s.pd_threshold});
     for (std::size_t n : {s.above_threshold, s.above_threshold_stressed, s.newly_above_threshold}) {
       out.push_back(',');
       append_count(out, n);
     }
-    for (double x : {s.expected_loss, s.expected_loss_stressed, s.expected_loss_stressed - s.expected_loss}) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, std::initializer_list<double>{s.expected_loss, s.expected_loss_stressed,
+                                                          s.expected_loss_stressed - s.expected_loss});
     out.push_back('\n');
   }
   return out;

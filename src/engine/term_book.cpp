@@ -226,18 +226,12 @@ ScoreSummary score_term_structure(const Book& book, const ScoreSettings& setting
       const ObligorRecord& rec = book.obligors[i];
       score_term_obligor(rec, book.defaults, settings, run, wk.scored);
       writer->obligor(rec, wk.scored, i == 0, wk.out);
-      switch (wk.scored.status) {
-        case RowStatus::ok:
-          ++wk.ok;
-          for (const TermPoint& p : wk.scored.points) wk.iterations += std::max(p.iterations, 0);
-          continue;
-        case RowStatus::invalid_input:
-          ++wk.invalid;
-          break;
-        case RowStatus::not_converged:
-          ++wk.not_converged;
-          break;
+      if (wk.scored.status == RowStatus::ok) {
+        ++wk.ok;
+        for (const TermPoint& p : wk.scored.points) wk.iterations += std::max(p.iterations, 0);
+        continue;
       }
+      ++(wk.scored.status == RowStatus::invalid_input ? wk.invalid : wk.not_converged);
       if (wk.problems.size() < run.max_listed_problems) {
         wk.problems.emplace_back(i, obligor_problem(book.origin, rec, wk.scored.first_problem()));
       }

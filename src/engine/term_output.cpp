@@ -143,10 +143,7 @@ class CsvTermWriter final : public TermWriter {
         append_number(out, s.horizons[i]);
         out.push_back(',');
         out.append(row_status_of(p.status));
-        for (double v : term_numbers(s, info_.run, m, i)) {
-          out.push_back(',');
-          append_number(out, v);
-        }
+        append_csv_numbers(out, term_numbers(s, info_.run, m, i));
         out.push_back(',');
         append_csv_text(out, s.messages[m * nh + i]);
         out.push_back('\n');

@@ -102,12 +102,9 @@ class CsvStressTermWriter final : public StressTermWriter {
         out.push_back(',');
         out.append(to_string(row_status(s, base.points[k], s.points[k])));
         out.append(s.shocked ? ",true" : ",false");
-        for (double v :
-             numbers(base.points[k], s.points[k], base.resolved.ok(),
-                     s.status != StressStatus::invalid_input && s.status != StressStatus::invalid_stress)) {
-          out.push_back(',');
-          append_number(out, v);
-        }
+        append_csv_numbers(out, numbers(base.points[k], s.points[k], base.resolved.ok(),
+                                        s.status != StressStatus::invalid_input &&
+                                            s.status != StressStatus::invalid_stress));
         out.push_back(',');
         append_csv_text(out, s.messages[k]);
         out.push_back('\n');

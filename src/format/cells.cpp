@@ -205,6 +205,13 @@ void append_csv_names(std::string& out, const std::vector<std::string_view>& nam
   }
 }
 
+void append_csv_numbers(std::string& out, std::span<const double> values) {
+  for (double v : values) {
+    out.push_back(',');
+    append_number(out, v);
+  }
+}
+
 std::vector<std::string_view> split_names(std::string_view list) {
   std::vector<std::string_view> names;
   std::size_t start = 0;

@@ -5,6 +5,7 @@
 #include <cstddef>
 #include <functional>
 #include <memory>
+#include <span>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -40,6 +41,8 @@ inline constexpr std::size_t kMaxNumberChars = 40;
 
 /// Writes v as append_number does at p (room for kMaxNumberChars); returns the end.
 char* write_number(char* p, double v) noexcept;
+/// Appends ",v" for each value as append_number writes it (",", alone when not finite).
+void append_csv_numbers(std::string& out, std::span<const double> values);
 /// Appends column names joined by commas (a CSV header, or its continuation after a comma).
 void append_csv_names(std::string& out, const std::vector<std::string_view>& names);
 /// The names of a comma-separated list such as "id,name,pd" (a column layout kept as one literal);
