@@ -381,6 +381,18 @@ JsonFields tail_fields(std::string& out, std::size_t l, double confidence_level,
   return fields;
 }
 
+// Appends ", "tails": [...]}": one object a tail, its level and VaR first, then what `rest` adds.
+template <class Tail, class Rest>
+void append_tails(std::string& out, const std::vector<Tail>& tails, const Rest& rest) {
+  out += ", \"tails\": [";
+  for (std::size_t l = 0; l < tails.size(); ++l) {
+    JsonFields fields = tail_fields(out, l, tails[l].confidence_level, tails[l].var);
+    rest(fields, tails[l]);
+    out += "}";
+  }
+  out += "]}";
+}
+
 // The exact one-factor distribution's figures and tails.
 void exact_json(std::string& out, const LossDistribution& d) {
   out += "{";
@@ -392,29 +404,20 @@ void exact_json(std::string& out, const LossDistribution& d) {
       .raw("factor_values", std::to_string(d.nodes))
       .number("error_estimate", d.error_estimate)
       .number("top_mass", d.top_mass);
-  out += ", \"tails\": [";
-  for (std::size_t l = 0; l < d.tails.size(); ++l) {
-    const LossTail& t = d.tails[l];
-    tail_fields(out, l, t.confidence_level, t.var)
-        .number("es", t.es)
+  append_tails(out, d.tails, [&](JsonFields& f, const LossTail& t) {
+    f.number("es", t.es)
         .number("unexpected_loss", t.var - d.expected_loss)
         .number("exceedance", t.exceedance);
-    out += "}";
-  }
-  out += "]}";
+  });
 }
 
 // The large-portfolio limit's expected loss and tails.
 void limit_json(std::string& out, const LargePortfolioResult& r) {
   out += "{";
   JsonFields(out).number("expected_loss", r.expected_loss);
-  out += ", \"tails\": [";
-  for (std::size_t l = 0; l < r.tails.size(); ++l) {
-    const LargePortfolioTail& t = r.tails[l];
-    tail_fields(out, l, t.confidence_level, t.var).number("es", t.es).number("factor", t.factor);
-    out += "}";
-  }
-  out += "]}";
+  append_tails(out, r.tails, [](JsonFields& f, const LargePortfolioTail& t) {
+    f.number("es", t.es).number("factor", t.factor);
+  });
 }
 
 // The simulation's settings, figures and tails with their standard errors.
@@ -428,17 +431,12 @@ void monte_carlo_json(std::string& out, const PortfolioResult& run, const Simula
       .number_list("factor_shift", r.factor_shift)
       .number("expected_loss", r.expected_loss)
       .number("expected_loss_se", r.expected_loss_se);
-  out += ", \"tails\": [";
-  for (std::size_t l = 0; l < r.tails.size(); ++l) {
-    const SimulatedTail& t = r.tails[l];
-    tail_fields(out, l, t.confidence_level, t.var)
-        .number("var_se", t.var_se)
+  append_tails(out, r.tails, [](JsonFields& f, const SimulatedTail& t) {
+    f.number("var_se", t.var_se)
         .number("es", t.es)
         .number("es_se", t.es_se)
         .number("exceedance", t.exceedance);
-    out += "}";
-  }
-  out += "]}";
+  });
 }
 
 void scenario_json(std::string& out, const PortfolioResult& run, const PortfolioScenarioResult& sc,
