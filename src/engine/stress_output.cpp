@@ -115,12 +115,7 @@ class StressCsvWriter final : public detail::StressWriter {
   void scenario_begin(const Scenario&, std::size_t, std::string&) const override {}
   void row(const Scenario& sc, const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor& s,
            bool, std::string& out) const override {
-    append_csv_text(out, sc.name);
-    out.push_back(',');
-    append_csv_text(out, rec.get(TextField::id));
-    out.push_back(',');
-    append_csv_text(out, rec.get(TextField::name));
-    out.push_back(',');
+    append_csv_texts(out, {sc.name, rec.get(TextField::id), rec.get(TextField::name)});
     out.append(to_string(s.status));
     out.push_back(',');
     out.append(s.shocked() ? "true" : "false");
@@ -427,10 +422,7 @@ class ReverseCsvWriter final : public detail::ReverseStressWriter {
   void row(const ObligorRecord& rec, const ScoredObligor& base, const ReverseStressRow& r, bool,
            std::string& out) const override {
     const ReverseCells c = reverse_cells(base, r, target_);
-    append_csv_text(out, rec.get(TextField::id));
-    out.push_back(',');
-    append_csv_text(out, rec.get(TextField::name));
-    out.push_back(',');
+    append_csv_texts(out, {rec.get(TextField::id), rec.get(TextField::name)});
     out.append(to_string(r.status));
     append_csv_numbers(out, std::initializer_list<double>{c.pd, c.target, c.fall});
     out.push_back(',');

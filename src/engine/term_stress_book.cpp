@@ -90,12 +90,7 @@ class CsvStressTermWriter final : public StressTermWriter {
     for (std::size_t m = 0; m < info_.run.models.size(); ++m) {
       for (std::size_t i = 0; i < nh; ++i) {
         const std::size_t k = m * nh + i;
-        append_csv_text(out, sc.name);
-        out.push_back(',');
-        append_csv_text(out, rec.get(TextField::id));
-        out.push_back(',');
-        append_csv_text(out, rec.get(TextField::name));
-        out.push_back(',');
+        append_csv_texts(out, {sc.name, rec.get(TextField::id), rec.get(TextField::name)});
         out.append(to_string(info_.run.models[m]));
         out.push_back(',');
         append_number(out, base.horizons[i]);

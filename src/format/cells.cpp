@@ -205,6 +205,13 @@ void append_csv_names(std::string& out, const std::vector<std::string_view>& nam
   }
 }
 
+void append_csv_texts(std::string& out, std::initializer_list<std::string_view> cells) {
+  for (std::string_view c : cells) {
+    append_csv_text(out, c);
+    out.push_back(',');
+  }
+}
+
 void append_csv_numbers(std::string& out, std::span<const double> values) {
   for (double v : values) {
     out.push_back(',');

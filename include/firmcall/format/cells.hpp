@@ -4,6 +4,7 @@
 
 #include <cstddef>
 #include <functional>
+#include <initializer_list>
 #include <memory>
 #include <span>
 #include <string>
@@ -43,6 +44,8 @@ inline constexpr std::size_t kMaxNumberChars = 40;
 char* write_number(char* p, double v) noexcept;
 /// Appends ",v" for each value as append_number writes it (",", alone when not finite).
 void append_csv_numbers(std::string& out, std::span<const double> values);
+/// Appends each cell as append_csv_text does, each followed by a comma (the leading text cells of a row).
+void append_csv_texts(std::string& out, std::initializer_list<std::string_view> cells);
 /// Appends column names joined by commas (a CSV header, or its continuation after a comma).
 void append_csv_names(std::string& out, const std::vector<std::string_view>& names);
 /// The names of a comma-separated list such as "id,name,pd" (a column layout kept as one literal);
