@@ -189,6 +189,34 @@ std::vector<GroupTotals*> groups_of(PortfolioScenarioResult& res) {
   return all;
 }
 
+// The total, sector and country groups of the included obligors (sorted by name).
+void fill_groups(const Book& book, const std::vector<std::size_t>& included, std::size_t L,
+                 PortfolioScenarioResult& res) {
+  const std::size_t n = res.obligors.size();
+  res.total = empty_group("total", L, res.simulated);
+  std::map<std::string, GroupTotals> sectors, countries;
+  for (std::size_t i : included) {
+    add_to_group(res.total, res, i, n, L);
+    std::string s = book.obligors[i].get(TextField::sector);
+    std::string c = book.obligors[i].get(TextField::country);
+    if (s.empty()) s = "(none)";
+    if (c.empty()) c = "(none)";
+    auto si = sectors.try_emplace(s, empty_group(s, L, res.simulated)).first;
+    add_to_group(si->second, res, i, n, L);
+    auto ci = countries.try_emplace(c, empty_group(c, L, res.simulated)).first;
+    add_to_group(ci->second, res, i, n, L);
+  }
+  for (auto& [k, g] : sectors) res.sectors.push_back(std::move(g));
+  for (auto& [k, g] : countries) res.countries.push_back(std::move(g));
+  // Sums of contributions that were not computed are unknown, not zero.
+  const double nan = std::nan("");
+  for (GroupTotals* g : groups_of(res)) {
+    if (res.exact.es_contributions.empty()) std::fill(g->es_exact.begin(), g->es_exact.end(), nan);
+    if (res.limit.es_contributions.empty()) std::fill(g->es_limit.begin(), g->es_limit.end(), nan);
+    if (res.simulated && res.mc.es_contributions.empty()) std::fill(g->es_mc.begin(), g->es_mc.end(), nan);
+  }
+}
+
 // Runs every model over the included obligors of `res` and fills its results.
 void compute(const Book& book, const CorrelationFile* corr, const Config& config,
              const PortfolioBookOptions& options, PortfolioScenarioResult& res,
@@ -272,28 +300,34 @@ void compute(const Book& book, const CorrelationFile* corr, const Config& config
     res.mc.es_contributions = spread(res.mc.es_contributions);
     res.mc.es_contribution_se = spread(res.mc.es_contribution_se);
   }
-  // Groups.
-  res.total = empty_group("total", L, res.simulated);
-  std::map<std::string, GroupTotals> sectors, countries;
-  for (std::size_t i : included) {
-    add_to_group(res.total, res, i, n, L);
-    std::string s = book.obligors[i].get(TextField::sector);
-    std::string c = book.obligors[i].get(TextField::country);
-    if (s.empty()) s = "(none)";
-    if (c.empty()) c = "(none)";
-    auto si = sectors.try_emplace(s, empty_group(s, L, res.simulated)).first;
-    add_to_group(si->second, res, i, n, L);
-    auto ci = countries.try_emplace(c, empty_group(c, L, res.simulated)).first;
-    add_to_group(ci->second, res, i, n, L);
+  fill_groups(book, included, L, res);
+}
+
+// Notes on the book as a whole: PDs over different horizons, and sectors of the correlation file
+// that no obligor names.
+void add_book_notes(const Book& book, const std::vector<ScoredObligor>& base, const CorrelationFile* corr,
+                    std::vector<std::string>& notes) {
+  std::set<double> horizons;
+  for (const ScoredObligor& b : base) {
+    if (b.resolved.ok()) horizons.insert(b.resolved.inputs.horizon_years);
   }
-  for (auto& [k, g] : sectors) res.sectors.push_back(std::move(g));
-  for (auto& [k, g] : countries) res.countries.push_back(std::move(g));
-  // Sums of contributions that were not computed are unknown, not zero.
-  const double nan = std::nan("");
-  for (GroupTotals* g : groups_of(res)) {
-    if (res.exact.es_contributions.empty()) std::fill(g->es_exact.begin(), g->es_exact.end(), nan);
-    if (res.limit.es_contributions.empty()) std::fill(g->es_limit.begin(), g->es_limit.end(), nan);
-    if (res.simulated && res.mc.es_contributions.empty()) std::fill(g->es_mc.begin(), g->es_mc.end(), nan);
+  if (horizons.size() > 1) {
+    char buf[240];
+    std::snprintf(buf, sizeof buf,
+                  "obligors have different horizons (%g to %g years): their PDs are combined as they are; "
+                  "give --horizon T to put every PD on one horizon",
+                  *horizons.begin(), *horizons.rbegin());
+    notes.push_back(buf);
+  }
+  if (corr) {
+    std::set<std::string> used;
+    for (const ObligorRecord& rec : book.obligors) used.insert(rec.get(TextField::sector));
+    for (const SectorFactor& f : corr->factors) {
+      if (!used.count(f.sector)) {
+        notes.push_back(corr->origin + ":" + std::to_string(f.line) + ": sector '" + f.sector +
+                        "' has no obligor in " + book.origin);
+      }
+    }
   }
 }
 
@@ -332,29 +366,8 @@ PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& sce
     }
   });
   std::vector<Static> statics(n);
-  std::set<double> horizons;
-  for (std::size_t i = 0; i < n; ++i) {
-    statics[i] = static_of(book.obligors[i], base[i], corr);
-    if (base[i].resolved.ok()) horizons.insert(base[i].resolved.inputs.horizon_years);
-  }
-  if (horizons.size() > 1) {
-    char buf[240];
-    std::snprintf(buf, sizeof buf,
-                  "obligors have different horizons (%g to %g years): their PDs are combined as they are; "
-                  "give --horizon T to put every PD on one horizon",
-                  *horizons.begin(), *horizons.rbegin());
-    run.notes.push_back(buf);
-  }
-  if (corr) {
-    std::set<std::string> used;
-    for (const ObligorRecord& rec : book.obligors) used.insert(rec.get(TextField::sector));
-    for (const SectorFactor& f : corr->factors) {
-      if (!used.count(f.sector)) {
-        run.notes.push_back(corr->origin + ":" + std::to_string(f.line) + ": sector '" + f.sector +
-                            "' has no obligor in " + book.origin);
-      }
-    }
-  }
+  for (std::size_t i = 0; i < n; ++i) statics[i] = static_of(book.obligors[i], base[i], corr);
+  add_book_notes(book, base, corr, run.notes);
 
   const auto problem = [&](const std::string& scenario, std::size_t i, const std::string& message) {
     ++run.failed_rows;
@@ -408,6 +421,14 @@ PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& sce
     run.scenarios.push_back(std::move(res));
   }
   return run;
+}
+
+OptionCheck PortfolioBookOptions::validate() const {
+  if (threads < 1) return OptionProblem{"threads", std::to_string(threads), "must be at least 1"};
+  if (asset_correlation && !(*asset_correlation >= 0.0 && *asset_correlation < 1.0)) {
+    return OptionProblem{"asset_correlation", option_value_text(*asset_correlation), "must be in [0, 1)"};
+  }
+  return std::nullopt;
 }
 
 }  // namespace firmcall

@@ -6,6 +6,7 @@
 
 #include "firmcall/engine/portfolio_book.hpp"
 #include "firmcall/engine/score_output.hpp"
+#include "firmcall/format/json_writer.hpp"
 
 namespace firmcall {
 
@@ -341,12 +342,6 @@ void json_key(std::string& out, std::string_view key) {
   out += "\": ";
 }
 
-// Appends "key": v (null when v is not finite).
-void json_number_field(std::string& out, std::string_view key, double v) {
-  json_key(out, key);
-  append_json_number(out, v);
-}
-
 void group_json(std::string& out, const PortfolioResult& run, const GroupTotals& g) {
   out += "{";
   json_key(out, "name");
@@ -378,19 +373,81 @@ void group_json(std::string& out, const PortfolioResult& run, const GroupTotals&
   out += "}";
 }
 
+// Opens tail l of a "tails" list with its confidence level and VaR; the caller adds the rest and "}".
+JsonFields tail_fields(std::string& out, std::size_t l, double confidence_level, double var) {
+  out += l == 0 ? "{" : ", {";
+  JsonFields fields(out);
+  fields.number("confidence_level", confidence_level).number("var", var);
+  return fields;
+}
+
+// Appends ", "tails": [...]}": one object a tail, its level and VaR first, then what `rest` adds.
+template <class Tail, class Rest>
+void append_tails(std::string& out, const std::vector<Tail>& tails, const Rest& rest) {
+  out += ", \"tails\": [";
+  for (std::size_t l = 0; l < tails.size(); ++l) {
+    JsonFields fields = tail_fields(out, l, tails[l].confidence_level, tails[l].var);
+    rest(fields, tails[l]);
+    out += "}";
+  }
+  out += "]}";
+}
+
+// The exact one-factor distribution's figures and tails.
+void exact_json(std::string& out, const LossDistribution& d) {
+  out += "{";
+  JsonFields(out)
+      .text("status", to_string(d.status))
+      .number("expected_loss", d.expected_loss)
+      .number("loss_unit", d.loss_unit)
+      .count("grid_points", d.probability.size())
+      .raw("factor_values", std::to_string(d.nodes))
+      .number("error_estimate", d.error_estimate)
+      .number("top_mass", d.top_mass);
+  append_tails(out, d.tails, [&](JsonFields& f, const LossTail& t) {
+    f.number("es", t.es)
+        .number("unexpected_loss", t.var - d.expected_loss)
+        .number("exceedance", t.exceedance);
+  });
+}
+
+// The large-portfolio limit's expected loss and tails.
+void limit_json(std::string& out, const LargePortfolioResult& r) {
+  out += "{";
+  JsonFields(out).number("expected_loss", r.expected_loss);
+  append_tails(out, r.tails, [](JsonFields& f, const LargePortfolioTail& t) {
+    f.number("es", t.es).number("factor", t.factor);
+  });
+}
+
+// The simulation's settings, figures and tails with their standard errors.
+void monte_carlo_json(std::string& out, const PortfolioResult& run, const SimulationResult& r) {
+  out += "{";
+  JsonFields(out)
+      .raw("scenarios", std::to_string(r.scenarios))
+      .raw("seed", std::to_string(run.portfolio.seed))
+      .boolean("importance_sampling", run.options.importance_sampling)
+      .number("effective_scenarios", r.effective_scenarios)
+      .number_list("factor_shift", r.factor_shift)
+      .number("expected_loss", r.expected_loss)
+      .number("expected_loss_se", r.expected_loss_se);
+  append_tails(out, r.tails, [](JsonFields& f, const SimulatedTail& t) {
+    f.number("var_se", t.var_se)
+        .number("es", t.es)
+        .number("es_se", t.es_se)
+        .number("exceedance", t.exceedance);
+  });
+}
+
 void scenario_json(std::string& out, const PortfolioResult& run, const PortfolioScenarioResult& sc,
                    const Book& book) {
   const std::vector<std::string> cols =
       portfolio_columns(run.confidence_levels, run.options.monte_carlo_scenarios > 0);
   out += "    {";
-  json_key(out, "name");
-  append_json_string(out, sc.name);
-  out += ", ";
-  json_key(out, "description");
-  append_json_string(out, sc.description);
-  out += ", ";
-  json_key(out, "in_portfolio");
-  out += std::to_string(sc.included);
+  JsonFields(out)
+      .text("name", sc.name)
+      .text("description", sc.description)
+      .count("in_portfolio", sc.included);
   out += ",\n     \"obligors\": [\n";
   for (std::size_t i = 0; i < sc.obligors.size(); ++i) {
     const std::vector<Cell> cells = row_cells(run, sc, book, i);
@@ -419,149 +476,40 @@ void scenario_json(std::string& out, const PortfolioResult& run, const Portfolio
     }
     out += "]";
   }
-  // Exact one factor.
-  out += ",\n     \"exact_one_factor\": {";
-  json_key(out, "status");
-  append_json_string(out, to_string(sc.exact.status));
-  out += ", ";
-  json_number_field(out, "expected_loss", sc.exact.expected_loss);
-  out += ", ";
-  json_number_field(out, "loss_unit", sc.exact.loss_unit);
-  out += ", ";
-  json_key(out, "grid_points");
-  out += std::to_string(sc.exact.probability.size());
-  out += ", ";
-  json_key(out, "factor_values");
-  out += std::to_string(sc.exact.nodes);
-  out += ", ";
-  json_number_field(out, "error_estimate", sc.exact.error_estimate);
-  out += ", ";
-  json_number_field(out, "top_mass", sc.exact.top_mass);
-  out += ", \"tails\": [";
-  for (std::size_t l = 0; l < sc.exact.tails.size(); ++l) {
-    const LossTail& t = sc.exact.tails[l];
-    out += l == 0 ? "{" : ", {";
-    json_number_field(out, "confidence_level", t.confidence_level);
-    out += ", ";
-    json_number_field(out, "var", t.var);
-    out += ", ";
-    json_number_field(out, "es", t.es);
-    out += ", ";
-    json_number_field(out, "unexpected_loss", t.var - sc.exact.expected_loss);
-    out += ", ";
-    json_number_field(out, "exceedance", t.exceedance);
-    out += "}";
-  }
-  out += "]}";
-  // Large-portfolio limit.
-  out += ",\n     \"large_portfolio\": {";
-  json_number_field(out, "expected_loss", sc.limit.expected_loss);
-  out += ", \"tails\": [";
-  for (std::size_t l = 0; l < sc.limit.tails.size(); ++l) {
-    const LargePortfolioTail& t = sc.limit.tails[l];
-    out += l == 0 ? "{" : ", {";
-    json_number_field(out, "confidence_level", t.confidence_level);
-    out += ", ";
-    json_number_field(out, "var", t.var);
-    out += ", ";
-    json_number_field(out, "es", t.es);
-    out += ", ";
-    json_number_field(out, "factor", t.factor);
-    out += "}";
-  }
-  out += "]}";
-  // Monte Carlo.
+  out += ",\n     \"exact_one_factor\": ";
+  exact_json(out, sc.exact);
+  out += ",\n     \"large_portfolio\": ";
+  limit_json(out, sc.limit);
   out += ",\n     \"monte_carlo\": ";
-  if (!sc.simulated) {
-    out += "null";
+  if (sc.simulated) {
+    monte_carlo_json(out, run, sc.mc);
   } else {
-    const SimulationResult& r = sc.mc;
-    out += "{";
-    json_key(out, "scenarios");
-    out += std::to_string(r.scenarios);
-    out += ", ";
-    json_key(out, "seed");
-    out += std::to_string(run.portfolio.seed);
-    out += ", ";
-    json_key(out, "importance_sampling");
-    out += run.options.importance_sampling ? "true" : "false";
-    out += ", ";
-    json_number_field(out, "effective_scenarios", r.effective_scenarios);
-    out += ", \"factor_shift\": [";
-    for (std::size_t j = 0; j < r.factor_shift.size(); ++j) {
-      if (j > 0) out += ", ";
-      append_json_number(out, r.factor_shift[j]);
-    }
-    out += "], ";
-    json_number_field(out, "expected_loss", r.expected_loss);
-    out += ", ";
-    json_number_field(out, "expected_loss_se", r.expected_loss_se);
-    out += ", \"tails\": [";
-    for (std::size_t l = 0; l < r.tails.size(); ++l) {
-      const SimulatedTail& t = r.tails[l];
-      out += l == 0 ? "{" : ", {";
-      const std::pair<const char*, double> values[] = {{"confidence_level", t.confidence_level},
-                                                       {"var", t.var},
-                                                       {"var_se", t.var_se},
-                                                       {"es", t.es},
-                                                       {"es_se", t.es_se},
-                                                       {"exceedance", t.exceedance}};
-      bool first = true;
-      for (const auto& [k, v] : values) {
-        if (!first) out += ", ";
-        first = false;
-        json_key(out, k);
-        append_json_number(out, v);
-      }
-      out += "}";
-    }
-    out += "]}";
+    out += "null";
   }
   out += "}";
 }
 
 void write_json(const PortfolioResult& run, const Book& book, const TextSink& sink) {
   std::string out = "{\n  \"run\": {";
-  json_key(out, "book");
-  append_json_string(out, run.book_origin);
-  out += ", ";
-  json_key(out, "correlation_file");
-  append_json_string(out, run.correlation_origin);
-  out += ", ";
-  json_key(out, "scenario_file");
-  append_json_string(out, run.scenario_origin);
-  out += ", \"confidence_levels\": [";
-  for (std::size_t l = 0; l < run.confidence_levels.size(); ++l) {
-    if (l > 0) out += ", ";
-    append_json_number(out, run.confidence_levels[l]);
-  }
-  out += "], ";
-  json_key(out, "measure");
-  append_json_string(out, to_string(run.settings.measure));
-  out += ", ";
-  json_number_field(out, "default_lgd", run.settings.default_lgd);
-  out += ", ";
-  json_key(out, "asset_correlation");
+  JsonFields fields(out);
+  fields.text("book", run.book_origin)
+      .text("correlation_file", run.correlation_origin)
+      .text("scenario_file", run.scenario_origin)
+      .number_list("confidence_levels", run.confidence_levels)
+      .text("measure", to_string(run.settings.measure))
+      .number("default_lgd", run.settings.default_lgd);
   if (run.options.basel_correlation) {
-    append_json_string(out, "basel");
+    fields.text("asset_correlation", "basel");
   } else if (run.options.asset_correlation) {
-    append_json_number(out, *run.options.asset_correlation);
+    fields.number("asset_correlation", *run.options.asset_correlation);
   } else {
-    append_json_string(out, "by obligor");
+    fields.text("asset_correlation", "by obligor");
   }
-  out += ", ";
-  json_key(out, "factors");
-  out += std::to_string(run.factors);
-  out += ", ";
-  json_key(out, "monte_carlo_scenarios");
-  out += std::to_string(run.options.monte_carlo_scenarios);
-  out += ", ";
-  json_key(out, "seed");
-  out += std::to_string(run.portfolio.seed);
-  out += ", ";
-  json_number_field(out, "irb_pd_floor", run.irb.pd_floor);
-  out += ", ";
-  json_number_field(out, "irb_maturity", run.irb.maturity_years);
+  fields.count("factors", run.factors)
+      .raw("monte_carlo_scenarios", std::to_string(run.options.monte_carlo_scenarios))
+      .raw("seed", std::to_string(run.portfolio.seed))
+      .number("irb_pd_floor", run.irb.pd_floor)
+      .number("irb_maturity", run.irb.maturity_years);
   out += "},\n  \"scenarios\": [\n";
   sink(out);
   for (std::size_t s = 0; s < run.scenarios.size(); ++s) {
@@ -571,14 +519,10 @@ void write_json(const PortfolioResult& run, const Book& book, const TextSink& si
     sink(out);
   }
   out = "\n  ],\n  \"summary\": {";
-  json_key(out, "obligors");
-  out += std::to_string(book.obligors.size());
-  out += ", ";
-  json_key(out, "in_portfolio");
-  out += std::to_string(run.scenarios.front().included);
-  out += ", ";
-  json_key(out, "failed_rows");
-  out += std::to_string(run.failed_rows);
+  JsonFields(out)
+      .count("obligors", book.obligors.size())
+      .count("in_portfolio", run.scenarios.front().included)
+      .count("failed_rows", run.failed_rows);
   out += "}\n}\n";
   sink(out);
 }

@@ -7,43 +7,28 @@
 #include <cstdint>
 #include <cstdio>
 #include <cstring>
+#include <iterator>
+
+#include <fmt/format.h>
+
+#include "firmcall/format/json_writer.hpp"
+#include "firmcall/format/table_text.hpp"
 
 namespace firmcall {
 
 const std::vector<std::string_view>& score_columns() {
-  static const std::vector<std::string_view> cols = {"id",
-                                                     "name",
-                                                     "status",
-                                                     "equity_value",
-                                                     "default_point",
-                                                     "asset_value",
-                                                     "asset_vol",
-                                                     "leverage",
-                                                     "distance_to_default",
-                                                     "pd",
-                                                     "pd_risk_neutral",
-                                                     "debt_value",
-                                                     "spread_bp",
-                                                     "iterations",
-                                                     "residual",
-                                                     "message"};
+  static const std::vector<std::string_view> cols = split_names(
+      "id,name,status,equity_value,default_point,asset_value,asset_vol,leverage,"
+      "distance_to_default,pd,pd_risk_neutral,debt_value,spread_bp,iterations,residual,message");
   return cols;
 }
 
 const std::vector<std::string_view>& sensitivity_columns() {
-  static const std::vector<std::string_view> cols = {"sensitivity_status",
-                                                     "dd_per_equity_pct",
-                                                     "pd_per_equity_pct",
-                                                     "spread_bp_per_equity_pct",
-                                                     "dd_per_equity_vol_pt",
-                                                     "pd_per_equity_vol_pt",
-                                                     "spread_bp_per_equity_vol_pt",
-                                                     "dd_per_default_point_pct",
-                                                     "pd_per_default_point_pct",
-                                                     "spread_bp_per_default_point_pct",
-                                                     "dd_per_rate_bp",
-                                                     "pd_per_rate_bp",
-                                                     "spread_bp_per_rate_bp"};
+  static const std::vector<std::string_view> cols = split_names(
+      "sensitivity_status,dd_per_equity_pct,pd_per_equity_pct,spread_bp_per_equity_pct,"
+      "dd_per_equity_vol_pt,pd_per_equity_vol_pt,spread_bp_per_equity_vol_pt,"
+      "dd_per_default_point_pct,pd_per_default_point_pct,spread_bp_per_default_point_pct,"
+      "dd_per_rate_bp,pd_per_rate_bp,spread_bp_per_rate_bp");
   return cols;
 }
 
@@ -84,21 +69,45 @@ void append_sensitivities_csv(std::string& out, const MertonSensitivities& s, bo
 
 void append_sensitivities_json(std::string& out, const MertonSensitivities& s, bool usable) {
   const auto& cols = sensitivity_columns();
-  out += ", \"";
-  out += cols[0];
-  out += "\": ";
-  if (usable) {
-    append_json_string(out, to_string(s.status));
-  } else {
-    out += "null";
-  }
+  JsonFields fields(out, false);
+  fields.text_or_null(cols[0], to_string(s.status), usable);
   const auto v = sensitivity_values(s);
-  for (std::size_t i = 0; i < v.size(); ++i) {
-    out += ", \"";
-    out += cols[i + 1];
-    out += "\": ";
-    append_json_number(out, usable && s.ok() ? v[i] : std::nan(""));
+  for (std::size_t i = 0; i < v.size(); ++i)
+    fields.number(cols[i + 1], usable && s.ok() ? v[i] : std::nan(""));
+}
+
+void append_score_settings_json(std::string& out, const ScoreSettings& settings) {
+  JsonFields(out, false)
+      .number("default_point_weight", settings.weight_override.value_or(settings.default_point_weight))
+      .number("rate_override", settings.rate_override.value_or(std::nan("")))
+      .number("horizon_override", settings.horizon_override.value_or(std::nan("")));
+}
+
+JsonFields open_json_summary(std::string& out, std::size_t obligors, std::size_t scored, std::size_t invalid,
+                             std::size_t not_converged) {
+  out += "\n  ],\n  \"summary\": {";
+  JsonFields fields(out);
+  fields.count("obligors", obligors)
+      .count("scored", scored)
+      .count("invalid_input", invalid)
+      .count("not_converged", not_converged);
+  return fields;
+}
+
+void append_score_summary_json(std::string& out, const ScoreSummary& sum) {
+  open_json_summary(out, sum.total, sum.scored, sum.invalid, sum.not_converged);
+  out += "}\n}\n";
+}
+
+void append_score_tally(std::string& out, std::string_view what, const ScoreSummary& sum,
+                        std::size_t wrap_width) {
+  fmt::format_to(std::back_inserter(out), "{} {} of {} obligors", what, sum.scored, sum.total);
+  if (sum.failed() > 0) {
+    fmt::format_to(std::back_inserter(out), "; {} invalid input, {} not converged (reasons below)",
+                   sum.invalid, sum.not_converged);
   }
+  out += "\n";
+  append_table_problems(out, sum.problems, sum.problems_not_listed, wrap_width);
 }
 
 void append_sensitivities_table_header(std::string& out, std::size_t indent) {
@@ -167,7 +176,8 @@ NumericRow numeric_row(const ScoredObligor& s) {
 
 class CsvWriter final : public ScoreWriter {
  public:
-  CsvWriter(bool sensitivities, const GradeScale* grades) : sensitivities_(sensitivities), grades_(grades) {}
+  CsvWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades)
+      : sensitivities_(sensitivities), grades_(grades) {}
   void begin(std::string& out) const override {
     append_csv_names(out, score_columns());
     if (sensitivities_) {
@@ -221,65 +231,36 @@ class JsonWriter final : public ScoreWriter {
   JsonWriter(std::string origin, const ScoreSettings& settings, bool sensitivities, const GradeScale* grades)
       : origin_(std::move(origin)), settings_(settings), sensitivities_(sensitivities), grades_(grades) {}
   void begin(std::string& out) const override {
-    out += "{\n  \"run\": {\"input\": ";
-    append_json_string(out, origin_);
-    out += ", \"measure\": ";
-    append_json_string(out, to_string(settings_.measure));
-    out += ", \"default_point_weight\": ";
-    append_json_number(out, settings_.weight_override.value_or(settings_.default_point_weight));
-    out += ", \"rate_override\": ";
-    append_json_number(out, settings_.rate_override.value_or(std::nan("")));
-    out += ", \"horizon_override\": ";
-    append_json_number(out, settings_.horizon_override.value_or(std::nan("")));
+    out += "{\n  \"run\": {";
+    JsonFields(out).text("input", origin_).text("measure", to_string(settings_.measure));
+    append_score_settings_json(out, settings_);
     out += "},\n  \"obligors\": [\n";
   }
   std::string_view separator() const override { return ",\n"; }
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
     const auto& cols = score_columns();
-    out += "    {\"id\": ";
-    append_json_string(out, rec.get(TextField::id));
-    out += ", \"name\": ";
-    append_json_string(out, rec.get(TextField::name));
-    out += ", \"status\": ";
-    append_json_string(out, to_string(s.status));
-    const NumericRow r = numeric_row(s);
-    for (std::size_t i = 0; i < kNumericColumns; ++i) {
-      out += ", \"";
-      out += cols[kFirstNumericColumn + i];
-      out += "\": ";
-      append_json_number(out, r.v[i]);
-    }
-    out += ", \"iterations\": ";
+    out += "    {";
+    JsonFields fields(out);
+    fields.text("id", rec.get(TextField::id))
+        .text("name", rec.get(TextField::name))
+        .text("status", to_string(s.status))
+        .numbers(std::span(cols).subspan(kFirstNumericColumn, kNumericColumns), numeric_row(s).v);
     if (s.solution.residual >= 0.0) {
-      out += std::to_string(s.solution.iterations);
-      out += ", \"residual\": ";
-      append_json_number(out, s.solution.residual);
+      fields.raw("iterations", std::to_string(s.solution.iterations)).number("residual", s.solution.residual);
     } else {
-      out += "null, \"residual\": null";
+      fields.null("iterations").null("residual");
     }
-    out += ", \"message\": ";
-    append_json_string(out, s.message);
+    fields.text("message", s.message);
     if (sensitivities_) {
       const bool usable = s.status == RowStatus::ok;
       append_sensitivities_json(
           out, usable ? sensitivities_of(s.resolved, s.solution) : MertonSensitivities{}, usable);
     }
-    if (grades_) {
-      out += ", \"grade\": ";
-      if (s.status == RowStatus::ok) {
-        append_json_string(out, grade_label(grades_, s));
-      } else {
-        out += "null";
-      }
-    }
+    if (grades_)
+      JsonFields(out, false).text_or_null("grade", grade_label(grades_, s), s.status == RowStatus::ok);
     out += "}";
   }
-  void end(const ScoreSummary& sum, std::string& out) const override {
-    out += "\n  ],\n  \"summary\": {\"obligors\": " + std::to_string(sum.total) +
-           ", \"scored\": " + std::to_string(sum.scored) +
-           ", \"invalid_input\": " + std::to_string(sum.invalid) +
-           ", \"not_converged\": " + std::to_string(sum.not_converged) + "}\n}\n";
-  }
+  void end(const ScoreSummary& sum, std::string& out) const override { append_score_summary_json(out, sum); }
 
  private:
   std::string origin_;
@@ -291,7 +272,7 @@ class JsonWriter final : public ScoreWriter {
 // Fixed-width text for people: 116 columns (with grades: a grade column, and the name 6 narrower).
 class TableWriter final : public ScoreWriter {
  public:
-  TableWriter(bool sensitivities, const GradeScale* grades)
+  TableWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades)
       : sensitivities_(sensitivities), grades_(grades) {}
   void begin(std::string& out) const override {
     char buf[256];
@@ -303,7 +284,7 @@ class TableWriter final : public ScoreWriter {
                   "", "vol %", "point", "", "", "%", "bp", grade_cell("").c_str(), "");
     out += buf;
     if (sensitivities_) append_sensitivities_table_header(out, 2);
-    out += std::string(115, '-') + "\n";
+    append_rule(out, 115);
   }
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
     char buf[320];
@@ -326,14 +307,8 @@ class TableWriter final : public ScoreWriter {
     if (sensitivities_) append_sensitivities_table(out, sensitivities_of(s.resolved, s.solution), 2);
   }
   void end(const ScoreSummary& sum, std::string& out) const override {
-    out += std::string(115, '-') + "\n";
-    out += "scored " + std::to_string(sum.scored) + " of " + std::to_string(sum.total) + " obligors";
-    if (sum.failed() > 0) {
-      out += "; " + std::to_string(sum.invalid) + " invalid input, " + std::to_string(sum.not_converged) +
-             " not converged (reasons below)";
-    }
-    out += "\n";
-    append_table_problems(out, sum.problems, sum.problems_not_listed);
+    append_rule(out, 115);
+    append_score_tally(out, "scored", sum);
     out += kTableCaution;
   }
 
@@ -350,10 +325,7 @@ class TableWriter final : public ScoreWriter {
     return cell;
   }
   const GradeScale* grades_;
-  static std::string fit(const std::string& s, std::size_t w) {
-    if (s.size() <= w) return s;
-    return s.substr(0, w - 1) + "~";
-  }
+  static std::string fit(const std::string& s, std::size_t w) { return fit_text(s, w); }
   static std::string amount(double v) {
     char buf[64];
     if (std::fabs(v) < 1e11) {
@@ -382,15 +354,8 @@ class TableWriter final : public ScoreWriter {
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
                                                const ScoreSettings& settings, bool sensitivities,
                                                const GradeScale* grades) {
-  switch (format) {
-    case OutputFormat::csv:
-      return std::make_unique<CsvWriter>(sensitivities, grades);
-    case OutputFormat::json:
-      return std::make_unique<JsonWriter>(origin, settings, sensitivities, grades);
-    case OutputFormat::table:
-      return std::make_unique<TableWriter>(sensitivities, grades);
-  }
-  return std::make_unique<CsvWriter>(sensitivities, grades);
+  return make_format_writer<ScoreWriter, CsvWriter, JsonWriter, TableWriter>(format, origin, settings,
+                                                                             sensitivities, grades);
 }
 
 }  // namespace firmcall

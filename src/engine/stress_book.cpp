@@ -8,6 +8,7 @@
 #include <functional>
 #include <thread>
 
+#include "engine/chunked_rows.hpp"
 #include "engine/stress_output.hpp"
 #include "firmcall/book/errors.hpp"
 #include "firmcall/engine/score_output.hpp"
@@ -101,6 +102,16 @@ std::vector<ScoredObligor> score_base(const Book& book, const ScoreSettings& set
     }
   }
   return base;
+}
+
+// score_base into a run summary: its obligor count, the book's notes, the base counts and problems.
+template <class Summary>
+std::vector<ScoredObligor> score_base_into(const Book& book, const ScoreSettings& settings, unsigned threads,
+                                           std::size_t max_listed, Summary& sum) {
+  sum.obligors = book.obligors.size();
+  sum.notes = book.notes;
+  return score_base(book, settings, threads, max_listed, sum.base_ok, sum.base_invalid,
+                    sum.base_not_converged, sum.problems, sum.problems_not_listed);
 }
 
 }  // namespace
@@ -201,150 +212,153 @@ void stress_obligors(const ScoredObligor* base, const ShockEffect* effects, std:
   }
 }
 
+namespace {
+
+// The table's PD grid: its shape from the scenarios' grid cells, and its row and column heads.
+// Returns false (nothing kept) for other formats or when no scenario is a grid cell.
+bool init_grid(const std::vector<Scenario>& scenarios, std::size_t n, OutputFormat format, PdGrid& grid,
+               int& grid_rows, int& grid_columns) {
+  grid_rows = 0;
+  grid_columns = 0;
+  for (const Scenario& sc : scenarios) {
+    grid_rows = std::max(grid_rows, sc.grid_row + 1);
+    grid_columns = std::max(grid_columns, sc.grid_column + 1);
+  }
+  if (format != OutputFormat::table || grid_rows <= 0 || grid_columns <= 0) return false;
+  grid.equity_changes.assign(static_cast<std::size_t>(grid_rows), 0.0);
+  grid.vol_multipliers.assign(static_cast<std::size_t>(grid_columns), 1.0);
+  grid.pd.assign(n * static_cast<std::size_t>(grid_rows * grid_columns), std::nan(""));
+  for (const Scenario& sc : scenarios) {
+    if (sc.grid_row < 0 || sc.shocks.empty()) continue;
+    grid.equity_changes[static_cast<std::size_t>(sc.grid_row)] = sc.shocks[0].shock.equity_change;
+    grid.vol_multipliers[static_cast<std::size_t>(sc.grid_column)] = sc.shocks[0].shock.equity_vol_multiplier;
+  }
+  return true;
+}
+
+// What the stressed rows of one scenario leave for its summary, by obligor.
+struct ScenarioOutcome {
+  std::vector<StressStatus> status;
+  std::vector<std::uint8_t> shocked;
+  std::vector<double> pd_stressed;
+};
+
+// The summary of one scenario, sequentially in book order (the same figures whatever the thread
+// count); lists the failures the scenario caused in sum.problems.
+ScenarioSummary summarise_scenario(const Book& book, const Scenario& sc,
+                                   const std::vector<ScoredObligor>& base, const ScenarioOutcome& o,
+                                   const ScoreSettings& settings, const StressSettings& stress,
+                                   std::size_t max_listed, StressSummary& sum) {
+  const std::size_t n = base.size();
+  ScenarioSummary ss;
+  ss.obligors = n;
+  ss.pd_threshold = stress.pd_threshold;
+  double sum_pd = 0.0, sum_pd_s = 0.0, sum_w = 0.0, sum_wpd = 0.0, sum_wpd_s = 0.0;
+  for (std::size_t i = 0; i < n; ++i) {
+    if (o.status[i] != StressStatus::ok) {
+      ++ss.failed;
+      if (base[i].status == RowStatus::ok) {
+        // A failure caused by the scenario: list it (base failures are listed once above). The
+        // message is rebuilt here, only for the listed few.
+        if (sum.problems.size() < max_listed) {
+          StressedObligor again;
+          stress_obligor(base[i], sc.effect_for(book.obligors[i]), settings, false, again);
+          sum.problems.push_back(
+              problem_text(book, book.obligors[i], "scenario '" + sc.name + "': " + again.message));
+        } else {
+          ++sum.problems_not_listed;
+        }
+      }
+      continue;
+    }
+    ++ss.compared;
+    if (o.shocked[i]) ++ss.shocked;
+    const double p0 = base[i].measures.pd;
+    const double p1 = o.pd_stressed[i];
+    sum_pd += p0;
+    sum_pd_s += p1;
+    if (p0 > stress.pd_threshold) ++ss.above_threshold;
+    if (p1 > stress.pd_threshold) ++ss.above_threshold_stressed;
+    if (p0 <= stress.pd_threshold && p1 > stress.pd_threshold) ++ss.newly_above_threshold;
+    const ResolvedObligor& r = base[i].resolved;
+    if (r.has_ead) {
+      ++ss.with_ead;
+      sum_w += r.ead;
+      sum_wpd += r.ead * p0;
+      sum_wpd_s += r.ead * p1;
+      ss.expected_loss += p0 * r.lgd * r.ead;
+      ss.expected_loss_stressed += p1 * r.lgd * r.ead;
+    }
+  }
+  const double nan = std::nan("");
+  ss.mean_pd = ss.compared > 0 ? sum_pd / static_cast<double>(ss.compared) : nan;
+  ss.mean_pd_stressed = ss.compared > 0 ? sum_pd_s / static_cast<double>(ss.compared) : nan;
+  ss.ead_total = sum_w;
+  ss.ead_weighted_pd = sum_w > 0.0 ? sum_wpd / sum_w : nan;
+  ss.ead_weighted_pd_stressed = sum_w > 0.0 ? sum_wpd_s / sum_w : nan;
+  return ss;
+}
+
+// Per-thread state of the stressed rows.
+struct StressWorker {
+  std::string out;
+  std::vector<ShockEffect> effects;
+  std::vector<StressedObligor> stressed;
+};
+
+}  // namespace
+
 StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenarios,
                          const std::string& scenario_origin, const ScoreSettings& settings,
                          const StressSettings& stress, const StressBookOptions& run, const TextSink& sink) {
   const std::size_t n = book.obligors.size();
   const unsigned threads = std::max(1U, run.threads);
   StressSummary sum;
-  sum.obligors = n;
-  sum.notes = book.notes;
   const std::vector<ScoredObligor> base =
-      score_base(book, settings, threads, run.max_listed_problems, sum.base_ok, sum.base_invalid,
-                 sum.base_not_converged, sum.problems, sum.problems_not_listed);
+      score_base_into(book, settings, threads, run.max_listed_problems, sum);
 
   detail::StressRunInfo info{book.origin, scenario_origin, settings, stress, run.sensitivities,
                              n,           scenarios.size()};
   const auto writer = detail::make_stress_writer(run.format, info);
-  {
-    std::string s;
-    writer->begin(s);
-    sink(s);
-  }
+  detail::sink_text(sink, [&](std::string& s) { writer->begin(s); });
 
-  // The table's PD grid.
   int grid_rows = 0;
   int grid_columns = 0;
-  for (const Scenario& sc : scenarios) {
-    grid_rows = std::max(grid_rows, sc.grid_row + 1);
-    grid_columns = std::max(grid_columns, sc.grid_column + 1);
-  }
-  const bool keep_grid = run.format == OutputFormat::table && grid_rows > 0 && grid_columns > 0;
-  if (keep_grid) {
-    sum.grid.equity_changes.assign(static_cast<std::size_t>(grid_rows), 0.0);
-    sum.grid.vol_multipliers.assign(static_cast<std::size_t>(grid_columns), 1.0);
-    sum.grid.pd.assign(n * static_cast<std::size_t>(grid_rows * grid_columns), std::nan(""));
-    for (const Scenario& sc : scenarios) {
-      if (sc.grid_row < 0 || sc.shocks.empty()) continue;
-      sum.grid.equity_changes[static_cast<std::size_t>(sc.grid_row)] = sc.shocks[0].shock.equity_change;
-      sum.grid.vol_multipliers[static_cast<std::size_t>(sc.grid_column)] =
-          sc.shocks[0].shock.equity_vol_multiplier;
-    }
-  }
+  const bool keep_grid = init_grid(scenarios, n, run.format, sum.grid, grid_rows, grid_columns);
 
-  struct Worker {
-    std::string out;
-    std::vector<ShockEffect> effects;
-    std::vector<StressedObligor> stressed;
-  };
-  std::vector<Worker> workers(threads);
-  std::vector<StressStatus> status(n);
-  std::vector<std::uint8_t> shocked(n);
-  std::vector<double> pd_stressed(n);
+  std::vector<StressWorker> workers(threads);
+  ScenarioOutcome outcome{std::vector<StressStatus>(n), std::vector<std::uint8_t>(n), std::vector<double>(n)};
 
   for (std::size_t si = 0; si < scenarios.size(); ++si) {
     const Scenario& sc = scenarios[si];
     const bool rows = writer->wants_rows(sc);
-    {
-      std::string s;
-      writer->scenario_begin(sc, si, s);
-      sink(s);
-    }
-    for (std::size_t c0 = 0; c0 < n; c0 += std::max<std::size_t>(run.chunk_obligors, 1)) {
-      const std::size_t c1 = std::min(n, c0 + std::max<std::size_t>(run.chunk_obligors, 1));
-      parallel_slices(c1 - c0, threads, [&](unsigned w, std::size_t b, std::size_t e) {
-        Worker& wk = workers[w];
-        wk.out.clear();
-        // The slice's stressed obligors are solved together (solve_asset_batch).
-        wk.effects.resize(e - b);
-        if (wk.stressed.size() < e - b) wk.stressed.resize(e - b);
-        for (std::size_t i = c0 + b; i < c0 + e; ++i)
-          wk.effects[i - c0 - b] = sc.effect_for(book.obligors[i]);
-        stress_obligors(base.data() + c0 + b, wk.effects.data(), e - b, settings, run.sensitivities,
-                        wk.stressed.data());
-        for (std::size_t i = c0 + b; i < c0 + e; ++i) {
-          const StressedObligor& st = wk.stressed[i - c0 - b];
-          status[i] = st.status;
-          shocked[i] = st.shocked() ? 1 : 0;
-          pd_stressed[i] = st.status == StressStatus::ok ? st.measures.pd : std::nan("");
-          if (rows) writer->row(sc, book.obligors[i], base[i], st, i == 0, wk.out);
-        }
-      });
-      for (unsigned w = 0; w < threads; ++w) {
-        sink(workers[w].out);
-        workers[w].out.clear();
-      }
-    }
-
-    // Summary, sequentially in book order (the same figures whatever the thread count).
-    ScenarioSummary ss;
-    ss.obligors = n;
-    ss.pd_threshold = stress.pd_threshold;
-    double sum_pd = 0.0, sum_pd_s = 0.0, sum_w = 0.0, sum_wpd = 0.0, sum_wpd_s = 0.0;
-    for (std::size_t i = 0; i < n; ++i) {
-      if (status[i] != StressStatus::ok) {
-        ++ss.failed;
-        if (base[i].status == RowStatus::ok) {
-          // A failure caused by the scenario: list it (base failures are listed once above). The
-          // message is rebuilt here, only for the listed few.
-          if (sum.problems.size() < run.max_listed_problems) {
-            StressedObligor again;
-            stress_obligor(base[i], sc.effect_for(book.obligors[i]), settings, false, again);
-            sum.problems.push_back(
-                problem_text(book, book.obligors[i], "scenario '" + sc.name + "': " + again.message));
-          } else {
-            ++sum.problems_not_listed;
+    detail::sink_text(sink, [&](std::string& s) { writer->scenario_begin(sc, si, s); });
+    detail::write_in_chunks(
+        n, run.chunk_obligors, workers, 64, sink, [&](StressWorker& wk, std::size_t b, std::size_t e) {
+          // The slice's stressed obligors are solved together (solve_asset_batch).
+          wk.effects.resize(e - b);
+          if (wk.stressed.size() < e - b) wk.stressed.resize(e - b);
+          for (std::size_t i = b; i < e; ++i) wk.effects[i - b] = sc.effect_for(book.obligors[i]);
+          stress_obligors(base.data() + b, wk.effects.data(), e - b, settings, run.sensitivities,
+                          wk.stressed.data());
+          for (std::size_t i = b; i < e; ++i) {
+            const StressedObligor& st = wk.stressed[i - b];
+            outcome.status[i] = st.status;
+            outcome.shocked[i] = st.shocked() ? 1 : 0;
+            outcome.pd_stressed[i] = st.status == StressStatus::ok ? st.measures.pd : std::nan("");
+            if (rows) writer->row(sc, book.obligors[i], base[i], st, i == 0, wk.out);
           }
-        }
-        continue;
-      }
-      ++ss.compared;
-      if (shocked[i]) ++ss.shocked;
-      const double p0 = base[i].measures.pd;
-      const double p1 = pd_stressed[i];
-      sum_pd += p0;
-      sum_pd_s += p1;
-      if (p0 > stress.pd_threshold) ++ss.above_threshold;
-      if (p1 > stress.pd_threshold) ++ss.above_threshold_stressed;
-      if (p0 <= stress.pd_threshold && p1 > stress.pd_threshold) ++ss.newly_above_threshold;
-      const ResolvedObligor& r = base[i].resolved;
-      if (r.has_ead) {
-        ++ss.with_ead;
-        sum_w += r.ead;
-        sum_wpd += r.ead * p0;
-        sum_wpd_s += r.ead * p1;
-        ss.expected_loss += p0 * r.lgd * r.ead;
-        ss.expected_loss_stressed += p1 * r.lgd * r.ead;
-      }
-    }
-    const double nan = std::nan("");
-    ss.mean_pd = ss.compared > 0 ? sum_pd / static_cast<double>(ss.compared) : nan;
-    ss.mean_pd_stressed = ss.compared > 0 ? sum_pd_s / static_cast<double>(ss.compared) : nan;
-    ss.ead_total = sum_w;
-    ss.ead_weighted_pd = sum_w > 0.0 ? sum_wpd / sum_w : nan;
-    ss.ead_weighted_pd_stressed = sum_w > 0.0 ? sum_wpd_s / sum_w : nan;
+        });
+    const ScenarioSummary ss =
+        summarise_scenario(book, sc, base, outcome, settings, stress, run.max_listed_problems, sum);
     sum.rows += n;
     sum.failed_rows += ss.failed;
     if (keep_grid && sc.grid_row >= 0) {
       const std::size_t cells = static_cast<std::size_t>(grid_rows * grid_columns);
       const std::size_t cell = static_cast<std::size_t>(sc.grid_row * grid_columns + sc.grid_column);
-      for (std::size_t i = 0; i < n; ++i) sum.grid.pd[i * cells + cell] = pd_stressed[i];
+      for (std::size_t i = 0; i < n; ++i) sum.grid.pd[i * cells + cell] = outcome.pd_stressed[i];
     }
-    {
-      std::string s;
-      writer->scenario_end(sc, ss, s);
-      sink(s);
-    }
+    detail::sink_text(sink, [&](std::string& s) { writer->scenario_end(sc, ss, s); });
     sum.scenarios.push_back(ss);
   }
   if (keep_grid) {
@@ -353,9 +367,7 @@ StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenario
       if (base[i].status == RowStatus::ok) sum.grid.base_pd[i] = base[i].measures.pd;
     }
   }
-  std::string s;
-  writer->end(sum, scenarios, book, s);
-  sink(s);
+  detail::sink_text(sink, [&](std::string& s) { writer->end(sum, scenarios, book, s); });
   return sum;
 }
 
@@ -383,41 +395,25 @@ ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, cons
   const std::size_t n = book.obligors.size();
   const unsigned threads = std::max(1U, run.threads);
   ReverseStressSummary sum;
-  sum.obligors = n;
-  sum.notes = book.notes;
   const std::vector<ScoredObligor> base =
-      score_base(book, settings, threads, run.max_listed_problems, sum.base_ok, sum.base_invalid,
-                 sum.base_not_converged, sum.problems, sum.problems_not_listed);
+      score_base_into(book, settings, threads, run.max_listed_problems, sum);
   detail::StressRunInfo info{book.origin, "", settings, StressSettings{}, false, n, 0};
   const auto writer = detail::make_reverse_stress_writer(run.format, info, target_pd, options);
-  {
-    std::string s;
-    writer->begin(s);
-    sink(s);
-  }
+  detail::sink_text(sink, [&](std::string& s) { writer->begin(s); });
   struct Worker {
     std::string out;
     ReverseStressRow row;
   };
   std::vector<Worker> workers(threads);
   std::vector<std::uint8_t> failed(n);
-  const std::size_t chunk = std::max<std::size_t>(run.chunk_obligors, 1);
-  for (std::size_t c0 = 0; c0 < n; c0 += chunk) {
-    const std::size_t c1 = std::min(n, c0 + chunk);
-    parallel_slices(c1 - c0, threads, [&](unsigned w, std::size_t b, std::size_t e) {
-      Worker& wk = workers[w];
-      wk.out.clear();
-      for (std::size_t i = c0 + b; i < c0 + e; ++i) {
-        reverse_stress_obligor(base[i], target_pd, options, wk.row);
-        failed[i] = base[i].status == RowStatus::ok && !wk.row.message.empty() ? 1 : 0;
-        writer->row(book.obligors[i], base[i], wk.row, i == 0, wk.out);
-      }
-    });
-    for (unsigned w = 0; w < threads; ++w) {
-      sink(workers[w].out);
-      workers[w].out.clear();
-    }
-  }
+  detail::write_in_chunks(n, run.chunk_obligors, workers, 64, sink,
+                          [&](Worker& wk, std::size_t b, std::size_t e) {
+                            for (std::size_t i = b; i < e; ++i) {
+                              reverse_stress_obligor(base[i], target_pd, options, wk.row);
+                              failed[i] = base[i].status == RowStatus::ok && !wk.row.message.empty() ? 1 : 0;
+                              writer->row(book.obligors[i], base[i], wk.row, i == 0, wk.out);
+                            }
+                          });
   for (std::size_t i = 0; i < n; ++i) {
     if (!failed[i]) continue;
     ++sum.search_failed;
@@ -428,10 +424,13 @@ ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, cons
       ++sum.problems_not_listed;
     }
   }
-  std::string s;
-  writer->end(sum, s);
-  sink(s);
+  detail::sink_text(sink, [&](std::string& s) { writer->end(sum, s); });
   return sum;
+}
+
+OptionCheck StressBookOptions::validate() const {
+  if (threads < 1) return OptionProblem{"threads", std::to_string(threads), "must be at least 1"};
+  return std::nullopt;
 }
 
 }  // namespace firmcall

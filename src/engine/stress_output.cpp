@@ -7,84 +7,36 @@
 #include <cstdio>
 
 #include "firmcall/engine/score_output.hpp"
+#include "firmcall/format/json_writer.hpp"
+#include "firmcall/format/table_text.hpp"
 
 namespace firmcall {
 
 const std::vector<std::string_view>& stress_columns() {
-  static const std::vector<std::string_view> cols = {"scenario",
-                                                     "id",
-                                                     "name",
-                                                     "status",
-                                                     "shocked",
-                                                     "equity_value",
-                                                     "equity_value_stressed",
-                                                     "equity_vol",
-                                                     "equity_vol_stressed",
-                                                     "default_point",
-                                                     "default_point_stressed",
-                                                     "rate",
-                                                     "rate_stressed",
-                                                     "horizon",
-                                                     "horizon_stressed",
-                                                     "asset_value",
-                                                     "asset_value_stressed",
-                                                     "asset_vol",
-                                                     "asset_vol_stressed",
-                                                     "distance_to_default",
-                                                     "distance_to_default_stressed",
-                                                     "distance_to_default_change",
-                                                     "pd",
-                                                     "pd_stressed",
-                                                     "pd_change",
-                                                     "spread_bp",
-                                                     "spread_bp_stressed",
-                                                     "spread_bp_change",
-                                                     "ead",
-                                                     "lgd",
-                                                     "expected_loss",
-                                                     "expected_loss_stressed",
-                                                     "message"};
+  static const std::vector<std::string_view> cols = split_names(
+      "scenario,id,name,status,shocked,equity_value,equity_value_stressed,equity_vol,"
+      "equity_vol_stressed,default_point,default_point_stressed,rate,rate_stressed,horizon,"
+      "horizon_stressed,asset_value,asset_value_stressed,asset_vol,asset_vol_stressed,"
+      "distance_to_default,distance_to_default_stressed,distance_to_default_change,pd,"
+      "pd_stressed,pd_change,spread_bp,spread_bp_stressed,spread_bp_change,ead,lgd,"
+      "expected_loss,expected_loss_stressed,message");
   return cols;
 }
 
 const std::vector<std::string_view>& stress_summary_columns() {
-  static const std::vector<std::string_view> cols = {"scenario",
-                                                     "description",
-                                                     "obligors",
-                                                     "compared",
-                                                     "shocked",
-                                                     "failed",
-                                                     "mean_pd",
-                                                     "mean_pd_stressed",
-                                                     "obligors_with_ead",
-                                                     "ead_total",
-                                                     "ead_weighted_pd",
-                                                     "ead_weighted_pd_stressed",
-                                                     "pd_threshold",
-                                                     "above_threshold",
-                                                     "above_threshold_stressed",
-                                                     "newly_above_threshold",
-                                                     "expected_loss",
-                                                     "expected_loss_stressed",
-                                                     "expected_loss_change"};
+  static const std::vector<std::string_view> cols = split_names(
+      "scenario,description,obligors,compared,shocked,failed,mean_pd,mean_pd_stressed,"
+      "obligors_with_ead,ead_total,ead_weighted_pd,ead_weighted_pd_stressed,pd_threshold,"
+      "above_threshold,above_threshold_stressed,newly_above_threshold,expected_loss,"
+      "expected_loss_stressed,expected_loss_change");
   return cols;
 }
 
 const std::vector<std::string_view>& reverse_stress_columns() {
-  static const std::vector<std::string_view> cols = {"id",
-                                                     "name",
-                                                     "status",
-                                                     "pd",
-                                                     "target_pd",
-                                                     "equity_fall",
-                                                     "equity_fall_status",
-                                                     "equity_value_at_target",
-                                                     "pd_at_equity_fall",
-                                                     "equity_vol_multiplier",
-                                                     "equity_vol_multiplier_status",
-                                                     "equity_vol_at_target",
-                                                     "pd_at_equity_vol_multiplier",
-                                                     "message"};
+  static const std::vector<std::string_view> cols = split_names(
+      "id,name,status,pd,target_pd,equity_fall,equity_fall_status,equity_value_at_target,"
+      "pd_at_equity_fall,equity_vol_multiplier,equity_vol_multiplier_status,"
+      "equity_vol_at_target,pd_at_equity_vol_multiplier,message");
   return cols;
 }
 
@@ -129,36 +81,18 @@ std::array<double, kStressNumbers> stress_numbers(const ScoredObligor& base, con
   return v;
 }
 
-// Fixed decimals while readable, scientific for tiny values (e.g. far-tail PDs); "-" for NaN.
+// Table cells of this file: "-" for NaN.
 std::string small(double v, int decimals, bool sign = false) {
-  char buf[64];
-  if (!std::isfinite(v)) return "-";
-  if (v == 0.0) {
-    std::snprintf(buf, sizeof buf, sign ? "+0" : "0");
-  } else if (std::fabs(v) >= std::pow(10.0, -decimals + 1) && std::fabs(v) < 1e7) {
-    std::snprintf(buf, sizeof buf, sign ? "%+.*f" : "%.*f", decimals, v);
-  } else {
-    std::snprintf(buf, sizeof buf, sign ? "%+.2e" : "%.2e", v);
-  }
-  return buf;
+  return table_number(v, decimals, sign);
 }
-
 std::string fixed(double v, int decimals, bool sign = false) {
-  if (!std::isfinite(v)) return "-";
-  char buf[64];
-  std::snprintf(buf, sizeof buf, sign ? "%+.*f" : "%.*f", decimals, v);
-  return buf;
+  return fixed_number(v, decimals, sign);
 }
-
 std::string fit(const std::string& s, std::size_t w) {
-  if (s.size() <= w) return s;
-  return s.substr(0, w - 1) + "~";
+  return fit_text(s, w);
 }
-
 std::string percent(double fraction) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%g%%", 100.0 * fraction);
-  return buf;
+  return percent_text(fraction);
 }
 
 void append_count(std::string& out, std::size_t n) {
@@ -181,19 +115,11 @@ class StressCsvWriter final : public detail::StressWriter {
   void scenario_begin(const Scenario&, std::size_t, std::string&) const override {}
   void row(const Scenario& sc, const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor& s,
            bool, std::string& out) const override {
-    append_csv_text(out, sc.name);
-    out.push_back(',');
-    append_csv_text(out, rec.get(TextField::id));
-    out.push_back(',');
-    append_csv_text(out, rec.get(TextField::name));
-    out.push_back(',');
+    append_csv_texts(out, {sc.name, rec.get(TextField::id), rec.get(TextField::name)});
     out.append(to_string(s.status));
     out.push_back(',');
     out.append(s.shocked() ? "true" : "false");
-    for (double x : stress_numbers(base, s)) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, stress_numbers(base, s));
     out.push_back(',');
     append_csv_text(out, s.message);
     if (info_.sensitivities) append_sensitivities_csv(out, s.sensitivities, s.status == StressStatus::ok);
@@ -209,40 +135,25 @@ class StressCsvWriter final : public detail::StressWriter {
 // ---------------------------------------------------------------- stress: JSON
 
 void append_summary_json(std::string& out, const ScenarioSummary& s) {
-  out += "{\"obligors\": ";
-  append_count(out, s.obligors);
-  out += ", \"compared\": ";
-  append_count(out, s.compared);
-  out += ", \"shocked\": ";
-  append_count(out, s.shocked);
-  out += ", \"failed\": ";
-  append_count(out, s.failed);
-  out += ", \"mean_pd\": ";
-  append_json_number(out, s.mean_pd);
-  out += ", \"mean_pd_stressed\": ";
-  append_json_number(out, s.mean_pd_stressed);
-  out += ", \"obligors_with_ead\": ";
-  append_count(out, s.with_ead);
-  out += ", \"ead_total\": ";
-  append_json_number(out, s.ead_total);
-  out += ", \"ead_weighted_pd\": ";
-  append_json_number(out, s.ead_weighted_pd);
-  out += ", \"ead_weighted_pd_stressed\": ";
-  append_json_number(out, s.ead_weighted_pd_stressed);
-  out += ", \"pd_threshold\": ";
-  append_json_number(out, s.pd_threshold);
-  out += ", \"above_threshold\": ";
-  append_count(out, s.above_threshold);
-  out += ", \"above_threshold_stressed\": ";
-  append_count(out, s.above_threshold_stressed);
-  out += ", \"newly_above_threshold\": ";
-  append_count(out, s.newly_above_threshold);
-  out += ", \"expected_loss\": ";
-  append_json_number(out, s.expected_loss);
-  out += ", \"expected_loss_stressed\": ";
-  append_json_number(out, s.expected_loss_stressed);
-  out += ", \"expected_loss_change\": ";
-  append_json_number(out, s.expected_loss_stressed - s.expected_loss);
+  out += "{";
+  JsonFields(out)
+      .count("obligors", s.obligors)
+      .count("compared", s.compared)
+      .count("shocked", s.shocked)
+      .count("failed", s.failed)
+      .number("mean_pd", s.mean_pd)
+      .number("mean_pd_stressed", s.mean_pd_stressed)
+      .count("obligors_with_ead", s.with_ead)
+      .number("ead_total", s.ead_total)
+      .number("ead_weighted_pd", s.ead_weighted_pd)
+      .number("ead_weighted_pd_stressed", s.ead_weighted_pd_stressed)
+      .number("pd_threshold", s.pd_threshold)
+      .count("above_threshold", s.above_threshold)
+      .count("above_threshold_stressed", s.above_threshold_stressed)
+      .count("newly_above_threshold", s.newly_above_threshold)
+      .number("expected_loss", s.expected_loss)
+      .number("expected_loss_stressed", s.expected_loss_stressed)
+      .number("expected_loss_change", s.expected_loss_stressed - s.expected_loss);
   out += "}";
 }
 
@@ -250,48 +161,34 @@ class StressJsonWriter final : public detail::StressWriter {
  public:
   explicit StressJsonWriter(const detail::StressRunInfo& info) : info_(info) {}
   void begin(std::string& out) const override {
-    out += "{\n  \"run\": {\"book\": ";
-    append_json_string(out, info_.book_origin);
-    out += ", \"scenarios\": ";
-    append_json_string(out, info_.scenario_origin);
-    out += ", \"measure\": ";
-    append_json_string(out, to_string(info_.settings.measure));
-    out += ", \"default_point_weight\": ";
-    append_json_number(out, info_.settings.weight_override.value_or(info_.settings.default_point_weight));
-    out += ", \"default_lgd\": ";
-    append_json_number(out, info_.settings.default_lgd);
-    out += ", \"pd_threshold\": ";
-    append_json_number(out, info_.stress.pd_threshold);
+    out += "{\n  \"run\": {";
+    JsonFields(out)
+        .text("book", info_.book_origin)
+        .text("scenarios", info_.scenario_origin)
+        .text("measure", to_string(info_.settings.measure))
+        .number("default_point_weight",
+                info_.settings.weight_override.value_or(info_.settings.default_point_weight))
+        .number("default_lgd", info_.settings.default_lgd)
+        .number("pd_threshold", info_.stress.pd_threshold);
     out += "},\n  \"scenarios\": [";
   }
   void scenario_begin(const Scenario& sc, std::size_t index, std::string& out) const override {
-    out += index > 0 ? ",\n    {\"name\": " : "\n    {\"name\": ";
-    append_json_string(out, sc.name);
-    out += ", \"description\": ";
-    append_json_string(out, sc.description);
+    out += index > 0 ? ",\n    {" : "\n    {";
+    JsonFields(out).text("name", sc.name).text("description", sc.description);
     out += ",\n     \"obligors\": [\n";
   }
   void row(const Scenario&, const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor& s,
            bool first, std::string& out) const override {
     const auto& cols = stress_columns();
     if (!first) out += ",\n";
-    out += "      {\"id\": ";
-    append_json_string(out, rec.get(TextField::id));
-    out += ", \"name\": ";
-    append_json_string(out, rec.get(TextField::name));
-    out += ", \"status\": ";
-    append_json_string(out, to_string(s.status));
-    out += ", \"shocked\": ";
-    out += s.shocked() ? "true" : "false";
-    const auto v = stress_numbers(base, s);
-    for (std::size_t i = 0; i < v.size(); ++i) {
-      out += ", \"";
-      out += cols[kFirstNumber + i];
-      out += "\": ";
-      append_json_number(out, v[i]);
-    }
-    out += ", \"message\": ";
-    append_json_string(out, s.message);
+    out += "      {";
+    JsonFields(out)
+        .text("id", rec.get(TextField::id))
+        .text("name", rec.get(TextField::name))
+        .text("status", to_string(s.status))
+        .boolean("shocked", s.shocked())
+        .numbers(std::span(cols).subspan(kFirstNumber, kStressNumbers), stress_numbers(base, s))
+        .text("message", s.message);
     if (info_.sensitivities) append_sensitivities_json(out, s.sensitivities, s.status == StressStatus::ok);
     out += "}";
   }
@@ -302,18 +199,9 @@ class StressJsonWriter final : public detail::StressWriter {
   }
   void end(const StressSummary& sum, const std::vector<Scenario>&, const Book&,
            std::string& out) const override {
-    out += "\n  ],\n  \"summary\": {\"obligors\": ";
-    append_count(out, sum.obligors);
-    out += ", \"scored\": ";
-    append_count(out, sum.base_ok);
-    out += ", \"invalid_input\": ";
-    append_count(out, sum.base_invalid);
-    out += ", \"not_converged\": ";
-    append_count(out, sum.base_not_converged);
-    out += ", \"rows\": ";
-    append_count(out, sum.rows);
-    out += ", \"failed_rows\": ";
-    append_count(out, sum.failed_rows);
+    open_json_summary(out, sum.obligors, sum.base_ok, sum.base_invalid, sum.base_not_converged)
+        .count("rows", sum.rows)
+        .count("failed_rows", sum.failed_rows);
     out += "}\n}\n";
   }
 
@@ -525,7 +413,8 @@ std::string_view search_status(const ScoredObligor& base, const ReverseResult& r
 
 class ReverseCsvWriter final : public detail::ReverseStressWriter {
  public:
-  explicit ReverseCsvWriter(double target) : target_(target) {}
+  ReverseCsvWriter(const detail::StressRunInfo&, double target, const ReverseStressOptions&)
+      : target_(target) {}
   void begin(std::string& out) const override {
     append_csv_names(out, reverse_stress_columns());
     out.push_back('\n');
@@ -533,27 +422,15 @@ class ReverseCsvWriter final : public detail::ReverseStressWriter {
   void row(const ObligorRecord& rec, const ScoredObligor& base, const ReverseStressRow& r, bool,
            std::string& out) const override {
     const ReverseCells c = reverse_cells(base, r, target_);
-    append_csv_text(out, rec.get(TextField::id));
-    out.push_back(',');
-    append_csv_text(out, rec.get(TextField::name));
-    out.push_back(',');
+    append_csv_texts(out, {rec.get(TextField::id), rec.get(TextField::name)});
     out.append(to_string(r.status));
-    for (double x : {c.pd, c.target, c.fall}) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, std::initializer_list<double>{c.pd, c.target, c.fall});
     out.push_back(',');
     out.append(search_status(base, r.equity_fall));
-    for (double x : {c.equity_at, c.pd_fall, c.mult}) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, std::initializer_list<double>{c.equity_at, c.pd_fall, c.mult});
     out.push_back(',');
     out.append(search_status(base, r.vol_multiplier));
-    for (double x : {c.vol_at, c.pd_mult}) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, std::initializer_list<double>{c.vol_at, c.pd_mult});
     out.push_back(',');
     append_csv_text(out, r.message);
     out.push_back('\n');
@@ -569,16 +446,13 @@ class ReverseJsonWriter final : public detail::ReverseStressWriter {
   ReverseJsonWriter(const detail::StressRunInfo& info, double target, const ReverseStressOptions& options)
       : info_(info), target_(target), options_(options) {}
   void begin(std::string& out) const override {
-    out += "{\n  \"run\": {\"book\": ";
-    append_json_string(out, info_.book_origin);
-    out += ", \"measure\": ";
-    append_json_string(out, to_string(info_.settings.measure));
-    out += ", \"target_pd\": ";
-    append_json_number(out, target_);
-    out += ", \"max_equity_fall\": ";
-    append_json_number(out, options_.max_equity_fall);
-    out += ", \"max_equity_vol_multiplier\": ";
-    append_json_number(out, options_.max_vol_multiplier);
+    out += "{\n  \"run\": {";
+    JsonFields(out)
+        .text("book", info_.book_origin)
+        .text("measure", to_string(info_.settings.measure))
+        .number("target_pd", target_)
+        .number("max_equity_fall", options_.max_equity_fall)
+        .number("max_equity_vol_multiplier", options_.max_vol_multiplier);
     out += "},\n  \"obligors\": [\n";
   }
   void row(const ObligorRecord& rec, const ScoredObligor& base, const ReverseStressRow& r, bool first,
@@ -586,50 +460,29 @@ class ReverseJsonWriter final : public detail::ReverseStressWriter {
     const ReverseCells c = reverse_cells(base, r, target_);
     const bool ok = base.status == RowStatus::ok;
     if (!first) out += ",\n";
-    out += "    {\"id\": ";
-    append_json_string(out, rec.get(TextField::id));
-    out += ", \"name\": ";
-    append_json_string(out, rec.get(TextField::name));
-    out += ", \"status\": ";
-    append_json_string(out, to_string(r.status));
-    out += ", \"pd\": ";
-    append_json_number(out, c.pd);
-    out += ", \"target_pd\": ";
-    append_json_number(out, c.target);
-    out += ", \"equity_fall\": ";
-    append_json_number(out, c.fall);
+    out += "    {";
     // A search status exists only when the obligor is ok as it stands.
-    const auto status_or_null = [&](auto status) {
-      if (ok) {
-        append_json_string(out, to_string(status));
-      } else {
-        out += "null";
-      }
-    };
-    out += ", \"equity_fall_status\": ";
-    status_or_null(r.equity_fall.status);
-    out += ", \"equity_value_at_target\": ";
-    append_json_number(out, c.equity_at);
-    out += ", \"pd_at_equity_fall\": ";
-    append_json_number(out, c.pd_fall);
-    out += ", \"equity_vol_multiplier\": ";
-    append_json_number(out, c.mult);
-    out += ", \"equity_vol_multiplier_status\": ";
-    status_or_null(r.vol_multiplier.status);
-    out += ", \"equity_vol_at_target\": ";
-    append_json_number(out, c.vol_at);
-    out += ", \"pd_at_equity_vol_multiplier\": ";
-    append_json_number(out, c.pd_mult);
-    out += ", \"message\": ";
-    append_json_string(out, r.message);
+    JsonFields(out)
+        .text("id", rec.get(TextField::id))
+        .text("name", rec.get(TextField::name))
+        .text("status", to_string(r.status))
+        .number("pd", c.pd)
+        .number("target_pd", c.target)
+        .number("equity_fall", c.fall)
+        .text_or_null("equity_fall_status", to_string(r.equity_fall.status), ok)
+        .number("equity_value_at_target", c.equity_at)
+        .number("pd_at_equity_fall", c.pd_fall)
+        .number("equity_vol_multiplier", c.mult)
+        .text_or_null("equity_vol_multiplier_status", to_string(r.vol_multiplier.status), ok)
+        .number("equity_vol_at_target", c.vol_at)
+        .number("pd_at_equity_vol_multiplier", c.pd_mult)
+        .text("message", r.message);
     out += "}";
   }
   void end(const ReverseStressSummary& sum, std::string& out) const override {
-    out += "\n  ],\n  \"summary\": {\"obligors\": " + std::to_string(sum.obligors) +
-           ", \"scored\": " + std::to_string(sum.base_ok) +
-           ", \"invalid_input\": " + std::to_string(sum.base_invalid) +
-           ", \"not_converged\": " + std::to_string(sum.base_not_converged) +
-           ", \"search_failed\": " + std::to_string(sum.search_failed) + "}\n}\n";
+    open_json_summary(out, sum.obligors, sum.base_ok, sum.base_invalid, sum.base_not_converged)
+        .count("search_failed", sum.search_failed);
+    out += "}\n}\n";
   }
 
  private:
@@ -713,24 +566,17 @@ std::string scenario_summary_csv(const StressSummary& summary, const std::vector
       out.push_back(',');
       append_count(out, n);
     }
-    for (double x : {s.mean_pd, s.mean_pd_stressed}) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, std::initializer_list<double>{s.mean_pd, s.mean_pd_stressed});
     out.push_back(',');
     append_count(out, s.with_ead);
-    for (double x : {s.ead_total, s.ead_weighted_pd, s.ead_weighted_pd_stressed, s.pd_threshold}) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, std::initializer_list<double>{s.ead_total, s.ead_weighted_pd,
+                                                          s.ead_weighted_pd_stressed, s.pd_threshold});
     for (std::size_t n : {s.above_threshold, s.above_threshold_stressed, s.newly_above_threshold}) {
       out.push_back(',');
       append_count(out, n);
     }
-    for (double x : {s.expected_loss, s.expected_loss_stressed, s.expected_loss_stressed - s.expected_loss}) {
-      out.push_back(',');
-      append_number(out, x);
-    }
+    append_csv_numbers(out, std::initializer_list<double>{s.expected_loss, s.expected_loss_stressed,
+                                                          s.expected_loss_stressed - s.expected_loss});
     out.push_back('\n');
   }
   return out;
@@ -739,29 +585,14 @@ std::string scenario_summary_csv(const StressSummary& summary, const std::vector
 namespace detail {
 
 std::unique_ptr<StressWriter> make_stress_writer(OutputFormat format, const StressRunInfo& info) {
-  switch (format) {
-    case OutputFormat::csv:
-      return std::make_unique<StressCsvWriter>(info);
-    case OutputFormat::json:
-      return std::make_unique<StressJsonWriter>(info);
-    case OutputFormat::table:
-      return std::make_unique<StressTableWriter>(info);
-  }
-  return std::make_unique<StressCsvWriter>(info);
+  return make_format_writer<StressWriter, StressCsvWriter, StressJsonWriter, StressTableWriter>(format, info);
 }
 
 std::unique_ptr<ReverseStressWriter> make_reverse_stress_writer(OutputFormat format,
                                                                 const StressRunInfo& info, double target_pd,
                                                                 const ReverseStressOptions& options) {
-  switch (format) {
-    case OutputFormat::csv:
-      return std::make_unique<ReverseCsvWriter>(target_pd);
-    case OutputFormat::json:
-      return std::make_unique<ReverseJsonWriter>(info, target_pd, options);
-    case OutputFormat::table:
-      return std::make_unique<ReverseTableWriter>(info, target_pd, options);
-  }
-  return std::make_unique<ReverseCsvWriter>(target_pd);
+  return make_format_writer<ReverseStressWriter, ReverseCsvWriter, ReverseJsonWriter, ReverseTableWriter>(
+      format, info, target_pd, options);
 }
 
 }  // namespace detail

@@ -6,6 +6,7 @@
 #include <cmath>
 #include <cstdio>
 
+#include "engine/chunked_rows.hpp"
 #include "engine/term_output.hpp"
 #include "firmcall/book/errors.hpp"
 
@@ -172,12 +173,7 @@ void score_term_obligor(const ObligorRecord& rec, const BookDefaults& book, cons
   for (std::size_t m = 0; m < run.models.size(); ++m) {
     TermPoint* pts = out.points.data() + m * nh;
     if (out.resolved.ok()) {
-      TermRequest req;
-      req.model = run.models[m];
-      req.calibration = run.calibration;
-      req.barrier = run.barrier;
-      req.lgd = out.resolved.lgd;
-      req.solver = settings.solver;
+      const TermRequest req = detail::term_request(run, m, out.resolved.lgd, settings);
       term_structure(out.resolved.inputs, req, out.horizons.data(), nh, pts);
     } else {
       for (std::size_t i = 0; i < nh; ++i) {
@@ -199,11 +195,10 @@ void score_term_obligor(const ObligorRecord& rec, const BookDefaults& book, cons
 }
 
 const std::vector<std::string_view>& term_columns() {
-  static const std::vector<std::string_view> cols = {
-      "id",           "name",          "model",      "horizon",         "status",    "calibration_horizon",
-      "equity_value", "default_point", "barrier",    "asset_value",     "asset_vol", "distance_to_default",
-      "pd",           "pd_annualised", "pd_forward", "pd_risk_neutral", "spread_bp", "lgd",
-      "iterations",   "residual",      "message"};
+  static const std::vector<std::string_view> cols = split_names(
+      "id,name,model,horizon,status,calibration_horizon,equity_value,default_point,barrier,"
+      "asset_value,asset_vol,distance_to_default,pd,pd_annualised,pd_forward,pd_risk_neutral,"
+      "spread_bp,lgd,iterations,residual,message");
   return cols;
 }
 
@@ -216,11 +211,7 @@ ScoreSummary score_term_structure(const Book& book, const ScoreSettings& setting
   ScoreSummary sum;
   sum.total = n;
   sum.notes = book.notes;
-  {
-    std::string s;
-    writer->begin(s);
-    sink(s);
-  }
+  detail::sink_text(sink, [&](std::string& s) { writer->begin(s); });
   struct Worker {
     std::string out;
     TermScoredObligor scored;
@@ -230,38 +221,23 @@ ScoreSummary score_term_structure(const Book& book, const ScoreSettings& setting
   };
   std::vector<Worker> workers(threads);
   constexpr std::size_t kChunk = 4096;
-  for (std::size_t c0 = 0; c0 < n; c0 += kChunk) {
-    const std::size_t c1 = std::min(n, c0 + kChunk);
-    detail::parallel_slices(c1 - c0, threads, [&](unsigned w, std::size_t b, std::size_t e) {
-      Worker& wk = workers[w];
-      wk.out.clear();
-      for (std::size_t i = c0 + b; i < c0 + e; ++i) {
-        const ObligorRecord& rec = book.obligors[i];
-        score_term_obligor(rec, book.defaults, settings, run, wk.scored);
-        writer->obligor(rec, wk.scored, i == 0, wk.out);
-        switch (wk.scored.status) {
-          case RowStatus::ok:
-            ++wk.ok;
-            for (const TermPoint& p : wk.scored.points) wk.iterations += std::max(p.iterations, 0);
-            continue;
-          case RowStatus::invalid_input:
-            ++wk.invalid;
-            break;
-          case RowStatus::not_converged:
-            ++wk.not_converged;
-            break;
-        }
-        if (wk.problems.size() < run.max_listed_problems) {
-          wk.problems.emplace_back(i, obligor_problem(book.origin, rec, wk.scored.first_problem()));
-        }
-        ++wk.problem_count;
+  detail::write_in_chunks(n, kChunk, workers, 16, sink, [&](Worker& wk, std::size_t b, std::size_t e) {
+    for (std::size_t i = b; i < e; ++i) {
+      const ObligorRecord& rec = book.obligors[i];
+      score_term_obligor(rec, book.defaults, settings, run, wk.scored);
+      writer->obligor(rec, wk.scored, i == 0, wk.out);
+      if (wk.scored.status == RowStatus::ok) {
+        ++wk.ok;
+        for (const TermPoint& p : wk.scored.points) wk.iterations += std::max(p.iterations, 0);
+        continue;
       }
-    });
-    for (Worker& wk : workers) {
-      sink(wk.out);
-      wk.out.clear();
+      ++(wk.scored.status == RowStatus::invalid_input ? wk.invalid : wk.not_converged);
+      if (wk.problems.size() < run.max_listed_problems) {
+        wk.problems.emplace_back(i, obligor_problem(book.origin, rec, wk.scored.first_problem()));
+      }
+      ++wk.problem_count;
     }
-  }
+  });
   std::vector<std::pair<std::size_t, std::string>> all;
   std::size_t problem_count = 0;
   for (Worker& wk : workers) {
@@ -277,10 +253,34 @@ ScoreSummary score_term_structure(const Book& book, const ScoreSettings& setting
     sum.problems.push_back(std::move(all[i].second));
   }
   sum.problems_not_listed = problem_count - sum.problems.size();
-  std::string s;
-  writer->end(sum, s);
-  sink(s);
+  detail::sink_text(sink, [&](std::string& s) { writer->end(sum, s); });
   return sum;
+}
+
+OptionCheck TermBookOptions::validate() const {
+  if (threads < 1) return OptionProblem{"threads", std::to_string(threads), "must be at least 1"};
+  if (horizons.size() > kMaxHorizons) {
+    return OptionProblem{"horizons", std::to_string(horizons.size()) + " horizons",
+                         "must hold at most " + std::to_string(kMaxHorizons) + " horizons"};
+  }
+  for (std::size_t i = 0; i < horizons.size(); ++i) {
+    const double t = horizons[i];
+    if (!(t > 0.0 && t <= 100.0))
+      return OptionProblem{"horizons", option_value_text(t), "must be in (0, 100] years"};
+    if (i > 0 && !(t > horizons[i - 1])) {
+      return OptionProblem{"horizons", option_value_text(t), "must be strictly increasing"};
+    }
+  }
+  if (models.empty()) return OptionProblem{"models", "none", "must name at least one model"};
+  if (!std::isfinite(barrier.default_point_ratio) || !(barrier.default_point_ratio > 0.0)) {
+    return OptionProblem{"barrier.default_point_ratio", option_value_text(barrier.default_point_ratio),
+                         "must be positive"};
+  }
+  if (!(std::fabs(barrier.growth_rate_cc) <= 1.0)) {
+    return OptionProblem{"barrier.growth_rate_cc", option_value_text(barrier.growth_rate_cc),
+                         "must be in [-1, 1]"};
+  }
+  return std::nullopt;
 }
 
 }  // namespace firmcall

@@ -3,9 +3,10 @@
 
 #include <cmath>
 #include <cstdio>
-#include <thread>
 
 #include "firmcall/engine/score_output.hpp"
+#include "firmcall/format/json_writer.hpp"
+#include "firmcall/format/table_text.hpp"
 
 namespace firmcall::detail {
 
@@ -13,51 +14,13 @@ namespace {
 
 constexpr std::size_t kFirstNumber = 5;  // index of "calibration_horizon" in term_columns()
 constexpr std::size_t kNumbers = 15;     // "calibration_horizon" .. "residual"
-constexpr std::size_t kPerLine = 8;      // horizons per table line
-constexpr int kLabelWidth = 35;
-constexpr int kCellWidth = 10;
-
-std::string horizon_label(double t) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%g", t);
-  return buf;
-}
-
-std::string fit(const std::string& s, std::size_t w) {
-  if (s.size() <= w) return s;
-  return s.substr(0, w - 1) + "~";
-}
 
 }  // namespace
 
-void parallel_slices(std::size_t n, unsigned threads,
-                     const std::function<void(unsigned, std::size_t, std::size_t)>& fn) {
-  const unsigned t =
-      std::max(1U, std::min<unsigned>(threads, static_cast<unsigned>(std::max<std::size_t>(n / 16, 1))));
-  if (t == 1) {
-    fn(0, 0, n);
-    return;
-  }
-  std::vector<std::thread> pool;
-  pool.reserve(t - 1);
-  const auto bound = [&](unsigned w) { return n * w / t; };
-  for (unsigned w = 1; w < t; ++w) pool.emplace_back(fn, w, bound(w), bound(w + 1));
-  fn(0, 0, bound(1));
-  for (auto& th : pool) th.join();
-}
-
 std::string_view row_status_of(TermStatus status) noexcept {
-  switch (status) {
-    case TermStatus::ok:
-      return "ok";
-    case TermStatus::invalid_input:
-      return "invalid_input";
-    case TermStatus::max_iterations:
-    case TermStatus::not_bracketed:
-    case TermStatus::not_finite:
-      return "not_converged";
-  }
-  return "";
+  // ok and invalid_input read the same in both vocabularies; every solver failure is not_converged.
+  if (status == TermStatus::ok || status == TermStatus::invalid_input) return to_string(status);
+  return "not_converged";
 }
 
 std::vector<double> term_numbers(const TermScoredObligor& s, const TermBookOptions& run, std::size_t model,
@@ -95,17 +58,48 @@ std::vector<double> term_numbers(const TermScoredObligor& s, const TermBookOptio
   return v;
 }
 
-std::string table_number(double v, int decimals) {
-  char buf[64];
-  if (!std::isfinite(v)) return "-";
-  if (v == 0.0) {
-    std::snprintf(buf, sizeof buf, "0");
-  } else if (std::fabs(v) >= std::pow(10.0, -decimals + 1) && std::fabs(v) < 1e7) {
-    std::snprintf(buf, sizeof buf, "%.*f", decimals, v);
-  } else {
-    std::snprintf(buf, sizeof buf, "%.2e", v);
+void append_horizon_block_head(std::string& out, const std::vector<double>& horizons, std::size_t c0,
+                               std::size_t c1) {
+  if (horizons.size() <= kTermPerLine) return;
+  std::string h = left_cell("  horizon (years)", kTermLabelWidth);
+  for (std::size_t i = c0; i < c1; ++i) h += right_cell(general_number(horizons[i]), kTermCellWidth);
+  out += h + "\n";
+}
+
+std::string term_model_label(TermModel model) {
+  return "  " + left_cell(to_string(model), 16);
+}
+
+TermRequest term_request(const TermBookOptions& run, std::size_t model, double lgd,
+                         const ScoreSettings& settings) {
+  TermRequest req;
+  req.model = run.models[model];
+  req.calibration = run.calibration;
+  req.barrier = run.barrier;
+  req.lgd = lgd;
+  req.solver = settings.solver;
+  return req;
+}
+
+bool has_first_passage(const TermBookOptions& run) {
+  for (TermModel m : run.models) {
+    if (m == TermModel::first_passage) return true;
   }
-  return buf;
+  return false;
+}
+
+void append_term_caution(std::string& out, const TermBookOptions& run) {
+  if (has_first_passage(run)) {
+    out +=
+        "Model estimates under the Merton and Black-Cox assumptions; not a credit decision on their own.\n";
+  } else {
+    out += kTableCaution;
+  }
+}
+
+std::string term_rule(const TermBookOptions& run) {
+  const std::size_t cells = run.horizons.empty() ? 1 : std::min(run.horizons.size(), kTermPerLine);
+  return std::string(kTermLabelWidth + cells * kTermCellWidth, '-');
 }
 
 void append_term_run_fields(std::string& out, const TermBookOptions& run) {
@@ -114,23 +108,16 @@ void append_term_run_fields(std::string& out, const TermBookOptions& run) {
     if (m > 0) out += ", ";
     append_json_string(out, to_string(run.models[m]));
   }
-  out += "], \"horizons\": ";
+  out += "]";
+  JsonFields fields(out, false);
   if (run.horizons.empty()) {
-    out += "null";
+    fields.null("horizons");
   } else {
-    out += "[";
-    for (std::size_t i = 0; i < run.horizons.size(); ++i) {
-      if (i > 0) out += ", ";
-      append_json_number(out, run.horizons[i]);
-    }
-    out += "]";
+    fields.number_list("horizons", run.horizons);
   }
-  out += ", \"calibration\": ";
-  append_json_string(out, to_string(run.calibration));
-  out += ", \"barrier_ratio\": ";
-  append_json_number(out, run.barrier.default_point_ratio);
-  out += ", \"barrier_growth\": ";
-  append_json_number(out, run.barrier.growth_rate_cc);
+  fields.text("calibration", to_string(run.calibration))
+      .number("barrier_ratio", run.barrier.default_point_ratio)
+      .number("barrier_growth", run.barrier.growth_rate_cc);
 }
 
 namespace {
@@ -139,12 +126,7 @@ class CsvTermWriter final : public TermWriter {
  public:
   explicit CsvTermWriter(const TermRunInfo& info) : info_(info) {}
   void begin(std::string& out) const override {
-    bool first = true;
-    for (auto c : term_columns()) {
-      if (!first) out.push_back(',');
-      out.append(c);
-      first = false;
-    }
+    append_csv_names(out, term_columns());
     out.push_back('\n');
   }
   void obligor(const ObligorRecord& rec, const TermScoredObligor& s, bool, std::string& out) const override {
@@ -152,19 +134,13 @@ class CsvTermWriter final : public TermWriter {
     for (std::size_t m = 0; m < info_.run.models.size(); ++m) {
       for (std::size_t i = 0; i < nh; ++i) {
         const TermPoint& p = s.points[m * nh + i];
-        append_csv_text(out, rec.get(TextField::id));
-        out.push_back(',');
-        append_csv_text(out, rec.get(TextField::name));
-        out.push_back(',');
+        append_csv_texts(out, {rec.get(TextField::id), rec.get(TextField::name)});
         out.append(to_string(info_.run.models[m]));
         out.push_back(',');
         append_number(out, s.horizons[i]);
         out.push_back(',');
         out.append(row_status_of(p.status));
-        for (double v : term_numbers(s, info_.run, m, i)) {
-          out.push_back(',');
-          append_number(out, v);
-        }
+        append_csv_numbers(out, term_numbers(s, info_.run, m, i));
         out.push_back(',');
         append_csv_text(out, s.messages[m * nh + i]);
         out.push_back('\n');
@@ -183,17 +159,10 @@ class JsonTermWriter final : public TermWriter {
   void begin(std::string& out) const override {
     const ScoreSettings& st = info_.settings;
     const TermBookOptions& run = info_.run;
-    out += "{\n  \"run\": {\"input\": ";
-    append_json_string(out, info_.origin);
-    out += ", \"measure\": ";
-    append_json_string(out, to_string(st.measure));
+    out += "{\n  \"run\": {";
+    JsonFields(out).text("input", info_.origin).text("measure", to_string(st.measure));
     append_term_run_fields(out, run);
-    out += ", \"default_point_weight\": ";
-    append_json_number(out, st.weight_override.value_or(st.default_point_weight));
-    out += ", \"rate_override\": ";
-    append_json_number(out, st.rate_override.value_or(std::nan("")));
-    out += ", \"horizon_override\": ";
-    append_json_number(out, st.horizon_override.value_or(std::nan("")));
+    append_score_settings_json(out, st);
     out += "},\n  \"rows\": [\n";
   }
   void obligor(const ObligorRecord& rec, const TermScoredObligor& s, bool first,
@@ -204,35 +173,20 @@ class JsonTermWriter final : public TermWriter {
       for (std::size_t i = 0; i < nh; ++i) {
         if (!(first && m == 0 && i == 0)) out += ",\n";
         const TermPoint& p = s.points[m * nh + i];
-        out += "    {\"id\": ";
-        append_json_string(out, rec.get(TextField::id));
-        out += ", \"name\": ";
-        append_json_string(out, rec.get(TextField::name));
-        out += ", \"model\": ";
-        append_json_string(out, to_string(info_.run.models[m]));
-        out += ", \"horizon\": ";
-        append_json_number(out, s.horizons[i]);
-        out += ", \"status\": ";
-        append_json_string(out, row_status_of(p.status));
-        const std::vector<double> v = term_numbers(s, info_.run, m, i);
-        for (std::size_t k = 0; k < v.size(); ++k) {
-          out += ", \"";
-          out += cols[kFirstNumber + k];
-          out += "\": ";
-          append_json_number(out, v[k]);
-        }
-        out += ", \"message\": ";
-        append_json_string(out, s.messages[m * nh + i]);
+        out += "    {";
+        JsonFields(out)
+            .text("id", rec.get(TextField::id))
+            .text("name", rec.get(TextField::name))
+            .text("model", to_string(info_.run.models[m]))
+            .number("horizon", s.horizons[i])
+            .text("status", row_status_of(p.status))
+            .numbers(std::span(cols).subspan(kFirstNumber, kNumbers), term_numbers(s, info_.run, m, i))
+            .text("message", s.messages[m * nh + i]);
         out += "}";
       }
     }
   }
-  void end(const ScoreSummary& sum, std::string& out) const override {
-    out += "\n  ],\n  \"summary\": {\"obligors\": " + std::to_string(sum.total) +
-           ", \"scored\": " + std::to_string(sum.scored) +
-           ", \"invalid_input\": " + std::to_string(sum.invalid) +
-           ", \"not_converged\": " + std::to_string(sum.not_converged) + "}\n}\n";
-  }
+  void end(const ScoreSummary& sum, std::string& out) const override { append_score_summary_json(out, sum); }
 
  private:
   TermRunInfo info_;
@@ -244,8 +198,7 @@ class TableTermWriter final : public TermWriter {
   explicit TableTermWriter(const TermRunInfo& info) : info_(info) {}
   void begin(std::string& out) const override {
     const TermBookOptions& run = info_.run;
-    bool fp = false;
-    for (TermModel m : run.models) fp = fp || m == TermModel::first_passage;
+    const bool fp = has_first_passage(run);
     char buf[320];
     out += "PD term structure: " + info_.origin + ", " + std::string(to_string(info_.settings.measure)) +
            " measure\n";
@@ -263,12 +216,12 @@ class TableTermWriter final : public TermWriter {
     out += "\n";
     std::string head;
     if (run.horizons.empty()) {
-      head = pad_right("obligor / model", kLabelWidth) + pad_left("own T", kCellWidth);
-    } else if (run.horizons.size() <= kPerLine) {
-      head = pad_right("horizon (years)", kLabelWidth);
-      for (double t : run.horizons) head += pad_left(horizon_label(t), kCellWidth);
+      head = left_cell("obligor / model", kTermLabelWidth) + right_cell("own T", kTermCellWidth);
+    } else if (run.horizons.size() <= kTermPerLine) {
+      head = left_cell("horizon (years)", kTermLabelWidth);
+      for (double t : run.horizons) head += right_cell(general_number(t), kTermCellWidth);
     } else {
-      head = pad_right("obligor / model", kLabelWidth) + "  (horizons in years on each block)";
+      head = left_cell("obligor / model", kTermLabelWidth) + "  (horizons in years on each block)";
     }
     out += head + "\n" + rule() + "\n";
   }
@@ -276,20 +229,16 @@ class TableTermWriter final : public TermWriter {
     const TermBookOptions& run = info_.run;
     const std::size_t nh = s.horizons.size();
     std::string title = rec.get(TextField::id);
-    if (!rec.get(TextField::name).empty()) title += "  " + fit(rec.get(TextField::name), 40);
+    if (!rec.get(TextField::name).empty()) title += "  " + fit_text(rec.get(TextField::name), 40);
     if (run.horizons.empty() && s.resolved.ok())
-      title += "  (T = " + horizon_label(s.horizons[0]) + " years)";
+      title += "  (T = " + general_number(s.horizons[0]) + " years)";
     out += title + "\n";
-    for (std::size_t c0 = 0; c0 < nh; c0 += kPerLine) {
-      const std::size_t c1 = std::min(nh, c0 + kPerLine);
-      if (nh > kPerLine) {
-        std::string h = pad_right("  horizon (years)", kLabelWidth);
-        for (std::size_t i = c0; i < c1; ++i) h += pad_left(horizon_label(s.horizons[i]), kCellWidth);
-        out += h + "\n";
-      }
+    for (std::size_t c0 = 0; c0 < nh; c0 += kTermPerLine) {
+      const std::size_t c1 = std::min(nh, c0 + kTermPerLine);
+      append_horizon_block_head(out, s.horizons, c0, c1);
       for (std::size_t m = 0; m < run.models.size(); ++m) {
         const TermPoint* pts = s.points.data() + m * nh;
-        const std::string model = "  " + pad_right(std::string(to_string(run.models[m])), 16);
+        const std::string model = term_model_label(run.models[m]);
         bool any_ok = false;
         for (std::size_t i = 0; i < nh; ++i) any_ok = any_ok || pts[i].ok();
         if (!any_ok) {
@@ -306,10 +255,10 @@ class TableTermWriter final : public TermWriter {
                      {"spread bp", &TermPoint::spread_bp, 1.0, 2}};
         for (std::size_t l = 0; l < 3; ++l) {
           std::string line =
-              (l == 0 ? model : std::string(18, ' ')) + pad_right(lines[l].label, kLabelWidth - 18);
+              (l == 0 ? model : std::string(18, ' ')) + left_cell(lines[l].label, kTermLabelWidth - 18);
           for (std::size_t i = c0; i < c1; ++i) {
             const double v = pts[i].ok() ? lines[l].scale * (pts[i].*lines[l].field) : std::nan("");
-            line += pad_left(table_number(v, lines[l].decimals), kCellWidth);
+            line += right_cell(table_number(v, lines[l].decimals), kTermCellWidth);
           }
           out += line + "\n";
         }
@@ -317,56 +266,20 @@ class TableTermWriter final : public TermWriter {
     }
   }
   void end(const ScoreSummary& sum, std::string& out) const override {
-    out += rule() + "\n";
-    out +=
-        "term structures of " + std::to_string(sum.scored) + " of " + std::to_string(sum.total) + " obligors";
-    if (sum.failed() > 0) {
-      out += "; " + std::to_string(sum.invalid) + " invalid input, " + std::to_string(sum.not_converged) +
-             " not converged (reasons below)";
-    }
-    out += "\n";
-    append_table_problems(out, sum.problems, sum.problems_not_listed, 116);
-    bool fp = false;
-    for (TermModel m : info_.run.models) fp = fp || m == TermModel::first_passage;
-    if (fp) {
-      out +=
-          "Model estimates under the Merton and Black-Cox assumptions; not a credit decision on their own.\n";
-    } else {
-      out += kTableCaution;
-    }
+    out += term_rule(info_.run) + "\n";
+    append_score_tally(out, "term structures of", sum, 116);
+    append_term_caution(out, info_.run);
   }
 
  private:
   TermRunInfo info_;
-  static std::string pad_right(const std::string& s, int w) {
-    return s.size() >= static_cast<std::size_t>(w)
-               ? s + " "
-               : s + std::string(static_cast<std::size_t>(w) - s.size(), ' ');
-  }
-  static std::string pad_left(const std::string& s, int w) {
-    return s.size() >= static_cast<std::size_t>(w)
-               ? " " + s
-               : std::string(static_cast<std::size_t>(w) - s.size(), ' ') + s;
-  }
-  std::string rule() const {
-    const std::size_t cells = info_.run.horizons.empty() ? 1 : std::min(info_.run.horizons.size(), kPerLine);
-    return std::string(static_cast<std::size_t>(kLabelWidth) + cells * static_cast<std::size_t>(kCellWidth),
-                       '-');
-  }
+  std::string rule() const { return term_rule(info_.run); }
 };
 
 }  // namespace
 
 std::unique_ptr<TermWriter> make_term_writer(OutputFormat format, const TermRunInfo& info) {
-  switch (format) {
-    case OutputFormat::csv:
-      return std::make_unique<CsvTermWriter>(info);
-    case OutputFormat::json:
-      return std::make_unique<JsonTermWriter>(info);
-    case OutputFormat::table:
-      return std::make_unique<TableTermWriter>(info);
-  }
-  return std::make_unique<CsvTermWriter>(info);
+  return make_format_writer<TermWriter, CsvTermWriter, JsonTermWriter, TableTermWriter>(format, info);
 }
 
 }  // namespace firmcall::detail

@@ -2,7 +2,6 @@
 // firmcall_io: the public entry points are in firmcall/term_run.hpp.
 #pragma once
 
-#include <functional>
 #include <memory>
 #include <string>
 #include <vector>
@@ -32,10 +31,6 @@ class TermWriter {
 
 std::unique_ptr<TermWriter> make_term_writer(OutputFormat format, const TermRunInfo& info);
 
-/// Runs fn(worker, begin, end) over [0, n) split into at most `threads` contiguous slices.
-void parallel_slices(std::size_t n, unsigned threads,
-                     const std::function<void(unsigned, std::size_t, std::size_t)>& fn);
-
 /// Row status of a point in the score vocabulary: ok, invalid_input or not_converged.
 std::string_view row_status_of(TermStatus status) noexcept;
 
@@ -44,9 +39,26 @@ std::string_view row_status_of(TermStatus status) noexcept;
 std::vector<double> term_numbers(const TermScoredObligor& s, const TermBookOptions& run, std::size_t model,
                                  std::size_t horizon);
 
-/// Fixed-width text of a probability in percent or a spread in basis points for the tables:
-/// `decimals` fixed decimals while readable, else scientific; "-" for NaN.
-std::string table_number(double v, int decimals);
+/// The request that computes model `model` of the run for an obligor with loss given default `lgd`.
+TermRequest term_request(const TermBookOptions& run, std::size_t model, double lgd,
+                         const ScoreSettings& settings);
+
+/// Layout of the term-structure tables: horizons per line, label and cell widths.
+inline constexpr std::size_t kTermPerLine = 8;
+inline constexpr std::size_t kTermLabelWidth = 35;
+inline constexpr std::size_t kTermCellWidth = 10;
+
+/// Appends the "  horizon (years)" line over each block of a curve wider than one table line.
+void append_horizon_block_head(std::string& out, const std::vector<double>& horizons, std::size_t c0,
+                               std::size_t c1);
+/// The model name indented and padded as the first cell of a curve's first line.
+std::string term_model_label(TermModel model);
+/// True when one of the run's models is first passage.
+bool has_first_passage(const TermBookOptions& run);
+/// Appends the caution under a term table (it names Black-Cox when first passage is among the models).
+void append_term_caution(std::string& out, const TermBookOptions& run);
+/// The rule of a term table: the label and one line of horizon cells.
+std::string term_rule(const TermBookOptions& run);
 
 /// Appends the JSON run fields that describe a term-structure run, from ", \"models\"" to the
 /// barrier growth, after fields the caller has written.

@@ -7,9 +7,13 @@
 #include <cstdio>
 #include <memory>
 
+#include "engine/chunked_rows.hpp"
 #include "engine/term_output.hpp"
 #include "firmcall/engine/score_output.hpp"
+#include "firmcall/format/json_writer.hpp"
+#include "firmcall/format/table_text.hpp"
 #include "firmcall/model/shock.hpp"
+#include "firmcall/util/parallel.hpp"
 
 namespace firmcall {
 
@@ -76,12 +80,7 @@ class CsvStressTermWriter final : public StressTermWriter {
  public:
   explicit CsvStressTermWriter(const WriterInfo& info) : info_(info) {}
   void begin(std::string& out) const override {
-    bool first = true;
-    for (auto c : stress_term_columns()) {
-      if (!first) out.push_back(',');
-      out.append(c);
-      first = false;
-    }
+    append_csv_names(out, stress_term_columns());
     out.push_back('\n');
   }
   void scenario_begin(const Scenario&, std::size_t, std::string&) const override {}
@@ -91,24 +90,16 @@ class CsvStressTermWriter final : public StressTermWriter {
     for (std::size_t m = 0; m < info_.run.models.size(); ++m) {
       for (std::size_t i = 0; i < nh; ++i) {
         const std::size_t k = m * nh + i;
-        append_csv_text(out, sc.name);
-        out.push_back(',');
-        append_csv_text(out, rec.get(TextField::id));
-        out.push_back(',');
-        append_csv_text(out, rec.get(TextField::name));
-        out.push_back(',');
+        append_csv_texts(out, {sc.name, rec.get(TextField::id), rec.get(TextField::name)});
         out.append(to_string(info_.run.models[m]));
         out.push_back(',');
         append_number(out, base.horizons[i]);
         out.push_back(',');
         out.append(to_string(row_status(s, base.points[k], s.points[k])));
         out.append(s.shocked ? ",true" : ",false");
-        for (double v :
-             numbers(base.points[k], s.points[k], base.resolved.ok(),
-                     s.status != StressStatus::invalid_input && s.status != StressStatus::invalid_stress)) {
-          out.push_back(',');
-          append_number(out, v);
-        }
+        append_csv_numbers(out, numbers(base.points[k], s.points[k], base.resolved.ok(),
+                                        s.status != StressStatus::invalid_input &&
+                                            s.status != StressStatus::invalid_stress));
         out.push_back(',');
         append_csv_text(out, s.messages[k]);
         out.push_back('\n');
@@ -127,20 +118,17 @@ class JsonStressTermWriter final : public StressTermWriter {
   explicit JsonStressTermWriter(const WriterInfo& info) : info_(info) {}
   void begin(std::string& out) const override {
     const TermBookOptions& run = info_.run;
-    out += "{\n  \"run\": {\"input\": ";
-    append_json_string(out, info_.book_origin);
-    out += ", \"scenarios\": ";
-    append_json_string(out, info_.scenario_origin);
-    out += ", \"measure\": ";
-    append_json_string(out, to_string(info_.settings.measure));
+    out += "{\n  \"run\": {";
+    JsonFields(out)
+        .text("input", info_.book_origin)
+        .text("scenarios", info_.scenario_origin)
+        .text("measure", to_string(info_.settings.measure));
     detail::append_term_run_fields(out, run);
     out += "},\n  \"scenarios\": [";
   }
   void scenario_begin(const Scenario& sc, std::size_t index, std::string& out) const override {
-    out += index == 0 ? "\n    {\"name\": " : ",\n    {\"name\": ";
-    append_json_string(out, sc.name);
-    out += ", \"description\": ";
-    append_json_string(out, sc.description);
+    out += index == 0 ? "\n    {" : ",\n    {";
+    JsonFields(out).text("name", sc.name).text("description", sc.description);
     out += ", \"rows\": [\n";
   }
   void obligor(const Scenario&, const ObligorRecord& rec, const TermScoredObligor& base,
@@ -153,36 +141,30 @@ class JsonStressTermWriter final : public StressTermWriter {
       for (std::size_t i = 0; i < nh; ++i) {
         const std::size_t k = m * nh + i;
         if (!(first && k == 0)) out += ",\n";
-        out += "      {\"id\": ";
-        append_json_string(out, rec.get(TextField::id));
-        out += ", \"name\": ";
-        append_json_string(out, rec.get(TextField::name));
-        out += ", \"model\": ";
-        append_json_string(out, to_string(info_.run.models[m]));
-        out += ", \"horizon\": ";
-        append_json_number(out, base.horizons[i]);
-        out += ", \"status\": ";
-        append_json_string(out, to_string(row_status(s, base.points[k], s.points[k])));
-        out += s.shocked ? ", \"shocked\": true" : ", \"shocked\": false";
-        const std::vector<double> v =
-            numbers(base.points[k], s.points[k], base.resolved.ok(), stressed_valid);
-        for (std::size_t c = 0; c < v.size(); ++c) {
-          out += ", \"";
-          out += cols[kFirstNumber + c];
-          out += "\": ";
-          append_json_number(out, v[c]);
-        }
-        out += ", \"message\": ";
-        append_json_string(out, s.messages[k]);
+        out += "      {";
+        JsonFields(out)
+            .text("id", rec.get(TextField::id))
+            .text("name", rec.get(TextField::name))
+            .text("model", to_string(info_.run.models[m]))
+            .number("horizon", base.horizons[i])
+            .text("status", to_string(row_status(s, base.points[k], s.points[k])))
+            .boolean("shocked", s.shocked)
+            .numbers(std::span(cols).subspan(kFirstNumber, kNumbers),
+                     numbers(base.points[k], s.points[k], base.resolved.ok(), stressed_valid))
+            .text("message", s.messages[k]);
         out += "}";
       }
     }
   }
   void scenario_end(std::string& out) const override { out += "\n    ]}"; }
   void end(const TermStressSummary& sum, std::string& out) const override {
-    out += "\n  ],\n  \"summary\": {\"obligors\": " + std::to_string(sum.obligors) +
-           ", \"scenarios\": " + std::to_string(sum.scenarios) + ", \"rows\": " + std::to_string(sum.rows) +
-           ", \"failed_rows\": " + std::to_string(sum.failed_rows) + "}\n}\n";
+    out += "\n  ],\n  \"summary\": {";
+    JsonFields(out)
+        .count("obligors", sum.obligors)
+        .count("scenarios", sum.scenarios)
+        .count("rows", sum.rows)
+        .count("failed_rows", sum.failed_rows);
+    out += "}\n}\n";
   }
 
  private:
@@ -207,12 +189,12 @@ class TableStressTermWriter final : public StressTermWriter {
         "\nScenario " + std::to_string(index + 1) + " of " + std::to_string(info_.scenarios) + ": " + sc.name;
     if (!sc.description.empty()) out += " - " + sc.description;
     out += "\n";
-    std::string head = pad_right("horizon (years)", kLabel);
+    std::string head = left_cell("horizon (years)", detail::kTermLabelWidth);
     if (info_.run.horizons.empty()) {
-      head += pad_left("own T", kCell);
+      head += right_cell("own T", detail::kTermCellWidth);
     } else {
-      for (std::size_t i = 0; i < std::min(info_.run.horizons.size(), kPerLine); ++i) {
-        head += pad_left(label(info_.run.horizons[i]), kCell);
+      for (std::size_t i = 0; i < std::min(info_.run.horizons.size(), detail::kTermPerLine); ++i) {
+        head += right_cell(general_number(info_.run.horizons[i]), detail::kTermCellWidth);
       }
     }
     out += head + "\n" + rule() + "\n";
@@ -224,15 +206,11 @@ class TableStressTermWriter final : public StressTermWriter {
     if (!rec.get(TextField::name).empty()) title += "  " + rec.get(TextField::name);
     if (!s.shocked) title += "  (no shock)";
     out += title + "\n";
-    for (std::size_t c0 = 0; c0 < nh; c0 += kPerLine) {
-      const std::size_t c1 = std::min(nh, c0 + kPerLine);
-      if (nh > kPerLine) {
-        std::string h = pad_right("  horizon (years)", kLabel);
-        for (std::size_t i = c0; i < c1; ++i) h += pad_left(label(base.horizons[i]), kCell);
-        out += h + "\n";
-      }
+    for (std::size_t c0 = 0; c0 < nh; c0 += detail::kTermPerLine) {
+      const std::size_t c1 = std::min(nh, c0 + detail::kTermPerLine);
+      detail::append_horizon_block_head(out, base.horizons, c0, c1);
       for (std::size_t m = 0; m < info_.run.models.size(); ++m) {
-        const std::string model = "  " + pad_right(std::string(to_string(info_.run.models[m])), 16);
+        const std::string model = detail::term_model_label(info_.run.models[m]);
         const TermPoint* b = base.points.data() + m * nh;
         const TermPoint* st = s.points.data() + m * nh;
         bool any = false;
@@ -245,11 +223,13 @@ class TableStressTermWriter final : public StressTermWriter {
                    " (reason below)\n";
           continue;
         }
-        std::string l1 = model + pad_right("PD % as it stands", kLabel - 18);
-        std::string l2 = std::string(18, ' ') + pad_right("PD % stressed", kLabel - 18);
+        std::string l1 = model + left_cell("PD % as it stands", detail::kTermLabelWidth - 18);
+        std::string l2 = std::string(18, ' ') + left_cell("PD % stressed", detail::kTermLabelWidth - 18);
         for (std::size_t i = c0; i < c1; ++i) {
-          l1 += pad_left(detail::table_number(b[i].ok() ? 100.0 * b[i].pd : std::nan(""), 4), kCell);
-          l2 += pad_left(detail::table_number(st[i].ok() ? 100.0 * st[i].pd : std::nan(""), 4), kCell);
+          l1 +=
+              right_cell(table_number(b[i].ok() ? 100.0 * b[i].pd : std::nan(""), 4), detail::kTermCellWidth);
+          l2 += right_cell(table_number(st[i].ok() ? 100.0 * st[i].pd : std::nan(""), 4),
+                           detail::kTermCellWidth);
         }
         out += l1 + "\n" + l2 + "\n";
       }
@@ -261,79 +241,28 @@ class TableStressTermWriter final : public StressTermWriter {
            std::to_string(sum.scenarios) + " scenarios x models x horizons), " +
            std::to_string(sum.failed_rows) + " failed\n";
     append_table_problems(out, sum.problems, sum.problems_not_listed, 116);
-    bool fp = false;
-    for (TermModel m : info_.run.models) fp = fp || m == TermModel::first_passage;
-    if (fp) {
-      out +=
-          "Model estimates under the Merton and Black-Cox assumptions; not a credit decision on their own.\n";
-    } else {
-      out += kTableCaution;
-    }
+    detail::append_term_caution(out, info_.run);
   }
 
  private:
-  static constexpr int kLabel = 35;
-  static constexpr int kCell = 10;
-  static constexpr std::size_t kPerLine = 8;
   WriterInfo info_;
-  static std::string label(double t) {
-    char buf[32];
-    std::snprintf(buf, sizeof buf, "%g", t);
-    return buf;
-  }
-  static std::string pad_right(const std::string& s, int w) {
-    const auto n = static_cast<std::size_t>(w);
-    return s.size() >= n ? s + " " : s + std::string(n - s.size(), ' ');
-  }
-  static std::string pad_left(const std::string& s, int w) {
-    const auto n = static_cast<std::size_t>(w);
-    return s.size() >= n ? " " + s : std::string(n - s.size(), ' ') + s;
-  }
-  std::string rule() const {
-    const std::size_t cells = info_.run.horizons.empty() ? 1 : std::min(info_.run.horizons.size(), kPerLine);
-    return std::string(static_cast<std::size_t>(kLabel) + cells * static_cast<std::size_t>(kCell), '-');
-  }
+  std::string rule() const { return detail::term_rule(info_.run); }
 };
 
 std::unique_ptr<StressTermWriter> make_writer(OutputFormat format, const WriterInfo& info) {
-  switch (format) {
-    case OutputFormat::csv:
-      return std::make_unique<CsvStressTermWriter>(info);
-    case OutputFormat::json:
-      return std::make_unique<JsonStressTermWriter>(info);
-    case OutputFormat::table:
-      return std::make_unique<TableStressTermWriter>(info);
-  }
-  return std::make_unique<CsvStressTermWriter>(info);
+  return make_format_writer<StressTermWriter, CsvStressTermWriter, JsonStressTermWriter,
+                            TableStressTermWriter>(format, info);
 }
 
 }  // namespace
 
 const std::vector<std::string_view>& stress_term_columns() {
-  static const std::vector<std::string_view> cols = {"scenario",
-                                                     "id",
-                                                     "name",
-                                                     "model",
-                                                     "horizon",
-                                                     "status",
-                                                     "shocked",
-                                                     "calibration_horizon",
-                                                     "calibration_horizon_stressed",
-                                                     "asset_value",
-                                                     "asset_value_stressed",
-                                                     "asset_vol",
-                                                     "asset_vol_stressed",
-                                                     "pd",
-                                                     "pd_stressed",
-                                                     "pd_change",
-                                                     "pd_forward",
-                                                     "pd_forward_stressed",
-                                                     "pd_annualised",
-                                                     "pd_annualised_stressed",
-                                                     "spread_bp",
-                                                     "spread_bp_stressed",
-                                                     "spread_bp_change",
-                                                     "message"};
+  static const std::vector<std::string_view> cols = split_names(
+      "scenario,id,name,model,horizon,status,shocked,calibration_horizon,"
+      "calibration_horizon_stressed,asset_value,asset_value_stressed,asset_vol,"
+      "asset_vol_stressed,pd,pd_stressed,pd_change,pd_forward,pd_forward_stressed,"
+      "pd_annualised,pd_annualised_stressed,spread_bp,spread_bp_stressed,spread_bp_change,"
+      "message");
   return cols;
 }
 
@@ -363,12 +292,7 @@ void stress_term_obligor(const ObligorRecord& rec, const TermScoredObligor& base
   const std::size_t nh = base.horizons.size();
   bool all_ok = true;
   for (std::size_t m = 0; m < run.models.size(); ++m) {
-    TermRequest req;
-    req.model = run.models[m];
-    req.calibration = run.calibration;
-    req.barrier = run.barrier;
-    req.lgd = base.resolved.lgd;
-    req.solver = settings.solver;
+    const TermRequest req = detail::term_request(run, m, base.resolved.lgd, settings);
     TermPoint* pts = out.points.data() + m * nh;
     term_structure(out.inputs, req, base.horizons.data(), nh, pts);
     for (std::size_t i = 0; i < nh; ++i) {
@@ -382,6 +306,47 @@ void stress_term_obligor(const ObligorRecord& rec, const TermScoredObligor& base
   out.status = all_ok ? StressStatus::ok : StressStatus::not_converged;
 }
 
+namespace {
+
+// Per-thread state of the stressed curves of one scenario.
+struct TermStressWorker {
+  std::string out;
+  StressedTerm stressed;
+  std::vector<std::pair<std::size_t, std::string>> problems;  // scenario-caused, (obligor, text)
+  std::size_t failed = 0, rows = 0, not_listed = 0;
+};
+
+// The first non-empty message of a stressed curve.
+std::string first_message(const StressedTerm& s) {
+  for (const std::string& m : s.messages) {
+    if (!m.empty()) return m;
+  }
+  return {};
+}
+
+// Stresses obligor i's curves under one scenario, writes them and counts its rows and failures.
+void stress_term_row(const Scenario& sc, const Book& book, std::size_t i, const TermScoredObligor& base,
+                     const ScoreSettings& settings, const TermBookOptions& run,
+                     const StressTermWriter& writer, TermStressWorker& wk) {
+  const ObligorRecord& rec = book.obligors[i];
+  stress_term_obligor(rec, base, sc.effect_for(rec), settings, run, wk.stressed);
+  writer.obligor(sc, rec, base, wk.stressed, i == 0, wk.out);
+  for (std::size_t k = 0; k < wk.stressed.points.size(); ++k) {
+    ++wk.rows;
+    if (row_status(wk.stressed, base.points[k], wk.stressed.points[k]) != StressStatus::ok) ++wk.failed;
+  }
+  // A failure caused by the scenario (base failures are listed once before).
+  if (base.status != RowStatus::ok || wk.stressed.status == StressStatus::ok) return;
+  if (wk.problems.size() < run.max_listed_problems) {
+    wk.problems.emplace_back(
+        i, "scenario '" + sc.name + "': " + message_without_line(first_message(wk.stressed)));
+  } else {
+    ++wk.not_listed;
+  }
+}
+
+}  // namespace
+
 TermStressSummary run_stress_term(const Book& book, const std::vector<Scenario>& scenarios,
                                   const std::string& scenario_origin, const ScoreSettings& settings,
                                   const TermBookOptions& run, const TextSink& sink) {
@@ -393,24 +358,22 @@ TermStressSummary run_stress_term(const Book& book, const std::vector<Scenario>&
   sum.notes = book.notes;
   const WriterInfo info{book.origin, scenario_origin, settings, run, n, scenarios.size()};
   const auto writer = make_writer(run.format, info);
-  {
-    std::string s;
-    writer->begin(s);
-    sink(s);
-  }
+  detail::sink_text(sink, [&](std::string& s) { writer->begin(s); });
   // Curves as the book stands, once for every scenario.
   std::vector<TermScoredObligor> base(n);
-  detail::parallel_slices(n, threads, [&](unsigned, std::size_t b, std::size_t e) {
-    for (std::size_t i = b; i < e; ++i)
-      score_term_obligor(book.obligors[i], book.defaults, settings, run, base[i]);
-  });
+  parallel_slices(
+      n, threads,
+      [&](unsigned, std::size_t b, std::size_t e) {
+        for (std::size_t i = b; i < e; ++i)
+          score_term_obligor(book.obligors[i], book.defaults, settings, run, base[i]);
+      },
+      16);
   const auto list = [&](std::size_t i, const std::string& message) {
     if (sum.problems.size() >= run.max_listed_problems) {
       ++sum.problems_not_listed;
       return;
     }
-    const ObligorRecord& rec = book.obligors[i];
-    sum.problems.push_back(obligor_problem(book.origin, rec, message));
+    sum.problems.push_back(obligor_problem(book.origin, book.obligors[i], message));
   };
   for (std::size_t i = 0; i < n; ++i) {
     if (base[i].status == RowStatus::ok) {
@@ -419,59 +382,18 @@ TermStressSummary run_stress_term(const Book& book, const std::vector<Scenario>&
       list(i, base[i].first_problem());
     }
   }
-  struct Worker {
-    std::string out;
-    StressedTerm stressed;
-    std::vector<std::pair<std::size_t, std::string>> problems;  // scenario-caused, (obligor, text)
-    std::size_t failed = 0, rows = 0, not_listed = 0;
-  };
-  std::vector<Worker> workers(threads);
+  std::vector<TermStressWorker> workers(threads);
   for (std::size_t si = 0; si < scenarios.size(); ++si) {
     const Scenario& sc = scenarios[si];
-    {
-      std::string s;
-      writer->scenario_begin(sc, si, s);
-      sink(s);
-    }
+    detail::sink_text(sink, [&](std::string& s) { writer->scenario_begin(sc, si, s); });
     constexpr std::size_t kChunk = 2048;
-    for (std::size_t c0 = 0; c0 < n; c0 += kChunk) {
-      const std::size_t c1 = std::min(n, c0 + kChunk);
-      detail::parallel_slices(c1 - c0, threads, [&](unsigned w, std::size_t b, std::size_t e) {
-        Worker& wk = workers[w];
-        wk.out.clear();
-        for (std::size_t i = c0 + b; i < c0 + e; ++i) {
-          const ObligorRecord& rec = book.obligors[i];
-          stress_term_obligor(rec, base[i], sc.effect_for(rec), settings, run, wk.stressed);
-          writer->obligor(sc, rec, base[i], wk.stressed, i == 0, wk.out);
-          for (std::size_t k = 0; k < wk.stressed.points.size(); ++k) {
-            ++wk.rows;
-            if (row_status(wk.stressed, base[i].points[k], wk.stressed.points[k]) != StressStatus::ok)
-              ++wk.failed;
-          }
-          // A failure caused by the scenario (base failures are listed once above).
-          if (base[i].status == RowStatus::ok && wk.stressed.status != StressStatus::ok) {
-            std::string first;
-            for (const std::string& m : wk.stressed.messages) {
-              if (!m.empty()) {
-                first = m;
-                break;
-              }
-            }
-            if (wk.problems.size() < run.max_listed_problems) {
-              wk.problems.emplace_back(i, "scenario '" + sc.name + "': " + message_without_line(first));
-            } else {
-              ++wk.not_listed;
-            }
-          }
-        }
-      });
-      for (Worker& wk : workers) {
-        sink(wk.out);
-        wk.out.clear();
-      }
-    }
+    detail::write_in_chunks(n, kChunk, workers, 16, sink,
+                            [&](TermStressWorker& wk, std::size_t b, std::size_t e) {
+                              for (std::size_t i = b; i < e; ++i)
+                                stress_term_row(sc, book, i, base[i], settings, run, *writer, wk);
+                            });
     std::vector<std::pair<std::size_t, std::string>> found;
-    for (Worker& wk : workers) {
+    for (TermStressWorker& wk : workers) {
       sum.rows += wk.rows;
       sum.failed_rows += wk.failed;
       sum.problems_not_listed += wk.not_listed;
@@ -481,13 +403,9 @@ TermStressSummary run_stress_term(const Book& book, const std::vector<Scenario>&
     }
     std::sort(found.begin(), found.end());
     for (const auto& [i, text] : found) list(i, text);
-    std::string s;
-    writer->scenario_end(s);
-    sink(s);
+    detail::sink_text(sink, [&](std::string& s) { writer->scenario_end(s); });
   }
-  std::string s;
-  writer->end(sum, s);
-  sink(s);
+  detail::sink_text(sink, [&](std::string& s) { writer->end(sum, s); });
   return sum;
 }
 

@@ -2,6 +2,7 @@
 
 #include "firmcall/util/utf8.hpp"
 
+#include <algorithm>
 #include <array>
 #include <bit>
 #include <charconv>
@@ -202,6 +203,31 @@ void append_csv_names(std::string& out, const std::vector<std::string_view>& nam
     if (i > 0) out.push_back(',');
     out.append(names[i]);
   }
+}
+
+void append_csv_texts(std::string& out, std::initializer_list<std::string_view> cells) {
+  for (std::string_view c : cells) {
+    append_csv_text(out, c);
+    out.push_back(',');
+  }
+}
+
+void append_csv_numbers(std::string& out, std::span<const double> values) {
+  for (double v : values) {
+    out.push_back(',');
+    append_number(out, v);
+  }
+}
+
+std::vector<std::string_view> split_names(std::string_view list) {
+  std::vector<std::string_view> names;
+  std::size_t start = 0;
+  while (start <= list.size()) {
+    const std::size_t comma = std::min(list.find(',', start), list.size());
+    names.push_back(list.substr(start, comma - start));
+    start = comma + 1;
+  }
+  return names;
 }
 
 void append_csv_text(std::string& out, std::string_view s) {

@@ -12,14 +12,6 @@ ReportCell ReportCell::number(double v) {
   return {Kind::number, {}, v, {}};
 }
 
-std::string fit_text(std::string_view s, std::size_t width) {
-  if (s.size() <= width) return std::string(s);
-  if (width == 0) return {};
-  std::string out(s.substr(0, width - 1));
-  out.push_back('~');
-  return out;
-}
-
 std::string format_cell(double v, CellStyle style) {
   if (!std::isfinite(v)) return "-";
   char buf[64];
@@ -69,7 +61,7 @@ std::string format_cell(double v, CellStyle style) {
   return buf;
 }
 
-ReportWriter::ReportWriter(std::vector<ReportColumn> columns, OutputFormat format)
+RowWriter::RowWriter(std::vector<ReportColumn> columns, OutputFormat format)
     : columns_(std::move(columns)), format_(format) {}
 
 namespace {
@@ -92,7 +84,7 @@ void trim_line(std::string& out, std::size_t from) {
 
 }  // namespace
 
-void ReportWriter::header(std::string& out) const {
+void RowWriter::header(std::string& out) const {
   if (format_ == OutputFormat::csv) {
     bool first = true;
     for (const ReportColumn& c : columns_) {
@@ -120,7 +112,7 @@ void ReportWriter::header(std::string& out) const {
   rule(out);
 }
 
-void ReportWriter::rule(std::string& out) const {
+void RowWriter::rule(std::string& out) const {
   if (format_ != OutputFormat::table) return;
   int width = -1;
   for (const ReportColumn& c : columns_) {
@@ -130,7 +122,7 @@ void ReportWriter::rule(std::string& out) const {
   out.push_back('\n');
 }
 
-void ReportWriter::row(const std::vector<ReportCell>& cells, std::string& out) {
+void RowWriter::row(const std::vector<ReportCell>& cells, std::string& out) {
   ++rows_;
   switch (format_) {
     case OutputFormat::table: {

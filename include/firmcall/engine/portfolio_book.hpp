@@ -40,6 +40,7 @@
 #include "firmcall/portfolio/loss_distribution.hpp"
 #include "firmcall/portfolio/loss_simulation.hpp"
 #include "firmcall/portfolio/vasicek.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -111,6 +112,8 @@ struct PortfolioBookOptions {
   std::size_t max_listed_problems = 20;
   /// Called between simulation batches: (scenario name, scenarios done, scenarios in all).
   std::function<void(const std::string&, std::uint64_t, std::uint64_t)> progress;
+  /// threads >= 1; asset_correlation, when given, in [0, 1).
+  OptionCheck validate() const;
 };
 
 /// A whole portfolio run: the book as it stands first, then each stress scenario.

@@ -17,6 +17,7 @@
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/model/merton.hpp"
 #include "firmcall/model/merton_solver.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -64,6 +65,8 @@ struct ScoreBookOptions {
   std::size_t chunk_bytes = 1 << 18;   ///< CSV streaming: bytes read per step
   bool sensitivities = false;          ///< add the sensitivity columns (output.hpp, sensitivity.hpp)
   const GradeScale* grades = nullptr;  ///< when set, the output shows each obligor's grade
+  /// threads >= 1, chunk_bytes > 0.
+  OptionCheck validate() const;
 };
 
 /// Scores a book already in memory (YAML, or a small CSV).

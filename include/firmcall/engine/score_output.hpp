@@ -9,6 +9,7 @@
 #include "firmcall/book/grades.hpp"
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/format/cells.hpp"
+#include "firmcall/format/json_writer.hpp"
 #include "firmcall/model/sensitivity.hpp"
 
 namespace firmcall {
@@ -33,6 +34,19 @@ void append_sensitivities_json(std::string& out, const MertonSensitivities& s, b
 void append_sensitivities_table(std::string& out, const MertonSensitivities& s, std::size_t indent);
 /// Appends the two header lines that explain append_sensitivities_table's columns.
 void append_sensitivities_table_header(std::string& out, std::size_t indent);
+
+/// Appends the JSON run fields of the score settings every Merton run shows: default_point_weight,
+/// rate_override and horizon_override (null when not overridden), after fields already written.
+void append_score_settings_json(std::string& out, const ScoreSettings& settings);
+/// Appends the close of a JSON document's row list and opens its summary with the counts of the
+/// book as it stands; the caller may add fields to the returned writer, then appends "}\n}\n".
+JsonFields open_json_summary(std::string& out, std::size_t obligors, std::size_t scored, std::size_t invalid,
+                             std::size_t not_converged);
+/// Appends the end of a scored JSON document: the row list's close and the summary counts.
+void append_score_summary_json(std::string& out, const ScoreSummary& summary);
+/// Appends the tally under a table, "<what> N of M obligors" and the failures, then the problems.
+void append_score_tally(std::string& out, std::string_view what, const ScoreSummary& summary,
+                        std::size_t wrap_width = 0);
 
 /// Writes scored obligors in one format. Rows are appended to a caller's buffer so that workers
 /// can format in parallel; `separator` is written between rows by the caller.

@@ -29,6 +29,7 @@
 #include "firmcall/model/reverse_stress.hpp"
 #include "firmcall/model/sensitivity.hpp"
 #include "firmcall/model/shock.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -116,7 +117,9 @@ struct StressBookOptions {
   unsigned threads = 1;        ///< worker threads (>= 1); output order is the input order
   bool sensitivities = false;  ///< add sensitivity columns at the stressed inputs
   std::size_t max_listed_problems = 20;
-  std::size_t chunk_obligors = 8192;  ///< obligors formatted per parallel step
+  std::size_t chunk_obligors = 8192;  ///< obligors formatted per parallel step (0 counts as 1)
+  /// threads >= 1.
+  OptionCheck validate() const;
 };
 
 /// Column names of the machine-readable stress rows, in order (sensitivity columns follow when

@@ -23,6 +23,7 @@
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/model/term_structure.hpp"
+#include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
 
@@ -42,6 +43,9 @@ struct TermBookOptions {
   Calibration calibration = Calibration::once;
   Barrier barrier;  ///< first-passage barrier
   std::size_t max_listed_problems = 20;
+  /// threads >= 1; horizons as parse_horizons accepts them; at least one model; the barrier ratio
+  /// positive and its growth in [-1, 1].
+  OptionCheck validate() const;
 };
 
 /// Term-structure choices as text (empty or unset: not given), e.g. as typed on the command line.

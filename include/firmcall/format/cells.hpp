@@ -4,6 +4,9 @@
 
 #include <cstddef>
 #include <functional>
+#include <initializer_list>
+#include <memory>
+#include <span>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -12,6 +15,21 @@ namespace firmcall {
 
 /// Output formats.
 enum class OutputFormat { table, csv, json };
+
+/// A writer of the class that writes `format` (Csv, Json or Table, each derived from Base), built
+/// from `args`.
+template <class Base, class Csv, class Json, class Table, class... Args>
+std::unique_ptr<Base> make_format_writer(OutputFormat format, const Args&... args) {
+  switch (format) {
+    case OutputFormat::json:
+      return std::make_unique<Json>(args...);
+    case OutputFormat::table:
+      return std::make_unique<Table>(args...);
+    case OutputFormat::csv:
+      break;
+  }
+  return std::make_unique<Csv>(args...);
+}
 
 /// Where the output text goes (a file, stdout, or a string in tests).
 using TextSink = std::function<void(std::string_view)>;
@@ -24,8 +42,15 @@ inline constexpr std::size_t kMaxNumberChars = 40;
 
 /// Writes v as append_number does at p (room for kMaxNumberChars); returns the end.
 char* write_number(char* p, double v) noexcept;
+/// Appends ",v" for each value as append_number writes it (",", alone when not finite).
+void append_csv_numbers(std::string& out, std::span<const double> values);
+/// Appends each cell as append_csv_text does, each followed by a comma (the leading text cells of a row).
+void append_csv_texts(std::string& out, std::initializer_list<std::string_view> cells);
 /// Appends column names joined by commas (a CSV header, or its continuation after a comma).
 void append_csv_names(std::string& out, const std::vector<std::string_view>& names);
+/// The names of a comma-separated list such as "id,name,pd" (a column layout kept as one literal);
+/// the views point into `list`, which must outlive them.
+std::vector<std::string_view> split_names(std::string_view list);
 /// Appends a CSV cell, quoted when it holds a comma, quote or line break.
 void append_csv_text(std::string& out, std::string_view s);
 /// Appends a JSON string literal (with quotes), escaping as RFC 8259 requires.

@@ -3,7 +3,7 @@
 // are written as they come, so long reports need no memory beyond one row.
 //
 // **Example**:
-//   firmcall::ReportWriter w({{"id", "obligor", "", 12, firmcall::CellStyle::text},
+//   firmcall::RowWriter w({{"id", "obligor", "", 12, firmcall::CellStyle::text},
 //                             {"pd", "PD", "%", 10, firmcall::CellStyle::percent_pd}},
 //                            firmcall::OutputFormat::csv);
 //   std::string out;
@@ -17,6 +17,7 @@
 #include <vector>
 
 #include "firmcall/format/cells.hpp"
+#include "firmcall/format/table_text.hpp"
 
 namespace firmcall {
 
@@ -53,9 +54,10 @@ struct ReportCell {
   static ReportCell number(double v);
 };
 
-class ReportWriter {
+/// Writes rows of one column layout as a table, CSV or JSON.
+class RowWriter {
  public:
-  ReportWriter(std::vector<ReportColumn> columns, OutputFormat format);
+  RowWriter(std::vector<ReportColumn> columns, OutputFormat format);
   /// Table: two heading lines and a rule. CSV: the header line. JSON: nothing.
   void header(std::string& out) const;
   /// One row (one cell per column). JSON rows are objects separated by ",\n", each after `indent`.
@@ -71,9 +73,10 @@ class ReportWriter {
   std::size_t rows_ = 0;
 };
 
+/// The former name of RowWriter, kept for its users.
+using ReportWriter = RowWriter;
+
 /// Table text of a number in a style ('-' when not finite).
 std::string format_cell(double v, CellStyle style);
-/// `s` cut to `width` characters, the last one '~' when cut.
-std::string fit_text(std::string_view s, std::size_t width);
 
 }  // namespace firmcall

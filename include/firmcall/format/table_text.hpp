@@ -1,0 +1,33 @@
+// Cells of the fixed-width tables for people: numbers shown with a few decimals (scientific when
+// too small or too large to read), text cut to a column, columns padded to a width, and rules.
+// Machine-readable numbers are not written here (cells.hpp writes them at 17 digits).
+#pragma once
+
+#include <cstddef>
+#include <string>
+#include <string_view>
+
+namespace firmcall {
+
+/// `s` cut to `width` characters, the last one '~' when cut.
+std::string fit_text(std::string_view s, std::size_t width);
+
+/// `decimals` fixed decimals while readable (10^(1-decimals) <= |v| < 1e7), else scientific with two
+/// decimals; "0" for zero; with `sign` a leading '+' on positive values; "-" when not finite.
+std::string table_number(double v, int decimals, bool sign = false);
+/// `decimals` fixed decimals (with `sign` a leading '+' on positive values); "-" when not finite.
+std::string fixed_number(double v, int decimals, bool sign = false);
+/// The shortest of fixed and scientific with six significant digits, as printf's %g.
+std::string general_number(double v);
+/// A fraction in percent as general_number writes it, then '%' (0.05 -> "5%").
+std::string percent_text(double fraction);
+
+/// `s` then spaces up to `width` columns; `s` and one space when it is as wide or wider.
+std::string left_cell(std::string_view s, std::size_t width);
+/// Spaces then `s`, `width` columns in all; one space and `s` when it is as wide or wider.
+std::string right_cell(std::string_view s, std::size_t width);
+
+/// Appends a rule of `width` dashes and a line break.
+void append_rule(std::string& out, std::size_t width);
+
+}  // namespace firmcall
