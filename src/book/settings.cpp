@@ -59,9 +59,7 @@ OptionCheck ScoreSettings::validate() const {
   if (!(horizon_years > 0.0)) return problem("horizon_years", horizon_years, kPositive);
   if (!in_closed_unit(default_lgd)) return problem("default_lgd", default_lgd, kClosedUnit);
   if (!(max_equity_vol > 0.0)) return problem("max_equity_vol", max_equity_vol, kPositive);
-  // solver: MertonSolveOptions (model layer) is to be checked here with its own validate(), as
-  // in_section("solver", solver.validate()), once it has one; the settings reader checks it today.
-  return std::nullopt;
+  return in_section("solver", solver.validate());
 }
 
 OptionCheck StressSettings::validate() const {

@@ -54,6 +54,18 @@ TEST_CASE("ScoreSettings: each constraint is caught") {
   CHECK(p->to_string() == "field 'max_equity_vol': must be positive, got -1");
 }
 
+TEST_CASE("ScoreSettings: the solver section is checked with the solver's own rules") {
+  ScoreSettings s;
+  s.solver.max_newton_iterations = 0;
+  CHECK(problem_of(s).rfind("solver.max_newton_iterations: ", 0) == 0);
+  s.solver.max_newton_iterations = 60;
+  s.solver.residual_tolerance = -1e-12;
+  CHECK(problem_of(s).rfind("solver.residual_tolerance: ", 0) == 0);
+  Config c;
+  c.score.solver.max_fallback_iterations = -3;
+  CHECK(problem_of(c).rfind("score.solver.max_fallback_iterations: ", 0) == 0);
+}
+
 TEST_CASE("StressSettings: the threshold lies in the open unit interval") {
   StressSettings s;
   for (double bad : {0.0, 1.0, -0.5, 2.0}) {

@@ -1,4 +1,4 @@
-// Tests of the analytic sensitivities (src/sensitivity.cpp) against finite differences and
+// Tests of the analytic sensitivities (src/model/sensitivity.cpp) against finite differences and
 // against identities of the Merton model that do not use our derivation.
 #include "firmcall/model/sensitivity.hpp"
 
@@ -303,7 +303,7 @@ TEST_CASE("with the drift at the rate, a rate move is an equity move of T times 
 }
 
 TEST_CASE("sensitivity signs the model guarantees: more equity volatility, more asset volatility") {
-  // Why (our derivation, stated in src/sensitivity.cpp and scenario.hpp's README section): along
+  // Why (our derivation, stated in src/model/sensitivity.cpp and docs/stress.md): along
   // the curve C(V, sV) = E, V falls as sV rises, and the second equation picks the unique point on
   // it; with uniqueness for every sE (merton_solver.hpp), sV must rise and V fall with sE. Debt
   // D = V - E then falls, so the spread rises. DD falls (PD rises) where DD > -sV sqrt(T), because

@@ -31,7 +31,7 @@ std::string fmt(const char* format, double v) {
   return buf;
 }
 
-// The score table's PD text (README, "Scoring a book"): percent with four decimals, scientific
+// The score table's PD text (docs/report.md, "Numbers for people"): percent with four decimals, scientific
 // below 0.001 %; the report adds the percent sign.
 std::string table_pd(double pd) {
   const double p = 100.0 * pd;
@@ -84,7 +84,7 @@ struct FullRun {
   std::string err;
 };
 
-// The README's full sample run.
+// The full sample run of the README's quick start.
 const FullRun& full_run() {
   static FullRun run = [] {
     FullRun f;
@@ -170,7 +170,7 @@ TEST_CASE("report tables show the score command's CSV values with the table's ro
     ++checked;
   }
   CHECK(checked == 20);
-  // Spot values quoted in the README's score table (samples/demo_book.yaml).
+  // Spot values quoted in the README's quick-start score table (samples/demo_book.yaml).
   CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[5] == "18.8634%");
   CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[6] == "172.92");
   CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[8] == "5,440.64");
@@ -180,7 +180,7 @@ TEST_CASE("report tables show the score command's CSV values with the table's ro
 TEST_CASE("report stress, portfolio and movers figures equal those commands' CSV output") {
   const FullRun& f = full_run();
   TempDir t;
-  // Stress: the per-scenario summary CSV (README, "Stress runs").
+  // Stress: the per-scenario summary CSV (docs/stress.md).
   const auto st = run_firmcall(
       "-q stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --format csv -o '" +
       t.file("rows.csv") + "' --summary-output '" + t.file("summary.csv") + "'");
@@ -198,7 +198,7 @@ TEST_CASE("report stress, portfolio and movers figures equal those commands' CSV
     CHECK(cells[7] == sum.cell(k, "above_threshold_stressed"));
     CHECK(cells[9] == fmt("%.2f", sum.number(k, "expected_loss_stressed")));
   }
-  // README: severe moves 16 names above 5% and expected loss to 42.94.
+  // docs/stress.md: severe moves 16 names above 5% and expected loss to 42.94.
   CHECK(table_row(f.html, "fc-stress-summary", "severe")[7] == "16");
   CHECK(table_row(f.html, "fc-stress-summary", "severe")[9] == "42.94");
   // Per-obligor stressed PD: the stress rows CSV.
@@ -242,13 +242,13 @@ TEST_CASE("report stress, portfolio and movers figures equal those commands' CSV
   REQUIRE(mv.exit_code == 0);
   const CsvTable m = parse_csv_table(mv.out);
   const auto zep = table_row(f.html, "fc-movers", "ZEP-26");
-  CHECK(m.cell(0, "id") == "ZEP-26");  // the most severe first, as in the README's watchlist
+  CHECK(m.cell(0, "id") == "ZEP-26");  // the most severe first, as in the watchlist of docs/monitoring.md
   CHECK(zep[2] == fmt("%.3f", m.number(0, "dd_before")));
   CHECK(zep[3] == fmt("%.3f", m.number(0, "dd_now")));
   CHECK(zep[6] == table_pd(m.number(0, "pd_now")));
   CHECK(zep[7] == "FC8 to FC10");
   CHECK(zep[8] == "dd_drop pd_jump downgrade pd_ceiling");
-  CHECK(zep[6] == "16.9426%");  // README, watchlist example
+  CHECK(zep[6] == "16.9426%");  // docs/monitoring.md, watchlist example
 }
 
 TEST_CASE("report term structures equal score --horizons for the chosen names") {
