@@ -119,18 +119,15 @@ ExitCode estimate_from_history(const HistoryCli& opts, const HistoryInputs& in, 
   run.progress = history_progress(opts.out, quiet);
   HistorySummary summary;
   {
-    OutputFile out(opts.out.output);
-    std::optional<OutputFile> series_out;
+    OutputSet outputs;
+    OutputFile& out = outputs.add("-o", opts.out.output);
+    OutputFile* series_out = opts.series.empty() ? nullptr : &outputs.add("--series", opts.series);
     TextSink series_sink;
-    if (!opts.series.empty()) {
-      series_out.emplace(opts.series);
-      series_sink = [&series_out](std::string_view s) { series_out->write(s); };
-    }
+    if (series_out) series_sink = [series_out](std::string_view s) { series_out->write(s); };
     summary = run_history(
         in.sources(), in.settings, in.config.history, run, [&out](std::string_view s) { out.write(s); },
         series_out ? &series_sink : nullptr);
-    out.commit();
-    if (series_out) series_out->commit();
+    outputs.commit();
   }
   if (!quiet) {
     print_run_notes(summary.notes, summary.problems, summary.problems_not_listed, opts.out,

@@ -174,19 +174,29 @@ PortfolioBookOptions portfolio_options(const PortfolioCli& o, Config& config) {
   return run;
 }
 
-// Writes the output and the summary and distribution files, all or nothing each.
-void write_portfolio_files(const PortfolioCli& o, const PortfolioResult& result, const Book& book) {
-  OutputFile out(o.out.output);
-  std::unique_ptr<OutputFile> summary_file;
-  std::unique_ptr<OutputFile> distribution_file;
-  if (!o.summary_output.empty()) summary_file = std::make_unique<OutputFile>(o.summary_output);
-  if (!o.distribution_output.empty()) distribution_file = std::make_unique<OutputFile>(o.distribution_output);
-  write_portfolio(result, book, o.out.format, [&out](std::string_view s) { out.write(s); });
-  if (summary_file) summary_file->write(portfolio_summary_csv(result));
-  if (distribution_file) distribution_file->write(portfolio_distribution_csv(result));
-  out.commit();
-  if (summary_file) summary_file->commit();
-  if (distribution_file) distribution_file->commit();
+// The output and the summary and distribution files, opened before the run (two naming the same
+// file are refused) and committed together after it.
+struct PortfolioOutputs {
+  OutputSet set;
+  OutputFile* out = nullptr;
+  OutputFile* summary = nullptr;
+  OutputFile* distribution = nullptr;
+};
+
+void open_portfolio_files(const PortfolioCli& o, PortfolioOutputs& files) {
+  files.out = &files.set.add("-o", o.out.output);
+  if (!o.summary_output.empty()) files.summary = &files.set.add("--summary-output", o.summary_output);
+  if (!o.distribution_output.empty()) {
+    files.distribution = &files.set.add("--distribution-output", o.distribution_output);
+  }
+}
+
+void write_portfolio_files(const PortfolioOutputs& files, const PortfolioCli& o,
+                           const PortfolioResult& result, const Book& book) {
+  OutputFile* out = files.out;
+  write_portfolio(result, book, o.out.format, [out](std::string_view s) { out->write(s); });
+  if (files.summary) files.summary->write(portfolio_summary_csv(result));
+  if (files.distribution) files.distribution->write(portfolio_distribution_csv(result));
 }
 
 // One closing line per scenario: obligors in, expected loss, VaR, ES and IRB capital.
@@ -223,9 +233,12 @@ ExitCode run_portfolio_command(const PortfolioCli& o, const GlobalOptions& globa
   if (!o.correlation.empty()) {
     correlation = std::make_unique<CorrelationFile>(load_correlation_file(o.correlation));
   }
+  PortfolioOutputs files;
+  open_portfolio_files(o, files);
   const PortfolioResult result = run_portfolio(book, scenarios, o.scenarios, correlation.get(), config, run);
   progress.clear();
-  write_portfolio_files(o, result, book);
+  write_portfolio_files(files, o, result, book);
+  files.set.commit();
   if (!global.quiet) {
     print_run_notes(result.notes, result.problems, result.problems_not_listed, o.out, "");
     if (o.out.wants_closing_line()) print_portfolio_closing(result);

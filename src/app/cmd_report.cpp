@@ -35,7 +35,7 @@ ExitCode run_report(const ReportCli& opts, const GlobalOptions& global) {
   // Every input is read and every figure computed before the file is opened.
   const ReportData data = gather_report(o, global.config());
   const std::string html = html_report(data);
-  write_output(opts.html, html);
+  write_output(opts.html, html, "--html");
   const auto failed = static_cast<std::size_t>(
       std::count_if(data.scored.begin(), data.scored.end(),
                     [](const ScoredObligor& s) { return s.status != RowStatus::ok; }));

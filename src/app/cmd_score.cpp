@@ -2,6 +2,7 @@
 #include <cstdio>
 #include <iostream>
 #include <memory>
+#include <optional>
 
 #include "commands.hpp"
 #include "firmcall/book/errors.hpp"
@@ -85,9 +86,8 @@ ExitCode run_term_structure(const ScoreCli& opts, const ScoreSettings& settings,
 
 // Scores the book: a CSV book streams, a YAML book is read whole.
 ScoreSummary score_whole_book(const ScoreCli& opts, BookFormat fmt, const ScoreSettings& settings,
-                              const ScoreBookOptions& run) {
+                              const ScoreBookOptions& run, OutputFile& out) {
   ScoreSummary summary;
-  OutputFile out(opts.out.output);
   const TextSink sink = [&out](std::string_view s) { out.write(s); };
   if (fmt == BookFormat::csv) {
     std::unique_ptr<std::FILE, FileCloser> in(std::fopen(opts.book.c_str(), "rb"));
@@ -96,7 +96,6 @@ ScoreSummary score_whole_book(const ScoreCli& opts, BookFormat fmt, const ScoreS
   } else {
     summary = score_book(load_book(opts.book), settings, run, sink);
   }
-  out.commit();
   return summary;
 }
 
@@ -147,16 +146,28 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
     }
     store_path = resolve_store_path(opts.db, config.monitor);
   }
-  const ScoreSummary summary = score_whole_book(opts, fmt, settings, run);
+  // -o goes to its temporary file; the run is recorded (one transaction) only when the output is
+  // written, and the output replaces its target only when the run is recorded.
+  OutputSet outputs;
+  OutputFile& out = outputs.add("-o", opts.out.output);
+  if (opts.record) outputs.reserve("--db", store_path);
+  const ScoreSummary summary = score_whole_book(opts, fmt, settings, run, out);
+  std::optional<RecordedRun> rec;
+  try {
+    outputs.commit([&] {
+      if (!opts.record) return;
+      rec = record_book(opts.book, settings, config,
+                        {.store_path = store_path, .as_of = opts.as_of, .tool_version = FIRMCALL_VERSION});
+    });
+  } catch (const InputError& e) {
+    if (!rec) throw;
+    throw InputError("run " + std::to_string(rec->run_id) + " is recorded in " + store_path + ", but " +
+                     e.what());
+  }
   if (!global.quiet) print_score_notes(summary, opts.book, opts.out, score_closing(summary));
-  if (opts.record) {
-    const RecordedRun rec =
-        record_book(opts.book, settings, config,
-                    {.store_path = store_path, .as_of = opts.as_of, .tool_version = FIRMCALL_VERSION});
-    if (!global.quiet) {
-      std::cerr << "firmcall: recorded run " << rec.run_id << " as of " << rec.as_of << " (" << rec.obligors
-                << " obligors) in " << store_path << "\n";
-    }
+  if (rec && !global.quiet) {
+    std::cerr << "firmcall: recorded run " << rec->run_id << " as of " << rec->as_of << " (" << rec->obligors
+              << " obligors) in " << store_path << "\n";
   }
   return rows_exit_code(summary.failed());
 }

@@ -229,13 +229,14 @@ ExitCode run_stress_command(const StressCli& o, const GlobalOptions& global) {
   const StressInputs in = stress_inputs(o, global);
   StressOutcome outcome;
   {
-    OutputFile out(o.out.output);
-    std::unique_ptr<OutputFile> summary_file;
-    if (!o.summary_output.empty()) summary_file = std::make_unique<OutputFile>(o.summary_output);
+    // Every output goes to its temporary file first; they replace their targets together.
+    OutputSet outputs;
+    OutputFile& out = outputs.add("-o", o.out.output);
+    OutputFile* summary_file =
+        o.summary_output.empty() ? nullptr : &outputs.add("--summary-output", o.summary_output);
     const TextSink sink = [&out](std::string_view s) { out.write(s); };
-    outcome = run_stress_kind(o, in, sink, summary_file.get(), global.quiet);
-    out.commit();
-    if (summary_file) summary_file->commit();
+    outcome = run_stress_kind(o, in, sink, summary_file, global.quiet);
+    outputs.commit();
   }
   if (!global.quiet)
     print_run_notes(outcome.notes, outcome.problems, outcome.not_listed, o.out, outcome.closing);

@@ -105,8 +105,8 @@ void add_term_options(CLI::App* cmd, TermOptionText& c) {
                   "Growth of the first-passage barrier, continuously compounded decimal a year (default 0)");
 }
 
-void write_output(const std::string& path, std::string_view text) {
-  OutputFile out(path);
+void write_output(const std::string& path, std::string_view text, const std::string& option) {
+  OutputFile out(path, option);
   out.write(text);
   out.commit();
 }

@@ -85,8 +85,9 @@ RunStore open_store(const std::string& db, const Config& config);
 /// Adds the PD term-structure options (shared by score and stress).
 void add_term_options(CLI::App* cmd, TermOptionText& c);
 
-/// Writes `text` to `path` (empty or "-": standard output), all or nothing.
-void write_output(const std::string& path, std::string_view text);
+/// Writes `text` to `path` (empty or "-": standard output), all or nothing; `option` names it in
+/// messages (io/output_file.hpp).
+void write_output(const std::string& path, std::string_view text, const std::string& option = "-o");
 
 /// Each line on standard error after "firmcall: ".
 void print_lines(const std::vector<std::string>& lines);

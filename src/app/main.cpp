@@ -1,15 +1,21 @@
 // firmcall command-line entry point: parses the command line and maps each class of failure to its
 // exit code (exit_codes.hpp and README.md): a bad command line or an InputError from the library
 // to 2 (option and store errors worded as on the command line, command_line_errors.hpp), any other
-// exception to 3; a command that ran returns 0 or 1 from its row statuses.
+// exception to 3, except running out of memory, which says which command on which input ran out
+// (exit 2); a command that ran returns 0 or 1 from its row statuses. SIGINT, SIGTERM and SIGHUP
+// remove the run's temporary output files (io/output_file.hpp).
+#include <sys/stat.h>
+
 #include <cstdio>
 #include <exception>
 #include <iostream>
+#include <new>
 
 #include "command_line_errors.hpp"
 #include "commands.hpp"
 #include "exit_codes.hpp"
 #include "firmcall/book/errors.hpp"
+#include "firmcall/io/output_file.hpp"
 
 #ifndef FIRMCALL_VERSION
 #define FIRMCALL_VERSION "dev"
@@ -27,6 +33,36 @@ int failed(const char* kind, const std::string& message, ExitCode code) {
   std::fflush(stdout);
   std::cerr << "firmcall: " << kind << message << "\n";
   return code;
+}
+
+// "firmcall: error: out of memory in 'score' on big.csv (2.1 GB) ...": the command, its input (the
+// first positional argument) and the input's size, and what to try.
+int out_of_memory(const CLI::App& app) {
+  std::string command = "firmcall";
+  std::string input;
+  for (const CLI::App* sub : app.get_subcommands()) {
+    command = sub->get_name();
+    for (const CLI::Option* opt : sub->get_options()) {
+      if (opt->get_positional() && !opt->results().empty()) {
+        input = opt->results().front();
+        break;
+      }
+    }
+  }
+  std::string message = "out of memory in '" + command + "'";
+  if (!input.empty()) {
+    message += " on " + input;
+    struct stat st {};
+    if (::stat(input.c_str(), &st) == 0 && S_ISREG(st.st_mode)) {
+      char size[48];
+      std::snprintf(size, sizeof size, " (%.3g MB)", static_cast<double>(st.st_size) / 1e6);
+      message += size;
+    }
+  }
+  message +=
+      "; no output file was replaced. Try a smaller input (split the book), fewer threads (-j 1), or "
+      "more memory (ulimit -v, the container's limit)";
+  return failed("error: ", message, kExitInputError);
 }
 }  // namespace
 
@@ -65,6 +101,7 @@ int main(int argc, char** argv) {
     const int code = app.exit(e);
     return code == 0 ? kExitOk : kExitInputError;
   }
+  firmcall::remove_partial_outputs_on_signal();
   try {
     return run ? run() : kExitInputError;
   } catch (const StoreError& e) {
@@ -73,6 +110,8 @@ int main(int argc, char** argv) {
     return cli::failed("error: ", command_line_message(e), kExitInputError);
   } catch (const InputError& e) {
     return cli::failed("error: ", e.what(), kExitInputError);
+  } catch (const std::bad_alloc&) {
+    return cli::out_of_memory(app);
   } catch (const std::exception& e) {
     return cli::failed("internal error: ", e.what(), kExitInternal);
   }
