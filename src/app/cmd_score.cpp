@@ -1,4 +1,6 @@
 // `firmcall score BOOK`: the main job.
+#include <unistd.h>
+
 #include <cstdio>
 #include <iostream>
 #include <memory>
@@ -145,6 +147,11 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
       throw InputError("--as-of: expected a date YYYY-MM-DD, got '" + opts.as_of + "'");
     }
     store_path = resolve_store_path(opts.db, config.monitor);
+    // An existing store is opened once before the run, so a foreign or newer file is refused
+    // before anything is scored (a missing one is created only when the run is recorded).
+    if (::access(store_path.c_str(), F_OK) == 0) {
+      const RunStore check(store_path, StoreOpen::existing, config.monitor.busy_timeout_seconds);
+    }
   }
   // -o goes to its temporary file; the run is recorded (one transaction) only when the output is
   // written, and the output replaces its target only when the run is recorded.

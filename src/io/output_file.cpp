@@ -1,6 +1,7 @@
 #include "firmcall/io/output_file.hpp"
 
 #include <fcntl.h>
+#include <pthread.h>
 #include <sys/stat.h>
 #include <unistd.h>
 
@@ -241,6 +242,16 @@ void OutputSet::reserve(const std::string& option, const std::string& path) {
 void OutputSet::commit(const std::function<void()>& before_publish) {
   for (const auto& f : files_) f->finish();
   if (before_publish) before_publish();
+  // The renames are not split by SIGINT, SIGTERM or SIGHUP: one arriving now acts after them.
+  sigset_t stop{};
+  sigset_t old{};
+  sigemptyset(&stop);
+  for (const int sig : {SIGINT, SIGTERM, SIGHUP}) sigaddset(&stop, sig);
+  ::pthread_sigmask(SIG_BLOCK, &stop, &old);
+  struct Restore {
+    const sigset_t* mask;
+    ~Restore() { ::pthread_sigmask(SIG_SETMASK, mask, nullptr); }
+  } restore{&old};
   std::string done;
   for (const auto& f : files_) {
     try {

@@ -19,6 +19,8 @@
 #include <thread>
 #include <vector>
 
+#include "firmcall/monitor/run_store.hpp"
+
 namespace {
 
 namespace fs = std::filesystem;
@@ -335,4 +337,44 @@ TEST_CASE("out of memory: a clear message naming the command and the input, exit
   CHECK(r.err.find("internal error") == std::string::npos);
   CHECK(read_file(out) == "previous stress\n");
   CHECK(s.partials() == 0);
+}
+
+TEST_CASE("a store transaction killed before its commit is rolled back by SQLite") {
+  Scratch s;
+  const std::string store = s.file("h.sqlite");
+  REQUIRE(run_firmcall({"score", kBook, "-f", "csv", "-o", s.file("a.csv"), "--record", "--db", store})
+              .exit_code == 0);
+  // A process that dies, unannounced, halfway through writing a run (as a killed `score --record`).
+  const pid_t pid = ::fork();
+  REQUIRE(pid >= 0);
+  if (pid == 0) {
+    firmcall::RunStore open(store, firmcall::StoreOpen::existing, 1.0);
+    firmcall::RunInfo info;
+    info.as_of = "2026-01-02";
+    info.recorded_at = "2026-01-02T00:00:00Z";
+    info.book_path = "killed.csv";
+    info.input_sha256 = std::string(64, '0');
+    info.settings_json = "{}";
+    firmcall::RunWriter writer(open, info);
+    firmcall::StoredObligor o;
+    o.fields_json = "{}";
+    for (int i = 0; i < 5000; ++i) {
+      o.id = "OBL-" + std::to_string(i);
+      writer.add(o);
+    }
+    ::raise(SIGKILL);
+  }
+  int status = 0;
+  REQUIRE(::waitpid(pid, &status, 0) == pid);
+  REQUIRE(WIFSIGNALED(status));
+  CHECK(WTERMSIG(status) == SIGKILL);
+  {
+    const firmcall::RunStore after(store, firmcall::StoreOpen::existing, 1.0);
+    CHECK(after.runs().size() == 1);  // the journal rolled the half-written run back
+  }
+  const Result again =
+      run_firmcall({"score", kBook, "-f", "csv", "-o", s.file("b.csv"), "--record", "--db", store});
+  CHECK(again.exit_code == 0);
+  const firmcall::RunStore last(store, firmcall::StoreOpen::existing, 1.0);
+  CHECK(last.runs().size() == 2);
 }
