@@ -678,31 +678,19 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
           continue;
         }
         // A record longer than kMaxRecordBytes: report it and skip to its end, so that memory
-        // stays bounded whatever the file holds. The end is the first line break outside quotes
-        // (counted from the record's start, as last_record_end does): a quoted field may hold
+        // stays bounded whatever the file holds. The end is the first line break outside quotes,
+        // scanned from the record's start as split_csv_record reads it: a quoted field may hold
         // line breaks, and resuming inside it would read its closing quote as an opening one.
         Chunk& c = pipeline.take();
         c.text.clear();
         c.first_line = line;
         c.skipped = record_too_long_problem();
         pipeline.submit(c);
-        bool in_quotes = false;
+        CsvScanState scan;
         while (true) {
-          std::size_t i = 0;
-          bool found = false;
-          for (; i < buf.size(); ++i) {
-            if (buf[i] == '"') {
-              in_quotes = !in_quotes;
-            } else if (buf[i] == '\n') {
-              ++line;
-              if (!in_quotes) {
-                found = true;
-                break;
-              }
-            }
-          }
-          if (found) {
-            buf.erase(0, i + 1);
+          const std::size_t end = scan.find_record_end(buf, line);
+          if (end != std::string_view::npos) {
+            buf.erase(0, end);
             break;
           }
           buf.clear();

@@ -154,16 +154,54 @@ std::size_t split_plain_record(std::string_view text, std::vector<std::string_vi
   return text.size();
 }
 
+namespace {
+// One byte of a CSV scan; true when it is a '\n' that ends a record.
+inline bool scan_byte(CsvScanState::At& at, char c) noexcept {
+  using At = CsvScanState::At;
+  switch (at) {
+    case At::in_quotes:
+      if (c == '"') at = At::quote_in_quotes;
+      return false;
+    case At::quote_in_quotes:
+      if (c == '"') {  // "" inside quotes
+        at = At::in_quotes;
+        return false;
+      }
+      break;  // the field is closed: c is read as outside quotes
+    case At::field_start:
+      if (c == '"') {
+        at = At::in_quotes;
+        return false;
+      }
+      break;
+    case At::in_field:
+      break;
+  }
+  if (c == ',' || c == '\r') {
+    at = At::field_start;
+  } else if (c == '\n') {
+    at = At::field_start;
+    return true;
+  } else {
+    at = At::in_field;  // a '"' here is a stray quote: it opens nothing
+  }
+  return false;
+}
+}  // namespace
+
+std::size_t CsvScanState::find_record_end(std::string_view text, std::size_t& lines) noexcept {
+  for (std::size_t i = 0; i < text.size(); ++i) {
+    if (text[i] == '\n') ++lines;
+    if (scan_byte(at, text[i])) return i + 1;
+  }
+  return std::string_view::npos;
+}
+
 std::size_t last_record_end(std::string_view text) noexcept {
-  bool in_quotes = false;
+  CsvScanState::At at = CsvScanState::At::field_start;
   std::size_t last = 0;
   for (std::size_t i = 0; i < text.size(); ++i) {
-    const char c = text[i];
-    if (c == '"') {
-      in_quotes = !in_quotes;
-    } else if (c == '\n' && !in_quotes) {
-      last = i + 1;
-    }
+    if (scan_byte(at, text[i])) last = i + 1;
   }
   return last;
 }

@@ -40,8 +40,20 @@ std::size_t split_csv_record(std::string_view text, std::vector<std::string_view
 /// return value runs up to and including the next '\n' (or the whole text).
 std::size_t split_plain_record(std::string_view text, std::vector<std::string_view>& fields);
 
+/// Where a scan of CSV text stands, by split_csv_record's grammar: a '"' opens a quoted field
+/// only at the start of a field (elsewhere it is a stray quote and opens nothing), and inside
+/// quotes "" is a quote and a single '"' closes the field.
+struct CsvScanState {
+  enum class At : unsigned char { field_start, in_field, in_quotes, quote_in_quotes };
+  At at = At::field_start;
+
+  /// Advances over `text` and returns the offset just past the first '\n' that ends a record
+  /// (npos when none does); `lines` counts every '\n' passed. Resumable across buffers.
+  std::size_t find_record_end(std::string_view text, std::size_t& lines) noexcept;
+};
+
 /// Offset just past the last complete record in `text` (0 when none is complete), honouring
-/// quotes, so that a buffer can be cut between records.
+/// quotes as split_csv_record does, so that a buffer can be cut between records.
 std::size_t last_record_end(std::string_view text) noexcept;
 
 /// Counts the line breaks in [text.begin(), text.begin() + n).

@@ -119,3 +119,38 @@ TEST_CASE("streaming: a last row without a line break is read, with a note") {
   const ScoreSummary ended = stream(std::string(kHeader) + valid_row("A"), out2);
   CHECK(ended.notes.empty());
 }
+
+TEST_CASE("record ends follow the reader's quote grammar: a stray quote opens nothing") {
+  // RFC 4180, section 2: only a field that starts with '"' is quoted.
+  // Whole texts of complete records end at their last byte; an open quote ends nothing.
+  for (const std::string whole :
+       {"A,O\"Brien,1\nB,2\n", "A,\"Bir\"ch\",1\nB,2\n", "A,\"say \"\"hi\"\"\n\",1\n"}) {
+    CAPTURE(whole);
+    CHECK(last_record_end(whole) == whole.size());
+  }
+  const std::string first = "A,\"x\ny\",1\n";
+  CHECK(last_record_end(first + "B,\"open\n") == first.size());
+  std::size_t lines = 0;
+  CsvScanState scan;
+  CHECK(scan.find_record_end("\"a\nb", lines) == std::string_view::npos);
+  CHECK(scan.find_record_end("c\",1\nnext\n", lines) == 5);
+  CHECK(lines == 2);
+}
+
+TEST_CASE("streaming: one stray quote in a large file costs its row only") {
+  // More than 4 MiB after the stray quote: the old quote toggling cut no record end after it.
+  std::string csv = std::string(kHeader) + "A,O\"Brien,100,0.3,50,0.02\n";
+  const std::size_t rows = 150000;
+  for (std::size_t i = 0; i < rows; ++i) {
+    csv += 'C';
+    csv += std::to_string(i);
+    csv += ",Cedar Holdings,100,0.3,50,0.02\n";
+  }
+  REQUIRE(csv.size() > kMaxCsvRecordBytes);
+  std::string out;
+  const ScoreSummary s = stream(csv, out);
+  CHECK(s.total == rows + 1);
+  CHECK(s.scored == rows);
+  REQUIRE(s.problems.size() == 1);
+  CHECK(s.problems[0] == "s.csv:2: obligor 'A': " + stray_quote_problem("name", "O\"Brien"));
+}
