@@ -36,7 +36,7 @@ std::string_view to_string(RowStatus s) noexcept {
 }
 
 namespace {
-constexpr std::size_t kMaxRecordBytes = std::size_t{4} << 20;  // longest CSV row accepted
+constexpr std::size_t kMaxRecordBytes = kMaxCsvRecordBytes;  // longest CSV row accepted
 
 // Status, message and measures once out.resolved and (for resolved obligors) out.solution are set.
 void complete_score(const ObligorRecord& rec, ScoredObligor& out) {
@@ -373,6 +373,7 @@ void process_chunk(const RunContext& ctx, const CsvColumns& cols, Chunk& c, Scra
     std::size_t line = c.first_line;
     std::size_t p = 0;
     bool open_quote = false;
+    std::size_t stray = kNoStrayQuote;
     while (p < text.size()) {
       // Record boundaries: line breaks, or (when the chunk has quotes) the CSV record end.
       std::size_t e;
@@ -380,15 +381,23 @@ void process_chunk(const RunContext& ctx, const CsvColumns& cols, Chunk& c, Scra
       if (!c.quoted) {
         e = p + split_plain_record(text.substr(p), sc.fields);
       } else {
-        e = p + split_csv_record(text.substr(p), sc.fields, sc.unescaped, open_quote);
+        e = p + split_csv_record(text.substr(p), sc.fields, sc.unescaped, open_quote, &stray);
         breaks = count_lines(text.substr(p, e - p));
       }
       const std::string_view rec_text = text.substr(p, e - p);
       if (rec_text.find_first_not_of(" \t\r\n") != std::string_view::npos) {
         ObligorRecord& rec = next_record();
         rec.line = line;
-        parse_obligor_fields(sc.fields, cols, rec);
-        if (open_quote) rec.read_error = "a quoted field is never closed";
+        if (rec_text.size() > kMaxRecordBytes) {  // a chunk may hold one a little past the limit
+          rec.read_error = record_too_long_problem();
+        } else {
+          parse_obligor_fields(sc.fields, cols, rec);
+          if (open_quote) {
+            rec.read_error = "a quoted field is never closed";
+          } else if (stray != kNoStrayQuote) {
+            rec.read_error = stray_quote_problem(cols.name_of(stray), sc.fields[stray]);
+          }
+        }
       }
       line += breaks;
       p = e;
@@ -668,18 +677,20 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
           want = std::min(buf.size() * 2, kMaxRecordBytes);
           continue;
         }
-        // A record longer than kMaxRecordBytes: report it and skip to the next line break, so
-        // that memory stays bounded whatever the file holds.
+        // A record longer than kMaxRecordBytes: report it and skip to its end, so that memory
+        // stays bounded whatever the file holds. The end is the first line break outside quotes,
+        // scanned from the record's start as split_csv_record reads it: a quoted field may hold
+        // line breaks, and resuming inside it would read its closing quote as an opening one.
         Chunk& c = pipeline.take();
         c.text.clear();
         c.first_line = line;
-        c.skipped = "row is longer than " + std::to_string(kMaxRecordBytes) + " bytes (skipped)";
+        c.skipped = record_too_long_problem();
         pipeline.submit(c);
+        CsvScanState scan;
         while (true) {
-          const void* nl = std::memchr(buf.data(), '\n', buf.size());
-          if (nl != nullptr) {
-            buf.erase(0, static_cast<std::size_t>(static_cast<const char*>(nl) - buf.data()) + 1);
-            ++line;
+          const std::size_t end = scan.find_record_end(buf, line);
+          if (end != std::string_view::npos) {
+            buf.erase(0, end);
             break;
           }
           buf.clear();
@@ -699,6 +710,15 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
     pipeline.submit(c);
     line += count_lines(c.text);
     buf.erase(0, cut);
+    if (eof && buf.empty()) {
+      // The file's last row has no line break after it: read, and noted (it may be cut short).
+      const std::string_view text(c.text);
+      const std::size_t last_nl = text.find_last_of('\n');
+      const std::string_view tail = last_nl == std::string_view::npos ? text : text.substr(last_nl + 1);
+      if (text.back() != '\r' && tail.find_first_not_of(" \t") != std::string_view::npos) {
+        notes.push_back(located(origin, line, no_final_line_break_note()));
+      }
+    }
   }
   pipeline.drain();
   return output.finish(std::move(notes));

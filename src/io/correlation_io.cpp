@@ -104,7 +104,8 @@ CorrelationFile parse_correlation_file(const std::string& text, const std::strin
 }
 
 CorrelationFile load_correlation_file(const std::string& path) {
-  return parse_correlation_file(detail::read_text_file(path), path);
+  return parse_correlation_file(detail::read_text_file(path, kMaxCorrelationFileBytes, "a correlation file"),
+                                path);
 }
 
 }  // namespace firmcall

@@ -15,10 +15,31 @@
 
 namespace firmcall {
 
+std::string record_too_long_problem() {
+  return "row is longer than " + std::to_string(kMaxCsvRecordBytes) + " bytes (skipped)";
+}
+
+std::string no_final_line_break_note() {
+  return "note: the file does not end with a line break; its last row was read as it stands "
+         "(check that the file was not cut short)";
+}
+
+std::string stray_quote_problem(std::string_view column, std::string_view cell) {
+  std::string shown(cell.substr(0, 40));
+  if (cell.size() > 40) shown += "...";
+  return "field '" + std::string(column) + "': stray '\"' in the cell '" + shown +
+         "' (a cell holding quotes must be quoted whole, with each inner quote doubled)";
+}
+
 std::size_t split_csv_record(std::string_view text, std::vector<std::string_view>& fields,
-                             std::string& scratch, bool& unterminated) {
+                             std::string& scratch, bool& unterminated, std::size_t* stray_quote) {
   fields.clear();
   unterminated = false;
+  std::size_t stray = kNoStrayQuote;
+  const auto done = [&](std::size_t used) {
+    if (stray_quote != nullptr) *stray_quote = stray;
+    return used;
+  };
   scratch.clear();
   if (scratch.capacity() < text.size()) scratch.reserve(std::min<std::size_t>(text.size(), 1 << 20));
   const char* p = text.data();
@@ -34,7 +55,7 @@ std::size_t split_csv_record(std::string_view text, std::vector<std::string_view
         if (q == nullptr) {
           unterminated = true;
           fields.emplace_back(start, static_cast<std::size_t>(end - start));
-          return text.size();
+          return done(text.size());
         }
         if (q + 1 < end && q[1] == '"') {
           escaped = true;
@@ -58,16 +79,28 @@ std::size_t split_csv_record(std::string_view text, std::vector<std::string_view
         } else {
           fields.push_back(raw);
         }
-        // Skip anything between the closing quote and the separator (tolerated, e.g. spaces).
-        while (p < end && *p != ',' && *p != '\n' && *p != '\r') ++p;
+        // Blanks between the closing quote and the separator are tolerated; anything else is a
+        // stray quote (e.g. "Bir"ch"), which would otherwise be dropped silently.
+        bool stray_here = false;
+        while (p < end && *p != ',' && *p != '\n' && *p != '\r') {
+          if (*p != ' ' && *p != '\t') stray_here = true;
+          ++p;
+        }
+        if (stray_here) {  // the cell is kept as written, quotes and all, for the message
+          fields.back() = std::string_view(start - 1, static_cast<std::size_t>(p - (start - 1)));
+          if (stray == kNoStrayQuote) stray = fields.size() - 1;
+        }
         break;
       }
     } else {
       const char* start = p;
-      while (p < end && *p != ',' && *p != '\n' && *p != '\r') ++p;
+      while (p < end && *p != ',' && *p != '\n' && *p != '\r') {
+        if (*p == '"' && stray == kNoStrayQuote) stray = fields.size();
+        ++p;
+      }
       fields.emplace_back(start, static_cast<std::size_t>(p - start));
     }
-    if (p >= end) return text.size();
+    if (p >= end) return done(text.size());
     if (*p == ',') {
       ++p;
       continue;
@@ -75,7 +108,7 @@ std::size_t split_csv_record(std::string_view text, std::vector<std::string_view
     // Line end.
     if (*p == '\r') ++p;
     if (p < end && *p == '\n') ++p;
-    return static_cast<std::size_t>(p - text.data());
+    return done(static_cast<std::size_t>(p - text.data()));
   }
 }
 
@@ -121,16 +154,54 @@ std::size_t split_plain_record(std::string_view text, std::vector<std::string_vi
   return text.size();
 }
 
+namespace {
+// One byte of a CSV scan; true when it is a '\n' that ends a record.
+inline bool scan_byte(CsvScanState::At& at, char c) noexcept {
+  using At = CsvScanState::At;
+  switch (at) {
+    case At::in_quotes:
+      if (c == '"') at = At::quote_in_quotes;
+      return false;
+    case At::quote_in_quotes:
+      if (c == '"') {  // "" inside quotes
+        at = At::in_quotes;
+        return false;
+      }
+      break;  // the field is closed: c is read as outside quotes
+    case At::field_start:
+      if (c == '"') {
+        at = At::in_quotes;
+        return false;
+      }
+      break;
+    case At::in_field:
+      break;
+  }
+  if (c == ',' || c == '\r') {
+    at = At::field_start;
+  } else if (c == '\n') {
+    at = At::field_start;
+    return true;
+  } else {
+    at = At::in_field;  // a '"' here is a stray quote: it opens nothing
+  }
+  return false;
+}
+}  // namespace
+
+std::size_t CsvScanState::find_record_end(std::string_view text, std::size_t& lines) noexcept {
+  for (std::size_t i = 0; i < text.size(); ++i) {
+    if (text[i] == '\n') ++lines;
+    if (scan_byte(at, text[i])) return i + 1;
+  }
+  return std::string_view::npos;
+}
+
 std::size_t last_record_end(std::string_view text) noexcept {
-  bool in_quotes = false;
+  CsvScanState::At at = CsvScanState::At::field_start;
   std::size_t last = 0;
   for (std::size_t i = 0; i < text.size(); ++i) {
-    const char c = text[i];
-    if (c == '"') {
-      in_quotes = !in_quotes;
-    } else if (c == '\n' && !in_quotes) {
-      last = i + 1;
-    }
+    if (scan_byte(at, text[i])) last = i + 1;
   }
   return last;
 }
@@ -198,7 +269,10 @@ bool plain_decimal(std::string_view s, double& value) noexcept {
 bool parse_number(std::string_view cell, double& value) noexcept {
   cell = trim_blanks(cell);
   if (cell.empty()) return false;
-  if (cell.front() == '+') cell.remove_prefix(1);
+  if (cell.front() == '+') {
+    cell.remove_prefix(1);
+    if (cell.empty() || cell.front() == '-' || cell.front() == '+') return false;  // "+-0.03"
+  }
   if (plain_decimal(cell, value)) return true;
   const auto r = std::from_chars(cell.data(), cell.data() + cell.size(), value, std::chars_format::general);
   return r.ec == std::errc() && r.ptr == cell.data() + cell.size() && std::isfinite(value);
@@ -240,6 +314,10 @@ CsvColumns CsvColumns::from_header(const std::vector<std::string_view>& header, 
     throw InputError(located(origin, 1, "header: required column 'equity_vol' is missing"));
   }
   return cols;
+}
+
+std::string CsvColumns::name_of(std::size_t i) const {
+  return i < columns.size() ? columns[i].name : "column " + std::to_string(i + 1);
 }
 
 void parse_obligor_fields(const std::vector<std::string_view>& fields, const CsvColumns& cols,

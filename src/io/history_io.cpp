@@ -53,7 +53,7 @@ class CsvCursor {
   bool next(std::vector<std::string_view>& fields, std::size_t& line) {
     while (!rest_.empty()) {
       bool unterminated = false;
-      const std::size_t used = split_csv_record(rest_, fields, scratch_, unterminated);
+      const std::size_t used = split_csv_record(rest_, fields, scratch_, unterminated, &stray_);
       line = line_;
       const std::string_view raw = rest_.substr(0, used);
       line_ += raw.size() > 0 && raw.find('\n') == raw.size() - 1 ? 1 : count_lines(raw);
@@ -70,13 +70,20 @@ class CsvCursor {
   const std::string& origin_;
   std::string scratch_;
   std::size_t line_ = 1;
+
+ public:
+  std::size_t stray_ = kNoStrayQuote;  ///< field of the last record with a stray quote
 };
 
 // Column positions of a header, by the names a reader knows; unknown names become notes.
 struct Header {
   std::vector<int> at;  // per known name: column index or -1
   std::size_t width = 0;
+  std::vector<std::string> names;  // of every column
   bool has(std::size_t k) const { return at[k] >= 0; }
+  std::string name_of(std::size_t i) const {
+    return i < names.size() ? names[i] : "column " + std::to_string(i + 1);
+  }
 };
 
 Header map_header(const std::vector<std::string_view>& fields, std::initializer_list<std::string_view> known,
@@ -86,6 +93,7 @@ Header map_header(const std::vector<std::string_view>& fields, std::initializer_
   h.width = fields.size();
   for (std::size_t i = 0; i < fields.size(); ++i) {
     const std::string_view name = trim_blanks(fields[i]);
+    h.names.emplace_back(name);
     if (name.empty()) {
       throw InputError(located(origin, line, "header: column " + std::to_string(i + 1) + " has no name"));
     }
@@ -162,12 +170,30 @@ std::string not_a_number(std::string_view field, std::string_view cell) {
 }
 
 std::string not_a_date(std::string_view field, std::string_view cell) {
+  cell = trim_blanks(cell);
+  if (cell.size() == 10 && cell[4] == '-' && cell[7] == '-' && cell.substr(0, 4) < "1000" &&
+      std::all_of(cell.begin(), cell.end(), [](char c) { return c == '-' || (c >= '0' && c <= '9'); })) {
+    // Well formed, but before the supported years (e.g. 0001-01-01, a common placeholder).
+    return "field '" + std::string(field) + "': " + std::string(cell) + " is outside the supported range " +
+           std::string(kFirstIsoDate) + " to " + std::string(kLastIsoDate);
+  }
   return "field '" + std::string(field) + "': expected an ISO 8601 date such as 2026-03-31, got " +
-         quoted(trim_blanks(cell));
+         quoted(cell);
 }
 
 std::string not_positive(std::string_view field, std::string_view cell) {
   return "field '" + std::string(field) + "': must be positive, got " + quoted(trim_blanks(cell));
+}
+
+// A positive value too small for a double's full precision (subnormal, below 2.2e-308): logs and
+// ratios of such values are meaningless, so the cell is refused rather than read.
+bool too_small(double v) noexcept {
+  return v > 0.0 && !std::isnormal(v);
+}
+
+std::string too_small_problem(std::string_view field, std::string_view cell) {
+  return "field '" + std::string(field) + "': " + quoted(trim_blanks(cell)) +
+         " is too small (below 2.2250738585072014e-308, the smallest normal double)";
 }
 
 }  // namespace
@@ -270,6 +296,7 @@ Cell row_equity_value(const std::vector<std::string_view>& fields, const Header&
     mc = read_number(cell(kMarketCap), e);
     if (mc == Cell::bad) return fail(not_a_number("market_cap", cell(kMarketCap)));
     if (mc == Cell::ok && !(e > 0.0)) return fail(not_positive("market_cap", cell(kMarketCap)));
+    if (mc == Cell::ok && too_small(e)) return fail(too_small_problem("market_cap", cell(kMarketCap)));
   }
   if (mc != Cell::absent || !hdr.has(kClose) || !hdr.has(kShares)) return mc;
   double price = 0.0;
@@ -280,6 +307,9 @@ Cell row_equity_value(const std::vector<std::string_view>& fields, const Header&
   if (cs == Cell::bad) return fail(not_a_number("shares_outstanding", cell(kShares)));
   if (cp == Cell::ok && !(price > 0.0)) return fail(not_positive("close", cell(kClose)));
   if (cs == Cell::ok && !(shares > 0.0)) return fail(not_positive("shares_outstanding", cell(kShares)));
+  if (cp == Cell::ok && too_small(price)) return fail(too_small_problem("close", cell(kClose)));
+  if (cs == Cell::ok && too_small(shares))
+    return fail(too_small_problem("shares_outstanding", cell(kShares)));
   if (cp == Cell::ok && cs == Cell::absent) {
     return fail("field 'shares_outstanding': missing (needed with close when market_cap is empty)");
   }
@@ -289,6 +319,9 @@ Cell row_equity_value(const std::vector<std::string_view>& fields, const Header&
   if (cp == Cell::absent) return Cell::absent;
   e = price * shares;
   if (!std::isfinite(e)) return fail("field 'close': close x shares_outstanding overflows");
+  if (!std::isnormal(e)) {
+    return fail("field 'close': close x shares_outstanding is too small (below 2.2250738585072014e-308)");
+  }
   return Cell::ok;
 }
 
@@ -401,6 +434,10 @@ EquityHistory parse_equity_history(std::string_view text, const std::string& ori
     last = obligor_index(h, empty_rows, last, row_id(fields, hdr, kId, origin, line));
     ObligorEquityHistory& ob = h.obligors[last];
     const auto problem = [&](std::string t) { add_problem(ob.error, ob.more_problems, line, std::move(t)); };
+    if (const std::size_t s = in.cursor.stray_; s != kNoStrayQuote) {
+      problem(stray_quote_problem(hdr.name_of(s), fields[s]));
+      continue;
+    }
     if (fields.size() != hdr.width) {
       problem(width_problem(fields.size(), hdr.width));
       continue;
@@ -463,6 +500,10 @@ BalanceSheets parse_balance_sheets(std::string_view text, const std::string& ori
     }
     ObligorBalanceSheets& ob = it->second;
     const auto problem = [&](std::string t) { add_problem(ob.error, ob.more_problems, line, std::move(t)); };
+    if (const std::size_t k = in.cursor.stray_; k != kNoStrayQuote) {
+      problem(stray_quote_problem(hdr.name_of(k), fields[k]));
+      continue;
+    }
     if (fields.size() != hdr.width) {
       problem(width_problem(fields.size(), hdr.width));
       continue;

@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <string_view>
 #include <unordered_map>
+#include <unordered_set>
 
 #include "firmcall/book/errors.hpp"
 #include "firmcall/io/csv.hpp"
@@ -17,6 +18,9 @@ bool ends_with(const std::string& s, std::string_view suffix) {
   return s.size() >= suffix.size() && s.compare(s.size() - suffix.size(), suffix.size(), suffix) == 0;
 }
 
+// Unknown keys named in an obligor's error before the rest are counted.
+constexpr std::size_t kListedUnknownKeys = 5;
+
 void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& rec) {
   rec.clear();
   rec.line = line;
@@ -24,33 +28,35 @@ void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& 
     rec.read_error = "obligor entry is not a map of field: value";
     return;
   }
-  std::vector<std::string> seen;
+  // One pass, linear in the number of keys: a set of the keys seen, the unknown ones listed
+  // (the first few by name, the rest counted).
+  std::unordered_set<std::string> seen;
+  std::string first_problem;  // the first problem other than an unknown key
+  std::vector<std::string> unknown;
+  std::size_t unknown_count = 0;
+  bool problem_first = false;  // first_problem comes before the first unknown key
   for (const auto& kv : node) {
-    const std::string key = kv.first.Scalar();
-    if (std::find(seen.begin(), seen.end(), key) != seen.end()) {
-      if (rec.read_error.empty()) rec.read_error = "field '" + key + "' is given twice";
+    const std::string& key = kv.first.Scalar();
+    if (!seen.insert(key).second) {
+      if (first_problem.empty()) first_problem = "field '" + key + "' is given twice";
       continue;
     }
-    seen.push_back(key);
     std::optional<NumField> num;
     std::optional<TextField> text;
     if (!field_from_string(key, num, text)) {
-      if (rec.read_error.empty()) {
-        rec.read_error = "unknown field '" + key + "'";
-        const std::string hint = detail::closest_name(key, obligor_field_names());
-        if (!hint.empty()) rec.read_error += " (did you mean '" + hint + "'?)";
-      }
+      if (unknown_count == 0) problem_first = !first_problem.empty();
+      if (unknown_count++ < kListedUnknownKeys) unknown.push_back(key);
       continue;
     }
     if (!kv.second.IsScalar()) {
-      if (rec.read_error.empty()) rec.read_error = "field '" + key + "': expected a single value";
+      if (first_problem.empty()) first_problem = "field '" + key + "': expected a single value";
       continue;
     }
     const std::string& value = kv.second.Scalar();
     if (text) {
       rec.get(*text) = value;
-      if (!valid_utf8(value) && rec.read_error.empty()) {
-        rec.read_error = "field '" + key + "': not valid UTF-8 (save the file as UTF-8)";
+      if (!valid_utf8(value) && first_problem.empty()) {
+        first_problem = "field '" + key + "': not valid UTF-8 (save the file as UTF-8)";
       }
       continue;
     }
@@ -58,10 +64,27 @@ void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& 
     double v = 0.0;
     if (parse_number(value, v)) {
       rec.set(*num, v);
-    } else if (rec.read_error.empty()) {
-      rec.read_error = "field '" + key + "': expected a finite decimal number such as 0.35, got '" +
-                       value.substr(0, 40) + "'";
+    } else if (first_problem.empty()) {
+      first_problem = "field '" + key + "': expected a finite decimal number such as 0.35, got '" +
+                      value.substr(0, 40) + "'";
     }
+  }
+  if (unknown_count == 0 || problem_first) {
+    rec.read_error = std::move(first_problem);
+    return;
+  }
+  std::string& e = rec.read_error;
+  e = unknown_count == 1 ? "unknown field " : "unknown fields ";
+  for (std::size_t i = 0; i < unknown.size(); ++i) {
+    if (i > 0) e += ", ";
+    e += '\'';
+    e.append(unknown[i], 0, 40);
+    e += '\'';
+  }
+  if (unknown_count > unknown.size()) e += " and " + std::to_string(unknown_count - unknown.size()) + " more";
+  if (unknown_count == 1) {
+    const std::string hint = detail::closest_name(unknown[0], obligor_field_names());
+    if (!hint.empty()) e += " (did you mean '" + hint + "'?)";
   }
 }
 }  // namespace
@@ -131,18 +154,32 @@ Book parse_csv_book(const std::string& text, const std::string& origin, BookUse 
     book.notes.push_back(located(origin, line, "note: column '" + u + "' is not used"));
   line += count_lines(rest.substr(0, used));
   rest.remove_prefix(used);
+  std::size_t stray = kNoStrayQuote;
+  std::size_t last_line = 0;  // line of the last record that is not blank
   while (!rest.empty()) {
     const std::size_t record_line = line;
-    used = split_csv_record(rest, fields, scratch, unterminated);
+    used = split_csv_record(rest, fields, scratch, unterminated, &stray);
     const std::string_view raw = rest.substr(0, used);
     line += count_lines(raw);
     rest.remove_prefix(used);
     if (fields.size() == 1 && fields[0].find_first_not_of(" \t") == std::string_view::npos)
       continue;  // blank
+    last_line = record_line;
     ObligorRecord& rec = book.obligors.emplace_back();
     rec.line = record_line;
+    if (raw.size() > kMaxCsvRecordBytes) {  // the limit of every command that reads a book
+      rec.read_error = record_too_long_problem();
+      continue;
+    }
     parse_obligor_fields(fields, cols, rec);
-    if (unterminated) rec.read_error = "a quoted field is never closed";
+    if (unterminated) {
+      rec.read_error = "a quoted field is never closed";
+    } else if (stray != kNoStrayQuote) {
+      rec.read_error = stray_quote_problem(cols.name_of(stray), fields[stray]);
+    }
+  }
+  if (last_line != 0 && text.back() != '\n' && text.back() != '\r') {
+    book.notes.push_back(located(origin, last_line, no_final_line_break_note()));
   }
   mark_duplicate_ids(book.obligors);
   return book;

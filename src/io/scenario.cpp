@@ -263,7 +263,7 @@ ScenarioSet parse_scenarios(const std::string& yaml_text, const std::string& ori
 }
 
 ScenarioSet load_scenarios(const std::string& path) {
-  return parse_scenarios(detail::read_text_file(path), path);
+  return parse_scenarios(detail::read_text_file(path, kMaxScenarioFileBytes, "a scenario file"), path);
 }
 
 void check_filters(const ScenarioSet& set, const Book& book) {

@@ -13,11 +13,16 @@ namespace firmcall::detail {
 /// Line (1-based) of a node, or 0 when yaml-cpp has no mark for it.
 std::size_t yaml_line(const YAML::Node& node);
 
-/// Parses a YAML document; syntax errors become InputError("file:line: ...").
+/// Parses a YAML document; syntax errors become InputError("file:line: ..."), and so does a
+/// second document (after `---`), which would otherwise be ignored silently.
 YAML::Node yaml_load(const std::string& text, const std::string& origin);
 
 /// Reads a file into a string; InputError when it cannot be read.
 std::string read_text_file(const std::string& path);
+
+/// The same, refusing (before reading) a file larger than `max_bytes` with an InputError naming
+/// the file, its size and the cap; `what` names the kind of file ("scenario file").
+std::string read_text_file(const std::string& path, std::size_t max_bytes, std::string_view what);
 
 /// Scalar as a finite double; InputError naming origin, line and key otherwise.
 double yaml_number(const YAML::Node& node, const std::string& origin, std::string_view key);

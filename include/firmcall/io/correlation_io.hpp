@@ -17,6 +17,7 @@
 //   corr.yaml:9: factor_correlation: not positive definite (smallest eigenvalue -0.2; ...)
 #pragma once
 
+#include <cstddef>
 #include <optional>
 #include <string>
 #include <string_view>
@@ -50,7 +51,11 @@ struct CorrelationFile {
 /// Parses correlation YAML; throws InputError ("file:line: ...") on any problem.
 CorrelationFile parse_correlation_file(const std::string& yaml_text, const std::string& origin);
 
-/// Reads and parses a correlation file.
+/// Correlation files are YAML parsed whole; larger ones are refused before reading. The cap
+/// leaves room for the largest matrix accepted (1000 factors, numbers of up to 14 characters).
+inline constexpr std::size_t kMaxCorrelationFileBytes = std::size_t{16} << 20;
+
+/// Reads and parses a correlation file (InputError above kMaxCorrelationFileBytes).
 CorrelationFile load_correlation_file(const std::string& path);
 
 }  // namespace firmcall

@@ -14,19 +14,46 @@
 
 namespace firmcall {
 
+/// Longest CSV record (row) any command accepts, in bytes; a longer one is reported and skipped.
+inline constexpr std::size_t kMaxCsvRecordBytes = std::size_t{4} << 20;
+
+/// Problem text of a record longer than kMaxCsvRecordBytes (the row is skipped).
+std::string record_too_long_problem();
+
+/// Note for a file whose last row has no line break after it (the file may have been cut short).
+std::string no_final_line_break_note();
+
+/// No stray quote in a record (see split_csv_record).
+inline constexpr std::size_t kNoStrayQuote = static_cast<std::size_t>(-1);
+
 /// Splits the first record of `text` into fields. Quoted fields that contain "" are unescaped
 /// into `scratch` (whose capacity is reserved first, so the views stay valid). Returns the number
 /// of bytes consumed including the line end; sets `unterminated` when a quote never closes.
+/// When `stray_quote` is given it receives the index of the first field with a stray '"' (one
+/// inside a cell that is not quoted as a whole, or text other than blanks after a closing quote),
+/// else kNoStrayQuote: such a cell is malformed and its text is not what the writer meant.
 std::size_t split_csv_record(std::string_view text, std::vector<std::string_view>& fields,
-                             std::string& scratch, bool& unterminated);
+                             std::string& scratch, bool& unterminated, std::size_t* stray_quote = nullptr);
 
 /// The same for a record known to hold no '"' (the common case), scanning 16 bytes at a time:
 /// fields are views into `text`, the record's fields end at the first '\r' or '\n', and the
 /// return value runs up to and including the next '\n' (or the whole text).
 std::size_t split_plain_record(std::string_view text, std::vector<std::string_view>& fields);
 
+/// Where a scan of CSV text stands, by split_csv_record's grammar: a '"' opens a quoted field
+/// only at the start of a field (elsewhere it is a stray quote and opens nothing), and inside
+/// quotes "" is a quote and a single '"' closes the field.
+struct CsvScanState {
+  enum class At : unsigned char { field_start, in_field, in_quotes, quote_in_quotes };
+  At at = At::field_start;
+
+  /// Advances over `text` and returns the offset just past the first '\n' that ends a record
+  /// (npos when none does); `lines` counts every '\n' passed. Resumable across buffers.
+  std::size_t find_record_end(std::string_view text, std::size_t& lines) noexcept;
+};
+
 /// Offset just past the last complete record in `text` (0 when none is complete), honouring
-/// quotes, so that a buffer can be cut between records.
+/// quotes as split_csv_record does, so that a buffer can be cut between records.
 std::size_t last_record_end(std::string_view text) noexcept;
 
 /// Counts the line breaks in [text.begin(), text.begin() + n).
@@ -47,7 +74,13 @@ struct CsvColumns {
   /// equity_vol is missing.
   static CsvColumns from_header(const std::vector<std::string_view>& header, const std::string& origin,
                                 BookUse use = BookUse::scoring);
+  /// Name of column i, or "column N" (1-based) past the header.
+  std::string name_of(std::size_t i) const;
 };
+
+/// Problem text for a stray quote (see split_csv_record) in `cell` of column `column`: the row is
+/// refused rather than read with a guessed cell.
+std::string stray_quote_problem(std::string_view column, std::string_view cell);
 
 /// Fills `rec` from one record's fields (rec.line must be set by the caller). Number fields are
 /// parsed with std::from_chars; empty cells are absent; the first bad cell sets rec.read_error.
@@ -57,8 +90,8 @@ void parse_obligor_fields(const std::vector<std::string_view>& fields, const Csv
 /// s without leading and trailing spaces and tabs.
 std::string_view trim_blanks(std::string_view s) noexcept;
 
-/// Parses a decimal number cell (surrounding spaces allowed). Returns false on anything else,
-/// including nan, inf and out-of-range values.
+/// Parses a decimal number cell (surrounding spaces allowed, one optional leading sign). Returns
+/// false on anything else, including a doubled sign (`+-0.03`), nan, inf and out-of-range values.
 bool parse_number(std::string_view cell, double& value) noexcept;
 
 }  // namespace firmcall

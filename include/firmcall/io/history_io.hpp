@@ -29,8 +29,13 @@
 
 namespace firmcall {
 
+/// The supported range of dates. ISO 8601 itself runs from 0000-01-01, but market data before
+/// year 1000 is a placeholder (0001-01-01 is a common "no date" value), so it is refused by name.
+inline constexpr std::string_view kFirstIsoDate = "1000-01-01";
+inline constexpr std::string_view kLastIsoDate = "9999-12-31";
+
 /// Days since 1970-01-01 of an ISO 8601 calendar date "YYYY-MM-DD" (surrounding spaces allowed);
-/// nullopt unless it is a real date between years 1000 and 9999.
+/// nullopt unless it is a real date from kFirstIsoDate to kLastIsoDate.
 std::optional<std::int32_t> parse_iso_date(std::string_view s) noexcept;
 
 /// "YYYY-MM-DD" of a day number from parse_iso_date.

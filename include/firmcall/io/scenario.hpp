@@ -25,6 +25,7 @@
 #pragma once
 
 #include <array>
+#include <cstddef>
 #include <cstdint>
 #include <string>
 #include <string_view>
@@ -89,7 +90,11 @@ struct ScenarioSet {
 /// Parses scenario YAML. Throws InputError ("file:line: scenario 'x', shock 2: key 'y': ...").
 ScenarioSet parse_scenarios(const std::string& yaml_text, const std::string& origin);
 
-/// Reads and parses a scenario file.
+/// Scenario files are hand-written YAML parsed whole; larger ones are refused before reading
+/// (the YAML parser needs about 40 times the file size in memory).
+inline constexpr std::size_t kMaxScenarioFileBytes = std::size_t{8} << 20;
+
+/// Reads and parses a scenario file (InputError above kMaxScenarioFileBytes).
 ScenarioSet load_scenarios(const std::string& path);
 
 /// Throws InputError naming the scenario file, line and key for the first filter name that

@@ -94,3 +94,23 @@ TEST_CASE("correlation file errors name the file, line and key") {
   CHECK_THROWS_WITH_AS(load_correlation_file("/nonexistent/corr.yaml"),
                        "cannot open file '/nonexistent/corr.yaml'", E);
 }
+
+TEST_CASE("a second YAML document in a correlation file is an error naming its line") {
+  CHECK_THROWS_WITH_AS(
+      parse_correlation_file("factors:\n  - {sector: A, asset_correlation: 0.2}\n--- \nfactors: []\n",
+                             "c.yaml"),
+      "c.yaml:3: a second YAML document starts here; a file holds one document (remove the '---' line, or "
+      "split the file)",
+      InputError);
+}
+
+TEST_CASE("a correlation file above the size cap is refused before it is read") {
+  const testing::TempDir t;
+  const std::string text = "factors: []\n# " + std::string(kMaxCorrelationFileBytes, 'x') + "\n";
+  const std::string path = t.write("big.yaml", text);
+  CHECK_THROWS_WITH_AS(load_correlation_file(path),
+                       ("'" + path + "': a correlation file of " + std::to_string(text.size()) +
+                        " bytes, larger than the cap of 16777216 bytes (16 MiB)")
+                           .c_str(),
+                       InputError);
+}

@@ -7,6 +7,7 @@
 #include <string>
 
 #include "firmcall/book/errors.hpp"
+#include "firmcall/io/csv.hpp"
 
 using namespace firmcall;
 
@@ -250,4 +251,28 @@ TEST_CASE("equity history: rows grouped by date or by obligor read the same") {
       }
     }
   }
+}
+
+TEST_CASE("equity history: a subnormal price and a year-1 date are refused with the reason") {
+  // 1e-320 is below the smallest normal double, 2.2250738585072014e-308 (IEEE 754 binary64).
+  const EquityHistory h = parse_equity_history(
+      "date,id,close,shares_outstanding\n"
+      "2026-01-05,A,1e-320,10\n"
+      "2026-01-05,B,1e-200,1e-200\n"
+      "0001-01-01,C,10,10\n"
+      "2026-01-05,D,Bir\"ch,10\n",
+      "p.csv");
+  CHECK(get(h, "A").error.line == 2);
+  CHECK(get(h, "A").error.text ==
+        "field 'close': '1e-320' is too small (below 2.2250738585072014e-308, the smallest normal double)");
+  CHECK(get(h, "B").error.text ==
+        "field 'close': close x shares_outstanding is too small (below 2.2250738585072014e-308)");
+  CHECK(get(h, "C").error.text ==
+        "field 'date': 0001-01-01 is outside the supported range 1000-01-01 to "
+        "9999-12-31");
+  CHECK(get(h, "D").error.text == stray_quote_problem("close", "Bir\"ch"));
+  const EquityHistory m = parse_equity_history("date,id,market_cap\n2026-01-05,A,4e-310\n", "p.csv");
+  CHECK(get(m, "A").error.text ==
+        "field 'market_cap': '4e-310' is too small (below 2.2250738585072014e-308, the smallest normal "
+        "double)");
 }

@@ -330,3 +330,60 @@ TEST_CASE("CSV: the fast splitter for records without quotes agrees with the gen
     CHECK_FALSE(open);
   }
 }
+
+TEST_CASE("number cells: a doubled sign is refused") {
+  // Common practice (and strtod's grammar): one optional sign; "+-0.03" used to read as -0.03.
+  double v = 0;
+  for (const char* bad : {"+-0.03", "++1", "-+1", "--1", "+", "+ 1"}) {
+    CAPTURE(bad);
+    CHECK_FALSE(parse_number(bad, v));
+  }
+}
+
+TEST_CASE("CSV: a stray quote refuses the row naming the field; a missing final line break is noted") {
+  const std::string text = std::string(kHeader) +
+                           "A,1000,0.3,1,2,0.03\n"
+                           "B\"x\",1000,0.3,1,2,0.03\n"
+                           "\"C\"x,1000,0.3,1,2,0.03\n"
+                           "\"D\" ,1000,0.3,1,2,0.03\n"
+                           "E,1000,0.3,1,2,0.0";
+  const Book book = parse_csv_book(text, "b.csv");
+  REQUIRE(book.obligors.size() == 5);
+  CHECK(book.obligors[0].read_error.empty());
+  // RFC 4180, section 2: a field holding quotes must be enclosed in quotes, inner ones doubled.
+  CHECK(book.obligors[1].read_error == stray_quote_problem("id", "B\"x\""));
+  CHECK(book.obligors[1].read_error ==
+        "field 'id': stray '\"' in the cell 'B\"x\"' (a cell holding quotes must be quoted whole, with "
+        "each inner quote doubled)");
+  CHECK(book.obligors[2].read_error == stray_quote_problem("id", "\"C\"x"));
+  CHECK(book.obligors[3].read_error.empty());  // blanks after the closing quote are tolerated
+  CHECK(book.obligors[3].get(TextField::id) == "D");
+  CHECK(book.obligors[4].read_error.empty());  // the last row is read as it stands
+  CHECK(book.obligors[4].get(NumField::rate) == 0.0);
+  REQUIRE(book.notes.size() == 1);
+  CHECK(book.notes[0] == "b.csv:6: " + no_final_line_break_note());
+  CHECK(parse_csv_book(std::string(kHeader) + "A,1000,0.3,1,2,0.03\r\n", "b.csv").notes.empty());
+}
+
+TEST_CASE("YAML book: many unknown keys are listed up to five, then counted, in linear time") {
+  std::string text = "obligors:\n  - {id: A, market_cap: 1, equity_vol: 0.3";
+  for (int i = 0; i < 20000; ++i) text += ", k" + std::to_string(i) + ": 1";
+  text += "}\n";
+  const Book book = parse_yaml_book(text, "t.yaml");
+  REQUIRE(book.obligors.size() == 1);
+  CHECK(book.obligors[0].read_error == "unknown fields 'k0', 'k1', 'k2', 'k3', 'k4' and 19995 more");
+  const Book two = parse_yaml_book("obligors:\n  - {id: A, rte: 1, equity_vl: 2}\n", "t.yaml");
+  CHECK(two.obligors[0].read_error == "unknown fields 'rte', 'equity_vl'");
+}
+
+TEST_CASE("YAML book: a second document is a file error naming its line") {
+  CHECK_THROWS_WITH_AS(parse_yaml_book("obligors:\n  - {id: A}\n---\nobligors:\n  - {id: B}\n", "t.yaml"),
+                       "t.yaml:3: a second YAML document starts here; a file holds one document "
+                       "(remove the '---' line, or split the file)",
+                       InputError);
+  // A file that opens with the document marker holds one document.
+  const Book one = parse_yaml_book("---\nobligors:\n  - {id: A, market_cap: 1, equity_vol: 0.3}\n", "t.yaml");
+  CHECK(one.obligors.size() == 1);
+  CHECK_THROWS_WITH_AS(parse_yaml_book("---\nobligors: []\n---\n", "t.yaml"),
+                       doctest::Contains("t.yaml:3: a second YAML document starts here"), InputError);
+}

@@ -7,6 +7,7 @@
 #include <string>
 
 #include "firmcall/book/errors.hpp"
+#include "test_util.hpp"
 
 using namespace firmcall;
 
@@ -208,4 +209,25 @@ TEST_CASE("quick grids pair every equity change with every volatility multiplier
   CHECK(grid[5].shocks[0].shock.equity_change == -0.3);
   CHECK(grid[5].shocks[0].shock.equity_vol_multiplier == 1.25);
   CHECK_FALSE(grid[5].shocks[0].filter.any());
+}
+
+TEST_CASE("a second YAML document in a scenario file is an error naming its line") {
+  CHECK_THROWS_WITH_AS(parse("scenarios:\n  - name: a\n    shocks:\n      - {equity_change: -0.1}\n---\n"
+                             "scenarios:\n  - name: b\n    shocks:\n      - {equity_change: -0.5}\n"),
+                       "scen.yaml:5: a second YAML document starts here; a file holds one document (remove "
+                       "the '---' line, or split the file)",
+                       InputError);
+}
+
+TEST_CASE("a scenario file above the size cap is refused before it is read") {
+  const testing::TempDir t;
+  std::string text = "scenarios:\n";
+  while (text.size() <= kMaxScenarioFileBytes)
+    text += "  - name: s\n    shocks:\n      - {equity_change: -0.1}\n";
+  const std::string path = t.write("big.yaml", text);
+  CHECK_THROWS_WITH_AS(load_scenarios(path),
+                       ("'" + path + "': a scenario file of " + std::to_string(text.size()) +
+                        " bytes, larger than the cap of 8388608 bytes (8 MiB)")
+                           .c_str(),
+                       InputError);
 }

@@ -183,3 +183,11 @@ TEST_CASE("the reader reports each settings constraint at its key") {
     CHECK_THROWS_WITH_AS(parse_config(yaml, "c.yaml"), message, InputError);
   }
 }
+
+TEST_CASE("a second YAML document in a settings file is an error naming its line") {
+  CHECK_THROWS_WITH_AS(
+      parse_config("stress:\n  pd_threshold: 0.05\n---\nstress:\n  pd_threshold: 0.5\n", "c.yaml"),
+      "c.yaml:3: a second YAML document starts here; a file holds one document (remove "
+      "the '---' line, or split the file)",
+      InputError);
+}
