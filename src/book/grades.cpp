@@ -4,6 +4,8 @@
 #include <cmath>
 #include <set>
 
+#include "firmcall/model/pd_horizon.hpp"
+
 namespace firmcall {
 
 int GradeScale::index_of(double pd) const noexcept {
@@ -17,6 +19,14 @@ int GradeScale::index_of(double pd) const noexcept {
 
 std::string_view GradeScale::label_of(double pd) const noexcept {
   return label_at(index_of(pd));
+}
+
+int GradeScale::index_of_pd_at(double pd, double horizon_years) const noexcept {
+  return index_of(pd_one_year(pd, horizon_years));
+}
+
+std::string_view GradeScale::label_of_pd_at(double pd, double horizon_years) const noexcept {
+  return label_at(index_of_pd_at(pd, horizon_years));
 }
 
 std::string_view GradeScale::label_at(int index) const noexcept {

@@ -14,6 +14,48 @@ std::optional<Measure> measure_from_string(std::string_view s) noexcept {
   return std::nullopt;
 }
 
+std::string_view to_string(PdFloorRule r) noexcept {
+  switch (r) {
+    case PdFloorRule::basel2:
+      return "basel2";
+    case PdFloorRule::basel3:
+      return "basel3";
+    case PdFloorRule::value:
+      return "value";
+  }
+  return "";
+}
+
+std::optional<PdFloorRule> pd_floor_rule_from_string(std::string_view s) noexcept {
+  if (s == "basel2") return PdFloorRule::basel2;
+  if (s == "basel3") return PdFloorRule::basel3;
+  return std::nullopt;
+}
+
+double pd_floor_of(PdFloorRule r) noexcept {
+  switch (r) {
+    case PdFloorRule::basel2:
+      return 0.0003;  // BCBS 2006 para 285
+    case PdFloorRule::basel3:
+      return 0.0005;  // BCBS Dec 2017, corporates (CRE32.4)
+    case PdFloorRule::value:
+      break;
+  }
+  return std::nan("");
+}
+
+std::string_view pd_floor_source(PdFloorRule r) noexcept {
+  switch (r) {
+    case PdFloorRule::basel2:
+      return "Basel II, BCBS 2006 para 285";
+    case PdFloorRule::basel3:
+      return "Basel III corporates, BCBS Dec 2017 (CRE32.4)";
+    case PdFloorRule::value:
+      return "set in the settings";
+  }
+  return "";
+}
+
 namespace {
 
 // The constraints the settings reader states (its messages are "key 'x': " + constraint).
@@ -122,6 +164,11 @@ OptionCheck PortfolioSettings::validate() const {
 
 OptionCheck IrbSettings::validate() const {
   if (!in_closed_unit(pd_floor)) return problem("pd_floor", pd_floor, kClosedUnit);
+  if (pd_floor_rule != PdFloorRule::value && pd_floor != pd_floor_of(pd_floor_rule)) {
+    return problem("pd_floor", pd_floor,
+                   pd_floor_rule == PdFloorRule::basel2 ? "must be 0.0003 under rule basel2"
+                                                        : "must be 0.0005 under rule basel3");
+  }
   if (!(maturity_years > 0.0)) return problem("maturity_years", maturity_years, kPositive);
   return std::nullopt;
 }

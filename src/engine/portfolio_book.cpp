@@ -9,6 +9,7 @@
 
 #include "firmcall/book/errors.hpp"
 #include "firmcall/engine/stress_book.hpp"
+#include "firmcall/model/pd_horizon.hpp"
 #include "firmcall/util/parallel.hpp"
 #include "io/yaml_util.hpp"
 
@@ -42,6 +43,11 @@ std::string_view to_string(PortfolioStatus s) noexcept {
       return "invalid_stress";
   }
   return "";
+}
+
+std::string_view PortfolioObligor::irb_pd_basis() const noexcept {
+  if (!ok()) return "";
+  return horizon_years == 1.0 ? "model" : "model_converted";
 }
 
 std::string level_label(double confidence_level) {
@@ -105,6 +111,7 @@ void fill_obligor(const ObligorRecord& rec, const ScoredObligor& base, const Str
     out.lgd = out.ead = out.horizon_years = std::nan("");
   }
   out.pd = base.status == RowStatus::ok ? base.measures.pd : std::nan("");
+  out.pd_one_year = std::nan("");
   if (base.status != RowStatus::ok) {
     out.status = base.status == RowStatus::invalid_input ? PortfolioStatus::invalid_input
                                                          : PortfolioStatus::not_converged;
@@ -128,7 +135,9 @@ void fill_obligor(const ObligorRecord& rec, const ScoredObligor& base, const Str
     return;
   }
   out.factor = st.factor;
-  const double floored_pd = std::max(out.pd, config.irb.pd_floor);
+  // The Basel functions take one-year PDs; the model PD stays as it is for EL and the loss models.
+  out.pd_one_year = pd_one_year(out.pd, out.horizon_years);
+  const double floored_pd = std::max(out.pd_one_year, config.irb.pd_floor);
   if (options.basel_correlation) {
     out.asset_correlation = irb_corporate_correlation(floored_pd);
     out.correlation_source = CorrelationSource::basel;
@@ -152,7 +161,8 @@ void fill_obligor(const ObligorRecord& rec, const ScoredObligor& base, const Str
   IrbOptions irb_options;
   irb_options.pd_floor = config.irb.pd_floor;
   out.irb = irb_corporate(
-      {.pd = out.pd, .lgd = out.lgd, .ead = out.ead, .maturity_years = out.maturity_years}, irb_options);
+      {.pd = out.pd_one_year, .lgd = out.lgd, .ead = out.ead, .maturity_years = out.maturity_years},
+      irb_options);
   out.expected_loss = out.pd * out.lgd * out.ead;
   out.status = PortfolioStatus::ok;
 }
@@ -303,20 +313,42 @@ void compute(const Book& book, const CorrelationFile* corr, const Config& config
   fill_groups(book, included, L, res);
 }
 
-// Notes on the book as a whole: PDs over different horizons, and sectors of the correlation file
-// that no obligor names.
+// "3 at 1 year, 2 at 5 years": how many obligors have each horizon (the first eight horizons).
+std::string horizon_counts(const std::map<double, std::size_t>& horizons) {
+  std::string s;
+  std::size_t listed = 0;
+  for (const auto& [t, count] : horizons) {
+    if (listed == 8) {
+      s += ", and " + std::to_string(horizons.size() - listed) + " other horizons";
+      break;
+    }
+    char buf[80];
+    std::snprintf(buf, sizeof buf, "%s%zu at %g year%s", listed == 0 ? "" : ", ", count, t,
+                  t == 1.0 ? "" : "s");
+    s += buf;
+    ++listed;
+  }
+  return s;
+}
+
+// Notes on the book as a whole: PDs over horizons other than one year or over different horizons,
+// and sectors of the correlation file that no obligor names.
 void add_book_notes(const Book& book, const std::vector<ScoredObligor>& base, const CorrelationFile* corr,
                     std::vector<std::string>& notes) {
-  std::set<double> horizons;
+  std::map<double, std::size_t> horizons;
   for (const ScoredObligor& b : base) {
-    if (b.resolved.ok()) horizons.insert(b.resolved.inputs.horizon_years);
+    if (b.resolved.ok()) ++horizons[b.resolved.inputs.horizon_years];
   }
   if (horizons.size() > 1) {
+    notes.push_back("obligors have different horizons (" + horizon_counts(horizons) +
+                    "): expected loss and the loss distribution combine their PDs as they are; IRB capital "
+                    "uses each PD converted to one year; give --horizon T to put every PD on one horizon");
+  } else if (horizons.size() == 1 && horizons.begin()->first != 1.0) {
     char buf[240];
     std::snprintf(buf, sizeof buf,
-                  "obligors have different horizons (%g to %g years): their PDs are combined as they are; "
-                  "give --horizon T to put every PD on one horizon",
-                  *horizons.begin(), *horizons.rbegin());
+                  "PDs are over %g years: expected loss and the loss distribution are over that horizon; IRB "
+                  "capital uses one-year PDs, 1 - (1 - PD)^(1/T)",
+                  horizons.begin()->first);
     notes.push_back(buf);
   }
   if (corr) {
@@ -390,6 +422,11 @@ PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& sce
     for (std::size_t i = 0; i < n; ++i) {
       fill_obligor(book.obligors[i], base[i], nullptr, statics[i], corr, config, options, res.obligors[i]);
       if (!res.obligors[i].ok()) problem("", i, res.obligors[i].message);
+    }
+    for (const PortfolioObligor& o : res.obligors) {
+      if (!o.ok()) continue;
+      if (o.horizon_years != 1.0) ++run.pd_converted;
+      if (o.pd_one_year < config.irb.pd_floor) ++run.pd_floored;
     }
     compute(book, corr, config, options, res, run.notes);
     run.scenarios.push_back(std::move(res));

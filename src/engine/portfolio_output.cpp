@@ -47,11 +47,13 @@ std::vector<Cell> row_cells(const PortfolioResult& run, const PortfolioScenarioR
   c.push_back(num(o.lgd));
   c.push_back(num(o.ead));
   c.push_back(num(o.horizon_years));
+  c.push_back(num(ok ? o.pd_one_year : kNaN));
   c.push_back(num(ok ? o.expected_loss : kNaN));
   c.push_back(num(ok ? o.asset_correlation : kNaN));
   c.push_back(txt(ok ? std::string(to_string(o.correlation_source)) : std::string()));
   c.push_back(num(ok ? o.maturity_years : kNaN));
   c.push_back(num(ok ? o.irb.pd : kNaN));
+  c.push_back(txt(std::string(o.irb_pd_basis())));
   c.push_back(num(ok ? o.irb.correlation : kNaN));
   c.push_back(num(ok ? o.irb.capital_ratio : kNaN));
   c.push_back(num(ok ? o.irb.risk_weight : kNaN));
@@ -269,6 +271,7 @@ void write_table(const PortfolioResult& run, const Book& book, const TextSink& s
   out += "PD: Merton (" + std::string(to_string(run.settings.measure)) +
          " measure) at each obligor's horizon; LGD as " + "given (" +
          small(100.0 * run.settings.default_lgd, 0) + "% where none is given)\n";
+  out += "Expected loss and loss distribution: over each obligor's horizon (model PD)\n";
   append_wrapped(out, "Asset correlation: " + correlation_text(run));
   if (base.exact.status != LossStatus::invalid_input) {
     char buf[256];
@@ -289,12 +292,18 @@ void write_table(const PortfolioResult& run, const Book& book, const TextSink& s
   }
   {
     char buf[200];
-    std::snprintf(
-        buf, sizeof buf,
-        "Amounts are in the book's EAD unit; IRB: Basel II corporate formula, PD floor %g%%, maturity %g "
-        "years unless given\n",
-        100.0 * run.irb.pd_floor, run.irb.maturity_years);
+    std::snprintf(buf, sizeof buf,
+                  "Amounts are in the book's EAD unit; IRB: Basel II corporate formula, maturity %g years "
+                  "unless given\n",
+                  run.irb.maturity_years);
     out += buf;
+    std::snprintf(buf, sizeof buf, "PD floor %g%% (%s), %zu obligors raised to it", 100.0 * run.irb.pd_floor,
+                  std::string(pd_floor_source(run.irb.pd_floor_rule)).c_str(), run.pd_floored);
+    const std::string basis =
+        run.pd_converted > 0
+            ? std::to_string(run.pd_converted) + " model PDs converted to one year, 1 - (1 - PD)^(1/T)"
+            : std::string("the model PD, its horizon is one year");
+    append_wrapped(out, "IRB PD: one-year PD (" + basis + "); " + buf);
   }
   for (std::size_t s = 0; s < run.scenarios.size(); ++s) {
     const PortfolioScenarioResult& sc = run.scenarios[s];
@@ -509,6 +518,9 @@ void write_json(const PortfolioResult& run, const Book& book, const TextSink& si
       .raw("monte_carlo_scenarios", std::to_string(run.options.monte_carlo_scenarios))
       .raw("seed", std::to_string(run.portfolio.seed))
       .number("irb_pd_floor", run.irb.pd_floor)
+      .text("irb_pd_floor_rule", to_string(run.irb.pd_floor_rule))
+      .text("irb_pd_basis", run.pd_converted > 0 ? "model_converted" : "model")
+      .text("expected_loss_horizon", "obligor")
       .number("irb_maturity", run.irb.maturity_years);
   out += "},\n  \"scenarios\": [\n";
   sink(out);
@@ -522,7 +534,9 @@ void write_json(const PortfolioResult& run, const Book& book, const TextSink& si
   JsonFields(out)
       .count("obligors", book.obligors.size())
       .count("in_portfolio", run.scenarios.front().included)
-      .count("failed_rows", run.failed_rows);
+      .count("failed_rows", run.failed_rows)
+      .count("irb_pd_converted", run.pd_converted)
+      .count("irb_pd_floored", run.pd_floored);
   out += "}\n}\n";
   sink(out);
 }
@@ -540,11 +554,13 @@ std::vector<std::string> portfolio_columns(const std::vector<double>& levels, bo
                                 "lgd",
                                 "ead",
                                 "horizon",
+                                "pd_one_year",
                                 "expected_loss",
                                 "asset_correlation",
                                 "asset_correlation_source",
                                 "maturity",
                                 "irb_pd",
+                                "irb_pd_basis",
                                 "irb_correlation",
                                 "irb_capital_ratio",
                                 "irb_risk_weight",

@@ -13,13 +13,15 @@
 
 #include "firmcall/format/json_writer.hpp"
 #include "firmcall/format/table_text.hpp"
+#include "firmcall/model/pd_horizon.hpp"
 
 namespace firmcall {
 
 const std::vector<std::string_view>& score_columns() {
   static const std::vector<std::string_view> cols = split_names(
       "id,name,status,equity_value,default_point,asset_value,asset_vol,leverage,"
-      "distance_to_default,pd,pd_risk_neutral,debt_value,spread_bp,iterations,residual,message");
+      "distance_to_default,pd,horizon,pd_one_year,pd_risk_neutral,debt_value,spread_bp,iterations,residual,"
+      "message");
   return cols;
 }
 
@@ -146,14 +148,14 @@ void append_sensitivities_table(std::string& out, const MertonSensitivities& s, 
 
 namespace {
 
-// Grade label of a scored obligor; empty when it was not scored.
+// Grade label of a scored obligor, on its one-year PD; empty when it was not scored.
 std::string grade_label(const GradeScale* grades, const ScoredObligor& s) {
   if (!grades || s.status != RowStatus::ok) return {};
-  return std::string(grades->label_of(s.measures.pd));
+  return std::string(grades->label_of_pd_at(s.measures.pd, s.resolved.inputs.horizon_years));
 }
 
 // Values of the numeric columns equity_value .. spread_bp of score_columns(), in order.
-constexpr std::size_t kNumericColumns = 10;
+constexpr std::size_t kNumericColumns = 12;
 constexpr std::size_t kFirstNumericColumn = 3;
 struct NumericRow {
   double v[kNumericColumns];
@@ -168,9 +170,13 @@ NumericRow numeric_row(const ScoredObligor& s) {
   const MertonMeasures& m = s.measures;
   r.v[0] = resolved ? in.equity_value : nan;
   r.v[1] = resolved ? in.default_point : nan;
-  const double vals[] = {m.asset_value, m.asset_vol_annual, m.leverage,   m.distance_to_default,
-                         m.pd,          m.pd_risk_neutral,  m.debt_value, m.spread_bp};
-  for (int i = 0; i < 8; ++i) r.v[2 + i] = scored ? vals[i] : nan;
+  // The horizon is an input (shown once resolved); the one-year PD sits beside the model PD.
+  const double vals[] = {m.asset_value, m.asset_vol_annual, m.leverage, m.distance_to_default, m.pd};
+  for (int i = 0; i < 5; ++i) r.v[2 + i] = scored ? vals[i] : nan;
+  r.v[7] = resolved ? in.horizon_years : nan;
+  r.v[8] = scored ? pd_one_year(m.pd, in.horizon_years) : nan;
+  const double rest[] = {m.pd_risk_neutral, m.debt_value, m.spread_bp};
+  for (int i = 0; i < 3; ++i) r.v[9 + i] = scored ? rest[i] : nan;
   return r;
 }
 
@@ -269,52 +275,54 @@ class JsonWriter final : public ScoreWriter {
   const GradeScale* grades_;
 };
 
-// Fixed-width text for people: 116 columns (with grades: a grade column, and the name 6 narrower).
+// Fixed-width text for people: 118 columns (with grades: a grade column, and the name 5 narrower).
 class TableWriter final : public ScoreWriter {
  public:
   TableWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades)
       : sensitivities_(sensitivities), grades_(grades) {}
   void begin(std::string& out) const override {
     char buf[256];
-    std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", "obligor",
-                  name_width(), "name", "asset value", "asset", "default", "DP/V", "DD", "PD", "spread",
-                  grade_cell("grade").c_str(), "status");
+    std::snprintf(buf, sizeof buf, kHeader, "obligor", name_width(), "name", "asset", "asset", "default",
+                  "DP/V", "DD", "PD", "horizon", "PD", "spread", grade_cell("grade").c_str(), "status");
     out += buf;
-    std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", "", name_width(), "",
-                  "", "vol %", "point", "", "", "%", "bp", grade_cell("").c_str(), "");
+    std::snprintf(buf, sizeof buf, kHeader, "", name_width(), "", "value", "vol %", "point", "", "", "%",
+                  "years", "1 year %", "bp", grade_cell("").c_str(), "");
     out += buf;
     if (sensitivities_) append_sensitivities_table_header(out, 2);
-    append_rule(out, 115);
+    append_rule(out, kRuleWidth);
   }
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
     char buf[320];
     const std::string id = fit(rec.get(TextField::id), 12);
     const std::string name = fit(rec.get(TextField::name), static_cast<std::size_t>(name_width()));
     if (s.status != RowStatus::ok) {
-      std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7s %12s %6s %7s %10s %10s %s %s\n", id.c_str(),
-                    name_width(), name.c_str(), "-", "-", "-", "-", "-", "-", "-", grade_cell("-").c_str(),
-                    std::string(to_string(s.status)).c_str());
+      std::snprintf(buf, sizeof buf, kHeader, id.c_str(), name_width(), name.c_str(), "-", "-", "-", "-", "-",
+                    "-", "-", "-", "-", grade_cell("-").c_str(), std::string(to_string(s.status)).c_str());
       out += buf;
       return;
     }
     const MertonMeasures& m = s.measures;
-    std::snprintf(buf, sizeof buf, "%-12s %-*s %12s %7.2f %12s %6.3f %7.3f %10s %10s %s %s\n", id.c_str(),
-                  name_width(), name.c_str(), amount(m.asset_value).c_str(), 100.0 * m.asset_vol_annual,
-                  amount(m.default_point).c_str(), m.leverage, m.distance_to_default,
-                  small(100.0 * m.pd, 4).c_str(), small(m.spread_bp, 2).c_str(),
+    const double horizon = s.resolved.inputs.horizon_years;
+    std::snprintf(buf, sizeof buf, "%-12s %-*s %10s %6.2f %10s %6.3f %6.3f %10s %7s %10s %10s %s %s\n",
+                  id.c_str(), name_width(), name.c_str(), amount(m.asset_value).c_str(),
+                  100.0 * m.asset_vol_annual, amount(m.default_point).c_str(), m.leverage,
+                  m.distance_to_default, small(100.0 * m.pd, 4).c_str(), fmt::format("{:g}", horizon).c_str(),
+                  small(100.0 * pd_one_year(m.pd, horizon), 4).c_str(), small(m.spread_bp, 2).c_str(),
                   grade_cell(grade_label(grades_, s)).c_str(), "ok");
     out += buf;
     if (sensitivities_) append_sensitivities_table(out, sensitivities_of(s.resolved, s.solution), 2);
   }
   void end(const ScoreSummary& sum, std::string& out) const override {
-    append_rule(out, 115);
+    append_rule(out, kRuleWidth);
     append_score_tally(out, "scored", sum);
     out += kTableCaution;
   }
 
  private:
+  static constexpr const char* kHeader = "%-12s %-*s %10s %6s %10s %6s %6s %10s %7s %10s %10s %s %s\n";
+  static constexpr std::size_t kRuleWidth = 118;
   bool sensitivities_;
-  int name_width() const { return grades_ ? 12 : 18; }
+  int name_width() const { return grades_ ? 9 : 14; }
   // The grade column: empty without grades (one space then separates spread and status, as before).
   std::string grade_cell(std::string_view text) const {
     if (!grades_) return {};
@@ -328,7 +336,7 @@ class TableWriter final : public ScoreWriter {
   static std::string fit(const std::string& s, std::size_t w) { return fit_text(s, w); }
   static std::string amount(double v) {
     char buf[64];
-    if (std::fabs(v) < 1e11) {
+    if (std::fabs(v) < 1e7) {  // at most 10 characters either way
       std::snprintf(buf, sizeof buf, "%.2f", v);
     } else {
       std::snprintf(buf, sizeof buf, "%.4e", v);

@@ -349,7 +349,8 @@ class StressTableWriter final : public detail::StressWriter {
 
   void overview(const StressSummary& sum, const std::vector<Scenario>& scenarios, std::string& out) const {
     const std::string thr = percent(info_.stress.pd_threshold);
-    out += "\nScenario summary (PD threshold " + thr + "; expected loss over obligors with ead)\n";
+    out += "\nScenario summary (PD threshold " + thr +
+           "; expected loss over obligors with ead, each over its horizon)\n";
     char buf[320];
     const char* fmt = "%-24s %8s  %9s %9s  %9s %9s  %5s %5s  %11s %11s\n";
     std::snprintf(buf, sizeof buf, "%-24s %8s  %19s  %19s  %11s  %23s\n", "scenario", "compared", "mean PD %",

@@ -1,6 +1,7 @@
 #include "firmcall/io/settings_io.hpp"
 
 #include <algorithm>
+#include <cctype>
 #include <cmath>
 
 #include "firmcall/book/errors.hpp"
@@ -204,7 +205,24 @@ void read_portfolio(const YAML::Node& s, const std::string& origin, PortfolioSet
 
 void read_irb(const YAML::Node& s, const std::string& origin, IrbSettings& irb) {
   yaml_check_keys(s, {"pd_floor", "maturity"}, origin, "irb");
-  read_number(s, "pd_floor", irb.pd_floor, irb, origin);
+  // pd_floor: basel2 (0.03%), basel3 (0.05%, corporates) or a number.
+  if (const auto n = s["pd_floor"]) {
+    const std::optional<PdFloorRule> rule =
+        n.IsScalar() ? pd_floor_rule_from_string(n.Scalar()) : std::optional<PdFloorRule>{};
+    if (rule) {
+      irb.pd_floor_rule = *rule;
+      irb.pd_floor = pd_floor_of(*rule);
+    } else {
+      const std::string text = detail::yaml_string(n, origin, "pd_floor");
+      if (!text.empty() && std::isalpha(static_cast<unsigned char>(text[0]))) {
+        throw InputError(located(origin, yaml_line(n),
+                                 "key 'pd_floor': expected basel2, basel3 or a number, got '" + text + "'"));
+      }
+      irb.pd_floor_rule = PdFloorRule::value;
+      irb.pd_floor = yaml_number(n, origin, "pd_floor");
+      check_key(irb, n, origin, "pd_floor");
+    }
+  }
   read_number(s, "maturity", irb.maturity_years, irb, origin);
 }
 

@@ -427,7 +427,8 @@ void write_track_report(std::string_view obligor_id, const std::vector<RunStore:
          Cell::number(sc ? o.measures.asset_value : std::nan("")),
          Cell::number(sc ? o.measures.asset_vol_annual : std::nan("")), Cell::number(dd),
          Cell::number(dd - last_dd), Cell::number(pd), Cell::number(sc ? o.measures.spread_bp : std::nan("")),
-         sc ? Cell::text(std::string(scale.label_of(pd))) : Cell::none(),
+         sc ? Cell::text(std::string(scale.label_of_pd_at(pd, in ? o.inputs.horizon_years : 1.0)))
+            : Cell::none(),
          o.grade.empty() ? Cell::none() : Cell::text(o.grade), Cell::text(std::string(to_string(o.status))),
          Cell::text(o.message)},
         out);

@@ -75,7 +75,8 @@ void fill_side(const StoredObligor* o, const GradeScale& scale, double& dd, doub
   if (!o || o->status != RowStatus::ok || !o->has_measures) return;
   dd = o->measures.distance_to_default;
   pd = o->measures.pd;
-  grade = scale.index_of(pd);
+  // Grades are on the one-year PD (a run recorded before the horizon was stored counts as one year).
+  grade = scale.index_of_pd_at(pd, o->has_inputs ? o->inputs.horizon_years : 1.0);
 }
 
 void set(Mover& m, Alert a) {

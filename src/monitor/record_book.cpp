@@ -76,7 +76,7 @@ StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& s, c
   o.has_measures = s.status == RowStatus::ok;
   if (o.has_measures) {
     o.measures = s.measures;
-    o.grade = std::string(grades.label_of(s.measures.pd));
+    o.grade = std::string(grades.label_of_pd_at(s.measures.pd, s.resolved.inputs.horizon_years));
   }
   if (s.solution.residual >= 0.0) {
     o.iterations = s.solution.iterations;

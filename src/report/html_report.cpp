@@ -161,7 +161,8 @@ std::string summary_section(const ReportData& d, const BookFigures& f) {
   out +=
       card("mean PD", std::isfinite(f.mean_pd) ? report_pd(f.mean_pd) : "-", "simple mean over scored names");
   out += card("total EAD", report_amount(f.ead_total), "exposure at default, in the book's EAD unit");
-  out += card("expected loss", report_amount(f.expected_loss), "sum of PD x LGD x EAD");
+  out += card("expected loss", report_amount(f.expected_loss),
+              "sum of PD x LGD x EAD, over each obligor's horizon");
   out += card("PD above " + level_text(d.config.stress.pd_threshold), count(f.above_threshold),
               "names over the stress PD threshold");
   out += "</div>\n";
@@ -171,7 +172,7 @@ std::string summary_section(const ReportData& d, const BookFigures& f) {
   std::vector<double> names(grades, 0.0), ead(grades, 0.0), ead_pd(grades, 0.0);
   for (const ScoredObligor& s : d.scored) {
     if (s.status != RowStatus::ok) continue;
-    const int g = scale.index_of(s.measures.pd);
+    const int g = scale.index_of_pd_at(s.measures.pd, s.resolved.inputs.horizon_years);
     if (g < 0) continue;
     const auto gi = static_cast<std::size_t>(g);
     names[gi] += 1.0;
@@ -189,10 +190,10 @@ std::string summary_section(const ReportData& d, const BookFigures& f) {
   const std::string chart =
       svg_bar_chart(labels, {{"obligors", "fc-bar-base", names, value_labels}},
                     "grade on the master scale (best on the left)", y, "Obligors by grade");
-  out +=
-      figure(chart,
-             "Each bar counts the scored obligors whose PD falls in a grade's band (table below). A book "
-             "leaning to the right holds more weak names; compare the EAD column to see where the money is.");
+  out += figure(
+      chart,
+      "Each bar counts the scored obligors whose one-year PD falls in a grade's band (table below). A book "
+      "leaning to the right holds more weak names; compare the EAD column to see where the money is.");
   HtmlTable t("fc-table", {"grade", "PD band", "obligors", "EAD", "share of EAD", "exposure-weighted PD"});
   t.numeric_from(2);
   double lower = 0.0;
@@ -249,7 +250,7 @@ std::string scatter_section(const ReportData& d) {
   for (std::size_t k = drawn; k-- > 0;) {
     const ScoredObligor& s = d.scored[ok[k]];
     const ObligorRecord& rec = d.book.obligors[ok[k]];
-    const int g = scale.index_of(s.measures.pd);
+    const int g = scale.index_of_pd_at(s.measures.pd, s.resolved.inputs.horizon_years);
     const bool distressed = s.measures.pd > threshold;
     const int n = static_cast<int>(scale.bands.size());
     const char* cls = distressed      ? "fc-dot-distressed"
@@ -287,7 +288,7 @@ std::vector<std::string> name_row(const ReportData& d, std::size_t i) {
   return {id_of(rec),
           rec.get(TextField::name),
           rec.get(TextField::sector),
-          std::string(d.config.grades.label_of(m.pd)),
+          std::string(d.config.grades.label_of_pd_at(m.pd, s.resolved.inputs.horizon_years)),
           format_cell(m.distance_to_default, CellStyle::decimal3),
           report_pd(m.pd),
           report_spread_bp(m.spread_bp),
@@ -638,9 +639,9 @@ std::string loss_levels_table(const PortfolioScenarioResult& base) {
           true);
   }
   return t.str() + "<p class=\"fc-note\">Expected loss " + h(report_amount(base.total.expected_loss)) +
-         " on EAD " + h(report_amount(base.total.ead)) + "; Basel IRB capital " +
-         h(report_amount(base.total.irb_capital)) + " (risk-weighted assets " +
-         h(report_amount(base.total.rwa)) + ").</p>\n";
+         " over each obligor's horizon on EAD " + h(report_amount(base.total.ead)) +
+         "; Basel IRB capital on one-year PDs " + h(report_amount(base.total.irb_capital)) +
+         " (risk-weighted assets " + h(report_amount(base.total.rwa)) + ").</p>\n";
 }
 
 // Contributions to ES at the top confidence level, and the positions of the `limit` largest

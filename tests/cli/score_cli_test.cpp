@@ -166,12 +166,12 @@ TEST_CASE("--help carries the caution, the risk-neutral measure sets pd to pd_ri
   const auto rows = firmcall::testing::split_simple_csv(r.out);
   const auto jac = std::find_if(rows.begin(), rows.end(), [](const auto& row) { return row[0] == "JAC-36"; });
   REQUIRE(jac != rows.end());
-  CHECK((*jac)[9] == (*jac)[10]);  // pd == pd_risk_neutral under the risk-neutral measure
+  CHECK((*jac)[9] == (*jac)[12]);  // pd == pd_risk_neutral under the risk-neutral measure
   r = run_firmcall("score samples/demo_book.yaml --format csv");
   const auto rows2 = firmcall::testing::split_simple_csv(r.out);
   const auto jac2 =
       std::find_if(rows2.begin(), rows2.end(), [](const auto& row) { return row[0] == "JAC-36"; });
-  CHECK(std::stod((*jac2)[9]) < std::stod((*jac2)[10]));  // drift 7% > rate: physical PD is lower
+  CHECK(std::stod((*jac2)[9]) < std::stod((*jac2)[12]));  // drift 7% > rate: physical PD is lower
 }
 
 TEST_CASE("one thread and many threads write the same bytes") {

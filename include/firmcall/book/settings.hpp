@@ -100,9 +100,24 @@ struct PortfolioSettings {
   OptionCheck validate() const;
 };
 
-/// Settings of the Basel IRB capital formula (irb.hpp).
+/// Where the IRB PD floor comes from. basel2: 0.03% (BCBS 2006, "International Convergence of
+/// Capital Measurement and Capital Standards", para 285). basel3: 0.05% for corporates (BCBS,
+/// "Basel III: Finalising post-crisis reforms", Dec 2017, IRB section; CRE32.4 of the consolidated
+/// framework). value: a number given in the settings file.
+enum class PdFloorRule : std::uint8_t { basel2, basel3, value };
+std::string_view to_string(PdFloorRule r) noexcept;
+/// "basel2" or "basel3" (a number is read as PdFloorRule::value by the settings reader).
+std::optional<PdFloorRule> pd_floor_rule_from_string(std::string_view s) noexcept;
+/// The floor of a named rule: 0.0003 (basel2), 0.0005 (basel3); NaN for PdFloorRule::value.
+double pd_floor_of(PdFloorRule r) noexcept;
+/// Where the floor comes from, for outputs: "Basel II, BCBS 2006 para 285", ...
+std::string_view pd_floor_source(PdFloorRule r) noexcept;
+
+/// Settings of the Basel IRB capital formula (irb.hpp). The floor applies to the one-year PD that
+/// enters the capital formula (and the Basel correlation function), never to the model PD.
 struct IrbSettings {
-  double pd_floor = 0.0003;     ///< BCBS 2006 para 285
+  PdFloorRule pd_floor_rule = PdFloorRule::basel2;  ///< settings key irb.pd_floor: basel2, basel3 or a number
+  double pd_floor = 0.0003;                         ///< the floor in use (BCBS 2006 para 285 by default)
   double maturity_years = 2.5;  ///< effective maturity M when the obligor gives none (para 318)
 
   /// The first broken constraint, in the order of the fields (those the settings reader enforces).

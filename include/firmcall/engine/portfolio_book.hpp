@@ -3,12 +3,15 @@
 // scenarios.
 //
 // For each obligor: PD is the Merton PD at its horizon (score.hpp; under a scenario, the stressed
-// PD of stress.hpp), EAD must be given, LGD is the obligor's, else the book's, else the configured
-// default (0.45), and its loss on default is LGD x EAD. The asset correlation rho comes from, in
-// this order: --asset-correlation, the obligor's asset_correlation, its sector in the correlation
-// file, the configuration (portfolio.asset_correlation), else the Basel corporate function of PD
-// (irb.hpp, with the PD floor). Obligors that cannot be used are listed with the reason and left
-// out; the others still run.
+// PD of stress.hpp); the expected loss and the loss distributions use it as it is, over the
+// obligor's horizon. The IRB capital formula (and the Basel correlation function) take a one-year
+// PD: pd_one_year (model/pd_horizon.hpp) converts a PD over another horizon, then the PD floor of
+// the settings (irb.pd_floor) applies; the model PD itself is never floored. EAD must be given, LGD is the
+// obligor's, else the book's, else the configured default (0.45), and its loss on default is LGD x EAD. The
+// asset correlation rho comes from, in this order: --asset-correlation, the obligor's asset_correlation, its
+// sector in the correlation file, the configuration (portfolio.asset_correlation), else the Basel corporate
+// function of PD (irb.hpp, with the PD floor). Obligors that cannot be used are listed with the reason and
+// left out; the others still run.
 //
 // For the portfolio: expected loss by obligor, sector, country and in total; the exact one-factor
 // loss distribution with VaR, ES and ES contributions (loss_distribution.hpp); the
@@ -62,13 +65,17 @@ struct PortfolioObligor {
   double lgd = 0.0;                ///< decimal
   double ead = 0.0;                ///< currency units (the book's EAD unit)
   double horizon_years = 0.0;      ///< T of the PD
+  double pd_one_year = 0.0;        ///< pd converted to one year (pd itself at T = 1), before the floor
   double expected_loss = 0.0;      ///< PD x LGD x EAD
   double asset_correlation = 0.0;  ///< rho used by the portfolio models
   CorrelationSource correlation_source = CorrelationSource::basel;
   std::uint32_t factor = 0;     ///< sector factor (0 without a correlation file)
   double maturity_years = 0.0;  ///< IRB M as given (the formula holds it to [1, 5])
-  IrbResult irb;
+  IrbResult irb;                ///< on pd_one_year, floored (irb.pd is the PD the formula used)
   bool ok() const noexcept { return status == PortfolioStatus::ok; }
+  /// The IRB PD's basis: "model" (a one-year model PD, used as it is) or "model_converted" (a PD
+  /// over another horizon converted with pd_one_year); "" when not in the portfolio.
+  std::string_view irb_pd_basis() const noexcept;
 };
 
 /// Sums over a group of obligors (the whole portfolio, a sector or a country).
@@ -132,7 +139,10 @@ struct PortfolioResult {
   std::vector<std::string> problems;  ///< "file:line: obligor 'id': message", the first few
   std::size_t problems_not_listed = 0;
   std::vector<std::string> notes;
-  std::size_t failed_rows = 0;  ///< obligor rows (over all scenarios) not in the portfolio
+  std::size_t failed_rows = 0;   ///< obligor rows (over all scenarios) not in the portfolio
+  std::size_t pd_converted = 0;  ///< obligors of the book as it stands whose IRB PD was converted to one year
+  std::size_t pd_floored =
+      0;  ///< obligors of the book as it stands whose one-year PD was raised to the floor
 };
 
 /// Scores the book, builds the portfolio and runs every model, as the book stands and under each

@@ -47,3 +47,23 @@ TEST_CASE("unusable scales are refused with the reason") {
         "the last grade must have max_pd 1 (it holds every PD up to 1)");
   CHECK(GradeScale{{{"", 1.0}}}.problem() == "grade 1: the label is empty");
 }
+
+TEST_CASE("grades depend on the one-year PD alone, whatever the horizon") {
+  const GradeScale s = firmcall::default_grade_scale();
+  // Two obligors with the same one-year PD q: a horizon-T PD of 1 - (1 - q)^T (constant annual
+  // intensity, common practice), computed here in long double as an independent route.
+  for (double q : {2e-5, 3e-4, 0.003, 0.0102, 0.05, 0.4}) {
+    const int at_one_year = s.index_of(q);
+    for (double horizon : {0.25, 1.0, 2.0, 5.0, 10.0}) {
+      const auto pd_t = static_cast<double>(1.0L - std::pow(1.0L - static_cast<long double>(q), horizon));
+      CAPTURE(q);
+      CAPTURE(horizon);
+      CHECK(s.index_of_pd_at(pd_t, horizon) == at_one_year);
+    }
+  }
+  // A five-year PD of 5% is 1.02% a year (1 - 0.95^0.2, arithmetic): FC8, not the FC9 of 5%.
+  CHECK(s.label_of_pd_at(0.05, 5.0) == "FC8");
+  CHECK(s.label_of(0.05) == "FC9");
+  CHECK(s.index_of_pd_at(0.05, 0.0) == -1);
+  CHECK(s.label_of_pd_at(std::numeric_limits<double>::quiet_NaN(), 1.0).empty());
+}

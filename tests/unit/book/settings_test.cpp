@@ -164,6 +164,16 @@ TEST_CASE("IrbSettings and GradeScale: each constraint is caught") {
   irb.pd_floor = 1.5;
   CHECK(problem_of(irb) == "pd_floor: must lie in [0, 1]");
   irb.pd_floor = 0.0;
+  // Ref: BCBS 2006 para 285 (0.03%); a named rule holds its own value.
+  CHECK(problem_of(irb) == "pd_floor: must be 0.0003 under rule basel2");
+  irb.pd_floor_rule = firmcall::PdFloorRule::basel3;
+  irb.pd_floor = 0.0003;
+  CHECK(problem_of(irb) == "pd_floor: must be 0.0005 under rule basel3");
+  irb.pd_floor = 0.0005;  // Ref: BCBS Dec 2017 corporates, CRE32.4 (from memory)
+  CHECK(problem_of(irb) == "");
+  irb.pd_floor_rule = firmcall::PdFloorRule::value;
+  irb.pd_floor = 0.0;
+  CHECK(problem_of(irb) == "");
   irb.maturity_years = 0.0;
   CHECK(problem_of(irb) == "maturity_years: must be positive");
   GradeScale g;

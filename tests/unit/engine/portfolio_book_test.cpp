@@ -260,3 +260,149 @@ TEST_CASE("output formats: CSV columns by level, JSON shape, summary and distrib
     start = end == std::string::npos ? table.size() : end + 1;
   }
 }
+
+namespace {
+
+// Invented obligors at two horizons: LOW-1 has a tiny PD (below every IRB floor), MID-2 and MID-3
+// are the same firm at horizons 1 and 5.
+const char* kHorizonBook = R"(book: horizon test book
+defaults: {rate: 0.03}
+obligors:
+  - {id: LOW-1, name: Low, market_cap: 15400, equity_vol: 0.38, short_term_debt: 310,
+     long_term_debt: 1200, ead: 15, lgd: 0.6, horizon: 1}
+  - {id: MID-2, name: Mid one year, market_cap: 910, equity_vol: 0.36, short_term_debt: 740,
+     long_term_debt: 980, ead: 25, lgd: 0.5, horizon: 1}
+  - {id: MID-3, name: Mid five years, market_cap: 910, equity_vol: 0.36, short_term_debt: 740,
+     long_term_debt: 980, ead: 25, lgd: 0.5, horizon: 5}
+)";
+
+// The table with wrapped lines joined again ("\n  " continues a line).
+std::string unwrapped(const std::string& s) {
+  std::string out;
+  out.reserve(s.size());
+  for (std::size_t k = 0; k < s.size(); ++k) {
+    if (s[k] == '\n' && s.compare(k, 3, "\n  ") == 0) {
+      out.push_back(' ');
+      k += 2;
+    } else {
+      out.push_back(s[k]);
+    }
+  }
+  return out;
+}
+
+// 1 - (1 - pd)^(1/T) in long double: the naive formula, independent of pd_one_year.
+double one_year_long(double pd, double horizon) {
+  return static_cast<double>(1.0L - std::pow(1.0L - static_cast<long double>(pd), 1.0L / horizon));
+}
+
+}  // namespace
+
+TEST_CASE("IRB capital at horizon 5 is the horizon-1 capital of the one-year PDs") {
+  const Book book = parse_yaml_book(kBook, "b.yaml");
+  Config five;
+  five.score.horizon_override = 5.0;
+  const PortfolioResult r5 = run(book, nullptr, {}, {}, five);
+  const PortfolioScenarioResult& base5 = r5.scenarios.front();
+  REQUIRE(base5.included == 4);
+  double capital = 0.0;
+  for (const PortfolioObligor& o : base5.obligors) {
+    if (!o.ok()) continue;
+    CHECK(o.horizon_years == 5.0);
+    const double q = one_year_long(o.pd, 5.0);
+    CHECK(o.pd_one_year == doctest::Approx(q).epsilon(1e-13));
+    CHECK(o.irb_pd_basis() == "model_converted");
+    // Ref: BCBS 2006 para 272 (irb_corporate, checked against Annex 5 in irb_test.cpp): the capital
+    // of a horizon-1 obligor whose PD is q.
+    const IrbResult one =
+        irb_corporate({.pd = q, .lgd = o.lgd, .ead = o.ead, .maturity_years = o.maturity_years});
+    CHECK(o.irb.capital == doctest::Approx(one.capital).epsilon(1e-12));
+    CHECK(o.irb.pd == doctest::Approx(std::max(q, 0.0003)).epsilon(1e-13));
+    // Expected loss stays on the model PD over the horizon.
+    CHECK(o.expected_loss == doctest::Approx(o.pd * o.lgd * o.ead).epsilon(1e-15));
+    capital += one.capital;
+  }
+  CHECK(base5.total.irb_capital == doctest::Approx(capital).epsilon(1e-12));
+  CHECK(r5.pd_converted == 4);
+  // At horizon 1 the model PD goes in as it is.
+  const PortfolioResult r1 = run(book, nullptr);
+  for (const PortfolioObligor& o : r1.scenarios.front().obligors) {
+    if (!o.ok()) continue;
+    CHECK(o.pd_one_year == o.pd);
+    CHECK(o.irb_pd_basis() == "model");
+    CHECK(
+        o.irb.capital ==
+        irb_corporate({.pd = o.pd, .lgd = o.lgd, .ead = o.ead, .maturity_years = o.maturity_years}).capital);
+  }
+  CHECK(r1.pd_converted == 0);
+  // Ref: BCBS 2006 Annex 5 (from memory): one-year PD 1%, LGD 45%, M 2.5 weighs 92.32%; a five-year
+  // PD of 1 - 0.99^5 is that one-year PD.
+  const double pd5 = 1.0 - std::pow(0.99, 5.0);
+  const IrbResult rw =
+      irb_corporate({.pd = one_year_long(pd5, 5.0), .lgd = 0.45, .ead = 1.0, .maturity_years = 2.5});
+  CHECK(std::fabs(100.0 * rw.risk_weight - 92.32) <= 0.01);
+}
+
+TEST_CASE("the IRB PD floor applies to the one-year PD and is reported") {
+  const Book book = parse_yaml_book(kHorizonBook, "h.yaml");
+  for (const auto rule : {PdFloorRule::basel2, PdFloorRule::basel3}) {
+    Config config;
+    config.irb.pd_floor_rule = rule;
+    config.irb.pd_floor = pd_floor_of(rule);
+    // Ref: BCBS 2006 para 285 (0.03%); BCBS Dec 2017, corporates (0.05%, CRE32.4, from memory).
+    CHECK(config.irb.pd_floor == (rule == PdFloorRule::basel2 ? 0.0003 : 0.0005));
+    const PortfolioResult r = run(book, nullptr, {}, {}, config);
+    const PortfolioObligor& low = r.scenarios.front().obligors[0];
+    REQUIRE(low.ok());
+    REQUIRE(low.pd_one_year < 0.0003);
+    CHECK(low.irb.pd == config.irb.pd_floor);  // floored for the formula ...
+    CHECK(low.pd < 0.0003);                    // ... never the model PD
+    CHECK(low.expected_loss == low.pd * low.lgd * low.ead);
+    std::size_t below = 0;  // obligors whose one-year PD (naive formula, long double) is under the floor
+    for (const PortfolioObligor& o : r.scenarios.front().obligors) {
+      if (o.ok() && one_year_long(o.pd, o.horizon_years) < config.irb.pd_floor) ++below;
+    }
+    CHECK(below >= 1);
+    CHECK(r.pd_floored == below);
+    const std::string table = unwrapped(written(r, book, OutputFormat::table));
+    CHECK(table.find(rule == PdFloorRule::basel2
+                         ? "PD floor 0.03% (Basel II, BCBS 2006 para 285)"
+                         : "PD floor 0.05% (Basel III corporates, BCBS Dec 2017") != std::string::npos);
+    CHECK(table.find(std::to_string(below) + " obligors raised to it") != std::string::npos);
+    const std::string json = written(r, book, OutputFormat::json);
+    CHECK(json.find(std::string("\"irb_pd_floor_rule\": \"") + std::string(to_string(rule)) + "\"") !=
+          std::string::npos);
+    CHECK(json.find("\"irb_pd_floored\": " + std::to_string(below)) != std::string::npos);
+  }
+}
+
+TEST_CASE("a book of mixed horizons gets a note counting the obligors at each horizon") {
+  const Book book = parse_yaml_book(kHorizonBook, "h.yaml");
+  const PortfolioResult r = run(book, nullptr);
+  bool found = false;
+  for (const std::string& n : r.notes) {
+    if (n.find("different horizons (2 at 1 year, 1 at 5 years)") != std::string::npos) found = true;
+  }
+  CHECK(found);
+  CHECK(r.pd_converted == 1);
+  const PortfolioObligor& five = r.scenarios.front().obligors[2];
+  CHECK(five.irb_pd_basis() == "model_converted");
+  CHECK(five.pd_one_year == doctest::Approx(one_year_long(five.pd, 5.0)).epsilon(1e-13));
+  const std::string csv = written(r, book, OutputFormat::csv);
+  CHECK(csv.find(",horizon,pd_one_year,expected_loss,") != std::string::npos);
+  CHECK(csv.find(",irb_pd,irb_pd_basis,irb_correlation,") != std::string::npos);
+  CHECK(csv.find(",model_converted,") != std::string::npos);
+  const std::string table = unwrapped(written(r, book, OutputFormat::table));
+  CHECK(table.find("Expected loss and loss distribution: over each obligor's horizon") != std::string::npos);
+  CHECK(table.find("1 model PDs converted to one year") != std::string::npos);
+  // One horizon other than one year: a note says so, without the mixed-horizon wording.
+  Config at_five;
+  at_five.score.horizon_override = 5.0;
+  const PortfolioResult r5 = run(book, nullptr, {}, {}, at_five);
+  bool converted_note = false;
+  for (const std::string& n : r5.notes) {
+    CHECK(n.find("different horizons") == std::string::npos);
+    if (n.find("PDs are over 5 years") != std::string::npos) converted_note = true;
+  }
+  CHECK(converted_note);
+}

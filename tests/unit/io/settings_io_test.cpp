@@ -38,6 +38,8 @@ TEST_CASE("the shipped config/firmcall.yaml equals the built-in defaults") {
   CHECK(shipped.portfolio.seed == builtin.portfolio.seed);
   CHECK(shipped.irb.pd_floor == builtin.irb.pd_floor);
   CHECK(shipped.irb.pd_floor == 0.0003);  // Ref: BCBS 2006 para 285
+  CHECK(shipped.irb.pd_floor_rule == builtin.irb.pd_floor_rule);
+  CHECK(builtin.irb.pd_floor_rule == firmcall::PdFloorRule::basel2);
   CHECK(shipped.irb.maturity_years == builtin.irb.maturity_years);
   CHECK(shipped.irb.maturity_years == 2.5);  // Ref: BCBS 2006 para 318 (foundation approach)
   REQUIRE(shipped.grades.bands.size() == builtin.grades.bands.size());
@@ -101,6 +103,16 @@ TEST_CASE("portfolio and irb settings are checked key by key") {
                        InputError);
   CHECK_THROWS_WITH_AS(parse_config("portfolio:\n  loss_grid_points: 8\n", "c.yaml"),
                        "c.yaml:2: key 'loss_grid_points': must lie in [16, 1048576]", InputError);
+  // The PD floor: a rule's name or a number (Ref: BCBS 2006 para 285, 0.03%; BCBS Dec 2017 for
+  // corporates, 0.05%, CRE32.4, from memory).
+  const Config b3 = parse_config("irb:\n  pd_floor: basel3\n", "c.yaml");
+  CHECK(b3.irb.pd_floor_rule == firmcall::PdFloorRule::basel3);
+  CHECK(b3.irb.pd_floor == 0.0005);
+  const Config b2 = parse_config("irb:\n  pd_floor: basel2\n", "c.yaml");
+  CHECK(b2.irb.pd_floor == 0.0003);
+  const Config own = parse_config("irb:\n  pd_floor: 0.001\n", "c.yaml");
+  CHECK(own.irb.pd_floor_rule == firmcall::PdFloorRule::value);
+  CHECK(own.irb.pd_floor == 0.001);
   CHECK_THROWS_WITH_AS(parse_config("irb:\n  pd_flor: 0.001\n", "c.yaml"),
                        "c.yaml:2: irb: unknown key 'pd_flor' (did you mean 'pd_floor'?)", InputError);
 }
@@ -173,6 +185,8 @@ TEST_CASE("the reader reports each settings constraint at its key") {
       {"portfolio:\n  loss_grid_points: 0\n", "c.yaml:2: key 'loss_grid_points': must be positive"},
       {"portfolio:\n  quadrature_tolerance: 1\n", "c.yaml:2: key 'quadrature_tolerance': must lie in (0, 1)"},
       {"irb:\n  pd_floor: 1.5\n", "c.yaml:2: key 'pd_floor': must lie in [0, 1]"},
+      {"irb:\n  pd_floor: basel4\n",
+       "c.yaml:2: key 'pd_floor': expected basel2, basel3 or a number, got 'basel4'"},
       {"irb:\n  maturity: 0\n", "c.yaml:2: key 'maturity': must be positive"},
       // The first broken key in the reader's order is the one reported.
       {"history:\n  confidence_level: 2\n  ewma_decay: 2\n",
