@@ -341,16 +341,19 @@ double population_stability_index(std::span<const std::size_t> actual_counts,
   double a_total = 0.0;
   double e_total = 0.0;
   bool empty_grade = false;
+  double grades = 0.0;  // grades with obligors in either sample; the others are left out
   for (std::size_t g = 0; g < actual_counts.size(); ++g) {
+    if (actual_counts[g] == 0 && expected_counts[g] == 0) continue;
     a_total += static_cast<double>(actual_counts[g]);
     e_total += static_cast<double>(expected_counts[g]);
     empty_grade = empty_grade || actual_counts[g] == 0 || expected_counts[g] == 0;
+    grades += 1.0;
   }
   if (a_total == 0.0 || e_total == 0.0) return kNaN;
   const double add = empty_grade ? kPsiEmptyGradeCount : 0.0;
-  const double grades = static_cast<double>(actual_counts.size());
   double psi = 0.0;
   for (std::size_t g = 0; g < actual_counts.size(); ++g) {
+    if (actual_counts[g] == 0 && expected_counts[g] == 0) continue;
     const double a = (static_cast<double>(actual_counts[g]) + add) / (a_total + add * grades);
     const double e = (static_cast<double>(expected_counts[g]) + add) / (e_total + add * grades);
     psi += (a - e) * std::log(a / e);

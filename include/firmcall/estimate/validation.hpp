@@ -124,7 +124,9 @@ CalibrationTests calibration_tests(std::span<const double> pd, std::span<const s
 inline constexpr double kPsiEmptyGradeCount = 0.5;
 
 /// Population stability index sum (a - e) ln(a / e) over grades of the shares a (actual) and e
-/// (expected); NaN when a sample is empty or the lengths differ.
+/// (expected). Grades empty in both samples are left out; when a grade is empty in one,
+/// kPsiEmptyGradeCount is added to every remaining grade's count in both. NaN when a sample is
+/// empty or the lengths differ.
 double population_stability_index(std::span<const std::size_t> actual_counts,
                                   std::span<const std::size_t> expected_counts) noexcept;
 

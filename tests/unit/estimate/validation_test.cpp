@@ -197,6 +197,9 @@ TEST_CASE("population stability index on worked examples") {
   CHECK(population_stability_index(std::vector<std::size_t>{3, 0}, std::vector<std::size_t>{1, 1}) ==
         doctest::Approx(0.7297163059).epsilon(1e-10));
   CHECK(population_stability_index(std::vector<std::size_t>{1, 1}, std::vector<std::size_t>{1, 1}) == 0.0);
+  // A grade empty in both samples is left out: the same 0.7297163059 (by hand, as above).
+  CHECK(population_stability_index(std::vector<std::size_t>{3, 0, 0}, std::vector<std::size_t>{1, 0, 1}) ==
+        doctest::Approx(0.7297163059).epsilon(1e-10));
   CHECK(
       std::isnan(population_stability_index(std::vector<std::size_t>{0, 0}, std::vector<std::size_t>{1, 1})));
 }
