@@ -271,13 +271,17 @@ void write_table(const ValidationRun& run, std::string& out) {
   if (run.stability && !run.stability->migration.empty()) {
     const StabilityResult& s = *run.stability;
     const std::size_t g = run.grade_labels.size();
+    std::vector<std::size_t> used;  // grades with obligors in either sample
+    for (std::size_t a = 0; a < g; ++a) {
+      if (s.actual[a] > 0 || s.expected[a] > 0) used.push_back(a);
+    }
     out += "\nGrade migration (rows: grade in " + s.origin + ", columns: grade now; obligors in both)\n";
     line(out, "%-10s", "");
-    for (std::size_t b = 0; b < g; ++b) line(out, " %7s", fit_text(run.grade_labels[b], 7).c_str());
+    for (std::size_t b : used) line(out, " %7s", fit_text(run.grade_labels[b], 7).c_str());
     out += "\n";
-    for (std::size_t a = 0; a < g; ++a) {
+    for (std::size_t a : used) {
       line(out, "%-10s", fit_text(run.grade_labels[a], 10).c_str());
-      for (std::size_t b = 0; b < g; ++b) line(out, " %7zu", s.migration[a * g + b]);
+      for (std::size_t b : used) line(out, " %7zu", s.migration[a * g + b]);
       out += "\n";
     }
   }
