@@ -73,3 +73,19 @@ TEST_CASE("outcomes: bad input names the file, the line and the field") {
   same.compare_column = "pd";
   CHECK(error_of("id,pd,defaulted\nA,0.1,1\n", same).find("field 'compare_column'") == 0);
 }
+
+TEST_CASE("outcome read options: the defaults validate and each constraint is caught") {
+  CHECK_FALSE(OutcomeReadOptions{}.validate());
+  OutcomeReadOptions o;
+  o.pd_column = "";
+  REQUIRE(o.validate());
+  CHECK(o.validate()->field == "pd_column");
+  o.pd_column = "defaulted";
+  CHECK(o.validate()->field == "pd_column");
+  o.pd_column = "pd";
+  o.compare_column = "grade";
+  REQUIRE(o.validate());
+  CHECK(o.validate()->field == "compare_column");
+  o.compare_column = "pd_alt";
+  CHECK_FALSE(o.validate());
+}
