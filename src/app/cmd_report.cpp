@@ -44,7 +44,7 @@ ExitCode run_report(const ReportCli& opts, const GlobalOptions& global) {
     if (failed > 0) std::cerr << " (" << failed << " not scored)";
     std::cerr << (data.stress ? ", stress" : "") << (!data.terms.empty() ? ", term structures" : "")
               << (data.portfolio ? ", portfolio" : "") << (data.monitoring ? ", movers and alerts" : "")
-              << "\n";
+              << (data.validation ? ", validation" : "") << "\n";
   }
   return rows_exit_code(failed);
 }
@@ -74,6 +74,9 @@ void add_report_command(CLI::App& app, const GlobalOptions& global, CommandActio
                   "Run of the store to show: run id or as-of date (default: latest)");
   cmd->add_option("--against", opts->report.against,
                   "Run to compare with: run id or as-of date (default: the run before --run)");
+  cmd->add_option("--validate", opts->report.validation_path,
+                  "Outcomes file (as for `firmcall validate`): adds the validation section")
+      ->check(CLI::ExistingFile);
   cmd->add_option("--top", opts->report.top, "Rows of the name tables (default 10)")
       ->check(CLI::Range(1, 1000));
   cmd->add_option("--title", opts->report.title, "Page title (default: the book's label)");

@@ -14,6 +14,7 @@ namespace firmcall {
 
 namespace {
 
+constexpr std::size_t kRocChartPoints = 400;  // points of the ROC chart at most (about)
 constexpr const char* kChartCaution =
     " Model estimates under the Merton assumptions; not a credit decision on their own.";
 
@@ -715,6 +716,61 @@ std::string portfolio_section(const ReportData& d) {
   return out + "</section>\n";
 }
 
+// The validation section: discrimination cards, the ROC curve, calibration per grade.
+std::string validation_section(const ReportData& d) {
+  const ValidationRun& v = *d.validation;
+  const Discrimination& dis = v.discrimination;
+  const CalibrationTests& cal = v.calibration;
+  std::string out = section_open(
+      "validation", "Validation against observed defaults",
+      "PD column '" + v.pd_column + "' of " + v.origin + ": " + count(dis.observations) + " observations, " +
+          count(dis.defaults) + " defaults (default rate " + report_pd(cal.overall.default_rate) +
+          ", mean PD " + report_pd(cal.overall.mean_pd) + "). Formulas and sources in docs/validation.md.");
+  out += "<div class=\"fc-cards\">\n";
+  out += card("AUC", fixed(dis.auc, 4),
+              "95% interval " + fixed(dis.auc_lower, 4) + " to " + fixed(dis.auc_upper, 4) + " (DeLong)");
+  out += card("accuracy ratio", fixed(dis.accuracy_ratio, 4), "2 AUC - 1");
+  out += card("Kolmogorov-Smirnov", fixed(dis.ks, 4), "largest gap of the PD distributions");
+  out +=
+      card("Hosmer-Lemeshow p", fixed(cal.hosmer_lemeshow_p, 4),
+           "chi-square " + fixed(cal.hosmer_lemeshow, 3) + " with " + count(cal.hosmer_lemeshow_df) + " df");
+  out += card("binomial p, all", fixed(cal.overall.binomial_p, 4),
+              std::string("traffic light ") + std::string(to_string(cal.overall.light)));
+  out += card("Brier score", fixed(cal.brier, 5), "mean of (PD - outcome) squared");
+  out += "</div>\n";
+  SvgPlot plot({.label = "false alarm rate (share of non-defaulters called)", .min = 0, .max = 1},
+               {.label = "hit rate (share of defaulters called)", .min = 0, .max = 1}, "ROC curve", 560.0,
+               420.0);
+  std::vector<double> x, y;
+  for (const CurvePoint& c : d.roc) {
+    x.push_back(c.false_positive_rate);
+    y.push_back(c.hit_rate);
+  }
+  plot.line({0.0, 1.0}, {0.0, 1.0}, "fc-ref", "random ranking", false);
+  plot.line(x, y, "fc-s1", "PD " + v.pd_column, false);
+  plot.legend("fc-s1", "PD column " + v.pd_column + ", AUC " + fixed(dis.auc, 4));
+  plot.legend("fc-ref", "random ranking, AUC 0.5");
+  out +=
+      figure(plot.str(),
+             "Each point calls every obligor with a PD at or above a threshold a defaulter; the curve runs "
+             "from the highest threshold (bottom left) to the lowest (top right). ");
+  HtmlTable t("fc-table fc-validation-grades", {"grade", "obligors", "defaults", "mean PD", "default rate",
+                                                "binomial p", "Jeffreys p", "light"});
+  for (std::size_t i = 0; i < cal.grades.size(); ++i) {
+    const GroupCalibration& g = cal.grades[i];
+    if (g.observations == 0) continue;
+    t.row({v.grade_labels[i], count(g.observations), count(g.defaults), report_pd(g.mean_pd),
+           report_pd(g.default_rate), fixed(g.binomial_p, 4), fixed(g.jeffreys_p, 4),
+           std::string(to_string(g.light))},
+          true);
+  }
+  out += t.str();
+  out +=
+      "<p class=\"fc-note\">Traffic light on the one-sided binomial p-value: green p &gt; 5%, yellow 0.01% "
+      "&lt; p &#8804; 5%, red p &#8804; 0.01%.</p>\n";
+  return out + "</section>\n";
+}
+
 std::string grade_move(const GradeScale& scale, const Mover& m) {
   const std::string a = m.grade_before >= 0 ? std::string(scale.label_at(m.grade_before)) : "-";
   const std::string b = m.grade_now >= 0 ? std::string(scale.label_at(m.grade_now)) : "-";
@@ -912,8 +968,8 @@ std::string report_amount(double v, int decimals) {
 }
 
 const std::vector<std::string>& report_section_ids() {
-  static const std::vector<std::string> ids = {"summary", "dd-leverage", "names",     "stress",
-                                               "term",    "portfolio",   "monitoring"};
+  static const std::vector<std::string> ids = {"summary", "dd-leverage", "names",      "stress",
+                                               "term",    "portfolio",   "monitoring", "validation"};
   return ids;
 }
 
@@ -1007,6 +1063,14 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     mon->comparison = compare_runs(mon->before, mon->now, config.grades, config.monitor.alerts);
     d.monitoring = std::move(mon);
   }
+  if (!options.validation_path.empty()) {
+    const OutcomeSample sample = load_outcomes(options.validation_path, {}, config.grades);
+    d.validation = std::make_unique<ValidationRun>(run_validation(sample, nullptr));
+    const std::vector<CurvePoint> curve = discrimination(sample.pd, sample.defaulted, true).curve;
+    const std::size_t step = std::max<std::size_t>(1, curve.size() / kRocChartPoints);
+    for (std::size_t k = 0; k < curve.size(); k += step) d.roc.push_back(curve[k]);
+    if (!curve.empty() && (curve.size() - 1) % step != 0) d.roc.push_back(curve.back());
+  }
   return d;
 }
 
@@ -1038,7 +1102,8 @@ std::string html_report(const ReportData& d) {
       {"term", "Term structures", "PD term structures (give --names ID,ID)", !d.terms.empty()},
       {"portfolio", "Portfolio loss", "portfolio loss distribution (give --portfolio)",
        d.portfolio != nullptr},
-      {"monitoring", "Movers and alerts", "movers and alerts (give --db STORE)", d.monitoring != nullptr}};
+      {"monitoring", "Movers and alerts", "movers and alerts (give --db STORE)", d.monitoring != nullptr},
+      {"validation", "Validation", "", d.validation != nullptr}};
   out += "<nav class=\"fc-toc\">";
   std::string missing;
   for (const Part& p : parts) {
@@ -1057,6 +1122,7 @@ std::string html_report(const ReportData& d) {
   if (!d.terms.empty()) out += term_section(d);
   if (d.portfolio && !d.portfolio->scenarios.empty()) out += portfolio_section(d);
   if (d.monitoring) out += monitoring_section(d);
+  if (d.validation) out += validation_section(d);
   out +=
       "</main>\n<footer>\n<p>Made by firmcall " + h(d.options.tool_version) + " from " + h(d.book.origin) +
       ". PD: Merton model, " + h(to_string(d.config.score.measure)) +

@@ -184,6 +184,8 @@ def main():
             ("attribute", ["attribute", "--db", db, "-f", "csv", "-o", "attribute.csv"], "attribute.csv"),
             ("track", ["track", "ZEP-26", "--db", db, "-f", "csv", "-o", "track.csv"], "track.csv"),
         ]
+        cases.append(("validate", ["validate", s("outcomes.csv"), "-f", "csv", "-o", "validate.csv"],
+                      "validate.csv"))
         for output, args, written in cases:
             if args is not None:
                 run(args)

@@ -26,6 +26,7 @@ def main():
         page = os.path.join(tmp, "report.html")
         subprocess.run([firmcall, "-q", "report", "samples/demo_book.yaml", "--scenarios",
                         "samples/stress_scenarios.yaml", "--names", "GOR-33,BEL-28,CIN-03,ALD-01", "--portfolio",
+                        "--validate", "samples/outcomes.csv",
                         "--db", db, "--html", page], cwd=source, check=True)
         with open(page, encoding="utf-8") as f:
             text = f.read()
@@ -39,8 +40,8 @@ def main():
         failures.append(f"page is not well-formed XML: {e}")
         root = None
     svgs = re.findall(r"<svg\b.*?</svg>", text, flags=re.S)
-    if len(svgs) != 9:
-        failures.append(f"expected 9 charts in the full sample run, found {len(svgs)}")
+    if len(svgs) != 10:  # nine, and the ROC curve of the validation section
+        failures.append(f"expected 10 charts in the full sample run, found {len(svgs)}")
     for i, svg in enumerate(svgs):
         try:
             chart = ET.fromstring(svg)
@@ -54,7 +55,7 @@ def main():
             failures.append(f"chart {i + 1} has no axis title")
     if root is not None:
         sections = [s.get("id") for s in root.iter("section")]
-        expected = ["summary", "dd-leverage", "names", "stress", "term", "portfolio", "monitoring"]
+        expected = ["summary", "dd-leverage", "names", "stress", "term", "portfolio", "monitoring", "validation"]
         if sections != expected:
             failures.append(f"sections {sections}, expected {expected}")
         if any(True for _ in root.iter("script")):

@@ -8,6 +8,8 @@
 //   term        cumulative PD term structures of chosen names (--names; engine/term_book.hpp)
 //   portfolio   exact one-factor loss distribution: EL, VaR, ES (--portfolio; engine/portfolio_book.hpp)
 //   monitoring  movers and alerts between two recorded runs (--db; monitor/movers.hpp)
+//   validation  AUC, ROC curve and calibration per grade on an outcomes file (--validate;
+//               engine/validate_book.hpp)
 // The figures come from the same library calls as the score, stress, portfolio and movers commands,
 // and the tables use the table output's rounding, so they can be checked against their CSV output.
 // The page is XHTML-compatible (every element closed, attributes quoted, text escaped) and prints
@@ -31,6 +33,7 @@
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/engine/stress_book.hpp"
 #include "firmcall/engine/term_book.hpp"
+#include "firmcall/engine/validate_book.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/scenario.hpp"
 #include "firmcall/monitor/movers.hpp"
@@ -50,6 +53,7 @@ struct ReportOptions {
   std::string store_path;                     ///< history store; empty: no monitoring section
   std::string store_run;                      ///< run of the store to show ("" the latest)
   std::string against;                        ///< run to compare with ("" the one before)
+  std::string validation_path;                ///< outcomes file; empty: no validation section
   std::size_t top = 10;                       ///< rows of the name tables
   unsigned threads = 1;                       ///< worker threads of the portfolio run
   std::string title;                          ///< page title; empty: from the book's label
@@ -90,6 +94,8 @@ struct ReportData {
   std::vector<TermScoredObligor> terms;  ///< one per chosen name
   std::unique_ptr<PortfolioResult> portfolio;
   std::unique_ptr<ReportMonitoring> monitoring;
+  std::unique_ptr<ValidationRun> validation;
+  std::vector<CurvePoint> roc;  ///< the ROC curve of the validation, thinned for the chart
 };
 
 /// Reads the inputs and computes every section asked for. InputError (exit code 2) naming the file,

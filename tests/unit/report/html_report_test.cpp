@@ -92,7 +92,7 @@ const FullRun& full_run() {
     const auto r = run_firmcall(
         "report samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --names "
         "GOR-33,BEL-28,CIN-03,ALD-01 "
-        "--portfolio --db '" +
+        "--portfolio --validate samples/outcomes.csv --db '" +
         f.dir.file("weekly.sqlite") + "' --html '" + f.dir.file("report.html") + "'");
     f.exit_code = r.exit_code;
     f.err = r.err;
@@ -135,8 +135,8 @@ TEST_CASE("report on the full sample run: exit code, every section, nothing fetc
     CHECK(fig.find("fc-axis-title") != std::string::npos);
     CHECK(fig.find("not a credit decision on their own") != std::string::npos);
   }
-  // grades, DD/leverage, PD by scenario, 3 per-scenario changes, term, loss distribution, movers.
-  CHECK(charts == 9);
+  // grades, DD/leverage, PD by scenario, 3 per-scenario changes, term, loss distribution, movers, ROC.
+  CHECK(charts == 10);
   CHECK(f.html.find("Model caution.") != std::string::npos);
   // The store holds the weekly books, not the demo book: the movers section says so.
   CHECK(f.html.find("The store's runs are of samples/weekly/week4.yaml (Harbourline credit desk - weekly "

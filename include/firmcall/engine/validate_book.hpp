@@ -1,0 +1,52 @@
+// Validation runs: the statistics of estimate/validation.hpp on an outcomes sample (io/outcomes_io.hpp),
+// optionally compared with a second PD column on the same rows and with an earlier sample
+// (population stability and grade migration, matched on id), and their writers: a table for people,
+// CSV (long format) and JSON for programs. Every output names the PD column that drives it.
+//
+// **Example**:
+//   firmcall::OutcomeSample s = firmcall::load_outcomes("samples/outcomes.csv", {},
+//   firmcall::default_grade_scale()); firmcall::ValidationRun run = firmcall::run_validation(s, nullptr);
+//   std::string out;
+//   firmcall::write_validation(run, firmcall::OutputFormat::json, [&](std::string_view t) { out += t; });
+#pragma once
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "firmcall/estimate/validation.hpp"
+#include "firmcall/format/cells.hpp"
+#include "firmcall/io/outcomes_io.hpp"
+
+namespace firmcall {
+
+/// Population stability and grade migration against an earlier sample.
+struct StabilityResult {
+  std::string origin;                 ///< the earlier sample's file
+  std::vector<std::size_t> actual;    ///< obligors per grade in this sample
+  std::vector<std::size_t> expected;  ///< obligors per grade in the earlier sample
+  double psi = 0.0;
+  std::size_t matched = 0;             ///< ids in both samples
+  std::vector<std::size_t> migration;  ///< [from (earlier) * grades + to (this)]
+};
+
+struct ValidationRun {
+  std::string origin;
+  std::string pd_column;
+  std::string compare_column;
+  std::vector<std::string> grade_labels;  ///< every grade index's label
+  Discrimination discrimination;
+  CalibrationTests calibration;
+  std::optional<Discrimination> compare_discrimination;
+  std::optional<AucComparison> comparison;
+  std::optional<StabilityResult> stability;
+};
+
+/// Runs every statistic on `sample` (and against `earlier` when not null; both read with
+/// keep_ids). Throws InputError when a statistic cannot be computed (the message says why).
+ValidationRun run_validation(const OutcomeSample& sample, const OutcomeSample* earlier);
+
+/// Writes the run as a table, CSV (pd_column,grade,statistic,value) or JSON.
+void write_validation(const ValidationRun& run, OutputFormat format, const TextSink& sink);
+
+}  // namespace firmcall

@@ -1,0 +1,402 @@
+// Validation statistics of PDs against observed defaults (validation.hpp; formulas and sources in
+// docs/validation.md).
+#include "firmcall/estimate/validation.hpp"
+
+#include <algorithm>
+#include <boost/math/distributions/binomial.hpp>
+#include <boost/math/distributions/chi_squared.hpp>
+#include <boost/math/special_functions/beta.hpp>
+#include <cmath>
+#include <limits>
+#include <new>
+
+#include "firmcall/model/math_policy.hpp"
+#include "firmcall/model/normal.hpp"
+
+namespace firmcall {
+
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+constexpr double kZ975 = 1.959963984540054;  // N^-1(0.975)
+
+bool valid_pd(double p) noexcept {
+  return p >= 0.0 && p <= 1.0;  // false for NaN
+}
+
+// The PDs of defaulters and of non-defaulters, each sorted ascending.
+struct SortedClasses {
+  std::vector<double> defaulters;
+  std::vector<double> others;
+};
+
+ValidationStatus split_sorted(std::span<const double> pd, std::span<const std::uint8_t> defaulted,
+                              SortedClasses& out) {
+  if (pd.size() != defaulted.size()) return ValidationStatus::invalid_input;
+  std::size_t m = 0;
+  for (std::size_t k = 0; k < pd.size(); ++k) {
+    if (!valid_pd(pd[k]) || defaulted[k] > 1) return ValidationStatus::invalid_input;
+    m += defaulted[k];
+  }
+  out.defaulters.reserve(m);
+  out.others.reserve(pd.size() - m);
+  for (std::size_t k = 0; k < pd.size(); ++k) (defaulted[k] ? out.defaulters : out.others).push_back(pd[k]);
+  std::sort(out.defaulters.begin(), out.defaulters.end());
+  std::sort(out.others.begin(), out.others.end());
+  return out.defaulters.empty() || out.others.empty() ? ValidationStatus::one_class : ValidationStatus::ok;
+}
+
+// One distinct PD of the merged sorted classes: how many of each class hold it and how many lie
+// below it.
+struct TieGroup {
+  double pd;
+  std::size_t defaulters;        // dx
+  std::size_t others;            // dy
+  std::size_t defaulters_below;  // defaulters with a lower PD
+  std::size_t others_below;      // non-defaulters with a lower PD
+};
+
+// Calls f(TieGroup) for each distinct PD, ascending.
+template <class F>
+void for_each_tie_group(const SortedClasses& c, F&& f) {
+  const std::vector<double>& d = c.defaulters;
+  const std::vector<double>& o = c.others;
+  std::size_t i = 0;
+  std::size_t j = 0;
+  while (i < d.size() || j < o.size()) {
+    const double v = j >= o.size() || (i < d.size() && d[i] < o[j]) ? d[i] : o[j];
+    std::size_t i2 = i;
+    std::size_t j2 = j;
+    while (i2 < d.size() && d[i2] == v) ++i2;
+    while (j2 < o.size() && o[j2] == v) ++j2;
+    f(TieGroup{v, i2 - i, j2 - j, i, j});
+    i = i2;
+    j = j2;
+  }
+}
+
+}  // namespace
+
+std::string_view to_string(ValidationStatus s) noexcept {
+  switch (s) {
+    case ValidationStatus::ok:
+      return "ok";
+    case ValidationStatus::one_class:
+      return "one_class";
+    case ValidationStatus::invalid_input:
+      return "invalid_input";
+    case ValidationStatus::no_memory:
+      return "no_memory";
+  }
+  return "invalid_input";
+}
+
+std::string_view to_string(TrafficLight t) noexcept {
+  switch (t) {
+    case TrafficLight::green:
+      return "green";
+    case TrafficLight::yellow:
+      return "yellow";
+    case TrafficLight::red:
+      return "red";
+  }
+  return "red";
+}
+
+TrafficLight traffic_light(double binomial_p) noexcept {
+  if (binomial_p > kYellowPValue) return TrafficLight::green;
+  if (binomial_p > kRedPValue) return TrafficLight::yellow;
+  return TrafficLight::red;
+}
+
+Discrimination discrimination(std::span<const double> pd, std::span<const std::uint8_t> defaulted,
+                              bool curve) noexcept {
+  Discrimination r;
+  r.observations = pd.size();
+  try {
+    SortedClasses c;
+    r.status = split_sorted(pd, defaulted, c);
+    r.defaults = c.defaulters.size();
+    if (r.status != ValidationStatus::ok) return r;
+    const std::size_t m = c.defaulters.size();
+    const std::size_t n = c.others.size();
+    const double md = static_cast<double>(m);
+    const double nd = static_cast<double>(n);
+    // Mann-Whitney count in halves, exact in integers: sum over groups of dx (2 below + dy).
+    std::uint64_t halves = 0;
+    double ks = 0.0;
+    double ks_pd = 0.0;
+    for_each_tie_group(c, [&](const TieGroup& g) {
+      halves += static_cast<std::uint64_t>(g.defaulters) * (2 * g.others_below + g.others);
+      const double fd = static_cast<double>(g.defaulters_below + g.defaulters) / md;
+      const double fo = static_cast<double>(g.others_below + g.others) / nd;
+      if (std::fabs(fd - fo) > ks) {
+        ks = std::fabs(fd - fo);
+        ks_pd = g.pd;
+      }
+    });
+    r.auc = static_cast<double>(halves) / (2.0 * md * nd);
+    // DeLong structural components: V10 of a defaulter (share of non-defaulters below it, ties
+    // half) and V01 of a non-defaulter (share of defaulters above it, ties half).
+    double s10 = 0.0;
+    double s01 = 0.0;
+    for_each_tie_group(c, [&](const TieGroup& g) {
+      const double v10 = (static_cast<double>(g.others_below) + 0.5 * static_cast<double>(g.others)) / nd;
+      const double v01 =
+          (md - static_cast<double>(g.defaulters_below) - 0.5 * static_cast<double>(g.defaulters)) / md;
+      s10 += static_cast<double>(g.defaulters) * (v10 - r.auc) * (v10 - r.auc);
+      s01 += static_cast<double>(g.others) * (v01 - r.auc) * (v01 - r.auc);
+    });
+    s10 /= m > 1 ? md - 1.0 : 1.0;
+    s01 /= n > 1 ? nd - 1.0 : 1.0;
+    r.auc_se = std::sqrt(s10 / md + s01 / nd);
+    r.auc_lower = std::max(0.0, r.auc - kZ975 * r.auc_se);
+    r.auc_upper = std::min(1.0, r.auc + kZ975 * r.auc_se);
+    r.accuracy_ratio = 2.0 * r.auc - 1.0;
+    r.ks = ks;
+    r.ks_threshold_pd = ks_pd;
+    if (curve) {
+      const double all = md + nd;
+      for_each_tie_group(c, [&](const TieGroup& g) {
+        r.curve.push_back(CurvePoint{g.pd, (nd - static_cast<double>(g.others_below)) / nd,
+                                     (md - static_cast<double>(g.defaulters_below)) / md,
+                                     (all - static_cast<double>(g.defaulters_below + g.others_below)) / all});
+      });
+      r.curve.push_back(CurvePoint{std::numeric_limits<double>::infinity(), 0.0, 0.0, 0.0});
+      std::reverse(r.curve.begin(), r.curve.end());
+    }
+  } catch (const std::bad_alloc&) {
+    r = Discrimination{};
+    r.status = ValidationStatus::no_memory;
+  }
+  return r;
+}
+
+namespace {
+
+// The DeLong component of each obligor under one PD column: V10 for a defaulter, V01 otherwise.
+// Each class is sorted with the obligors' positions, and the merged tie groups are walked once
+// (sequential memory access; a binary search per obligor cost several times more on large files).
+void components(std::span<const double> pd, std::span<const std::uint8_t> defaulted, std::vector<double>& v) {
+  using Entry = std::pair<double, std::size_t>;
+  std::vector<Entry> d;
+  std::vector<Entry> o;
+  for (std::size_t k = 0; k < pd.size(); ++k) (defaulted[k] ? d : o).emplace_back(pd[k], k);
+  std::sort(d.begin(), d.end());
+  std::sort(o.begin(), o.end());
+  const double md = static_cast<double>(d.size());
+  const double nd = static_cast<double>(o.size());
+  v.resize(pd.size());
+  std::size_t i = 0;
+  std::size_t j = 0;
+  while (i < d.size() || j < o.size()) {
+    const double x = j >= o.size() || (i < d.size() && d[i].first < o[j].first) ? d[i].first : o[j].first;
+    std::size_t i2 = i;
+    std::size_t j2 = j;
+    while (i2 < d.size() && d[i2].first == x) ++i2;
+    while (j2 < o.size() && o[j2].first == x) ++j2;
+    const double v10 = (static_cast<double>(j) + 0.5 * static_cast<double>(j2 - j)) / nd;
+    const double v01 = (md - static_cast<double>(i) - 0.5 * static_cast<double>(i2 - i)) / md;
+    for (std::size_t k = i; k < i2; ++k) v[d[k].second] = v10;
+    for (std::size_t k = j; k < j2; ++k) v[o[k].second] = v01;
+    i = i2;
+    j = j2;
+  }
+}
+
+}  // namespace
+
+AucComparison compare_auc(std::span<const double> first_pd, std::span<const double> second_pd,
+                          std::span<const std::uint8_t> defaulted) noexcept {
+  AucComparison r;
+  if (first_pd.size() != second_pd.size() || first_pd.size() != defaulted.size()) return r;
+  try {
+    std::size_t m = 0;
+    for (std::size_t k = 0; k < defaulted.size(); ++k) {
+      if (!valid_pd(first_pd[k]) || !valid_pd(second_pd[k]) || defaulted[k] > 1) return r;
+      m += defaulted[k];
+    }
+    if (m == 0 || m == defaulted.size()) {
+      r.status = ValidationStatus::one_class;
+      return r;
+    }
+    std::vector<double> va;
+    std::vector<double> vb;
+    components(first_pd, defaulted, va);
+    components(second_pd, defaulted, vb);
+    const double md = static_cast<double>(m);
+    const double nd = static_cast<double>(defaulted.size() - m);
+    double mean[2][2] = {{0.0, 0.0}, {0.0, 0.0}};  // [class: 1 defaulters, 0 others][column]
+    for (std::size_t k = 0; k < va.size(); ++k) {
+      mean[defaulted[k]][0] += va[k];
+      mean[defaulted[k]][1] += vb[k];
+    }
+    const double count[2] = {nd, md};
+    for (int cls = 0; cls < 2; ++cls) {
+      mean[cls][0] /= count[cls];
+      mean[cls][1] /= count[cls];
+    }
+    // Variance of the difference of the components, per class: S_aa + S_bb - 2 S_ab.
+    double var_diff[2] = {0.0, 0.0};
+    for (std::size_t k = 0; k < va.size(); ++k) {
+      const int cls = defaulted[k];
+      const double e = (va[k] - mean[cls][0]) - (vb[k] - mean[cls][1]);
+      var_diff[cls] += e * e;
+    }
+    for (int cls = 0; cls < 2; ++cls) var_diff[cls] /= count[cls] > 1.0 ? count[cls] - 1.0 : 1.0;
+    r.auc_first = mean[1][0];
+    r.auc_second = mean[1][1];
+    r.difference = r.auc_first - r.auc_second;
+    r.difference_se = std::sqrt(var_diff[1] / md + var_diff[0] / nd);
+    r.z = r.difference_se > 0.0 ? r.difference / r.difference_se : 0.0;
+    r.p_value = std::erfc(std::fabs(r.z) * kInvSqrt2);  // 2 N(-|z|)
+    r.status = ValidationStatus::ok;
+  } catch (const std::bad_alloc&) {
+    r = AucComparison{};
+    r.status = ValidationStatus::no_memory;
+  }
+  return r;
+}
+
+GroupCalibration group_calibration(std::size_t observations, std::size_t defaults, double mean_pd) noexcept {
+  GroupCalibration g;
+  g.observations = observations;
+  g.defaults = defaults;
+  if (observations == 0 || defaults > observations || !valid_pd(mean_pd)) {
+    g.mean_pd = g.default_rate = g.binomial_p = g.jeffreys_p = kNaN;
+    g.light = TrafficLight::red;
+    return g;
+  }
+  const double n = static_cast<double>(observations);
+  const double d = static_cast<double>(defaults);
+  g.mean_pd = mean_pd;
+  g.default_rate = d / n;
+  if (defaults == 0) {
+    g.binomial_p = 1.0;
+  } else if (mean_pd == 0.0) {
+    g.binomial_p = 0.0;
+  } else if (mean_pd == 1.0) {
+    g.binomial_p = 1.0;
+  } else {
+    // P(X >= d) = P(X > d - 1), the complement (never 1 - cdf).
+    const boost::math::binomial_distribution<double, NoThrowPolicy> binom(n, mean_pd);
+    g.binomial_p = boost::math::cdf(boost::math::complement(binom, d - 1.0));
+  }
+  g.jeffreys_p = boost::math::ibeta(d + 0.5, n - d + 0.5, mean_pd, NoThrowPolicy());
+  g.light = traffic_light(g.binomial_p);
+  return g;
+}
+
+CalibrationTests calibration_tests(std::span<const double> pd, std::span<const std::uint8_t> defaulted,
+                                   std::span<const int> grade, int grade_count) noexcept {
+  CalibrationTests r;
+  if (pd.size() != defaulted.size() || pd.size() != grade.size() || grade_count < 0 || pd.empty()) return r;
+  try {
+    const std::size_t g_count = static_cast<std::size_t>(grade_count);
+    std::vector<std::size_t> n(g_count, 0);
+    std::vector<std::size_t> d(g_count, 0);
+    std::vector<double> pd_sum(g_count, 0.0);
+    std::size_t all_d = 0;
+    double all_pd = 0.0;
+    double brier = 0.0;
+    double sp_num = 0.0;
+    double sp_den = 0.0;
+    for (std::size_t k = 0; k < pd.size(); ++k) {
+      const double p = pd[k];
+      if (!valid_pd(p) || defaulted[k] > 1 || grade[k] < 0 || grade[k] >= grade_count) return r;
+      const std::size_t g = static_cast<std::size_t>(grade[k]);
+      const double y = defaulted[k];
+      ++n[g];
+      d[g] += defaulted[k];
+      pd_sum[g] += p;
+      all_d += defaulted[k];
+      all_pd += p;
+      brier += (p - y) * (p - y);
+      sp_num += (y - p) * (1.0 - 2.0 * p);
+      sp_den += (1.0 - 2.0 * p) * (1.0 - 2.0 * p) * p * (1.0 - p);
+    }
+    const double total = static_cast<double>(pd.size());
+    r.overall = group_calibration(pd.size(), all_d, std::min(1.0, all_pd / total));
+    r.brier = brier / total;
+    r.spiegelhalter_z = sp_den > 0.0 ? sp_num / std::sqrt(sp_den) : kNaN;
+    r.spiegelhalter_p = sp_den > 0.0 ? std::erfc(std::fabs(r.spiegelhalter_z) * kInvSqrt2) : kNaN;
+    r.grades.resize(g_count);
+    double hl = 0.0;
+    for (std::size_t g = 0; g < g_count; ++g) {
+      const double mean = n[g] > 0 ? std::min(1.0, pd_sum[g] / static_cast<double>(n[g])) : kNaN;
+      r.grades[g] = group_calibration(n[g], d[g], mean);
+      if (n[g] == 0) continue;
+      const double expected = static_cast<double>(n[g]) * mean;
+      const double variance = expected * (1.0 - mean);
+      const double gap = static_cast<double>(d[g]) - expected;
+      if (variance > 0.0) {
+        hl += gap * gap / variance;
+        ++r.hosmer_lemeshow_df;
+      } else if (gap != 0.0) {
+        hl = std::numeric_limits<double>::infinity();  // defaults where the PD says none can be
+      }
+    }
+    r.hosmer_lemeshow = hl;
+    if (std::isinf(hl)) {
+      r.hosmer_lemeshow_p = 0.0;
+    } else if (r.hosmer_lemeshow_df == 0) {
+      r.hosmer_lemeshow_p = kNaN;
+    } else {
+      const boost::math::chi_squared_distribution<double, NoThrowPolicy> chi2(
+          static_cast<double>(r.hosmer_lemeshow_df));
+      r.hosmer_lemeshow_p = boost::math::cdf(boost::math::complement(chi2, hl));
+    }
+    r.status = ValidationStatus::ok;
+  } catch (const std::bad_alloc&) {
+    r = CalibrationTests{};
+    r.status = ValidationStatus::no_memory;
+  }
+  return r;
+}
+
+double population_stability_index(std::span<const std::size_t> actual_counts,
+                                  std::span<const std::size_t> expected_counts) noexcept {
+  if (actual_counts.size() != expected_counts.size() || actual_counts.empty()) return kNaN;
+  double a_total = 0.0;
+  double e_total = 0.0;
+  bool empty_grade = false;
+  double grades = 0.0;  // grades with obligors in either sample; the others are left out
+  for (std::size_t g = 0; g < actual_counts.size(); ++g) {
+    if (actual_counts[g] == 0 && expected_counts[g] == 0) continue;
+    a_total += static_cast<double>(actual_counts[g]);
+    e_total += static_cast<double>(expected_counts[g]);
+    empty_grade = empty_grade || actual_counts[g] == 0 || expected_counts[g] == 0;
+    grades += 1.0;
+  }
+  if (a_total == 0.0 || e_total == 0.0) return kNaN;
+  const double add = empty_grade ? kPsiEmptyGradeCount : 0.0;
+  double psi = 0.0;
+  for (std::size_t g = 0; g < actual_counts.size(); ++g) {
+    if (actual_counts[g] == 0 && expected_counts[g] == 0) continue;
+    const double a = (static_cast<double>(actual_counts[g]) + add) / (a_total + add * grades);
+    const double e = (static_cast<double>(expected_counts[g]) + add) / (e_total + add * grades);
+    psi += (a - e) * std::log(a / e);
+  }
+  return psi;
+}
+
+std::vector<std::size_t> migration_counts(std::span<const int> from_grade, std::span<const int> to_grade,
+                                          int grade_count) noexcept {
+  std::vector<std::size_t> cells;
+  if (grade_count <= 0 || from_grade.size() != to_grade.size()) return cells;
+  try {
+    const std::size_t g = static_cast<std::size_t>(grade_count);
+    cells.assign(g * g, 0);
+    for (std::size_t k = 0; k < from_grade.size(); ++k) {
+      const int f = from_grade[k];
+      const int t = to_grade[k];
+      if (f < 0 || t < 0 || f >= grade_count || t >= grade_count) continue;
+      ++cells[static_cast<std::size_t>(f) * g + static_cast<std::size_t>(t)];
+    }
+  } catch (const std::bad_alloc&) {
+    cells.clear();
+  }
+  return cells;
+}
+
+}  // namespace firmcall
