@@ -25,7 +25,7 @@ namespace {
 // Says why the command failed, after what it wrote to standard output; returns `code`.
 int failed(const char* kind, const std::string& message, ExitCode code) {
   std::fflush(stdout);
-  std::cerr << "firmcall: " << kind << message << "\n";
+  std::cerr << "firmcall: " << kind << terminal_lines(message) << "\n";  // ids from files may hold controls
   return code;
 }
 }  // namespace

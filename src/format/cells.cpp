@@ -1,5 +1,6 @@
 #include "firmcall/format/cells.hpp"
 
+#include "firmcall/format/table_text.hpp"
 #include "firmcall/util/utf8.hpp"
 
 #include <algorithm>
@@ -193,7 +194,10 @@ std::string wrapped(const std::string& text, std::size_t indent, std::size_t wid
 
 void append_table_problems(std::string& out, const std::vector<std::string>& problems, std::size_t not_listed,
                            std::size_t wrap_width) {
-  for (const auto& p : problems) out += wrap_width > 0 ? detail::wrapped(p, 2, wrap_width) : "  " + p + "\n";
+  for (const auto& problem : problems) {
+    const std::string p = terminal_text(problem);  // ids and names from the file may hold controls
+    out += wrap_width > 0 ? detail::wrapped(p, 2, wrap_width) : "  " + p + "\n";
+  }
   if (not_listed > 0)
     out += "  ... and " + std::to_string(not_listed) + " more (see --format csv, column message)\n";
 }
@@ -245,16 +249,8 @@ void append_csv_text(std::string& out, std::string_view s) {
 
 void append_json_string(std::string& out, std::string_view s) {
   if (!valid_utf8(s)) {
-    // Keep the JSON well-formed: each byte outside ASCII becomes U+FFFD.
-    std::string clean;
-    for (char c : s) {
-      if (static_cast<unsigned char>(c) < 0x80) {
-        clean.push_back(c);
-      } else {
-        clean += "\xEF\xBF\xBD";
-      }
-    }
-    append_json_string(out, clean);
+    // Keep the JSON well-formed: each byte that does not start a UTF-8 sequence becomes U+FFFD.
+    append_json_string(out, valid_utf8_text(s));
     return;
   }
   out.push_back('"');
