@@ -37,6 +37,21 @@ TEST_CASE("a portfolio whose total EAD overflows is an error naming the total an
   }
 }
 
+TEST_CASE("a stress run whose total EAD overflows is an error before any row is written") {
+  TempDir t;
+  const std::string book =
+      t.write("huge.csv", kHeader +
+                              "HUGE-1,Huge One,Retail,NL,2450,0.31,820,1900,0.03,1e308,0.9\n"
+                              "HUGE-2,Huge Two,Retail,NL,2450,0.31,820,1900,0.03,1e308,0.9\n");
+  // Before: exit 0, EAD-weighted PD 0 (finite / inf) and the EAD total left empty.
+  const auto r = run_firmcall("stress '" + book + "' --equity-shocks -0.5 -f csv");
+  CHECK(r.exit_code == 2);
+  CHECK(r.out.empty());
+  CHECK(r.err.find("the total EAD of the 2 scored obligors with ead is too large for a double") !=
+        std::string::npos);
+  CHECK(r.err.find("'HUGE-1' (ead 1e+308), 'HUGE-2' (ead 1e+308)") != std::string::npos);
+}
+
 TEST_CASE("controls in an id are escaped on standard error and in the table") {
   TempDir t;
   // ESC [ 2 J clears the screen and ESC ] 0 ; sets the window title (ECMA-48 / xterm, from memory).
