@@ -73,6 +73,10 @@ void add_output_options(CLI::App* cmd, OutputOptions& o) {
          "Output format: table (for people), csv or json")
       ->check(CLI::IsMember({"table", "csv", "json"}));
   cmd->add_option("-o,--output", o.output, "Write here instead of standard output (all or nothing)");
+  cmd->add_flag_callback(
+      "--csv-text-guard", [] { set_csv_text_guard(true); },
+      "CSV: write a single quote before each text cell that a spreadsheet would run as a formula (begins "
+      "with = + - @, tab or CR); numbers are never altered (default: text kept exact, with a note)");
 }
 
 void add_scoring_options(CLI::App* cmd, ScoringOptions& o, const char* horizon_help, bool measure) {
@@ -193,6 +197,20 @@ void print_run_notes(const std::vector<std::string>& notes, const std::vector<st
   print_problems(problems, not_listed, out.format);
   if (out.wants_closing_line() && !closing.empty())
     std::cerr << "firmcall: " << terminal_lines(closing) << "\n";
+}
+
+void print_csv_formula_note() {
+  const CsvFormulaCells cells = take_csv_formula_cells();
+  if (cells.count == 0) return;
+  std::string first;
+  for (const std::string& c : cells.first) first += (first.empty() ? "'" : ", '") + terminal_text(c) + "'";
+  std::cerr << "firmcall: note: " << cells.count
+            << " text cell(s) of the CSV output begin with = + - @, tab or CR, which a spreadsheet may run "
+               "as a formula (first: "
+            << first << "); "
+            << (cells.guarded ? "written after a single quote (--csv-text-guard)"
+                              : "kept exact; --csv-text-guard writes them after a single quote")
+            << "\n";
 }
 
 std::string failure_counts(std::size_t invalid, std::size_t not_converged) {

@@ -41,7 +41,7 @@ CLI::Option* list_option(CLI::Option* opt);
 /// The largest horizon in years an option accepts (as the book's horizon_years).
 inline constexpr double kMaxHorizonYears = 100.0;
 
-/// -f/--format and -o/--output.
+/// -f/--format, -o/--output and --csv-text-guard.
 struct OutputOptions {
   OutputFormat format = OutputFormat::table;  ///< -f, parsed from its word (table, csv or json)
   std::string output;                         ///< -o; empty: standard output
@@ -123,6 +123,9 @@ void print_problems(const std::vector<std::string>& problems, std::size_t not_li
 /// "firmcall: ".
 void print_run_notes(const std::vector<std::string>& notes, const std::vector<std::string>& problems,
                      std::size_t not_listed, const OutputOptions& out, const std::string& closing);
+
+/// The note on the formula-like CSV text cells written by the run (none when there were none).
+void print_csv_formula_note();
 
 /// " (N invalid input, M not converged)" when some rows failed, else "".
 std::string failure_counts(std::size_t invalid, std::size_t not_converged);

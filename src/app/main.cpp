@@ -66,7 +66,9 @@ int main(int argc, char** argv) {
     return code == 0 ? kExitOk : kExitInputError;
   }
   try {
-    return run ? run() : kExitInputError;
+    const int code = run ? run() : kExitInputError;
+    if (!global.quiet) cli::print_csv_formula_note();
+    return code;
   } catch (const StoreError& e) {
     return cli::failed("error: ", command_line_message(e), kExitInputError);
   } catch (const OptionError& e) {

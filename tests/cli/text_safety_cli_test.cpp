@@ -90,3 +90,27 @@ TEST_CASE("the HTML page stays UTF-8 with invalid bytes and bidirectional overri
   CHECK(html.find("\xE2\x81\xA6") == std::string::npos);
   CHECK(html.find("BAD\xEF\xBF\xBD") != std::string::npos);
 }
+
+TEST_CASE("formula-like CSV text cells: a note by default, a single quote with --csv-text-guard") {
+  TempDir t;
+  // OWASP "CSV Injection": cells beginning with = + - @, tab or CR may run as formulas.
+  const std::string book =
+      t.write("formula.csv", kHeader +
+                                 "=HYPERLINK(\"x\"),+cmd,R,NL,2450,0.31,820,1900,0.03,10,0.4\n"
+                                 "-5,-2+3,R,NL,2450,0.31,820,1900,-0.01,10,0.4\n");
+  const auto exact = run_firmcall("score '" + book + "' -f csv");
+  CHECK(exact.exit_code == 0);
+  CHECK(exact.out.find("\n\"=HYPERLINK(\"\"x\"\")\",+cmd,ok,") != std::string::npos);
+  CHECK(exact.out.find("\n-5,-2+3,ok,") != std::string::npos);
+  CHECK(exact.err.find("note: 3 text cell(s) of the CSV output begin with = + - @, tab or CR") !=
+        std::string::npos);
+  CHECK(exact.err.find("(first: '=HYPERLINK(\"x\")', '+cmd', '-2+3'); kept exact") != std::string::npos);
+  const auto guarded = run_firmcall("score '" + book + "' -f csv --csv-text-guard");
+  CHECK(guarded.exit_code == 0);
+  CHECK(guarded.out.find("\n\"'=HYPERLINK(\"\"x\"\")\",'+cmd,ok,") != std::string::npos);
+  // The id -5 reads as a number: left as it is; numbers (the rate -0.01 is not written) are never altered.
+  CHECK(guarded.out.find("\n-5,'-2+3,ok,2450,") != std::string::npos);
+  CHECK(guarded.err.find("written after a single quote (--csv-text-guard)") != std::string::npos);
+  // Tables and JSON are not spreadsheet input: no note.
+  CHECK(run_firmcall("score '" + book + "' -f json").err.find("formula") == std::string::npos);
+}
