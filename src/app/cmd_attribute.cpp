@@ -68,7 +68,8 @@ void add_attribute_command(CLI::App& app, const GlobalOptions& global, CommandAc
                                      "equity volatility, default point, "
                                      "rate and horizon");
   add_store_read_options(cmd, opts->store, true);
-  cmd->add_option("--obligor", opts->obligors, "Only this obligor id (repeat for more)");
+  cmd->add_option("--obligor", opts->obligors, "Only this obligor id (repeat for more)")
+      ->allow_extra_args(false);
   add_threads_option(cmd, opts->threads);
   cmd->footer(
       "\nThe shares are exact Shapley values: each driver's effect averaged over every order of moving the\n"

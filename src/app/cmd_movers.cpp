@@ -35,7 +35,8 @@ void add_movers_command(CLI::App& app, const GlobalOptions& global, CommandActio
       "movers",
       "Compare a recorded run with an earlier one: DD, PD and grade changes, new and dropped obligors");
   add_store_read_options(cmd, opts->store, true);
-  cmd->add_option("--top", opts->top, "Show at most N obligors, most severe first (default: all)");
+  cmd->add_option("--top", opts->top, "Show at most N obligors, most severe first (default: all)")
+      ->check(whole_number(0, 1000000000));
   cmd->footer(std::string("\n") + kCaution);
   set_action(cmd, run,
              [opts, &global] { return run_movers(global.config(), opts->store, opts->top, false); });

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <cstdio>
 #include <iostream>
+#include <limits>
 #include <memory>
 
 #include "commands.hpp"
@@ -86,23 +87,24 @@ void declare_portfolio_options(CLI::App* cmd, PortfolioCli& o) {
       "--asset-correlation", o.asset_correlation,
       "Asset correlation for every obligor: a decimal in [0, 1) or 'basel' (the IRB function of PD); "
       "overrides the book and the correlation file");
-  cmd->add_option(
-         "--levels", o.levels,
-         "Confidence levels, ascending, e.g. 0.99,0.995,0.999 (default: config portfolio.confidence_levels)")
-      ->delimiter(',');
+  list_option(cmd->add_option("--levels", o.levels,
+                              "Confidence levels, ascending, e.g. 0.99,0.995,0.999 (default: config "
+                              "portfolio.confidence_levels)"))
+      ->check(finite_number(0.0, 1.0, RangeEnd::open, RangeEnd::open, "0.999 means 99.9%"));
   cmd->add_option(
          "--monte-carlo", o.monte_carlo,
          "Also simulate this many scenarios of the multi-factor model (sector factors correlated as in "
          "--correlation), with standard errors")
-      ->check(CLI::Range(std::uint64_t{100}, kMaxScenarios));
-  cmd->add_option("--seed", o.seed, "Monte Carlo seed (default: config portfolio.seed)");
+      ->check(whole_number(100, kMaxScenarios));
+  cmd->add_option("--seed", o.seed, "Monte Carlo seed (default: config portfolio.seed)")
+      ->check(whole_number(0, std::numeric_limits<std::uint64_t>::max()));
   cmd->add_flag("--importance-sampling", o.importance_sampling,
                 "Monte Carlo: shift the factor mean towards the adverse outcome at the highest level "
                 "(Glasserman-Li), for deep tails");
   cmd->add_flag("--no-contributions", o.no_contributions, "Skip the ES contributions (faster)");
   cmd->add_option("--loss-grid", o.loss_grid,
                   "Points of the exact loss grid (default: config portfolio.loss_grid_points)")
-      ->check(CLI::Range(16, 1 << 20));
+      ->check(whole_number(16, 1 << 20));
   add_output_options(cmd, o.out);
   cmd->add_option("--summary-output", o.summary_output,
                   "Also write portfolio, sector and country measures as CSV (long format; all or nothing)");

@@ -60,9 +60,10 @@ void add_report_command(CLI::App& app, const GlobalOptions& global, CommandActio
   cmd->add_option("--html", opts->html, "Write the page here (all or nothing)")->required();
   cmd->add_option("-s,--scenarios", opts->report.scenarios_path,
                   "Stress scenario file (as for `firmcall stress`): adds the stress section");
-  cmd->add_option("--names", opts->report.term_ids,
-                  "Obligor ids whose PD term structure is drawn, e.g. GOR-33,ZEP-26: adds the term section")
-      ->delimiter(',');
+  list_option(
+      cmd->add_option("--names", opts->report.term_ids,
+                      "Obligor ids whose PD term structure is drawn, e.g. GOR-33,ZEP-26: adds the term "
+                      "section"));
   cmd->add_option("--horizons", opts->horizons,
                   "Horizons of the term structures in years (default 0.5,1,2,3,5,7,10); needs --names");
   cmd->add_flag("--portfolio", opts->report.portfolio,
@@ -78,7 +79,7 @@ void add_report_command(CLI::App& app, const GlobalOptions& global, CommandActio
                   "Outcomes file (as for `firmcall validate`): adds the validation section")
       ->check(CLI::ExistingFile);
   cmd->add_option("--top", opts->report.top, "Rows of the name tables (default 10)")
-      ->check(CLI::Range(1, 1000));
+      ->check(whole_number(1, 1000));
   cmd->add_option("--title", opts->report.title, "Page title (default: the book's label)");
   add_threads_option(cmd, opts->threads, "Worker threads of the portfolio run (default: all cores)");
   cmd->footer(

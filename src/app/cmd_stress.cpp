@@ -38,22 +38,23 @@ void declare_stress_options(CLI::App* cmd, StressCli& o) {
   auto* scen = cmd->add_option("-s,--scenarios", o.scenarios, "Scenario file (YAML; see README, Stress runs)")
                    ->check(CLI::ExistingFile);
   auto* eq_opt =
-      cmd->add_option("--equity-shocks", o.equity_shocks,
-                      "Quick grid: relative equity changes, e.g. 0,-0.1,-0.3 (-0.3 means a 30% fall)")
-          ->delimiter(',');
-  auto* vol_opt = cmd->add_option("--equity-vol-multipliers", o.vol_multipliers,
-                                  "Quick grid: equity-volatility multipliers, e.g. 1,1.25,1.5,2")
-                      ->delimiter(',');
+      list_option(
+          cmd->add_option("--equity-shocks", o.equity_shocks,
+                          "Quick grid: relative equity changes, e.g. 0,-0.1,-0.3 (-0.3 means a 30% fall)"))
+          ->check(finite_number(-1.0, 10.0, RangeEnd::open, RangeEnd::closed, "-0.3 means a 30% fall"));
+  auto* vol_opt = list_option(cmd->add_option("--equity-vol-multipliers", o.vol_multipliers,
+                                              "Quick grid: equity-volatility multipliers, e.g. 1,1.25,1.5,2"))
+                      ->check(finite_number(0.0, 100.0, RangeEnd::open, RangeEnd::closed, "1.5 means +50%"));
   auto* rev =
       cmd->add_option("--reverse-pd", o.reverse_pd,
                       "Reverse stress: per obligor, the equity fall and the equity-volatility multiplier "
                       "at which PD reaches this level (decimal, 0.05 means 5%)")
-          ->check(CLI::Range(0.0, 1.0));
+          ->check(finite_number(0.0, 1.0, RangeEnd::open, RangeEnd::open, "0.05 means 5%"));
   rev->excludes(scen)->excludes(eq_opt)->excludes(vol_opt);
   cmd->add_option(
          "--pd-threshold", o.pd_threshold,
          "Count obligors whose PD is above this level (decimal; default: config stress.pd_threshold)")
-      ->check(CLI::Range(0.0, 1.0));
+      ->check(finite_number(0.0, 1.0, RangeEnd::open, RangeEnd::open, "0.05 means 5%"));
   cmd->add_flag(
       "--sensitivities", o.sensitivities,
       "Add analytic sensitivities at the stressed inputs (DD, PD and spread per +1% equity value, +1 "

@@ -2,16 +2,65 @@
 #include "common_options.hpp"
 
 #include <algorithm>
+#include <cerrno>
+#include <charconv>
 #include <cmath>
 #include <cstdio>
+#include <cstdlib>
 #include <iostream>
 #include <thread>
 
 #include "firmcall/book/errors.hpp"
+#include "firmcall/format/table_text.hpp"
 #include "firmcall/io/output_file.hpp"
 #include "firmcall/monitor/run_store.hpp"
 
 namespace firmcall::cli {
+
+namespace {
+// lo..hi as the user reads it: "[-1, 1]", "(0, 100]".
+std::string range_text(double lo, double hi, RangeEnd lo_end, RangeEnd hi_end) {
+  return std::string(lo_end == RangeEnd::open ? "(" : "[") + general_number(lo) + ", " + general_number(hi) +
+         (hi_end == RangeEnd::open ? ")" : "]");
+}
+}  // namespace
+
+CLI::Validator finite_number(double lo, double hi, RangeEnd lo_end, RangeEnd hi_end, std::string unit_hint) {
+  const std::string range = range_text(lo, hi, lo_end, hi_end);
+  const std::string hint = unit_hint.empty() ? std::string() : " (" + unit_hint + ")";
+  return CLI::Validator(
+      [=](std::string& s) -> std::string {
+        const std::string expected = "expected a number in " + range + hint + ", got '" + s + "'";
+        // Plain decimals only: strtod would also take "nan", "inf" and hexadecimal floats.
+        if (s.empty() || s.find_first_not_of("0123456789+-.eE") != std::string::npos) return expected;
+        char* end = nullptr;
+        errno = 0;
+        const double v = std::strtod(s.c_str(), &end);
+        if (end != s.c_str() + s.size() || errno == ERANGE || !std::isfinite(v)) return expected;
+        const bool above_lo = lo_end == RangeEnd::open ? v > lo : v >= lo;
+        const bool below_hi = hi_end == RangeEnd::open ? v < hi : v <= hi;
+        return above_lo && below_hi ? std::string() : expected;
+      },
+      "NUMBER in " + range);
+}
+
+CLI::Validator whole_number(std::uint64_t lo, std::uint64_t hi) {
+  const std::string range = "[" + std::to_string(lo) + ", " + std::to_string(hi) + "]";
+  return CLI::Validator(
+      [=](std::string& s) -> std::string {
+        const std::string expected = "expected a whole number in " + range + ", got '" + s + "'";
+        if (s.empty() || s.find_first_not_of("0123456789") != std::string::npos) return expected;
+        std::uint64_t v = 0;
+        const auto [ptr, ec] = std::from_chars(s.data(), s.data() + s.size(), v);
+        if (ec != std::errc() || ptr != s.data() + s.size() || v < lo || v > hi) return expected;
+        return {};
+      },
+      "INT in " + range);
+}
+
+CLI::Option* list_option(CLI::Option* opt) {
+  return opt->delimiter(',')->allow_extra_args(false);
+}
 
 void add_output_options(CLI::App* cmd, OutputOptions& o) {
   cmd->add_option_function<std::string>(
@@ -24,14 +73,20 @@ void add_output_options(CLI::App* cmd, OutputOptions& o) {
          "Output format: table (for people), csv or json")
       ->check(CLI::IsMember({"table", "csv", "json"}));
   cmd->add_option("-o,--output", o.output, "Write here instead of standard output (all or nothing)");
+  cmd->add_flag_callback(
+      "--csv-text-guard", [] { set_csv_text_guard(true); },
+      "CSV: write a single quote before each text cell that a spreadsheet would run as a formula (begins "
+      "with = + - @, tab or CR); numbers are never altered (default: text kept exact, with a note)");
 }
 
 void add_scoring_options(CLI::App* cmd, ScoringOptions& o, const char* horizon_help, bool measure) {
-  cmd->add_option("--rate", o.rate, "Risk-free rate for every obligor, continuously compounded decimal");
-  cmd->add_option("--horizon", o.horizon, horizon_help)->check(CLI::PositiveNumber);
+  cmd->add_option("--rate", o.rate, "Risk-free rate for every obligor, continuously compounded decimal")
+      ->check(finite_number(-1.0, 1.0, RangeEnd::closed, RangeEnd::closed, "0.03 means 3%"));
+  cmd->add_option("--horizon", o.horizon, horizon_help)
+      ->check(finite_number(0.0, kMaxHorizonYears, RangeEnd::open, RangeEnd::closed, "years"));
   cmd->add_option("--default-point-weight", o.weight,
                   "Weight of long-term debt in the default point (default 0.5, common practice)")
-      ->check(CLI::Range(0.0, 1.0));
+      ->check(finite_number(0.0, 1.0));
   if (!measure) return;
   cmd->add_option("--measure", o.measure, "physical (drift from the book, default the rate) or risk-neutral")
       ->check(CLI::IsMember({"physical", "risk-neutral"}));
@@ -53,7 +108,7 @@ ScoreSettings scoring_settings(ScoreSettings base, const ScoringOptions& o) {
 }
 
 void add_threads_option(CLI::App* cmd, unsigned& threads, const char* help) {
-  cmd->add_option("-j,--threads", threads, help)->check(CLI::Range(1, 1024));
+  cmd->add_option("-j,--threads", threads, help)->check(whole_number(1, 1024));
 }
 
 unsigned default_threads() {
@@ -100,9 +155,11 @@ void add_term_options(CLI::App* cmd, TermOptionText& c) {
                   "once (default: solve at each obligor's horizon, project the others) or per-horizon (solve "
                   "again at every horizon)");
   cmd->add_option("--barrier-ratio", c.barrier_ratio,
-                  "First-passage barrier as a multiple of the default point (default 1)");
+                  "First-passage barrier as a multiple of the default point (default 1)")
+      ->check(finite_number(0.0, 100.0, RangeEnd::open));
   cmd->add_option("--barrier-growth", c.barrier_growth,
-                  "Growth of the first-passage barrier, continuously compounded decimal a year (default 0)");
+                  "Growth of the first-passage barrier, continuously compounded decimal a year (default 0)")
+      ->check(finite_number(-1.0, 1.0));
 }
 
 void write_output(const std::string& path, std::string_view text, const std::string& option) {
@@ -111,8 +168,21 @@ void write_output(const std::string& path, std::string_view text, const std::str
   out.commit();
 }
 
+std::string terminal_lines(std::string_view text) {
+  std::string out;
+  std::size_t start = 0;
+  while (start <= text.size()) {
+    const std::size_t end = std::min(text.find('\n', start), text.size());
+    if (start > 0) out.push_back('\n');
+    out += terminal_text(text.substr(start, end - start));
+    start = end + 1;
+  }
+  return out;
+}
+
 void print_lines(const std::vector<std::string>& lines) {
-  for (const auto& l : lines) std::cerr << "firmcall: " << l << "\n";
+  // Ids and names quoted in the notes come from files: their controls are shown as escapes.
+  for (const auto& l : lines) std::cerr << "firmcall: " << terminal_text(l) << "\n";
 }
 
 void print_problems(const std::vector<std::string>& problems, std::size_t not_listed, OutputFormat format) {
@@ -125,7 +195,22 @@ void print_run_notes(const std::vector<std::string>& notes, const std::vector<st
                      std::size_t not_listed, const OutputOptions& out, const std::string& closing) {
   print_lines(notes);
   print_problems(problems, not_listed, out.format);
-  if (out.wants_closing_line() && !closing.empty()) std::cerr << "firmcall: " << closing << "\n";
+  if (out.wants_closing_line() && !closing.empty())
+    std::cerr << "firmcall: " << terminal_lines(closing) << "\n";
+}
+
+void print_csv_formula_note() {
+  const CsvFormulaCells cells = take_csv_formula_cells();
+  if (cells.count == 0) return;
+  std::string first;
+  for (const std::string& c : cells.first) first += (first.empty() ? "'" : ", '") + terminal_text(c) + "'";
+  std::cerr << "firmcall: note: " << cells.count
+            << " text cell(s) of the CSV output begin with = + - @, tab or CR, which a spreadsheet may run "
+               "as a formula (first: "
+            << first << "); "
+            << (cells.guarded ? "written after a single quote (--csv-text-guard)"
+                              : "kept exact; --csv-text-guard writes them after a single quote")
+            << "\n";
 }
 
 std::string failure_counts(std::size_t invalid, std::size_t not_converged) {

@@ -7,6 +7,7 @@
 #include <CLI/CLI.hpp>
 
 #include <cstddef>
+#include <cstdint>
 #include <optional>
 #include <string>
 #include <string_view>
@@ -20,7 +21,27 @@
 
 namespace firmcall::cli {
 
-/// -f/--format and -o/--output.
+/// The ends of a numeric option's range: closed (the end is allowed) or open (it is not).
+enum class RangeEnd { closed, open };
+
+/// A check for a numeric option: a finite decimal (never nan or inf) in the range lo..hi, each end
+/// closed or open; the message names the range and `unit_hint` (e.g. "0.03 means 3%"). For list
+/// options it checks each item.
+CLI::Validator finite_number(double lo, double hi, RangeEnd lo_end = RangeEnd::closed,
+                             RangeEnd hi_end = RangeEnd::closed, std::string unit_hint = {});
+
+/// A check for a whole-number option: digits only (no sign), within lo..hi; the message names the
+/// range (no wrap-around or clamping of values past the type).
+CLI::Validator whole_number(std::uint64_t lo, std::uint64_t hi);
+
+/// `opt` as a comma-separated list option: one argument per flag ("--levels 0.99,0.999"), so a
+/// positional argument after it is never taken into the list; the flag may be repeated.
+CLI::Option* list_option(CLI::Option* opt);
+
+/// The largest horizon in years an option accepts (as the book's horizon_years).
+inline constexpr double kMaxHorizonYears = 100.0;
+
+/// -f/--format, -o/--output and --csv-text-guard.
 struct OutputOptions {
   OutputFormat format = OutputFormat::table;  ///< -f, parsed from its word (table, csv or json)
   std::string output;                         ///< -o; empty: standard output
@@ -89,7 +110,10 @@ void add_term_options(CLI::App* cmd, TermOptionText& c);
 /// messages (io/output_file.hpp).
 void write_output(const std::string& path, std::string_view text, const std::string& option = "-o");
 
-/// Each line on standard error after "firmcall: ".
+/// `text` with each line as terminal_text shows it (line breaks kept).
+std::string terminal_lines(std::string_view text);
+
+/// Each line on standard error after "firmcall: ", as terminal_text shows it.
 void print_lines(const std::vector<std::string>& lines);
 
 /// The row problems on standard error, when the output is machine-readable (the table lists them).
@@ -100,6 +124,9 @@ void print_problems(const std::vector<std::string>& problems, std::size_t not_li
 /// "firmcall: ".
 void print_run_notes(const std::vector<std::string>& notes, const std::vector<std::string>& problems,
                      std::size_t not_listed, const OutputOptions& out, const std::string& closing);
+
+/// The note on the formula-like CSV text cells written by the run (none when there were none).
+void print_csv_formula_note();
 
 /// " (N invalid input, M not converged)" when some rows failed, else "".
 std::string failure_counts(std::size_t invalid, std::size_t not_converged);

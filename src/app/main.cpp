@@ -31,7 +31,7 @@ namespace {
 // Says why the command failed, after what it wrote to standard output; returns `code`.
 int failed(const char* kind, const std::string& message, ExitCode code) {
   std::fflush(stdout);
-  std::cerr << "firmcall: " << kind << message << "\n";
+  std::cerr << "firmcall: " << kind << terminal_lines(message) << "\n";  // ids from files may hold controls
   return code;
 }
 
@@ -104,7 +104,9 @@ int main(int argc, char** argv) {
   }
   firmcall::remove_partial_outputs_on_signal();
   try {
-    return run ? run() : kExitInputError;
+    const int code = run ? run() : kExitInputError;
+    if (!global.quiet) cli::print_csv_formula_note();
+    return code;
   } catch (const StoreError& e) {
     return cli::failed("error: ", command_line_message(e), kExitInputError);
   } catch (const OptionError& e) {

@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <map>
 #include <set>
 
@@ -227,6 +228,35 @@ void fill_groups(const Book& book, const std::vector<std::size_t>& included, std
   }
 }
 
+// InputError when the total EAD, or the total loss amount LGD x EAD, of the included obligors is too
+// large for a double (above about 1.8e308): every sum and risk measure of the run would be infinite.
+// Names the total and the largest exposures, which are the ones to check.
+void check_finite_totals(const Book& book, const PortfolioScenarioResult& res,
+                         const std::vector<std::size_t>& included) {
+  double ead = 0.0, loss = 0.0;
+  for (std::size_t i : included) {
+    ead += res.obligors[i].ead;
+    loss += res.obligors[i].lgd * res.obligors[i].ead;
+  }
+  if (std::isfinite(ead) && std::isfinite(loss)) return;
+  std::vector<std::size_t> largest = included;
+  std::sort(largest.begin(), largest.end(),
+            [&res](std::size_t a, std::size_t b) { return res.obligors[a].ead > res.obligors[b].ead; });
+  std::string names;
+  for (std::size_t k = 0; k < largest.size() && k < 5; ++k) {
+    char buf[40];
+    std::snprintf(buf, sizeof buf, "%.6g", res.obligors[largest[k]].ead);
+    names += (k > 0 ? ", '" : "'") + book.obligors[largest[k]].get(TextField::id) + "' (ead " + buf + ")";
+  }
+  if (largest.size() > 5) names += " and " + std::to_string(largest.size() - 5) + " more";
+  throw InputError(
+      book.origin + ": the total " + (std::isfinite(ead) ? "loss amount (LGD x EAD)" : "EAD") + " of the " +
+      std::to_string(included.size()) +
+      " obligors in the portfolio is too large for a double (above 1.8e308), so no total or risk "
+      "measure could be computed; largest exposures: " +
+      names + " (check the EAD unit)");
+}
+
 // Runs every model over the included obligors of `res` and fills its results.
 void compute(const Book& book, const CorrelationFile* corr, const Config& config,
              const PortfolioBookOptions& options, PortfolioScenarioResult& res,
@@ -245,6 +275,7 @@ void compute(const Book& book, const CorrelationFile* corr, const Config& config
     multi.push_back({o.pd, o.lgd * o.ead, o.asset_correlation, o.factor});
   }
   res.included = included.size();
+  check_finite_totals(book, res, included);
   const std::size_t m = included.size();
   // Results over the included obligors, spread back to book order.
   const auto spread = [&](const std::vector<double>& v) {

@@ -236,6 +236,36 @@ bool init_grid(const std::vector<Scenario>& scenarios, std::size_t n, OutputForm
   return true;
 }
 
+// InputError, before any row is written, when the total EAD or loss amount (LGD x EAD) of the
+// scored obligors with ead is too large for a double (above about 1.8e308): the scenario summaries'
+// totals would be infinite and the EAD-weighted PDs 0. Names the total and the largest exposures.
+void check_finite_totals(const Book& book, const std::vector<ScoredObligor>& base) {
+  double ead = 0.0, loss = 0.0;
+  std::vector<std::size_t> with_ead;
+  for (std::size_t i = 0; i < base.size(); ++i) {
+    const ResolvedObligor& r = base[i].resolved;
+    if (base[i].status != RowStatus::ok || !r.has_ead) continue;
+    with_ead.push_back(i);
+    ead += r.ead;
+    loss += r.lgd * r.ead;
+  }
+  if (std::isfinite(ead) && std::isfinite(loss)) return;
+  std::sort(with_ead.begin(), with_ead.end(),
+            [&base](std::size_t a, std::size_t b) { return base[a].resolved.ead > base[b].resolved.ead; });
+  std::string names;
+  for (std::size_t k = 0; k < with_ead.size() && k < 5; ++k) {
+    char buf[40];
+    std::snprintf(buf, sizeof buf, "%.6g", base[with_ead[k]].resolved.ead);
+    names += (k > 0 ? ", '" : "'") + book.obligors[with_ead[k]].get(TextField::id) + "' (ead " + buf + ")";
+  }
+  if (with_ead.size() > 5) names += " and " + std::to_string(with_ead.size() - 5) + " more";
+  throw InputError(book.origin + ": the total " + (std::isfinite(ead) ? "loss amount (LGD x EAD)" : "EAD") +
+                   " of the " + std::to_string(with_ead.size()) +
+                   " scored obligors with ead is too large for a double (above 1.8e308), so the scenario "
+                   "totals could not be computed; largest exposures: " +
+                   names + " (check the EAD unit)");
+}
+
 // What the stressed rows of one scenario leave for its summary, by obligor.
 struct ScenarioOutcome {
   std::vector<StressStatus> status;
@@ -317,6 +347,7 @@ StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenario
   const std::vector<ScoredObligor> base =
       score_base_into(book, settings, threads, run.max_listed_problems, sum);
 
+  check_finite_totals(book, base);
   detail::StressRunInfo info{book.origin, scenario_origin, settings, stress, run.sensitivities,
                              n,           scenarios.size()};
   const auto writer = detail::make_stress_writer(run.format, info);

@@ -1,15 +1,18 @@
 #include "firmcall/format/cells.hpp"
 
+#include "firmcall/format/table_text.hpp"
 #include "firmcall/util/utf8.hpp"
 
 #include <algorithm>
 #include <array>
+#include <atomic>
 #include <bit>
 #include <charconv>
 #include <cmath>
 #include <cstdint>
 #include <cstdio>
 #include <cstring>
+#include <mutex>
 
 namespace firmcall {
 
@@ -193,7 +196,10 @@ std::string wrapped(const std::string& text, std::size_t indent, std::size_t wid
 
 void append_table_problems(std::string& out, const std::vector<std::string>& problems, std::size_t not_listed,
                            std::size_t wrap_width) {
-  for (const auto& p : problems) out += wrap_width > 0 ? detail::wrapped(p, 2, wrap_width) : "  " + p + "\n";
+  for (const auto& problem : problems) {
+    const std::string p = terminal_text(problem);  // ids and names from the file may hold controls
+    out += wrap_width > 0 ? detail::wrapped(p, 2, wrap_width) : "  " + p + "\n";
+  }
   if (not_listed > 0)
     out += "  ... and " + std::to_string(not_listed) + " more (see --format csv, column message)\n";
 }
@@ -230,12 +236,59 @@ std::vector<std::string_view> split_names(std::string_view list) {
   return names;
 }
 
+namespace {
+std::atomic<bool> g_csv_guard{false};
+std::atomic<std::size_t> g_formula_cells{0};
+std::mutex g_formula_mutex;
+std::vector<std::string> g_formula_first;  // guarded by g_formula_mutex
+constexpr std::size_t kFormulaCellsNamed = 3;
+
+// Counts a formula-like cell; true when it is to be neutralised.
+bool note_formula_cell(std::string_view s) {
+  if (g_formula_cells.fetch_add(1, std::memory_order_relaxed) < kFormulaCellsNamed) {
+    const std::lock_guard<std::mutex> lock(g_formula_mutex);
+    if (g_formula_first.size() < kFormulaCellsNamed) g_formula_first.emplace_back(s.substr(0, 40));
+  }
+  return g_csv_guard.load(std::memory_order_relaxed);
+}
+}  // namespace
+
+bool csv_formula_like(std::string_view s) noexcept {
+  if (s.empty()) return false;
+  const char c = s.front();
+  if (c != '=' && c != '+' && c != '-' && c != '@' && c != '\t' && c != '\r') return false;
+  if (c == '+' || c == '-') {
+    // A signed number ("-0.25", "+3e-05") is data, not a formula.
+    double v = 0.0;
+    const char* first = s.data() + (c == '+' ? 1 : 0);
+    const auto [ptr, ec] = std::from_chars(first, s.data() + s.size(), v);
+    if (ec == std::errc() && ptr == s.data() + s.size() && first != ptr) return false;
+  }
+  return true;
+}
+
+void set_csv_text_guard(bool neutralise) noexcept {
+  g_csv_guard.store(neutralise, std::memory_order_relaxed);
+}
+
+CsvFormulaCells take_csv_formula_cells() {
+  CsvFormulaCells cells;
+  const std::lock_guard<std::mutex> lock(g_formula_mutex);
+  cells.count = g_formula_cells.exchange(0, std::memory_order_relaxed);
+  cells.first.swap(g_formula_first);
+  cells.guarded = g_csv_guard.load(std::memory_order_relaxed);
+  return cells;
+}
+
 void append_csv_text(std::string& out, std::string_view s) {
+  const bool guard = csv_formula_like(s) && note_formula_cell(s);
   if (s.find_first_of(",\"\r\n") == std::string_view::npos) {
+    if (guard) out.push_back('\'');
     out.append(s);
     return;
   }
   out.push_back('"');
+  if (guard) out.push_back('\'');
   for (char c : s) {
     if (c == '"') out.push_back('"');
     out.push_back(c);
@@ -245,16 +298,8 @@ void append_csv_text(std::string& out, std::string_view s) {
 
 void append_json_string(std::string& out, std::string_view s) {
   if (!valid_utf8(s)) {
-    // Keep the JSON well-formed: each byte outside ASCII becomes U+FFFD.
-    std::string clean;
-    for (char c : s) {
-      if (static_cast<unsigned char>(c) < 0x80) {
-        clean.push_back(c);
-      } else {
-        clean += "\xEF\xBF\xBD";
-      }
-    }
-    append_json_string(out, clean);
+    // Keep the JSON well-formed: each byte that does not start a UTF-8 sequence becomes U+FFFD.
+    append_json_string(out, valid_utf8_text(s));
     return;
   }
   out.push_back('"');

@@ -11,6 +11,8 @@
 #include <filesystem>
 #include <fstream>
 #include <limits>
+#include <string_view>
+#include <vector>
 
 #include "firmcall/monitor/store_error.hpp"
 #include "firmcall/util/timestamp.hpp"
@@ -156,6 +158,29 @@ class StoreStatement {
   }
 
   bool is_null(int c) const { return sqlite3_column_type(stmt_, c) == SQLITE_NULL; }
+  /// True when column `c` holds a number: a REAL or INTEGER value, finite.
+  bool is_number(int c) const {
+    const int type = sqlite3_column_type(stmt_, c);
+    return (type == SQLITE_FLOAT || type == SQLITE_INTEGER) && std::isfinite(sqlite3_column_double(stmt_, c));
+  }
+  /// Column `c`'s value as stored, for a message: "text 'abc'", "NULL", "a blob", "inf".
+  std::string described(int c) const {
+    switch (sqlite3_column_type(stmt_, c)) {
+      case SQLITE_NULL:
+        return "NULL";
+      case SQLITE_TEXT:
+        return "text '" + text(c) + "'";
+      case SQLITE_BLOB:
+        return "a blob";
+      default:
+        return sqlite3_column_double(stmt_, c) > 0 ? "inf" : "-inf";
+    }
+  }
+  std::string column_name(int c) const {
+    const char* n = sqlite3_column_name(stmt_, c);
+    return n ? n : "?";
+  }
+  const std::string& store_path() const { return store_.path; }
   double real(int c) const { return is_null(c) ? std::nan("") : sqlite3_column_double(stmt_, c); }
   std::int64_t integer(int c) const { return sqlite3_column_int64(stmt_, c); }
   std::string text(int c) const {
@@ -193,8 +218,27 @@ RunInfo read_run(const Stmt& s) {
   return r;
 }
 
-// Reads kObligorColumns starting at column `c`.
-StoredObligor read_obligor(const Stmt& s, int c) {
+// InputError naming the store, the run, the obligor and the column when a number column of the row
+// holds something else (text, a blob or an infinity written by another program; SQLite keeps what it
+// is given), or when a scored row lacks its distance to default or PD: never read as 0.
+void check_numbers(const Stmt& s, int c, std::int64_t run_id) {
+  const bool scored = row_status_from_string(s.text(c + 3)) == RowStatus::ok;
+  for (int k : {6, 7, 8, 9, 10, 11, 12, 13, 14, 15, 16, 17, 18, 19, 20, 21}) {
+    if (s.is_number(c + k)) continue;
+    const bool needed = scored && (k == 15 || k == 16);  // distance_to_default, pd
+    if (s.is_null(c + k) && !needed) continue;
+    std::string what = s.described(c + k);
+    if (what.size() > 80) what = what.substr(0, 77) + "...";
+    throw InputError(in_store(s.store_path(), "run " + std::to_string(run_id) + ", obligor '" +
+                                                  s.text(c + 1) + "', column " + s.column_name(c + k) +
+                                                  ": expected a number, got " + what +
+                                                  " (written by another program?)"));
+  }
+}
+
+// Reads kObligorColumns starting at column `c`, of run `run_id`.
+StoredObligor read_obligor(const Stmt& s, int c, std::int64_t run_id) {
+  check_numbers(s, c, run_id);
   StoredObligor o;
   o.seq = s.integer(c);
   o.id = s.text(c + 1);
@@ -227,6 +271,74 @@ StoredObligor read_obligor(const Stmt& s, int c) {
   return o;
 }
 
+// The column names of `table` in `db` (none when there is no such table).
+std::vector<std::string> table_columns(sqlite3* db, const char* table) {
+  std::vector<std::string> names;
+  sqlite3_stmt* st = nullptr;
+  if (sqlite3_prepare_v2(db, "SELECT name FROM pragma_table_info(?1)", -1, &st, nullptr) == SQLITE_OK &&
+      sqlite3_bind_text(st, 1, table, -1, SQLITE_STATIC) == SQLITE_OK) {
+    while (sqlite3_step(st) == SQLITE_ROW) {
+      const auto* t = sqlite3_column_text(st, 0);
+      names.emplace_back(t ? reinterpret_cast<const char*>(t) : "");
+    }
+  }
+  sqlite3_finalize(st);
+  return names;
+}
+
+// The comma-separated names of `list` that `have` lacks, joined by ", ".
+std::string missing_names(std::string_view list, const std::vector<std::string>& have) {
+  std::string missing;
+  while (!list.empty()) {
+    const std::size_t comma = list.find(',');
+    std::string_view name = list.substr(0, comma);
+    while (!name.empty() && name.front() == ' ') name.remove_prefix(1);
+    list = comma == std::string_view::npos ? std::string_view() : list.substr(comma + 1);
+    if (name == "grade") continue;  // added by schema version 2, which opening adds
+    if (std::find(have.begin(), have.end(), name) == have.end()) {
+      missing += (missing.empty() ? "" : ", ") + std::string(name);
+    }
+  }
+  return missing;
+}
+
+// Why a database without firmcall's application_id cannot be opened as a store; empty when it can:
+// it is empty, or it holds firmcall's tables with their columns (a store from before the mark, or a
+// copy that lost it).
+std::string unmarked_store_problem(sqlite3* db) {
+  sqlite3_stmt* st = nullptr;
+  int tables = -1;
+  if (sqlite3_prepare_v2(db, "SELECT count(*) FROM sqlite_master", -1, &st, nullptr) == SQLITE_OK &&
+      sqlite3_step(st) == SQLITE_ROW) {
+    tables = sqlite3_column_int(st, 0);
+  }
+  sqlite3_finalize(st);
+  if (tables < 0) return "cannot be read as an SQLite database (left untouched)";
+  if (tables == 0) return {};
+  const std::vector<std::string> schema = table_columns(db, "firmcall_schema");
+  const std::vector<std::string> runs = table_columns(db, "runs");
+  const std::vector<std::string> obligors = table_columns(db, "run_obligors");
+  if (schema.empty() && runs.empty() && obligors.empty()) {
+    return "an SQLite database of another application (it has no firmcall tables), not a firmcall "
+           "history store (left untouched)";
+  }
+  std::string lacks;
+  const auto need = [&lacks](const char* table, const std::vector<std::string>& have, std::string_view cols) {
+    if (have.empty()) {
+      lacks += (lacks.empty() ? "" : "; ") + std::string("table ") + table;
+      return;
+    }
+    const std::string missing = missing_names(cols, have);
+    if (!missing.empty()) lacks += (lacks.empty() ? "" : "; ") + std::string(table) + " columns " + missing;
+  };
+  need("firmcall_schema", schema, "version, applied_at, note");
+  need("runs", runs, kRunColumns);
+  need("run_obligors", obligors, kObligorColumns);
+  if (lacks.empty()) return {};
+  return "has some of firmcall's tables but not all of the schema (missing " + lacks +
+         "), so it is not a firmcall history store (left untouched)";
+}
+
 // Refuses, before SQLite writes anything, a file that is not an empty file, an empty SQLite
 // database, or a firmcall store.
 void check_foreign(const std::string& path) {
@@ -250,24 +362,17 @@ void check_foreign(const std::string& path) {
         in_store(path, std::string("an SQLite database of another application (application_id ") + buf +
                            "), not a firmcall history store (left untouched)"));
   }
-  // application_id 0: only an empty database may become a store.
+  // application_id 0: an empty database may become a store, and a store whose mark was lost (an
+  // older or copied store) is one when its tables and columns are firmcall's.
   sqlite3* db = nullptr;
-  int tables = -1;
+  std::string problem;
   if (sqlite3_open_v2(path.c_str(), &db, SQLITE_OPEN_READONLY, nullptr) == SQLITE_OK) {
-    sqlite3_stmt* st = nullptr;
-    if (sqlite3_prepare_v2(db, "SELECT count(*) FROM sqlite_master", -1, &st, nullptr) == SQLITE_OK &&
-        sqlite3_step(st) == SQLITE_ROW) {
-      tables = sqlite3_column_int(st, 0);
-    }
-    sqlite3_finalize(st);
+    problem = unmarked_store_problem(db);
+  } else {
+    problem = "cannot be read as an SQLite database (left untouched)";
   }
   sqlite3_close_v2(db);
-  if (tables != 0) {
-    throw InputError(in_store(path, tables < 0
-                                        ? "cannot be read as an SQLite database (left untouched)"
-                                        : "an SQLite database of another application (it has no firmcall "
-                                          "tables), not a firmcall history store (left untouched)"));
-  }
+  if (!problem.empty()) throw InputError(in_store(path, problem));
 }
 
 int read_version(const RunStore::Impl& im) {
@@ -418,7 +523,7 @@ std::vector<StoredObligor> RunStore::obligors(std::int64_t run_id, bool with_fie
   }
   Stmt s(*impl_, "SELECT " + columns + " FROM run_obligors WHERE run_id = ? ORDER BY seq");
   s.bind_int(1, run_id);
-  while (s.step()) out.push_back(read_obligor(s, 0));
+  while (s.step()) out.push_back(read_obligor(s, 0, run_id));
   return out;
 }
 
@@ -439,7 +544,8 @@ std::vector<RunStore::SeriesPoint> RunStore::series(std::string_view obligor_id)
   std::vector<SeriesPoint> out;
   std::int64_t last_run = -1;
   while (s.step()) {
-    SeriesPoint p{read_run(s), read_obligor(s, 9)};
+    RunInfo run = read_run(s);
+    SeriesPoint p{run, read_obligor(s, 9, run.run_id)};
     if (p.run.run_id == last_run) continue;  // a repeated id in one book: its first entry counts
     last_run = p.run.run_id;
     out.push_back(std::move(p));

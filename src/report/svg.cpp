@@ -4,6 +4,8 @@
 #include <cmath>
 #include <cstdio>
 
+#include "firmcall/util/utf8.hpp"
+
 namespace firmcall {
 
 namespace {
@@ -68,7 +70,8 @@ bool overlaps(const std::array<double, 4>& a, const std::array<double, 4>& b) {
 std::string xml_escape(std::string_view s) {
   std::string out;
   out.reserve(s.size());
-  for (const char c : s) {
+  while (!s.empty()) {
+    const char c = s.front();
     switch (c) {
       case '&':
         out += "&amp;";
@@ -85,13 +88,23 @@ std::string xml_escape(std::string_view s) {
       case '\'':
         out += "&#39;";
         break;
-      default:
-        if (static_cast<unsigned char>(c) < 0x20 && c != '\t' && c != '\n' && c != '\r') {
-          out += "\xEF\xBF\xBD";
+      default: {
+        const Utf8Step step = next_utf8(s);
+        const std::int32_t cp = step.code_point;
+        // Not allowed in XML 1.0 (C0 controls), invisible controls (DEL, C1), text that reorders
+        // what follows it (bidirectional controls) and bytes that are not UTF-8 all become U+FFFD.
+        const bool control = (cp >= 0 && cp < 0x20 && c != '\t' && c != '\n' && c != '\r') ||
+                             (cp >= 0x7F && cp <= 0x9F) || is_bidi_control(cp);
+        if (cp < 0 || control) {
+          append_replacement_char(out);
         } else {
-          out.push_back(c);
+          out.append(s.substr(0, step.bytes));
         }
+        s.remove_prefix(step.bytes);
+        continue;
+      }
     }
+    s.remove_prefix(1);
   }
   return out;
 }

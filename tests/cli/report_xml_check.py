@@ -64,11 +64,50 @@ def main():
             for name, value in element.attrib.items():
                 if name in ("href", "src", "xlink:href") and not value.startswith("#"):
                     failures.append(f"link out of the page: {name}={value}")
+    failures += check_hostile_text(firmcall, source)
     for f in failures:
         print("FAIL:", f)
     if not failures:
         print(f"ok: page and {len(svgs)} charts are well-formed XML; sections complete; no links out")
     return 1 if failures else 0
+
+
+def check_hostile_text(firmcall, source):
+    """A book whose ids and names hold bytes that are not UTF-8, C0/C1 controls and bidirectional
+    overrides (U+202E) and isolates (U+2066): the page must still decode as UTF-8, parse with expat,
+    and hold none of the controls."""
+    failures = []
+    header = b"id,name,sector,country,market_cap,equity_vol,short_term_debt,long_term_debt,rate,ead,lgd\n"
+    rows = [
+        b"BAD\xff\xfe,Not scored \xe2\x80\xae gnp.exe,Retail\x1b[31m,NL,,0.31,820,1900,0.03,10,0.4\n",
+        b"OK-\xe2\x81\xa6 2,Fine \xc2\x9b name\x7f,Retail,NL,2450,0.31,820,1900,0.03,10,0.4\n",
+        b"OK-3,Plain,Retail,NL,3100,0.25,600,1500,0.03,20,0.4\n",
+    ]
+    with tempfile.TemporaryDirectory() as tmp:
+        book = os.path.join(tmp, "hostile.csv")
+        with open(book, "wb") as f:
+            f.write(header + b"".join(rows))
+        page = os.path.join(tmp, "hostile.html")
+        r = subprocess.run([firmcall, "-q", "report", book, "--portfolio", "--html", page], cwd=source,
+                           stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+        if r.returncode != 1:
+            return [f"hostile book: exit code {r.returncode}, expected 1 (one obligor not scored)"]
+        with open(page, "rb") as f:
+            raw = f.read()
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as e:
+        return [f"hostile book: page is not UTF-8: {e}"]
+    try:
+        ET.fromstring(text[len("<!DOCTYPE html>\n"):])
+    except ET.ParseError as e:
+        failures.append(f"hostile book: page is not well-formed XML: {e}")
+    for ch in ["\u202e", "\u2066", "\u009b", "\x7f", "\x1b"]:
+        if ch in text:
+            failures.append(f"hostile book: page holds the control U+{ord(ch):04X}")
+    if "BAD\ufffd\ufffd" not in text:
+        failures.append("hostile book: the unscored id is not shown with U+FFFD for its stray bytes")
+    return failures
 
 
 if __name__ == "__main__":

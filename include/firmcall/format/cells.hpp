@@ -51,8 +51,27 @@ void append_csv_names(std::string& out, const std::vector<std::string_view>& nam
 /// The names of a comma-separated list such as "id,name,pd" (a column layout kept as one literal);
 /// the views point into `list`, which must outlive them.
 std::vector<std::string_view> split_names(std::string_view list);
-/// Appends a CSV cell, quoted when it holds a comma, quote or line break.
+/// Appends a CSV cell, quoted when it holds a comma, quote or line break. A text cell that a
+/// spreadsheet would read as a formula (csv_formula_like) is counted, and written after a single
+/// quote when the guard is on (set_csv_text_guard).
 void append_csv_text(std::string& out, std::string_view s);
+
+/// True when a spreadsheet would read `s` as a formula: it begins with = + - @, tab or CR and is not
+/// a number (OWASP, "CSV Injection").
+bool csv_formula_like(std::string_view s) noexcept;
+
+/// The CSV text guard for this process: off (the default) keeps text cells exact; on writes a single
+/// quote before each formula-like text cell (OWASP's advice). Numbers are never altered.
+void set_csv_text_guard(bool neutralise) noexcept;
+
+/// The formula-like text cells written since the last call: how many, and the first few (as written
+/// in the data, at most 3). Resets the count.
+struct CsvFormulaCells {
+  std::size_t count = 0;
+  bool guarded = false;  ///< the guard was on: they were written after a single quote
+  std::vector<std::string> first;
+};
+CsvFormulaCells take_csv_formula_cells();
 /// Appends a JSON string literal (with quotes), escaping as RFC 8259 requires.
 void append_json_string(std::string& out, std::string_view s);
 /// Appends a JSON number, or null when v is not finite.

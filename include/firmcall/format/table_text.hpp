@@ -9,7 +9,16 @@
 
 namespace firmcall {
 
-/// `s` cut to `width` characters, the last one '~' when cut.
+/// `s` safe to show on a terminal: the controls (C0 including tab and line breaks, DEL, C1), the
+/// bidirectional embedding, override and isolate controls and each byte that is not well-formed
+/// UTF-8 written as escapes ("\x1b", "\u202e", "\xff"), so that text from a file cannot move the
+/// cursor, recolour the screen or reorder a line; other text unchanged.
+std::string terminal_text(std::string_view s);
+
+/// False when `s` is printable ASCII, which terminal_text leaves as it is.
+bool needs_terminal_escape(std::string_view s) noexcept;
+
+/// `s` (as terminal_text shows it) cut to `width` characters, the last one '~' when cut.
 std::string fit_text(std::string_view s, std::size_t width);
 
 /// `decimals` fixed decimals while readable (10^(1-decimals) <= |v| < 1e7), else scientific with two
@@ -22,9 +31,11 @@ std::string general_number(double v);
 /// A fraction in percent as general_number writes it, then '%' (0.05 -> "5%").
 std::string percent_text(double fraction);
 
-/// `s` then spaces up to `width` columns; `s` and one space when it is as wide or wider.
+/// `s` (as terminal_text shows it) then spaces up to `width` columns; `s` and one space when it is as wide or
+/// wider.
 std::string left_cell(std::string_view s, std::size_t width);
-/// Spaces then `s`, `width` columns in all; one space and `s` when it is as wide or wider.
+/// Spaces then `s` (as terminal_text shows it), `width` columns in all; one space and `s` when it is as wide
+/// or wider.
 std::string right_cell(std::string_view s, std::size_t width);
 
 /// Appends a rule of `width` dashes and a line break.

@@ -20,8 +20,10 @@
 
 namespace firmcall {
 
-/// `s` with &, <, >, " and ' replaced by entities; bytes below 0x20 other than tab and line breaks
-/// (not allowed in XML 1.0) become U+FFFD.
+/// `s` with &, <, >, " and ' replaced by entities; controls below 0x20 other than tab and line
+/// breaks (not allowed in XML 1.0), DEL, the C1 controls, the bidirectional embedding, override and
+/// isolate controls, and each byte that is not well-formed UTF-8 become U+FFFD, so the page stays
+/// UTF-8 and reads in its own order.
 std::string xml_escape(std::string_view s);
 
 /// How tick labels are written.

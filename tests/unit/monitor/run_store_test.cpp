@@ -485,3 +485,70 @@ TEST_CASE("two writers at once: the second waits, or reports busy after its time
   CHECK(store.obligors(runs[1].run_id).size() == 5000);
   CHECK(store.obligors(runs[2].run_id).size() == 4000);
 }
+
+TEST_CASE("a store that lost its application_id opens when its tables are firmcall's; else the true reason") {
+  TempDir dir;
+  const std::string path = dir.file("unmarked.sqlite");
+  {
+    RunStore store(path, StoreOpen::create, 1.0);
+    write_run(store, run_info("2026-11-06"), book_of(2, "A", 0.01));
+  }
+  // As a copy made by a program that does not keep the header's application_id leaves it.
+  raw_sql(path, "PRAGMA application_id = 0");
+  REQUIRE(raw_query(path, "PRAGMA application_id") == "0");
+  {
+    RunStore store(path, StoreOpen::existing, 1.0);
+    REQUIRE(store.runs().size() == 1);
+    CHECK(store.obligors(store.runs()[0].run_id).size() == 2);
+  }
+  // A database with a table named runs of its own: the reason names what is missing.
+  const std::string other = dir.file("other.sqlite");
+  raw_sql(other, "CREATE TABLE runs (id INTEGER, distance REAL);");
+  const std::string before = read_file(other);
+  try {
+    RunStore store(other, StoreOpen::existing, 1.0);
+    FAIL("opened a database that is not a store");
+  } catch (const InputError& e) {
+    const std::string m = e.what();
+    CHECK(m.find("has some of firmcall's tables but not all of the schema") != std::string::npos);
+    CHECK(m.find("table firmcall_schema") != std::string::npos);
+    CHECK(m.find("runs columns run_id, as_of") != std::string::npos);
+    CHECK(m.find("table run_obligors") != std::string::npos);
+    CHECK(m.find("no firmcall tables") == std::string::npos);
+  }
+  CHECK(read_file(other) == before);
+}
+
+TEST_CASE("a value that is not a number in a number column is reported, not read as 0") {
+  TempDir dir;
+  const std::string path = dir.file("h.sqlite");
+  std::int64_t id = 0;
+  {
+    RunStore store(path, StoreOpen::create, 1.0);
+    id = write_run(store, run_info("2026-11-06"), book_of(2, "A", 0.01));
+  }
+  const std::string first = raw_query(path, "SELECT obligor_id FROM run_obligors WHERE seq = 0");
+  const std::string expected_prefix = "history store '" + path + "': run " + std::to_string(id) +
+                                      ", obligor '" + first + "', column pd: expected a number, got ";
+  for (const auto& [sql, got] : std::vector<std::pair<std::string, std::string>>{
+           {"UPDATE run_obligors SET pd = 'n/a' WHERE seq = 0", "text 'n/a'"},
+           {"UPDATE run_obligors SET pd = NULL WHERE seq = 0", "NULL"},
+           {"UPDATE run_obligors SET pd = 1e999 WHERE seq = 0", "inf"},
+       }) {
+    CAPTURE(sql);
+    raw_sql(path, sql);
+    RunStore store(path, StoreOpen::existing, 1.0);
+    CHECK_THROWS_WITH_AS(store.obligors(id),
+                         (expected_prefix + got + " (written by another program?)").c_str(), InputError);
+    CHECK_THROWS_AS(store.series(first), InputError);
+  }
+  // A number written as text that SQLite cannot convert in another column is named too.
+  raw_sql(path, "UPDATE run_obligors SET pd = 0.01, equity_vol = 'high' WHERE seq = 0");
+  RunStore store(path, StoreOpen::existing, 1.0);
+  CHECK_THROWS_WITH_AS(
+      store.obligors(id),
+      ("history store '" + path + "': run " + std::to_string(id) + ", obligor '" + first +
+       "', column equity_vol: expected a number, got text 'high' (written by another program?)")
+          .c_str(),
+      InputError);
+}
