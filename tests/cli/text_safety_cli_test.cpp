@@ -96,7 +96,7 @@ TEST_CASE("formula-like CSV text cells: a note by default, a single quote with -
   // OWASP "CSV Injection": cells beginning with = + - @, tab or CR may run as formulas.
   const std::string book =
       t.write("formula.csv", kHeader +
-                                 "=HYPERLINK(\"x\"),+cmd,R,NL,2450,0.31,820,1900,0.03,10,0.4\n"
+                                 "\"=HYPERLINK(\"\"x\"\")\",+cmd,R,NL,2450,0.31,820,1900,0.03,10,0.4\n"
                                  "-5,-2+3,R,NL,2450,0.31,820,1900,-0.01,10,0.4\n");
   const auto exact = run_firmcall("score '" + book + "' -f csv");
   CHECK(exact.exit_code == 0);
