@@ -33,9 +33,15 @@ for m in logistic isotonic binned; do
 done
 "$fc" -q calibrate "$out/history_1m.csv" --save "$out/cal_1m.yaml" > /dev/null
 
-awk -F, 'NR == 1 {print; next} {rows[++n] = $0}
-         END {for (i = 0; i < 1000000; ++i) {r = rows[i % n + 1]; sub(/^[^,]*/, "B" i, r); print r}}' \
-  "$root/samples/demo_book.csv" > "$out/book_1m.csv"
+python3 - "$root/samples/demo_book.csv" "$out/book_1m.csv" <<'PY'
+import sys
+lines = open(sys.argv[1]).read().splitlines()
+with open(sys.argv[2], "w") as f:
+    f.write(lines[0] + "\n")
+    for i in range(1000000):
+        r = lines[1 + i % (len(lines) - 1)]
+        f.write("B%d" % i + r[r.index(","):] + "\n")
+PY
 plain=$(best "$fc" -q score "$out/book_1m.csv" --format csv -j "$threads" -o "$out/score_plain.csv")
 cal=$(best "$fc" -q score "$out/book_1m.csv" --format csv -j "$threads" --pd-calibration "$out/cal_1m.yaml" -o "$out/score_cal.csv")
 echo "score 1,000,000 rows (-j $threads): $plain s; with --pd-calibration: $cal s; extra $(echo "($cal / $plain - 1) * 100" | bc -l | xargs printf '%.1f')%"
