@@ -86,7 +86,13 @@ DefaultHistory read_default_history(const std::string& path) {
           located(path, line, "header: required column '" + std::string(kColumnNames[k]) + "' is missing"));
     }
   }
-  std::unordered_map<std::string, std::size_t> seen;  // "id\x1f" "as_of" -> line
+  std::unordered_map<std::string, std::size_t> seen;        // "id\x1f" "as_of" -> line
+  const std::size_t expected_rows = text.size() / 24 + 16;  // rows are rarely shorter than 24 bytes
+  seen.reserve(expected_rows);
+  for (auto* v : {&h.distance_to_default, &h.defaulted}) v->reserve(expected_rows);
+  h.id.reserve(expected_rows);
+  h.as_of.reserve(expected_rows);
+  h.line.reserve(expected_rows);
   while (next(line)) {
     const auto cell = [&](std::size_t k) {
       const auto i = static_cast<std::size_t>(at[k]);
