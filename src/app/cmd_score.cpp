@@ -10,6 +10,7 @@
 #include "firmcall/book/errors.hpp"
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/engine/term_book.hpp"
+#include "firmcall/io/calibration_io.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/output_file.hpp"
 #include "firmcall/monitor/record_book.hpp"
@@ -28,6 +29,7 @@ struct ScoreCli {
   std::string db;
   std::string as_of;
   TermOptionText term;
+  std::string pd_calibration;  // --pd-calibration: calibration file (calibrate --save)
 };
 
 struct FileCloser {
@@ -49,6 +51,9 @@ void declare_score_options(CLI::App* cmd, ScoreCli& o) {
                   "As-of date YYYY-MM-DD of the recorded run (default: book's, else today)")
       ->needs(record);
   add_term_options(cmd, o.term);
+  cmd->add_option("--pd-calibration", o.pd_calibration,
+                  "Calibration file (firmcall calibrate --save): add each obligor's one-year calibrated PD "
+                  "and its interval at the end of the columns");
   cmd->footer(
       std::string("\nExit codes: 0 every obligor scored; 1 some obligors invalid or not converged "
                   "(the others are scored); 2 unreadable or malformed file or bad command line.\n\n") +
@@ -118,6 +123,9 @@ void check_term_combination(const ScoreCli& opts) {
   if (opts.sensitivities) {
     throw InputError("--sensitivities: not available with term structures (--horizons, --model)");
   }
+  if (!opts.pd_calibration.empty()) {
+    throw InputError("--pd-calibration: not available with term structures (--horizons, --model)");
+  }
   if (opts.grades || opts.record) {
     throw InputError(std::string(opts.grades ? "--grades" : "--record") +
                      ": not available with term structures (--horizons, --model)");
@@ -132,6 +140,11 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
   run.threads = thread_count(opts.threads);
   run.sensitivities = opts.sensitivities;
   if (opts.grades) run.grades = &config.grades;
+  CalibrationRecord calibration;
+  if (!opts.pd_calibration.empty() && !wants_term_structure(opts.term)) {
+    calibration = read_calibration(opts.pd_calibration);
+    run.pd_calibration = &calibration.calibration;
+  }
   TermBookOptions term = term_book_options(config.term, opts.term);  // checks the term options
   if (wants_term_structure(opts.term)) {
     check_term_combination(opts);

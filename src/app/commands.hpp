@@ -51,6 +51,7 @@ void add_track_command(CLI::App& app, const GlobalOptions& global, CommandAction
 void add_portfolio_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
 void add_report_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
 void add_validate_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
+void add_calibrate_command(CLI::App& app, const GlobalOptions& global, CommandAction& run);
 
 /// `firmcall movers` and `firmcall watchlist` (only obligors with an alert): compares the runs the
 /// options select and writes the report; returns the exit code.

@@ -95,6 +95,7 @@ int main(int argc, char** argv) {
   cli::add_portfolio_command(app, global, run);
   cli::add_report_command(app, global, run);
   cli::add_validate_command(app, global, run);
+  cli::add_calibrate_command(app, global, run);
 
   try {
     app.parse(argc, argv);

@@ -146,6 +146,62 @@ void append_sensitivities_table(std::string& out, const MertonSensitivities& s, 
   out += line + "\n";
 }
 
+const std::vector<std::string_view>& pd_calibration_columns() {
+  static const std::vector<std::string_view> cols =
+      split_names("pd_calibrated,pd_calibrated_lower,pd_calibrated_upper,pd_calibrated_extrapolated");
+  return cols;
+}
+
+namespace {
+
+// The calibrated PD of a scored obligor (NaN when it was not scored).
+CalibratedPd calibrated_pd_of(const PdCalibration& cal, const ScoredObligor& s) noexcept {
+  if (s.status != RowStatus::ok) return {std::nan(""), std::nan(""), std::nan(""), false};
+  return cal.evaluate(s.measures.distance_to_default);
+}
+
+// Appends ",pd,lower,upper,extrapolated" (empty cells when not scored).
+void append_calibrated_csv(std::string& out, const PdCalibration& cal, const ScoredObligor& s) {
+  const CalibratedPd p = calibrated_pd_of(cal, s);
+  char buf[3 * (kMaxNumberChars + 1) + 8];
+  char* e = buf;
+  for (double v : {p.pd, p.lower, p.upper}) {
+    *e++ = ',';
+    e = write_number(e, v);
+  }
+  out.append(buf, e);
+  out += !std::isfinite(p.pd) ? std::string_view(",") : p.extrapolated ? std::string_view(",true") : ",false";
+}
+
+void append_calibrated_json(std::string& out, const PdCalibration& cal, const ScoredObligor& s) {
+  const auto& cols = pd_calibration_columns();
+  const CalibratedPd p = calibrated_pd_of(cal, s);
+  JsonFields f(out, false);
+  f.number(cols[0], p.pd).number(cols[1], p.lower).number(cols[2], p.upper);
+  if (std::isfinite(p.pd)) {
+    f.boolean(cols[3], p.extrapolated);
+  } else {
+    f.null(cols[3]);
+  }
+}
+
+void append_calibrated_table(std::string& out, const PdCalibration& cal, const ScoredObligor& s) {
+  const CalibratedPd p = calibrated_pd_of(cal, s);
+  if (!std::isfinite(p.pd)) return;
+  fmt::format_to(std::back_inserter(out), "  calibrated one-year PD {:.4f}%  [{:.4f}%, {:.4f}%]{}\n",
+                 100.0 * p.pd, 100.0 * p.lower, 100.0 * p.upper,
+                 p.extrapolated ? "  DD outside the calibration sample" : "");
+}
+
+void append_calibrated_table_header(std::string& out, const PdCalibration& cal) {
+  fmt::format_to(
+      std::back_inserter(out),
+      "  under each obligor: one-year calibrated PD ({}, {} obligor-years) with its {:g}% interval\n",
+      to_string(cal.method), cal.observations, 100.0 * cal.confidence_level);
+}
+
+}  // namespace
+
 namespace {
 
 // Grade label of a scored obligor, on its one-year PD; empty when it was not scored.
@@ -182,8 +238,9 @@ NumericRow numeric_row(const ScoredObligor& s) {
 
 class CsvWriter final : public ScoreWriter {
  public:
-  CsvWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades)
-      : sensitivities_(sensitivities), grades_(grades) {}
+  CsvWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades,
+            const PdCalibration* cal)
+      : sensitivities_(sensitivities), grades_(grades), cal_(cal) {}
   void begin(std::string& out) const override {
     append_csv_names(out, score_columns());
     if (sensitivities_) {
@@ -191,6 +248,10 @@ class CsvWriter final : public ScoreWriter {
       append_csv_names(out, sensitivity_columns());
     }
     if (grades_) out += ",grade";
+    if (cal_) {
+      out.push_back(',');
+      append_csv_names(out, pd_calibration_columns());
+    }
     out.push_back('\n');
   }
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
@@ -223,6 +284,7 @@ class CsvWriter final : public ScoreWriter {
       out.push_back(',');
       append_csv_text(out, grade_label(grades_, s));
     }
+    if (cal_) append_calibrated_csv(out, *cal_, s);
     out.push_back('\n');
   }
   void end(const ScoreSummary&, std::string&) const override {}
@@ -230,12 +292,18 @@ class CsvWriter final : public ScoreWriter {
  private:
   bool sensitivities_;
   const GradeScale* grades_;
+  const PdCalibration* cal_;
 };
 
 class JsonWriter final : public ScoreWriter {
  public:
-  JsonWriter(std::string origin, const ScoreSettings& settings, bool sensitivities, const GradeScale* grades)
-      : origin_(std::move(origin)), settings_(settings), sensitivities_(sensitivities), grades_(grades) {}
+  JsonWriter(std::string origin, const ScoreSettings& settings, bool sensitivities, const GradeScale* grades,
+             const PdCalibration* cal)
+      : origin_(std::move(origin)),
+        settings_(settings),
+        sensitivities_(sensitivities),
+        grades_(grades),
+        cal_(cal) {}
   void begin(std::string& out) const override {
     out += "{\n  \"run\": {";
     JsonFields(out).text("input", origin_).text("measure", to_string(settings_.measure));
@@ -264,6 +332,7 @@ class JsonWriter final : public ScoreWriter {
     }
     if (grades_)
       JsonFields(out, false).text_or_null("grade", grade_label(grades_, s), s.status == RowStatus::ok);
+    if (cal_) append_calibrated_json(out, *cal_, s);
     out += "}";
   }
   void end(const ScoreSummary& sum, std::string& out) const override { append_score_summary_json(out, sum); }
@@ -273,13 +342,15 @@ class JsonWriter final : public ScoreWriter {
   ScoreSettings settings_;
   bool sensitivities_;
   const GradeScale* grades_;
+  const PdCalibration* cal_;
 };
 
 // Fixed-width text for people: 118 columns (with grades: a grade column, and the name 5 narrower).
 class TableWriter final : public ScoreWriter {
  public:
-  TableWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades)
-      : sensitivities_(sensitivities), grades_(grades) {}
+  TableWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades,
+              const PdCalibration* cal)
+      : sensitivities_(sensitivities), grades_(grades), cal_(cal) {}
   void begin(std::string& out) const override {
     char buf[256];
     std::snprintf(buf, sizeof buf, kHeader, "obligor", name_width(), "name", "asset", "asset", "default",
@@ -289,6 +360,7 @@ class TableWriter final : public ScoreWriter {
                   "years", "1 year %", "bp", grade_cell("").c_str(), "");
     out += buf;
     if (sensitivities_) append_sensitivities_table_header(out, 2);
+    if (cal_) append_calibrated_table_header(out, *cal_);
     append_rule(out, kRuleWidth);
   }
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
@@ -311,6 +383,7 @@ class TableWriter final : public ScoreWriter {
                   grade_cell(grade_label(grades_, s)).c_str(), "ok");
     out += buf;
     if (sensitivities_) append_sensitivities_table(out, sensitivities_of(s.resolved, s.solution), 2);
+    if (cal_) append_calibrated_table(out, *cal_, s);
   }
   void end(const ScoreSummary& sum, std::string& out) const override {
     append_rule(out, kRuleWidth);
@@ -333,6 +406,7 @@ class TableWriter final : public ScoreWriter {
     return cell;
   }
   const GradeScale* grades_;
+  const PdCalibration* cal_;
   static std::string fit(const std::string& s, std::size_t w) { return fit_text(s, w); }
   static std::string amount(double v) {
     char buf[64];
@@ -361,9 +435,10 @@ class TableWriter final : public ScoreWriter {
 
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
                                                const ScoreSettings& settings, bool sensitivities,
-                                               const GradeScale* grades) {
-  return make_format_writer<ScoreWriter, CsvWriter, JsonWriter, TableWriter>(format, origin, settings,
-                                                                             sensitivities, grades);
+                                               const GradeScale* grades,
+                                               const PdCalibration* pd_calibration) {
+  return make_format_writer<ScoreWriter, CsvWriter, JsonWriter, TableWriter>(
+      format, origin, settings, sensitivities, grades, pd_calibration);
 }
 
 }  // namespace firmcall

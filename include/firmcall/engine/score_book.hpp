@@ -13,6 +13,7 @@
 #include "firmcall/book/grades.hpp"
 #include "firmcall/book/obligor.hpp"
 #include "firmcall/book/settings.hpp"
+#include "firmcall/estimate/calibration.hpp"
 #include "firmcall/format/cells.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/model/merton.hpp"
@@ -65,6 +66,8 @@ struct ScoreBookOptions {
   std::size_t chunk_bytes = 1 << 18;   ///< CSV streaming: bytes read per step
   bool sensitivities = false;          ///< add the sensitivity columns (output.hpp, sensitivity.hpp)
   const GradeScale* grades = nullptr;  ///< when set, the output shows each obligor's grade
+  /// When set (and ok), the output ends with the one-year calibrated PD of each obligor's DD.
+  const PdCalibration* pd_calibration = nullptr;
   /// threads >= 1, chunk_bytes > 0.
   OptionCheck validate() const;
 };

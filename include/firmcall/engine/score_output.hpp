@@ -62,9 +62,16 @@ class ScoreWriter {
 /// A writer for the format; `origin` and `settings` appear in the JSON run block. With
 /// `sensitivities` every format adds the sensitivity columns (the table a second line per obligor).
 /// With `grades`, each scored obligor also shows its grade (a last CSV column and JSON key `grade`,
-/// a table column).
+/// a table column). With `pd_calibration`, every format ends with the one-year calibrated PD of the
+/// obligor's DD (pd_calibration_columns(); the table a line per obligor).
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
                                                const ScoreSettings& settings, bool sensitivities = false,
-                                               const GradeScale* grades = nullptr);
+                                               const GradeScale* grades = nullptr,
+                                               const PdCalibration* pd_calibration = nullptr);
+
+/// Names of the calibrated-PD columns (--pd-calibration), appended after every other column:
+/// pd_calibrated, pd_calibrated_lower, pd_calibrated_upper (one-year PDs at the calibration's
+/// confidence level) and pd_calibrated_extrapolated (true when the DD lies outside the sample's).
+const std::vector<std::string_view>& pd_calibration_columns();
 
 }  // namespace firmcall

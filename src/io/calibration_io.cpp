@@ -1,0 +1,317 @@
+// Reading default histories; writing and reading calibration files. See calibration_io.hpp.
+#include "firmcall/io/calibration_io.hpp"
+
+#include <algorithm>
+#include <charconv>
+#include <chrono>
+#include <cmath>
+#include <unordered_map>
+
+#include "firmcall/book/errors.hpp"
+#include "firmcall/io/csv.hpp"
+#include "firmcall/io/sha256.hpp"
+#include "io/yaml_util.hpp"
+
+namespace firmcall {
+
+namespace {
+
+std::string quoted(std::string_view cell) {
+  std::string s = "'";
+  s += cell.substr(0, 40);
+  if (cell.size() > 40) s += "...";
+  return s + "'";
+}
+
+bool is_date(std::string_view s) {
+  if (s.size() != 10 || s[4] != '-' || s[7] != '-') return false;
+  int y = 0;
+  unsigned m = 0, d = 0;
+  const auto num = [&s](std::size_t at, std::size_t len, auto& v) {
+    const auto r = std::from_chars(s.data() + at, s.data() + at + len, v);
+    return r.ec == std::errc() && r.ptr == s.data() + at + len;
+  };
+  if (!num(0, 4, y) || !num(5, 2, m) || !num(8, 2, d)) return false;
+  return std::chrono::year_month_day(std::chrono::year(y), std::chrono::month(m), std::chrono::day(d)).ok();
+}
+
+enum Column : std::size_t { kId, kAsOf, kDd, kDefaulted, kWeight, kColumns };
+constexpr std::string_view kColumnNames[kColumns] = {"id", "as_of", "distance_to_default", "defaulted",
+                                                     "weight"};
+
+}  // namespace
+
+DefaultHistory read_default_history(const std::string& path) {
+  DefaultHistory h;
+  h.origin = path;
+  const std::string text = detail::read_text_file(path);
+  h.data_sha256 = sha256_hex(text);
+  std::string_view rest(text);
+  if (rest.substr(0, 3) == "\xEF\xBB\xBF") rest.remove_prefix(3);
+  std::vector<std::string_view> fields;
+  std::string scratch;
+  std::size_t next_line = 1;
+  // The next non-blank record; false at the end.
+  const auto next = [&](std::size_t& line) {
+    while (!rest.empty()) {
+      bool unterminated = false;
+      const std::size_t used = split_csv_record(rest, fields, scratch, unterminated);
+      line = next_line;
+      next_line += count_lines(rest.substr(0, used));
+      rest.remove_prefix(used);
+      if (unterminated) throw InputError(located(path, line, "a quoted field is never closed"));
+      if (fields.size() == 1 && trim_blanks(fields[0]).empty()) continue;
+      return true;
+    }
+    return false;
+  };
+  std::size_t line = 0;
+  if (!next(line)) throw InputError(located(path, 0, "empty file: a header row is required"));
+  int at[kColumns] = {-1, -1, -1, -1, -1};
+  for (std::size_t i = 0; i < fields.size(); ++i) {
+    const std::string_view name = trim_blanks(fields[i]);
+    const auto* it = std::find(std::begin(kColumnNames), std::end(kColumnNames), name);
+    if (it == std::end(kColumnNames)) {
+      h.notes.push_back(located(path, line, "note: column '" + std::string(name) + "' is not used"));
+      continue;
+    }
+    int& slot = at[it - std::begin(kColumnNames)];
+    if (slot >= 0)
+      throw InputError(located(path, line, "header: column '" + std::string(name) + "' appears twice"));
+    slot = static_cast<int>(i);
+  }
+  for (std::size_t k = 0; k < kWeight; ++k) {
+    if (at[k] < 0) {
+      throw InputError(
+          located(path, line, "header: required column '" + std::string(kColumnNames[k]) + "' is missing"));
+    }
+  }
+  std::unordered_map<std::string, std::size_t> seen;        // "id\x1f" "as_of" -> line
+  const std::size_t expected_rows = text.size() / 24 + 16;  // rows are rarely shorter than 24 bytes
+  seen.reserve(expected_rows);
+  for (auto* v : {&h.distance_to_default, &h.defaulted}) v->reserve(expected_rows);
+  h.id.reserve(expected_rows);
+  h.as_of.reserve(expected_rows);
+  h.line.reserve(expected_rows);
+  while (next(line)) {
+    const auto cell = [&](std::size_t k) {
+      const auto i = static_cast<std::size_t>(at[k]);
+      return i < fields.size() ? trim_blanks(fields[i]) : std::string_view{};
+    };
+    const auto fail = [&](std::size_t k, const std::string& why) {
+      throw InputError(located(path, line, "field '" + std::string(kColumnNames[k]) + "': " + why));
+    };
+    const std::string_view id = cell(kId), as_of = cell(kAsOf);
+    if (id.empty()) fail(kId, "missing");
+    if (!is_date(as_of)) fail(kAsOf, "expected a date YYYY-MM-DD, got " + quoted(as_of));
+    double dd = 0.0;
+    if (cell(kDd).empty()) fail(kDd, "missing");
+    if (!parse_number(cell(kDd), dd)) fail(kDd, "expected a finite number, got " + quoted(cell(kDd)));
+    const std::string_view y = cell(kDefaulted);
+    if (y != "0" && y != "1") fail(kDefaulted, "expected 0 or 1, got " + quoted(y));
+    double w = 1.0;
+    if (at[kWeight] >= 0) {
+      if (!parse_number(cell(kWeight), w) || w < 0.0) {
+        fail(kWeight, "expected a non-negative number, got " + quoted(cell(kWeight)));
+      }
+      h.weight.push_back(w);
+    }
+    std::string key(id);
+    key += '\x1f';
+    key += as_of;
+    const auto [it, inserted] = seen.emplace(std::move(key), line);
+    if (!inserted) {
+      throw InputError(located(path, line,
+                               "field 'id': obligor '" + std::string(id) + "' as of " + std::string(as_of) +
+                                   " repeats line " + std::to_string(it->second)));
+    }
+    h.id.emplace_back(id);
+    h.as_of.emplace_back(as_of);
+    h.line.push_back(line);
+    h.distance_to_default.push_back(dd);
+    h.defaulted.push_back(y == "1" ? 1.0 : 0.0);
+    if (h.as_of_first.empty() || as_of < h.as_of_first) h.as_of_first = std::string(as_of);
+    if (as_of > h.as_of_last) h.as_of_last = std::string(as_of);
+  }
+  if (h.id.empty()) throw InputError(located(path, 0, "no observations after the header"));
+  double wd = 0.0, ws = 0.0;
+  for (std::size_t i = 0; i < h.id.size(); ++i) {
+    const double w = h.weight.empty() ? 1.0 : h.weight[i];
+    (h.defaulted[i] == 1.0 ? wd : ws) += w;
+  }
+  if (!(wd > 0.0)) {
+    throw InputError(located(path, 0,
+                             "field 'defaulted': no defaults (with positive weight) in " +
+                                 std::to_string(h.id.size()) +
+                                 " observations: nothing to calibrate the PD level to"));
+  }
+  if (!(ws > 0.0)) {
+    throw InputError(located(path, 0, "field 'defaulted': every observation defaulted: one class only"));
+  }
+  return h;
+}
+
+namespace {
+
+std::string num(double v) {
+  char buf[64];
+  const auto r = std::to_chars(buf, buf + sizeof buf, v);
+  return std::string(buf, r.ptr);
+}
+
+}  // namespace
+
+std::string calibration_yaml(const CalibrationRecord& rec) {
+  const PdCalibration& c = rec.calibration;
+  std::string s = "# firmcall PD calibration: distance to default -> one-year PD (docs/calibration.md)\n";
+  s += "firmcall_calibration: 1\n";
+  s += "method: " + std::string(to_string(c.method)) + "\n";
+  s += "pd_horizon_years: 1\n";
+  s += "confidence_level: " + num(c.confidence_level) + "\n";
+  s += "sample:\n";
+  s += "  observations: " + std::to_string(c.observations) + "\n";
+  s += "  defaults: " + std::to_string(c.defaults) + "\n";
+  s += "  as_of_first: " + rec.as_of_first + "\n";
+  s += "  as_of_last: " + rec.as_of_last + "\n";
+  s += "  dd_min: " + num(c.dd_min) + "\n";
+  s += "  dd_max: " + num(c.dd_max) + "\n";
+  s += "  data_sha256: " + rec.data_sha256 + "\n";
+  if (c.method == CalibrationMethod::logistic) {
+    const LogisticFit& f = c.logistic;
+    s += "logistic:\n";
+    s += "  intercept: " + num(f.intercept) + "\n";
+    s += "  slope: " + num(f.slope) + "\n";
+    s += "  intercept_se: " + num(f.intercept_se) + "\n";
+    s += "  slope_se: " + num(f.slope_se) + "\n";
+    s += "  covariance: " + num(f.covariance) + "\n";
+    s += "  log_likelihood: " + num(f.log_likelihood) + "\n";
+  } else {
+    s += "blocks:\n";
+    for (const CalibrationBlock& b : c.blocks) {
+      s += "  - {dd_lower: " + num(b.dd_lower) + ", dd_upper: " + num(b.dd_upper) +
+           ", observations: " + num(b.observations) + ", defaults: " + num(b.defaults) +
+           ", pd_raw: " + num(b.pd_raw) + ", pd: " + num(b.pd) + "}\n";
+    }
+  }
+  return s;
+}
+
+namespace {
+
+YAML::Node required(const YAML::Node& map, const char* key, const std::string& origin) {
+  YAML::Node found = map[key];
+  if (!found)
+    throw InputError(located(origin, detail::yaml_line(map), "key '" + std::string(key) + "' is missing"));
+  return found;
+}
+
+double number_at(const YAML::Node& map, const char* key, const std::string& origin) {
+  return detail::yaml_number(required(map, key, origin), origin, key);
+}
+
+void fail_at(const YAML::Node& node, const std::string& origin, const std::string& what) {
+  throw InputError(located(origin, detail::yaml_line(node), what));
+}
+
+}  // namespace
+
+CalibrationRecord parse_calibration(const std::string& text, const std::string& origin) {
+  const YAML::Node root = detail::yaml_load(text, origin);
+  detail::yaml_check_keys(root,
+                          {"firmcall_calibration", "method", "pd_horizon_years", "confidence_level", "sample",
+                           "logistic", "blocks"},
+                          origin, "calibration");
+  CalibrationRecord rec;
+  PdCalibration& c = rec.calibration;
+  const YAML::Node version = required(root, "firmcall_calibration", origin);
+  if (detail::yaml_string(version, origin, "firmcall_calibration") != "1") {
+    fail_at(version, origin,
+            "key 'firmcall_calibration': format version 1 expected, got '" +
+                detail::yaml_string(version, origin, "firmcall_calibration") + "'");
+  }
+  const YAML::Node method = required(root, "method", origin);
+  if (!parse_calibration_method(detail::yaml_string(method, origin, "method"), c.method)) {
+    fail_at(method, origin,
+            "key 'method': expected logistic, isotonic or binned, got '" +
+                detail::yaml_string(method, origin, "method") + "'");
+  }
+  const YAML::Node horizon = required(root, "pd_horizon_years", origin);
+  if (detail::yaml_number(horizon, origin, "pd_horizon_years") != 1.0) {
+    fail_at(horizon, origin, "key 'pd_horizon_years': only one-year calibrations are supported");
+  }
+  c.confidence_level = number_at(root, "confidence_level", origin);
+  if (!(c.confidence_level > 0.0 && c.confidence_level < 1.0)) {
+    fail_at(root["confidence_level"], origin, "key 'confidence_level': must lie in (0, 1)");
+  }
+  const YAML::Node sample = required(root, "sample", origin);
+  detail::yaml_check_keys(
+      sample, {"observations", "defaults", "as_of_first", "as_of_last", "dd_min", "dd_max", "data_sha256"},
+      origin, "sample");
+  const double n = number_at(sample, "observations", origin), d = number_at(sample, "defaults", origin);
+  if (!(n >= 1.0) || !(d >= 0.0) || d > n)
+    fail_at(sample, origin, "sample: observations and defaults do not agree");
+  c.observations = static_cast<std::size_t>(n);
+  c.defaults = static_cast<std::size_t>(d);
+  c.dd_min = number_at(sample, "dd_min", origin);
+  c.dd_max = number_at(sample, "dd_max", origin);
+  if (c.dd_min > c.dd_max) fail_at(sample, origin, "sample: dd_min is above dd_max");
+  rec.as_of_first = detail::yaml_string(required(sample, "as_of_first", origin), origin, "as_of_first");
+  rec.as_of_last = detail::yaml_string(required(sample, "as_of_last", origin), origin, "as_of_last");
+  rec.data_sha256 = detail::yaml_string(required(sample, "data_sha256", origin), origin, "data_sha256");
+  if (c.method == CalibrationMethod::logistic) {
+    if (root["blocks"]) fail_at(root["blocks"], origin, "key 'blocks': not used by method logistic");
+    const YAML::Node f = required(root, "logistic", origin);
+    detail::yaml_check_keys(
+        f, {"intercept", "slope", "intercept_se", "slope_se", "covariance", "log_likelihood"}, origin,
+        "logistic");
+    LogisticFit& l = c.logistic;
+    l.intercept = number_at(f, "intercept", origin);
+    l.slope = number_at(f, "slope", origin);
+    l.intercept_se = number_at(f, "intercept_se", origin);
+    l.slope_se = number_at(f, "slope_se", origin);
+    l.covariance = number_at(f, "covariance", origin);
+    l.log_likelihood = number_at(f, "log_likelihood", origin);
+    if (!(l.slope < 0.0)) fail_at(f["slope"], origin, "key 'slope': must be negative (PD falls as DD grows)");
+    if (!(l.intercept_se >= 0.0) || !(l.slope_se >= 0.0)) {
+      fail_at(f, origin, "logistic: standard errors must be non-negative");
+    }
+  } else {
+    if (root["logistic"]) fail_at(root["logistic"], origin, "key 'logistic': used by method logistic only");
+    const YAML::Node blocks = required(root, "blocks", origin);
+    if (!blocks.IsSequence() || blocks.size() == 0)
+      fail_at(blocks, origin, "key 'blocks': expected a list of blocks");
+    for (const YAML::Node& b : blocks) {
+      detail::yaml_check_keys(b, {"dd_lower", "dd_upper", "observations", "defaults", "pd_raw", "pd"}, origin,
+                              "block");
+      CalibrationBlock k;
+      k.dd_lower = number_at(b, "dd_lower", origin);
+      k.dd_upper = number_at(b, "dd_upper", origin);
+      k.observations = number_at(b, "observations", origin);
+      k.defaults = number_at(b, "defaults", origin);
+      k.pd_raw = number_at(b, "pd_raw", origin);
+      k.pd = number_at(b, "pd", origin);
+      if (k.dd_lower > k.dd_upper) fail_at(b, origin, "block: dd_lower is above dd_upper");
+      if (!(k.observations > 0.0) || !(k.defaults >= 0.0) || k.defaults > k.observations) {
+        fail_at(b, origin, "block: observations and defaults do not agree");
+      }
+      if (!(k.pd > 0.0 && k.pd < 1.0)) fail_at(b, origin, "block: field 'pd' must lie in (0, 1)");
+      if (!c.blocks.empty()) {
+        const CalibrationBlock& left = c.blocks.back();
+        if (!(k.dd_lower > left.dd_upper)) fail_at(b, origin, "block: blocks must be in increasing DD");
+        if (c.method == CalibrationMethod::isotonic && k.pd > left.pd) {
+          fail_at(b, origin, "block: field 'pd': PD must not increase with DD");
+        }
+      }
+      c.blocks.push_back(k);
+    }
+  }
+  c.status = CalibrationStatus::ok;
+  c.prepare_intervals();
+  return rec;
+}
+
+CalibrationRecord read_calibration(const std::string& path) {
+  return parse_calibration(detail::read_text_file(path), path);
+}
+
+}  // namespace firmcall

@@ -1,0 +1,93 @@
+// End-to-end tests of `firmcall calibrate` and `score --pd-calibration`.
+#include <doctest/doctest.h>
+
+#include <cmath>
+#include <filesystem>
+#include <string>
+
+#include "test_util.hpp"
+
+using namespace firmcall::testing;
+
+namespace {
+
+// The number after "key": in a JSON text.
+double json_number(const std::string& json, const std::string& key) {
+  const auto at = json.find("\"" + key + "\": ");
+  REQUIRE(at != std::string::npos);
+  return std::stod(json.substr(at + key.size() + 4));
+}
+
+}  // namespace
+
+TEST_CASE("calibrate: logistic JSON keys and a one-year PD note") {
+  const RunResult r = run_firmcall("calibrate samples/default_history.csv --method logistic --format json");
+  REQUIRE(r.exit_code == 0);
+  for (const char* key :
+       {"\"method\": \"logistic\"", "\"observations\": ", "\"defaults\": ", "\"intercept\": ", "\"slope\": ",
+        "\"intercept_se\": ", "\"slope_se\": ", "\"log_likelihood\": ", "one-year calibrated PD"}) {
+    CAPTURE(key);
+    CHECK(r.out.find(key) != std::string::npos);
+  }
+  CHECK(json_number(r.out, "slope") < 0.0);
+  const RunResult t = run_firmcall("calibrate samples/default_history.csv --method isotonic");
+  REQUIRE(t.exit_code == 0);
+  CHECK(t.out.find("one-year calibrated PD") != std::string::npos);
+  const RunResult b =
+      run_firmcall("calibrate samples/default_history.csv --method binned --bins 5 --format csv");
+  REQUIRE(b.exit_code == 0);
+  CHECK(split_simple_csv(b.out).size() == 6);  // header and five bands
+}
+
+TEST_CASE("calibrate: a bad history names file, line and field, and writes nothing") {
+  TempDir dir;
+  const std::string bad =
+      dir.write("h.csv", "id,as_of,distance_to_default,defaulted\nA,2021-12-31,1,1\nB,2021-12-31,2,yes\n");
+  const std::string saved = dir.file("cal.yaml");
+  const RunResult r = run_firmcall("calibrate '" + bad + "' --save '" + saved + "'");
+  CHECK(r.exit_code == 2);
+  CHECK(r.err.find(bad + ":3: field 'defaulted': expected 0 or 1, got 'yes'") != std::string::npos);
+  CHECK_FALSE(std::filesystem::exists(saved));
+}
+
+TEST_CASE("score --pd-calibration: the calibrated PD is the logistic of the fitted line at each DD") {
+  TempDir dir;
+  const std::string cal = dir.file("cal.yaml");
+  const RunResult fit =
+      run_firmcall("-q calibrate samples/default_history.csv --format json --save '" + cal + "'");
+  REQUIRE(fit.exit_code == 0);
+  const double a = json_number(fit.out, "intercept"), b = json_number(fit.out, "slope");
+  const RunResult r =
+      run_firmcall("-q score samples/demo_book.csv --format csv --pd-calibration '" + cal + "'");
+  REQUIRE(r.exit_code <= 1);
+  const auto rows = split_simple_csv(r.out);
+  REQUIRE(rows.size() > 2);
+  const auto& head = rows[0];
+  REQUIRE(head.size() >= 4);
+  CHECK(head[head.size() - 4] == "pd_calibrated");
+  CHECK(head[head.size() - 1] == "pd_calibrated_extrapolated");
+  std::size_t dd_col = 0;
+  while (head[dd_col] != "distance_to_default") ++dd_col;
+  int checked = 0;
+  for (std::size_t i = 1; i < rows.size(); ++i) {
+    const auto& row = rows[i];
+    if (row.size() != head.size() || row[dd_col].empty()) continue;
+    const double dd = std::stod(row[dd_col]);
+    const double pd = std::stod(row[head.size() - 4]);
+    // The logistic link 1 / (1 + exp(-(a + b DD))) (textbook logistic regression).
+    CHECK(pd == doctest::Approx(1.0 / (1.0 + std::exp(-(a + b * dd)))).epsilon(1e-13));
+    CHECK(std::stod(row[head.size() - 3]) <= pd);
+    CHECK(std::stod(row[head.size() - 2]) >= pd);
+    ++checked;
+  }
+  CHECK(checked > 0);
+  const RunResult t = run_firmcall("-q score samples/demo_book.yaml --pd-calibration '" + cal + "'");
+  CHECK(t.out.find("calibrated one-year PD") != std::string::npos);
+  const RunResult j =
+      run_firmcall("-q score samples/demo_book.yaml --format json --pd-calibration '" + cal + "'");
+  CHECK(j.out.find("\"pd_calibrated_extrapolated\": ") != std::string::npos);
+  const RunResult term =
+      run_firmcall("-q score samples/demo_book.yaml --horizons 1,2 --pd-calibration '" + cal + "'");
+  CHECK(term.exit_code == 2);
+  CHECK(term.err.find("--pd-calibration: not available with term structures") != std::string::npos);
+}
