@@ -297,6 +297,11 @@ Cell row_equity_value(const std::vector<std::string_view>& fields, const Header&
     if (mc == Cell::bad) return fail(not_a_number("market_cap", cell(kMarketCap)));
     if (mc == Cell::ok && !(e > 0.0)) return fail(not_positive("market_cap", cell(kMarketCap)));
     if (mc == Cell::ok && too_small(e)) return fail(too_small_problem("market_cap", cell(kMarketCap)));
+    // The book reader's equity bound: log returns of values outside it overflow the variance.
+    if (mc == Cell::ok && !(e >= 1e-150 && e <= 1e150)) {
+      return fail("field 'market_cap': equity value must lie in [1e-150, 1e150], got " +
+                  quoted(trim_blanks(cell(kMarketCap))));
+    }
   }
   if (mc != Cell::absent || !hdr.has(kClose) || !hdr.has(kShares)) return mc;
   double price = 0.0;
@@ -321,6 +326,9 @@ Cell row_equity_value(const std::vector<std::string_view>& fields, const Header&
   if (!std::isfinite(e)) return fail("field 'close': close x shares_outstanding overflows");
   if (!std::isnormal(e)) {
     return fail("field 'close': close x shares_outstanding is too small (below 2.2250738585072014e-308)");
+  }
+  if (!(e >= 1e-150 && e <= 1e150)) {
+    return fail("field 'close': equity value close x shares_outstanding must lie in [1e-150, 1e150]");
   }
   return Cell::ok;
 }
@@ -534,6 +542,12 @@ BalanceSheets parse_balance_sheets(std::string_view text, const std::string& ori
       if (k == kDefaultPoint ? !(v > 0.0) : v < 0.0) {
         problem("field '" + std::string(name) + "': must be " +
                 (k == kDefaultPoint ? "positive" : "non-negative") + ", got " + quoted(trim_blanks(cell)));
+        bad = true;
+        break;
+      }
+      // The same amount bound as the book reader's: a default point outside it is a units slip.
+      if (k == kDefaultPoint && !(v >= 1e-150 && v <= 1e150)) {
+        problem("field 'default_point': must lie in [1e-150, 1e150], got " + quoted(trim_blanks(cell)));
         bad = true;
         break;
       }

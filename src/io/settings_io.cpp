@@ -43,7 +43,11 @@ void read_count(const YAML::Node& map, std::string_view key, int& field, const S
                 const std::string& origin) {
   if (const auto n = map[std::string(key)]) {
     const double v = yaml_number(n, origin, key);
-    if (v > 0.0 && (v != std::floor(v) || v > 1e9)) {
+    if (v > 1e9) {
+      throw InputError(located(origin, yaml_line(n),
+                               "key '" + std::string(key) + "': too large (the maximum is 1000000000)"));
+    }
+    if (v > 0.0 && v != std::floor(v)) {
       throw InputError(
           located(origin, yaml_line(n), "key '" + std::string(key) + "': must be a whole number"));
     }
@@ -75,7 +79,11 @@ double positive(const YAML::Node& n, const std::string& origin, std::string_view
 
 int positive_int(const YAML::Node& n, const std::string& origin, std::string_view key) {
   const double v = positive(n, origin, key);
-  if (v != std::floor(v) || v > 1e9) {
+  if (v > 1e9) {
+    throw InputError(located(origin, yaml_line(n),
+                             "key '" + std::string(key) + "': too large (the maximum is 1000000000)"));
+  }
+  if (v != std::floor(v)) {
     throw InputError(located(origin, yaml_line(n), "key '" + std::string(key) + "': must be a whole number"));
   }
   return static_cast<int>(v);
@@ -187,6 +195,12 @@ void read_portfolio(const YAML::Node& s, const std::string& origin, PortfolioSet
     if (rho.IsScalar() && rho.Scalar() == "basel") {
       p.asset_correlation.reset();
     } else {
+      if (rho.IsScalar() && !rho.Scalar().empty() &&
+          std::isalpha(static_cast<unsigned char>(rho.Scalar()[0]))) {
+        throw InputError(located(
+            origin, yaml_line(rho),
+            "key 'asset_correlation': expected basel or a decimal in [0, 1), got '" + rho.Scalar() + "'"));
+      }
       p.asset_correlation = yaml_number(rho, origin, "asset_correlation");
       check_key(p, rho, origin, "asset_correlation");
     }
