@@ -1,5 +1,6 @@
 // `firmcall score BOOK`: the main job.
 #include <unistd.h>
+#include <filesystem>
 
 #include <cstdio>
 #include <iostream>
@@ -162,8 +163,9 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
     store_path = resolve_store_path(opts.db, config.monitor);
     // An existing store is opened once before the run, so a foreign or newer file is refused
     // before anything is scored (a missing one is created only when the run is recorded).
-    if (::access(store_path.c_str(), F_OK) == 0) {
-      const RunStore check(store_path, StoreOpen::existing, config.monitor.busy_timeout_seconds);
+    std::error_code size_error;
+    if (::access(store_path.c_str(), F_OK) == 0 && std::filesystem::file_size(store_path, size_error) != 0) {
+      const RunStore check(store_path, StoreOpen::read_only, config.monitor.busy_timeout_seconds);
     }
   }
   // -o goes to its temporary file; the run is recorded (one transaction) only when the output is

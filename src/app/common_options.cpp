@@ -141,7 +141,7 @@ void add_store_read_options(CLI::App* cmd, StoreReadOptions& o, bool runs) {
 }
 
 RunStore open_store(const std::string& db, const Config& config) {
-  return RunStore(resolve_store_path(db, config.monitor), StoreOpen::existing,
+  return RunStore(resolve_store_path(db, config.monitor), StoreOpen::read_only,
                   config.monitor.busy_timeout_seconds);
 }
 

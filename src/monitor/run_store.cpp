@@ -436,7 +436,7 @@ RunStore::RunStore(const std::string& path, StoreOpen mode, double busy_timeout_
   std::error_code ec;
   const fs::file_status st = fs::status(path, ec);
   if (!fs::exists(st)) {
-    if (mode == StoreOpen::existing) {
+    if (mode != StoreOpen::create) {
       throw StoreError("no history store at '" + path + "'", StoreAdvice::record_first);
     }
     const fs::path folder = fs::path(path).parent_path();
@@ -449,15 +449,38 @@ RunStore::RunStore(const std::string& path, StoreOpen mode, double busy_timeout_
   } else if (fs::is_directory(st)) {
     throw InputError(in_store(path, "is a folder, not a file"));
   } else {
+    // Reading commands never turn an empty file into a store: only recording creates one.
+    if (mode == StoreOpen::read_only && fs::file_size(path, ec) == 0 && !ec) {
+      throw StoreError("'" + path + "' is an empty file, not a history store (left untouched)",
+                       StoreAdvice::record_first);
+    }
     check_foreign(path);
   }
-  // One connection per RunStore, used by one thread at a time: no SQLite mutexes needed.
-  const int flags =
-      SQLITE_OPEN_READWRITE | SQLITE_OPEN_NOMUTEX | (mode == StoreOpen::create ? SQLITE_OPEN_CREATE : 0);
-  const int rc = sqlite3_open_v2(path.c_str(), &im.db, flags, nullptr);
-  if (rc != SQLITE_OK) im.fail(rc, "cannot open it");
-  sqlite3_busy_timeout(im.db, static_cast<int>(std::min(busy_timeout_seconds * 1000.0, 1e9)));
-  im.exec("PRAGMA foreign_keys = ON", "opening it");
+  const auto open = [&](int flags) {
+    // One connection per RunStore, used by one thread at a time: no SQLite mutexes needed.
+    const int rc = sqlite3_open_v2(path.c_str(), &im.db, flags | SQLITE_OPEN_NOMUTEX, nullptr);
+    if (rc != SQLITE_OK) im.fail(rc, "cannot open it");
+    sqlite3_busy_timeout(im.db, static_cast<int>(std::min(busy_timeout_seconds * 1000.0, 1e9)));
+    im.exec("PRAGMA foreign_keys = ON", "opening it");
+  };
+  // A journal left by a killed writer is rolled back on open, which needs a writable connection.
+  const bool hot_journal = fs::exists(path + "-journal", ec) || fs::exists(path + "-wal", ec);
+  if (mode == StoreOpen::read_only && !hot_journal) {
+    // Reading commands open the store read-only; only an older schema is upgraded in place.
+    open(SQLITE_OPEN_READONLY);
+    const int v = read_version(im);
+    if (v == 0) {
+      throw StoreError("'" + path + "' holds no firmcall tables, not a history store (left untouched)",
+                       StoreAdvice::record_first);
+    }
+    if (v == kStoreSchemaVersion) {
+      im.version = v;
+      return;
+    }
+    sqlite3_close_v2(im.db);
+    im.db = nullptr;
+  }
+  open(SQLITE_OPEN_READWRITE | (mode == StoreOpen::create ? SQLITE_OPEN_CREATE : 0));
   migrate(im);
 }
 

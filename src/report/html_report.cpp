@@ -1054,7 +1054,7 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
   }
   if (!options.store_path.empty()) {
     auto mon = std::make_unique<ReportMonitoring>();
-    const RunStore store(options.store_path, StoreOpen::existing, config.monitor.busy_timeout_seconds);
+    const RunStore store(options.store_path, StoreOpen::read_only, config.monitor.busy_timeout_seconds);
     mon->store_path = options.store_path;
     mon->runs_in_store = store.runs().size();
     mon->runs = select_runs(store, options.store_run, options.against);

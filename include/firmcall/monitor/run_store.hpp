@@ -72,8 +72,9 @@ struct StoredObligor {
 
 /// How to open a store.
 enum class StoreOpen {
-  existing,  ///< the file must exist (reading commands)
-  create,    ///< create the file (and its folder) when missing (recording)
+  existing,   ///< the file must exist and be a store; opened for writing
+  read_only,  ///< as existing, opened read-only (reading commands); an empty file is refused
+  create,     ///< create the file (and its folder) when missing (recording)
 };
 
 /// The store is held by another process for longer than the busy timeout.
