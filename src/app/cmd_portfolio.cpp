@@ -11,6 +11,7 @@
 #include "commands.hpp"
 #include "firmcall/book/errors.hpp"
 #include "firmcall/engine/portfolio_book.hpp"
+#include "firmcall/io/calibration_io.hpp"
 #include "firmcall/io/correlation_io.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/output_file.hpp"
@@ -38,6 +39,8 @@ struct PortfolioCli {
   std::string distribution_output;
   ScoringOptions scoring;
   unsigned threads = 0;
+  std::string pd_calibration;  // --pd-calibration: calibration file (calibrate --save)
+  std::string driving_pd;      // --driving-pd: model or calibrated (default: calibrated with a calibration)
 };
 
 // A one-line progress report on standard error, redrawn in place.
@@ -112,6 +115,16 @@ void declare_portfolio_options(CLI::App* cmd, PortfolioCli& o) {
                   "Also write the loss distribution as CSV for plotting (all or nothing)");
   add_scoring_options(cmd, o.scoring, "Horizon in years for every obligor (one horizon for every PD)");
   add_threads_option(cmd, o.threads, "Worker threads (default: all cores); results do not depend on it");
+  cmd->add_option(
+         "--pd-calibration", o.pd_calibration,
+         "Calibration file (firmcall calibrate --save): each obligor's calibrated one-year PD of its "
+         "distance to default drives IRB capital")
+      ->check(CLI::ExistingFile);
+  cmd->add_option("--driving-pd", o.driving_pd,
+                  "PD behind expected loss and the loss distribution: model or calibrated (default: "
+                  "calibrated with --pd-calibration, else model); a calibrated PD over T years is "
+                  "1 - (1 - PD1)^T")
+      ->check(CLI::IsMember({"model", "calibrated"}));
   cmd->footer(
       std::string("\nExit codes: 0 every obligor in the portfolio; 1 some obligors left out (listed, the "
                   "others run); 2 unreadable or malformed file or bad command line.\n\n") +
@@ -173,6 +186,11 @@ PortfolioBookOptions portfolio_options(const PortfolioCli& o, Config& config) {
   run.importance_sampling = o.importance_sampling;
   run.contributions = !o.no_contributions;
   run.distribution = !o.distribution_output.empty();
+  if (o.driving_pd == "calibrated" && o.pd_calibration.empty()) {
+    throw InputError("--driving-pd calibrated: needs --pd-calibration CAL.yaml");
+  }
+  run.driving_pd =
+      o.driving_pd == "model" || o.pd_calibration.empty() ? DrivingPd::model : DrivingPd::calibrated;
   return run;
 }
 
@@ -234,6 +252,12 @@ ExitCode run_portfolio_command(const PortfolioCli& o, const GlobalOptions& globa
   std::unique_ptr<CorrelationFile> correlation;
   if (!o.correlation.empty()) {
     correlation = std::make_unique<CorrelationFile>(load_correlation_file(o.correlation));
+  }
+  CalibrationRecord calibration;
+  if (!o.pd_calibration.empty()) {
+    calibration = read_calibration(o.pd_calibration);
+    run.pd_calibration = &calibration.calibration;
+    run.pd_calibration_origin = o.pd_calibration;
   }
   PortfolioOutputs files;
   open_portfolio_files(o, files);

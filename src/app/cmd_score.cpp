@@ -31,6 +31,7 @@ struct ScoreCli {
   std::string as_of;
   TermOptionText term;
   std::string pd_calibration;  // --pd-calibration: calibration file (calibrate --save)
+  std::string driving_pd;      // --driving-pd: model or calibrated (default: calibrated with a calibration)
 };
 
 struct FileCloser {
@@ -55,6 +56,10 @@ void declare_score_options(CLI::App* cmd, ScoreCli& o) {
   cmd->add_option("--pd-calibration", o.pd_calibration,
                   "Calibration file (firmcall calibrate --save): add each obligor's one-year calibrated PD "
                   "and its interval at the end of the columns");
+  cmd->add_option("--driving-pd", o.driving_pd,
+                  "PD behind the grades: model or calibrated (default: calibrated with --pd-calibration, "
+                  "else model)")
+      ->check(CLI::IsMember({"model", "calibrated"}));
   cmd->footer(
       std::string("\nExit codes: 0 every obligor scored; 1 some obligors invalid or not converged "
                   "(the others are scored); 2 unreadable or malformed file or bad command line.\n\n") +
@@ -145,6 +150,10 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
   if (!opts.pd_calibration.empty() && !wants_term_structure(opts.term)) {
     calibration = read_calibration(opts.pd_calibration);
     run.pd_calibration = &calibration.calibration;
+    if (opts.driving_pd != "model") run.driving_pd = DrivingPd::calibrated;
+  }
+  if (opts.driving_pd == "calibrated" && opts.pd_calibration.empty()) {
+    throw InputError("--driving-pd calibrated: needs --pd-calibration CAL.yaml");
   }
   TermBookOptions term = term_book_options(config.term, opts.term);  // checks the term options
   if (wants_term_structure(opts.term)) {

@@ -48,6 +48,7 @@ std::string_view to_string(PortfolioStatus s) noexcept {
 
 std::string_view PortfolioObligor::irb_pd_basis() const noexcept {
   if (!ok()) return "";
+  if (irb_on_calibrated) return "calibrated";
   return horizon_years == 1.0 ? "model" : "model_converted";
 }
 
@@ -112,7 +113,7 @@ void fill_obligor(const ObligorRecord& rec, const ScoredObligor& base, const Str
     out.lgd = out.ead = out.horizon_years = std::nan("");
   }
   out.pd = base.status == RowStatus::ok ? base.measures.pd : std::nan("");
-  out.pd_one_year = std::nan("");
+  out.pd_one_year = out.pd_calibrated = out.pd_driving = std::nan("");
   if (base.status != RowStatus::ok) {
     out.status = base.status == RowStatus::invalid_input ? PortfolioStatus::invalid_input
                                                          : PortfolioStatus::not_converged;
@@ -138,7 +139,21 @@ void fill_obligor(const ObligorRecord& rec, const ScoredObligor& base, const Str
   out.factor = st.factor;
   // The Basel functions take one-year PDs; the model PD stays as it is for EL and the loss models.
   out.pd_one_year = pd_one_year(out.pd, out.horizon_years);
-  const double floored_pd = std::max(out.pd_one_year, config.irb.pd_floor);
+  out.pd_driving = out.pd;
+  double irb_pd = out.pd_one_year;
+  if (options.pd_calibration) {
+    const double dd = stressed ? stressed->measures.distance_to_default : base.measures.distance_to_default;
+    out.pd_calibrated = options.pd_calibration->evaluate(dd).pd;
+    out.irb_on_calibrated = true;
+    irb_pd = out.pd_calibrated;
+    if (options.driving_pd == DrivingPd::calibrated) {
+      out.pd_driving = pd_over_horizon(out.pd_calibrated, out.horizon_years);
+    }
+  }
+  // The Basel correlation function of the loss models follows the driving PD (one-year, floored).
+  const bool calibrated_drives = options.pd_calibration && options.driving_pd == DrivingPd::calibrated;
+  const double floored_pd =
+      std::max(calibrated_drives ? out.pd_calibrated : out.pd_one_year, config.irb.pd_floor);
   if (options.basel_correlation) {
     out.asset_correlation = irb_corporate_correlation(floored_pd);
     out.correlation_source = CorrelationSource::basel;
@@ -162,9 +177,8 @@ void fill_obligor(const ObligorRecord& rec, const ScoredObligor& base, const Str
   IrbOptions irb_options;
   irb_options.pd_floor = config.irb.pd_floor;
   out.irb = irb_corporate(
-      {.pd = out.pd_one_year, .lgd = out.lgd, .ead = out.ead, .maturity_years = out.maturity_years},
-      irb_options);
-  out.expected_loss = out.pd * out.lgd * out.ead;
+      {.pd = irb_pd, .lgd = out.lgd, .ead = out.ead, .maturity_years = out.maturity_years}, irb_options);
+  out.expected_loss = out.pd_driving * out.lgd * out.ead;
   out.status = PortfolioStatus::ok;
 }
 
@@ -271,8 +285,8 @@ void compute(const Book& book, const CorrelationFile* corr, const Config& config
     const PortfolioObligor& o = res.obligors[i];
     if (!o.ok()) continue;
     included.push_back(i);
-    one.push_back({o.pd, o.lgd * o.ead, o.asset_correlation});
-    multi.push_back({o.pd, o.lgd * o.ead, o.asset_correlation, o.factor});
+    one.push_back({o.pd_driving, o.lgd * o.ead, o.asset_correlation});
+    multi.push_back({o.pd_driving, o.lgd * o.ead, o.asset_correlation, o.factor});
   }
   res.included = included.size();
   check_finite_totals(book, res, included);
@@ -456,8 +470,8 @@ PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& sce
     }
     for (const PortfolioObligor& o : res.obligors) {
       if (!o.ok()) continue;
-      if (o.horizon_years != 1.0) ++run.pd_converted;
-      if (o.pd_one_year < config.irb.pd_floor) ++run.pd_floored;
+      if (o.horizon_years != 1.0 && !o.irb_on_calibrated) ++run.pd_converted;
+      if ((o.irb_on_calibrated ? o.pd_calibrated : o.pd_one_year) < config.irb.pd_floor) ++run.pd_floored;
     }
     compute(book, corr, config, options, res, run.notes);
     run.scenarios.push_back(std::move(res));
@@ -495,6 +509,9 @@ OptionCheck PortfolioBookOptions::validate() const {
   if (threads < 1) return OptionProblem{"threads", std::to_string(threads), "must be at least 1"};
   if (asset_correlation && !(*asset_correlation >= 0.0 && *asset_correlation < 1.0)) {
     return OptionProblem{"asset_correlation", option_value_text(*asset_correlation), "must be in [0, 1)"};
+  }
+  if (driving_pd == DrivingPd::calibrated && !pd_calibration) {
+    return OptionProblem{"driving_pd", "calibrated", "needs a PD calibration"};
   }
   return std::nullopt;
 }

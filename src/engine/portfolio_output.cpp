@@ -48,6 +48,10 @@ std::vector<Cell> row_cells(const PortfolioResult& run, const PortfolioScenarioR
   c.push_back(num(o.ead));
   c.push_back(num(o.horizon_years));
   c.push_back(num(ok ? o.pd_one_year : kNaN));
+  if (run.options.pd_calibration) {
+    c.push_back(num(ok ? o.pd_calibrated : kNaN));
+    c.push_back(num(ok ? o.pd_driving : kNaN));
+  }
   c.push_back(num(ok ? o.expected_loss : kNaN));
   c.push_back(num(ok ? o.asset_correlation : kNaN));
   c.push_back(txt(ok ? std::string(to_string(o.correlation_source)) : std::string()));
@@ -271,7 +275,20 @@ void write_table(const PortfolioResult& run, const Book& book, const TextSink& s
   out += "PD: Merton (" + std::string(to_string(run.settings.measure)) +
          " measure) at each obligor's horizon; LGD as " + "given (" +
          small(100.0 * run.settings.default_lgd, 0) + "% where none is given)\n";
-  out += "Expected loss and loss distribution: over each obligor's horizon (model PD)\n";
+  if (run.options.pd_calibration) {
+    append_wrapped(out, "Driving PD: " + std::string(to_string(run.options.driving_pd)) +
+                            " (--driving-pd); calibrated one-year PDs from " +
+                            run.options.pd_calibration_origin + " (" +
+                            std::string(to_string(run.options.pd_calibration->method)) +
+                            ") of each obligor's distance to default");
+  }
+  if (run.options.pd_calibration && run.options.driving_pd == DrivingPd::calibrated) {
+    out +=
+        "Expected loss and loss distribution: over each obligor's horizon (calibrated PD, "
+        "1 - (1 - PD1)^T)\n";
+  } else {
+    out += "Expected loss and loss distribution: over each obligor's horizon (model PD)\n";
+  }
   append_wrapped(out, "Asset correlation: " + correlation_text(run));
   if (base.exact.status != LossStatus::invalid_input) {
     char buf[256];
@@ -300,7 +317,8 @@ void write_table(const PortfolioResult& run, const Book& book, const TextSink& s
     std::snprintf(buf, sizeof buf, "PD floor %g%% (%s), %zu obligors raised to it", 100.0 * run.irb.pd_floor,
                   std::string(pd_floor_source(run.irb.pd_floor_rule)).c_str(), run.pd_floored);
     const std::string basis =
-        run.pd_converted > 0
+        run.options.pd_calibration ? std::string("the calibrated one-year PD")
+        : run.pd_converted > 0
             ? std::to_string(run.pd_converted) + " model PDs converted to one year, 1 - (1 - PD)^(1/T)"
             : std::string("the model PD, its horizon is one year");
     append_wrapped(out, "IRB PD: one-year PD (" + basis + "); " + buf);
@@ -450,8 +468,8 @@ void monte_carlo_json(std::string& out, const PortfolioResult& run, const Simula
 
 void scenario_json(std::string& out, const PortfolioResult& run, const PortfolioScenarioResult& sc,
                    const Book& book) {
-  const std::vector<std::string> cols =
-      portfolio_columns(run.confidence_levels, run.options.monte_carlo_scenarios > 0);
+  const std::vector<std::string> cols = portfolio_columns(
+      run.confidence_levels, run.options.monte_carlo_scenarios > 0, run.options.pd_calibration != nullptr);
   out += "    {";
   JsonFields(out)
       .text("name", sc.name)
@@ -519,9 +537,15 @@ void write_json(const PortfolioResult& run, const Book& book, const TextSink& si
       .raw("seed", std::to_string(run.portfolio.seed))
       .number("irb_pd_floor", run.irb.pd_floor)
       .text("irb_pd_floor_rule", to_string(run.irb.pd_floor_rule))
-      .text("irb_pd_basis", run.pd_converted > 0 ? "model_converted" : "model")
+      .text("irb_pd_basis", run.options.pd_calibration ? "calibrated"
+                            : run.pd_converted > 0     ? "model_converted"
+                                                       : "model")
       .text("expected_loss_horizon", "obligor")
       .number("irb_maturity", run.irb.maturity_years);
+  if (run.options.pd_calibration) {
+    fields.text("pd_calibration", run.options.pd_calibration_origin)
+        .text("driving_pd", to_string(run.options.driving_pd));
+  }
   out += "},\n  \"scenarios\": [\n";
   sink(out);
   for (std::size_t s = 0; s < run.scenarios.size(); ++s) {
@@ -543,7 +567,8 @@ void write_json(const PortfolioResult& run, const Book& book, const TextSink& si
 
 }  // namespace
 
-std::vector<std::string> portfolio_columns(const std::vector<double>& levels, bool simulated) {
+std::vector<std::string> portfolio_columns(const std::vector<double>& levels, bool simulated,
+                                           bool calibrated) {
   std::vector<std::string> c = {"scenario",
                                 "id",
                                 "name",
@@ -566,6 +591,7 @@ std::vector<std::string> portfolio_columns(const std::vector<double>& levels, bo
                                 "irb_risk_weight",
                                 "irb_capital",
                                 "rwa"};
+  if (calibrated) c.insert(c.begin() + 11, {"pd_calibrated", "pd_driving"});
   for (double l : levels) c.push_back("es_contribution_" + level_label(l));
   for (double l : levels) c.push_back("large_portfolio_es_contribution_" + level_label(l));
   if (simulated) {
@@ -589,7 +615,8 @@ void write_portfolio(const PortfolioResult& run, const Book& book, OutputFormat 
     return;
   }
   std::string out;
-  append_header_csv(out, portfolio_columns(run.confidence_levels, run.options.monte_carlo_scenarios > 0));
+  append_header_csv(out, portfolio_columns(run.confidence_levels, run.options.monte_carlo_scenarios > 0,
+                                           run.options.pd_calibration != nullptr));
   for (const PortfolioScenarioResult& sc : run.scenarios) {
     for (std::size_t i = 0; i < sc.obligors.size(); ++i) {
       append_cells_csv(out, row_cells(run, sc, book, i));

@@ -582,8 +582,8 @@ class ChunkPipeline {
 
 ScoreSummary score_book(const Book& book, const ScoreSettings& settings, const ScoreBookOptions& run,
                         const TextSink& sink) {
-  const auto writer =
-      make_score_writer(run.format, book.origin, settings, run.sensitivities, run.grades, run.pd_calibration);
+  const auto writer = make_score_writer(run.format, book.origin, settings, run.sensitivities, run.grades,
+                                        run.pd_calibration, run.driving_pd);
   const RunContext ctx{book.origin, book.defaults, settings, run, *writer, sink};
   OrderedOutput output(ctx);
   output.begin();
@@ -643,8 +643,8 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
   line += count_lines(std::string_view(buf).substr(pos, header_len));
   buf.erase(0, pos + header_len);
 
-  const auto writer =
-      make_score_writer(run.format, origin, settings, run.sensitivities, run.grades, run.pd_calibration);
+  const auto writer = make_score_writer(run.format, origin, settings, run.sensitivities, run.grades,
+                                        run.pd_calibration, run.driving_pd);
   const RunContext ctx{origin, no_defaults, settings, run, *writer, sink};
   OrderedOutput output(ctx);
   output.begin();

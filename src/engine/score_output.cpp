@@ -204,10 +204,16 @@ void append_calibrated_table_header(std::string& out, const PdCalibration& cal) 
 
 namespace {
 
-// Grade label of a scored obligor, on its one-year PD; empty when it was not scored.
-std::string grade_label(const GradeScale* grades, const ScoredObligor& s) {
+// Grade label of a scored obligor, on its one-year model PD, or with `cal` on the calibrated
+// one-year PD of its DD; empty when it was not scored.
+std::string grade_label(const GradeScale* grades, const ScoredObligor& s, const PdCalibration* cal) {
   if (!grades || s.status != RowStatus::ok) return {};
+  if (cal) return std::string(grades->label_of(cal->evaluate(s.measures.distance_to_default).pd));
   return std::string(grades->label_of_pd_at(s.measures.pd, s.resolved.inputs.horizon_years));
+}
+
+const PdCalibration* graded_on(const PdCalibration* cal, DrivingPd driving) {
+  return driving == DrivingPd::calibrated ? cal : nullptr;
 }
 
 // Values of the numeric columns equity_value .. spread_bp of score_columns(), in order.
@@ -239,8 +245,8 @@ NumericRow numeric_row(const ScoredObligor& s) {
 class CsvWriter final : public ScoreWriter {
  public:
   CsvWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades,
-            const PdCalibration* cal)
-      : sensitivities_(sensitivities), grades_(grades), cal_(cal) {}
+            const PdCalibration* cal, DrivingPd driving)
+      : sensitivities_(sensitivities), grades_(grades), cal_(cal), grade_cal_(graded_on(cal, driving)) {}
   void begin(std::string& out) const override {
     append_csv_names(out, score_columns());
     if (sensitivities_) {
@@ -282,7 +288,7 @@ class CsvWriter final : public ScoreWriter {
     }
     if (grades_) {
       out.push_back(',');
-      append_csv_text(out, grade_label(grades_, s));
+      append_csv_text(out, grade_label(grades_, s, grade_cal_));
     }
     if (cal_) append_calibrated_csv(out, *cal_, s);
     out.push_back('\n');
@@ -293,17 +299,19 @@ class CsvWriter final : public ScoreWriter {
   bool sensitivities_;
   const GradeScale* grades_;
   const PdCalibration* cal_;
+  const PdCalibration* grade_cal_;  // grades on the calibrated PD when set
 };
 
 class JsonWriter final : public ScoreWriter {
  public:
   JsonWriter(std::string origin, const ScoreSettings& settings, bool sensitivities, const GradeScale* grades,
-             const PdCalibration* cal)
+             const PdCalibration* cal, DrivingPd driving)
       : origin_(std::move(origin)),
         settings_(settings),
         sensitivities_(sensitivities),
         grades_(grades),
-        cal_(cal) {}
+        cal_(cal),
+        grade_cal_(graded_on(cal, driving)) {}
   void begin(std::string& out) const override {
     out += "{\n  \"run\": {";
     JsonFields(out).text("input", origin_).text("measure", to_string(settings_.measure));
@@ -331,7 +339,8 @@ class JsonWriter final : public ScoreWriter {
           out, usable ? sensitivities_of(s.resolved, s.solution) : MertonSensitivities{}, usable);
     }
     if (grades_)
-      JsonFields(out, false).text_or_null("grade", grade_label(grades_, s), s.status == RowStatus::ok);
+      JsonFields(out, false)
+          .text_or_null("grade", grade_label(grades_, s, grade_cal_), s.status == RowStatus::ok);
     if (cal_) append_calibrated_json(out, *cal_, s);
     out += "}";
   }
@@ -343,14 +352,15 @@ class JsonWriter final : public ScoreWriter {
   bool sensitivities_;
   const GradeScale* grades_;
   const PdCalibration* cal_;
+  const PdCalibration* grade_cal_;  // grades on the calibrated PD when set
 };
 
 // Fixed-width text for people: 118 columns (with grades: a grade column, and the name 5 narrower).
 class TableWriter final : public ScoreWriter {
  public:
   TableWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades,
-              const PdCalibration* cal)
-      : sensitivities_(sensitivities), grades_(grades), cal_(cal) {}
+              const PdCalibration* cal, DrivingPd driving)
+      : sensitivities_(sensitivities), grades_(grades), cal_(cal), grade_cal_(graded_on(cal, driving)) {}
   void begin(std::string& out) const override {
     char buf[256];
     std::snprintf(buf, sizeof buf, kHeader, "obligor", name_width(), "name", "asset", "asset", "default",
@@ -361,6 +371,10 @@ class TableWriter final : public ScoreWriter {
     out += buf;
     if (sensitivities_) append_sensitivities_table_header(out, 2);
     if (cal_) append_calibrated_table_header(out, *cal_);
+    if (cal_ && grades_) {
+      out += grade_cal_ ? "  grade on the calibrated one-year PD (driving PD: calibrated)\n"
+                        : "  grade on the one-year model PD (driving PD: model)\n";
+    }
     append_rule(out, kRuleWidth);
   }
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
@@ -380,7 +394,7 @@ class TableWriter final : public ScoreWriter {
                   100.0 * m.asset_vol_annual, amount(m.default_point).c_str(), m.leverage,
                   m.distance_to_default, small(100.0 * m.pd, 4).c_str(), fmt::format("{:g}", horizon).c_str(),
                   small(100.0 * pd_one_year(m.pd, horizon), 4).c_str(), small(m.spread_bp, 2).c_str(),
-                  grade_cell(grade_label(grades_, s)).c_str(), "ok");
+                  grade_cell(grade_label(grades_, s, grade_cal_)).c_str(), "ok");
     out += buf;
     if (sensitivities_) append_sensitivities_table(out, sensitivities_of(s.resolved, s.solution), 2);
     if (cal_) append_calibrated_table(out, *cal_, s);
@@ -407,6 +421,7 @@ class TableWriter final : public ScoreWriter {
   }
   const GradeScale* grades_;
   const PdCalibration* cal_;
+  const PdCalibration* grade_cal_;  // grades on the calibrated PD when set
   static std::string fit(const std::string& s, std::size_t w) { return fit_text(s, w); }
   static std::string amount(double v) {
     char buf[64];
@@ -435,10 +450,10 @@ class TableWriter final : public ScoreWriter {
 
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
                                                const ScoreSettings& settings, bool sensitivities,
-                                               const GradeScale* grades,
-                                               const PdCalibration* pd_calibration) {
+                                               const GradeScale* grades, const PdCalibration* pd_calibration,
+                                               DrivingPd driving_pd) {
   return make_format_writer<ScoreWriter, CsvWriter, JsonWriter, TableWriter>(
-      format, origin, settings, sensitivities, grades, pd_calibration);
+      format, origin, settings, sensitivities, grades, pd_calibration, driving_pd);
 }
 
 }  // namespace firmcall

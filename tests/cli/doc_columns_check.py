@@ -175,6 +175,8 @@ def main():
             ("portfolio", ["portfolio", book, "-f", "csv", "-o", "portfolio.csv", "--summary-output",
                            "portfolio_summary.csv", "--distribution-output", "distribution.csv"],
              "portfolio.csv"),
+            ("portfolio_pd_calibration", ["portfolio", book, "--pd-calibration", s("calibration.yaml"), "-f",
+                                          "csv", "-o", "portfolio_calibrated.csv"], "portfolio_calibrated.csv"),
             ("portfolio_summary", None, "portfolio_summary.csv"),
             ("portfolio_distribution", None, "distribution.csv"),
             ("portfolio_monte_carlo", ["portfolio", book, "--monte-carlo", "2000", "-f", "csv", "-o",

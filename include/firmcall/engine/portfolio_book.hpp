@@ -6,7 +6,9 @@
 // PD of stress.hpp); the expected loss and the loss distributions use it as it is, over the
 // obligor's horizon. The IRB capital formula (and the Basel correlation function) take a one-year
 // PD: pd_one_year (model/pd_horizon.hpp) converts a PD over another horizon, then the PD floor of
-// the settings (irb.pd_floor) applies; the model PD itself is never floored. EAD must be given, LGD is the
+// the settings (irb.pd_floor) applies; the model PD itself is never floored. With a PD calibration
+// (PortfolioBookOptions::pd_calibration) the calibrated one-year PD of the DD replaces it in IRB, and with
+// driving_pd calibrated also in EL and the loss models (driving_pd.hpp). EAD must be given, LGD is the
 // obligor's, else the book's, else the configured default (0.45), and its loss on default is LGD x EAD. The
 // asset correlation rho comes from, in this order: --asset-correlation, the obligor's asset_correlation, its
 // sector in the correlation file, the configuration (portfolio.asset_correlation), else the Basel corporate
@@ -35,6 +37,7 @@
 #include <vector>
 
 #include "firmcall/book/settings.hpp"
+#include "firmcall/engine/driving_pd.hpp"
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/io/correlation_io.hpp"
 #include "firmcall/io/obligor_io.hpp"
@@ -71,10 +74,17 @@ struct PortfolioObligor {
   CorrelationSource correlation_source = CorrelationSource::basel;
   std::uint32_t factor = 0;     ///< sector factor (0 without a correlation file)
   double maturity_years = 0.0;  ///< IRB M as given (the formula holds it to [1, 5])
-  IrbResult irb;                ///< on pd_one_year, floored (irb.pd is the PD the formula used)
+  IrbResult irb;                ///< on pd_one_year (or pd_calibrated), floored (irb.pd: the PD used)
+  /// With a calibration: the calibrated one-year PD of the obligor's (stressed) DD; else NaN.
+  double pd_calibrated = 0.0;
+  /// The PD over the horizon behind expected loss and the loss distribution: pd, or with the
+  /// calibrated PD driving, 1 - (1 - pd_calibrated)^T.
+  double pd_driving = 0.0;
+  bool irb_on_calibrated = false;  ///< the IRB PD is pd_calibrated (a calibration was given)
   bool ok() const noexcept { return status == PortfolioStatus::ok; }
-  /// The IRB PD's basis: "model" (a one-year model PD, used as it is) or "model_converted" (a PD
-  /// over another horizon converted with pd_one_year); "" when not in the portfolio.
+  /// The IRB PD's basis: "model" (a one-year model PD, used as it is), "model_converted" (a PD
+  /// over another horizon converted with pd_one_year) or "calibrated" (the calibrated one-year
+  /// PD); "" when not in the portfolio.
   std::string_view irb_pd_basis() const noexcept;
 };
 
@@ -117,9 +127,15 @@ struct PortfolioBookOptions {
   bool contributions = true;  ///< ES contributions (exact and simulated)
   bool distribution = false;  ///< also the large-portfolio and simulated exceedance curves
   std::size_t max_listed_problems = 20;
+  /// When set (and ok): every obligor's calibrated one-year PD drives IRB capital (and the Basel
+  /// correlation function); with driving_pd calibrated also expected loss and the loss models.
+  const PdCalibration* pd_calibration = nullptr;
+  std::string pd_calibration_origin;        ///< the calibration file, for the output
+  DrivingPd driving_pd = DrivingPd::model;  ///< calibrated needs pd_calibration
   /// Called between simulation batches: (scenario name, scenarios done, scenarios in all).
   std::function<void(const std::string&, std::uint64_t, std::uint64_t)> progress;
-  /// threads >= 1; asset_correlation, when given, in [0, 1).
+  /// threads >= 1; asset_correlation, when given, in [0, 1); driving_pd calibrated only with a
+  /// calibration.
   OptionCheck validate() const;
 };
 
@@ -154,7 +170,9 @@ PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& sce
 
 /// Column names of the machine-readable obligor rows for these confidence levels (contribution
 /// columns are named by level: es_contribution_99p9 for 99.9%), with or without simulation columns.
-std::vector<std::string> portfolio_columns(const std::vector<double>& confidence_levels, bool simulated);
+/// With `calibrated` (--pd-calibration), pd_calibrated and pd_driving follow pd_one_year.
+std::vector<std::string> portfolio_columns(const std::vector<double>& confidence_levels, bool simulated,
+                                           bool calibrated = false);
 
 /// Writes the run: a table for people, or obligor rows as CSV or JSON (JSON adds the groups and
 /// portfolio measures).

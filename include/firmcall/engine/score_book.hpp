@@ -13,6 +13,7 @@
 #include "firmcall/book/grades.hpp"
 #include "firmcall/book/obligor.hpp"
 #include "firmcall/book/settings.hpp"
+#include "firmcall/engine/driving_pd.hpp"
 #include "firmcall/estimate/calibration.hpp"
 #include "firmcall/format/cells.hpp"
 #include "firmcall/io/obligor_io.hpp"
@@ -68,6 +69,8 @@ struct ScoreBookOptions {
   const GradeScale* grades = nullptr;  ///< when set, the output shows each obligor's grade
   /// When set (and ok), the output ends with the one-year calibrated PD of each obligor's DD.
   const PdCalibration* pd_calibration = nullptr;
+  /// With a calibration: calibrated puts the grades on the calibrated one-year PD.
+  DrivingPd driving_pd = DrivingPd::model;
   /// threads >= 1, chunk_bytes > 0.
   OptionCheck validate() const;
 };

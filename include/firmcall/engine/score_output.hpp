@@ -63,11 +63,13 @@ class ScoreWriter {
 /// `sensitivities` every format adds the sensitivity columns (the table a second line per obligor).
 /// With `grades`, each scored obligor also shows its grade (a last CSV column and JSON key `grade`,
 /// a table column). With `pd_calibration`, every format ends with the one-year calibrated PD of the
-/// obligor's DD (pd_calibration_columns(); the table a line per obligor).
+/// obligor's DD (pd_calibration_columns(); the table a line per obligor). With a calibration and
+/// `driving_pd` calibrated, grades are on the calibrated one-year PD (the table header says which).
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
                                                const ScoreSettings& settings, bool sensitivities = false,
                                                const GradeScale* grades = nullptr,
-                                               const PdCalibration* pd_calibration = nullptr);
+                                               const PdCalibration* pd_calibration = nullptr,
+                                               DrivingPd driving_pd = DrivingPd::model);
 
 /// Names of the calibrated-PD columns (--pd-calibration), appended after every other column:
 /// pd_calibrated, pd_calibrated_lower, pd_calibrated_upper (one-year PDs at the calibration's
