@@ -6,6 +6,7 @@
 #include "firmcall/engine/validate_book.hpp"
 #include "firmcall/io/outcomes_io.hpp"
 #include "firmcall/io/output_file.hpp"
+#include "firmcall/monitor/store_outcomes.hpp"
 
 namespace firmcall::cli {
 
@@ -16,6 +17,10 @@ struct ValidateCli {
   std::string pd_column = "pd";
   std::string compare_column;
   std::string against;
+  std::string curves;
+  std::string db;
+  std::string defaults;
+  double horizon_years = 1.0;
   OutputOptions out;
 };
 
@@ -25,20 +30,47 @@ ExitCode run_validate_command(const ValidateCli& o, const GlobalOptions& global)
   read.pd_column = o.pd_column;
   read.compare_column = o.compare_column;
   read.keep_ids = !o.against.empty();
-  // Both files are read and every statistic computed before any output is written.
-  const OutcomeSample sample = load_outcomes(o.outcomes, read, config.grades);
+  if (o.outcomes.empty() == o.defaults.empty()) {
+    throw InputError("validate: give either an OUTCOMES file or --defaults FILE (with --db STORE)");
+  }
+  if (!o.defaults.empty() && (o.pd_column != "pd" || !o.compare_column.empty())) {
+    throw InputError(
+        "validate: --pd-column and --compare-column apply to an OUTCOMES file, not to --defaults");
+  }
+  // Every input is read and every statistic computed before any output is written.
+  std::vector<std::string> store_notes;
+  const OutcomeSample sample = [&] {
+    if (o.defaults.empty()) return load_outcomes(o.outcomes, read, config.grades);
+    const DefaultDates dates = load_default_dates(o.defaults);
+    const RunStore store = open_store(o.db, config);
+    StoreOutcomeCounts counts;
+    OutcomeSample s = outcomes_from_store(store, dates, StoreOutcomeOptions{.horizon_years = o.horizon_years},
+                                          config.grades, &counts);
+    store_notes.push_back(store.path() + ": " + std::to_string(counts.runs) + " runs; left out " +
+                          std::to_string(counts.defaulted_before) +
+                          " obligor entries defaulted on or before "
+                          "the as-of date, " +
+                          std::to_string(counts.not_scored) + " not scored");
+    return s;
+  }();
   std::unique_ptr<OutcomeSample> earlier;
   if (!o.against.empty()) {
     OutcomeReadOptions other = read;
     other.compare_column.clear();
     earlier = std::make_unique<OutcomeSample>(load_outcomes(o.against, other, config.grades));
   }
-  const ValidationRun run = run_validation(sample, earlier.get());
-  OutputFile out(o.out.output);
+  const ValidationRun run = run_validation(sample, earlier.get(), !o.curves.empty());
+  OutputSet outputs;
+  OutputFile& out = outputs.add("-o", o.out.output);
   write_validation(run, o.out.format, [&out](std::string_view s) { out.write(s); });
-  out.commit();
+  if (!o.curves.empty()) {
+    OutputFile& curves = outputs.add("--curves", o.curves);
+    write_validation_curves(run, [&curves](std::string_view s) { curves.write(s); });
+  }
+  outputs.commit();
   if (!global.quiet) {
     std::vector<std::string> notes = sample.notes;
+    notes.insert(notes.end(), store_notes.begin(), store_notes.end());
     if (earlier) notes.insert(notes.end(), earlier->notes.begin(), earlier->notes.end());
     print_run_notes(notes, {}, 0, o.out,
                     "validated PD column '" + run.pd_column + "' on " + std::to_string(sample.pd.size()) +
@@ -57,15 +89,25 @@ void add_validate_command(CLI::App& app, const GlobalOptions& global, CommandAct
       "validate",
       "Validation and backtesting of PDs against observed defaults: AUC, calibration tests, stability");
   cmd->add_option("outcomes", o->outcomes,
-                  "Outcomes CSV: id, pd, defaulted (0/1), optional grade, as_of, segment")
-      ->required()
+                  "Outcomes CSV: id, pd, defaulted (0/1), optional grade, as_of, segment (or use --defaults)")
       ->check(CLI::ExistingFile);
+  add_db_option(cmd, o->db);
+  cmd->add_option("--defaults", o->defaults,
+                  "Defaults CSV (id, default_date YYYY-MM-DD): build the outcomes from every run recorded "
+                  "in the history store instead of an OUTCOMES file")
+      ->check(CLI::ExistingFile);
+  cmd->add_option("--horizon", o->horizon_years,
+                  "With --defaults: years after each run's as-of date in which a default counts "
+                  "(365.25 days a year; default 1)");
   cmd->add_option("--pd-column", o->pd_column, "Column of the PD under test (default: pd)");
   cmd->add_option("--compare-column", o->compare_column,
                   "A second PD column on the same rows: DeLong's test of the two AUCs");
   cmd->add_option("--against", o->against,
                   "An earlier outcomes file: population stability index and grade migration (matched on id)")
       ->check(CLI::ExistingFile);
+  cmd->add_option("--curves", o->curves,
+                  "Write the ROC and CAP points to this CSV file (pd_threshold, false_positive_rate, "
+                  "true_positive_rate, population_fraction, defaults_fraction)");
   add_output_options(cmd, o->out);
   cmd->footer(
       std::string("\nExit codes: 0 validated; 2 unreadable or malformed file (nothing written) or bad "

@@ -289,13 +289,13 @@ void write_table(const ValidationRun& run, std::string& out) {
 
 }  // namespace
 
-ValidationRun run_validation(const OutcomeSample& sample, const OutcomeSample* earlier) {
+ValidationRun run_validation(const OutcomeSample& sample, const OutcomeSample* earlier, bool curves) {
   ValidationRun run;
   run.origin = sample.origin;
   run.pd_column = sample.pd_column;
   run.compare_column = sample.compare_column;
   run.grade_labels = sample.grade_labels;
-  run.discrimination = discrimination(sample.pd, sample.defaulted);
+  run.discrimination = discrimination(sample.pd, sample.defaulted, curves);
   require_ok(run.discrimination.status, sample.origin, sample.pd_column);
   if (earlier != nullptr) run.stability = stability(sample, *earlier, run.grade_labels);
   run.calibration =
@@ -322,6 +322,18 @@ void write_validation(const ValidationRun& run, OutputFormat format, const TextS
     case OutputFormat::table:
       write_table(run, out);
       break;
+  }
+  sink(out);
+}
+
+void write_validation_curves(const ValidationRun& run, const TextSink& sink) {
+  std::string out =
+      "pd_threshold,false_positive_rate,true_positive_rate,population_fraction,defaults_fraction\n";
+  for (const CurvePoint& p : run.discrimination.curve) {
+    append_number(out, p.threshold_pd);  // nothing for the first point's infinite threshold
+    const double rest[] = {p.false_positive_rate, p.hit_rate, p.population_share, p.hit_rate};
+    append_csv_numbers(out, rest);
+    out += "\n";
   }
   sink(out);
 }

@@ -12,6 +12,8 @@ References, each beside its check:
   Jeffreys p        scipy.stats.beta.cdf(mean PD, d + 1/2, n - d + 1/2), to 1e-10
   Hosmer-Lemeshow   scipy.stats.chi2.sf with G degrees of freedom on a small worked example
   PSI               a worked example by hand (in the comment)
+  --curves          ROC points vs sklearn.metrics.roc_curve (drop_intermediate=False), to 1e-12;
+                    CAP population fraction vs numpy (share of PDs >= threshold)
 Also bad input on the command line: exit code 2, file, line and field named, no output file.
 Needs /usr/bin/python3 with numpy, scipy and scikit-learn (python3-sklearn python3-scipy).
 """
@@ -23,7 +25,7 @@ import tempfile
 
 import numpy as np
 from scipy import stats
-from sklearn.metrics import roc_auc_score
+from sklearn.metrics import roc_auc_score, roc_curve
 
 # The default master scale of config/firmcall.yaml.
 SCALE = [("FC1", 0.0001), ("FC2", 0.00025), ("FC3", 0.0005), ("FC4", 0.001), ("FC5", 0.0025),
@@ -139,8 +141,42 @@ def check_generated(firmcall, work):
             df += 1
     close("hosmer_lemeshow vs definition (numpy)", out["hosmer_lemeshow"], hl, 1e-9)
     close("hosmer_lemeshow_p vs scipy.stats.chi2.sf", out["hosmer_lemeshow_p"], stats.chi2.sf(hl, df), 1e-10)
+    check_curves(firmcall, work, path, pd, y)
     nd = int(y.sum())
     close("binomial_p overall vs scipy.stats.binom.sf", out["binomial_p"], stats.binom.sf(nd - 1, n, pd.mean()), 1e-10)
+
+
+def read_curves(path):
+    with open(path) as f:
+        header = f.readline().strip().split(",")
+        rows = [line.rstrip("\n").split(",") for line in f]
+    return header, rows
+
+
+def check_curves(firmcall, work, path, pd, y):
+    target = os.path.join(work, "curves.csv")
+    run(firmcall, ["validate", path, "--format", "json", "-o", os.path.join(work, "v.json"), "--curves", target])
+    header, rows = read_curves(target)
+    if header != ["pd_threshold", "false_positive_rate", "true_positive_rate", "population_fraction",
+                  "defaults_fraction"]:
+        failures.append(f"curves header {header}")
+        return
+    fpr, tpr, thr = roc_curve(y, pd, drop_intermediate=False)  # sklearn: first point above every PD
+    if len(rows) != len(fpr):
+        failures.append(f"curves: {len(rows)} points, sklearn roc_curve {len(fpr)}")
+        return
+    if rows[0][0] != "":
+        failures.append(f"curves: first threshold {rows[0][0]!r} (expected empty, above every PD)")
+    got = np.array([[float(c) for c in r[1:]] for r in rows])
+    got_thr = np.array([float(r[0]) for r in rows[1:]])
+    close("curve thresholds vs sklearn roc_curve", float(np.max(np.abs(got_thr - thr[1:]))), 0.0, 0.0)
+    close("curve false_positive_rate vs sklearn roc_curve", float(np.max(np.abs(got[:, 0] - fpr))), 0.0, 1e-12)
+    close("curve true_positive_rate vs sklearn roc_curve", float(np.max(np.abs(got[:, 1] - tpr))), 0.0, 1e-12)
+    share = np.array([0.0] + [float(np.mean(pd >= t)) for t in thr[1:]])  # CAP x by definition (numpy)
+    close("curve population_fraction vs numpy share of PD >= threshold", float(np.max(np.abs(got[:, 2] - share))),
+          0.0, 1e-12)
+    close("curve defaults_fraction = true_positive_rate (CAP y, definition)",
+          float(np.max(np.abs(got[:, 3] - tpr))), 0.0, 1e-12)
 
 
 def check_worked_examples(firmcall, work):

@@ -43,10 +43,17 @@ struct ValidationRun {
 };
 
 /// Runs every statistic on `sample` (and against `earlier` when not null; both read with
-/// keep_ids). Throws InputError when a statistic cannot be computed (the message says why).
-ValidationRun run_validation(const OutcomeSample& sample, const OutcomeSample* earlier);
+/// keep_ids); with `curves`, also the ROC and CAP points (discrimination.curve). Throws InputError
+/// when a statistic cannot be computed (the message says why).
+ValidationRun run_validation(const OutcomeSample& sample, const OutcomeSample* earlier, bool curves = false);
 
 /// Writes the run as a table, CSV (pd_column,grade,statistic,value) or JSON.
 void write_validation(const ValidationRun& run, OutputFormat format, const TextSink& sink);
+
+/// Writes the ROC and CAP points of a run made with `curves` as CSV:
+/// pd_threshold,false_positive_rate,true_positive_rate,population_fraction,defaults_fraction, one
+/// row per distinct PD from the highest down, after a first row (0, 0, 0, 0) whose threshold is
+/// left empty (above every PD). defaults_fraction (CAP y) equals true_positive_rate (ROC y).
+void write_validation_curves(const ValidationRun& run, const TextSink& sink);
 
 }  // namespace firmcall
