@@ -16,13 +16,6 @@ namespace firmcall {
 
 namespace {
 
-std::string quoted(std::string_view cell) {
-  std::string s = "'";
-  s += cell.substr(0, 40);
-  if (cell.size() > 40) s += "...";
-  return s + "'";
-}
-
 bool is_date(std::string_view s) {
   if (s.size() != 10 || s[4] != '-' || s[7] != '-') return false;
   int y = 0;
@@ -103,16 +96,16 @@ DefaultHistory read_default_history(const std::string& path) {
     };
     const std::string_view id = cell(kId), as_of = cell(kAsOf);
     if (id.empty()) fail(kId, "missing");
-    if (!is_date(as_of)) fail(kAsOf, "expected a date YYYY-MM-DD, got " + quoted(as_of));
+    if (!is_date(as_of)) fail(kAsOf, "expected a date YYYY-MM-DD, got " + quoted_cell(as_of));
     double dd = 0.0;
     if (cell(kDd).empty()) fail(kDd, "missing");
-    if (!parse_number(cell(kDd), dd)) fail(kDd, "expected a finite number, got " + quoted(cell(kDd)));
+    if (!parse_number(cell(kDd), dd)) fail(kDd, "expected a finite number, got " + quoted_cell(cell(kDd)));
     const std::string_view y = cell(kDefaulted);
-    if (y != "0" && y != "1") fail(kDefaulted, "expected 0 or 1, got " + quoted(y));
+    if (y != "0" && y != "1") fail(kDefaulted, "expected 0 or 1, got " + quoted_cell(y));
     double w = 1.0;
     if (at[kWeight] >= 0) {
       if (!parse_number(cell(kWeight), w) || w < 0.0) {
-        fail(kWeight, "expected a non-negative number, got " + quoted(cell(kWeight)));
+        fail(kWeight, "expected a non-negative number, got " + quoted_cell(cell(kWeight)));
       }
       h.weight.push_back(w);
     }

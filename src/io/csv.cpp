@@ -24,11 +24,16 @@ std::string no_final_line_break_note() {
          "(check that the file was not cut short)";
 }
 
+std::string quoted_cell(std::string_view cell) {
+  std::string s = "'";
+  s += cell.substr(0, 40);
+  if (cell.size() > 40) s += "...";
+  return s + "'";
+}
+
 std::string stray_quote_problem(std::string_view column, std::string_view cell) {
-  std::string shown(cell.substr(0, 40));
-  if (cell.size() > 40) shown += "...";
-  return "field '" + std::string(column) + "': stray '\"' in the cell '" + shown +
-         "' (a cell holding quotes must be quoted whole, with each inner quote doubled)";
+  return "field '" + std::string(column) + "': stray '\"' in the cell " + quoted_cell(cell) +
+         " (a cell holding quotes must be quoted whole, with each inner quote doubled)";
 }
 
 std::size_t split_csv_record(std::string_view text, std::vector<std::string_view>& fields,

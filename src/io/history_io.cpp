@@ -15,14 +15,6 @@ namespace firmcall {
 
 namespace {
 
-std::string quoted(std::string_view cell) {
-  std::string s = "'";
-  s += cell.substr(0, 40);
-  if (cell.size() > 40) s += "...";
-  s += "'";
-  return s;
-}
-
 struct FileCloser {
   void operator()(std::FILE* f) const { std::fclose(f); }
 };
@@ -166,7 +158,7 @@ Cell read_number(std::string_view cell, double& v) {
 
 std::string not_a_number(std::string_view field, std::string_view cell) {
   return "field '" + std::string(field) + "': expected a decimal number such as 24.5, got " +
-         quoted(trim_blanks(cell));
+         quoted_cell(trim_blanks(cell));
 }
 
 std::string not_a_date(std::string_view field, std::string_view cell) {
@@ -178,11 +170,11 @@ std::string not_a_date(std::string_view field, std::string_view cell) {
            std::string(kFirstIsoDate) + " to " + std::string(kLastIsoDate);
   }
   return "field '" + std::string(field) + "': expected an ISO 8601 date such as 2026-03-31, got " +
-         quoted(cell);
+         quoted_cell(cell);
 }
 
 std::string not_positive(std::string_view field, std::string_view cell) {
-  return "field '" + std::string(field) + "': must be positive, got " + quoted(trim_blanks(cell));
+  return "field '" + std::string(field) + "': must be positive, got " + quoted_cell(trim_blanks(cell));
 }
 
 // A positive value too small for a double's full precision (subnormal, below 2.2e-308): logs and
@@ -192,7 +184,7 @@ bool too_small(double v) noexcept {
 }
 
 std::string too_small_problem(std::string_view field, std::string_view cell) {
-  return "field '" + std::string(field) + "': " + quoted(trim_blanks(cell)) +
+  return "field '" + std::string(field) + "': " + quoted_cell(trim_blanks(cell)) +
          " is too small (below 2.2250738585072014e-308, the smallest normal double)";
 }
 
@@ -300,7 +292,7 @@ Cell row_equity_value(const std::vector<std::string_view>& fields, const Header&
     // The book reader's equity bound: log returns of values outside it overflow the variance.
     if (mc == Cell::ok && !(e >= 1e-150 && e <= 1e150)) {
       return fail("field 'market_cap': equity value must lie in [1e-150, 1e150], got " +
-                  quoted(trim_blanks(cell(kMarketCap))));
+                  quoted_cell(trim_blanks(cell(kMarketCap))));
     }
   }
   if (mc != Cell::absent || !hdr.has(kClose) || !hdr.has(kShares)) return mc;
@@ -541,13 +533,14 @@ BalanceSheets parse_balance_sheets(std::string_view text, const std::string& ori
       if (c == Cell::absent) continue;
       if (k == kDefaultPoint ? !(v > 0.0) : v < 0.0) {
         problem("field '" + std::string(name) + "': must be " +
-                (k == kDefaultPoint ? "positive" : "non-negative") + ", got " + quoted(trim_blanks(cell)));
+                (k == kDefaultPoint ? "positive" : "non-negative") + ", got " +
+                quoted_cell(trim_blanks(cell)));
         bad = true;
         break;
       }
       // The same amount bound as the book reader's: a default point outside it is a units slip.
       if (k == kDefaultPoint && !(v >= 1e-150 && v <= 1e150)) {
-        problem("field 'default_point': must lie in [1e-150, 1e150], got " + quoted(trim_blanks(cell)));
+        problem("field 'default_point': must lie in [1e-150, 1e150], got " + quoted_cell(trim_blanks(cell)));
         bad = true;
         break;
       }

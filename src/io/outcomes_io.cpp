@@ -20,14 +20,6 @@ namespace {
 
 constexpr std::size_t kBlockBytes = 1 << 20;
 
-std::string quoted(std::string_view cell) {
-  std::string s = "'";
-  s += cell.substr(0, 40);
-  if (cell.size() > 40) s += "...";
-  s += "'";
-  return s;
-}
-
 enum Column : std::size_t { kId, kPd, kCompare, kDefaulted, kGrade, kAsOf, kSegment, kColumns };
 
 class OutcomeParser {
@@ -115,8 +107,8 @@ class OutcomeParser {
 
   [[noreturn]] void bad(std::size_t line, std::string_view field, const std::string& reason,
                         std::string_view value) const {
-    throw InputError(
-        located(origin_, line, "field '" + std::string(field) + "': " + reason + ", got " + quoted(value)));
+    throw InputError(located(
+        origin_, line, "field '" + std::string(field) + "': " + reason + ", got " + quoted_cell(value)));
   }
 
   double probability(const std::vector<std::string_view>& fields, std::size_t k, std::string_view field,

@@ -14,14 +14,6 @@ namespace firmcall {
 
 namespace {
 
-std::string quoted(std::string_view cell) {
-  std::string s = "'";
-  s += cell.substr(0, 40);
-  if (cell.size() > 40) s += "...";
-  s += "'";
-  return s;
-}
-
 struct FileCloser {
   void operator()(std::FILE* f) const { std::fclose(f); }
 };
@@ -96,11 +88,11 @@ DefaultDates parse_default_dates(std::string_view text, const std::string& origi
     std::int64_t day = 0;
     if (!calendar_day(date, day)) {
       throw InputError(located(
-          origin, at, "field 'default_date': expected a calendar date YYYY-MM-DD, got " + quoted(date)));
+          origin, at, "field 'default_date': expected a calendar date YYYY-MM-DD, got " + quoted_cell(date)));
     }
     if (!d.day_of.emplace(std::string(id), day).second) {
-      throw InputError(
-          located(origin, at, "field 'id': appears twice (one default date per obligor), got " + quoted(id)));
+      throw InputError(located(
+          origin, at, "field 'id': appears twice (one default date per obligor), got " + quoted_cell(id)));
     }
   }
   if (!have_header) throw InputError(located(origin, 0, "empty file: a header row is required"));
@@ -147,7 +139,7 @@ OutcomeSample outcomes_from_store(const RunStore& store, const DefaultDates& def
     std::int64_t as_of = 0;
     if (!calendar_day(run.as_of, as_of)) {
       throw InputError(store.path() + ": run " + std::to_string(run.run_id) + ": as-of date " +
-                       quoted(run.as_of) + " is not a calendar date");
+                       quoted_cell(run.as_of) + " is not a calendar date");
     }
     for (const StoredObligor& o : store.obligors(run.run_id, false)) {
       if (!o.has_measures || o.id.empty() || !(o.measures.pd >= 0.0 && o.measures.pd <= 1.0)) {

@@ -3,36 +3,17 @@
 namespace firmcall {
 
 bool valid_utf8(std::string_view s) noexcept {
-  const auto* p = reinterpret_cast<const unsigned char*>(s.data());
-  const auto* const end = p + s.size();
-  while (p < end) {
-    const unsigned c = *p;
-    if (c < 0x80) {
-      ++p;
+  // ASCII bytes are stepped over here (the common case in books); a lead byte goes through
+  // next_utf8, the one decoder of a sequence.
+  std::size_t i = 0;
+  while (i < s.size()) {
+    if (static_cast<unsigned char>(s[i]) < 0x80) {
+      ++i;
       continue;
     }
-    int n;
-    unsigned cp;
-    if ((c & 0xE0) == 0xC0) {
-      n = 1;
-      cp = c & 0x1F;
-    } else if ((c & 0xF0) == 0xE0) {
-      n = 2;
-      cp = c & 0x0F;
-    } else if ((c & 0xF8) == 0xF0) {
-      n = 3;
-      cp = c & 0x07;
-    } else {
-      return false;
-    }
-    if (end - p <= n) return false;
-    for (int i = 1; i <= n; ++i) {
-      if ((p[i] & 0xC0) != 0x80) return false;
-      cp = (cp << 6) | (p[i] & 0x3F);
-    }
-    const unsigned min_cp[] = {0, 0x80, 0x800, 0x10000};
-    if (cp < min_cp[n] || cp > 0x10FFFF || (cp >= 0xD800 && cp <= 0xDFFF)) return false;
-    p += n + 1;
+    const Utf8Step step = next_utf8(s.substr(i));
+    if (step.code_point < 0) return false;
+    i += step.bytes;
   }
   return true;
 }

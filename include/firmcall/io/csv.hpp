@@ -82,6 +82,9 @@ struct CsvColumns {
 /// refused rather than read with a guessed cell.
 std::string stray_quote_problem(std::string_view column, std::string_view cell);
 
+/// A cell as messages show it: in single quotes, its first 40 bytes, "..." when it is longer.
+std::string quoted_cell(std::string_view cell);
+
 /// Fills `rec` from one record's fields (rec.line must be set by the caller). Number fields are
 /// parsed with std::from_chars; empty cells are absent; the first bad cell sets rec.read_error.
 void parse_obligor_fields(const std::vector<std::string_view>& fields, const CsvColumns& cols,
