@@ -8,6 +8,7 @@
 #include "firmcall/book/errors.hpp"
 #include "firmcall/engine/stress_book.hpp"
 #include "firmcall/engine/term_stress_book.hpp"
+#include "firmcall/io/calibration_io.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/output_file.hpp"
 #include "firmcall/io/scenario.hpp"
@@ -28,6 +29,8 @@ struct StressCli {
   ScoringOptions scoring;
   unsigned threads = 0;
   TermOptionText term;
+  std::string pd_calibration;  // --pd-calibration: calibration file (calibrate --save)
+  std::string driving_pd;      // --driving-pd: model or calibrated (default: calibrated with a calibration)
   bool grid() const { return !equity_shocks.empty() || !vol_multipliers.empty(); }
 };
 
@@ -65,6 +68,13 @@ void declare_stress_options(CLI::App* cmd, StressCli& o) {
   add_scoring_options(cmd, o.scoring);
   add_threads_option(cmd, o.threads);
   add_term_options(cmd, o.term);
+  cmd->add_option("--pd-calibration", o.pd_calibration,
+                  "Calibration file (firmcall calibrate --save): add the one-year calibrated PD of base and "
+                  "stressed DD at the end of the rows, and the summaries on it");
+  cmd->add_option("--driving-pd", o.driving_pd,
+                  "PD of the table's summaries, the PD grid and the closing lines: model or calibrated "
+                  "(default: calibrated with --pd-calibration, else model)")
+      ->check(CLI::IsMember({"model", "calibrated"}));
   cmd->footer(
       std::string("\nGive --scenarios FILE, or a quick grid (--equity-shocks and/or "
                   "--equity-vol-multipliers), or --reverse-pd LEVEL.\n"
@@ -107,6 +117,12 @@ void check_stress_options(const StressCli& o) {
   if (o.pd_threshold && !(*o.pd_threshold > 0.0 && *o.pd_threshold < 1.0)) {
     throw InputError("--pd-threshold: expected a probability strictly between 0 and 1 (0.05 means 5%)");
   }
+  if (o.driving_pd == "calibrated" && o.pd_calibration.empty()) {
+    throw InputError("--driving-pd calibrated: needs --pd-calibration CAL.yaml");
+  }
+  if (o.reverse_pd && !o.pd_calibration.empty()) {
+    throw InputError("--pd-calibration: not available with --reverse-pd (the search is on the model PD)");
+  }
   check_rate(o.scoring);
   check_grid(o.equity_shocks, "--equity-shocks", false);
   check_grid(o.vol_multipliers, "--equity-vol-multipliers", true);
@@ -119,6 +135,9 @@ void check_term_stress(const StressCli& o) {
   if (o.sensitivities || !o.summary_output.empty()) {
     throw InputError(
         "--horizons, --model: --sensitivities and --summary-output apply to single-horizon stress runs");
+  }
+  if (!o.pd_calibration.empty()) {
+    throw InputError("--pd-calibration: not available with term structures (--horizons, --model)");
   }
 }
 
@@ -164,16 +183,20 @@ struct StressInputs {
   Book book;
   std::vector<Scenario> scenarios;
   std::string origin;
+  CalibrationRecord calibration;
 };
 
 std::string scenario_closing(const StressSummary& sum, const std::vector<Scenario>& scenarios) {
   std::string closing;
   for (std::size_t i = 0; i < sum.scenarios.size(); ++i) {
-    const ScenarioSummary& s = sum.scenarios[i];
+    const ScenarioSummary& ss = sum.scenarios[i];
+    const bool calibrated = sum.driving_pd == DrivingPd::calibrated;
+    const ScenarioPdFigures s = driving_figures(ss, sum.driving_pd);
     char buf[256];
-    std::snprintf(buf, sizeof buf, "mean PD %s -> %s, above %g: %zu -> %zu, expected loss %s -> %s",
-                  brief(s.mean_pd).c_str(), brief(s.mean_pd_stressed).c_str(), s.pd_threshold,
-                  s.above_threshold, s.above_threshold_stressed, brief(s.expected_loss).c_str(),
+    std::snprintf(buf, sizeof buf, "mean %sPD %s -> %s, above %g: %zu -> %zu, expected loss %s -> %s",
+                  calibrated ? "calibrated one-year " : "", brief(s.mean_pd).c_str(),
+                  brief(s.mean_pd_stressed).c_str(), ss.pd_threshold, s.above_threshold,
+                  s.above_threshold_stressed, brief(s.expected_loss).c_str(),
                   brief(s.expected_loss_stressed).c_str());
     closing += "\nfirmcall: scenario '" + scenarios[i].name + "': " + buf;
   }
@@ -195,8 +218,9 @@ StressOutcome run_stress_kind(const StressCli& o, const StressInputs& in, const 
     return outcome_of(sum, "reverse-stressed " + std::to_string(sum.base_ok) + " of " +
                                std::to_string(sum.obligors) + " obligors");
   }
-  const StressSummary sum =
-      run_stress(in.book, in.scenarios, in.origin, in.settings, in.stress, in.run, sink);
+  StressBookOptions run = in.run;
+  if (!o.pd_calibration.empty()) run.pd_calibration = &in.calibration.calibration;
+  const StressSummary sum = run_stress(in.book, in.scenarios, in.origin, in.settings, in.stress, run, sink);
   if (summary_file) summary_file->write(scenario_summary_csv(sum, in.scenarios));
   std::string closing = "stressed " + std::to_string(sum.obligors) + " obligors under " +
                         std::to_string(sum.scenarios.size()) + " scenarios: " + std::to_string(sum.rows) +
@@ -217,6 +241,11 @@ StressInputs stress_inputs(const StressCli& o, const GlobalOptions& global) {
   in.run.format = o.out.format;
   in.run.threads = thread_count(o.threads);
   in.run.sensitivities = o.sensitivities;
+  if (!o.pd_calibration.empty() && !in.term_run) {
+    in.calibration = read_calibration(o.pd_calibration);  // run_stress_kind points the run at it
+    in.run.pd_calibration_origin = o.pd_calibration;
+    if (o.driving_pd != "model") in.run.driving_pd = DrivingPd::calibrated;
+  }
   in.term.format = in.run.format;
   in.term.threads = in.run.threads;
   // Everything that can be wrong with the files is found before any output is written.

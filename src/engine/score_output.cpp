@@ -152,17 +152,7 @@ const std::vector<std::string_view>& pd_calibration_columns() {
   return cols;
 }
 
-namespace {
-
-// The calibrated PD of a scored obligor (NaN when it was not scored).
-CalibratedPd calibrated_pd_of(const PdCalibration& cal, const ScoredObligor& s) noexcept {
-  if (s.status != RowStatus::ok) return {std::nan(""), std::nan(""), std::nan(""), false};
-  return cal.evaluate(s.measures.distance_to_default);
-}
-
-// Appends ",pd,lower,upper,extrapolated" (empty cells when not scored).
-void append_calibrated_csv(std::string& out, const PdCalibration& cal, const ScoredObligor& s) {
-  const CalibratedPd p = calibrated_pd_of(cal, s);
+void append_calibrated_pd_csv(std::string& out, const CalibratedPd& p) {
   char buf[3 * (kMaxNumberChars + 1) + 8];
   char* e = buf;
   for (double v : {p.pd, p.lower, p.upper}) {
@@ -173,16 +163,32 @@ void append_calibrated_csv(std::string& out, const PdCalibration& cal, const Sco
   out += !std::isfinite(p.pd) ? std::string_view(",") : p.extrapolated ? std::string_view(",true") : ",false";
 }
 
-void append_calibrated_json(std::string& out, const PdCalibration& cal, const ScoredObligor& s) {
-  const auto& cols = pd_calibration_columns();
-  const CalibratedPd p = calibrated_pd_of(cal, s);
+void append_calibrated_pd_json(std::string& out, const CalibratedPd& p,
+                               std::span<const std::string_view> names) {
   JsonFields f(out, false);
-  f.number(cols[0], p.pd).number(cols[1], p.lower).number(cols[2], p.upper);
+  f.number(names[0], p.pd).number(names[1], p.lower).number(names[2], p.upper);
   if (std::isfinite(p.pd)) {
-    f.boolean(cols[3], p.extrapolated);
+    f.boolean(names[3], p.extrapolated);
   } else {
-    f.null(cols[3]);
+    f.null(names[3]);
   }
+}
+
+namespace {
+
+// The calibrated PD of a scored obligor (NaN when it was not scored).
+CalibratedPd calibrated_pd_of(const PdCalibration& cal, const ScoredObligor& s) noexcept {
+  if (s.status != RowStatus::ok) return {std::nan(""), std::nan(""), std::nan(""), false};
+  return cal.evaluate(s.measures.distance_to_default);
+}
+
+// Appends ",pd,lower,upper,extrapolated" (empty cells when not scored).
+void append_calibrated_csv(std::string& out, const PdCalibration& cal, const ScoredObligor& s) {
+  append_calibrated_pd_csv(out, calibrated_pd_of(cal, s));
+}
+
+void append_calibrated_json(std::string& out, const PdCalibration& cal, const ScoredObligor& s) {
+  append_calibrated_pd_json(out, calibrated_pd_of(cal, s), pd_calibration_columns());
 }
 
 void append_calibrated_table(std::string& out, const PdCalibration& cal, const ScoredObligor& s) {

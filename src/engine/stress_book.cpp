@@ -116,6 +116,19 @@ std::vector<ScoredObligor> score_base_into(const Book& book, const ScoreSettings
 
 }  // namespace
 
+ScenarioPdFigures driving_figures(const ScenarioSummary& s, DrivingPd driving) {
+  if (driving == DrivingPd::calibrated) return s.calibrated;
+  return {s.mean_pd,
+          s.mean_pd_stressed,
+          s.ead_weighted_pd,
+          s.ead_weighted_pd_stressed,
+          s.above_threshold,
+          s.above_threshold_stressed,
+          s.newly_above_threshold,
+          s.expected_loss,
+          s.expected_loss_stressed};
+}
+
 std::string stressed_input_problem(const MertonInputs& in) {
   return check_stressed_impl(in);
 }
@@ -271,19 +284,55 @@ struct ScenarioOutcome {
   std::vector<StressStatus> status;
   std::vector<std::uint8_t> shocked;
   std::vector<double> pd_stressed;
+  std::vector<double> pd_calibrated_stressed;  // with a calibration: of the stressed DD
+  std::vector<double> horizon_stressed;        // with a calibration
+};
+
+// Sums of one PD's scenario figures over the compared obligors, in book order.
+struct PdTally {
+  double threshold = 0.0;
+  double sum_pd = 0.0, sum_pd_s = 0.0, sum_w = 0.0, sum_wpd = 0.0, sum_wpd_s = 0.0;
+  ScenarioPdFigures f;
+  // p0, p1: the PD of base and stressed DD; l0, l1: the PDs of the expected loss.
+  void add(double p0, double p1, const ResolvedObligor& r, double l0, double l1) {
+    sum_pd += p0;
+    sum_pd_s += p1;
+    if (p0 > threshold) ++f.above_threshold;
+    if (p1 > threshold) ++f.above_threshold_stressed;
+    if (p0 <= threshold && p1 > threshold) ++f.newly_above_threshold;
+    if (r.has_ead) {
+      sum_w += r.ead;
+      sum_wpd += r.ead * p0;
+      sum_wpd_s += r.ead * p1;
+      f.expected_loss += l0 * r.lgd * r.ead;
+      f.expected_loss_stressed += l1 * r.lgd * r.ead;
+    }
+  }
+  ScenarioPdFigures figures(std::size_t compared) const {
+    const double nan = std::nan("");
+    ScenarioPdFigures out = f;
+    out.mean_pd = compared > 0 ? sum_pd / static_cast<double>(compared) : nan;
+    out.mean_pd_stressed = compared > 0 ? sum_pd_s / static_cast<double>(compared) : nan;
+    out.ead_weighted_pd = sum_w > 0.0 ? sum_wpd / sum_w : nan;
+    out.ead_weighted_pd_stressed = sum_w > 0.0 ? sum_wpd_s / sum_w : nan;
+    return out;
+  }
 };
 
 // The summary of one scenario, sequentially in book order (the same figures whatever the thread
 // count); lists the failures the scenario caused in sum.problems.
 ScenarioSummary summarise_scenario(const Book& book, const Scenario& sc,
                                    const std::vector<ScoredObligor>& base, const ScenarioOutcome& o,
+                                   const std::vector<CalibratedPd>& base_calibrated,
                                    const ScoreSettings& settings, const StressSettings& stress,
                                    std::size_t max_listed, StressSummary& sum) {
   const std::size_t n = base.size();
   ScenarioSummary ss;
   ss.obligors = n;
   ss.pd_threshold = stress.pd_threshold;
-  double sum_pd = 0.0, sum_pd_s = 0.0, sum_w = 0.0, sum_wpd = 0.0, sum_wpd_s = 0.0;
+  PdTally model;
+  PdTally calibrated;
+  model.threshold = calibrated.threshold = stress.pd_threshold;
   for (std::size_t i = 0; i < n; ++i) {
     if (o.status[i] != StressStatus::ok) {
       ++ss.failed;
@@ -305,28 +354,36 @@ ScenarioSummary summarise_scenario(const Book& book, const Scenario& sc,
     if (o.shocked[i]) ++ss.shocked;
     const double p0 = base[i].measures.pd;
     const double p1 = o.pd_stressed[i];
-    sum_pd += p0;
-    sum_pd_s += p1;
-    if (p0 > stress.pd_threshold) ++ss.above_threshold;
-    if (p1 > stress.pd_threshold) ++ss.above_threshold_stressed;
-    if (p0 <= stress.pd_threshold && p1 > stress.pd_threshold) ++ss.newly_above_threshold;
     const ResolvedObligor& r = base[i].resolved;
-    if (r.has_ead) {
-      ++ss.with_ead;
-      sum_w += r.ead;
-      sum_wpd += r.ead * p0;
-      sum_wpd_s += r.ead * p1;
-      ss.expected_loss += p0 * r.lgd * r.ead;
-      ss.expected_loss_stressed += p1 * r.lgd * r.ead;
+    if (r.has_ead) ++ss.with_ead;
+    model.add(p0, p1, r, p0, p1);
+    if (sum.calibrated) {
+      // Expected loss over the horizon as the model's: 1 - (1 - PD1)^T (driving_pd.hpp).
+      const double c0 = base_calibrated[i].pd;
+      const double c1 = o.pd_calibrated_stressed[i];
+      calibrated.add(c0, c1, r, pd_over_horizon(c0, r.inputs.horizon_years),
+                     pd_over_horizon(c1, o.horizon_stressed[i]));
     }
   }
-  const double nan = std::nan("");
-  ss.mean_pd = ss.compared > 0 ? sum_pd / static_cast<double>(ss.compared) : nan;
-  ss.mean_pd_stressed = ss.compared > 0 ? sum_pd_s / static_cast<double>(ss.compared) : nan;
-  ss.ead_total = sum_w;
-  ss.ead_weighted_pd = sum_w > 0.0 ? sum_wpd / sum_w : nan;
-  ss.ead_weighted_pd_stressed = sum_w > 0.0 ? sum_wpd_s / sum_w : nan;
+  const ScenarioPdFigures m = model.figures(ss.compared);
+  ss.mean_pd = m.mean_pd;
+  ss.mean_pd_stressed = m.mean_pd_stressed;
+  ss.ead_total = model.sum_w;
+  ss.ead_weighted_pd = m.ead_weighted_pd;
+  ss.ead_weighted_pd_stressed = m.ead_weighted_pd_stressed;
+  ss.above_threshold = m.above_threshold;
+  ss.above_threshold_stressed = m.above_threshold_stressed;
+  ss.newly_above_threshold = m.newly_above_threshold;
+  ss.expected_loss = m.expected_loss;
+  ss.expected_loss_stressed = m.expected_loss_stressed;
+  if (sum.calibrated) ss.calibrated = calibrated.figures(ss.compared);
   return ss;
+}
+
+// The calibrated one-year PD of a DD, NaN without a calibration or when `ok` is false.
+CalibratedPd calibrated_at(const PdCalibration* cal, bool ok, double dd) noexcept {
+  if (!cal || !ok) return {std::nan(""), std::nan(""), std::nan(""), false};
+  return cal->evaluate(dd);
 }
 
 // Per-thread state of the stressed rows.
@@ -344,12 +401,25 @@ StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenario
   const std::size_t n = book.obligors.size();
   const unsigned threads = std::max(1U, run.threads);
   StressSummary sum;
+  const PdCalibration* cal = run.pd_calibration;
+  sum.calibrated = cal != nullptr;
+  sum.driving_pd = cal ? run.driving_pd : DrivingPd::model;
+  const bool calibrated_drives = sum.driving_pd == DrivingPd::calibrated;
   const std::vector<ScoredObligor> base =
       score_base_into(book, settings, threads, run.max_listed_problems, sum);
+  std::vector<CalibratedPd> base_calibrated;
+  if (cal) {
+    base_calibrated.resize(n);
+    for (std::size_t i = 0; i < n; ++i) {
+      base_calibrated[i] =
+          calibrated_at(cal, base[i].status == RowStatus::ok, base[i].measures.distance_to_default);
+    }
+  }
 
   check_finite_totals(book, base);
-  detail::StressRunInfo info{book.origin, scenario_origin, settings, stress, run.sensitivities,
-                             n,           scenarios.size()};
+  detail::StressRunInfo info{
+      book.origin, scenario_origin,           settings,      stress, run.sensitivities, n, scenarios.size(),
+      cal,         run.pd_calibration_origin, sum.driving_pd};
   const auto writer = detail::make_stress_writer(run.format, info);
   detail::sink_text(sink, [&](std::string& s) { writer->begin(s); });
 
@@ -358,36 +428,49 @@ StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenario
   const bool keep_grid = init_grid(scenarios, n, run.format, sum.grid, grid_rows, grid_columns);
 
   std::vector<StressWorker> workers(threads);
-  ScenarioOutcome outcome{std::vector<StressStatus>(n), std::vector<std::uint8_t>(n), std::vector<double>(n)};
+  ScenarioOutcome outcome{std::vector<StressStatus>(n), std::vector<std::uint8_t>(n), std::vector<double>(n),
+                          std::vector<double>(cal ? n : 0), std::vector<double>(cal ? n : 0)};
+  const CalibratedPd no_calibration = calibrated_at(nullptr, false, 0.0);
 
   for (std::size_t si = 0; si < scenarios.size(); ++si) {
     const Scenario& sc = scenarios[si];
     const bool rows = writer->wants_rows(sc);
     detail::sink_text(sink, [&](std::string& s) { writer->scenario_begin(sc, si, s); });
-    detail::write_in_chunks(
-        n, run.chunk_obligors, workers, 64, sink, [&](StressWorker& wk, std::size_t b, std::size_t e) {
-          // The slice's stressed obligors are solved together (solve_asset_batch).
-          wk.effects.resize(e - b);
-          if (wk.stressed.size() < e - b) wk.stressed.resize(e - b);
-          for (std::size_t i = b; i < e; ++i) wk.effects[i - b] = sc.effect_for(book.obligors[i]);
-          stress_obligors(base.data() + b, wk.effects.data(), e - b, settings, run.sensitivities,
-                          wk.stressed.data());
-          for (std::size_t i = b; i < e; ++i) {
-            const StressedObligor& st = wk.stressed[i - b];
-            outcome.status[i] = st.status;
-            outcome.shocked[i] = st.shocked() ? 1 : 0;
-            outcome.pd_stressed[i] = st.status == StressStatus::ok ? st.measures.pd : std::nan("");
-            if (rows) writer->row(sc, book.obligors[i], base[i], st, i == 0, wk.out);
-          }
-        });
-    const ScenarioSummary ss =
-        summarise_scenario(book, sc, base, outcome, settings, stress, run.max_listed_problems, sum);
+    detail::write_in_chunks(n, run.chunk_obligors, workers, 64, sink,
+                            [&](StressWorker& wk, std::size_t b, std::size_t e) {
+                              // The slice's stressed obligors are solved together (solve_asset_batch).
+                              wk.effects.resize(e - b);
+                              if (wk.stressed.size() < e - b) wk.stressed.resize(e - b);
+                              for (std::size_t i = b; i < e; ++i)
+                                wk.effects[i - b] = sc.effect_for(book.obligors[i]);
+                              stress_obligors(base.data() + b, wk.effects.data(), e - b, settings,
+                                              run.sensitivities, wk.stressed.data());
+                              for (std::size_t i = b; i < e; ++i) {
+                                const StressedObligor& st = wk.stressed[i - b];
+                                outcome.status[i] = st.status;
+                                outcome.shocked[i] = st.shocked() ? 1 : 0;
+                                const bool ok = st.status == StressStatus::ok;
+                                outcome.pd_stressed[i] = ok ? st.measures.pd : std::nan("");
+                                detail::RowCalibratedPd pc{no_calibration, no_calibration};
+                                if (cal) {
+                                  pc.base = base_calibrated[i];
+                                  pc.stressed = calibrated_at(cal, ok, st.measures.distance_to_default);
+                                  outcome.pd_calibrated_stressed[i] = pc.stressed.pd;
+                                  outcome.horizon_stressed[i] = st.inputs.horizon_years;
+                                }
+                                if (rows) writer->row(sc, book.obligors[i], base[i], st, pc, i == 0, wk.out);
+                              }
+                            });
+    const ScenarioSummary ss = summarise_scenario(book, sc, base, outcome, base_calibrated, settings, stress,
+                                                  run.max_listed_problems, sum);
     sum.rows += n;
     sum.failed_rows += ss.failed;
     if (keep_grid && sc.grid_row >= 0) {
       const std::size_t cells = static_cast<std::size_t>(grid_rows * grid_columns);
       const std::size_t cell = static_cast<std::size_t>(sc.grid_row * grid_columns + sc.grid_column);
-      for (std::size_t i = 0; i < n; ++i) sum.grid.pd[i * cells + cell] = outcome.pd_stressed[i];
+      const std::vector<double>& pd =
+          calibrated_drives ? outcome.pd_calibrated_stressed : outcome.pd_stressed;
+      for (std::size_t i = 0; i < n; ++i) sum.grid.pd[i * cells + cell] = pd[i];
     }
     detail::sink_text(sink, [&](std::string& s) { writer->scenario_end(sc, ss, s); });
     sum.scenarios.push_back(ss);
@@ -395,7 +478,8 @@ StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenario
   if (keep_grid) {
     sum.grid.base_pd.assign(n, std::nan(""));
     for (std::size_t i = 0; i < n; ++i) {
-      if (base[i].status == RowStatus::ok) sum.grid.base_pd[i] = base[i].measures.pd;
+      if (base[i].status == RowStatus::ok)
+        sum.grid.base_pd[i] = calibrated_drives ? base_calibrated[i].pd : base[i].measures.pd;
     }
   }
   detail::sink_text(sink, [&](std::string& s) { writer->end(sum, scenarios, book, s); });
@@ -428,7 +512,8 @@ ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, cons
   ReverseStressSummary sum;
   const std::vector<ScoredObligor> base =
       score_base_into(book, settings, threads, run.max_listed_problems, sum);
-  detail::StressRunInfo info{book.origin, "", settings, StressSettings{}, false, n, 0};
+  detail::StressRunInfo info{book.origin, "",      settings, StressSettings{}, false, n,
+                             0,           nullptr, "",       DrivingPd::model};
   const auto writer = detail::make_reverse_stress_writer(run.format, info, target_pd, options);
   detail::sink_text(sink, [&](std::string& s) { writer->begin(s); });
   struct Worker {
@@ -461,6 +546,9 @@ ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, cons
 
 OptionCheck StressBookOptions::validate() const {
   if (threads < 1) return OptionProblem{"threads", std::to_string(threads), "must be at least 1"};
+  if (driving_pd == DrivingPd::calibrated && !pd_calibration) {
+    return OptionProblem{"driving_pd", "calibrated", "needs a PD calibration"};
+  }
   return std::nullopt;
 }
 

@@ -32,6 +32,23 @@ const std::vector<std::string_view>& stress_summary_columns() {
   return cols;
 }
 
+const std::vector<std::string_view>& stress_pd_calibration_columns() {
+  static const std::vector<std::string_view> cols = split_names(
+      "pd_calibrated,pd_calibrated_lower,pd_calibrated_upper,pd_calibrated_extrapolated,"
+      "pd_calibrated_stressed,pd_calibrated_stressed_lower,pd_calibrated_stressed_upper,"
+      "pd_calibrated_stressed_extrapolated,pd_calibrated_change");
+  return cols;
+}
+
+const std::vector<std::string_view>& stress_summary_calibration_columns() {
+  static const std::vector<std::string_view> cols = split_names(
+      "mean_pd_calibrated,mean_pd_calibrated_stressed,ead_weighted_pd_calibrated,"
+      "ead_weighted_pd_calibrated_stressed,above_threshold_calibrated,above_threshold_calibrated_stressed,"
+      "newly_above_threshold_calibrated,expected_loss_calibrated,expected_loss_calibrated_stressed,"
+      "expected_loss_calibrated_change");
+  return cols;
+}
+
 const std::vector<std::string_view>& reverse_stress_columns() {
   static const std::vector<std::string_view> cols = split_names(
       "id,name,status,pd,target_pd,equity_fall,equity_fall_status,equity_value_at_target,"
@@ -99,6 +116,47 @@ void append_count(std::string& out, std::size_t n) {
   out += std::to_string(n);
 }
 
+// The change of the calibrated PD of a row (NaN unless both exist).
+double calibrated_change(const detail::RowCalibratedPd& c) {
+  return c.stressed.pd - c.base.pd;
+}
+
+// Appends the calibrated PD fields of a row as JSON (stress_pd_calibration_columns()).
+void append_row_calibrated_json(std::string& out, const detail::RowCalibratedPd& c) {
+  const std::span<const std::string_view> cols(stress_pd_calibration_columns());
+  append_calibrated_pd_json(out, c.base, cols.subspan(0, 4));
+  append_calibrated_pd_json(out, c.stressed, cols.subspan(4, 4));
+  JsonFields(out, false).number(cols[8], calibrated_change(c));
+}
+
+// Appends ",v,..." of the calibrated figures (stress_summary_calibration_columns()).
+void append_summary_calibrated_csv(std::string& out, const ScenarioPdFigures& f) {
+  append_csv_numbers(out, std::initializer_list<double>{f.mean_pd, f.mean_pd_stressed, f.ead_weighted_pd,
+                                                        f.ead_weighted_pd_stressed});
+  for (std::size_t n : {f.above_threshold, f.above_threshold_stressed, f.newly_above_threshold}) {
+    out.push_back(',');
+    append_count(out, n);
+  }
+  append_csv_numbers(out, std::initializer_list<double>{f.expected_loss, f.expected_loss_stressed,
+                                                        f.expected_loss_stressed - f.expected_loss});
+}
+
+// Appends the calibrated figures of a scenario summary as JSON (stress_summary_calibration_columns()).
+void append_summary_calibrated_json(std::string& out, const ScenarioPdFigures& f) {
+  const auto& cols = stress_summary_calibration_columns();
+  JsonFields(out, false)
+      .number(cols[0], f.mean_pd)
+      .number(cols[1], f.mean_pd_stressed)
+      .number(cols[2], f.ead_weighted_pd)
+      .number(cols[3], f.ead_weighted_pd_stressed)
+      .count(cols[4], f.above_threshold)
+      .count(cols[5], f.above_threshold_stressed)
+      .count(cols[6], f.newly_above_threshold)
+      .number(cols[7], f.expected_loss)
+      .number(cols[8], f.expected_loss_stressed)
+      .number(cols[9], f.expected_loss_stressed - f.expected_loss);
+}
+
 // ---------------------------------------------------------------- stress: CSV
 
 class StressCsvWriter final : public detail::StressWriter {
@@ -110,11 +168,15 @@ class StressCsvWriter final : public detail::StressWriter {
       out.push_back(',');
       append_csv_names(out, sensitivity_columns());
     }
+    if (info_.pd_calibration) {
+      out.push_back(',');
+      append_csv_names(out, stress_pd_calibration_columns());
+    }
     out.push_back('\n');
   }
   void scenario_begin(const Scenario&, std::size_t, std::string&) const override {}
   void row(const Scenario& sc, const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor& s,
-           bool, std::string& out) const override {
+           const detail::RowCalibratedPd& cal, bool, std::string& out) const override {
     append_csv_texts(out, {sc.name, rec.get(TextField::id), rec.get(TextField::name)});
     out.append(to_string(s.status));
     out.push_back(',');
@@ -123,6 +185,11 @@ class StressCsvWriter final : public detail::StressWriter {
     out.push_back(',');
     append_csv_text(out, s.message);
     if (info_.sensitivities) append_sensitivities_csv(out, s.sensitivities, s.status == StressStatus::ok);
+    if (info_.pd_calibration) {
+      append_calibrated_pd_csv(out, cal.base);
+      append_calibrated_pd_csv(out, cal.stressed);
+      append_csv_numbers(out, std::initializer_list<double>{calibrated_change(cal)});
+    }
     out.push_back('\n');
   }
   void scenario_end(const Scenario&, const ScenarioSummary&, std::string&) const override {}
@@ -134,7 +201,8 @@ class StressCsvWriter final : public detail::StressWriter {
 
 // ---------------------------------------------------------------- stress: JSON
 
-void append_summary_json(std::string& out, const ScenarioSummary& s) {
+// With `calibrated`, the figures on the calibrated PD follow the model's.
+void append_summary_json(std::string& out, const ScenarioSummary& s, bool calibrated) {
   out += "{";
   JsonFields(out)
       .count("obligors", s.obligors)
@@ -154,6 +222,7 @@ void append_summary_json(std::string& out, const ScenarioSummary& s) {
       .number("expected_loss", s.expected_loss)
       .number("expected_loss_stressed", s.expected_loss_stressed)
       .number("expected_loss_change", s.expected_loss_stressed - s.expected_loss);
+  if (calibrated) append_summary_calibrated_json(out, s.calibrated);
   out += "}";
 }
 
@@ -170,6 +239,12 @@ class StressJsonWriter final : public detail::StressWriter {
                 info_.settings.weight_override.value_or(info_.settings.default_point_weight))
         .number("default_lgd", info_.settings.default_lgd)
         .number("pd_threshold", info_.stress.pd_threshold);
+    if (info_.pd_calibration) {
+      JsonFields(out, false)
+          .text("pd_calibration", info_.pd_calibration_origin)
+          .text("pd_calibration_method", to_string(info_.pd_calibration->method))
+          .text("driving_pd", to_string(info_.driving_pd));
+    }
     out += "},\n  \"scenarios\": [";
   }
   void scenario_begin(const Scenario& sc, std::size_t index, std::string& out) const override {
@@ -178,7 +253,7 @@ class StressJsonWriter final : public detail::StressWriter {
     out += ",\n     \"obligors\": [\n";
   }
   void row(const Scenario&, const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor& s,
-           bool first, std::string& out) const override {
+           const detail::RowCalibratedPd& cal, bool first, std::string& out) const override {
     const auto& cols = stress_columns();
     if (!first) out += ",\n";
     out += "      {";
@@ -190,11 +265,12 @@ class StressJsonWriter final : public detail::StressWriter {
         .numbers(std::span(cols).subspan(kFirstNumber, kStressNumbers), stress_numbers(base, s))
         .text("message", s.message);
     if (info_.sensitivities) append_sensitivities_json(out, s.sensitivities, s.status == StressStatus::ok);
+    if (info_.pd_calibration) append_row_calibrated_json(out, cal);
     out += "}";
   }
   void scenario_end(const Scenario&, const ScenarioSummary& sum, std::string& out) const override {
     out += "\n     ],\n     \"summary\": ";
-    append_summary_json(out, sum);
+    append_summary_json(out, sum, info_.pd_calibration != nullptr);
     out += "}";
   }
   void end(const StressSummary& sum, const std::vector<Scenario>&, const Book&,
@@ -224,6 +300,16 @@ class StressTableWriter final : public detail::StressWriter {
            percent(info_.stress.pd_threshold) +
            "; expected loss = PD x LGD x EAD over obligors with ead (LGD " +
            percent(info_.settings.default_lgd) + " where none is given)\n";
+    if (const PdCalibration* cal = info_.pd_calibration) {
+      const std::string file = info_.pd_calibration_origin + ", " + std::string(to_string(cal->method));
+      out += info_.driving_pd == DrivingPd::calibrated
+                 ? "PD: calibrated one-year (" + file +
+                       ") drives the summaries and the PD grid; PD columns: model\n"
+                 : "PD: model drives the summaries and the PD grid; calibrated one-year PDs (" + file + ")\n";
+      out += "Under each obligor: calibrated one-year PD of base -> stressed DD (" +
+             std::to_string(cal->observations) + " obligor-years), [" + fmt_level(cal->confidence_level) +
+             " interval] of stressed DD\n";
+    }
   }
   bool wants_rows(const Scenario& sc) const override { return sc.grid_row < 0; }
   void scenario_begin(const Scenario& sc, std::size_t index, std::string& out) const override {
@@ -243,7 +329,7 @@ class StressTableWriter final : public detail::StressWriter {
     out += std::string(118, '-') + "\n";
   }
   void row(const Scenario&, const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor& s,
-           bool, std::string& out) const override {
+           const detail::RowCalibratedPd& cal, bool, std::string& out) const override {
     char buf[320];
     const std::string id = fit(rec.get(TextField::id), 10);
     const std::string name = fit(rec.get(TextField::name), 12);
@@ -263,31 +349,40 @@ class StressTableWriter final : public detail::StressWriter {
                   small(x ? m1.spread_bp - m0.spread_bp : nan, 2, true).c_str(), status.c_str());
     out += buf;
     if (info_.sensitivities && x) append_sensitivities_table(out, s.sensitivities, 2);
+    if (info_.pd_calibration && b) calibrated_line(cal, out);
   }
-  void scenario_end(const Scenario& sc, const ScenarioSummary& s, std::string& out) const override {
+  void scenario_end(const Scenario& sc, const ScenarioSummary& summary, std::string& out) const override {
     if (!wants_rows(sc)) return;
     out += std::string(118, '-') + "\n";
     char buf[512];
     std::snprintf(buf, sizeof buf, "  obligors %zu: %zu compared, %zu hit by a shock, %zu failed\n",
-                  s.obligors, s.compared, s.shocked, s.failed);
+                  summary.obligors, summary.compared, summary.shocked, summary.failed);
     out += buf;
+    if (info_.pd_calibration) {
+      out += info_.driving_pd == DrivingPd::calibrated
+                 ? "  on the calibrated one-year PD (expected loss: 1 - (1 - PD1)^T over each horizon)\n"
+                 : "  on the model PD\n";
+    }
+    const ScenarioPdFigures s = driving_figures(summary, info_.driving_pd);
+    const std::size_t with_ead = summary.with_ead;
+    const double pd_threshold = summary.pd_threshold;
     std::snprintf(buf, sizeof buf, "  mean PD          %s%% -> %s%%\n", small(100.0 * s.mean_pd, 4).c_str(),
                   small(100.0 * s.mean_pd_stressed, 4).c_str());
     out += buf;
-    if (s.with_ead > 0) {
+    if (with_ead > 0) {
       std::snprintf(buf, sizeof buf, "  EAD-weighted PD  %s%% -> %s%%   (%zu obligors with ead, total %s)\n",
                     small(100.0 * s.ead_weighted_pd, 4).c_str(),
-                    small(100.0 * s.ead_weighted_pd_stressed, 4).c_str(), s.with_ead,
-                    small(s.ead_total, 2).c_str());
+                    small(100.0 * s.ead_weighted_pd_stressed, 4).c_str(), with_ead,
+                    small(summary.ead_total, 2).c_str());
     } else {
       std::snprintf(buf, sizeof buf, "  EAD-weighted PD  - (no obligor gives ead)\n");
     }
     out += buf;
     std::snprintf(buf, sizeof buf, "  PD above %s      %zu -> %zu   (%zu newly above)\n",
-                  percent(s.pd_threshold).c_str(), s.above_threshold, s.above_threshold_stressed,
+                  percent(pd_threshold).c_str(), s.above_threshold, s.above_threshold_stressed,
                   s.newly_above_threshold);
     out += buf;
-    if (s.with_ead > 0) {
+    if (with_ead > 0) {
       std::snprintf(buf, sizeof buf, "  expected loss    %s -> %s   (change %s)\n",
                     small(s.expected_loss, 4).c_str(), small(s.expected_loss_stressed, 4).c_str(),
                     small(s.expected_loss_stressed - s.expected_loss, 4, true).c_str());
@@ -311,7 +406,10 @@ class StressTableWriter final : public detail::StressWriter {
     const PdGrid& g = sum.grid;
     const std::size_t rows = g.equity_changes.size();
     const std::size_t cols = g.vol_multipliers.size();
-    out += "\nPD grid: PD % after an equity change (rows) and an equity-volatility multiplier (columns)\n";
+    const bool calibrated = info_.driving_pd == DrivingPd::calibrated;
+    out += std::string("\nPD grid: ") +
+           (calibrated ? "calibrated one-year PD % of the stressed DD" : "PD %") +
+           " after an equity change (rows) and an equity-volatility multiplier (columns)\n";
     char buf[128];
     for (std::size_t i = 0; i < book.obligors.size(); ++i) {
       const ObligorRecord& rec = book.obligors[i];
@@ -323,7 +421,8 @@ class StressTableWriter final : public detail::StressWriter {
         out += "  (not scored; see below)\n";
         continue;
       }
-      out += "  PD as it stands " + small(100.0 * g.base_pd[i], 4) + "%\n";
+      out += std::string(calibrated ? "  calibrated PD as it stands " : "  PD as it stands ") +
+             small(100.0 * g.base_pd[i], 4) + "%\n";
       std::snprintf(buf, sizeof buf, "  %8s", "equity");
       out += buf;
       for (std::size_t c = 0; c < cols; ++c) {
@@ -350,7 +449,11 @@ class StressTableWriter final : public detail::StressWriter {
   void overview(const StressSummary& sum, const std::vector<Scenario>& scenarios, std::string& out) const {
     const std::string thr = percent(info_.stress.pd_threshold);
     out += "\nScenario summary (PD threshold " + thr +
-           "; expected loss over obligors with ead, each over its horizon)\n";
+           "; expected loss over obligors with ead, each over its horizon" +
+           (info_.pd_calibration
+                ? info_.driving_pd == DrivingPd::calibrated ? "; PD: calibrated one-year" : "; PD: model"
+                : "") +
+           ")\n";
     char buf[320];
     const char* fmt = "%-24s %8s  %9s %9s  %9s %9s  %5s %5s  %11s %11s\n";
     std::snprintf(buf, sizeof buf, "%-24s %8s  %19s  %19s  %11s  %23s\n", "scenario", "compared", "mean PD %",
@@ -361,10 +464,11 @@ class StressTableWriter final : public detail::StressWriter {
     out += buf;
     out += std::string(110, '-') + "\n";
     for (std::size_t i = 0; i < sum.scenarios.size(); ++i) {
-      const ScenarioSummary& s = sum.scenarios[i];
-      const bool ead = s.with_ead > 0;
+      const ScenarioSummary& summary = sum.scenarios[i];
+      const ScenarioPdFigures s = driving_figures(summary, info_.driving_pd);
+      const bool ead = summary.with_ead > 0;
       std::snprintf(
-          buf, sizeof buf, fmt, fit(scenarios[i].name, 24).c_str(), std::to_string(s.compared).c_str(),
+          buf, sizeof buf, fmt, fit(scenarios[i].name, 24).c_str(), std::to_string(summary.compared).c_str(),
           small(100.0 * s.mean_pd, 4).c_str(), small(100.0 * s.mean_pd_stressed, 4).c_str(),
           ead ? small(100.0 * s.ead_weighted_pd, 4).c_str() : "-",
           ead ? small(100.0 * s.ead_weighted_pd_stressed, 4).c_str() : "-",
@@ -374,6 +478,25 @@ class StressTableWriter final : public detail::StressWriter {
       out += buf;
     }
     out += std::string(110, '-') + "\n";
+  }
+
+  // "  calibrated one-year PD a% -> b% (+c pp), stressed [l%, u%]", flagged when extrapolated.
+  static void calibrated_line(const detail::RowCalibratedPd& c, std::string& out) {
+    out += "  calibrated one-year PD " + small(100.0 * c.base.pd, 4) + "% -> ";
+    if (!std::isfinite(c.stressed.pd)) {
+      out += "-\n";
+      return;
+    }
+    out += small(100.0 * c.stressed.pd, 4) + "% (" + small(100.0 * calibrated_change(c), 4, true) +
+           " pp), stressed [" + small(100.0 * c.stressed.lower, 4) + "%, " +
+           small(100.0 * c.stressed.upper, 4) + "%]";
+    if (c.stressed.extrapolated) out += ", DD outside the sample";
+    out += "\n";
+  }
+  static std::string fmt_level(double level) {
+    char buf[32];
+    std::snprintf(buf, sizeof buf, "%g%%", 100.0 * level);
+    return buf;
   }
 
   detail::StressRunInfo info_;
@@ -557,6 +680,10 @@ class ReverseTableWriter final : public detail::ReverseStressWriter {
 std::string scenario_summary_csv(const StressSummary& summary, const std::vector<Scenario>& scenarios) {
   std::string out;
   append_csv_names(out, stress_summary_columns());
+  if (summary.calibrated) {
+    out.push_back(',');
+    append_csv_names(out, stress_summary_calibration_columns());
+  }
   out.push_back('\n');
   for (std::size_t i = 0; i < summary.scenarios.size() && i < scenarios.size(); ++i) {
     const ScenarioSummary& s = summary.scenarios[i];
@@ -578,6 +705,7 @@ std::string scenario_summary_csv(const StressSummary& summary, const std::vector
     }
     append_csv_numbers(out, std::initializer_list<double>{s.expected_loss, s.expected_loss_stressed,
                                                           s.expected_loss_stressed - s.expected_loss});
+    if (summary.calibrated) append_summary_calibrated_csv(out, s.calibrated);
     out.push_back('\n');
   }
   return out;

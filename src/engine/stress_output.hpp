@@ -19,6 +19,15 @@ struct StressRunInfo {
   bool sensitivities = false;
   std::size_t obligors = 0;
   std::size_t scenarios = 0;
+  const PdCalibration* pd_calibration = nullptr;  ///< when set: the calibrated PD columns
+  std::string pd_calibration_origin;
+  DrivingPd driving_pd = DrivingPd::model;
+};
+
+/// The calibrated one-year PDs of one row: of base and of stressed DD (NaN where there is none).
+struct RowCalibratedPd {
+  CalibratedPd base;
+  CalibratedPd stressed;
 };
 
 /// Writes one stress run. Rows are appended to a caller's buffer so that workers can format in
@@ -31,7 +40,8 @@ class StressWriter {
   virtual bool wants_rows(const Scenario&) const { return true; }
   virtual void scenario_begin(const Scenario& sc, std::size_t index, std::string& out) const = 0;
   virtual void row(const Scenario& sc, const ObligorRecord& rec, const ScoredObligor& base,
-                   const StressedObligor& s, bool first, std::string& out) const = 0;
+                   const StressedObligor& s, const RowCalibratedPd& cal, bool first,
+                   std::string& out) const = 0;
   virtual void scenario_end(const Scenario& sc, const ScenarioSummary& sum, std::string& out) const = 0;
   virtual void end(const StressSummary& sum, const std::vector<Scenario>& scenarios, const Book& book,
                    std::string& out) const = 0;

@@ -323,3 +323,150 @@ TEST_CASE("threshold and summary file options") {
   CHECK(s.number(1, "above_threshold_stressed") >= s.number(1, "above_threshold"));
   CHECK(s.number(1, "obligors_with_ead") == 36);
 }
+
+namespace {
+
+const std::string kCalibration = kSource + "/samples/calibration.yaml";
+
+// The logistic parameters of the sample calibration, read with yaml-cpp (not the program's reader).
+void sample_logistic(double& a, double& b, double& dd_min, double& dd_max) {
+  const YAML::Node cal = YAML::LoadFile(kCalibration);
+  a = cal["logistic"]["intercept"].as<double>();
+  b = cal["logistic"]["slope"].as<double>();
+  dd_min = cal["sample"]["dd_min"].as<double>();
+  dd_max = cal["sample"]["dd_max"].as<double>();
+}
+
+}  // namespace
+
+TEST_CASE("stress --pd-calibration: calibrated PDs of base and stressed DD at the end of each row") {
+  double a = 0, b = 0, lo = 0, hi = 0;
+  sample_logistic(a, b, lo, hi);
+  const fs::path out = scratch() / "cal_stress.csv";
+  const fs::path summary = scratch() / "cal_summary.csv";
+  const Result r = run_firmcall({"stress", kBook, "--scenarios", kScenarios, "--pd-calibration", kCalibration,
+                                 "-f", "csv", "-o", out.string(), "--summary-output", summary.string()});
+  REQUIRE(r.exit_code == 0);
+  // The closing lines on standard error name the driving PD.
+  CHECK(r.err.find("scenario 'severe': mean calibrated one-year PD ") != std::string::npos);
+  const Csv t = parse_csv(read_file(out));
+  REQUIRE(t.rows.size() == 3 * 36);
+  REQUIRE(t.header.size() >= 9);
+  CHECK(t.header[t.header.size() - 9] == "pd_calibrated");
+  CHECK(t.header.back() == "pd_calibrated_change");
+  // The base calibrated PD is what `score --pd-calibration` prints for the same obligor.
+  const Result score = run_firmcall({"score", kBook, "-f", "csv", "--pd-calibration", kCalibration});
+  REQUIRE(score.exit_code == 0);
+  const Csv s = parse_csv(score.out);
+  REQUIRE(s.rows.size() == 36);
+  std::map<std::string, double> sum_by_scenario;
+  for (std::size_t i = 0; i < t.rows.size(); ++i) {
+    CAPTURE(t.cell(i, "id"));
+    CHECK(t.cell(i, "id") == s.cell(i % 36, "id"));
+    for (const char* c :
+         {"pd_calibrated", "pd_calibrated_lower", "pd_calibrated_upper", "pd_calibrated_extrapolated"})
+      CHECK(t.cell(i, c) == s.cell(i % 36, c));
+    const double dd = t.number(i, "distance_to_default_stressed");
+    const double pd = t.number(i, "pd_calibrated_stressed");
+    // Ref: the logistic link 1 / (1 + exp(-(a + b DD))) (textbook logistic regression), at the
+    // stressed DD this run printed.
+    CHECK(pd == doctest::Approx(1.0 / (1.0 + std::exp(-(a + b * dd)))).epsilon(1e-13));
+    CHECK(t.number(i, "pd_calibrated_stressed_lower") < pd);
+    CHECK(t.number(i, "pd_calibrated_stressed_upper") > pd);
+    CHECK(t.cell(i, "pd_calibrated_stressed_extrapolated") == (dd < lo || dd > hi ? "true" : "false"));
+    sum_by_scenario[t.cell(i, "scenario")] += pd;
+  }
+  // The summary file: the model columns first, the calibrated figures after them.
+  const Csv sc = parse_csv(read_file(summary));
+  REQUIRE(sc.rows.size() == 3);
+  CHECK(sc.header[19] == "mean_pd_calibrated");
+  for (std::size_t k = 0; k < 3; ++k) {
+    CAPTURE(sc.cell(k, "scenario"));
+    CHECK(sc.number(k, "mean_pd_calibrated_stressed") ==
+          doctest::Approx(sum_by_scenario[sc.cell(k, "scenario")] / 36.0).epsilon(1e-13));
+    CHECK(sc.number(k, "mean_pd_calibrated_stressed") > sc.number(k, "mean_pd_calibrated"));
+  }
+
+  // --driving-pd model: the same columns, and the closing lines on the model PD.
+  const Result m = run_firmcall({"stress", kBook, "--scenarios", kScenarios, "--pd-calibration", kCalibration,
+                                 "--driving-pd", "model", "-f", "csv"});
+  REQUIRE(m.exit_code == 0);
+  CHECK(m.out == read_file(out));
+  CHECK(m.err.find("scenario 'severe': mean PD ") != std::string::npos);
+
+  // Table and JSON say which PD drives.
+  const Result table =
+      run_firmcall({"stress", kBook, "--scenarios", kScenarios, "--pd-calibration", kCalibration});
+  REQUIRE(table.exit_code == 0);
+  CHECK(table.out.find("PD: calibrated one-year (" + kCalibration + ", logistic) drives") !=
+        std::string::npos);
+  const Result json = run_firmcall(
+      {"stress", kBook, "--scenarios", kScenarios, "--pd-calibration", kCalibration, "-f", "json"});
+  REQUIRE(json.exit_code == 0);
+  CHECK(json.out.find("\"driving_pd\": \"calibrated\"") != std::string::npos);
+  CHECK(json.out.find("\"mean_pd_calibrated_stressed\": ") != std::string::npos);
+  // Without a calibration nothing calibrated is written.
+  const Result plain = run_firmcall({"stress", kBook, "--scenarios", kScenarios, "-f", "json"});
+  CHECK(plain.out.find("calibrated") == std::string::npos);
+}
+
+TEST_CASE("stress --pd-calibration: a larger equity fall gives a higher calibrated PD") {
+  // Merton (1974): a lower equity value at the same debt lowers DD; the calibration's slope is
+  // negative, so the calibrated PD rises with the fall.
+  const Result r = run_firmcall(
+      {"stress", kBook, "--equity-shocks", "0,-0.2,-0.4", "--pd-calibration", kCalibration, "-f", "csv"});
+  REQUIRE(r.exit_code == 0);
+  const Csv t = parse_csv(r.out);
+  REQUIRE(t.rows.size() == 3 * 36);
+  for (std::size_t i = 0; i < 36; ++i) {
+    CAPTURE(t.cell(i, "id"));
+    const double p0 = t.number(i, "pd_calibrated_stressed");
+    const double p1 = t.number(36 + i, "pd_calibrated_stressed");
+    const double p2 = t.number(72 + i, "pd_calibrated_stressed");
+    CHECK(p0 == t.number(i, "pd_calibrated"));  // the unshocked cell
+    CHECK(t.number(36 + i, "distance_to_default_stressed") < t.number(i, "distance_to_default_stressed"));
+    CHECK(p0 < p1);
+    CHECK(p1 < p2);
+  }
+  // The table's PD grid follows the driving PD.
+  const Result g =
+      run_firmcall({"stress", kBook, "--equity-shocks", "0,-0.2,-0.4", "--pd-calibration", kCalibration});
+  REQUIRE(g.exit_code == 0);
+  CHECK(g.out.find("PD grid: calibrated one-year PD %") != std::string::npos);
+}
+
+TEST_CASE("stress --pd-calibration: bad calibration files and combinations exit 2 and write nothing") {
+  const fs::path out = scratch() / "kept.csv";
+  const fs::path summary = scratch() / "never_summary.csv";
+  write_file(out, "earlier output\n");
+  const fs::path missing = scratch() / "no_such_cal.yaml";
+  Result r = run_firmcall({"stress", kBook, "--scenarios", kScenarios, "--pd-calibration", missing.string(),
+                           "-o", out.string(), "--summary-output", summary.string()});
+  CHECK(r.exit_code == 2);
+  CHECK(r.err.find(missing.string()) != std::string::npos);
+  CHECK(read_file(out) == "earlier output\n");
+  CHECK_FALSE(fs::exists(summary));
+
+  const fs::path bad = scratch() / "bad_cal.yaml";
+  write_file(bad, read_file(kCalibration) + "colour: blue\n");
+  r = run_firmcall(
+      {"stress", kBook, "--scenarios", kScenarios, "--pd-calibration", bad.string(), "-o", out.string()});
+  CHECK(r.exit_code == 2);
+  CHECK(r.err.find(bad.string()) != std::string::npos);
+  CHECK(r.err.find("colour") != std::string::npos);
+  CHECK(read_file(out) == "earlier output\n");
+
+  r = run_firmcall({"stress", kBook, "--scenarios", kScenarios, "--driving-pd", "calibrated"});
+  CHECK(r.exit_code == 2);
+  CHECK(r.err.find("--driving-pd calibrated: needs --pd-calibration CAL.yaml") != std::string::npos);
+  r = run_firmcall({"stress", kBook, "--scenarios", kScenarios, "--driving-pd", "neither"});
+  CHECK(r.exit_code == 2);
+  r = run_firmcall(
+      {"stress", kBook, "--scenarios", kScenarios, "--horizons", "1,2", "--pd-calibration", kCalibration});
+  CHECK(r.exit_code == 2);
+  CHECK(r.err.find("--pd-calibration: not available with term structures") != std::string::npos);
+  r = run_firmcall({"stress", kBook, "--reverse-pd", "0.05", "--pd-calibration", kCalibration});
+  CHECK(r.exit_code == 2);
+  CHECK(r.err.find("--pd-calibration: not available with --reverse-pd") != std::string::npos);
+  CHECK(r.out.empty());
+}

@@ -2,6 +2,7 @@
 #pragma once
 
 #include <memory>
+#include <span>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -75,5 +76,11 @@ std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::s
 /// pd_calibrated, pd_calibrated_lower, pd_calibrated_upper (one-year PDs at the calibration's
 /// confidence level) and pd_calibrated_extrapolated (true when the DD lies outside the sample's).
 const std::vector<std::string_view>& pd_calibration_columns();
+/// Appends ",pd,lower,upper,extrapolated" of one calibrated PD, in pd_calibration_columns() order
+/// (every cell empty when p.pd is NaN).
+void append_calibrated_pd_csv(std::string& out, const CalibratedPd& p);
+/// Appends the same four values as JSON fields named `names` (four names; null when p.pd is NaN).
+void append_calibrated_pd_json(std::string& out, const CalibratedPd& p,
+                               std::span<const std::string_view> names);
 
 }  // namespace firmcall

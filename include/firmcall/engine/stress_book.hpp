@@ -6,6 +6,11 @@
 // per obligor, the equity fall and the equity-volatility multiplier that move PD to a level
 // (reverse_stress.hpp).
 //
+// With a PD calibration (StressBookOptions::pd_calibration), every row also carries the calibrated
+// one-year PD of the base and of the stressed DD, and every scenario summary the same figures on
+// it (ScenarioPdFigures); the driving PD says which of the two PDs the table, the PD grid and the
+// closing lines show (driving_pd.hpp).
+//
 // **Example**:
 //   firmcall::Book book = firmcall::load_book("samples/demo_book.yaml");
 //   firmcall::ScenarioSet set = firmcall::load_scenarios("samples/stress_scenarios.yaml");
@@ -21,7 +26,9 @@
 #include <vector>
 
 #include "firmcall/book/settings.hpp"
+#include "firmcall/engine/driving_pd.hpp"
 #include "firmcall/engine/score_book.hpp"
+#include "firmcall/estimate/calibration.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/scenario.hpp"
 #include "firmcall/model/merton.hpp"
@@ -66,6 +73,22 @@ void stress_obligor(const ScoredObligor& base, const ShockEffect& effect, const 
 void stress_obligors(const ScoredObligor* base, const ShockEffect* effects, std::size_t n,
                      const ScoreSettings& settings, bool sensitivities, StressedObligor* out);
 
+/// Scenario figures on the calibrated one-year PD of base and stressed DD (with a calibration),
+/// over the same compared obligors as the model figures of ScenarioSummary.
+struct ScenarioPdFigures {
+  double mean_pd = 0.0;                      ///< simple mean of the calibrated PD of base DD
+  double mean_pd_stressed = 0.0;             ///< of stressed DD
+  double ead_weighted_pd = 0.0;              ///< sum(ead PD)/sum(ead); NaN when no obligor gives ead
+  double ead_weighted_pd_stressed = 0.0;     ///< the same of stressed DD
+  std::size_t above_threshold = 0;           ///< calibrated PD of base DD > threshold
+  std::size_t above_threshold_stressed = 0;  ///< of stressed DD > threshold
+  std::size_t newly_above_threshold = 0;     ///< base <= threshold < stressed
+  /// Sum of PD_T x LGD x EAD over obligors with ead, PD_T = 1 - (1 - calibrated PD)^T over the
+  /// obligor's horizon T (pd_over_horizon), as the model's expected loss is over T.
+  double expected_loss = 0.0;
+  double expected_loss_stressed = 0.0;  ///< the same of stressed DD over the stressed horizon
+};
+
 /// Per-scenario figures over the obligors that are ok both as they stand and stressed.
 struct ScenarioSummary {
   std::size_t obligors = 0;  ///< obligors in the book
@@ -85,10 +108,15 @@ struct ScenarioSummary {
   double expected_loss =
       0.0;  ///< sum of PD x LGD x EAD over obligors with ead (LGD: obligor, book or default)
   double expected_loss_stressed = 0.0;
+  ScenarioPdFigures calibrated;  ///< on the calibrated PD; filled when StressSummary::calibrated
 };
 
+/// The figures of the driving PD: `s.calibrated`, or the model figures of `s` in the same shape.
+ScenarioPdFigures driving_figures(const ScenarioSummary& s, DrivingPd driving);
+
 /// PDs of the quick-grid scenarios per obligor, for the table's PD grid (filled for the table
-/// format only). pd[(i * rows + r) * columns + c]; NaN where the obligor could not be stressed.
+/// format only), of the driving PD (the calibrated one-year PD when it drives).
+/// pd[(i * rows + r) * columns + c]; NaN where the obligor could not be stressed.
 struct PdGrid {
   std::vector<double> equity_changes;   ///< rows
   std::vector<double> vol_multipliers;  ///< columns
@@ -109,6 +137,8 @@ struct StressSummary {
   std::vector<std::string> problems;  ///< "file:line: obligor 'id': message", the first few
   std::size_t problems_not_listed = 0;
   std::vector<std::string> notes;
+  bool calibrated = false;  ///< a calibration was given: ScenarioSummary::calibrated is filled
+  DrivingPd driving_pd = DrivingPd::model;  ///< the PD of the table, the PD grid and the closing lines
   std::size_t failed() const noexcept { return failed_rows; }
 };
 
@@ -118,7 +148,12 @@ struct StressBookOptions {
   bool sensitivities = false;  ///< add sensitivity columns at the stressed inputs
   std::size_t max_listed_problems = 20;
   std::size_t chunk_obligors = 8192;  ///< obligors formatted per parallel step (0 counts as 1)
-  /// threads >= 1.
+  /// When set (and ok): each row ends with the calibrated one-year PD of base and stressed DD
+  /// (stress_pd_calibration_columns()) and each summary with the figures on it.
+  const PdCalibration* pd_calibration = nullptr;
+  std::string pd_calibration_origin;        ///< the calibration file, for the output
+  DrivingPd driving_pd = DrivingPd::model;  ///< calibrated needs pd_calibration
+  /// threads >= 1; driving_pd calibrated only with a calibration.
   OptionCheck validate() const;
 };
 
@@ -127,6 +162,11 @@ struct StressBookOptions {
 const std::vector<std::string_view>& stress_columns();
 /// Column names of the per-scenario summary CSV, in order.
 const std::vector<std::string_view>& stress_summary_columns();
+/// Column names appended to the stress rows with a calibration (after the sensitivity columns):
+/// pd_calibration_columns() of base DD, the same four of stressed DD, then pd_calibrated_change.
+const std::vector<std::string_view>& stress_pd_calibration_columns();
+/// Column names appended to the summary CSV with a calibration (ScenarioPdFigures).
+const std::vector<std::string_view>& stress_summary_calibration_columns();
 
 /// Runs every scenario over the book and writes rows and summaries in `run.format`.
 /// `scenario_origin` names the scenario source in the output (a file name or "grid").

@@ -12,8 +12,11 @@
 #include <string>
 #include <vector>
 
+#include <boost/math/distributions/normal.hpp>
+
 #include "csv_table.hpp"
 #include "firmcall/engine/score_output.hpp"
+#include "firmcall/io/calibration_io.hpp"
 
 using namespace firmcall;
 
@@ -343,4 +346,247 @@ TEST_CASE("quick grids give a PD grid per obligor in the table") {
   CHECK(std::isnan(s.grid.pd[4 * 4]));  // BAD-5
   CHECK(text.find("PD grid") != std::string::npos);
   CHECK(text.find("equity -30% vol x2") != std::string::npos);  // in the scenario summary
+}
+
+namespace {
+
+// A logistic calibration with invented parameters: PD(DD) = 1 / (1 + exp(-(a + b DD))).
+constexpr double kA = -1.5, kB = -0.9, kVarA = 0.1 * 0.1, kVarB = 0.05 * 0.05, kCov = -0.002;
+const char* kCalibration =
+    "firmcall_calibration: 1\nmethod: logistic\npd_horizon_years: 1\nconfidence_level: 0.95\n"
+    "sample: {observations: 4000, defaults: 90, as_of_first: 2020-12-31, as_of_last: 2024-12-31, dd_min: -1, "
+    "dd_max: 3, data_sha256: x}\n"
+    "logistic: {intercept: -1.5, slope: -0.9, intercept_se: 0.1, slope_se: 0.05, covariance: -0.002, "
+    "log_likelihood: -400}\n";
+
+// Ref: the logistic function (textbook logistic regression).
+double logistic_pd(double dd) {
+  return 1.0 / (1.0 + std::exp(-(kA + kB * dd)));
+}
+
+// Ref: delta method on the linear predictor (textbook): a + b DD -+ z se, se^2 = var a + DD^2 var b
+// + 2 DD cov(a, b), z the 97.5% normal quantile (Boost.Math), mapped through the logistic function.
+void logistic_interval(double dd, double& lower, double& upper) {
+  const double z = boost::math::quantile(boost::math::normal_distribution<double>(), 0.975);
+  const double se = std::sqrt(kVarA + dd * dd * kVarB + 2.0 * dd * kCov);
+  const double eta = kA + kB * dd;
+  lower = 1.0 / (1.0 + std::exp(-(eta - z * se)));
+  upper = 1.0 / (1.0 + std::exp(-(eta + z * se)));
+}
+
+Run run_calibrated(const Book& book, const std::string& scenario_yaml, const PdCalibration& cal,
+                   DrivingPd driving, OutputFormat format = OutputFormat::csv, unsigned threads = 1,
+                   StressSettings stress = {}, ScoreSettings settings = {}) {
+  const ScenarioSet set = parse_scenarios(scenario_yaml, "scen.yaml");
+  check_filters(set, book);
+  StressBookOptions opts;
+  opts.format = format;
+  opts.threads = threads;
+  opts.chunk_obligors = 3;
+  opts.pd_calibration = &cal;
+  opts.pd_calibration_origin = "cal.yaml";
+  opts.driving_pd = driving;
+  REQUIRE_FALSE(opts.validate());
+  Run r;
+  r.summary = run_stress(book, set.scenarios, set.origin, settings, stress, opts,
+                         [&](std::string_view s) { r.text += s; });
+  return r;
+}
+
+const char* kThreeFalls =
+    "scenarios:\n"
+    "  - name: fall10\n    shocks: [{equity_change: -0.1}]\n"
+    "  - name: fall30\n    shocks: [{equity_change: -0.3, equity_vol_multiplier: 1.2}]\n"
+    "  - name: fall50\n    shocks: [{equity_change: -0.5, equity_vol_multiplier: 1.5}]\n";
+
+}  // namespace
+
+TEST_CASE("with a calibration every row ends with the calibrated PD of base and stressed DD") {
+  const Book b = book();
+  const CalibrationRecord cal = parse_calibration(kCalibration, "cal.yaml");
+  const Run r = run_calibrated(b, kThreeFalls, cal.calibration, DrivingPd::calibrated);
+  const Csv csv = parse_csv(r.text);
+  // The calibrated columns come last, after every column of the run without a calibration.
+  const auto& plain = stress_columns();
+  const auto& added = stress_pd_calibration_columns();
+  REQUIRE(csv.header.size() == plain.size() + added.size());
+  for (std::size_t i = 0; i < added.size(); ++i) CHECK(csv.header[plain.size() + i] == added[i]);
+  int checked = 0;
+  for (std::size_t i = 0; i < csv.rows.size(); ++i) {
+    CAPTURE(csv.cell(i, "id"));
+    if (csv.cell(i, "status") != "ok") {
+      CHECK(csv.cell(i, "pd_calibrated_stressed").empty());
+      CHECK(csv.cell(i, "pd_calibrated_stressed_extrapolated").empty());
+      continue;
+    }
+    const double dd0 = csv.number(i, "distance_to_default");
+    const double dd1 = csv.number(i, "distance_to_default_stressed");
+    CHECK(csv.number(i, "pd_calibrated") == doctest::Approx(logistic_pd(dd0)).epsilon(1e-13));
+    const double p1 = csv.number(i, "pd_calibrated_stressed");
+    CHECK(p1 == doctest::Approx(logistic_pd(dd1)).epsilon(1e-13));
+    double lo = 0, hi = 0;
+    logistic_interval(dd1, lo, hi);
+    CHECK(csv.number(i, "pd_calibrated_stressed_lower") == doctest::Approx(lo).epsilon(1e-12));
+    CHECK(csv.number(i, "pd_calibrated_stressed_upper") == doctest::Approx(hi).epsilon(1e-12));
+    CHECK(csv.cell(i, "pd_calibrated_stressed_extrapolated") == (dd1 < -1.0 || dd1 > 3.0 ? "true" : "false"));
+    CHECK(csv.cell(i, "pd_calibrated_extrapolated") == (dd0 < -1.0 || dd0 > 3.0 ? "true" : "false"));
+    CHECK(csv.number(i, "pd_calibrated_change") == p1 - csv.number(i, "pd_calibrated"));
+    ++checked;
+  }
+  CHECK(checked == 12);  // four obligors scored, three scenarios
+}
+
+TEST_CASE("calibrated PDs rise with the size of the equity fall") {
+  // A larger fall with more volatility lowers DD (Merton 1974), and the calibration falls with DD
+  // (negative slope), so the calibrated PD rises scenario by scenario.
+  const Book b = book();
+  const CalibrationRecord cal = parse_calibration(kCalibration, "cal.yaml");
+  const Run r = run_calibrated(b, kThreeFalls, cal.calibration, DrivingPd::calibrated);
+  const Csv csv = parse_csv(r.text);
+  std::map<std::string, std::vector<double>> by_obligor;
+  for (std::size_t i = 0; i < csv.rows.size(); ++i) {
+    if (csv.cell(i, "status") == "ok")
+      by_obligor[csv.cell(i, "id")].push_back(csv.number(i, "pd_calibrated_stressed"));
+  }
+  REQUIRE(by_obligor.size() == 4);
+  for (const auto& [id, pd] : by_obligor) {
+    CAPTURE(id);
+    REQUIRE(pd.size() == 3);
+    CHECK(pd[0] < pd[1]);
+    CHECK(pd[1] < pd[2]);
+  }
+  for (const ScenarioSummary& s : r.summary.scenarios)
+    CHECK(s.calibrated.mean_pd_stressed > s.calibrated.mean_pd);
+  CHECK(r.summary.scenarios[0].calibrated.mean_pd_stressed <
+        r.summary.scenarios[2].calibrated.mean_pd_stressed);
+}
+
+TEST_CASE("calibrated scenario figures agree with a recomputation from the rows") {
+  // Definitions as for the model figures; expected loss over the horizon T with the constant
+  // annual intensity 1 - (1 - PD1)^T (common practice). The book's horizon is set to 2 years.
+  const Book b = book();
+  const CalibrationRecord cal = parse_calibration(kCalibration, "cal.yaml");
+  StressSettings st;
+  st.pd_threshold = 0.02;
+  ScoreSettings two_years;
+  two_years.horizon_override = 2.0;
+  const Run r = run_calibrated(
+      b, "scenarios:\n  - name: s\n    shocks: [{equity_change: -0.3, equity_vol_multiplier: 1.8}]\n",
+      cal.calibration, DrivingPd::calibrated, OutputFormat::csv, 2, st, two_years);
+  const Csv csv = parse_csv(r.text);
+  double n = 0, pd0 = 0, pd1 = 0, w = 0, wpd0 = 0, wpd1 = 0, el0 = 0, el1 = 0;
+  std::size_t above0 = 0, above1 = 0, newly = 0;
+  for (std::size_t i = 0; i < csv.rows.size(); ++i) {
+    if (csv.cell(i, "status") != "ok") continue;
+    CHECK(csv.number(i, "horizon") == 2.0);
+    const double p0 = csv.number(i, "pd_calibrated");
+    const double p1 = csv.number(i, "pd_calibrated_stressed");
+    n += 1;
+    pd0 += p0;
+    pd1 += p1;
+    above0 += p0 > 0.02;
+    above1 += p1 > 0.02;
+    newly += p0 <= 0.02 && p1 > 0.02;
+    if (!csv.cell(i, "ead").empty()) {
+      const double ead = csv.number(i, "ead");
+      const double lgd = csv.number(i, "lgd");
+      w += ead;
+      wpd0 += ead * p0;
+      wpd1 += ead * p1;
+      el0 += (1.0 - std::pow(1.0 - p0, 2.0)) * lgd * ead;
+      el1 += (1.0 - std::pow(1.0 - p1, 2.0)) * lgd * ead;
+    }
+  }
+  REQUIRE(r.summary.calibrated);
+  const ScenarioPdFigures& f = r.summary.scenarios.at(0).calibrated;
+  CHECK(n == 4);
+  CHECK(f.mean_pd == doctest::Approx(pd0 / n).epsilon(1e-14));
+  CHECK(f.mean_pd_stressed == doctest::Approx(pd1 / n).epsilon(1e-14));
+  CHECK(f.ead_weighted_pd == doctest::Approx(wpd0 / w).epsilon(1e-14));
+  CHECK(f.ead_weighted_pd_stressed == doctest::Approx(wpd1 / w).epsilon(1e-14));
+  CHECK(f.expected_loss == doctest::Approx(el0).epsilon(1e-12));
+  CHECK(f.expected_loss_stressed == doctest::Approx(el1).epsilon(1e-12));
+  CHECK(f.above_threshold == above0);
+  CHECK(f.above_threshold_stressed == above1);
+  CHECK(f.newly_above_threshold == newly);
+  // Without a calibration the summary has no calibrated figures and its CSV no calibrated columns.
+  const Run plain =
+      run(b, "scenarios:\n  - name: s\n    shocks: [{equity_change: -0.3, equity_vol_multiplier: 1.8}]\n",
+          OutputFormat::csv, 1, false, st);
+  CHECK_FALSE(plain.summary.calibrated);
+  const ScenarioSummary& m = r.summary.scenarios.at(0);
+  // The summary CSV ends with the calibrated figures, named apart from the model ones.
+  const auto scenarios =
+      parse_scenarios("scenarios:\n  - name: s\n    shocks: [{equity_change: -0.3}]\n", "x").scenarios;
+  const Csv sc = parse_csv(scenario_summary_csv(r.summary, scenarios));
+  REQUIRE(sc.header.size() == stress_summary_columns().size() + stress_summary_calibration_columns().size());
+  CHECK(sc.number(0, "mean_pd_calibrated_stressed") == f.mean_pd_stressed);
+  CHECK(sc.number(0, "expected_loss_calibrated_change") == f.expected_loss_stressed - f.expected_loss);
+  CHECK(sc.number(0, "mean_pd") == m.mean_pd);
+  const Csv sp = parse_csv(scenario_summary_csv(plain.summary, scenarios));
+  CHECK(sp.header.size() == stress_summary_columns().size());
+}
+
+TEST_CASE("the driving PD: the table, the PD grid and the JSON say which PD they show") {
+  const Book b = book();
+  const CalibrationRecord cal = parse_calibration(kCalibration, "cal.yaml");
+  const std::string scen = "scenarios:\n  - name: s\n    shocks: [{equity_change: -0.3}]\n";
+  const Run t = run_calibrated(b, scen, cal.calibration, DrivingPd::calibrated, OutputFormat::table);
+  CHECK(t.text.find("PD: calibrated one-year (cal.yaml, logistic) drives the summaries") !=
+        std::string::npos);
+  CHECK(t.text.find("  calibrated one-year PD ") != std::string::npos);
+  CHECK(t.text.find("  on the calibrated one-year PD") != std::string::npos);
+  CHECK(t.text.find("; PD: calibrated one-year)") != std::string::npos);
+  const Run tm = run_calibrated(b, scen, cal.calibration, DrivingPd::model, OutputFormat::table);
+  CHECK(tm.text.find(
+            "PD: model drives the summaries and the PD grid; calibrated one-year PDs (cal.yaml, logistic)") !=
+        std::string::npos);
+  CHECK(tm.text.find("; PD: model)") != std::string::npos);
+  // The summary lines show the driving PD's figures (table: percent with four decimals).
+  char mean[128];
+  std::snprintf(mean, sizeof mean, "  mean PD          %.4f%% -> %.4f%%",
+                100.0 * t.summary.scenarios[0].calibrated.mean_pd,
+                100.0 * t.summary.scenarios[0].calibrated.mean_pd_stressed);
+  CHECK(t.text.find(mean) != std::string::npos);
+  std::snprintf(mean, sizeof mean, "  mean PD          %.4f%% -> %.4f%%",
+                100.0 * tm.summary.scenarios[0].mean_pd, 100.0 * tm.summary.scenarios[0].mean_pd_stressed);
+  CHECK(tm.text.find(mean) != std::string::npos);
+  for (const Run* x : {&t, &tm}) {
+    std::istringstream lines(x->text);
+    for (std::string line; std::getline(lines, line);) CHECK(line.size() <= 120);
+  }
+
+  const Run j = run_calibrated(b, scen, cal.calibration, DrivingPd::calibrated, OutputFormat::json);
+  for (const char* key : {"\"pd_calibration\": \"cal.yaml\"", "\"pd_calibration_method\": \"logistic\"",
+                          "\"driving_pd\": \"calibrated\"",
+                          "\"pd_calibrated_stressed_extrapolated\": ", "\"pd_calibrated_change\": ",
+                          "\"mean_pd_calibrated_stressed\": ", "\"expected_loss_calibrated_change\": "}) {
+    CAPTURE(key);
+    CHECK(j.text.find(key) != std::string::npos);
+  }
+  // BAD-5 is not scored: its calibrated fields are null.
+  CHECK(j.text.find("\"pd_calibrated\": null") != std::string::npos);
+
+  // The PD grid shows the driving PD: the unshocked cell is the calibrated PD as it stands.
+  StressBookOptions opts;
+  opts.format = OutputFormat::table;
+  opts.pd_calibration = &cal.calibration;
+  opts.pd_calibration_origin = "cal.yaml";
+  opts.driving_pd = DrivingPd::calibrated;
+  std::string text;
+  const StressSummary g = run_stress(b, grid_scenarios({0.0, -0.3}, {1.0}), "quick grid", ScoreSettings{},
+                                     StressSettings{}, opts, [&](std::string_view v) { text += v; });
+  const ScoredObligor s0 = scored(b.obligors[0], b.defaults);
+  CHECK(g.grid.base_pd[0] == doctest::Approx(logistic_pd(s0.measures.distance_to_default)).epsilon(1e-13));
+  CHECK(g.grid.pd[0] == g.grid.base_pd[0]);
+  CHECK(g.grid.pd[1] > g.grid.pd[0]);
+  CHECK(text.find("PD grid: calibrated one-year PD %") != std::string::npos);
+}
+
+TEST_CASE("driving PD calibrated needs a calibration") {
+  StressBookOptions opts;
+  opts.driving_pd = DrivingPd::calibrated;
+  const OptionCheck c = opts.validate();
+  REQUIRE(c);
+  CHECK(c->field == "driving_pd");
 }
