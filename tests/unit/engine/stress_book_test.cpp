@@ -8,6 +8,7 @@
 #include <cmath>
 #include <cstdio>
 #include <map>
+#include <set>
 #include <sstream>
 #include <string>
 #include <vector>
@@ -412,6 +413,7 @@ TEST_CASE("with a calibration every row ends with the calibrated PD of base and 
   REQUIRE(csv.header.size() == plain.size() + added.size());
   for (std::size_t i = 0; i < added.size(); ++i) CHECK(csv.header[plain.size() + i] == added[i]);
   int checked = 0;
+  std::set<std::string> flags;
   for (std::size_t i = 0; i < csv.rows.size(); ++i) {
     CAPTURE(csv.cell(i, "id"));
     if (csv.cell(i, "status") != "ok") {
@@ -431,9 +433,25 @@ TEST_CASE("with a calibration every row ends with the calibrated PD of base and 
     CHECK(csv.cell(i, "pd_calibrated_stressed_extrapolated") == (dd1 < -1.0 || dd1 > 3.0 ? "true" : "false"));
     CHECK(csv.cell(i, "pd_calibrated_extrapolated") == (dd0 < -1.0 || dd0 > 3.0 ? "true" : "false"));
     CHECK(csv.number(i, "pd_calibrated_change") == p1 - csv.number(i, "pd_calibrated"));
+    flags.insert(csv.cell(i, "pd_calibrated_stressed_extrapolated"));
     ++checked;
   }
-  CHECK(checked == 12);  // four obligors scored, three scenarios
+  CHECK(checked == 12);                                    // four obligors scored, three scenarios
+  CHECK(flags == std::set<std::string>{"false", "true"});  // DDs inside and outside [-1, 3]
+  // The same text whatever the thread count.
+  CHECK(run_calibrated(b, kThreeFalls, cal.calibration, DrivingPd::calibrated, OutputFormat::csv, 3).text ==
+        r.text);
+  // With --sensitivities the calibrated columns still come last.
+  StressBookOptions opts;
+  opts.sensitivities = true;
+  opts.pd_calibration = &cal.calibration;
+  std::string text;
+  run_stress(b, parse_scenarios(kThreeFalls, "s.yaml").scenarios, "s.yaml", ScoreSettings{}, StressSettings{},
+             opts, [&](std::string_view v) { text += v; });
+  const Csv both = parse_csv(text);
+  REQUIRE(both.header.size() == plain.size() + sensitivity_columns().size() + added.size());
+  CHECK(both.header[plain.size()] == "sensitivity_status");
+  CHECK(both.header.back() == "pd_calibrated_change");
 }
 
 TEST_CASE("calibrated PDs rise with the size of the equity fall") {
