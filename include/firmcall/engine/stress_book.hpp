@@ -73,17 +73,18 @@ void stress_obligor(const ScoredObligor& base, const ShockEffect& effect, const 
 void stress_obligors(const ScoredObligor* base, const ShockEffect* effects, std::size_t n,
                      const ScoreSettings& settings, bool sensitivities, StressedObligor* out);
 
-/// Scenario figures on the calibrated one-year PD of base and stressed DD (with a calibration),
-/// over the same compared obligors as the model figures of ScenarioSummary.
+/// A scenario's figures on one PD, over the compared obligors of its ScenarioSummary. In
+/// ScenarioSummary::calibrated (with a calibration) the PD is the calibrated one-year PD of base
+/// and stressed DD; driving_figures() gives the model figures in the same shape.
 struct ScenarioPdFigures {
-  double mean_pd = 0.0;                      ///< simple mean of the calibrated PD of base DD
+  double mean_pd = 0.0;                      ///< simple mean of the PD of base DD
   double mean_pd_stressed = 0.0;             ///< of stressed DD
   double ead_weighted_pd = 0.0;              ///< sum(ead PD)/sum(ead); NaN when no obligor gives ead
   double ead_weighted_pd_stressed = 0.0;     ///< the same of stressed DD
-  std::size_t above_threshold = 0;           ///< calibrated PD of base DD > threshold
+  std::size_t above_threshold = 0;           ///< PD of base DD > threshold
   std::size_t above_threshold_stressed = 0;  ///< of stressed DD > threshold
   std::size_t newly_above_threshold = 0;     ///< base <= threshold < stressed
-  /// Sum of PD_T x LGD x EAD over obligors with ead, PD_T = 1 - (1 - calibrated PD)^T over the
+  /// Sum of PD_T x LGD x EAD over obligors with ead. Calibrated: PD_T = 1 - (1 - PD1)^T over the
   /// obligor's horizon T (pd_over_horizon), as the model's expected loss is over T.
   double expected_loss = 0.0;
   double expected_loss_stressed = 0.0;  ///< the same of stressed DD over the stressed horizon
