@@ -150,6 +150,7 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
   if (!opts.pd_calibration.empty() && !wants_term_structure(opts.term)) {
     calibration = read_calibration(opts.pd_calibration);
     run.pd_calibration = &calibration.calibration;
+    run.pd_calibration_origin = opts.pd_calibration;
     if (opts.driving_pd != "model") run.driving_pd = DrivingPd::calibrated;
   }
   if (opts.driving_pd == "calibrated" && opts.pd_calibration.empty()) {

@@ -583,7 +583,7 @@ class ChunkPipeline {
 ScoreSummary score_book(const Book& book, const ScoreSettings& settings, const ScoreBookOptions& run,
                         const TextSink& sink) {
   const auto writer = make_score_writer(run.format, book.origin, settings, run.sensitivities, run.grades,
-                                        run.pd_calibration, run.driving_pd);
+                                        run.pd_calibration, run.driving_pd, run.pd_calibration_origin);
   const RunContext ctx{book.origin, book.defaults, settings, run, *writer, sink};
   OrderedOutput output(ctx);
   output.begin();
@@ -644,7 +644,7 @@ ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const Sc
   buf.erase(0, pos + header_len);
 
   const auto writer = make_score_writer(run.format, origin, settings, run.sensitivities, run.grades,
-                                        run.pd_calibration, run.driving_pd);
+                                        run.pd_calibration, run.driving_pd, run.pd_calibration_origin);
   const RunContext ctx{origin, no_defaults, settings, run, *writer, sink};
   OrderedOutput output(ctx);
   output.begin();

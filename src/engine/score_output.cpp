@@ -251,8 +251,12 @@ NumericRow numeric_row(const ScoredObligor& s) {
 class CsvWriter final : public ScoreWriter {
  public:
   CsvWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades,
-            const PdCalibration* cal, DrivingPd driving)
-      : sensitivities_(sensitivities), grades_(grades), cal_(cal), grade_cal_(graded_on(cal, driving)) {}
+            const PdCalibration* cal, DrivingPd driving, std::string_view)
+      : sensitivities_(sensitivities),
+        grades_(grades),
+        cal_(cal),
+        grade_cal_(graded_on(cal, driving)),
+        driving_cell_(driving == DrivingPd::calibrated ? ",calibrated\n" : ",model\n") {}
   void begin(std::string& out) const override {
     append_csv_names(out, score_columns());
     if (sensitivities_) {
@@ -263,6 +267,7 @@ class CsvWriter final : public ScoreWriter {
     if (cal_) {
       out.push_back(',');
       append_csv_names(out, pd_calibration_columns());
+      out += ",driving_pd";  // which PD the grades are on: model or calibrated
     }
     out.push_back('\n');
   }
@@ -296,8 +301,12 @@ class CsvWriter final : public ScoreWriter {
       out.push_back(',');
       append_csv_text(out, grade_label(grades_, s, grade_cal_));
     }
-    if (cal_) append_calibrated_csv(out, *cal_, s);
-    out.push_back('\n');
+    if (cal_) {
+      append_calibrated_csv(out, *cal_, s);
+      out += driving_cell_;
+    } else {
+      out.push_back('\n');
+    }
   }
   void end(const ScoreSummary&, std::string&) const override {}
 
@@ -306,22 +315,31 @@ class CsvWriter final : public ScoreWriter {
   const GradeScale* grades_;
   const PdCalibration* cal_;
   const PdCalibration* grade_cal_;  // grades on the calibrated PD when set
+  std::string_view driving_cell_;   // the driving_pd cell and the row's end
 };
 
 class JsonWriter final : public ScoreWriter {
  public:
   JsonWriter(std::string origin, const ScoreSettings& settings, bool sensitivities, const GradeScale* grades,
-             const PdCalibration* cal, DrivingPd driving)
+             const PdCalibration* cal, DrivingPd driving, std::string_view cal_origin)
       : origin_(std::move(origin)),
         settings_(settings),
         sensitivities_(sensitivities),
         grades_(grades),
         cal_(cal),
-        grade_cal_(graded_on(cal, driving)) {}
+        grade_cal_(graded_on(cal, driving)),
+        driving_(driving),
+        cal_origin_(cal_origin) {}
   void begin(std::string& out) const override {
     out += "{\n  \"run\": {";
     JsonFields(out).text("input", origin_).text("measure", to_string(settings_.measure));
     append_score_settings_json(out, settings_);
+    if (cal_) {
+      JsonFields(out, false)
+          .text("pd_calibration", cal_origin_)
+          .text("pd_calibration_method", to_string(cal_->method))
+          .text("driving_pd", to_string(driving_));
+    }
     out += "},\n  \"obligors\": [\n";
   }
   std::string_view separator() const override { return ",\n"; }
@@ -359,13 +377,15 @@ class JsonWriter final : public ScoreWriter {
   const GradeScale* grades_;
   const PdCalibration* cal_;
   const PdCalibration* grade_cal_;  // grades on the calibrated PD when set
+  DrivingPd driving_;
+  std::string cal_origin_;
 };
 
 // Fixed-width text for people: 118 columns (with grades: a grade column, and the name 5 narrower).
 class TableWriter final : public ScoreWriter {
  public:
   TableWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades,
-              const PdCalibration* cal, DrivingPd driving)
+              const PdCalibration* cal, DrivingPd driving, std::string_view)
       : sensitivities_(sensitivities), grades_(grades), cal_(cal), grade_cal_(graded_on(cal, driving)) {}
   void begin(std::string& out) const override {
     char buf[256];
@@ -377,9 +397,13 @@ class TableWriter final : public ScoreWriter {
     out += buf;
     if (sensitivities_) append_sensitivities_table_header(out, 2);
     if (cal_) append_calibrated_table_header(out, *cal_);
-    if (cal_ && grades_) {
-      out += grade_cal_ ? "  grade on the calibrated one-year PD (driving PD: calibrated)\n"
-                        : "  grade on the one-year model PD (driving PD: model)\n";
+    if (cal_) {
+      if (grades_) {
+        out += grade_cal_ ? "  grade on the calibrated one-year PD (driving PD: calibrated)\n"
+                          : "  grade on the one-year model PD (driving PD: model)\n";
+      } else {
+        out += grade_cal_ ? "  driving PD: calibrated one-year\n" : "  driving PD: model\n";
+      }
     }
     append_rule(out, kRuleWidth);
   }
@@ -457,9 +481,9 @@ class TableWriter final : public ScoreWriter {
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
                                                const ScoreSettings& settings, bool sensitivities,
                                                const GradeScale* grades, const PdCalibration* pd_calibration,
-                                               DrivingPd driving_pd) {
+                                               DrivingPd driving_pd, std::string_view pd_calibration_origin) {
   return make_format_writer<ScoreWriter, CsvWriter, JsonWriter, TableWriter>(
-      format, origin, settings, sensitivities, grades, pd_calibration, driving_pd);
+      format, origin, settings, sensitivities, grades, pd_calibration, driving_pd, pd_calibration_origin);
 }
 
 }  // namespace firmcall

@@ -331,9 +331,18 @@ CalibratedPd PdCalibration::evaluate(double dd) const noexcept {
     const double var =
         f.intercept_se * f.intercept_se + 2.0 * dd * f.covariance + dd * dd * f.slope_se * f.slope_se;
     const double half = z * std::sqrt(std::max(var, 0.0));
-    r.pd = logistic_of(eta);
-    r.lower = logistic_of(eta - half);
-    r.upper = logistic_of(eta + half);
+    // Two exponentials instead of three: exp(-(eta -+ half)) = exp(-eta) exp(+-half). Applying a
+    // calibration to a 1,000,000-row score run is held to 10% extra time (bench/calibration.sh);
+    // the products differ from the direct exponentials by a few ulps at most.
+    const double q = std::exp(-eta), h = std::exp(half);
+    r.pd = 1.0 / (1.0 + q);
+    if (std::isfinite(h)) {
+      r.lower = 1.0 / (1.0 + q * h);
+      r.upper = 1.0 / (1.0 + q / h);
+    } else {
+      r.lower = logistic_of(eta - half);
+      r.upper = logistic_of(eta + half);
+    }
     return r;
   }
   if (blocks.empty()) return r;

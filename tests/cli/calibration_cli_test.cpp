@@ -63,9 +63,11 @@ TEST_CASE("score --pd-calibration: the calibrated PD is the logistic of the fitt
   const auto rows = split_simple_csv(r.out);
   REQUIRE(rows.size() > 2);
   const auto& head = rows[0];
-  REQUIRE(head.size() >= 4);
-  CHECK(head[head.size() - 4] == "pd_calibrated");
-  CHECK(head[head.size() - 1] == "pd_calibrated_extrapolated");
+  REQUIRE(head.size() >= 5);
+  const std::size_t cal_col = head.size() - 5;  // the calibrated columns, then driving_pd, end the row
+  CHECK(head[cal_col] == "pd_calibrated");
+  CHECK(head[cal_col + 3] == "pd_calibrated_extrapolated");
+  CHECK(head.back() == "driving_pd");
   std::size_t dd_col = 0;
   while (head[dd_col] != "distance_to_default") ++dd_col;
   int checked = 0;
@@ -73,11 +75,12 @@ TEST_CASE("score --pd-calibration: the calibrated PD is the logistic of the fitt
     const auto& row = rows[i];
     if (row.size() != head.size() || row[dd_col].empty()) continue;
     const double dd = std::stod(row[dd_col]);
-    const double pd = std::stod(row[head.size() - 4]);
+    const double pd = std::stod(row[cal_col]);
     // The logistic link 1 / (1 + exp(-(a + b DD))) (textbook logistic regression).
     CHECK(pd == doctest::Approx(1.0 / (1.0 + std::exp(-(a + b * dd)))).epsilon(1e-13));
-    CHECK(std::stod(row[head.size() - 3]) <= pd);
-    CHECK(std::stod(row[head.size() - 2]) >= pd);
+    CHECK(std::stod(row[cal_col + 1]) <= pd);
+    CHECK(std::stod(row[cal_col + 2]) >= pd);
+    CHECK(row.back() == "calibrated");  // the default driving PD with a calibration
     ++checked;
   }
   CHECK(checked > 0);
@@ -86,6 +89,14 @@ TEST_CASE("score --pd-calibration: the calibrated PD is the logistic of the fitt
   const RunResult j =
       run_firmcall("-q score samples/demo_book.yaml --format json --pd-calibration '" + cal + "'");
   CHECK(j.out.find("\"pd_calibrated_extrapolated\": ") != std::string::npos);
+  CHECK(j.out.find("\"driving_pd\": \"calibrated\"") != std::string::npos);
+  CHECK(j.out.find("\"pd_calibration_method\": \"logistic\"") != std::string::npos);
+  const RunResult m = run_firmcall(
+      "-q score samples/demo_book.csv --format csv --driving-pd model --pd-calibration '" + cal + "'");
+  REQUIRE(m.exit_code <= 1);
+  const auto model_rows = split_simple_csv(m.out);
+  REQUIRE(model_rows.size() > 1);
+  CHECK(model_rows[1].back() == "model");
   const RunResult term =
       run_firmcall("-q score samples/demo_book.yaml --horizons 1,2 --pd-calibration '" + cal + "'");
   CHECK(term.exit_code == 2);

@@ -71,6 +71,7 @@ struct ScoreBookOptions {
   const PdCalibration* pd_calibration = nullptr;
   /// With a calibration: calibrated puts the grades on the calibrated one-year PD.
   DrivingPd driving_pd = DrivingPd::model;
+  std::string pd_calibration_origin;  ///< the calibration file, named in the output
   /// threads >= 1, chunk_bytes > 0.
   OptionCheck validate() const;
 };

@@ -65,12 +65,16 @@ class ScoreWriter {
 /// With `grades`, each scored obligor also shows its grade (a last CSV column and JSON key `grade`,
 /// a table column). With `pd_calibration`, every format ends with the one-year calibrated PD of the
 /// obligor's DD (pd_calibration_columns(); the table a line per obligor). With a calibration and
-/// `driving_pd` calibrated, grades are on the calibrated one-year PD (the table header says which).
+/// `driving_pd` calibrated, grades are on the calibrated one-year PD. Every format with a
+/// calibration states the driving PD: a last CSV column `driving_pd` (model or calibrated), the JSON
+/// run keys `pd_calibration` (`pd_calibration_origin`, the file), `pd_calibration_method` and
+/// `driving_pd`, a table header line.
 std::unique_ptr<ScoreWriter> make_score_writer(OutputFormat format, const std::string& origin,
                                                const ScoreSettings& settings, bool sensitivities = false,
                                                const GradeScale* grades = nullptr,
                                                const PdCalibration* pd_calibration = nullptr,
-                                               DrivingPd driving_pd = DrivingPd::model);
+                                               DrivingPd driving_pd = DrivingPd::model,
+                                               std::string_view pd_calibration_origin = {});
 
 /// Names of the calibrated-PD columns (--pd-calibration), appended after every other column:
 /// pd_calibrated, pd_calibrated_lower, pd_calibrated_upper (one-year PDs at the calibration's
