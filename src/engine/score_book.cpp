@@ -462,6 +462,136 @@ class DuplicateCheck {
 
 // Chunks in flight: workers parse and score them in any order; the calling thread hands them out
 // and writes them in input order, so the output never depends on the number of threads.
+// A CSV book read in steps of whole records from the main thread: the header first, then chunks
+// of about chunk_bytes, each cut at a record end (quote-aware when the text holds a quote).
+class CsvChunkSource {
+ public:
+  enum class Step : std::uint8_t { records, record_too_long, end };
+
+  CsvChunkSource(std::FILE* in, const std::string& origin, std::size_t chunk_bytes)
+      : in_(in), origin_(origin), chunk_bytes_(chunk_bytes) {}
+
+  /// Reads the header row (after a byte-order mark and blank lines); notes its unused columns.
+  CsvColumns header(std::vector<std::string>& notes) {
+    fill(chunk_bytes_);
+    std::size_t pos = 0;
+    if (buf_.compare(0, 3, "\xEF\xBB\xBF") == 0) pos = 3;
+    while (pos < buf_.size() && (buf_[pos] == '\n' || buf_[pos] == '\r')) {
+      if (buf_[pos] == '\n') ++line_;
+      ++pos;
+    }
+    if (pos >= buf_.size()) throw InputError(located(origin_, 0, "empty file: a header row is required"));
+    std::vector<std::string_view> fields;
+    std::string scratch;
+    bool unterminated = false;
+    const std::size_t header_len =
+        split_csv_record(std::string_view(buf_).substr(pos), fields, scratch, unterminated);
+    if (unterminated) throw InputError(located(origin_, line_, "header: a quoted name is never closed"));
+    CsvColumns cols = CsvColumns::from_header(fields, origin_);
+    for (const auto& u : cols.unused)
+      notes.push_back(located(origin_, line_, "note: column '" + u + "' is not used"));
+    line_ += count_lines(std::string_view(buf_).substr(pos, header_len));
+    buf_.erase(0, pos + header_len);
+    return cols;
+  }
+
+  /// Rows of a regular file, estimated from its size and the rows read so far; 0 when unknown.
+  std::size_t expected_rows() const {
+    struct stat st {};
+    if (buf_.empty() || ::fstat(::fileno(in_), &st) != 0 || !S_ISREG(st.st_mode)) return 0;
+    const std::size_t rows = std::max<std::size_t>(count_lines(buf_), 1);
+    const double per_row = static_cast<double>(buf_.size()) / static_cast<double>(rows);
+    const double expected = static_cast<double>(st.st_size) / per_row * 1.05;
+    return static_cast<std::size_t>(std::min(expected, 1e8));
+  }
+
+  /// Reads until whole records are at hand (or one record longer than kMaxRecordBytes is).
+  Step advance() {
+    std::size_t want = chunk_bytes_;
+    while (true) {
+      fill(want);
+      if (buf_.empty()) return Step::end;
+      const std::string_view all(buf_);
+      quoted_ = std::memchr(all.data(), '"', all.size()) != nullptr;
+      cut_ = all.size();
+      if (eof_) return Step::records;
+      if (quoted_) {
+        cut_ = last_record_end(all);
+      } else {
+        const void* nl = ::memrchr(all.data(), '\n', all.size());
+        cut_ = nl ? static_cast<std::size_t>(static_cast<const char*>(nl) - all.data()) + 1 : 0;
+      }
+      if (cut_ > 0) return Step::records;
+      if (buf_.size() >= kMaxRecordBytes) return Step::record_too_long;
+      want = std::min(buf_.size() * 2, kMaxRecordBytes);  // one record longer than the buffer
+    }
+  }
+
+  /// After Step::records: moves the records into `c`; notes a last row without a line break.
+  void take_records(Chunk& c, std::vector<std::string>& notes) {
+    c.text.assign(buf_, 0, cut_);
+    c.first_line = line_;
+    c.quoted = quoted_;
+    line_ += count_lines(c.text);
+    buf_.erase(0, cut_);
+    if (!eof_ || !buf_.empty()) return;
+    // The file's last row has no line break after it: read, and noted (it may be cut short).
+    const std::string_view text(c.text);
+    const std::size_t last_nl = text.find_last_of('\n');
+    const std::string_view tail = last_nl == std::string_view::npos ? text : text.substr(last_nl + 1);
+    if (text.back() != '\r' && tail.find_first_not_of(" \t") != std::string_view::npos) {
+      notes.push_back(located(origin_, line_, no_final_line_break_note()));
+    }
+  }
+
+  /// After Step::record_too_long: `c` reports the record, which is skipped to its end so that
+  /// memory stays bounded whatever the file holds. The end is the first line break outside
+  /// quotes, scanned from the record's start as split_csv_record reads it: a quoted field may hold
+  /// line breaks, and resuming inside it would read its closing quote as an opening one.
+  void skip_long_record(Chunk& c) {
+    c.text.clear();
+    c.first_line = line_;
+    c.skipped = record_too_long_problem();
+    CsvScanState scan;
+    while (true) {
+      const std::size_t end = scan.find_record_end(buf_, line_);
+      if (end != std::string_view::npos) {
+        buf_.erase(0, end);
+        return;
+      }
+      buf_.clear();
+      if (eof_) return;
+      fill(chunk_bytes_);
+      if (buf_.empty()) return;
+    }
+  }
+
+ private:
+  // Reads until buf_ holds at least `want` bytes or the file ends.
+  void fill(std::size_t want) {
+    while (!eof_ && buf_.size() < want) {
+      const std::size_t old = buf_.size();
+      const std::size_t ask = std::max<std::size_t>(want - old, 64 * 1024);
+      buf_.resize(old + ask);
+      const std::size_t got = std::fread(buf_.data() + old, 1, ask, in_);
+      buf_.resize(old + got);
+      if (got < ask) {
+        if (std::ferror(in_)) throw InputError("cannot read file '" + origin_ + "'");
+        eof_ = true;
+      }
+    }
+  }
+
+  std::FILE* in_;
+  const std::string& origin_;
+  std::size_t chunk_bytes_;
+  std::string buf_;
+  bool eof_ = false;
+  std::size_t line_ = 1;  // line of buf_[0]
+  std::size_t cut_ = 0;   // after advance(): bytes of whole records at buf_'s start
+  bool quoted_ = false;   // after advance(): buf_ holds a '"'
+};
+
 class ChunkPipeline {
  public:
   ChunkPipeline(const RunContext& ctx, const CsvColumns& cols, OrderedOutput& output, DuplicateCheck& dups,
@@ -603,124 +733,26 @@ ScoreSummary score_book(const Book& book, const ScoreSettings& settings, const S
 ScoreSummary score_csv_stream(std::FILE* in, const std::string& origin, const ScoreSettings& settings,
                               const ScoreBookOptions& run, const TextSink& sink) {
   const BookDefaults no_defaults;
-  std::string buf;
-  bool eof = false;
-  // Reads until buf holds at least `want` bytes or the file ends.
-  const auto fill = [&](std::size_t want) {
-    while (!eof && buf.size() < want) {
-      const std::size_t old = buf.size();
-      const std::size_t ask = std::max<std::size_t>(want - old, 64 * 1024);
-      buf.resize(old + ask);
-      const std::size_t got = std::fread(buf.data() + old, 1, ask, in);
-      buf.resize(old + got);
-      if (got < ask) {
-        if (std::ferror(in)) throw InputError("cannot read file '" + origin + "'");
-        eof = true;
-      }
-    }
-  };
-
-  // Header.
-  fill(run.chunk_bytes);
-  std::size_t pos = 0;
-  if (buf.compare(0, 3, "\xEF\xBB\xBF") == 0) pos = 3;
-  std::size_t line = 1;
-  while (pos < buf.size() && (buf[pos] == '\n' || buf[pos] == '\r')) {
-    if (buf[pos] == '\n') ++line;
-    ++pos;
-  }
-  if (pos >= buf.size()) throw InputError(located(origin, 0, "empty file: a header row is required"));
-  std::vector<std::string_view> fields;
-  std::string scratch;
-  bool unterminated = false;
-  const std::size_t header_len =
-      split_csv_record(std::string_view(buf).substr(pos), fields, scratch, unterminated);
-  if (unterminated) throw InputError(located(origin, line, "header: a quoted name is never closed"));
-  const CsvColumns cols = CsvColumns::from_header(fields, origin);
+  CsvChunkSource source(in, origin, run.chunk_bytes);
   std::vector<std::string> notes;
-  for (const auto& u : cols.unused)
-    notes.push_back(located(origin, line, "note: column '" + u + "' is not used"));
-  line += count_lines(std::string_view(buf).substr(pos, header_len));
-  buf.erase(0, pos + header_len);
-
+  const CsvColumns cols = source.header(notes);
   const auto writer = make_score_writer(run.format, origin, settings, run.sensitivities, run.grades,
                                         run.pd_calibration, run.driving_pd, run.pd_calibration_origin);
   const RunContext ctx{origin, no_defaults, settings, run, *writer, sink};
   OrderedOutput output(ctx);
   output.begin();
   DuplicateCheck dups(ctx);
-  // Room for every id of a regular file at once (estimated from its size and the first rows), so
-  // that the table does not grow step by step.
-  struct stat st {};
-  if (::fstat(::fileno(in), &st) == 0 && S_ISREG(st.st_mode) && !buf.empty()) {
-    const std::size_t rows = std::max<std::size_t>(count_lines(buf), 1);
-    const double per_row = static_cast<double>(buf.size()) / static_cast<double>(rows);
-    const double expected = static_cast<double>(st.st_size) / per_row * 1.05;
-    dups.reserve(static_cast<std::size_t>(std::min(expected, 1e8)));
-  }
+  // Room for every id at once, so that the table does not grow step by step.
+  if (const std::size_t rows = source.expected_rows(); rows > 0) dups.reserve(rows);
   ChunkPipeline pipeline(ctx, cols, output, dups, std::max(1U, run.threads));
-
-  std::size_t want = run.chunk_bytes;
-  while (true) {
-    fill(want);
-    if (buf.empty()) break;
-    const std::string_view all(buf);
-    const bool quoted = std::memchr(all.data(), '"', all.size()) != nullptr;
-    std::size_t cut = all.size();
-    if (!eof) {
-      if (quoted) {
-        cut = last_record_end(all);
-      } else {
-        const void* nl = ::memrchr(all.data(), '\n', all.size());
-        cut = nl ? static_cast<std::size_t>(static_cast<const char*>(nl) - all.data()) + 1 : 0;
-      }
-      if (cut == 0) {
-        if (buf.size() < kMaxRecordBytes) {  // one record longer than the buffer: read more
-          want = std::min(buf.size() * 2, kMaxRecordBytes);
-          continue;
-        }
-        // A record longer than kMaxRecordBytes: report it and skip to its end, so that memory
-        // stays bounded whatever the file holds. The end is the first line break outside quotes,
-        // scanned from the record's start as split_csv_record reads it: a quoted field may hold
-        // line breaks, and resuming inside it would read its closing quote as an opening one.
-        Chunk& c = pipeline.take();
-        c.text.clear();
-        c.first_line = line;
-        c.skipped = record_too_long_problem();
-        pipeline.submit(c);
-        CsvScanState scan;
-        while (true) {
-          const std::size_t end = scan.find_record_end(buf, line);
-          if (end != std::string_view::npos) {
-            buf.erase(0, end);
-            break;
-          }
-          buf.clear();
-          if (eof) break;
-          fill(run.chunk_bytes);
-          if (buf.empty()) break;
-        }
-        want = run.chunk_bytes;
-        continue;
-      }
-    }
-    want = run.chunk_bytes;
+  for (CsvChunkSource::Step step; (step = source.advance()) != CsvChunkSource::Step::end;) {
     Chunk& c = pipeline.take();
-    c.text.assign(buf, 0, cut);
-    c.first_line = line;
-    c.quoted = quoted;
-    pipeline.submit(c);
-    line += count_lines(c.text);
-    buf.erase(0, cut);
-    if (eof && buf.empty()) {
-      // The file's last row has no line break after it: read, and noted (it may be cut short).
-      const std::string_view text(c.text);
-      const std::size_t last_nl = text.find_last_of('\n');
-      const std::string_view tail = last_nl == std::string_view::npos ? text : text.substr(last_nl + 1);
-      if (text.back() != '\r' && tail.find_first_not_of(" \t") != std::string_view::npos) {
-        notes.push_back(located(origin, line, no_final_line_break_note()));
-      }
+    if (step == CsvChunkSource::Step::records) {
+      source.take_records(c, notes);
+    } else {
+      source.skip_long_record(c);
     }
+    pipeline.submit(c);
   }
   pipeline.drain();
   return output.finish(std::move(notes));
