@@ -295,16 +295,23 @@ ValidationRun run_validation(const OutcomeSample& sample, const OutcomeSample* e
   run.pd_column = sample.pd_column;
   run.compare_column = sample.compare_column;
   run.grade_labels = sample.grade_labels;
-  run.discrimination = discrimination(sample.pd, sample.defaulted, curves);
+  ColumnComparison both;
+  if (sample.compare_column.empty()) {
+    run.discrimination = discrimination(sample.pd, sample.defaulted, curves);
+  } else {
+    // One ranking of each column serves its AUC and DeLong's test of the two.
+    both = compare_columns(sample.pd, sample.compare_pd, sample.defaulted, curves);
+    run.discrimination = std::move(both.first);
+  }
   require_ok(run.discrimination.status, sample.origin, sample.pd_column);
   if (earlier != nullptr) run.stability = stability(sample, *earlier, run.grade_labels);
   run.calibration =
       calibration_tests(sample.pd, sample.defaulted, sample.grade, static_cast<int>(run.grade_labels.size()));
   require_ok(run.calibration.status, sample.origin, sample.pd_column);
   if (!sample.compare_column.empty()) {
-    run.compare_discrimination = discrimination(sample.compare_pd, sample.defaulted);
+    run.compare_discrimination = std::move(both.second);
     require_ok(run.compare_discrimination->status, sample.origin, sample.compare_column);
-    run.comparison = compare_auc(sample.pd, sample.compare_pd, sample.defaulted);
+    run.comparison = both.comparison;
     require_ok(run.comparison->status, sample.origin, sample.compare_column);
   }
   return run;
