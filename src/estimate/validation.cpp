@@ -47,7 +47,7 @@ double key_pd(std::uint64_t key) noexcept {
 
 constexpr int kRadixBits = 8;
 constexpr std::size_t kRadixBuckets = std::size_t{1} << kRadixBits;
-constexpr int kRadixPasses = 64 / kRadixBits;
+constexpr int kRadixPasses = (64 + kRadixBits - 1) / kRadixBits;
 
 // Sorts c.key ascending, c.row along with it when not empty: least-significant-digit radix sort,
 // one counting pass for every digit, then one stable scatter pass per digit, a digit equal in
@@ -447,6 +447,50 @@ CalibrationTests calibration_tests(std::span<const double> pd, std::span<const s
     r.status = ValidationStatus::ok;
   } catch (const std::bad_alloc&) {
     r = CalibrationTests{};
+    r.status = ValidationStatus::no_memory;
+  }
+  return r;
+}
+
+GroupedValidation validation_by_group(std::span<const double> pd, std::span<const std::uint8_t> defaulted,
+                                      std::span<const int> group, int group_count) noexcept {
+  GroupedValidation r;
+  if (pd.size() != defaulted.size() || pd.size() != group.size() || group_count < 0) return r;
+  try {
+    const std::size_t g_count = static_cast<std::size_t>(group_count);
+    std::vector<std::size_t> start(g_count + 1, 0);
+    std::vector<std::size_t> d(g_count, 0);
+    std::vector<double> pd_sum(g_count, 0.0);
+    for (std::size_t k = 0; k < pd.size(); ++k) {
+      if (!valid_pd(pd[k]) || defaulted[k] > 1 || group[k] < 0 || group[k] >= group_count) return r;
+      const std::size_t g = static_cast<std::size_t>(group[k]);
+      ++start[g + 1];
+      d[g] += defaulted[k];
+      pd_sum[g] += pd[k];
+    }
+    for (std::size_t g = 0; g < g_count; ++g) start[g + 1] += start[g];
+    // The rows of each group together, in the file's order within the group.
+    std::vector<double> pd_by(pd.size());
+    std::vector<std::uint8_t> flag_by(pd.size());
+    std::vector<std::size_t> at(start.begin(), start.end() - 1);
+    for (std::size_t k = 0; k < pd.size(); ++k) {
+      const std::size_t to = at[static_cast<std::size_t>(group[k])]++;
+      pd_by[to] = pd[k];
+      flag_by[to] = defaulted[k];
+    }
+    r.groups.resize(g_count);
+    for (std::size_t g = 0; g < g_count; ++g) {
+      const std::size_t n = start[g + 1] - start[g];
+      const double mean = n > 0 ? std::min(1.0, pd_sum[g] / static_cast<double>(n)) : kNaN;
+      r.groups[g].calibration = group_calibration(n, d[g], mean);
+      const std::span<const double> pd_g(pd_by.data() + start[g], n);
+      const std::span<const std::uint8_t> flag_g(flag_by.data() + start[g], n);
+      r.groups[g].discrimination = discrimination(pd_g, flag_g);
+      if (r.groups[g].discrimination.status == ValidationStatus::no_memory) throw std::bad_alloc();
+    }
+    r.status = ValidationStatus::ok;
+  } catch (const std::bad_alloc&) {
+    r = GroupedValidation{};
     r.status = ValidationStatus::no_memory;
   }
   return r;
