@@ -300,6 +300,30 @@ def check_segments_and_periods(firmcall, work):
         failures.append("table: segment without defaults not explained, or NaN printed")
 
 
+def check_many_segments(firmcall, work):
+    # Twelve segments (more than the reader compares one by one) and runs of repeated dates: the
+    # segments in the order they first appear, each counted (by hand in Python).
+    rows, order, counts, dates = [], [], {}, []
+    for k in range(240):
+        label = f"seg{(k * 7) % 12:02d}"
+        if label not in counts:
+            order.append(label)
+        counts[label] = counts.get(label, 0) + 1
+        date = datetime.date(2020 + (k // 50), 1 + (k // 10) % 12, 28).isoformat()
+        dates.append(date)
+        rows.append((f"M{k}", 0.01 + 0.001 * (k % 17), 1 if k % 9 == 0 else 0, date, label))
+    path = os.path.join(work, "many_segments.csv")
+    write_csv(path, ["id", "pd", "defaulted", "as_of", "segment"], rows)
+    out = json.loads(run(firmcall, ["validate", path, "--format", "json"]).stdout)
+    got = [(s["segment"], s["observations"]) for s in out.get("segments", [])]
+    if got != [(label, counts[label]) for label in order]:
+        failures.append(f"many segments: {got}")
+    years = sorted({d[:4] for d in dates})
+    if [p["period"] for p in out.get("periods", [])] != years or (out.get("as_of_first"), out.get("as_of_last")) != (
+            min(dates), max(dates)):
+        failures.append(f"many segments: periods {out.get('periods')}, range {out.get('as_of_first')}")
+
+
 def check_bad_input(firmcall, work):
     cases = [
         ("no_defaults.csv", "id,pd,defaulted\nA,0.1,0\nB,0.2,0\n", "no_defaults.csv: field 'defaulted': no defaults"),
@@ -312,6 +336,8 @@ def check_bad_input(firmcall, work):
          "bad_date.csv:3: field 'as_of': expected a calendar date YYYY-MM-DD, got '2025-02-29'"),
         ("slash_date.csv", "id,pd,defaulted,as_of\nA,0.1,1,2025/01/31\nB,0.2,0,2025-02-28\n",
          "slash_date.csv:2: field 'as_of': expected a calendar date YYYY-MM-DD, got '2025/01/31'"),
+        ("empty_date.csv", "id,pd,defaulted,as_of\nA,0.1,1,2025-01-31\nB,0.2,0,\n",
+         "empty_date.csv:3: field 'as_of': expected a calendar date YYYY-MM-DD, got ''"),
         ("empty_segment.csv", "id,pd,defaulted,segment\nA,0.1,1,sme\nB,0.2,0,\n",
          "empty_segment.csv:3: field 'segment': missing"),
     ]
@@ -336,6 +362,7 @@ def main():
         check_generated(firmcall, work)
         check_worked_examples(firmcall, work)
         check_segments_and_periods(firmcall, work)
+        check_many_segments(firmcall, work)
         check_bad_input(firmcall, work)
     for name, diff in sorted(worst.items()):
         print(f"validate_check: {name}: max abs difference {diff:.3g}")
