@@ -29,11 +29,18 @@ bool valid_pd(double p) noexcept {
 // with the default flag in the lowest bit, sorted ascending. For PDs in [0, 1] (sign bit 0) the
 // bits order as the values do, so the keys order by PD, and within a PD the non-defaulters
 // (flag 0) come before the defaulters: each tie group is two runs of equal keys.
+// The second buffers of a radix sort, kept to sort again without new memory.
+struct RadixScratch {
+  std::vector<std::uint64_t> key;
+  std::vector<std::uint32_t> row;
+};
+
 struct RankedColumn {
   std::vector<std::uint64_t> key;
   std::vector<std::uint32_t> row;  // the obligor of each key, only when asked for
   std::size_t defaulters = 0;
   std::size_t others = 0;
+  RadixScratch scratch;
 };
 
 std::uint64_t pd_key(double pd, std::uint8_t flag) noexcept {
@@ -55,24 +62,24 @@ constexpr int kRadixPasses = (64 + kRadixBits - 1) / kRadixBits;
 // decimals with many ties: about 0.3 s a column for keys and rows, where std::sort of (PD, row)
 // pairs took about 1.2 s (its comparison branches unpredictably on ties) and std::sort of the
 // two classes' PDs 0.75 s. The price is a second buffer of keys (and rows) while sorting.
-void radix_sort(RankedColumn& c) {
-  const std::size_t n = c.key.size();
-  const bool rows = !c.row.empty();
-  std::vector<std::size_t> count(kRadixPasses * kRadixBuckets, 0);
-  for (const std::uint64_t k : c.key) {
-    for (int p = 0; p < kRadixPasses; ++p)
-      ++count[p * kRadixBuckets + ((k >> (p * kRadixBits)) & (kRadixBuckets - 1))];
+void radix_sort(std::span<std::uint64_t> key, std::span<std::uint32_t> row, RadixScratch& scratch) {
+  const std::size_t n = key.size();
+  if (n == 0) return;
+  const bool rows = !row.empty();
+  std::size_t count[kRadixPasses][kRadixBuckets] = {};
+  for (const std::uint64_t k : key) {
+    for (int p = 0; p < kRadixPasses; ++p) ++count[p][(k >> (p * kRadixBits)) & (kRadixBuckets - 1)];
   }
-  std::vector<std::uint64_t> key_to;
-  std::vector<std::uint32_t> row_to;
+  if (scratch.key.size() < n) scratch.key.resize(n);
+  if (rows && scratch.row.size() < n) scratch.row.resize(n);
+  std::uint64_t* key_from = key.data();
+  std::uint64_t* key_to = scratch.key.data();
+  std::uint32_t* row_from = row.data();
+  std::uint32_t* row_to = scratch.row.data();
   for (int p = 0; p < kRadixPasses; ++p) {
-    std::size_t* bucket = count.data() + p * kRadixBuckets;
+    std::size_t* bucket = count[p];
     const int shift = p * kRadixBits;
-    if (bucket[(c.key[0] >> shift) & (kRadixBuckets - 1)] == n) continue;
-    if (key_to.empty()) {
-      key_to.resize(n);
-      if (rows) row_to.resize(n);
-    }
+    if (bucket[(key_from[0] >> shift) & (kRadixBuckets - 1)] == n) continue;
     std::size_t at = 0;
     for (std::size_t b = 0; b < kRadixBuckets; ++b) {
       const std::size_t size = bucket[b];
@@ -81,16 +88,20 @@ void radix_sort(RankedColumn& c) {
     }
     if (rows) {
       for (std::size_t i = 0; i < n; ++i) {
-        const std::size_t to = bucket[(c.key[i] >> shift) & (kRadixBuckets - 1)]++;
-        key_to[to] = c.key[i];
-        row_to[to] = c.row[i];
+        const std::size_t to = bucket[(key_from[i] >> shift) & (kRadixBuckets - 1)]++;
+        key_to[to] = key_from[i];
+        row_to[to] = row_from[i];
       }
-      c.row.swap(row_to);
+      std::swap(row_from, row_to);
     } else {
       for (std::size_t i = 0; i < n; ++i)
-        key_to[bucket[(c.key[i] >> shift) & (kRadixBuckets - 1)]++] = c.key[i];
+        key_to[bucket[(key_from[i] >> shift) & (kRadixBuckets - 1)]++] = key_from[i];
     }
-    c.key.swap(key_to);
+    std::swap(key_from, key_to);
+  }
+  if (key_from != key.data()) {  // an odd number of passes: the result is in the scratch buffer
+    std::copy(key_from, key_from + n, key.data());
+    if (rows) std::copy(row_from, row_from + n, row.data());
   }
 }
 
@@ -100,6 +111,7 @@ ValidationStatus rank_column(std::span<const double> pd, std::span<const std::ui
                              RankedColumn& out) {
   if (pd.size() != defaulted.size()) return ValidationStatus::invalid_input;
   if (rows && pd.size() > std::numeric_limits<std::uint32_t>::max()) return ValidationStatus::no_memory;
+  out.defaulters = 0;
   for (std::size_t k = 0; k < pd.size(); ++k) {
     if (!valid_pd(pd[k]) || defaulted[k] > 1) return ValidationStatus::invalid_input;
     out.defaulters += defaulted[k];
@@ -111,7 +123,7 @@ ValidationStatus rank_column(std::span<const double> pd, std::span<const std::ui
     out.row.resize(pd.size());
     for (std::size_t k = 0; k < pd.size(); ++k) out.row[k] = static_cast<std::uint32_t>(k);
   }
-  if (!pd.empty()) radix_sort(out);
+  radix_sort(out.key, rows ? std::span<std::uint32_t>(out.row) : std::span<std::uint32_t>(), out.scratch);
   return out.defaulters == 0 || out.others == 0 ? ValidationStatus::one_class : ValidationStatus::ok;
 }
 
@@ -130,8 +142,7 @@ struct TieGroup {
 
 // Calls f(TieGroup) for each distinct PD, ascending.
 template <class F>
-void for_each_tie_group(const RankedColumn& c, F&& f) {
-  const std::vector<std::uint64_t>& key = c.key;
+void for_each_tie_group(std::span<const std::uint64_t> key, F&& f) {
   const std::size_t n = key.size();
   std::size_t defaulters_below = 0;
   std::size_t others_below = 0;
@@ -149,17 +160,16 @@ void for_each_tie_group(const RankedColumn& c, F&& f) {
   }
 }
 
-// The figures of discrimination() from a ranked column with both classes.
-void rank_statistics(const RankedColumn& c, bool curve, Discrimination& r) {
-  const std::size_t m = c.defaulters;
-  const std::size_t n = c.others;
+// The figures of discrimination() from ranked keys with m > 0 defaulters and n > 0 others.
+void rank_statistics(std::span<const std::uint64_t> key, std::size_t m, std::size_t n, bool curve,
+                     Discrimination& r) {
   const double md = static_cast<double>(m);
   const double nd = static_cast<double>(n);
   // Mann-Whitney count in halves, exact in integers: sum over groups of dx (2 below + dy).
   std::uint64_t halves = 0;
   double ks = 0.0;
   double ks_pd = 0.0;
-  for_each_tie_group(c, [&](const TieGroup& g) {
+  for_each_tie_group(key, [&](const TieGroup& g) {
     halves += static_cast<std::uint64_t>(g.defaulters) * (2 * g.others_below + g.others);
     const double fd = static_cast<double>(g.defaulters_below + g.defaulters) / md;
     const double fo = static_cast<double>(g.others_below + g.others) / nd;
@@ -173,7 +183,7 @@ void rank_statistics(const RankedColumn& c, bool curve, Discrimination& r) {
   // half) and V01 of a non-defaulter (share of defaulters above it, ties half).
   double s10 = 0.0;
   double s01 = 0.0;
-  for_each_tie_group(c, [&](const TieGroup& g) {
+  for_each_tie_group(key, [&](const TieGroup& g) {
     const double v10 = (static_cast<double>(g.others_below) + 0.5 * static_cast<double>(g.others)) / nd;
     const double v01 =
         (md - static_cast<double>(g.defaulters_below) - 0.5 * static_cast<double>(g.defaulters)) / md;
@@ -190,7 +200,7 @@ void rank_statistics(const RankedColumn& c, bool curve, Discrimination& r) {
   r.ks_threshold_pd = ks_pd;
   if (curve) {
     const double all = md + nd;
-    for_each_tie_group(c, [&](const TieGroup& g) {
+    for_each_tie_group(key, [&](const TieGroup& g) {
       r.curve.push_back(CurvePoint{g.pd, (nd - static_cast<double>(g.others_below)) / nd,
                                    (md - static_cast<double>(g.defaulters_below)) / md,
                                    (all - static_cast<double>(g.defaulters_below + g.others_below)) / all});
@@ -242,7 +252,7 @@ Discrimination discrimination(std::span<const double> pd, std::span<const std::u
     RankedColumn c;
     r.status = rank_column(pd, defaulted, false, c);
     r.defaults = r.status == ValidationStatus::invalid_input ? 0 : c.defaulters;
-    if (r.status == ValidationStatus::ok) rank_statistics(c, curve, r);
+    if (r.status == ValidationStatus::ok) rank_statistics(c.key, c.defaulters, c.others, curve, r);
   } catch (const std::bad_alloc&) {
     r = Discrimination{};
     r.status = ValidationStatus::no_memory;
@@ -270,7 +280,7 @@ void components(const RankedColumn& c, Components& out) {
   out.group.resize(c.key.size());
   out.v10.clear();
   out.v01.clear();
-  for_each_tie_group(c, [&](const TieGroup& g) {
+  for_each_tie_group(c.key, [&](const TieGroup& g) {
     const std::uint32_t id = static_cast<std::uint32_t>(out.v10.size());
     out.v10.push_back((static_cast<double>(g.others_below) + 0.5 * static_cast<double>(g.others)) / nd);
     out.v01.push_back(
@@ -323,15 +333,17 @@ ColumnComparison compare_columns(std::span<const double> first_pd, std::span<con
     return r;
   }
   try {
-    // One column at a time: its ranking (keys and rows) is dropped once its components are kept.
+    // One column at a time, in the same key and row buffers: a column's components are kept,
+    // its ranking is overwritten by the next one's.
     Components a;
     Components b;
+    RankedColumn c;
     const auto one = [&](std::span<const double> pd, bool with_curve, Discrimination& d, Components& v) {
-      RankedColumn c;
       d.status = rank_column(pd, defaulted, true, c);
       d.defaults = d.status == ValidationStatus::invalid_input ? 0 : c.defaulters;
+      c.scratch = RadixScratch{};  // not held while the components are written
       if (d.status != ValidationStatus::ok) return;
-      rank_statistics(c, with_curve, d);
+      rank_statistics(c.key, c.defaulters, c.others, with_curve, d);
       components(c, v);
     };
     one(first_pd, curve, r.first, a);
@@ -469,24 +481,30 @@ GroupedValidation validation_by_group(std::span<const double> pd, std::span<cons
       pd_sum[g] += pd[k];
     }
     for (std::size_t g = 0; g < g_count; ++g) start[g + 1] += start[g];
-    // The rows of each group together, in the file's order within the group.
-    std::vector<double> pd_by(pd.size());
-    std::vector<std::uint8_t> flag_by(pd.size());
+    // The keys of each group together (in the file's order within the group), each group then
+    // ranked in place.
+    std::vector<std::uint64_t> key(pd.size());
     std::vector<std::size_t> at(start.begin(), start.end() - 1);
     for (std::size_t k = 0; k < pd.size(); ++k) {
-      const std::size_t to = at[static_cast<std::size_t>(group[k])]++;
-      pd_by[to] = pd[k];
-      flag_by[to] = defaulted[k];
+      key[at[static_cast<std::size_t>(group[k])]++] = pd_key(pd[k], defaulted[k]);
     }
+    RadixScratch scratch;
     r.groups.resize(g_count);
     for (std::size_t g = 0; g < g_count; ++g) {
       const std::size_t n = start[g + 1] - start[g];
       const double mean = n > 0 ? std::min(1.0, pd_sum[g] / static_cast<double>(n)) : kNaN;
-      r.groups[g].calibration = group_calibration(n, d[g], mean);
-      const std::span<const double> pd_g(pd_by.data() + start[g], n);
-      const std::span<const std::uint8_t> flag_g(flag_by.data() + start[g], n);
-      r.groups[g].discrimination = discrimination(pd_g, flag_g);
-      if (r.groups[g].discrimination.status == ValidationStatus::no_memory) throw std::bad_alloc();
+      GroupValidation& out = r.groups[g];
+      out.calibration = group_calibration(n, d[g], mean);
+      out.discrimination.observations = n;
+      out.discrimination.defaults = d[g];
+      if (d[g] == 0 || d[g] == n) {
+        out.discrimination.status = ValidationStatus::one_class;
+        continue;
+      }
+      const std::span<std::uint64_t> key_g(key.data() + start[g], n);
+      radix_sort(key_g, {}, scratch);
+      rank_statistics(key_g, d[g], n - d[g], false, out.discrimination);
+      out.discrimination.status = ValidationStatus::ok;
     }
     r.status = ValidationStatus::ok;
   } catch (const std::bad_alloc&) {

@@ -141,8 +141,9 @@ struct GroupValidation {
 };
 
 /// Per group index 0 .. group_count - 1 (group[i] in [0, group_count)); a group without obligors
-/// has observations 0 (calibration NaN, discrimination one_class). The rows are copied group by
-/// group (one counting pass), so memory grows by 9 bytes a row.
+/// has observations 0 (calibration NaN, discrimination one_class). Each row's PD key is placed
+/// with its group's (one counting pass) and each group ranked in place: memory grows by 8 bytes a
+/// row and 8 a row of the largest group.
 struct GroupedValidation {
   ValidationStatus status = ValidationStatus::invalid_input;
   std::vector<GroupValidation> groups;
