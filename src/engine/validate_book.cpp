@@ -1,6 +1,8 @@
 // Validation runs and their writers (validate_book.hpp).
 #include "firmcall/engine/validate_book.hpp"
 
+#include <algorithm>
+#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <functional>
@@ -9,6 +11,7 @@
 #include "firmcall/book/errors.hpp"
 #include "firmcall/format/json_writer.hpp"
 #include "firmcall/format/table_text.hpp"
+#include "firmcall/io/history_io.hpp"
 
 namespace firmcall {
 
@@ -61,6 +64,66 @@ StabilityResult stability(const OutcomeSample& sample, const OutcomeSample& earl
   return s;
 }
 
+std::vector<SegmentResult> segments(const OutcomeSample& sample) {
+  std::vector<SegmentResult> out;
+  if (sample.segment.empty()) return out;
+  GroupedValidation g = validation_by_group(sample.pd, sample.defaulted, sample.segment,
+                                            static_cast<int>(sample.segment_labels.size()));
+  require_ok(g.status, sample.origin, "segment");
+  out.reserve(g.groups.size());
+  for (std::size_t i = 0; i < g.groups.size(); ++i) {
+    SegmentResult r{sample.segment_labels[i], std::move(g.groups[i]), ""};
+    const Discrimination& d = r.figures.discrimination;
+    if (d.status == ValidationStatus::one_class) {
+      r.auc_note = std::string(d.defaults == 0 ? "no defaults in the segment"
+                                               : "every obligor in the segment defaulted") +
+                   ": the AUC needs defaulters and non-defaulters";
+    } else {
+      require_ok(d.status, sample.origin, "segment");
+    }
+    out.push_back(std::move(r));
+  }
+  return out;
+}
+
+int year_of(std::int32_t days) {
+  const std::chrono::year_month_day ymd{std::chrono::sys_days{std::chrono::days{days}}};
+  return static_cast<int>(ymd.year());
+}
+
+// The date range and the calibration per calendar year of as_of.
+void periods(const OutcomeSample& sample, ValidationRun& run) {
+  if (sample.as_of.empty()) return;
+  const auto [lo, hi] = std::minmax_element(sample.as_of.begin(), sample.as_of.end());
+  run.as_of_first = format_iso_date(*lo);
+  run.as_of_last = format_iso_date(*hi);
+  const int first_year = year_of(*lo);
+  const std::size_t years = static_cast<std::size_t>(year_of(*hi) - first_year) + 1;
+  // The first day of each year in the range, so that a row's year is found by comparison.
+  std::vector<std::int32_t> year_start(years + 1);
+  for (std::size_t y = 0; y <= years; ++y) {
+    const std::chrono::year_month_day jan1{std::chrono::year{first_year + static_cast<int>(y)},
+                                           std::chrono::January, std::chrono::day{1}};
+    year_start[y] = static_cast<std::int32_t>(std::chrono::sys_days{jan1}.time_since_epoch().count());
+  }
+  std::vector<std::size_t> n(years, 0);
+  std::vector<std::size_t> d(years, 0);
+  std::vector<double> pd_sum(years, 0.0);
+  for (std::size_t k = 0; k < sample.as_of.size(); ++k) {
+    const std::size_t y = static_cast<std::size_t>(
+        std::upper_bound(year_start.begin(), year_start.end(), sample.as_of[k]) - year_start.begin() - 1);
+    ++n[y];
+    d[y] += sample.defaulted[k];
+    pd_sum[y] += sample.pd[k];
+  }
+  for (std::size_t y = 0; y < years; ++y) {
+    if (n[y] == 0) continue;
+    const double mean = std::min(1.0, pd_sum[y] / static_cast<double>(n[y]));
+    run.periods.push_back(
+        PeriodResult{first_year + static_cast<int>(y), group_calibration(n[y], d[y], mean)});
+  }
+}
+
 // ---------------------------------------------------------------- JSON
 
 void json_group(JsonFields& f, const GroupCalibration& g) {
@@ -81,6 +144,7 @@ void write_json(const ValidationRun& run, std::string& out) {
   f.text("file", run.origin).text("pd_column", run.pd_column);
   f.count("observations", d.observations).count("defaults", d.defaults);
   f.number("mean_pd", c.overall.mean_pd).number("default_rate", c.overall.default_rate);
+  if (!run.as_of_first.empty()) f.text("as_of_first", run.as_of_first).text("as_of_last", run.as_of_last);
   f.number("auc", d.auc)
       .number("auc_se", d.auc_se)
       .number("auc_lower", d.auc_lower)
@@ -135,41 +199,142 @@ void write_json(const ValidationRun& run, std::string& out) {
     grades += "}";
   }
   grades += "]";
+  if (!run.segments.empty()) {
+    std::string& list = f.key("segments");
+    list += "[";
+    for (std::size_t i = 0; i < run.segments.size(); ++i) {
+      const SegmentResult& r = run.segments[i];
+      const GroupCalibration& g = r.figures.calibration;
+      const Discrimination& sd = r.figures.discrimination;
+      const bool auc = r.auc_note.empty();
+      const double none = std::nan("");
+      list += i == 0 ? "{" : ", {";
+      JsonFields e(list);
+      e.text("segment", r.label).count("observations", g.observations).count("defaults", g.defaults);
+      e.number("auc", auc ? sd.auc : none)
+          .number("auc_lower", auc ? sd.auc_lower : none)
+          .number("auc_upper", auc ? sd.auc_upper : none)
+          .number("accuracy_ratio", auc ? sd.accuracy_ratio : none);
+      if (!auc) e.text("auc_note", r.auc_note);
+      e.number("mean_pd", g.mean_pd)
+          .number("default_rate", g.default_rate)
+          .number("binomial_p", g.binomial_p)
+          .number("jeffreys_p", g.jeffreys_p);
+      list += "}";
+    }
+    list += "]";
+  }
+  if (!run.as_of_first.empty()) {
+    std::string& list = f.key("periods");
+    list += "[";
+    for (std::size_t i = 0; i < run.periods.size(); ++i) {
+      const GroupCalibration& g = run.periods[i].calibration;
+      list += i == 0 ? "{" : ", {";
+      JsonFields(list)
+          .text("period", std::to_string(run.periods[i].year))
+          .count("observations", g.observations)
+          .count("defaults", g.defaults)
+          .number("mean_pd", g.mean_pd)
+          .number("default_rate", g.default_rate)
+          .number("binomial_p", g.binomial_p);
+      list += "}";
+    }
+    list += "]";
+  }
   out += "}\n";
 }
 
 // ---------------------------------------------------------------- CSV (long format)
 
+// Where a CSV row belongs: the segment and the period (empty: the whole sample), written only
+// when the sample has those columns.
+struct CsvPlace {
+  std::string_view segment;
+  std::string_view period;
+};
+
+void csv_lead(std::string& out, const ValidationRun& run, const CsvPlace& at, std::string_view grade,
+              std::string_view statistic) {
+  append_csv_texts(out, {run.pd_column});
+  if (!run.segments.empty()) append_csv_texts(out, {at.segment});
+  if (!run.as_of_first.empty()) append_csv_texts(out, {at.period});
+  append_csv_texts(out, {grade, statistic});
+}
+
+void csv_row(std::string& out, const ValidationRun& run, const CsvPlace& at, std::string_view grade,
+             std::string_view statistic, double v) {
+  csv_lead(out, run, at, grade, statistic);
+  append_number(out, v);
+  out += "\n";
+}
+
 void csv_row(std::string& out, const ValidationRun& run, std::string_view grade, std::string_view statistic,
              double v) {
-  append_csv_texts(out, {run.pd_column, grade, statistic});
-  append_number(out, v);
+  csv_row(out, run, CsvPlace{}, grade, statistic, v);
+}
+
+void csv_text_row(std::string& out, const ValidationRun& run, const CsvPlace& at, std::string_view grade,
+                  std::string_view statistic, std::string_view v) {
+  csv_lead(out, run, at, grade, statistic);
+  append_csv_text(out, v);
   out += "\n";
 }
 
 void csv_text_row(std::string& out, const ValidationRun& run, std::string_view grade,
                   std::string_view statistic, std::string_view v) {
-  append_csv_texts(out, {run.pd_column, grade, statistic});
-  append_csv_text(out, v);
-  out += "\n";
+  csv_text_row(out, run, CsvPlace{}, grade, statistic, v);
 }
 
-void csv_group(std::string& out, const ValidationRun& run, std::string_view grade,
-               const GroupCalibration& g) {
-  csv_row(out, run, grade, "observations", static_cast<double>(g.observations));
-  csv_row(out, run, grade, "defaults", static_cast<double>(g.defaults));
-  csv_row(out, run, grade, "mean_pd", g.mean_pd);
-  csv_row(out, run, grade, "default_rate", g.default_rate);
-  csv_row(out, run, grade, "binomial_p", g.binomial_p);
-  csv_row(out, run, grade, "jeffreys_p", g.jeffreys_p);
-  csv_text_row(out, run, grade, "traffic_light", to_string(g.light));
+void csv_group(std::string& out, const ValidationRun& run, std::string_view grade, const GroupCalibration& g,
+               const CsvPlace& at = {}) {
+  csv_row(out, run, at, grade, "observations", static_cast<double>(g.observations));
+  csv_row(out, run, at, grade, "defaults", static_cast<double>(g.defaults));
+  csv_row(out, run, at, grade, "mean_pd", g.mean_pd);
+  csv_row(out, run, at, grade, "default_rate", g.default_rate);
+  csv_row(out, run, at, grade, "binomial_p", g.binomial_p);
+  csv_row(out, run, at, grade, "jeffreys_p", g.jeffreys_p);
+  csv_text_row(out, run, at, grade, "traffic_light", to_string(g.light));
+}
+
+void csv_segments_and_periods(const ValidationRun& run, std::string& out) {
+  for (const SegmentResult& r : run.segments) {
+    const CsvPlace at{r.label, ""};
+    csv_group(out, run, "all", r.figures.calibration, at);
+    if (!r.auc_note.empty()) {
+      csv_text_row(out, run, at, "all", "auc_note", r.auc_note);
+      continue;
+    }
+    const Discrimination& d = r.figures.discrimination;
+    csv_row(out, run, at, "all", "auc", d.auc);
+    csv_row(out, run, at, "all", "auc_se", d.auc_se);
+    csv_row(out, run, at, "all", "auc_lower", d.auc_lower);
+    csv_row(out, run, at, "all", "auc_upper", d.auc_upper);
+    csv_row(out, run, at, "all", "accuracy_ratio", d.accuracy_ratio);
+  }
+  for (const PeriodResult& p : run.periods) {
+    const std::string year = std::to_string(p.year);
+    const CsvPlace at{"", year};
+    const GroupCalibration& g = p.calibration;
+    csv_row(out, run, at, "all", "observations", static_cast<double>(g.observations));
+    csv_row(out, run, at, "all", "defaults", static_cast<double>(g.defaults));
+    csv_row(out, run, at, "all", "mean_pd", g.mean_pd);
+    csv_row(out, run, at, "all", "default_rate", g.default_rate);
+    csv_row(out, run, at, "all", "binomial_p", g.binomial_p);
+  }
 }
 
 void write_csv(const ValidationRun& run, std::string& out) {
   const Discrimination& d = run.discrimination;
   const CalibrationTests& c = run.calibration;
-  out += "pd_column,grade,statistic,value\n";
+  out += "pd_column,";
+  if (!run.segments.empty()) out += "segment,";
+  if (!run.as_of_first.empty()) out += "period,";
+  out += "grade,statistic,value\n";
   csv_group(out, run, "all", c.overall);
+  if (!run.as_of_first.empty()) {
+    csv_text_row(out, run, "all", "as_of_first", run.as_of_first);
+    csv_text_row(out, run, "all", "as_of_last", run.as_of_last);
+  }
   const std::pair<std::string_view, double> all[] = {
       {"auc", d.auc},
       {"auc_se", d.auc_se},
@@ -201,6 +366,7 @@ void write_csv(const ValidationRun& run, std::string& out) {
   for (std::size_t i = 0; i < c.grades.size(); ++i) {
     if (c.grades[i].observations > 0) csv_group(out, run, run.grade_labels[i], c.grades[i]);
   }
+  csv_segments_and_periods(run, out);
 }
 
 // ---------------------------------------------------------------- table
@@ -219,6 +385,40 @@ void line(std::string& out, const char* fmt, auto... args) {
   out += buf;
 }
 
+void table_segments(const ValidationRun& run, std::string& out) {
+  for (const SegmentResult& r : run.segments) {
+    const GroupCalibration& g = r.figures.calibration;
+    const Discrimination& d = r.figures.discrimination;
+    line(out, "\nSegment '%s': %zu observations, %zu defaults (default rate %s, mean PD %s)\n",
+         fit_text(r.label, 40).c_str(), g.observations, g.defaults, pct(g.default_rate).c_str(),
+         pct(g.mean_pd).c_str());
+    if (r.auc_note.empty()) {
+      line(out, "  AUC                %s   95%% interval %s to %s (DeLong)\n", fixed_number(d.auc, 4).c_str(),
+           fixed_number(d.auc_lower, 4).c_str(), fixed_number(d.auc_upper, 4).c_str());
+      line(out, "  accuracy ratio     %s\n", fixed_number(d.accuracy_ratio, 4).c_str());
+    } else {
+      line(out, "  AUC                -   (%s)\n", r.auc_note.c_str());
+    }
+    line(out, "  binomial p         %s   Jeffreys p %s   traffic light %s\n", pval(g.binomial_p).c_str(),
+         pval(g.jeffreys_p).c_str(), std::string(to_string(g.light)).c_str());
+  }
+}
+
+void table_periods(const ValidationRun& run, std::string& out) {
+  if (run.periods.empty()) return;
+  out += "\nPer calendar year of as_of\n";
+  line(out, "%-10s %10s %9s %12s %14s %11s\n", "period", "obligors", "defaults", "mean PD %",
+       "default rate %", "binomial p");
+  append_rule(out, 71);
+  for (const PeriodResult& p : run.periods) {
+    const GroupCalibration& g = p.calibration;
+    line(out, "%-10d %10zu %9zu %12s %14s %11s\n", p.year, g.observations, g.defaults,
+         table_number(100.0 * g.mean_pd, 4).c_str(), table_number(100.0 * g.default_rate, 4).c_str(),
+         pval(g.binomial_p).c_str());
+  }
+  append_rule(out, 71);
+}
+
 void write_table(const ValidationRun& run, std::string& out) {
   const Discrimination& d = run.discrimination;
   const CalibrationTests& c = run.calibration;
@@ -226,6 +426,9 @@ void write_table(const ValidationRun& run, std::string& out) {
        "Validation of PD column '%s' in %s: %zu observations, %zu defaults (default rate %s, mean PD %s)\n",
        run.pd_column.c_str(), run.origin.c_str(), d.observations, d.defaults,
        pct(c.overall.default_rate).c_str(), pct(c.overall.mean_pd).c_str());
+  if (!run.as_of_first.empty()) {
+    line(out, "Observations dated %s to %s (as_of)\n", run.as_of_first.c_str(), run.as_of_last.c_str());
+  }
   out += "\nDiscrimination\n";
   line(out, "  AUC                %s   95%% interval %s to %s (DeLong)\n", fixed_number(d.auc, 4).c_str(),
        fixed_number(d.auc_lower, 4).c_str(), fixed_number(d.auc_upper, 4).c_str());
@@ -268,6 +471,8 @@ void write_table(const ValidationRun& run, std::string& out) {
   append_rule(out, 90);
   line(out, "Traffic light on the binomial p: green p > %g%%, yellow %g%% < p <= %g%%, red p <= %g%%.\n",
        100.0 * kYellowPValue, 100.0 * kRedPValue, 100.0 * kYellowPValue, 100.0 * kRedPValue);
+  table_segments(run, out);
+  table_periods(run, out);
   if (run.stability && !run.stability->migration.empty()) {
     const StabilityResult& s = *run.stability;
     const std::size_t g = run.grade_labels.size();
@@ -295,18 +500,27 @@ ValidationRun run_validation(const OutcomeSample& sample, const OutcomeSample* e
   run.pd_column = sample.pd_column;
   run.compare_column = sample.compare_column;
   run.grade_labels = sample.grade_labels;
-  run.discrimination = discrimination(sample.pd, sample.defaulted, curves);
+  ColumnComparison both;
+  if (sample.compare_column.empty()) {
+    run.discrimination = discrimination(sample.pd, sample.defaulted, curves);
+  } else {
+    // One ranking of each column serves its AUC and DeLong's test of the two.
+    both = compare_columns(sample.pd, sample.compare_pd, sample.defaulted, curves);
+    run.discrimination = std::move(both.first);
+  }
   require_ok(run.discrimination.status, sample.origin, sample.pd_column);
   if (earlier != nullptr) run.stability = stability(sample, *earlier, run.grade_labels);
   run.calibration =
       calibration_tests(sample.pd, sample.defaulted, sample.grade, static_cast<int>(run.grade_labels.size()));
   require_ok(run.calibration.status, sample.origin, sample.pd_column);
   if (!sample.compare_column.empty()) {
-    run.compare_discrimination = discrimination(sample.compare_pd, sample.defaulted);
+    run.compare_discrimination = std::move(both.second);
     require_ok(run.compare_discrimination->status, sample.origin, sample.compare_column);
-    run.comparison = compare_auc(sample.pd, sample.compare_pd, sample.defaulted);
+    run.comparison = both.comparison;
     require_ok(run.comparison->status, sample.origin, sample.compare_column);
   }
+  run.segments = segments(sample);
+  periods(sample, run);
   return run;
 }
 

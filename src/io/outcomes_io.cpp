@@ -7,12 +7,14 @@
 #include <cstdio>
 #include <cstring>
 #include <memory>
+#include <optional>
 #include <string_view>
 #include <unordered_map>
 #include <unordered_set>
 
 #include "firmcall/book/errors.hpp"
 #include "firmcall/io/csv.hpp"
+#include "firmcall/io/history_io.hpp"
 
 namespace firmcall {
 
@@ -150,6 +152,24 @@ class OutcomeParser {
     } else {
       grade = scale_.index_of(pd);
     }
+    int segment = -1;
+    if (at_[kSegment] >= 0) {
+      const std::string_view label = cell(fields, kSegment);
+      if (label.empty())
+        bad(line, "segment", "missing (give a segment on every row, or leave out the column)", label);
+      segment = segment_of(label);
+    }
+    std::int32_t as_of = 0;
+    if (at_[kAsOf] >= 0) {
+      const std::string_view date = cell(fields, kAsOf);
+      if (date.empty() || date != last_date_) {  // rows often share a date: parse a run once
+        const std::optional<std::int32_t> day = parse_iso_date(date);
+        if (!day) bad(line, "as_of", "expected a calendar date YYYY-MM-DD", date);
+        last_date_.assign(date);
+        last_day_ = *day;
+      }
+      as_of = last_day_;
+    }
     if (options_.keep_ids) {
       if (!seen_ids_.emplace(id).second) bad(line, "id", "appears twice (each obligor once per sample)", id);
       s_.ids.emplace_back(id);
@@ -159,6 +179,23 @@ class OutcomeParser {
     s_.defaulted.push_back(flag == "1" ? 1 : 0);
     s_.defaults += flag == "1" ? 1 : 0;
     s_.grade.push_back(grade);
+    if (segment >= 0) s_.segment.push_back(segment);
+    if (at_[kAsOf] >= 0) s_.as_of.push_back(as_of);
+  }
+
+  // The index of a segment label, added when new; a few labels are compared one by one, which is
+  // cheaper than hashing each row's label.
+  int segment_of(std::string_view label) {
+    constexpr std::size_t kFewSegments = 8;
+    if (s_.segment_labels.size() <= kFewSegments) {
+      for (std::size_t i = 0; i < s_.segment_labels.size(); ++i) {
+        if (s_.segment_labels[i] == label) return static_cast<int>(i);
+      }
+    }
+    const auto [it, added] =
+        segment_index_.try_emplace(std::string(label), static_cast<int>(s_.segment_labels.size()));
+    if (added) s_.segment_labels.emplace_back(label);
+    return it->second;
   }
 
   const std::string& origin_;
@@ -169,6 +206,9 @@ class OutcomeParser {
   std::array<int, kColumns> at_{};
   std::size_t width_ = 0;
   std::unordered_map<std::string, int> label_index_;
+  std::unordered_map<std::string, int> segment_index_;  // every segment label
+  std::string last_date_;  // the as_of text of the previous row, and its day number
+  std::int32_t last_day_ = 0;
   std::unordered_set<std::string> seen_ids_;
 };
 

@@ -14,9 +14,15 @@ References, each beside its check:
   PSI               a worked example by hand (in the comment)
   --curves          ROC points vs sklearn.metrics.roc_curve (drop_intermediate=False), to 1e-12;
                     CAP population fraction vs numpy (share of PDs >= threshold)
+  segments          per segment: AUC vs sklearn.metrics.roc_auc_score on the segment's rows
+                    (1e-12), its DeLong interval pair by pair (numpy), binomial and Jeffreys p
+                    (scipy, 1e-10); a segment without defaults has no AUC and says why
+  periods           per calendar year of as_of: counts and mean PD (numpy), binomial p vs
+                    scipy.stats.binom.sf(d - 1, n, mean PD) (1e-10); the date range (datetime)
 Also bad input on the command line: exit code 2, file, line and field named, no output file.
 Needs /usr/bin/python3 with numpy, scipy and scikit-learn (python3-sklearn python3-scipy).
 """
+import datetime
 import json
 import os
 import subprocess
@@ -216,6 +222,108 @@ def check_worked_examples(firmcall, work):
         failures.append(f"migration {mig}")
 
 
+def check_segments_and_periods(firmcall, work):
+    rng = np.random.default_rng(20261203)
+    n = 3000
+    score = rng.normal(size=n)
+    pd = np.round(1.0 / (1.0 + np.exp(4.0 - 0.9 * score)), 4)  # four decimals: ties
+    y = (rng.random(n) < 1.0 / (1.0 + np.exp(3.8 - 1.0 * score))).astype(int)
+    seg = rng.choice(["corporate", "sme", "real estate"], size=n)
+    # A fourth segment without defaults: its AUC does not exist.
+    quiet = rng.random(n) < 0.05
+    seg[quiet] = "public"
+    y[quiet] = 0
+    start = datetime.date(2022, 11, 30)
+    days = rng.integers(0, 3 * 365 + 60, size=n)
+    dates = [start + datetime.timedelta(days=int(d)) for d in days]
+    path = os.path.join(work, "segments.csv")
+    write_csv(path, ["id", "pd", "defaulted", "as_of", "segment"],
+              [(f"S{k:05d}", repr(float(pd[k])), y[k], dates[k].isoformat(), f'"{seg[k]}"') for k in range(n)])
+    out = json.loads(run(firmcall, ["validate", path, "--format", "json"]).stdout)
+    if out.get("as_of_first") != min(dates).isoformat() or out.get("as_of_last") != max(dates).isoformat():
+        failures.append(f"date range {out.get('as_of_first')} to {out.get('as_of_last')}, "
+                        f"expected {min(dates)} to {max(dates)} (datetime)")
+    listed = {s["segment"]: s for s in out.get("segments", [])}
+    if sorted(listed) != sorted(set(seg)):
+        failures.append(f"segments listed {sorted(listed)}, in the file {sorted(set(seg))}")
+    for label in sorted(set(seg)):
+        sel = seg == label
+        got = listed.get(label)
+        if got is None:
+            continue
+        ng, dg, pg = int(sel.sum()), int(y[sel].sum()), float(pd[sel].mean())
+        if got["observations"] != ng or got["defaults"] != dg:
+            failures.append(f"segment {label}: counts {got['observations']}, {got['defaults']} vs {ng}, {dg}")
+        close("segment mean_pd (numpy)", got["mean_pd"], pg, 1e-15)
+        close("segment binomial_p vs scipy.stats.binom.sf", got["binomial_p"], stats.binom.sf(dg - 1, ng, pg), 1e-10)
+        close("segment jeffreys_p vs scipy.stats.beta.cdf", got["jeffreys_p"],
+              stats.beta.cdf(pg, dg + 0.5, ng - dg + 0.5), 1e-10)
+        if dg == 0:
+            if got["auc"] is not None or got["accuracy_ratio"] is not None or "no defaults" not in got.get("auc_note", ""):
+                failures.append(f"segment {label} without defaults: auc {got['auc']}, note {got.get('auc_note')!r}")
+            continue
+        auc = roc_auc_score(y[sel], pd[sel])
+        close("segment auc vs sklearn roc_auc_score on the subset", got["auc"], auc, 1e-12)
+        close("segment accuracy_ratio = 2 AUC - 1 (Engelmann et al. 2003)", got["accuracy_ratio"], 2 * auc - 1, 1e-12)
+        v10, v01 = delong_pairwise(pd[sel][y[sel] == 1], pd[sel][y[sel] == 0])
+        se = np.sqrt(np.var(v10, ddof=1) / len(v10) + np.var(v01, ddof=1) / len(v01))
+        close("segment auc_lower vs DeLong (1988) pair by pair", got["auc_lower"],
+              max(0.0, auc - stats.norm.ppf(0.975) * se), 1e-12)
+        close("segment auc_upper vs DeLong (1988) pair by pair", got["auc_upper"],
+              min(1.0, auc + stats.norm.ppf(0.975) * se), 1e-12)
+    years = np.array([d.year for d in dates])
+    periods = {p["period"]: p for p in out.get("periods", [])}
+    if sorted(periods) != [str(v) for v in sorted(set(years))]:
+        failures.append(f"periods listed {sorted(periods)}, years in the file {sorted(set(years))}")
+    for year in sorted(set(years)):
+        sel = years == year
+        got = periods.get(str(year))
+        if got is None:
+            continue
+        ng, dg, pg = int(sel.sum()), int(y[sel].sum()), float(pd[sel].mean())
+        if got["observations"] != ng or got["defaults"] != dg:
+            failures.append(f"period {year}: counts {got['observations']}, {got['defaults']} vs {ng}, {dg}")
+        close("period mean_pd (numpy)", got["mean_pd"], pg, 1e-15)
+        close("period default_rate (numpy)", got["default_rate"], dg / ng, 1e-15)
+        close("period binomial_p vs scipy.stats.binom.sf(d - 1, n, p)", got["binomial_p"],
+              stats.binom.sf(dg - 1, ng, pg), 1e-10)
+    # The CSV names the segment and the period of each row; the table prints no NaN.
+    csv_out = run(firmcall, ["validate", path, "--format", "csv"]).stdout.splitlines()
+    if csv_out[0] != "pd_column,segment,period,grade,statistic,value":
+        failures.append(f"CSV header with segments and dates: {csv_out[0]!r}")
+    if not any(line.startswith('pd,real estate,,all,auc,') for line in csv_out):
+        failures.append("CSV has no AUC row for segment 'real estate'")
+    if not any(line.startswith(f"pd,,{years.min()},all,binomial_p,") for line in csv_out):
+        failures.append(f"CSV has no binomial_p row for period {years.min()}")
+    table = run(firmcall, ["validate", path]).stdout
+    if "nan" in table.lower() or "Segment 'public'" not in table or "no defaults in the segment" not in table:
+        failures.append("table: segment without defaults not explained, or NaN printed")
+
+
+def check_many_segments(firmcall, work):
+    # Twelve segments (more than the reader compares one by one) and runs of repeated dates: the
+    # segments in the order they first appear, each counted (by hand in Python).
+    rows, order, counts, dates = [], [], {}, []
+    for k in range(240):
+        label = f"seg{(k * 7) % 12:02d}"
+        if label not in counts:
+            order.append(label)
+        counts[label] = counts.get(label, 0) + 1
+        date = datetime.date(2020 + (k // 50), 1 + (k // 10) % 12, 28).isoformat()
+        dates.append(date)
+        rows.append((f"M{k}", 0.01 + 0.001 * (k % 17), 1 if k % 9 == 0 else 0, date, label))
+    path = os.path.join(work, "many_segments.csv")
+    write_csv(path, ["id", "pd", "defaulted", "as_of", "segment"], rows)
+    out = json.loads(run(firmcall, ["validate", path, "--format", "json"]).stdout)
+    got = [(s["segment"], s["observations"]) for s in out.get("segments", [])]
+    if got != [(label, counts[label]) for label in order]:
+        failures.append(f"many segments: {got}")
+    years = sorted({d[:4] for d in dates})
+    if [p["period"] for p in out.get("periods", [])] != years or (out.get("as_of_first"), out.get("as_of_last")) != (
+            min(dates), max(dates)):
+        failures.append(f"many segments: periods {out.get('periods')}, range {out.get('as_of_first')}")
+
+
 def check_bad_input(firmcall, work):
     cases = [
         ("no_defaults.csv", "id,pd,defaulted\nA,0.1,0\nB,0.2,0\n", "no_defaults.csv: field 'defaulted': no defaults"),
@@ -224,6 +332,14 @@ def check_bad_input(firmcall, work):
         ("pd_nan.csv", "id,pd,defaulted\nA,nan,1\nB,0.2,0\n", "pd_nan.csv:2: field 'pd'"),
         ("flag.csv", "id,pd,defaulted\nA,0.1,1\nB,0.2,2\n", "flag.csv:3: field 'defaulted': expected 0 or 1, got '2'"),
         ("missing.csv", "id,probability,defaulted\nA,0.1,1\n", "missing.csv:1: header: required column 'pd' is missing"),
+        ("bad_date.csv", "id,pd,defaulted,as_of\nA,0.1,1,2025-01-31\nB,0.2,0,2025-02-29\n",
+         "bad_date.csv:3: field 'as_of': expected a calendar date YYYY-MM-DD, got '2025-02-29'"),
+        ("slash_date.csv", "id,pd,defaulted,as_of\nA,0.1,1,2025/01/31\nB,0.2,0,2025-02-28\n",
+         "slash_date.csv:2: field 'as_of': expected a calendar date YYYY-MM-DD, got '2025/01/31'"),
+        ("empty_date.csv", "id,pd,defaulted,as_of\nA,0.1,1,2025-01-31\nB,0.2,0,\n",
+         "empty_date.csv:3: field 'as_of': expected a calendar date YYYY-MM-DD, got ''"),
+        ("empty_segment.csv", "id,pd,defaulted,segment\nA,0.1,1,sme\nB,0.2,0,\n",
+         "empty_segment.csv:3: field 'segment': missing"),
     ]
     for name, text, message in cases:
         path = os.path.join(work, name)
@@ -245,6 +361,8 @@ def main():
     with tempfile.TemporaryDirectory(prefix="firmcall_validate_") as work:
         check_generated(firmcall, work)
         check_worked_examples(firmcall, work)
+        check_segments_and_periods(firmcall, work)
+        check_many_segments(firmcall, work)
         check_bad_input(firmcall, work)
     for name, diff in sorted(worst.items()):
         print(f"validate_check: {name}: max abs difference {diff:.3g}")

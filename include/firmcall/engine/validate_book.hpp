@@ -30,6 +30,20 @@ struct StabilityResult {
   std::vector<std::size_t> migration;  ///< [from (earlier) * grades + to (this)]
 };
 
+/// One segment of the sample (the `segment` column).
+struct SegmentResult {
+  std::string label;
+  GroupValidation figures;
+  /// Why the segment has no AUC (it holds one class only); empty when it has one.
+  std::string auc_note;
+};
+
+/// The calibration of the observations of one calendar year of `as_of`.
+struct PeriodResult {
+  int year = 0;
+  GroupCalibration calibration;
+};
+
 struct ValidationRun {
   std::string origin;
   std::string pd_column;
@@ -40,14 +54,20 @@ struct ValidationRun {
   std::optional<Discrimination> compare_discrimination;
   std::optional<AucComparison> comparison;
   std::optional<StabilityResult> stability;
+  std::vector<SegmentResult> segments;  ///< in the order they first appear; empty without the column
+  std::string as_of_first;              ///< the sample's dates, YYYY-MM-DD; empty without the column
+  std::string as_of_last;
+  std::vector<PeriodResult> periods;  ///< years with observations, ascending; empty without as_of
 };
 
 /// Runs every statistic on `sample` (and against `earlier` when not null; both read with
-/// keep_ids); with `curves`, also the ROC and CAP points (discrimination.curve). Throws InputError
+/// keep_ids), per segment and per calendar year of as_of when the sample has them; with `curves`,
+/// also the ROC and CAP points (discrimination.curve). Throws InputError
 /// when a statistic cannot be computed (the message says why).
 ValidationRun run_validation(const OutcomeSample& sample, const OutcomeSample* earlier, bool curves = false);
 
-/// Writes the run as a table, CSV (pd_column,grade,statistic,value) or JSON.
+/// Writes the run as a table, CSV (pd_column,grade,statistic,value; with segments a `segment`
+/// column and with dates a `period` column after pd_column) or JSON.
 void write_validation(const ValidationRun& run, OutputFormat format, const TextSink& sink);
 
 /// Writes the ROC and CAP points of a run made with `curves` as CSV:

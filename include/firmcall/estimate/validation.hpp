@@ -12,9 +12,9 @@
 //                   over the obligors Spiegelhalter's z and the Brier score.
 //   stability       population stability index over grades; grade migration counts.
 //
-// "Defaulters" are the positives: a good PD is higher for them. The AUC comes from two sorted
-// copies of the PDs (defaulters, non-defaulters), O(n log n), with the DeLong structural
-// components read off the sorted copies (the mid-rank form of Sun & Xu 2014).
+// "Defaulters" are the positives: a good PD is higher for them. The AUC comes from one ranking of
+// the PDs (a radix sort of the PD bits with the default flag, O(n)), with the DeLong structural
+// components read off the ranked tie groups (the mid-rank form of Sun & Xu 2014).
 //
 // Pure numerics: no I/O, nothing throws; results carry a status.
 //
@@ -80,6 +80,18 @@ struct AucComparison {
 AucComparison compare_auc(std::span<const double> first_pd, std::span<const double> second_pd,
                           std::span<const std::uint8_t> defaulted) noexcept;
 
+/// Both columns' discrimination (the first with `curve` when asked) and DeLong's test of their
+/// AUCs, from one ranking of each column; the figures are those of discrimination() and
+/// compare_auc(). The comparison's status is invalid_input when either column is invalid, else
+/// one_class when a class is empty. At most 4,294,967,295 obligors (else no_memory).
+struct ColumnComparison {
+  Discrimination first;
+  Discrimination second;
+  AucComparison comparison;
+};
+ColumnComparison compare_columns(std::span<const double> first_pd, std::span<const double> second_pd,
+                                 std::span<const std::uint8_t> defaulted, bool curve = false) noexcept;
+
 /// Traffic light of a one-sided binomial p-value (Basel Committee 1996 backtesting zones, applied
 /// to the p-value): green p > 5%, yellow 0.01% < p <= 5%, red p <= 0.01%.
 enum class TrafficLight : std::uint8_t { green, yellow, red };
@@ -119,6 +131,25 @@ struct CalibrationTests {
 /// Calibration tests overall, per grade (grade[i] in [0, grade_count)) and over the grades.
 CalibrationTests calibration_tests(std::span<const double> pd, std::span<const std::uint8_t> defaulted,
                                    std::span<const int> grade, int grade_count) noexcept;
+
+/// The figures of one group of obligors (a segment of the sample): its calibration tests and its
+/// discrimination, whose status is one_class when the group holds only one class (then only the
+/// counts are set).
+struct GroupValidation {
+  GroupCalibration calibration;
+  Discrimination discrimination;
+};
+
+/// Per group index 0 .. group_count - 1 (group[i] in [0, group_count)); a group without obligors
+/// has observations 0 (calibration NaN, discrimination one_class). Each row's PD key is placed
+/// with its group's (one counting pass) and each group ranked in place: memory grows by 8 bytes a
+/// row and 8 a row of the largest group.
+struct GroupedValidation {
+  ValidationStatus status = ValidationStatus::invalid_input;
+  std::vector<GroupValidation> groups;
+};
+GroupedValidation validation_by_group(std::span<const double> pd, std::span<const std::uint8_t> defaulted,
+                                      std::span<const int> group, int group_count) noexcept;
 
 /// Count added to every grade of both samples when a grade is empty in either (common practice).
 inline constexpr double kPsiEmptyGradeCount = 0.5;

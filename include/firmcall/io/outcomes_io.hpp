@@ -5,6 +5,7 @@
 //
 // `pd` is a probability in [0, 1] (another column with OutcomeReadOptions::pd_column), `defaulted`
 // is 0 or 1. Without a grade column each row is graded from its PD on the settings' master scale.
+// `segment` is a non-empty label, `as_of` a calendar date YYYY-MM-DD (the start of the period).
 // A missing column, a bad cell, or a sample with only one class (no defaults, or only defaults) is
 // an InputError naming the file, the line and the field: a validation needs the whole sample.
 //
@@ -37,10 +38,13 @@ struct OutcomeSample {
   std::vector<double> pd;
   std::vector<double> compare_pd;  ///< empty when no compare column
   std::vector<std::uint8_t> defaulted;
-  std::vector<int> grade;                 ///< index into grade_labels per row
-  std::vector<std::string> grade_labels;  ///< the scale's labels in order, then other labels as first seen
-  bool graded_from_pd = false;            ///< no grade column: graded on the master scale from the PD
-  std::vector<std::string> ids;           ///< only with keep_ids
+  std::vector<int> grade;                   ///< index into grade_labels per row
+  std::vector<std::string> grade_labels;    ///< the scale's labels in order, then other labels as first seen
+  bool graded_from_pd = false;              ///< no grade column: graded on the master scale from the PD
+  std::vector<std::string> ids;             ///< only with keep_ids
+  std::vector<int> segment;                 ///< index into segment_labels per row; empty without the column
+  std::vector<std::string> segment_labels;  ///< the segments in the order they first appear
+  std::vector<std::int32_t> as_of;          ///< days since 1970-01-01 per row; empty without the column
   std::size_t defaults = 0;
   std::vector<std::string> notes;  ///< e.g. columns not used
 };

@@ -216,3 +216,80 @@ TEST_CASE("migration counts") {
   for (std::size_t v : m) total += v;
   CHECK(total == 4);
 }
+
+TEST_CASE("compare_columns gives both columns' figures from one ranking each") {
+  std::mt19937_64 rng(7);
+  std::normal_distribution<double> z(0.0, 1.0);
+  std::uniform_real_distribution<double> u(0.0, 1.0);
+  std::vector<double> a, b;
+  std::vector<std::uint8_t> y;
+  for (int k = 0; k < 600; ++k) {
+    const double score = z(rng);
+    a.push_back(std::round(100.0 / (1.0 + std::exp(3.0 - score))) / 100.0);  // two decimals: many ties
+    b.push_back(std::round(100.0 / (1.0 + std::exp(3.0 - score - z(rng)))) / 100.0);
+    y.push_back(u(rng) < 1.0 / (1.0 + std::exp(3.0 - score)) ? 1 : 0);
+  }
+  const PairwiseDeLong ref = pairwise(a, b, y);  // reference: DeLong et al. (1988), pair by pair
+  const ColumnComparison c = compare_columns(a, b, y, true);
+  REQUIRE(c.comparison.status == ValidationStatus::ok);
+  CHECK(std::fabs(c.first.auc - ref.auc_a) < 1e-13);
+  CHECK(std::fabs(c.second.auc - ref.auc_b) < 1e-13);
+  CHECK(std::fabs(c.first.auc_se - std::sqrt(ref.var_a)) < 1e-13);
+  CHECK(std::fabs(c.comparison.difference_se - std::sqrt(ref.var_diff)) < 1e-13);
+  CHECK(c.first.defaults == c.second.defaults);
+  CHECK(!c.first.curve.empty());
+  CHECK(c.second.curve.empty());
+  // A bad value in the second column makes the test invalid (definition of the status).
+  b[3] = 1.5;
+  const ColumnComparison bad = compare_columns(a, b, y);
+  CHECK(bad.first.status == ValidationStatus::ok);
+  CHECK(bad.second.status == ValidationStatus::invalid_input);
+  CHECK(bad.comparison.status == ValidationStatus::invalid_input);
+  CHECK(compare_columns(a, std::vector<double>{0.1}, y).comparison.status == ValidationStatus::invalid_input);
+}
+
+TEST_CASE("a PD of -0 ties with 0, and PDs 0 and 1 rank at the ends") {
+  // Defaulters {0, 1}, non-defaulters {-0, 0.5}: pairs (0 vs -0) tie 1/2, (0 vs 0.5) 0,
+  // (1 vs -0) 1, (1 vs 0.5) 1: AUC = 2.5 / 4 (by hand).
+  const std::vector<double> pd{0.0, 1.0, -0.0, 0.5};
+  const std::vector<std::uint8_t> y{1, 1, 0, 0};
+  const Discrimination d = discrimination(pd, y, true);
+  REQUIRE(d.status == ValidationStatus::ok);
+  CHECK(d.auc == 2.5 / 4.0);
+  REQUIRE(d.curve.size() == 4);  // (0, 0, 0), then thresholds 1, 0.5, 0 (by hand)
+  CHECK(d.curve[3].threshold_pd == 0.0);
+  CHECK(d.curve[1].threshold_pd == 1.0);
+}
+
+TEST_CASE("validation by group: each group's AUC and calibration on its own rows") {
+  // Group 0: defaulters {0.4, 0.2}, non-defaulters {0.2, 0.1}: pairs above 2 + 1, one tie:
+  //   AUC = 3.5 / 4 (by hand); n = 4, d = 2, mean PD 0.225.
+  // Group 1: PDs 0.1, 0.3, no defaults: AUC undefined (one class), P(X >= 0) = 1 (definition).
+  // Group 2: no rows.
+  const std::vector<double> pd{0.4, 0.1, 0.2, 0.3, 0.2, 0.1};
+  const std::vector<std::uint8_t> y{1, 0, 1, 0, 0, 0};
+  const std::vector<int> g{0, 1, 0, 1, 0, 0};
+  const GroupedValidation r = validation_by_group(pd, y, g, 3);
+  REQUIRE(r.status == ValidationStatus::ok);
+  REQUIRE(r.groups.size() == 3);
+  const GroupValidation& g0 = r.groups[0];
+  REQUIRE(g0.discrimination.status == ValidationStatus::ok);
+  CHECK(g0.discrimination.auc == 3.5 / 4.0);
+  CHECK(g0.calibration.observations == 4);
+  CHECK(g0.calibration.defaults == 2);
+  CHECK(g0.calibration.mean_pd == doctest::Approx(0.225).epsilon(1e-15));
+  // P(X >= 2), X ~ Binomial(4, 0.225) = 1 - 0.775^4 - 4 0.225 0.775^3 (by hand).
+  const double q = 0.775;
+  CHECK(g0.calibration.binomial_p ==
+        doctest::Approx(1.0 - q * q * q * q - 4.0 * 0.225 * q * q * q).epsilon(1e-13));
+  const GroupValidation& g1 = r.groups[1];
+  CHECK(g1.discrimination.status == ValidationStatus::one_class);
+  CHECK(g1.discrimination.defaults == 0);
+  CHECK(g1.calibration.observations == 2);
+  CHECK(g1.calibration.binomial_p == 1.0);
+  CHECK(r.groups[2].calibration.observations == 0);
+  CHECK(r.groups[2].discrimination.status == ValidationStatus::one_class);
+  CHECK(validation_by_group(pd, y, std::vector<int>{0, 1, 0, 3, 0, 0}, 3).status ==
+        ValidationStatus::invalid_input);
+  CHECK(validation_by_group(pd, y, std::vector<int>{0, 1}, 3).status == ValidationStatus::invalid_input);
+}
