@@ -1186,7 +1186,7 @@ std::string driving_statement(const ReportData& d) {
   const bool cal = d.options.driving_pd == DrivingPd::calibrated;
   std::string out = "<p class=\"fc-driving\"><strong>Driving PD: ";
   out += cal ? "calibrated one-year PD" : "model PD (Merton)";
-  out += "</strong> (grades, expected loss, exposure-weighted and mean PD";
+  out += "</strong> (grades, expected loss, the summary's PD figures, the ranking of the name tables";
   out += d.portfolio ? ", and the portfolio section's loss distribution and IRB capital" : "";
   out += "). Calibration " + h(d.options.pd_calibration_path) + ": " + h(to_string(c.method)) + ", " +
          h(count(c.observations)) + " obligor-years with " + h(count(c.defaults)) + " defaults, as of " +

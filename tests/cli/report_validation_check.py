@@ -29,6 +29,7 @@ import re
 import subprocess
 import sys
 import tempfile
+import xml.etree.ElementTree as ET
 
 import numpy as np
 from scipy import special, stats
@@ -65,6 +66,14 @@ def cap_reference(pd, defaulted):
     xs = np.concatenate([[0.0], (ends + 1) / len(p)])
     ys = np.concatenate([[0.0], cum_defaults[ends] / cum_defaults[-1]])
     return xs, ys
+
+
+def check_xml(page, what):
+    """The page, less its HTML5 doctype, parses as XML (Python's expat parser)."""
+    try:
+        ET.fromstring(page[len("<!DOCTYPE html>\n"):])
+    except ET.ParseError as e:
+        failures.append(f"{what}: not well-formed XML: {e}")
 
 
 def check_cap(page, pd, defaulted):
@@ -164,6 +173,7 @@ def check_calibrated(exe, root, tmp, cfg):
         text = f.read()
     a = float(re.search(r"intercept: (\S+)", text).group(1))
     b = float(re.search(r"slope: (\S+)", text).group(1))
+    check_xml(page, "page with --pd-calibration")
     cells = name_cells(page)
     compared = 0
     for r in rows:
@@ -240,6 +250,7 @@ def main():
         check(run.returncode in (0, 1), f"report --validate exit {run.returncode}: {run.stderr}")
         with open(page_path, encoding="utf-8") as f:
             page = f.read()
+        check_xml(page, "page with --validate-against")
         check_cap(page, pd, defaulted)
         check_grade_intervals(page, pd, defaulted)
         check_migration(page, now_rows, earlier_rows)
