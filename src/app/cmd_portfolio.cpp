@@ -118,12 +118,13 @@ void declare_portfolio_options(CLI::App* cmd, PortfolioCli& o) {
   cmd->add_option(
          "--pd-calibration", o.pd_calibration,
          "Calibration file (firmcall calibrate --save): each obligor's calibrated one-year PD of its "
-         "distance to default drives IRB capital")
+         "distance to default, which drives the figures unless --driving-pd model")
       ->check(CLI::ExistingFile);
-  cmd->add_option("--driving-pd", o.driving_pd,
-                  "PD behind expected loss and the loss distribution: model or calibrated (default: "
-                  "calibrated with --pd-calibration, else model); a calibrated PD over T years is "
-                  "1 - (1 - PD1)^T")
+  cmd->add_option(
+         "--driving-pd", o.driving_pd,
+         "PD behind IRB capital, expected loss and the loss distribution: model or calibrated (default: "
+         "calibrated with --pd-calibration, else model); a calibrated PD over T years is "
+         "1 - (1 - PD1)^T")
       ->check(CLI::IsMember({"model", "calibrated"}));
   cmd->footer(
       std::string("\nExit codes: 0 every obligor in the portfolio; 1 some obligors left out (listed, the "

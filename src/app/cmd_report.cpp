@@ -15,6 +15,7 @@ struct ReportCli {
   std::string html;
   std::optional<std::string> horizons;
   unsigned threads = 0;
+  std::string driving_pd;  // --driving-pd: model or calibrated (default: calibrated with a calibration)
 };
 
 ExitCode run_report(const ReportCli& opts, const GlobalOptions& global) {
@@ -30,6 +31,16 @@ ExitCode run_report(const ReportCli& opts, const GlobalOptions& global) {
   if ((!o.store_run.empty() || !o.against.empty()) && o.store_path.empty()) {
     throw InputError("--run/--against: apply to the movers section; give --db STORE as well");
   }
+  if (!o.validation_against_path.empty() && o.validation_path.empty()) {
+    throw InputError(
+        "--validate-against: applies to the validation section; give --validate OUTCOMES as well");
+  }
+  // As score: the calibrated PD drives when a calibration is given, unless --driving-pd model.
+  if (opts.driving_pd == "calibrated" && o.pd_calibration_path.empty()) {
+    throw InputError("--driving-pd calibrated: needs --pd-calibration CAL.yaml");
+  }
+  o.driving_pd =
+      !o.pd_calibration_path.empty() && opts.driving_pd != "model" ? DrivingPd::calibrated : DrivingPd::model;
   o.threads = thread_count(opts.threads);
   o.tool_version = FIRMCALL_VERSION;
   // Every input is read and every figure computed before the file is opened.
@@ -44,7 +55,12 @@ ExitCode run_report(const ReportCli& opts, const GlobalOptions& global) {
     if (failed > 0) std::cerr << " (" << failed << " not scored)";
     std::cerr << (data.stress ? ", stress" : "") << (!data.terms.empty() ? ", term structures" : "")
               << (data.portfolio ? ", portfolio" : "") << (data.monitoring ? ", movers and alerts" : "")
-              << (data.validation ? ", validation" : "") << "\n";
+              << (data.validation ? ", validation" : "")
+              << (data.calibration
+                      ? (data.options.driving_pd == DrivingPd::calibrated ? "; calibrated PD drives"
+                                                                          : "; model PD drives")
+                      : "")
+              << "\n";
   }
   return rows_exit_code(failed);
 }
@@ -78,6 +94,18 @@ void add_report_command(CLI::App& app, const GlobalOptions& global, CommandActio
   cmd->add_option("--validate", opts->report.validation_path,
                   "Outcomes file (as for `firmcall validate`): adds the validation section")
       ->check(CLI::ExistingFile);
+  cmd->add_option("--validate-against", opts->report.validation_against_path,
+                  "An earlier outcomes file (as validate --against): adds the grade migration matrix and "
+                  "the population stability index (matched on id); needs --validate")
+      ->check(CLI::ExistingFile);
+  cmd->add_option(
+      "--pd-calibration", opts->report.pd_calibration_path,
+      "Calibration file (firmcall calibrate --save): the name tables show each obligor's one-year "
+      "calibrated PD and its interval beside the model PD");
+  cmd->add_option("--driving-pd", opts->driving_pd,
+                  "PD behind grades, expected loss and the portfolio section: model or calibrated (default: "
+                  "calibrated with --pd-calibration, else model)")
+      ->check(CLI::IsMember({"model", "calibrated"}));
   cmd->add_option("--top", opts->report.top, "Rows of the name tables (default 10)")
       ->check(whole_number(1, 1000));
   cmd->add_option("--title", opts->report.title, "Page title (default: the book's label)");

@@ -144,9 +144,10 @@ void fill_obligor(const ObligorRecord& rec, const ScoredObligor& base, const Str
   if (options.pd_calibration) {
     const double dd = stressed ? stressed->measures.distance_to_default : base.measures.distance_to_default;
     out.pd_calibrated = options.pd_calibration->evaluate(dd).pd;
-    out.irb_on_calibrated = true;
-    irb_pd = out.pd_calibrated;
+    // The driving PD sets IRB capital as well as EL and the loss models: one switch for all.
     if (options.driving_pd == DrivingPd::calibrated) {
+      out.irb_on_calibrated = true;
+      irb_pd = out.pd_calibrated;
       out.pd_driving = pd_over_horizon(out.pd_calibrated, out.horizon_years);
     }
   }

@@ -316,8 +316,9 @@ void write_table(const PortfolioResult& run, const Book& book, const TextSink& s
     out += buf;
     std::snprintf(buf, sizeof buf, "PD floor %g%% (%s), %zu obligors raised to it", 100.0 * run.irb.pd_floor,
                   std::string(pd_floor_source(run.irb.pd_floor_rule)).c_str(), run.pd_floored);
+    const bool calibrated_irb = run.options.pd_calibration && run.options.driving_pd == DrivingPd::calibrated;
     const std::string basis =
-        run.options.pd_calibration ? std::string("the calibrated one-year PD")
+        calibrated_irb ? std::string("the calibrated one-year PD")
         : run.pd_converted > 0
             ? std::to_string(run.pd_converted) + " model PDs converted to one year, 1 - (1 - PD)^(1/T)"
             : std::string("the model PD, its horizon is one year");
@@ -537,9 +538,10 @@ void write_json(const PortfolioResult& run, const Book& book, const TextSink& si
       .raw("seed", std::to_string(run.portfolio.seed))
       .number("irb_pd_floor", run.irb.pd_floor)
       .text("irb_pd_floor_rule", to_string(run.irb.pd_floor_rule))
-      .text("irb_pd_basis", run.options.pd_calibration ? "calibrated"
-                            : run.pd_converted > 0     ? "model_converted"
-                                                       : "model")
+      .text("irb_pd_basis", run.options.pd_calibration && run.options.driving_pd == DrivingPd::calibrated
+                                ? "calibrated"
+                            : run.pd_converted > 0 ? "model_converted"
+                                                   : "model")
       .text("expected_loss_horizon", "obligor")
       .number("irb_maturity", run.irb.maturity_years);
   if (run.options.pd_calibration) {

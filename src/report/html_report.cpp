@@ -6,6 +6,8 @@
 #include <numeric>
 
 #include "firmcall/book/errors.hpp"
+#include "firmcall/estimate/calibration.hpp"
+#include "firmcall/format/cells.hpp"
 #include "firmcall/format/row_writer.hpp"
 #include "firmcall/model/normal.hpp"
 #include "firmcall/report/svg.hpp"
@@ -65,11 +67,14 @@ class HtmlTable {
  public:
   HtmlTable(std::string css_class, std::vector<std::string> heads)
       : css_class_(std::move(css_class)), heads_(std::move(heads)) {}
-  void row(const std::vector<std::string>& cells, bool numeric_from_second, std::string_view row_class = "") {
+  // `attributes`: per cell, attribute text already escaped (" data-value=\"0.1\""), or empty.
+  void row(const std::vector<std::string>& cells, bool numeric_from_second, std::string_view row_class = "",
+           const std::vector<std::string>& attributes = {}) {
     rows_ += row_class.empty() ? "<tr>" : "<tr class=\"" + h(row_class) + "\">";
     for (std::size_t i = 0; i < cells.size(); ++i) {
       const bool numeric = numeric_from_second && i >= numeric_start_ && i < numeric_end_;
-      rows_ += numeric ? "<td class=\"fc-num\">" : "<td>";
+      const std::string attr = i < attributes.size() ? attributes[i] : std::string();
+      rows_ += numeric ? "<td class=\"fc-num\"" + attr + ">" : "<td" + attr + ">";
       rows_ += h(cells[i]) + "</td>";
     }
     rows_ += "</tr>\n";
@@ -111,6 +116,17 @@ std::string section_open(const std::string& id, const std::string& title, const 
          "</h2>\n<p class=\"fc-lead\">" + h(lead) + "</p>\n";
 }
 
+// A number in shortest round-trip form, for data- attributes (empty when not finite).
+std::string exact(double v) {
+  std::string out;
+  append_number(out, v);
+  return out;
+}
+
+bool calibrated_drives(const ReportData& d) {
+  return d.calibration != nullptr && d.options.driving_pd == DrivingPd::calibrated;
+}
+
 // Book-wide figures over the scored obligors.
 struct BookFigures {
   std::size_t obligors = 0, scored = 0, invalid = 0, not_converged = 0;
@@ -126,18 +142,20 @@ BookFigures book_figures(const ReportData& d) {
   BookFigures f;
   f.obligors = d.scored.size();
   double pd_sum = 0.0, ead_pd = 0.0;
-  for (const ScoredObligor& s : d.scored) {
+  for (std::size_t i = 0; i < d.scored.size(); ++i) {
+    const ScoredObligor& s = d.scored[i];
     if (s.status == RowStatus::invalid_input) ++f.invalid;
     if (s.status == RowStatus::not_converged) ++f.not_converged;
     if (s.status != RowStatus::ok) continue;
     ++f.scored;
-    pd_sum += s.measures.pd;
-    if (s.measures.pd > d.config.stress.pd_threshold) ++f.above_threshold;
+    const double pd = driving_pd_of(d, i);
+    pd_sum += pd;
+    if (pd > d.config.stress.pd_threshold) ++f.above_threshold;
     if (!s.resolved.has_ead) continue;
     ++f.with_ead;
     f.ead_total += s.resolved.ead;
-    ead_pd += s.resolved.ead * s.measures.pd;
-    f.expected_loss += s.measures.pd * s.resolved.lgd * s.resolved.ead;
+    ead_pd += s.resolved.ead * pd;
+    f.expected_loss += pd * s.resolved.lgd * s.resolved.ead;
   }
   if (f.scored > 0) f.mean_pd = pd_sum / static_cast<double>(f.scored);
   if (f.ead_total > 0.0) f.ead_weighted_pd = ead_pd / f.ead_total;
@@ -171,15 +189,16 @@ std::string summary_section(const ReportData& d, const BookFigures& f) {
   // PD distribution by grade.
   const std::size_t grades = scale.bands.size();
   std::vector<double> names(grades, 0.0), ead(grades, 0.0), ead_pd(grades, 0.0);
-  for (const ScoredObligor& s : d.scored) {
+  for (std::size_t i = 0; i < d.scored.size(); ++i) {
+    const ScoredObligor& s = d.scored[i];
     if (s.status != RowStatus::ok) continue;
-    const int g = scale.index_of_pd_at(s.measures.pd, s.resolved.inputs.horizon_years);
+    const int g = driving_grade_of(d, i);
     if (g < 0) continue;
     const auto gi = static_cast<std::size_t>(g);
     names[gi] += 1.0;
     if (s.resolved.has_ead) {
       ead[gi] += s.resolved.ead;
-      ead_pd[gi] += s.resolved.ead * s.measures.pd;
+      ead_pd[gi] += s.resolved.ead * driving_pd_of(d, i);
     }
   }
   std::vector<std::string> labels, value_labels;
@@ -281,6 +300,37 @@ std::string scatter_section(const ReportData& d) {
   return out + "</section>\n";
 }
 
+// A name row with the calibrated one-year PD beside the model PD (its cell carries the exact PD
+// and interval as data-value, data-lower and data-upper).
+std::vector<std::string> calibrated_name_row(const ReportData& d, std::size_t i,
+                                             std::vector<std::string>& attrs) {
+  const ScoredObligor& s = d.scored[i];
+  const ObligorRecord& rec = d.book.obligors[i];
+  const MertonMeasures& m = s.measures;
+  const CalibratedPd& c = d.calibrated[i];
+  const bool ead = s.resolved.has_ead;
+  const int g = driving_grade_of(d, i);
+  const double horizon = s.resolved.inputs.horizon_years;
+  attrs.assign(16, std::string());
+  attrs[7] = " data-value=\"" + exact(c.pd) + "\" data-lower=\"" + exact(c.lower) + "\" data-upper=\"" +
+             exact(c.upper) + "\"";
+  return {id_of(rec),
+          rec.get(TextField::name),
+          rec.get(TextField::sector),
+          g >= 0 ? std::string(d.config.grades.label_at(g)) : std::string(),
+          format_cell(m.distance_to_default, CellStyle::decimal3),
+          fixed(horizon, horizon == std::floor(horizon) ? 0 : 2),
+          report_pd(m.pd),
+          report_pd(c.pd),
+          report_pd(c.lower) + " to " + report_pd(c.upper),
+          c.extrapolated ? "yes" : "no",
+          report_spread_bp(m.spread_bp),
+          fixed(m.leverage, 3),
+          report_amount(m.asset_value),
+          ead ? report_amount(s.resolved.ead) : "-",
+          ead ? report_amount(driving_pd_of(d, i) * s.resolved.lgd * s.resolved.ead) : "-"};
+}
+
 std::vector<std::string> name_row(const ReportData& d, std::size_t i) {
   const ScoredObligor& s = d.scored[i];
   const ObligorRecord& rec = d.book.obligors[i];
@@ -304,20 +354,61 @@ std::string names_section(const ReportData& d) {
   for (std::size_t i = 0; i < d.scored.size(); ++i) {
     if (d.scored[i].status == RowStatus::ok) ok.push_back(i);
   }
+  // Highest driving PD first (the model PD breaks ties of the calibrated one).
   std::stable_sort(ok.begin(), ok.end(), [&](std::size_t a, std::size_t b) {
+    const double pa = driving_pd_of(d, a), pb = driving_pd_of(d, b);
+    if (pa != pb) return pa > pb;
     return d.scored[a].measures.pd > d.scored[b].measures.pd;
   });
   const std::size_t n = std::min(d.options.top, ok.size());
-  std::string out = section_open("names", "Weakest and strongest names",
-                                 "The " + count(n) + " highest and " + count(n) +
-                                     " lowest PDs of the book. PD at each obligor's horizon, spread in basis "
-                                     "points, amounts in each obligor's currency unit (EAD in the book's).");
-  const std::vector<std::string> heads = {"obligor",   "name", "sector",      "grade", "DD",           "PD",
-                                          "spread bp", "DP/V", "asset value", "EAD",   "expected loss"};
+  const bool cal = d.calibration != nullptr;
+  std::string lead = "The " + count(n) + " highest and " + count(n) + " lowest PDs of the book. ";
+  if (cal) {
+    lead += std::string("Ranked and graded on the ") +
+            (calibrated_drives(d) ? "calibrated one-year PD" : "model PD") +
+            " (the driving PD). Model PD at each obligor's horizon (column horizon, years); calibrated PD "
+            "over one year with its " +
+            level_text(d.calibration->calibration.confidence_level) +
+            " interval, 'yes' where the DD lies outside the calibration sample's range (extrapolated); "
+            "expected loss on the driving PD over each obligor's horizon. Spread in basis points, amounts in "
+            "each obligor's currency unit (EAD in the book's).";
+  } else {
+    lead +=
+        "PD at each obligor's horizon, spread in basis points, amounts in each obligor's currency unit (EAD "
+        "in "
+        "the book's).";
+  }
+  std::string out = section_open("names", "Weakest and strongest names", lead);
+  const std::vector<std::string> heads =
+      cal ? std::vector<std::string>{"obligor",
+                                     "name",
+                                     "sector",
+                                     "grade",
+                                     "DD",
+                                     "horizon (years)",
+                                     "model PD (horizon)",
+                                     "calibrated PD (one year)",
+                                     "calibrated PD interval",
+                                     "DD outside sample",
+                                     "spread bp",
+                                     "DP/V",
+                                     "asset value",
+                                     "EAD",
+                                     "expected loss"}
+          : std::vector<std::string>{"obligor",   "name", "sector",      "grade", "DD",           "PD",
+                                     "spread bp", "DP/V", "asset value", "EAD",   "expected loss"};
   const auto table = [&](const std::string& title, auto first, auto last, const char* cls) {
     HtmlTable t(std::string("fc-table ") + cls, heads);
     t.numeric_from(4);
-    for (auto it = first; it != last; ++it) t.row(name_row(d, *it), true);
+    std::vector<std::string> attrs;
+    for (auto it = first; it != last; ++it) {
+      if (cal) {
+        const std::vector<std::string> cells = calibrated_name_row(d, *it, attrs);
+        t.row(cells, true, "", attrs);
+      } else {
+        t.row(name_row(d, *it), true);
+      }
+    }
     return "<h3>" + h(title) + "</h3>\n" + t.str();
   };
   out += table("Weakest " + count(n) + " (highest PD first)", ok.begin(),
@@ -631,7 +722,7 @@ std::string exceedance_chart(const LossDistribution& dist, const ExceedanceCurve
 }
 
 // VaR and ES at each confidence level, then EL, EAD and IRB capital of the book.
-std::string loss_levels_table(const PortfolioScenarioResult& base) {
+std::string loss_levels_table(const PortfolioScenarioResult& base, bool calibrated) {
   const LossDistribution& dist = base.exact;
   HtmlTable t("fc-table fc-portfolio-levels", {"confidence level", "VaR", "ES", "VaR less EL"});
   for (const LossTail& tail : dist.tails) {
@@ -641,8 +732,10 @@ std::string loss_levels_table(const PortfolioScenarioResult& base) {
   }
   return t.str() + "<p class=\"fc-note\">Expected loss " + h(report_amount(base.total.expected_loss)) +
          " over each obligor's horizon on EAD " + h(report_amount(base.total.ead)) +
-         "; Basel IRB capital on one-year PDs " + h(report_amount(base.total.irb_capital)) +
-         " (risk-weighted assets " + h(report_amount(base.total.rwa)) + ").</p>\n";
+         (calibrated ? "; Basel IRB capital on the calibrated one-year PDs "
+                     : "; Basel IRB capital on one-year PDs ") +
+         h(report_amount(base.total.irb_capital)) + " (risk-weighted assets " +
+         h(report_amount(base.total.rwa)) + ").</p>\n";
 }
 
 // Contributions to ES at the top confidence level, and the positions of the `limit` largest
@@ -670,15 +763,16 @@ EsContributors es_contributors(const PortfolioScenarioResult& base, std::size_t 
 std::string es_contributors_table(const ReportData& d, const PortfolioScenarioResult& base,
                                   const EsContributors& top) {
   const LossTail& level = base.exact.tails.back();
-  HtmlTable c("fc-table fc-contributions",
-              {"obligor", "name", "PD", "EAD", "expected loss", "ES contribution", "share of ES"});
+  const bool cal = calibrated_drives(d);
+  HtmlTable c("fc-table fc-contributions", {"obligor", "name", cal ? "calibrated PD (own horizon)" : "PD",
+                                            "EAD", "expected loss", "ES contribution", "share of ES"});
   c.numeric_from(2);
   for (const std::size_t i : top.idx) {
     const PortfolioObligor& o = base.obligors[i];
     if (!o.ok()) continue;
-    c.row({id_of(d.book.obligors[i]), d.book.obligors[i].get(TextField::name), report_pd(o.pd),
-           report_amount(o.ead), report_amount(o.expected_loss), report_amount(top.contribution[i]),
-           fixed(100.0 * top.contribution[i] / level.es, 1) + "%"},
+    c.row({id_of(d.book.obligors[i]), d.book.obligors[i].get(TextField::name),
+           report_pd(cal ? o.pd_driving : o.pd), report_amount(o.ead), report_amount(o.expected_loss),
+           report_amount(top.contribution[i]), fixed(100.0 * top.contribution[i] / level.es, 1) + "%"},
           true);
   }
   return "<h3>Largest contributors to ES at " + h(level_text(level.confidence_level)) + "</h3>\n" + c.str();
@@ -690,8 +784,10 @@ std::string portfolio_section(const ReportData& d) {
   const LossDistribution& dist = base.exact;
   std::string out = section_open(
       "portfolio", "Portfolio loss distribution",
-      "Exact one-factor (Vasicek) loss distribution of the book as it stands: each obligor's Merton PD, its "
-      "LGD and EAD, and its asset correlation (" +
+      std::string("Exact one-factor (Vasicek) loss distribution of the book as it stands: each obligor's ") +
+          (calibrated_drives(d) ? "calibrated PD over its horizon (1 - (1 - PD1)^T from the one-year PD PD1)"
+                                : "Merton PD") +
+          ", its LGD and EAD, and its asset correlation (" +
           std::string(run.correlation_origin.empty() ? "no correlation file" : run.correlation_origin) +
           "). " + count(base.included) + " of " + count(base.obligors.size()) +
           " obligors are in the portfolio; losses in the book's EAD unit.");
@@ -710,13 +806,158 @@ std::string portfolio_section(const ReportData& d) {
     return out + "</section>\n";
   }
   out += exceedance_chart(dist, exceedance_curve(dist));
-  out += loss_levels_table(base);
+  out += loss_levels_table(base, calibrated_drives(d));
   const EsContributors top = es_contributors(base, d.options.top);
   if (top.contribution != nullptr) out += es_contributors_table(d, base, top);
   return out + "</section>\n";
 }
 
-// The validation section: discrimination cards, the ROC curve, calibration per grade.
+// The ROC curve of the validation section.
+std::string roc_chart(const ReportData& d) {
+  const ValidationRun& v = *d.validation;
+  SvgPlot plot({.label = "false alarm rate (share of non-defaulters called)", .min = 0, .max = 1},
+               {.label = "hit rate (share of defaulters called)", .min = 0, .max = 1}, "ROC curve", 560.0,
+               420.0);
+  std::vector<double> x, y;
+  for (const CurvePoint& c : d.roc) {
+    x.push_back(c.false_positive_rate);
+    y.push_back(c.hit_rate);
+  }
+  plot.line({0.0, 1.0}, {0.0, 1.0}, "fc-ref", "random ranking", false);
+  plot.line(x, y, "fc-s1", "PD " + v.pd_column, false);
+  plot.legend("fc-s1", "PD column " + v.pd_column + ", AUC " + fixed(v.discrimination.auc, 4));
+  plot.legend("fc-ref", "random ranking, AUC 0.5");
+  return figure(
+      plot.str(),
+      "Each point calls every obligor with a PD at or above a threshold a defaulter; the curve runs "
+      "from the highest threshold (bottom left) to the lowest (top right). ");
+}
+
+// The CAP curve (cumulative accuracy profile; Engelmann, Hayden and Tasche 2003) with the random
+// and the perfect model. The curve is written in its own units (exact_line).
+std::string cap_chart(const ReportData& d) {
+  const ValidationRun& v = *d.validation;
+  const Discrimination& dis = v.discrimination;
+  SvgPlot plot({.label = "share of obligors, riskiest first (highest PD first)", .min = 0, .max = 1},
+               {.label = "share of defaulters among them", .min = 0, .max = 1}, "CAP curve", 560.0, 420.0);
+  std::vector<double> x, y;
+  for (const CurvePoint& c : d.roc) {
+    x.push_back(c.population_share);
+    y.push_back(c.hit_rate);
+  }
+  const double rate = static_cast<double>(dis.defaults) / static_cast<double>(dis.observations);
+  plot.line({0.0, 1.0}, {0.0, 1.0}, "fc-ref", "random model", false);
+  plot.line({0.0, rate, 1.0}, {0.0, 1.0, 1.0}, "fc-s4", "perfect model", false);
+  plot.exact_line(x, y, "fc-s1", "CAP curve of PD column " + v.pd_column);
+  plot.legend("fc-s1", "PD column " + v.pd_column + ", accuracy ratio " + fixed(dis.accuracy_ratio, 4));
+  plot.legend("fc-s4", "perfect model (defaulters first)");
+  plot.legend("fc-ref", "random model");
+  plot.legend_at_bottom(true);
+  return figure(
+      plot.str(),
+      "Obligors sorted from the highest PD to the lowest; the curve gives the share of all defaulters "
+      "among the riskiest x of the sample (one point per distinct PD, ties taken together). The "
+      "perfect model puts every defaulter first (a kink at the default rate " +
+          report_pd(rate) +
+          "), a random one lies on the diagonal; the accuracy ratio is the area between the curve and "
+          "the diagonal over that of the perfect model, 2 AUC - 1 (Engelmann, Hayden and Tasche "
+          "2003). ");
+}
+
+// Observed default rate against mean PD per grade, with the Jeffreys interval of the rate.
+std::string grade_rate_chart(const ReportData& d) {
+  const ValidationRun& v = *d.validation;
+  const CalibrationTests& cal = v.calibration;
+  std::vector<std::string> labels;
+  std::vector<IntervalMark> marks;
+  for (std::size_t i = 0; i < cal.grades.size(); ++i) {
+    const GroupCalibration& g = cal.grades[i];
+    if (g.observations == 0) continue;
+    IntervalMark m;
+    m.predicted = g.mean_pd;
+    m.observed = g.default_rate;
+    jeffreys_interval(static_cast<double>(g.defaults), static_cast<double>(g.observations),
+                      kGradeIntervalLevel, m.lower, m.upper);
+    m.tooltip = v.grade_labels[i] + ": " + count(g.defaults) + " defaults of " + count(g.observations) +
+                ", default rate " + report_pd(g.default_rate) + " (" + level_text(kGradeIntervalLevel) +
+                " Jeffreys interval " + report_pd(m.lower) + " to " + report_pd(m.upper) + "), mean PD " +
+                report_pd(g.mean_pd);
+    labels.push_back(v.grade_labels[i]);
+    marks.push_back(std::move(m));
+  }
+  SvgAxis y{.label = "default rate and PD (percent, log scale)",
+            .min = 1e-5,
+            .max = 1,
+            .log = true,
+            .format = TickFormat::percent};
+  const std::string svg = svg_interval_chart(labels, marks, "grade on the master scale (best on the left)", y,
+                                             "Observed default rate against mean PD by grade", "mean PD",
+                                             "observed default rate with its interval");
+  return figure(svg,
+                "Per grade: the mean PD of its obligors (square) and the observed default rate (dot) with "
+                "its " +
+                    level_text(kGradeIntervalLevel) +
+                    " Jeffreys interval (the 2.5% and 97.5% quantiles of Beta(d + 1/2, n - d + 1/2) for d "
+                    "defaults of n obligors, lower bound 0 when d = 0; Brown, Cai and DasGupta 2001; "
+                    "ECB instructions for reporting validation results). A square outside the whisker "
+                    "says the grade's PD does not match its defaults. Rates of 0 and values below 0.001% "
+                    "are drawn on the bottom edge.");
+}
+
+// The per-grade calibration table with the traffic lights.
+std::string grade_table(const ValidationRun& v) {
+  const CalibrationTests& cal = v.calibration;
+  HtmlTable t("fc-table fc-validation-grades",
+              {"grade", "obligors", "defaults", "mean PD", "default rate",
+               "default rate interval (" + level_text(kGradeIntervalLevel) + ", Jeffreys)", "binomial p",
+               "Jeffreys p", "light"});
+  for (std::size_t i = 0; i < cal.grades.size(); ++i) {
+    const GroupCalibration& g = cal.grades[i];
+    if (g.observations == 0) continue;
+    double lower = NAN, upper = NAN;
+    jeffreys_interval(static_cast<double>(g.defaults), static_cast<double>(g.observations),
+                      kGradeIntervalLevel, lower, upper);
+    t.row({v.grade_labels[i], count(g.observations), count(g.defaults), report_pd(g.mean_pd),
+           report_pd(g.default_rate), report_pd(lower) + " to " + report_pd(upper), fixed(g.binomial_p, 4),
+           fixed(g.jeffreys_p, 4), std::string(to_string(g.light))},
+          true, "fc-light-" + std::string(to_string(g.light)));
+  }
+  return t.str() +
+         "<p class=\"fc-note\">Traffic light on the one-sided binomial p-value: green p &gt; 5%, yellow "
+         "0.01% "
+         "&lt; p &#8804; 5%, red p &#8804; 0.01%.</p>\n";
+}
+
+// The grade migration matrix against the earlier sample (validate --against).
+std::string migration_table(const ValidationRun& v) {
+  const StabilityResult& s = *v.stability;
+  const std::size_t g = v.grade_labels.size();
+  std::vector<std::size_t> used;  // grades with obligors in either sample
+  for (std::size_t a = 0; a < g && a < s.actual.size(); ++a) {
+    if (s.actual[a] > 0 || s.expected[a] > 0) used.push_back(a);
+  }
+  std::vector<std::string> heads{"grade before \u2192 now"};
+  for (const std::size_t b : used) heads.push_back(v.grade_labels[b]);
+  heads.emplace_back("obligors in both");
+  HtmlTable t("fc-table fc-migration", heads);
+  for (const std::size_t a : used) {
+    std::vector<std::string> cells{v.grade_labels[a]};
+    std::size_t row_total = 0;
+    for (const std::size_t b : used) {
+      cells.push_back(count(s.migration[a * g + b]));
+      row_total += s.migration[a * g + b];
+    }
+    cells.push_back(count(row_total));
+    t.row(cells, true);
+  }
+  return "<h3>Grade migration against " + h(s.origin) + "</h3>\n<p class=\"fc-note\">Rows: the grade in " +
+         h(s.origin) + "; columns: the grade in " + h(v.origin) + "; " + h(count(s.matched)) +
+         " obligors in both samples (matched on id). Population stability index " + h(fixed(s.psi, 4)) +
+         " over the grades (docs/validation.md).</p>\n" + t.str();
+}
+
+// The validation section: discrimination cards, the ROC and CAP curves, calibration per grade
+// with intervals and traffic lights, and the migration matrix against an earlier sample.
 std::string validation_section(const ReportData& d) {
   const ValidationRun& v = *d.validation;
   const Discrimination& dis = v.discrimination;
@@ -725,7 +966,9 @@ std::string validation_section(const ReportData& d) {
       "validation", "Validation against observed defaults",
       "PD column '" + v.pd_column + "' of " + v.origin + ": " + count(dis.observations) + " observations, " +
           count(dis.defaults) + " defaults (default rate " + report_pd(cal.overall.default_rate) +
-          ", mean PD " + report_pd(cal.overall.mean_pd) + "). Formulas and sources in docs/validation.md.");
+          ", mean PD " + report_pd(cal.overall.mean_pd) +
+          "). The PDs are those of the outcomes file, not of the book above. Formulas and sources in "
+          "docs/validation.md.");
   out += "<div class=\"fc-cards\">\n";
   out += card("AUC", fixed(dis.auc, 4),
               "95% interval " + fixed(dis.auc_lower, 4) + " to " + fixed(dis.auc_upper, 4) + " (DeLong)");
@@ -737,37 +980,15 @@ std::string validation_section(const ReportData& d) {
   out += card("binomial p, all", fixed(cal.overall.binomial_p, 4),
               std::string("traffic light ") + std::string(to_string(cal.overall.light)));
   out += card("Brier score", fixed(cal.brier, 5), "mean of (PD - outcome) squared");
+  if (v.stability) {
+    out += card("PSI", fixed(v.stability->psi, 4), "population stability against " + v.stability->origin);
+  }
   out += "</div>\n";
-  SvgPlot plot({.label = "false alarm rate (share of non-defaulters called)", .min = 0, .max = 1},
-               {.label = "hit rate (share of defaulters called)", .min = 0, .max = 1}, "ROC curve", 560.0,
-               420.0);
-  std::vector<double> x, y;
-  for (const CurvePoint& c : d.roc) {
-    x.push_back(c.false_positive_rate);
-    y.push_back(c.hit_rate);
-  }
-  plot.line({0.0, 1.0}, {0.0, 1.0}, "fc-ref", "random ranking", false);
-  plot.line(x, y, "fc-s1", "PD " + v.pd_column, false);
-  plot.legend("fc-s1", "PD column " + v.pd_column + ", AUC " + fixed(dis.auc, 4));
-  plot.legend("fc-ref", "random ranking, AUC 0.5");
-  out +=
-      figure(plot.str(),
-             "Each point calls every obligor with a PD at or above a threshold a defaulter; the curve runs "
-             "from the highest threshold (bottom left) to the lowest (top right). ");
-  HtmlTable t("fc-table fc-validation-grades", {"grade", "obligors", "defaults", "mean PD", "default rate",
-                                                "binomial p", "Jeffreys p", "light"});
-  for (std::size_t i = 0; i < cal.grades.size(); ++i) {
-    const GroupCalibration& g = cal.grades[i];
-    if (g.observations == 0) continue;
-    t.row({v.grade_labels[i], count(g.observations), count(g.defaults), report_pd(g.mean_pd),
-           report_pd(g.default_rate), fixed(g.binomial_p, 4), fixed(g.jeffreys_p, 4),
-           std::string(to_string(g.light))},
-          true);
-  }
-  out += t.str();
-  out +=
-      "<p class=\"fc-note\">Traffic light on the one-sided binomial p-value: green p &gt; 5%, yellow 0.01% "
-      "&lt; p &#8804; 5%, red p &#8804; 0.01%.</p>\n";
+  out += roc_chart(d);
+  out += cap_chart(d);
+  out += grade_rate_chart(d);
+  out += grade_table(v);
+  if (v.stability && !v.stability->migration.empty()) out += migration_table(v);
   return out + "</section>\n";
 }
 
@@ -944,6 +1165,44 @@ footer { padding: 14px 36px 28px; color: var(--muted); font-size: 12px; }
 }
 )";
 
+// Rules used only by the validation section and the calibrated-PD header (kept out of pages
+// without them, which stay as they were).
+constexpr const char* kValidationStyle = R"(.fc-whisker { stroke: var(--ink); stroke-width: 1.4; }
+.fc-predicted { fill: var(--sand); stroke: var(--ink); stroke-width: 0.8; }
+.fc-observed { fill: var(--teal); stroke: #ffffff; stroke-width: 0.8; }
+.fc-light-yellow td:last-child { color: #8a6d00; font-weight: bold; }
+.fc-light-red td:last-child { color: var(--brick); font-weight: bold; }
+.fc-migration td:first-child { font-weight: bold; }
+)";
+constexpr const char* kDrivingStyle = R"(.fc-driving { margin: 10px 0 0; font-size: 13px; color: #f4f1e8; }
+.fc-driving code { font-size: 11.5px; word-break: break-all; }
+@media print { .fc-driving { color: var(--ink); } }
+)";
+
+// The header's statement of which PD drives and the horizon of each PD (with a calibration).
+std::string driving_statement(const ReportData& d) {
+  const CalibrationRecord& rec = *d.calibration;
+  const PdCalibration& c = rec.calibration;
+  const bool cal = d.options.driving_pd == DrivingPd::calibrated;
+  std::string out = "<p class=\"fc-driving\"><strong>Driving PD: ";
+  out += cal ? "calibrated one-year PD" : "model PD (Merton)";
+  out += "</strong> (grades, expected loss, the summary's PD figures, the ranking of the name tables";
+  out += d.portfolio ? ", and the portfolio section's loss distribution and IRB capital" : "";
+  out += "). Calibration " + h(d.options.pd_calibration_path) + ": " + h(to_string(c.method)) + ", " +
+         h(count(c.observations)) + " obligor-years with " + h(count(c.defaults)) + " defaults, as of " +
+         h(rec.as_of_first) + " to " + h(rec.as_of_last) + ", SHA-256 of its data <code>" +
+         h(rec.data_sha256) +
+         "</code>.<br/>Horizons: the model PD is over each obligor's own horizon (column 'horizon' of the "
+         "name tables); the calibrated PD is over one year, with its " +
+         h(level_text(c.confidence_level)) + " interval; grades are on one-year PDs (" +
+         (cal ? "the calibrated PD" : "the model PD converted to one year") +
+         "); expected loss is over each obligor's horizon" +
+         (cal ? " (1 - (1 - PD1)^T from the calibrated one-year PD1)" : "") +
+         ". The DD chart, stress, term structures and movers use the model PD; the validation section uses "
+         "the outcomes file's PDs.</p>\n";
+  return out;
+}
+
 }  // namespace
 
 std::string report_pd(double pd) {
@@ -991,18 +1250,76 @@ OptionCheck ReportOptions::validate() const {
   if (!against.empty() && store_path.empty()) {
     return OptionProblem{"against", against, "applies to the monitoring section: needs store_path"};
   }
+  if (!validation_against_path.empty() && validation_path.empty()) {
+    return OptionProblem{"validation_against_path", validation_against_path,
+                         "applies to the validation section: needs validation_path"};
+  }
+  if (driving_pd == DrivingPd::calibrated && pd_calibration_path.empty()) {
+    return OptionProblem{"driving_pd", "calibrated", "needs a PD calibration: needs pd_calibration_path"};
+  }
   return std::nullopt;
 }
+
+double driving_pd_of(const ReportData& d, std::size_t i) {
+  const ScoredObligor& s = d.scored[i];
+  if (s.status != RowStatus::ok) return NAN;
+  if (!calibrated_drives(d)) return s.measures.pd;
+  return pd_over_horizon(d.calibrated[i].pd, s.resolved.inputs.horizon_years);
+}
+
+int driving_grade_of(const ReportData& d, std::size_t i) {
+  const ScoredObligor& s = d.scored[i];
+  if (s.status != RowStatus::ok) return -1;
+  if (calibrated_drives(d)) return d.config.grades.index_of(d.calibrated[i].pd);
+  return d.config.grades.index_of_pd_at(s.measures.pd, s.resolved.inputs.horizon_years);
+}
+
+namespace {
+
+// The validation section's figures: every statistic of `firmcall validate` with its curves, and the
+// ROC and CAP curve thinned for the charts.
+void gather_validation(ReportData& d, const ReportOptions& options, const Config& config) {
+  OutcomeReadOptions read;
+  read.keep_ids = !options.validation_against_path.empty();
+  const OutcomeSample sample = load_outcomes(options.validation_path, read, config.grades);
+  std::unique_ptr<OutcomeSample> earlier;
+  if (read.keep_ids) {
+    earlier =
+        std::make_unique<OutcomeSample>(load_outcomes(options.validation_against_path, read, config.grades));
+  }
+  d.validation = std::make_unique<ValidationRun>(run_validation(sample, earlier.get(), true));
+  const std::vector<CurvePoint>& curve = d.validation->discrimination.curve;
+  const std::size_t step = std::max<std::size_t>(1, curve.size() / kRocChartPoints);
+  for (std::size_t k = 0; k < curve.size(); k += step) d.roc.push_back(curve[k]);
+  if (!curve.empty() && (curve.size() - 1) % step != 0) d.roc.push_back(curve.back());
+}
+
+}  // namespace
 
 ReportData gather_report(const ReportOptions& options, const Config& config) {
   ReportData d;
   d.options = options;
   d.config = config;
   d.book = load_book(options.book_path);
+  if (options.driving_pd == DrivingPd::calibrated && options.pd_calibration_path.empty()) {
+    throw OptionError("driving_pd", "calibrated needs a PD calibration");
+  }
+  if (!options.pd_calibration_path.empty()) {
+    d.calibration = std::make_unique<CalibrationRecord>(read_calibration(options.pd_calibration_path));
+  }
   const ScoreSettings& settings = config.score;
   d.scored.resize(d.book.obligors.size());
   for (std::size_t i = 0; i < d.book.obligors.size(); ++i) {
     score_obligor(d.book.obligors[i], d.book.defaults, settings, d.scored[i]);
+  }
+  if (d.calibration) {
+    // As score --pd-calibration: the calibration at the obligor's DD, NaN when it was not scored.
+    d.calibrated.resize(d.scored.size(), CalibratedPd{NAN, NAN, NAN, false});
+    for (std::size_t i = 0; i < d.scored.size(); ++i) {
+      if (d.scored[i].status == RowStatus::ok) {
+        d.calibrated[i] = d.calibration->calibration.evaluate(d.scored[i].measures.distance_to_default);
+      }
+    }
   }
   if (!options.term_ids.empty()) {
     TermOptionText choices;
@@ -1049,6 +1366,12 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     }
     PortfolioBookOptions ro;
     ro.threads = std::max(1U, options.threads);
+    if (calibrated_drives(d)) {
+      // IRB capital, expected loss and the loss distribution on the calibrated PD.
+      ro.pd_calibration = &d.calibration->calibration;
+      ro.pd_calibration_origin = options.pd_calibration_path;
+      ro.driving_pd = DrivingPd::calibrated;
+    }
     d.portfolio =
         std::make_unique<PortfolioResult>(run_portfolio(d.book, {}, "", correlation.get(), config, ro));
   }
@@ -1063,14 +1386,7 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     mon->comparison = compare_runs(mon->before, mon->now, config.grades, config.monitor.alerts);
     d.monitoring = std::move(mon);
   }
-  if (!options.validation_path.empty()) {
-    const OutcomeSample sample = load_outcomes(options.validation_path, {}, config.grades);
-    d.validation = std::make_unique<ValidationRun>(run_validation(sample, nullptr));
-    const std::vector<CurvePoint> curve = discrimination(sample.pd, sample.defaulted, true).curve;
-    const std::size_t step = std::max<std::size_t>(1, curve.size() / kRocChartPoints);
-    for (std::size_t k = 0; k < curve.size(); k += step) d.roc.push_back(curve[k]);
-    if (!curve.empty() && (curve.size() - 1) % step != 0) d.roc.push_back(curve.back());
-  }
+  if (!options.validation_path.empty()) gather_validation(d, options, config);
   return d;
 }
 
@@ -1081,7 +1397,8 @@ std::string html_report(const ReportData& d) {
   std::string out =
       "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n"
       "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\"/>\n<title>" +
-      h(title) + "</title>\n<style>" + kStyle +
+      h(title) + "</title>\n<style>" + kStyle + (d.validation ? kValidationStyle : "") +
+      (d.calibration ? kDrivingStyle : "") +
       "</style>\n</head>\n<body>\n<header class=\"fc-masthead\">\n<h1>" + h(title) +
       "</h1>\n<p class=\"fc-sub\">" + h(d.book.origin) +
       (d.book.as_of.empty() ? std::string() : " &#183; as of " + h(d.book.as_of)) + " &#183; " +
@@ -1090,6 +1407,7 @@ std::string html_report(const ReportData& d) {
       "estimates under stated assumptions (Merton 1974 and its extensions), not a credit decision on their "
       "own. "
       "Use them within your institution's model-risk policy and the regulation that applies to you.</p>\n";
+  if (d.calibration) out += driving_statement(d);
   struct Part {
     std::string id, title, missing;
     bool present;

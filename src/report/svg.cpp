@@ -4,6 +4,7 @@
 #include <cmath>
 #include <cstdio>
 
+#include "firmcall/format/cells.hpp"
 #include "firmcall/util/utf8.hpp"
 
 namespace firmcall {
@@ -273,6 +274,35 @@ void SvgPlot::line(const std::vector<double>& x, const std::vector<double>& y, s
            xml_escape(name) + "</title></polyline>\n" + marks;
 }
 
+void SvgPlot::exact_line(const std::vector<double>& x, const std::vector<double>& y,
+                         std::string_view css_class, std::string_view name) {
+  std::string pts;
+  for (std::size_t i = 0; i < x.size() && i < y.size(); ++i) {
+    if (!std::isfinite(x[i]) || !std::isfinite(y[i])) continue;
+    if (!pts.empty()) pts.push_back(' ');
+    append_number(pts, x[i]);
+    pts.push_back(',');
+    append_number(pts, y[i]);
+  }
+  if (pts.empty() || x_.log || y_.log || !(x_.max > x_.min) || !(y_.max > y_.min)) return;
+  // px(x) = e + a x and py(y) = f + d y on linear axes.
+  const double plot_w = width_ - left_ - right_, plot_h = height_ - top_ - bottom_;
+  const double a = plot_w / (x_.max - x_.min), d = -plot_h / (y_.max - y_.min);
+  const double e = left_ - a * x_.min, f = top_ + plot_h - d * y_.min;
+  std::string m = "matrix(";
+  append_number(m, a);
+  m += " 0 0 ";
+  append_number(m, d);
+  m.push_back(' ');
+  append_number(m, e);
+  m.push_back(' ');
+  append_number(m, f);
+  m.push_back(')');
+  body_ += "<polyline class=\"" + xml_escape(css_class) +
+           " fc-line\" vector-effect=\"non-scaling-stroke\" transform=\"" + m + "\" points=\"" + pts +
+           "\"><title>" + xml_escape(name) + "</title></polyline>\n";
+}
+
 void SvgPlot::vline(double x, std::string_view css_class, std::string_view label) {
   if (!std::isfinite(x)) return;
   const double X = px(x);
@@ -429,6 +459,75 @@ std::string svg_bar_chart(const std::vector<std::string>& categories, const std:
     for (const BarSeries& s : series) keys.emplace_back(s.css_class, s.name);
   }
   out += legend_block(keys, r - 4.0, t);
+  out += "</svg>\n";
+  return out;
+}
+
+namespace {
+
+std::string exact(double v) {
+  std::string s;
+  append_number(s, v);
+  return s;
+}
+
+}  // namespace
+
+std::string svg_interval_chart(const std::vector<std::string>& categories,
+                               const std::vector<IntervalMark>& marks, const std::string& x_label, SvgAxis y,
+                               const std::string& title, const std::string& predicted_name,
+                               const std::string& observed_name, double width, double height) {
+  const double l = 78.0, r = width - 24.0, t = 40.0, b = height - 56.0;
+  std::vector<double> all;
+  for (const IntervalMark& m : marks) all.insert(all.end(), {m.predicted, m.observed, m.lower, m.upper});
+  const double floor = y.log && y.min > 0.0 ? y.min : 1e-12;
+  fit_axis(y, all, !y.log, floor);
+  const auto py = [&](double v) { return b - (b - t) * axis_fraction(y, v); };
+  std::string out = frame(title, width, height, l, t, r, b);
+  const std::vector<double> yt = axis_ticks(y, 6);
+  const double ystep = yt.size() >= 2 ? yt[1] - yt[0] : 1.0;
+  for (const double v : yt) {
+    out += "<line class=\"fc-grid\" x1=\"" + num(l) + "\" y1=\"" + num(py(v)) + "\" x2=\"" + num(r) +
+           "\" y2=\"" + num(py(v)) + "\"/>\n<text class=\"fc-tick\" x=\"" + num(l - 6.0) + "\" y=\"" +
+           num(py(v) + 4.0) + "\" text-anchor=\"end\">" +
+           xml_escape(tick_label(v, y.format, y.log ? v : ystep)) + "</text>\n";
+  }
+  const double n = static_cast<double>(std::max<std::size_t>(1, categories.size()));
+  const double group = (r - l) / n;
+  for (std::size_t c = 0; c < categories.size() && c < marks.size(); ++c) {
+    const IntervalMark& m = marks[c];
+    const double x = l + group * (static_cast<double>(c) + 0.5);
+    out += "<g class=\"fc-interval-mark\" data-category=\"" + xml_escape(categories[c]) +
+           "\" data-predicted=\"" + exact(m.predicted) + "\" data-observed=\"" + exact(m.observed) +
+           "\" data-lower=\"" + exact(m.lower) + "\" data-upper=\"" + exact(m.upper) + "\">\n<title>" +
+           xml_escape(m.tooltip) + "</title>\n";
+    if (std::isfinite(m.lower) && std::isfinite(m.upper)) {
+      const double y0 = py(m.lower), y1 = py(m.upper);
+      out += "<line class=\"fc-whisker\" x1=\"" + num(x) + "\" y1=\"" + num(y0) + "\" x2=\"" + num(x) +
+             "\" y2=\"" + num(y1) + "\"/>\n";
+      for (const double yy : {y0, y1}) {
+        out += "<line class=\"fc-whisker\" x1=\"" + num(x - 5.0) + "\" y1=\"" + num(yy) + "\" x2=\"" +
+               num(x + 5.0) + "\" y2=\"" + num(yy) + "\"/>\n";
+      }
+    }
+    if (std::isfinite(m.predicted)) {
+      out += "<rect class=\"fc-predicted\" x=\"" + num(x - 12.0) + "\" y=\"" + num(py(m.predicted) - 4.0) +
+             "\" width=\"8\" height=\"8\"/>\n";
+    }
+    if (std::isfinite(m.observed)) {
+      out += "<circle class=\"fc-observed\" cx=\"" + num(x) + "\" cy=\"" + num(py(m.observed)) +
+             "\" r=\"4.5\"/>\n";
+    }
+    out += "</g>\n<text class=\"fc-tick\" x=\"" + num(x) + "\" y=\"" + num(b + 16.0) +
+           "\" text-anchor=\"middle\">" + xml_escape(categories[c]) + "</text>\n";
+  }
+  out += "<path class=\"fc-axis\" d=\"M" + num(l) + " " + num(t) + " V" + num(b) + " H" + num(r) + "\"/>\n";
+  out += "<text class=\"fc-axis-title\" x=\"" + num((l + r) / 2) + "\" y=\"" + num(height - 12.0) +
+         "\" text-anchor=\"middle\">" + xml_escape(x_label) + "</text>\n";
+  out += "<text class=\"fc-axis-title\" transform=\"translate(16 " + num((t + b) / 2) +
+         ") rotate(-90)\" text-anchor=\"middle\">" + xml_escape(y.label) + "</text>\n";
+  // Bottom right: weak grades (right) sit high, strong ones (left) low.
+  out += legend_block({{"fc-predicted", predicted_name}, {"fc-observed", observed_name}}, r - 4.0, b - 44.0);
   out += "</svg>\n";
   return out;
 }

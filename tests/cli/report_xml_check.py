@@ -40,8 +40,8 @@ def main():
         failures.append(f"page is not well-formed XML: {e}")
         root = None
     svgs = re.findall(r"<svg\b.*?</svg>", text, flags=re.S)
-    if len(svgs) != 10:  # nine, and the ROC curve of the validation section
-        failures.append(f"expected 10 charts in the full sample run, found {len(svgs)}")
+    if len(svgs) != 12:  # nine, and the ROC, CAP and per-grade charts of the validation section
+        failures.append(f"expected 12 charts in the full sample run, found {len(svgs)}")
     for i, svg in enumerate(svgs):
         try:
             chart = ET.fromstring(svg)

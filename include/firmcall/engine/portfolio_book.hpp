@@ -80,7 +80,7 @@ struct PortfolioObligor {
   /// The PD over the horizon behind expected loss and the loss distribution: pd, or with the
   /// calibrated PD driving, 1 - (1 - pd_calibrated)^T.
   double pd_driving = 0.0;
-  bool irb_on_calibrated = false;  ///< the IRB PD is pd_calibrated (a calibration was given)
+  bool irb_on_calibrated = false;  ///< the IRB PD is pd_calibrated (the calibrated PD drives)
   bool ok() const noexcept { return status == PortfolioStatus::ok; }
   /// The IRB PD's basis: "model" (a one-year model PD, used as it is), "model_converted" (a PD
   /// over another horizon converted with pd_one_year) or "calibrated" (the calibrated one-year

@@ -8,8 +8,12 @@
 //   term        cumulative PD term structures of chosen names (--names; engine/term_book.hpp)
 //   portfolio   exact one-factor loss distribution: EL, VaR, ES (--portfolio; engine/portfolio_book.hpp)
 //   monitoring  movers and alerts between two recorded runs (--db; monitor/movers.hpp)
-//   validation  AUC, ROC curve and calibration per grade on an outcomes file (--validate;
-//               engine/validate_book.hpp)
+//   validation  AUC, ROC and CAP curves, observed against predicted default rate per grade with
+//               Jeffreys intervals, the traffic lights, and the grade migration matrix against an
+//               earlier sample (--validate, --validate-against; engine/validate_book.hpp)
+// With a PD calibration (--pd-calibration) the name tables show each obligor's calibrated one-year
+// PD beside the model PD, and the driving PD (engine/driving_pd.hpp) sets the grades, expected
+// loss and the portfolio section; the header says which PD drives and the horizon of each PD.
 // The figures come from the same library calls as the score, stress, portfolio and movers commands,
 // and the tables use the table output's rounding, so they can be checked against their CSV output.
 // The page is XHTML-compatible (every element closed, attributes quoted, text escaped) and prints
@@ -29,11 +33,13 @@
 #include <vector>
 
 #include "firmcall/book/settings.hpp"
+#include "firmcall/engine/driving_pd.hpp"
 #include "firmcall/engine/portfolio_book.hpp"
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/engine/stress_book.hpp"
 #include "firmcall/engine/term_book.hpp"
 #include "firmcall/engine/validate_book.hpp"
+#include "firmcall/io/calibration_io.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/scenario.hpp"
 #include "firmcall/monitor/movers.hpp"
@@ -54,13 +60,17 @@ struct ReportOptions {
   std::string store_run;                      ///< run of the store to show ("" the latest)
   std::string against;                        ///< run to compare with ("" the one before)
   std::string validation_path;                ///< outcomes file; empty: no validation section
+  std::string validation_against_path;        ///< earlier outcomes file: migration and stability
+  std::string pd_calibration_path;            ///< calibration file; empty: model PDs only
+  DrivingPd driving_pd = DrivingPd::model;    ///< calibrated needs pd_calibration_path
   std::size_t top = 10;                       ///< rows of the name tables
   unsigned threads = 1;                       ///< worker threads of the portfolio run
   std::string title;                          ///< page title; empty: from the book's label
   std::string tool_version;                   ///< shown in the page's footer
   /// A book; no id twice in term_ids (gather_report refuses it); correlation_path only with
-  /// portfolio, store_run and against only with store_path (`firmcall report` refuses them
-  /// otherwise). threads 0 is read as 1; horizons are checked when the term section is gathered.
+  /// portfolio, store_run and against only with store_path, validation_against_path only with
+  /// validation_path, driving_pd calibrated only with pd_calibration_path (`firmcall report`
+  /// refuses them otherwise). threads 0 is read as 1; horizons are checked when the term section is gathered.
   OptionCheck validate() const;
 };
 
@@ -94,13 +104,25 @@ struct ReportData {
   std::vector<TermScoredObligor> terms;  ///< one per chosen name
   std::unique_ptr<PortfolioResult> portfolio;
   std::unique_ptr<ReportMonitoring> monitoring;
-  std::unique_ptr<ValidationRun> validation;
-  std::vector<CurvePoint> roc;  ///< the ROC curve of the validation, thinned for the chart
+  std::unique_ptr<ValidationRun> validation;  ///< with the ROC and CAP curve (discrimination.curve)
+  std::vector<CurvePoint> roc;  ///< the ROC and CAP curve of the validation, thinned for the charts
+  std::unique_ptr<CalibrationRecord> calibration;  ///< the PD calibration (--pd-calibration)
+  std::vector<CalibratedPd> calibrated;            ///< with a calibration: per obligor (NaN when not scored)
 };
+
+/// Level of the Jeffreys intervals of the observed default rates in the validation section.
+inline constexpr double kGradeIntervalLevel = 0.95;
+
+/// The PD that drives obligor i's expected loss, over its own horizon: the model PD, or with the
+/// calibrated PD driving 1 - (1 - PD1)^T (pd_over_horizon); NaN when it was not scored.
+double driving_pd_of(const ReportData& data, std::size_t i);
+/// Obligor i's grade index on the driving one-year PD; -1 when it has none.
+int driving_grade_of(const ReportData& data, std::size_t i);
 
 /// Reads the inputs and computes every section asked for. InputError (exit code 2) naming the file,
 /// option or obligor for an unreadable or malformed file, an id of --names not in the book, a bad
-/// horizon list, or a store that cannot be read or has fewer than two runs to compare.
+/// horizon list, a calibration file that is not a valid calibration, or a store that cannot be
+/// read or has fewer than two runs to compare.
 ReportData gather_report(const ReportOptions& options, const Config& config);
 
 /// The whole HTML page.

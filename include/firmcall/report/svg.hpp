@@ -65,6 +65,11 @@ class SvgPlot {
   /// non-finite points are skipped.
   void line(const std::vector<double>& x, const std::vector<double>& y, std::string_view css_class,
             std::string_view name, bool markers = true);
+  /// A polyline through (x[i], y[i]) written in the axes' own units (both axes linear): the points
+  /// are the values themselves in shortest round-trip form, placed on the plot by a transform, so
+  /// a reader of the page gets the curve exactly; drawn without markers, not held to the axes.
+  void exact_line(const std::vector<double>& x, const std::vector<double>& y, std::string_view css_class,
+                  std::string_view name);
   /// A vertical marker at x with a label at its top.
   void vline(double x, std::string_view css_class, std::string_view label);
   /// A horizontal reference line at y with a label at its right end.
@@ -111,6 +116,25 @@ std::string svg_bar_chart(const std::vector<std::string>& categories, const std:
 std::string svg_signed_bars(const std::vector<std::string>& categories, const std::vector<double>& values,
                             const std::vector<std::string>& value_labels, SvgAxis x, const std::string& title,
                             bool positive_is_worse = true, double width = 720.0);
+
+/// One category of an interval chart: a predicted value, an observed value and its interval.
+struct IntervalMark {
+  double predicted = 0.0;
+  double observed = 0.0;
+  double lower = 0.0;
+  double upper = 0.0;
+  std::string tooltip;
+};
+
+/// One column per category on a y axis (log or linear): a square at the predicted value, a dot at
+/// the observed value and a whisker from lower to upper. Values below a log axis are drawn on its
+/// bottom edge. Each category is a group (class fc-interval-mark) carrying its values in
+/// shortest round-trip form (data-category, data-predicted, data-observed, data-lower,
+/// data-upper), so the exact figures can be read off the page.
+std::string svg_interval_chart(const std::vector<std::string>& categories,
+                               const std::vector<IntervalMark>& marks, const std::string& x_label, SvgAxis y,
+                               const std::string& title, const std::string& predicted_name,
+                               const std::string& observed_name, double width = 720.0, double height = 400.0);
 
 /// `v` with `decimals` decimals and commas between thousands: 1234567.5 -> "1,234,567.50".
 std::string group_thousands(double v, int decimals);

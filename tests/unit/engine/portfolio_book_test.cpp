@@ -438,7 +438,7 @@ double basel_corporate_capital(double pd, double lgd, double ead, double maturit
 
 }  // namespace
 
-TEST_CASE("with a calibration the calibrated one-year PD drives IRB capital, and EL when chosen") {
+TEST_CASE("with a calibration the driving PD sets IRB capital and EL: calibrated or model") {
   const Book book = parse_yaml_book(kBook, "b.yaml");
   const CalibrationRecord cal = parse_calibration(kLogisticCalibration, "cal.yaml");
   Config five;
@@ -460,9 +460,13 @@ TEST_CASE("with a calibration the calibrated one-year PD drives IRB capital, and
       // Ref: the logistic function of the calibration file (common practice for a logistic fit).
       const double pd1 = 1.0 / (1.0 + std::exp(-(-1.5 - 0.9 * s.measures.distance_to_default)));
       CHECK(o.pd_calibrated == doctest::Approx(pd1).epsilon(1e-13));
-      CHECK(o.irb_pd_basis() == "calibrated");
-      CHECK(o.irb.pd == doctest::Approx(std::max(pd1, 0.0003)).epsilon(1e-13));
-      const double k = basel_corporate_capital(std::max(pd1, 0.0003), o.lgd, o.ead, o.maturity_years);
+      // The IRB PD is the driving one-year PD: calibrated, or the model PD over one year,
+      // 1 - (1 - PD)^(1/T) (constant annual intensity, common practice).
+      const bool cal_drives = driving == DrivingPd::calibrated;
+      const double irb_pd1 = cal_drives ? pd1 : 1.0 - std::pow(1.0 - o.pd, 1.0 / 5.0);
+      CHECK(o.irb_pd_basis() == (cal_drives ? "calibrated" : "model_converted"));
+      CHECK(o.irb.pd == doctest::Approx(std::max(irb_pd1, 0.0003)).epsilon(1e-12));
+      const double k = basel_corporate_capital(std::max(irb_pd1, 0.0003), o.lgd, o.ead, o.maturity_years);
       CHECK(o.irb.capital == doctest::Approx(k).epsilon(1e-10));
       capital += k;
       // Constant annual intensity (common practice): PD over 5 years = 1 - (1 - PD1)^5.
@@ -471,16 +475,19 @@ TEST_CASE("with a calibration the calibrated one-year PD drives IRB capital, and
       CHECK(o.expected_loss == doctest::Approx(pd_t * o.lgd * o.ead).epsilon(1e-12));
     }
     CHECK(base.total.irb_capital == doctest::Approx(capital).epsilon(1e-10));
-    CHECK(r.pd_converted == 0);
+    CHECK(r.pd_converted == (driving == DrivingPd::model ? base.included : 0));
     if (driving == DrivingPd::model) {
-      // Ref: the same run without a calibration (our own baseline, not a value): EL and the exact
-      // distribution do not move when the model PD drives them.
+      // Ref: the same run without a calibration (our own baseline, not a value): EL, the exact
+      // distribution and IRB capital do not move when the model PD drives them.
       const PortfolioResult plain = run(book, nullptr, {}, {}, five);
       CHECK(base.total.expected_loss == plain.scenarios.front().total.expected_loss);
       CHECK(base.exact.tails.back().es == plain.scenarios.front().exact.tails.back().es);
+      CHECK(base.total.irb_capital == plain.scenarios.front().total.irb_capital);
     }
     const std::string json = written(r, book, OutputFormat::json);
-    CHECK(json.find("\"irb_pd_basis\": \"calibrated\"") != std::string::npos);
+    CHECK(json.find(driving == DrivingPd::calibrated
+                        ? "\"irb_pd_basis\": \"calibrated\""
+                        : "\"irb_pd_basis\": \"model_converted\"") != std::string::npos);
     CHECK(json.find("\"driving_pd\": \"" + std::string(to_string(driving)) + "\"") != std::string::npos);
     const std::string table = written(r, book, OutputFormat::table);
     CHECK(table.find("Driving PD: " + std::string(to_string(driving))) != std::string::npos);

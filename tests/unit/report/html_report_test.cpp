@@ -135,8 +135,9 @@ TEST_CASE("report on the full sample run: exit code, every section, nothing fetc
     CHECK(fig.find("fc-axis-title") != std::string::npos);
     CHECK(fig.find("not a credit decision on their own") != std::string::npos);
   }
-  // grades, DD/leverage, PD by scenario, 3 per-scenario changes, term, loss distribution, movers, ROC.
-  CHECK(charts == 10);
+  // grades, DD/leverage, PD by scenario, 3 per-scenario changes, term, loss distribution, movers,
+  // ROC, CAP and default rate by grade.
+  CHECK(charts == 12);
   CHECK(f.html.find("Model caution.") != std::string::npos);
   // The store holds the weekly books, not the demo book: the movers section says so.
   CHECK(f.html.find("The store's runs are of samples/weekly/week4.yaml (Harbourline credit desk - weekly "
@@ -340,6 +341,18 @@ TEST_CASE("report refuses bad input with exit code 2 and writes nothing") {
       {"samples/demo_book.yaml --db '" + t.file("missing.sqlite") + "'", "missing.sqlite"},
       {"samples/demo_book.yaml --db samples/demo_book.yaml", "samples/demo_book.yaml"},
       {"samples/demo_book.yaml --correlation samples/sector_correlations.yaml", "give --portfolio"},
+      // As score: a calibration that cannot be read is named; the calibrated PD needs a calibration.
+      {"samples/demo_book.yaml --pd-calibration samples/no_such_calibration.yaml",
+       "samples/no_such_calibration.yaml"},
+      {"samples/demo_book.yaml --pd-calibration '" + t.write("bad_cal.yaml", "firmcall_calibration: 1\n") +
+           "'",
+       "bad_cal.yaml"},
+      {"samples/demo_book.yaml --pd-calibration samples/outcomes.csv", "samples/outcomes.csv"},
+      {"samples/demo_book.yaml --driving-pd calibrated", "--driving-pd calibrated: needs --pd-calibration"},
+      {"samples/demo_book.yaml --pd-calibration samples/calibration.yaml --driving-pd neither",
+       "--driving-pd"},
+      {"samples/demo_book.yaml --validate-against samples/outcomes.csv",
+       "--validate-against: applies to the validation section; give --validate"},
   };
   for (const Case& c : cases) {
     CAPTURE(c.args);
@@ -348,6 +361,7 @@ TEST_CASE("report refuses bad input with exit code 2 and writes nothing") {
     CHECK(r.err.find(c.message) != std::string::npos);
     CHECK_FALSE(std::filesystem::exists(out));
   }
+  std::filesystem::remove(t.file("bad_cal.yaml"));
   // A store with one run has nothing to compare; an earlier page is left as it was.
   t.write("r.html", "earlier page");
   const auto rec =
@@ -359,6 +373,160 @@ TEST_CASE("report refuses bad input with exit code 2 and writes nothing") {
   CHECK(read_file(out) == "earlier page");
   const auto dir = std::filesystem::directory_iterator(t.path);
   CHECK(std::distance(std::filesystem::begin(dir), std::filesystem::end(dir)) == 2);  // no temporary left
+}
+
+TEST_CASE("report --pd-calibration: the portfolio section and expected loss follow the calibrated PD") {
+  TempDir t;
+  const auto r = run_firmcall(
+      "-q report samples/demo_book.yaml --pd-calibration samples/calibration.yaml --portfolio --top 1000 "
+      "--html '" +
+      t.file("r.html") + "'");
+  REQUIRE(r.exit_code == 0);
+  const std::string html = read_file(t.file("r.html"));
+  // The header states the driving PD and the calibration's origin.
+  CHECK(html.find("<strong>Driving PD: calibrated one-year PD</strong>") != std::string::npos);
+  CHECK(html.find(
+            "Calibration samples/calibration.yaml: logistic, 7,621 obligor-years with 186 defaults, as of "
+            "2019-12-31 to 2023-12-31") != std::string::npos);
+  // portfolio --pd-calibration (the calibrated PD drives by default): VaR and ES of the exact
+  // distribution, and each obligor's expected loss PD x LGD x EAD on the calibrated PD.
+  const auto pf = run_firmcall(
+      "-q portfolio samples/demo_book.yaml --pd-calibration samples/calibration.yaml -f csv "
+      "-o '" +
+      t.file("p.csv") + "' --summary-output '" + t.file("s.csv") + "'");
+  REQUIRE(pf.exit_code == 0);
+  const CsvTable ps = parse_csv_table(read_file(t.file("s.csv")));
+  std::size_t levels = 0;
+  for (std::size_t i = 0; i < ps.rows.size(); ++i) {
+    if (ps.cell(i, "scenario") != "base" || ps.cell(i, "group_by") != "total") continue;
+    if (ps.cell(i, "method") == "irb" && ps.cell(i, "measure") == "capital") {
+      CHECK(html.find("Basel IRB capital on the calibrated one-year PDs " +
+                      fmt("%.2f", ps.number(i, "value"))) != std::string::npos);
+    }
+    if (ps.cell(i, "method") != "exact_one_factor" ||
+        (ps.cell(i, "measure") != "var" && ps.cell(i, "measure") != "es")) {
+      continue;
+    }
+    const std::string level = fmt("%g%%", 100.0 * ps.number(i, "confidence_level"));
+    CAPTURE(level);
+    const auto cells = table_row(html, "fc-portfolio-levels", level);
+    CHECK(cells[ps.cell(i, "measure") == "var" ? 1 : 2] == fmt("%.2f", ps.number(i, "value")));
+    ++levels;
+  }
+  CHECK(levels == 6);
+  const CsvTable po = parse_csv_table(read_file(t.file("p.csv")));
+  std::size_t obligors = 0;
+  for (std::size_t i = 0; i < po.rows.size(); ++i) {
+    if (po.cell(i, "status") != "ok") continue;
+    const std::string id = po.cell(i, "id");
+    const std::string marker =
+        html.find("<td>" + id + "</td>", html.find("fc-names-weak")) < html.find("fc-names-strong")
+            ? "fc-names-weak"
+            : "fc-names-strong";
+    const auto cells = table_row(html, marker, id);
+    REQUIRE(cells.size() == 15);
+    CAPTURE(id);
+    // EL = PD_T LGD EAD with PD_T = 1 - (1 - PD1)^T (constant annual default intensity, from memory).
+    const double pd_t = -std::expm1(po.number(i, "horizon") * std::log1p(-po.number(i, "pd_calibrated")));
+    CHECK(std::fabs(pd_t - po.number(i, "pd_driving")) <= 1e-15);
+    CHECK(cells[14] == fmt("%.2f", po.number(i, "expected_loss")));
+    CHECK(cells[7] == table_pd(po.number(i, "pd_calibrated")));
+    CHECK(cells[6] == table_pd(po.number(i, "pd")));
+    ++obligors;
+  }
+  CHECK(obligors == 36);
+  // --driving-pd model: the grades and the portfolio are those of a run without a calibration.
+  const auto m = run_firmcall(
+      "-q report samples/demo_book.yaml --pd-calibration samples/calibration.yaml --driving-pd model "
+      "--portfolio "
+      "--html '" +
+      t.file("m.html") + "'");
+  REQUIRE(m.exit_code == 0);
+  const auto plain =
+      run_firmcall("-q report samples/demo_book.yaml --portfolio --html '" + t.file("n.html") + "'");
+  REQUIRE(plain.exit_code == 0);
+  const std::string model = read_file(t.file("m.html")), none = read_file(t.file("n.html"));
+  CHECK(model.find("<strong>Driving PD: model PD (Merton)</strong>") != std::string::npos);
+  CHECK(none.find("Driving PD") == std::string::npos);
+  const auto section = [](const std::string& page, const std::string& id) {
+    const std::size_t p = page.find("<section id=\"" + id + "\"");
+    return page.substr(p, page.find("</section>", p) - p);
+  };
+  CHECK(section(model, "portfolio") == section(none, "portfolio"));
+  CHECK(section(model, "summary") == section(none, "summary"));
+}
+
+TEST_CASE("report --validate-against: the migration matrix and PSI equal validate --against") {
+  TempDir t;
+  // An earlier sample: the first 500 rows of the outcomes file with every PD halved.
+  const CsvTable now = parse_csv_table(read_file(std::string(FIRMCALL_SOURCE_DIR) + "/samples/outcomes.csv"));
+  std::string earlier = "id,pd,defaulted\n";
+  for (std::size_t i = 0; i < 500; ++i) {
+    earlier += now.cell(i, "id") + "," + fmt("%.17g", 0.5 * now.number(i, "pd")) + "," +
+               now.cell(i, "defaulted") + "\n";
+  }
+  const std::string path = t.write("earlier.csv", earlier);
+  const auto r =
+      run_firmcall("-q report samples/demo_book.yaml --validate samples/outcomes.csv --validate-against '" +
+                   path + "' --html '" + t.file("r.html") + "'");
+  REQUIRE(r.exit_code == 0);
+  const std::string html = read_file(t.file("r.html"));
+  const auto v = run_firmcall("-q validate samples/outcomes.csv --against '" + path + "' -f csv");
+  REQUIRE(v.exit_code == 0);
+  const CsvTable vc = parse_csv_table(v.out);
+  for (std::size_t i = 0; i < vc.rows.size(); ++i) {
+    if (vc.cell(i, "statistic") == "psi") {
+      CHECK(html.find("Population stability index " + fmt("%.4f", vc.number(i, "value"))) !=
+            std::string::npos);
+    }
+    if (vc.cell(i, "statistic") == "matched") CHECK(vc.number(i, "value") == 500.0);
+  }
+  CHECK(html.find(" 500 obligors in both samples (matched on id)") != std::string::npos);
+  // Halving a PD moves an obligor at most one or two grades up the master scale; the matrix rows
+  // add up to the 500 matched obligors (counted by hand from the table).
+  const std::size_t table = html.find("<table class=\"fc-table fc-migration\">");
+  REQUIRE(table != std::string::npos);
+  std::size_t total = 0;
+  const std::size_t end = html.find("</table>", table);
+  for (std::size_t p = html.find("<tr><td>", table); p < end; p = html.find("<tr><td>", p + 1)) {
+    const std::size_t last = html.rfind("<td class=\"fc-num\">", html.find("</tr>", p)) + 19;
+    total += std::stoul(html.substr(last, html.find("</td>", last) - last));
+  }
+  CHECK(total == 500);
+}
+
+TEST_CASE("svg writer: exact lines carry their values, interval charts their figures") {
+  firmcall::SvgPlot plot({.label = "x", .min = 0, .max = 1}, {.label = "y", .min = 0, .max = 2}, "t", 600.0,
+                         300.0);
+  plot.exact_line({0.0, 0.25, 1.0}, {0.0, 0.1, 2.0}, "fc-s1", "curve");
+  const std::string svg = plot.str();
+  CHECK(svg.find("points=\"0,0 0.25,0.10000000000000001 1,2\"") != std::string::npos);
+  // matrix(a 0 0 d e f) maps (x, y) to (a x + e, d y + f): the plot's own px and py.
+  const std::size_t m = svg.find("transform=\"matrix(");
+  REQUIRE(m != std::string::npos);
+  double a = 0, b = 0, c = 0, d = 0, e = 0, f = 0;
+  REQUIRE(std::sscanf(svg.c_str() + m + 18, "%lf %lf %lf %lf %lf %lf", &a, &b, &c, &d, &e, &f) == 6);
+  CHECK(b == 0.0);
+  CHECK(c == 0.0);
+  for (const double x : {0.0, 0.3, 1.0}) CHECK(a * x + e == doctest::Approx(plot.px(x)).epsilon(1e-12));
+  for (const double y : {0.0, 0.7, 2.0}) CHECK(d * y + f == doctest::Approx(plot.py(y)).epsilon(1e-12));
+  // A log axis has no affine map: nothing is drawn.
+  firmcall::SvgPlot logp({.label = "x", .min = 0, .max = 1},
+                         {.label = "y", .min = 1e-4, .max = 1, .log = true}, "t");
+  logp.exact_line({0.0, 1.0}, {0.001, 0.1}, "fc-s1", "curve");
+  CHECK(logp.str().find("<polyline") == std::string::npos);
+
+  const std::string chart = firmcall::svg_interval_chart(
+      {"A", "B&C"}, {{0.01, 0.02, 0.005, 0.05, "first"}, {0.2, 0.0, 0.0, 0.3, "second"}}, "grade",
+      {.label = "rate", .min = 1e-4, .max = 1, .log = true, .format = firmcall::TickFormat::percent}, "title",
+      "mean PD", "observed");
+  CHECK(chart.find("<g class=\"fc-interval-mark\" data-category=\"A\" data-predicted=\"0.01\" "
+                   "data-observed=\"0.02\" data-lower=\"0.0050000000000000001\" "
+                   "data-upper=\"0.050000000000000003\">") != std::string::npos);
+  CHECK(chart.find("data-category=\"B&amp;C\"") != std::string::npos);
+  CHECK(chart.find("<title>second</title>") != std::string::npos);
+  CHECK(chart.find("class=\"fc-whisker\"") != std::string::npos);
+  CHECK(chart.find("mean PD") != std::string::npos);
 }
 
 TEST_CASE("svg writer: escaping, ticks, labels and number formats") {
@@ -439,5 +607,18 @@ TEST_CASE("ReportOptions::validate: a book is enough; each rule of the sections 
   CHECK(problem->constraint == "applies to the monitoring section: needs store_path");
   o.store_path = "weekly.sqlite";
   o.store_run = "3";
+  CHECK_FALSE(o.validate().has_value());
+  o.validation_against_path = "earlier.csv";
+  problem = o.validate();
+  REQUIRE(problem.has_value());
+  CHECK(problem->field == "validation_against_path");
+  CHECK(problem->constraint == "applies to the validation section: needs validation_path");
+  o.validation_path = "outcomes.csv";
+  CHECK_FALSE(o.validate().has_value());
+  o.driving_pd = firmcall::DrivingPd::calibrated;
+  problem = o.validate();
+  REQUIRE(problem.has_value());
+  CHECK(problem->field == "driving_pd");
+  o.pd_calibration_path = "calibration.yaml";
   CHECK_FALSE(o.validate().has_value());
 }
