@@ -446,22 +446,31 @@ struct ScenarioPds {
 
 ScenarioPds scenario_pds(const ReportStress& st) {
   ScenarioPds p;
+  const DrivingPd driving = st.summary.driving_pd;
   if (!st.summary.scenarios.empty()) {
-    p.add(st.summary.scenarios.front().ead_weighted_pd, st.summary.scenarios.front().mean_pd);
+    const ScenarioPdFigures f = driving_figures(st.summary.scenarios.front(), driving);
+    p.add(f.ead_weighted_pd, f.mean_pd);
   }
   for (std::size_t k = 0; k < st.scenarios.size() && k < st.summary.scenarios.size(); ++k) {
     p.categories.push_back(st.scenarios[k].name);
-    p.add(st.summary.scenarios[k].ead_weighted_pd_stressed, st.summary.scenarios[k].mean_pd_stressed);
+    const ScenarioPdFigures f = driving_figures(st.summary.scenarios[k], driving);
+    p.add(f.ead_weighted_pd_stressed, f.mean_pd_stressed);
   }
   return p;
 }
 
-std::string scenario_pd_chart(const ScenarioPds& p) {
+// The PD the stress section shows: the model PD over the obligor's horizon, or with the
+// calibrated PD driving the calibrated one-year PD of the DD.
+std::string stress_pd_name(const ReportStress& st) {
+  return st.summary.driving_pd == DrivingPd::calibrated ? "calibrated one-year PD" : "model PD";
+}
+
+std::string scenario_pd_chart(const ScenarioPds& p, const std::string& pd_name) {
   SvgAxis y{.label = "PD (percent)", .min = 0, .max = 1, .log = false, .format = TickFormat::percent};
   return figure(svg_bar_chart(p.categories,
                               {{"exposure-weighted PD", "fc-bar-base", p.weighted, p.weighted_labels},
                                {"mean PD", "fc-bar-alt", p.mean, p.mean_labels}},
-                              "scenario", y, "PD of the book by scenario"),
+                              "scenario", y, "PD of the book by scenario (" + pd_name + ")"),
                 "The first group is the book as it stands; each further group is the same book under one "
                 "scenario. Exposure-weighted PD (sum of EAD x PD over sum of EAD) tracks where the money is; "
                 "the mean PD treats every name alike.");
@@ -476,10 +485,10 @@ std::string scenario_summary_table(const ReportData& d) {
                "EAD-weighted PD stressed", above + " base", above + " stressed", "expected loss base",
                "expected loss stressed"});
   for (std::size_t k = 0; k < st.scenarios.size() && k < st.summary.scenarios.size(); ++k) {
-    const ScenarioSummary& s = st.summary.scenarios[k];
-    t.row({st.scenarios[k].name, count(s.compared), report_pd(s.mean_pd), report_pd(s.mean_pd_stressed),
-           report_pd(s.ead_weighted_pd), report_pd(s.ead_weighted_pd_stressed), count(s.above_threshold),
-           count(s.above_threshold_stressed), report_amount(s.expected_loss),
+    const ScenarioPdFigures s = driving_figures(st.summary.scenarios[k], st.summary.driving_pd);
+    t.row({st.scenarios[k].name, count(st.summary.scenarios[k].compared), report_pd(s.mean_pd),
+           report_pd(s.mean_pd_stressed), report_pd(s.ead_weighted_pd), report_pd(s.ead_weighted_pd_stressed),
+           count(s.above_threshold), count(s.above_threshold_stressed), report_amount(s.expected_loss),
            report_amount(s.expected_loss_stressed)},
           true);
   }
@@ -492,9 +501,21 @@ std::string scenario_summary_table(const ReportData& d) {
   return out + "</ul>\n";
 }
 
+// PD of book obligor i as it stands in the stress section (stress_pd_name).
+double base_stress_pd(const ReportData& d, std::size_t i) {
+  return calibrated_drives(d) ? d.calibrated[i].pd : d.scored[i].measures.pd;
+}
+
+// PD of book obligor i under scenario k in the stress section (stress_pd_name).
+double stressed_pd(const ReportData& d, std::size_t k, std::size_t i) {
+  const StressedObligor& r = d.stress->rows[k][i];
+  if (!calibrated_drives(d)) return r.measures.pd;
+  return d.calibration->calibration.evaluate(r.measures.distance_to_default).pd;
+}
+
 // PD change of book obligor i under scenario k.
 double stressed_pd_change(const ReportData& d, std::size_t k, std::size_t i) {
-  return d.stress->rows[k][i].measures.pd - d.scored[i].measures.pd;
+  return stressed_pd(d, k, i) - base_stress_pd(d, i);
 }
 
 // Book positions of the obligors whose PD scenario k moved, largest change first, at most `shown`.
@@ -503,7 +524,7 @@ std::vector<std::size_t> largest_pd_changes(const ReportData& d, std::size_t k, 
   std::vector<std::size_t> idx;
   for (std::size_t i = 0; i < rows.size(); ++i) {
     if (rows[i].status == StressStatus::ok && d.scored[i].status == RowStatus::ok && rows[i].shocked() &&
-        rows[i].measures.pd != d.scored[i].measures.pd) {
+        stressed_pd(d, k, i) != base_stress_pd(d, i)) {
       idx.push_back(i);
     }
   }
@@ -521,7 +542,7 @@ std::string pd_change_chart(const ReportData& d, std::size_t k, const std::vecto
   for (const std::size_t i : idx) {
     names.push_back(short_name(d.book.obligors[i]));
     values.push_back(100.0 * stressed_pd_change(d, k, i));
-    labels.push_back(report_pd(d.scored[i].measures.pd) + " to " + report_pd(st.rows[k][i].measures.pd));
+    labels.push_back(report_pd(base_stress_pd(d, i)) + " to " + report_pd(stressed_pd(d, k, i)));
   }
   SvgAxis x{.label = "change of PD (percentage points)",
             .min = 0,
@@ -529,7 +550,8 @@ std::string pd_change_chart(const ReportData& d, std::size_t k, const std::vecto
             .log = false,
             .format = TickFormat::plain};
   return figure(
-      svg_signed_bars(names, values, labels, x, "Largest PD changes under '" + st.scenarios[k].name + "'"),
+      svg_signed_bars(names, values, labels, x,
+                      "Largest PD changes under '" + st.scenarios[k].name + "' (" + stress_pd_name(st) + ")"),
       "The " + count(idx.size()) +
           " obligors whose PD moved most under this scenario (names no shock hits are left out). Bars to "
           "the "
@@ -565,17 +587,17 @@ HardestHit hardest_hit(const ReportData& d, std::size_t limit) {
 
 std::string hardest_hit_table(const ReportData& d, const HardestHit& hit) {
   const ReportStress& st = *d.stress;
-  std::vector<std::string> heads{"obligor", "name", "PD as it stands"};
+  std::vector<std::string> heads{"obligor", "name", stress_pd_name(st) + " as it stands"};
   for (const Scenario& s : st.scenarios) heads.push_back("PD " + s.name);
   heads.push_back("largest change");
   HtmlTable per("fc-table fc-stress-names", heads);
   per.numeric_from(2);
   for (const std::size_t i : hit.idx) {
     std::vector<std::string> cells{id_of(d.book.obligors[i]), d.book.obligors[i].get(TextField::name),
-                                   report_pd(d.scored[i].measures.pd)};
+                                   report_pd(base_stress_pd(d, i))};
     for (std::size_t k = 0; k < st.rows.size(); ++k) {
       const StressedObligor& r = st.rows[k][i];
-      cells.push_back(r.status == StressStatus::ok ? report_pd(r.measures.pd)
+      cells.push_back(r.status == StressStatus::ok ? report_pd(stressed_pd(d, k, i))
                                                    : std::string(to_string(r.status)));
     }
     cells.push_back(pp(hit.worst[i]));
@@ -591,7 +613,7 @@ std::string stress_section(const ReportData& d) {
       "Each scenario of " + st.origin +
           " shocks the observed inputs (equity value and volatility, rate, default point), and every hit "
           "obligor is solved again. Figures over the obligors scored both as they stand and stressed.");
-  out += scenario_pd_chart(scenario_pds(st));
+  out += scenario_pd_chart(scenario_pds(st), stress_pd_name(st));
   out += scenario_summary_table(d);
   // Per-obligor change, one chart per scenario: the names whose PD moved most.
   const std::size_t shown = std::max<std::size_t>(d.options.top, 10);
@@ -1198,8 +1220,10 @@ std::string driving_statement(const ReportData& d) {
          (cal ? "the calibrated PD" : "the model PD converted to one year") +
          "); expected loss is over each obligor's horizon" +
          (cal ? " (1 - (1 - PD1)^T from the calibrated one-year PD1)" : "") +
-         ". The DD chart, stress, term structures and movers use the model PD; the validation section uses "
-         "the outcomes file's PDs.</p>\n";
+         (cal ? "; the stress section shows the calibrated one-year PD of the stressed DD" : "") +
+         ". The DD chart, " + (cal ? "" : "stress, ") +
+         "term structures and movers use the model PD; the validation section uses the outcomes file's "
+         "PDs.</p>\n";
   return out;
 }
 
@@ -1347,6 +1371,11 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     st->origin = set.origin;
     StressBookOptions run;
     run.format = OutputFormat::csv;
+    if (d.calibration) {  // the summaries carry the calibrated figures, shown when they drive
+      run.pd_calibration = &d.calibration->calibration;
+      run.pd_calibration_origin = options.pd_calibration_path;
+      run.driving_pd = d.options.driving_pd;
+    }
     st->summary =
         run_stress(d.book, set.scenarios, set.origin, settings, config.stress, run, [](std::string_view) {});
     for (const Scenario& sc : set.scenarios) {

@@ -16,6 +16,10 @@
   obligor's DD (scipy.special.expit) to 1e-12; the grades follow the calibrated one-year PD; the
   header names the driving PD, the calibration's method, sample and dates, and the SHA-256 of its
   data (hashlib of samples/default_history.csv).
+- The stress section with --pd-calibration: each name's PD under each scenario is the logistic
+  function of the calibration file (scipy.special.expit) at the stressed DD that
+  `stress --pd-calibration` prints for it, shown to 4 decimals in percent; the scenario table's
+  mean stressed PD is the numpy mean of those PDs.
 - A bad calibration file: exit code 2, the file named, no page written.
 Exit code 0 when every check passes, 1 otherwise.
 """
@@ -211,6 +215,60 @@ def check_calibrated(exe, root, tmp, cfg):
         check("fc-driving" not in f.read(), "a page without a calibration states a driving PD")
 
 
+def stress_table_rows(page):
+    """Rows of the 'names hit hardest' table: (id, [cells])."""
+    i = page.find('fc-stress-names')
+    body = page[i:page.find('</table>', i)]
+    rows = []
+    for tr in re.findall(r'<tr>(.*?)</tr>', body, re.S):
+        cells = [html.unescape(re.sub(r'<[^>]+>', '', c)).strip() for c in re.findall(r'<t[dh][^>]*>(.*?)</t[dh]>', tr, re.S)]
+        rows.append(cells)
+    return rows
+
+
+def check_stress_calibrated(exe, root, tmp, cfg):
+    with open(os.path.join(root, "samples", "calibration.yaml")) as f:
+        text = f.read()
+    a = float(re.search(r"intercept: (\S+)", text).group(1))
+    b = float(re.search(r"slope: (\S+)", text).group(1))
+    page_path = os.path.join(tmp, "stress.html")
+    run = subprocess.run([exe, "-q", "--config", cfg, "report", "samples/demo_book.yaml", "-s",
+                          "samples/stress_scenarios.yaml", "--pd-calibration", "samples/calibration.yaml",
+                          "--top", "40", "--html", page_path], cwd=root, capture_output=True, text=True)
+    check(run.returncode in (0, 1), f"report -s --pd-calibration exit {run.returncode}: {run.stderr}")
+    stress = subprocess.run([exe, "-q", "--config", cfg, "stress", "samples/demo_book.yaml", "-s",
+                             "samples/stress_scenarios.yaml", "--format", "csv"], cwd=root,
+                            capture_output=True, text=True)
+    rows = list(csv.DictReader(io.StringIO(stress.stdout)))
+    with open(page_path, encoding="utf-8") as f:
+        page = f.read()
+    table = stress_table_rows(page)
+    head = table[0]
+    check(head[2] == "calibrated one-year PD as it stands", f"stress names table heading {head[2]!r}")
+    scenarios = [h[3:] for h in head[3:-1]]
+    dd = {(r["scenario"], r["id"]): float(r["distance_to_default_stressed"]) for r in rows
+          if r["status"] == "ok"}
+    checked = 0
+    for cells in table[1:]:
+        for k, sc in enumerate(scenarios):
+            key = (sc, cells[0])
+            if key not in dd:
+                continue
+            want = f"{100.0 * special.expit(a + b * dd[key]):.4f}%"
+            check(cells[3 + k] == want, f"stress {key}: page {cells[3 + k]} against expit {want}")
+            checked += 1
+    check(checked >= 30, f"stress names checked: {checked}")
+    means = {}
+    for sc in scenarios:
+        v = [special.expit(a + b * dd[(sc, i)]) for (s2, i) in dd if s2 == sc]
+        means[sc] = f"{100.0 * np.mean(v):.4f}%"
+    i = page.find('fc-stress-summary')
+    body = page[i:page.find('</table>', i)]
+    for tr in re.findall(r'<tr>(.*?)</tr>', body, re.S)[1:]:
+        cells = [html.unescape(re.sub(r'<[^>]+>', '', c)).strip() for c in re.findall(r'<t[dh][^>]*>(.*?)</t[dh]>', tr, re.S)]
+        check(cells[3] == means.get(cells[0]), f"scenario {cells[0]}: mean stressed PD {cells[3]} against {means.get(cells[0])}")
+
+
 def check_bad_calibration(exe, root, tmp):
     bad = os.path.join(tmp, "bad_calibration.yaml")
     with open(bad, "w") as f:
@@ -255,6 +313,7 @@ def main():
         check_grade_intervals(page, pd, defaulted)
         check_migration(page, now_rows, earlier_rows)
         check_calibrated(exe, root, tmp, cfg)
+        check_stress_calibrated(exe, root, tmp, cfg)
         check_bad_calibration(exe, root, tmp)
     for f in failures:
         print("FAIL:", f)
