@@ -187,8 +187,19 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
   try {
     outputs.commit([&] {
       if (!opts.record) return;
+      RunCalibration identity;
+      if (run.pd_calibration) {
+        identity = {.file = opts.pd_calibration,
+                    .method = std::string(to_string(calibration.calibration.method)),
+                    .data_sha256 = calibration.data_sha256};
+      }
       rec = record_book(opts.book, settings, config,
-                        {.store_path = store_path, .as_of = opts.as_of, .tool_version = FIRMCALL_VERSION});
+                        {.store_path = store_path,
+                         .as_of = opts.as_of,
+                         .tool_version = FIRMCALL_VERSION,
+                         .pd_calibration = run.pd_calibration,
+                         .calibration = identity,
+                         .driving_pd = run.driving_pd});
     });
   } catch (const InputError& e) {
     if (!rec) throw;
