@@ -79,15 +79,25 @@ OptionCheck MoversOptions::validate() const {
 
 void write_runs_report(const std::string& store_path, const std::vector<RunInfo>& runs, OutputFormat format,
                        std::string& out) {
-  ReportWriter w({{"run_id", "run", "", 5, Style::integer},
-                  {"as_of", "as of", "", 10, Style::text},
-                  {"recorded_at", "recorded", "UTC", 20, Style::text},
-                  {"obligor_count", "obligors", "", 8, Style::integer},
-                  {"input_sha256", "input", "SHA-256", 12, Style::text},
-                  {"tool_version", "version", "", 7, Style::text},
-                  {"book_path", "book", "", 50, Style::text},
-                  {"book_label", "", "", 0, Style::text}},
-                 format);
+  std::vector<ReportColumn> columns = {{"run_id", "run", "", 5, Style::integer},
+                                       {"as_of", "as of", "", 10, Style::text},
+                                       {"recorded_at", "recorded", "UTC", 20, Style::text},
+                                       {"obligor_count", "obligors", "", 8, Style::integer},
+                                       {"input_sha256", "input", "SHA-256", 12, Style::text},
+                                       {"tool_version", "version", "", 7, Style::text},
+                                       {"book_path", "book", "", 50, Style::text},
+                                       {"book_label", "", "", 0, Style::text}};
+  // A store with calibrated runs lists each run's driving PD and calibration; without any, the
+  // output is as it was before calibrations were recorded.
+  const bool calibrated =
+      std::any_of(runs.begin(), runs.end(), [](const RunInfo& r) { return r.calibration.present(); });
+  if (calibrated) {
+    columns.push_back({"driving_pd", "driving", "PD", 10, Style::text});
+    columns.push_back({"calibration_method", "calibration", "method", 11, Style::text});
+    columns.push_back({"calibration_sha256", "data", "SHA-256", 12, Style::text});
+    columns.push_back({"calibration_file", "", "", 0, Style::text});
+  }
+  ReportWriter w(std::move(columns), format);
   if (format == OutputFormat::json) {
     out += "{\n  \"store\": ";
     append_json_string(out, store_path);
@@ -102,11 +112,25 @@ void write_runs_report(const std::string& store_path, const std::vector<RunInfo>
       if (!r.book_label.empty()) book += " (" + r.book_label + ")";
       book = fit_text(book, 50);
     }
-    w.row({Cell::number(static_cast<double>(r.run_id)), Cell::text(r.as_of), Cell::text(r.recorded_at),
-           Cell::number(static_cast<double>(r.obligor_count)),
-           Cell::text(format == OutputFormat::table ? r.input_sha256.substr(0, 12) : r.input_sha256),
-           Cell::text(r.tool_version), Cell::text(book), Cell::text(r.book_label)},
-          out);
+    std::vector<Cell> cells = {
+        Cell::number(static_cast<double>(r.run_id)),
+        Cell::text(r.as_of),
+        Cell::text(r.recorded_at),
+        Cell::number(static_cast<double>(r.obligor_count)),
+        Cell::text(format == OutputFormat::table ? r.input_sha256.substr(0, 12) : r.input_sha256),
+        Cell::text(r.tool_version),
+        Cell::text(book),
+        Cell::text(r.book_label)};
+    if (calibrated) {
+      const RunCalibration& c = r.calibration;
+      const auto text_or_none = [](const std::string& v) { return v.empty() ? Cell::none() : Cell::text(v); };
+      cells.push_back(Cell::text(std::string(to_string(r.driving_pd))));
+      cells.push_back(text_or_none(c.method));
+      cells.push_back(
+          text_or_none(format == OutputFormat::table ? c.data_sha256.substr(0, 12) : c.data_sha256));
+      cells.push_back(text_or_none(c.file));
+    }
+    w.row(cells, out);
   }
   if (format == OutputFormat::json) {
     json_rows_end(out, w.rows());

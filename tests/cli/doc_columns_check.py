@@ -203,6 +203,8 @@ def main():
             cases.append((None, ["score", s(os.path.join("weekly", f"week{w}.yaml")), "--record", "--db",
                                  "calibrated.sqlite", "--pd-calibration", s("calibration.yaml"), "-o",
                                  f"cal{w}.txt"], None))
+        cases.append(("runs_calibrated", ["runs", "--db", "calibrated.sqlite", "-f", "csv", "-o", "runs_cal.csv"],
+                      "runs_cal.csv"))
         cases.append(("track_calibrated", ["track", "ZEP-26", "--db", "calibrated.sqlite", "-f", "csv", "-o",
                                            "track_cal.csv"], "track_cal.csv"))
         for output, args, written in cases:

@@ -1,5 +1,6 @@
 """score --record --pd-calibration, and what the monitoring commands make of it:
 
+- runs lists each run's driving PD and calibration;
 - movers and watchlist compare runs recorded with a calibrated driving PD on the calibrated
   one-year PD, which equals the logistic formula of the recorded DD (computed here with scipy);
 - a run on the model PD against a calibrated one is compared on the model PD, with a note;
@@ -71,6 +72,10 @@ def main():
         runs = con.execute("SELECT driving_pd, calibration_method, calibration_sha256 FROM runs").fetchall()
         assert runs == [("calibrated", "logistic", cal["sample"]["data_sha256"])] * 4, runs
         con.close()
+
+        listed = list(csv.DictReader(io.StringIO(run("runs", "--db", db, "-f", "csv").stdout)))
+        assert [(r["driving_pd"], r["calibration_method"], r["calibration_sha256"]) for r in listed] == [
+            ("calibrated", "logistic", cal["sample"]["data_sha256"])] * 4, listed
 
         # movers on the calibrated PD: the formula of the recorded DD, grades and alerts on it.
         rows = list(csv.DictReader(io.StringIO(run("movers", "--db", db, "-f", "csv").stdout)))
