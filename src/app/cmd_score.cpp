@@ -209,7 +209,12 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
   if (!global.quiet) print_score_notes(summary, opts.book, opts.out, score_closing(summary));
   if (rec && !global.quiet) {
     std::cerr << "firmcall: recorded run " << rec->run_id << " as of " << rec->as_of << " (" << rec->obligors
-              << " obligors) in " << store_path << "\n";
+              << " obligors";
+    if (run.pd_calibration) {
+      std::cerr << ", calibrated one-year PDs of " << opts.pd_calibration << ", driving PD "
+                << to_string(run.driving_pd);
+    }
+    std::cerr << ") in " << store_path << "\n";
   }
   return rows_exit_code(summary.failed());
 }

@@ -28,10 +28,11 @@ struct ValidateCli {
 
 // `validate --migration FROM,TO`: the grade migration and PSI of two runs of the store.
 ExitCode run_migration_command(const ValidateCli& o, const Config& config) {
-  if (!o.outcomes.empty() || !o.defaults.empty() || !o.against.empty()) {
+  if (!o.outcomes.empty() || !o.defaults.empty() || !o.against.empty() || !o.curves.empty() ||
+      o.pd_column != "pd" || !o.compare_column.empty()) {
     throw InputError(
-        "validate --migration: compares two runs of the history store; give no OUTCOMES file, "
-        "--defaults or --against");
+        "validate --migration: compares two runs of the history store on their driving PDs; give no "
+        "OUTCOMES file, --defaults, --against, --curves, --pd-column or --compare-column");
   }
   const std::size_t comma = o.migration.find(',');
   if (comma == std::string::npos || o.migration.find(',', comma + 1) != std::string::npos) {
