@@ -536,6 +536,19 @@ RunStore::RunStore(const std::string& path, StoreOpen mode, double busy_timeout_
     return;
   }
   open(SQLITE_OPEN_READWRITE | (mode == StoreOpen::create ? SQLITE_OPEN_CREATE : 0));
+  if (mode == StoreOpen::read_only) {
+    // Writable only so that SQLite can roll the killed writer's journal back (reading the version
+    // does it); a reading command still does not upgrade the schema.
+    const int v = read_version(im);
+    if (v == 0) {
+      throw StoreError("'" + path + "' holds no firmcall tables, not a history store (left untouched)",
+                       StoreAdvice::record_first);
+    }
+    if (v <= kStoreSchemaVersion) {
+      im.version = v;
+      return;
+    }
+  }
   migrate(im);
 }
 
