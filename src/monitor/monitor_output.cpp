@@ -432,13 +432,10 @@ void write_attribution_report(const RunPair& runs, const std::vector<AttributedM
   out += kTableCaution;
 }
 
-void write_track_report(std::string_view obligor_id, const std::vector<RunStore::SeriesPoint>& series,
-                        const GradeScale& scale, OutputFormat format, std::string& out) {
-  const bool table = format == OutputFormat::table;
-  // Runs recorded with a calibration add its columns; without any, the output is as before.
-  const bool calibrated = std::any_of(series.begin(), series.end(), [](const RunStore::SeriesPoint& p) {
-    return p.run.calibration.present();
-  });
+namespace {
+
+// The columns of write_track_report(); with `calibrated`, those of the calibrated PD after them.
+std::vector<ReportColumn> track_columns(bool calibrated) {
   std::vector<ReportColumn> columns = {{"as_of", "as of", "", 10, Style::text},
                                        {"run_id", "run", "", 5, Style::integer},
                                        {"status", "", "", 0, Style::text},
@@ -464,7 +461,19 @@ void write_track_report(std::string_view obligor_id, const std::vector<RunStore:
     columns.push_back({"pd_calibrated_extrapolated", "", "", 0, Style::text});
     columns.push_back({"driving_pd", "driving", "PD", 10, Style::text});
   }
-  ReportWriter w(std::move(columns), format);
+  return columns;
+}
+
+}  // namespace
+
+void write_track_report(std::string_view obligor_id, const std::vector<RunStore::SeriesPoint>& series,
+                        const GradeScale& scale, OutputFormat format, std::string& out) {
+  const bool table = format == OutputFormat::table;
+  // Runs recorded with a calibration add its columns; without any, the output is as before.
+  const bool calibrated = std::any_of(series.begin(), series.end(), [](const RunStore::SeriesPoint& p) {
+    return p.run.calibration.present();
+  });
+  ReportWriter w(track_columns(calibrated), format);
   std::string name;
   for (const auto& p : series) {
     if (!p.obligor.name.empty()) name = p.obligor.name;
