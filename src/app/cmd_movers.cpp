@@ -21,7 +21,8 @@ ExitCode run_movers(const Config& config, const StoreReadOptions& store_options,
   const RunPair pair = select_runs(store, store_options.run, store_options.against);
   const auto before = store.obligors(pair.before.run_id, false);
   const auto now = store.obligors(pair.now.run_id, false);
-  const Comparison c = compare_runs(before, now, config.grades, config.monitor.alerts);
+  const Comparison c = compare_runs(before, now, config.grades, config.monitor.alerts,
+                                    comparison_basis(pair.before, pair.now));
   std::string text;
   write_movers_report(pair, c, config.grades, config.monitor.alerts, {.watchlist = watchlist, .top = top},
                       store_options.out.format, text);

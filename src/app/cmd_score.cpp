@@ -188,8 +188,19 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
   try {
     outputs.commit([&] {
       if (!opts.record) return;
+      RunCalibration identity;
+      if (run.pd_calibration) {
+        identity = {.file = opts.pd_calibration,
+                    .method = std::string(to_string(calibration.calibration.method)),
+                    .data_sha256 = calibration.data_sha256};
+      }
       rec = record_book(opts.book, settings, config,
-                        {.store_path = store_path, .as_of = opts.as_of, .tool_version = FIRMCALL_VERSION});
+                        {.store_path = store_path,
+                         .as_of = opts.as_of,
+                         .tool_version = FIRMCALL_VERSION,
+                         .pd_calibration = run.pd_calibration,
+                         .calibration = identity,
+                         .driving_pd = run.driving_pd});
     });
   } catch (const InputError& e) {
     if (!rec) throw;
@@ -199,7 +210,12 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
   if (!global.quiet) print_score_notes(summary, opts.book, opts.out, score_closing(summary));
   if (rec && !global.quiet) {
     std::cerr << "firmcall: recorded run " << rec->run_id << " as of " << rec->as_of << " (" << rec->obligors
-              << " obligors) in " << store_path << "\n";
+              << " obligors";
+    if (run.pd_calibration) {
+      std::cerr << ", calibrated one-year PDs of " << opts.pd_calibration << ", driving PD "
+                << to_string(run.driving_pd);
+    }
+    std::cerr << ") in " << store_path << "\n";
   }
   return rows_exit_code(summary.failed());
 }

@@ -6,6 +6,7 @@
 #include "firmcall/engine/validate_book.hpp"
 #include "firmcall/io/outcomes_io.hpp"
 #include "firmcall/io/output_file.hpp"
+#include "firmcall/monitor/monitor_output.hpp"
 #include "firmcall/monitor/store_outcomes.hpp"
 
 namespace firmcall::cli {
@@ -21,11 +22,35 @@ struct ValidateCli {
   std::string db;
   std::string defaults;
   double horizon_years = 1.0;
+  std::string migration;  // --migration FROM,TO: grade migration between two runs of the store
   OutputOptions out;
 };
 
+// `validate --migration FROM,TO`: the grade migration and PSI of two runs of the store.
+ExitCode run_migration_command(const ValidateCli& o, const Config& config) {
+  if (!o.outcomes.empty() || !o.defaults.empty() || !o.against.empty() || !o.curves.empty() ||
+      o.pd_column != "pd" || !o.compare_column.empty()) {
+    throw InputError(
+        "validate --migration: compares two runs of the history store on their driving PDs; give no "
+        "OUTCOMES file, --defaults, --against, --curves, --pd-column or --compare-column");
+  }
+  const std::size_t comma = o.migration.find(',');
+  if (comma == std::string::npos || o.migration.find(',', comma + 1) != std::string::npos) {
+    throw InputError("--migration: expected two runs FROM,TO (run ids or as-of dates), got '" + o.migration +
+                     "'");
+  }
+  const RunStore store = open_store(o.db, config);
+  const RunMigration m =
+      run_grade_migration(store, o.migration.substr(0, comma), o.migration.substr(comma + 1), config.grades);
+  std::string text;
+  write_run_migration_report(store.path(), m, o.out.format, text);
+  write_output(o.out.output, text);
+  return kExitOk;
+}
+
 ExitCode run_validate_command(const ValidateCli& o, const GlobalOptions& global) {
   const Config config = global.config();
+  if (!o.migration.empty()) return run_migration_command(o, config);
   OutcomeReadOptions read;
   read.pd_column = o.pd_column;
   read.compare_column = o.compare_column;
@@ -33,9 +58,11 @@ ExitCode run_validate_command(const ValidateCli& o, const GlobalOptions& global)
   if (o.outcomes.empty() == o.defaults.empty()) {
     throw InputError("validate: give either an OUTCOMES file or --defaults FILE (with --db STORE)");
   }
-  if (!o.defaults.empty() && (o.pd_column != "pd" || !o.compare_column.empty())) {
+  if (!o.defaults.empty() &&
+      ((o.pd_column != "pd" && o.pd_column != "pd_calibrated") || !o.compare_column.empty())) {
     throw InputError(
-        "validate: --pd-column and --compare-column apply to an OUTCOMES file, not to --defaults");
+        "validate: with --defaults, --pd-column is pd or pd_calibrated; --compare-column applies to an "
+        "OUTCOMES file");
   }
   // Every input is read and every statistic computed before any output is written.
   std::vector<std::string> store_notes;
@@ -44,8 +71,9 @@ ExitCode run_validate_command(const ValidateCli& o, const GlobalOptions& global)
     const DefaultDates dates = load_default_dates(o.defaults);
     const RunStore store = open_store(o.db, config);
     StoreOutcomeCounts counts;
-    OutcomeSample s = outcomes_from_store(store, dates, StoreOutcomeOptions{.horizon_years = o.horizon_years},
-                                          config.grades, &counts);
+    OutcomeSample s = outcomes_from_store(
+        store, dates, StoreOutcomeOptions{.horizon_years = o.horizon_years, .pd_column = o.pd_column},
+        config.grades, &counts);
     store_notes.push_back(store.path() + ": " + std::to_string(counts.runs) + " runs; left out " +
                           std::to_string(counts.defaulted_before) +
                           " obligor entries defaulted on or before "
@@ -108,6 +136,9 @@ void add_validate_command(CLI::App& app, const GlobalOptions& global, CommandAct
   cmd->add_option("--curves", o->curves,
                   "Write the ROC and CAP points to this CSV file (pd_threshold, false_positive_rate, "
                   "true_positive_rate, population_fraction, defaults_fraction)");
+  cmd->add_option("--migration", o->migration,
+                  "FROM,TO: grade migration matrix and PSI between two runs of the history store (run ids "
+                  "or as-of dates, as firmcall runs lists them)");
   add_output_options(cmd, o->out);
   cmd->footer(
       std::string("\nExit codes: 0 validated; 2 unreadable or malformed file (nothing written) or bad "

@@ -7,6 +7,7 @@
 #include <unordered_set>
 
 #include "firmcall/book/errors.hpp"
+#include "firmcall/estimate/validation.hpp"
 #include "firmcall/monitor/store_error.hpp"
 
 namespace firmcall {
@@ -54,6 +55,34 @@ std::string Mover::alert_list() const {
   return s;
 }
 
+std::string PdBasisChoice::description() const {
+  if (basis == PdBasis::model) return "model";
+  return "calibrated one-year (method " + calibration.method + ", data sha256 " +
+         calibration.data_sha256.substr(0, 12) + "...)";
+}
+
+PdBasisChoice comparison_basis(const RunInfo& before, const RunInfo& now) {
+  PdBasisChoice c;
+  const bool cal_before = before.driving_pd == DrivingPd::calibrated && before.calibration.present();
+  const bool cal_now = now.driving_pd == DrivingPd::calibrated && now.calibration.present();
+  const auto run = [](const RunInfo& r) { return "run " + std::to_string(r.run_id); };
+  if (cal_before && cal_now) {
+    if (before.calibration.method == now.calibration.method &&
+        before.calibration.data_sha256 == now.calibration.data_sha256) {
+      c.basis = PdBasis::calibrated;
+      c.calibration = now.calibration;
+      return c;
+    }
+    c.note = run(now) + " and " + run(before) +
+             " were recorded with different calibrations (method or data sha256 differ); both are "
+             "compared on the model PD";
+  } else if (cal_before || cal_now) {
+    c.note = (cal_now ? run(now) : run(before)) + " drives the calibrated PD and " +
+             (cal_now ? run(before) : run(now)) + " the model PD; both are compared on the model PD";
+  }
+  return c;
+}
+
 namespace {
 
 // First entry of each id; entries without an id, or repeating one, are counted in `skipped`.
@@ -71,9 +100,16 @@ std::unordered_map<std::string_view, const StoredObligor*> index_by_id(
   return map;
 }
 
-void fill_side(const StoredObligor* o, const GradeScale& scale, double& dd, double& pd, int& grade) {
+void fill_side(const StoredObligor* o, const GradeScale& scale, PdBasis basis, double& dd, double& pd,
+               int& grade) {
   if (!o || o->status != RowStatus::ok || !o->has_measures) return;
   dd = o->measures.distance_to_default;
+  if (basis == PdBasis::calibrated) {
+    // Already a one-year PD; NaN (not graded) when the run holds none for this obligor.
+    pd = o->pd_calibrated;
+    grade = std::isnan(pd) ? -1 : scale.index_of(pd);
+    return;
+  }
   pd = o->measures.pd;
   // Grades are on the one-year PD (a run recorded before the horizon was stored counts as one year).
   grade = scale.index_of_pd_at(pd, o->has_inputs ? o->inputs.horizon_years : 1.0);
@@ -100,8 +136,9 @@ void apply_rules(Mover& m, const AlertRules& rules) {
 }  // namespace
 
 Comparison compare_runs(const std::vector<StoredObligor>& before, const std::vector<StoredObligor>& now,
-                        const GradeScale& scale, const AlertRules& rules) {
+                        const GradeScale& scale, const AlertRules& rules, const PdBasisChoice& basis) {
   Comparison c;
+  c.basis = basis;
   std::vector<const StoredObligor*> order_before, order_now;
   const auto by_id_before = index_by_id(before, order_before, c.skipped);
   const auto by_id_now = index_by_id(now, order_now, c.skipped);
@@ -115,8 +152,8 @@ Comparison compare_runs(const std::vector<StoredObligor>& before, const std::vec
     m.id = n ? n->id : b->id;
     m.name = n ? n->name : b->name;
     m.kind = b && n ? MoveKind::continuing : n ? MoveKind::added : MoveKind::dropped;
-    fill_side(b, scale, m.dd_before, m.pd_before, m.grade_before);
-    fill_side(n, scale, m.dd_now, m.pd_now, m.grade_now);
+    fill_side(b, scale, basis.basis, m.dd_before, m.pd_before, m.grade_before);
+    fill_side(n, scale, basis.basis, m.dd_now, m.pd_now, m.grade_now);
     apply_rules(m, rules);
     c.movers.push_back(std::move(m));
   };
@@ -193,6 +230,92 @@ std::vector<AttributedMover> attribute_movers(const Comparison& comparison,
     return a.mover->id < b.mover->id;
   });
   return out;
+}
+
+std::string_view RunMigration::row_label(std::size_t row) const noexcept {
+  if (row < grades()) return grade_labels[row];
+  return row == grades() ? "new" : "ungraded";
+}
+
+std::string_view RunMigration::column_label(std::size_t column) const noexcept {
+  if (column < grades()) return grade_labels[column];
+  return column == grades() ? "gone" : "ungraded";
+}
+
+namespace {
+
+// The grade of an obligor on its run's driving PD (one-year); -1 when it has none.
+int driving_grade(const RunInfo& run, const StoredObligor& o, const GradeScale& scale) {
+  if (o.status != RowStatus::ok || !o.has_measures) return -1;
+  if (run.driving_pd == DrivingPd::calibrated) {
+    return std::isnan(o.pd_calibrated) ? -1 : scale.index_of(o.pd_calibrated);
+  }
+  return scale.index_of_pd_at(o.measures.pd, o.has_inputs ? o.inputs.horizon_years : 1.0);
+}
+
+}  // namespace
+
+RunMigration run_grade_migration(const RunStore& store, std::string_view from_selector,
+                                 std::string_view to_selector, const GradeScale& scale) {
+  RunMigration r;
+  r.from = store.select(from_selector);
+  r.to = store.select(to_selector);
+  const std::string where = "history store '" + store.path() + "': ";
+  if (r.from.run_id == r.to.run_id) {
+    throw InputError(where + "run " + std::to_string(r.from.run_id) +
+                     " is named as both runs of the migration; name two different runs");
+  }
+  for (const GradeBand& b : scale.bands) r.grade_labels.push_back(b.label);
+  const int g = static_cast<int>(scale.bands.size());
+  const int kNew = g, kUngraded = g + 1;  // kNew is also the "gone" column
+  const auto before = store.obligors(r.from.run_id, false);
+  const auto after = store.obligors(r.to.run_id, false);
+  std::vector<const StoredObligor*> order_before, order_after;
+  const auto by_id_before = index_by_id(before, order_before, r.left_out);
+  const auto by_id_after = index_by_id(after, order_after, r.left_out);
+  r.from_counts.assign(scale.bands.size(), 0);
+  r.to_counts.assign(scale.bands.size(), 0);
+  std::vector<int> rows, columns;
+  rows.reserve(order_before.size() + order_after.size());
+  columns.reserve(rows.capacity());
+  for (const StoredObligor* b : order_before) {
+    const int from = driving_grade(r.from, *b, scale);
+    if (from >= 0) ++r.from_counts[static_cast<std::size_t>(from)];
+    int to = kNew;  // gone
+    if (const auto it = by_id_after.find(b->id); it != by_id_after.end()) {
+      to = driving_grade(r.to, *it->second, scale);
+      if (to < 0) to = kUngraded;
+    }
+    rows.push_back(from >= 0 ? from : kUngraded);
+    columns.push_back(to);
+  }
+  for (const StoredObligor* a : order_after) {
+    const int to = driving_grade(r.to, *a, scale);
+    if (to >= 0) ++r.to_counts[static_cast<std::size_t>(to)];
+    if (by_id_before.contains(a->id)) continue;
+    rows.push_back(kNew);
+    columns.push_back(to >= 0 ? to : kUngraded);
+  }
+  for (const RunInfo* run : {&r.from, &r.to}) {
+    const auto& counts = run == &r.from ? r.from_counts : r.to_counts;
+    if (std::all_of(counts.begin(), counts.end(), [](std::size_t n) { return n == 0; })) {
+      throw InputError(where + "run " + std::to_string(run->run_id) + " (as of " + run->as_of +
+                       ") has no graded obligor (none was scored), so there is no grade migration");
+    }
+  }
+  r.cells = migration_counts(rows, columns, g + 2);
+  r.psi = population_stability_index(r.to_counts, r.from_counts);
+  if (r.from.driving_pd != r.to.driving_pd) {
+    r.note = "run " + std::to_string(r.from.run_id) + " is graded on its " +
+             std::string(to_string(r.from.driving_pd)) + " PD and run " + std::to_string(r.to.run_id) +
+             " on its " + std::string(to_string(r.to.driving_pd)) +
+             " PD (each run's driving PD): part of the migration is the change of PD";
+  } else if (r.from.driving_pd == DrivingPd::calibrated && !(r.from.calibration == r.to.calibration)) {
+    r.note = "runs " + std::to_string(r.from.run_id) + " and " + std::to_string(r.to.run_id) +
+             " are graded on calibrated PDs of different calibrations: part of the migration is the "
+             "change of calibration";
+  }
+  return r;
 }
 
 RunPair select_runs(const RunStore& store, std::string_view now_selector, std::string_view before_selector) {

@@ -42,6 +42,9 @@ OptionCheck RecordBookOptions::validate() const {
   if (!as_of.empty() && !is_calendar_date(as_of)) {
     return OptionProblem{"as_of", as_of, "must be empty or a date YYYY-MM-DD"};
   }
+  if (driving_pd == DrivingPd::calibrated && pd_calibration == nullptr) {
+    return OptionProblem{"driving_pd", "calibrated", "needs pd_calibration"};
+  }
   return std::nullopt;
 }
 
@@ -64,7 +67,8 @@ std::string fields_json(const ObligorRecord& rec) {
   return out;
 }
 
-StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& s, const GradeScale& grades) {
+StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& s, const GradeScale& grades,
+                             const PdCalibration* calibration, DrivingPd driving_pd) {
   StoredObligor o;
   o.id = rec.get(TextField::id);
   o.name = rec.get(TextField::name);
@@ -77,6 +81,14 @@ StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& s, c
   if (o.has_measures) {
     o.measures = s.measures;
     o.grade = std::string(grades.label_of_pd_at(s.measures.pd, s.resolved.inputs.horizon_years));
+    if (calibration != nullptr) {
+      const CalibratedPd c = calibration->evaluate(s.measures.distance_to_default);
+      o.pd_calibrated = c.pd;
+      o.pd_calibrated_lower = c.lower;
+      o.pd_calibrated_upper = c.upper;
+      o.pd_calibrated_extrapolated = c.extrapolated;
+      if (driving_pd == DrivingPd::calibrated) o.grade = std::string(grades.label_of(c.pd));
+    }
   }
   if (s.solution.residual >= 0.0) {
     o.iterations = s.solution.iterations;
@@ -126,6 +138,9 @@ RecordedRun record_book(const std::string& book_path, const ScoreSettings& setti
   const Book book =
       format == BookFormat::yaml ? parse_yaml_book(bytes, book_path) : parse_csv_book(bytes, book_path);
 
+  if (const OptionCheck problem = options.validate(); problem && problem->field == "driving_pd") {
+    throw OptionError(problem->field, problem->constraint);
+  }
   RecordedRun result;
   if (!options.as_of.empty()) {
     if (!is_calendar_date(options.as_of)) {
@@ -150,6 +165,10 @@ RecordedRun record_book(const std::string& book_path, const ScoreSettings& setti
   info.input_sha256 = sha256_hex(bytes);
   info.settings_json = settings_json(settings, config.grades);
   info.tool_version = options.tool_version;
+  if (options.pd_calibration != nullptr) {
+    info.calibration = options.calibration;
+    info.driving_pd = options.driving_pd;
+  }
 
   // Score first, then hold the store only while writing.
   std::vector<StoredObligor> rows;
@@ -157,7 +176,7 @@ RecordedRun record_book(const std::string& book_path, const ScoreSettings& setti
   ScoredObligor scored;
   for (const ObligorRecord& rec : book.obligors) {
     score_obligor(rec, book.defaults, settings, scored);
-    rows.push_back(stored_obligor(rec, scored, config.grades));
+    rows.push_back(stored_obligor(rec, scored, config.grades, options.pd_calibration, options.driving_pd));
     if (scored.status == RowStatus::ok) ++result.scored;
   }
   RunStore store(options.store_path, StoreOpen::create, config.monitor.busy_timeout_seconds);

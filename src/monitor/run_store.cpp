@@ -74,6 +74,15 @@ constexpr Migration kMigrations[] = {
     {2, "grade of each obligor; index by obligor id",
      "ALTER TABLE run_obligors ADD COLUMN grade TEXT;"
      "CREATE INDEX run_obligors_by_obligor ON run_obligors(obligor_id, run_id);"},
+    {3, "calibrated one-year PD of each obligor; driving PD and calibration of each run",
+     "ALTER TABLE runs ADD COLUMN driving_pd TEXT;"
+     "ALTER TABLE runs ADD COLUMN calibration_file TEXT;"
+     "ALTER TABLE runs ADD COLUMN calibration_method TEXT;"
+     "ALTER TABLE runs ADD COLUMN calibration_sha256 TEXT;"
+     "ALTER TABLE run_obligors ADD COLUMN pd_calibrated REAL;"
+     "ALTER TABLE run_obligors ADD COLUMN pd_calibrated_lower REAL;"
+     "ALTER TABLE run_obligors ADD COLUMN pd_calibrated_upper REAL;"
+     "ALTER TABLE run_obligors ADD COLUMN pd_calibrated_extrapolated INTEGER;"},
 };
 
 constexpr const char* kRunColumns =
@@ -83,7 +92,41 @@ constexpr const char* kObligorColumns =
     "seq, obligor_id, name, status, message, fields_json, equity_value, equity_vol, default_point, rate, "
     "horizon, drift, asset_value, asset_vol, leverage, distance_to_default, pd, pd_risk_neutral, debt_value, "
     "spread_bp, iterations, residual, grade";
-constexpr int kObligorColumnCount = 23;
+// Columns added by schema version 3 (read as NULL from an older store opened read-only).
+constexpr const char* kRunColumnsV3 = "driving_pd, calibration_file, calibration_method, calibration_sha256";
+constexpr const char* kObligorColumnsV3 =
+    "pd_calibrated, pd_calibrated_lower, pd_calibrated_upper, pd_calibrated_extrapolated";
+constexpr int kRunColumnCount = 13;
+constexpr int kObligorColumnCount = 27;
+
+// The run columns as a store of schema `version` holds them (NULL for later columns), each name
+// prefixed with `prefix` (e.g. "r.").
+std::string run_columns(int version, std::string_view prefix) {
+  std::string out;
+  const auto add = [&](std::string_view list) {
+    while (!list.empty()) {
+      const std::size_t comma = list.find(',');
+      std::string_view name = list.substr(0, comma);
+      while (!name.empty() && name.front() == ' ') name.remove_prefix(1);
+      list = comma == std::string_view::npos ? std::string_view() : list.substr(comma + 1);
+      if (!out.empty()) out += ", ";
+      if (name != "NULL") out += prefix;
+      out += name;
+    }
+  };
+  add(kRunColumns);
+  add(version >= 3 ? kRunColumnsV3 : "NULL, NULL, NULL, NULL");
+  return out;
+}
+
+// The obligor columns as a store of schema `version` holds them (NULL for later columns).
+std::string obligor_columns(int version) {
+  std::string out = kObligorColumns;
+  if (version < 2) out.replace(out.rfind("grade"), 5, "NULL");
+  out += ", ";
+  out += version >= 3 ? kObligorColumnsV3 : "NULL, NULL, NULL, NULL";
+  return out;
+}
 
 }  // namespace
 
@@ -215,6 +258,10 @@ RunInfo read_run(const Stmt& s) {
   r.settings_json = s.text(6);
   r.tool_version = s.text(7);
   r.obligor_count = s.integer(8);
+  r.driving_pd = s.text(9) == "calibrated" ? DrivingPd::calibrated : DrivingPd::model;
+  r.calibration.file = s.text(10);
+  r.calibration.method = s.text(11);
+  r.calibration.data_sha256 = s.text(12);
   return r;
 }
 
@@ -223,7 +270,7 @@ RunInfo read_run(const Stmt& s) {
 // is given), or when a scored row lacks its distance to default or PD: never read as 0.
 void check_numbers(const Stmt& s, int c, std::int64_t run_id) {
   const bool scored = row_status_from_string(s.text(c + 3)) == RowStatus::ok;
-  for (int k : {6, 7, 8, 9, 10, 11, 12, 13, 14, 15, 16, 17, 18, 19, 20, 21}) {
+  for (int k : {6, 7, 8, 9, 10, 11, 12, 13, 14, 15, 16, 17, 18, 19, 20, 21, 23, 24, 25, 26}) {
     if (s.is_number(c + k)) continue;
     const bool needed = scored && (k == 15 || k == 16);  // distance_to_default, pd
     if (s.is_null(c + k) && !needed) continue;
@@ -268,6 +315,11 @@ StoredObligor read_obligor(const Stmt& s, int c, std::int64_t run_id) {
   o.iterations = s.is_null(c + 20) ? -1 : static_cast<int>(s.integer(c + 20));
   o.residual = s.is_null(c + 21) ? -1.0 : s.real(c + 21);
   o.grade = s.text(c + 22);  // NULL (recorded before schema version 2) reads as ""
+  // NULL (recorded without a calibration, or before schema version 3) reads as NaN.
+  o.pd_calibrated = s.real(c + 23);
+  o.pd_calibrated_lower = s.real(c + 24);
+  o.pd_calibrated_upper = s.real(c + 25);
+  o.pd_calibrated_extrapolated = !s.is_null(c + 26) && s.integer(c + 26) != 0;
   return o;
 }
 
@@ -473,14 +525,30 @@ RunStore::RunStore(const std::string& path, StoreOpen mode, double busy_timeout_
       throw StoreError("'" + path + "' holds no firmcall tables, not a history store (left untouched)",
                        StoreAdvice::record_first);
     }
-    if (v == kStoreSchemaVersion) {
+    if (v > kStoreSchemaVersion) {
+      throw InputError(in_store(path, "schema version " + std::to_string(v) +
+                                          " was written by a newer firmcall; this one reads up to version " +
+                                          std::to_string(kStoreSchemaVersion) + " (left untouched)"));
+    }
+    // An older schema is read as it is (columns it lacks read as NULL) and never written: only
+    // recording upgrades a store.
+    im.version = v;
+    return;
+  }
+  open(SQLITE_OPEN_READWRITE | (mode == StoreOpen::create ? SQLITE_OPEN_CREATE : 0));
+  if (mode == StoreOpen::read_only) {
+    // Writable only so that SQLite can roll the killed writer's journal back (reading the version
+    // does it); a reading command still does not upgrade the schema.
+    const int v = read_version(im);
+    if (v == 0) {
+      throw StoreError("'" + path + "' holds no firmcall tables, not a history store (left untouched)",
+                       StoreAdvice::record_first);
+    }
+    if (v <= kStoreSchemaVersion) {
       im.version = v;
       return;
     }
-    sqlite3_close_v2(im.db);
-    im.db = nullptr;
   }
-  open(SQLITE_OPEN_READWRITE | (mode == StoreOpen::create ? SQLITE_OPEN_CREATE : 0));
   migrate(im);
 }
 
@@ -495,7 +563,7 @@ int RunStore::schema_version() const {
 }
 
 std::vector<RunInfo> RunStore::runs() const {
-  Stmt s(*impl_, std::string("SELECT ") + kRunColumns + " FROM runs ORDER BY as_of, run_id");
+  Stmt s(*impl_, "SELECT " + run_columns(impl_->version, "") + " FROM runs ORDER BY as_of, run_id");
   std::vector<RunInfo> out;
   while (s.step()) out.push_back(read_run(s));
   return out;
@@ -503,7 +571,7 @@ std::vector<RunInfo> RunStore::runs() const {
 
 RunInfo RunStore::select(std::string_view selector) const {
   const Impl& im = *impl_;
-  const std::string base = std::string("SELECT ") + kRunColumns + " FROM runs ";
+  const std::string base = "SELECT " + run_columns(im.version, "") + " FROM runs ";
   if (selector.empty()) {
     Stmt s(im, base + "ORDER BY as_of DESC, run_id DESC LIMIT 1");
     if (!s.step()) throw InputError(in_store(im.path, "no runs recorded yet"));
@@ -526,7 +594,7 @@ RunInfo RunStore::select(std::string_view selector) const {
 }
 
 std::optional<RunInfo> RunStore::previous(const RunInfo& run) const {
-  Stmt s(*impl_, std::string("SELECT ") + kRunColumns +
+  Stmt s(*impl_, "SELECT " + run_columns(impl_->version, "") +
                      " FROM runs WHERE as_of < ?1 OR (as_of = ?1 AND run_id < ?2) "
                      "ORDER BY as_of DESC, run_id DESC LIMIT 1");
   s.bind_text(1, run.as_of);
@@ -536,7 +604,7 @@ std::optional<RunInfo> RunStore::previous(const RunInfo& run) const {
 }
 
 std::vector<StoredObligor> RunStore::obligors(std::int64_t run_id, bool with_fields) const {
-  std::string columns = kObligorColumns;
+  std::string columns = obligor_columns(impl_->version);
   if (!with_fields) columns.replace(columns.find("fields_json"), 11, "''");
   std::vector<StoredObligor> out;
   {
@@ -551,14 +619,8 @@ std::vector<StoredObligor> RunStore::obligors(std::int64_t run_id, bool with_fie
 }
 
 std::vector<RunStore::SeriesPoint> RunStore::series(std::string_view obligor_id) const {
-  std::string sql = "SELECT ";
-  for (const char* c = kRunColumns; *c;) {  // qualify the run columns: r.run_id, r.as_of, ...
-    const char* end = std::strchr(c, ',');
-    const std::string col(c, end ? end : c + std::strlen(c));
-    sql += "r." + col.substr(col.find_first_not_of(' ')) + ", ";
-    c = end ? end + 1 : c + std::strlen(c);
-  }
-  sql += kObligorColumns;
+  std::string sql = "SELECT " + run_columns(impl_->version, "r.") + ", ";
+  sql += obligor_columns(impl_->version);
   sql +=
       " FROM run_obligors o JOIN runs r ON r.run_id = o.run_id WHERE o.obligor_id = ? "
       "ORDER BY r.as_of, r.run_id, o.seq";
@@ -568,7 +630,7 @@ std::vector<RunStore::SeriesPoint> RunStore::series(std::string_view obligor_id)
   std::int64_t last_run = -1;
   while (s.step()) {
     RunInfo run = read_run(s);
-    SeriesPoint p{run, read_obligor(s, 9, run.run_id)};
+    SeriesPoint p{run, read_obligor(s, kRunColumnCount, run.run_id)};
     if (p.run.run_id == last_run) continue;  // a repeated id in one book: its first entry counts
     last_run = p.run.run_id;
     out.push_back(std::move(p));
@@ -586,7 +648,8 @@ RunWriter::RunWriter(RunStore& store, const RunInfo& info) : store_(store) {
   try {
     Stmt s(im,
            "INSERT INTO runs (as_of, recorded_at, book_path, book_label, input_sha256, settings_json, "
-           "tool_version, obligor_count) VALUES (?, ?, ?, ?, ?, ?, ?, 0)");
+           "tool_version, obligor_count, driving_pd, calibration_file, calibration_method, "
+           "calibration_sha256) VALUES (?, ?, ?, ?, ?, ?, ?, 0, ?, ?, ?, ?)");
     s.bind_text(1, info.as_of);
     s.bind_text(2, info.recorded_at);
     s.bind_text(3, info.book_path);
@@ -594,6 +657,18 @@ RunWriter::RunWriter(RunStore& store, const RunInfo& info) : store_(store) {
     s.bind_text(5, info.input_sha256);
     s.bind_text(6, info.settings_json);
     s.bind_text(7, info.tool_version);
+    s.bind_text(8, to_string(info.driving_pd));
+    // A run without a calibration keeps NULL there.
+    const auto text_or_null = [&s](int i, const std::string& v) {
+      if (v.empty()) {
+        s.bind_real(i, std::nan(""));
+      } else {
+        s.bind_text(i, v);
+      }
+    };
+    text_or_null(9, info.calibration.file);
+    text_or_null(10, info.calibration.method);
+    text_or_null(11, info.calibration.data_sha256);
     s.step();
     run_id_ = sqlite3_last_insert_rowid(im.db);
   } catch (...) {
@@ -609,9 +684,10 @@ RunWriter::~RunWriter() {
 
 void RunWriter::add(const StoredObligor& o) {
   const RunStore::Impl& im = *store_.impl_;
-  static_assert(kObligorColumnCount == 23);
+  static_assert(kObligorColumnCount == 27);
   if (!insert_) {  // one statement per writer, kept across calls
-    std::string sql = std::string("INSERT INTO run_obligors (run_id, ") + kObligorColumns + ") VALUES (?";
+    std::string sql = std::string("INSERT INTO run_obligors (run_id, ") + kObligorColumns + ", " +
+                      kObligorColumnsV3 + ") VALUES (?";
     for (int i = 0; i < kObligorColumnCount; ++i) sql += ", ?";
     sql += ")";
     insert_ = std::make_unique<detail::StoreStatement>(im, sql);
@@ -652,6 +728,14 @@ void RunWriter::add(const StoredObligor& o) {
     s.bind_real(24, std::nan(""));
   } else {
     s.bind_text(24, o.grade);
+  }
+  s.bind_real(25, o.pd_calibrated);
+  s.bind_real(26, o.pd_calibrated_lower);
+  s.bind_real(27, o.pd_calibrated_upper);
+  if (std::isnan(o.pd_calibrated)) {
+    s.bind_real(28, std::nan(""));
+  } else {
+    s.bind_int(28, o.pd_calibrated_extrapolated ? 1 : 0);
   }
   s.step();
   s.reset();

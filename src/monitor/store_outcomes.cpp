@@ -118,6 +118,10 @@ OptionCheck StoreOutcomeOptions::validate() const {
     return OptionProblem{"horizon_years", option_value_text(horizon_years),
                          "must be a positive number of years"};
   }
+  if (pd_column != "pd" && pd_column != "pd_calibrated") {
+    return OptionProblem{"pd_column", pd_column,
+                         "must be pd or pd_calibrated for outcomes from the history store"};
+  }
   return std::nullopt;
 }
 
@@ -127,7 +131,8 @@ OutcomeSample outcomes_from_store(const RunStore& store, const DefaultDates& def
   if (const OptionCheck problem = options.validate()) throw OptionError(problem->field, problem->constraint);
   OutcomeSample s;
   s.origin = store.path();
-  s.pd_column = "pd";
+  const bool calibrated = options.pd_column == "pd_calibrated";
+  s.pd_column = options.pd_column;
   s.graded_from_pd = true;
   for (const GradeBand& b : scale.bands) s.grade_labels.push_back(b.label);
   StoreOutcomeCounts c;
@@ -142,7 +147,9 @@ OutcomeSample outcomes_from_store(const RunStore& store, const DefaultDates& def
                        quoted_cell(run.as_of) + " is not a calendar date");
     }
     for (const StoredObligor& o : store.obligors(run.run_id, false)) {
-      if (!o.has_measures || o.id.empty() || !(o.measures.pd >= 0.0 && o.measures.pd <= 1.0)) {
+      // The PD under test: the model PD at the run's horizon, or the calibrated one-year PD.
+      const double pd = calibrated ? o.pd_calibrated : o.measures.pd;
+      if (!o.has_measures || o.id.empty() || !(pd >= 0.0 && pd <= 1.0)) {
         ++c.not_scored;
         continue;
       }
@@ -155,16 +162,21 @@ OutcomeSample outcomes_from_store(const RunStore& store, const DefaultDates& def
         }
         flag = static_cast<double>(after) <= horizon_days ? 1 : 0;
       }
-      s.pd.push_back(o.measures.pd);
+      s.pd.push_back(pd);
       s.defaulted.push_back(flag);
       s.defaults += flag;
-      const int grade = o.has_inputs ? scale.index_of_pd_at(o.measures.pd, o.inputs.horizon_years)
-                                     : scale.index_of(o.measures.pd);
-      s.grade.push_back(grade >= 0 ? grade : scale.index_of(o.measures.pd));
+      const int grade =
+          !calibrated && o.has_inputs ? scale.index_of_pd_at(pd, o.inputs.horizon_years) : scale.index_of(pd);
+      s.grade.push_back(grade >= 0 ? grade : scale.index_of(pd));
       s.ids.push_back(std::to_string(run.run_id) + ":" + o.id);
     }
   }
   if (counts != nullptr) *counts = c;
+  if (s.pd.empty() && calibrated) {
+    throw InputError(store.path() +
+                     ": no run of the history store holds a calibrated PD (record runs with "
+                     "a calibration to test pd_calibrated)");
+  }
   if (s.pd.empty()) throw InputError(store.path() + ": no scored obligors in the history store's runs");
   if (s.defaults == 0 || s.defaults == s.pd.size()) {
     throw InputError(defaults.origin + ": field 'default_date': " +

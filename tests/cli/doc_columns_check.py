@@ -200,6 +200,17 @@ def main():
         ]
         cases.append(("validate", ["validate", s("outcomes.csv"), "-f", "csv", "-o", "validate.csv"],
                       "validate.csv"))
+        cases.append(("validate_migration", ["validate", "--db", db, "--migration", "1,4", "-f", "csv", "-o",
+                                             "migration.csv"], "migration.csv"))
+        # Runs recorded with a calibration add its columns to track.
+        for w in (1, 2):
+            cases.append((None, ["score", s(os.path.join("weekly", f"week{w}.yaml")), "--record", "--db",
+                                 "calibrated.sqlite", "--pd-calibration", s("calibration.yaml"), "-o",
+                                 f"cal{w}.txt"], None))
+        cases.append(("runs_calibrated", ["runs", "--db", "calibrated.sqlite", "-f", "csv", "-o", "runs_cal.csv"],
+                      "runs_cal.csv"))
+        cases.append(("track_calibrated", ["track", "ZEP-26", "--db", "calibrated.sqlite", "-f", "csv", "-o",
+                                           "track_cal.csv"], "track_cal.csv"))
         for output, args, written in cases:
             if args is not None:
                 run(args)

@@ -42,4 +42,11 @@ void write_attribution_report(const RunPair& runs, const std::vector<AttributedM
 void write_track_report(std::string_view obligor_id, const std::vector<RunStore::SeriesPoint>& series,
                         const GradeScale& scale, OutputFormat format, std::string& out);
 
+/// `firmcall validate --migration FROM,TO`: the grade migration matrix of two runs (counts and
+/// row shares) and the PSI of their grade distributions. CSV in long form
+/// (from_run,to_run,from_grade,to_grade,statistic,value); JSON with from_run, to_run, psi and
+/// migration (the non-empty cells: from_grade, to_grade, obligors, row_share).
+void write_run_migration_report(const std::string& store_path, const RunMigration& migration,
+                                OutputFormat format, std::string& out);
+
 }  // namespace firmcall

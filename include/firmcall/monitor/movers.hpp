@@ -6,6 +6,12 @@
 // out. Grades are read on the scale in force (the settings), from the stored PD, so that a change
 // of scale does not show up as migrations.
 //
+// The PD compared (PdBasis): runs recorded with a calibrated driving PD (score --record
+// --pd-calibration) are compared on the calibrated one-year PD, and their grades and alerts follow
+// it, when both runs drive the calibrated PD of the same calibration (method and data SHA-256).
+// Otherwise both runs are compared on the model PD, and the choice carries a note saying why (a
+// calibrated run is never compared with a model PD, nor two calibrations with each other).
+//
 // Alerts, evaluated on the newer run (see AlertRules in settings.hpp):
 //   dd_drop     both scored and DD_before - DD_now > dd_drop
 //   pd_jump     both scored, PD_now > pd_ratio * PD_before and PD_now >= pd_ratio_min_pd
@@ -44,6 +50,23 @@ enum class Alert : std::uint8_t { dd_drop, pd_jump, downgrade, pd_ceiling, not_s
 inline constexpr std::size_t kAlertCount = 5;
 std::string_view to_string(Alert a) noexcept;
 
+/// The PD two runs are compared on: the model PD (at each obligor's horizon) or the calibrated
+/// one-year PD of the obligor's DD.
+enum class PdBasis : std::uint8_t { model, calibrated };
+
+struct PdBasisChoice {
+  PdBasis basis = PdBasis::model;
+  RunCalibration calibration;  ///< with calibrated: the calibration both runs were recorded with
+  /// Why the model PD is compared although a run drives the calibrated PD; empty otherwise.
+  std::string note;
+  /// The one-line statement of the PD for outputs, e.g. "calibrated one-year (method logistic,
+  /// data sha256 0123456789ab...)" or "model".
+  std::string description() const;
+};
+
+/// The PD the comparison of `before` with `now` follows (see the file comment).
+PdBasisChoice comparison_basis(const RunInfo& before, const RunInfo& now);
+
 /// One obligor across the two runs. Values of a run the obligor is not in, or not scored in, are NaN
 /// (grades -1).
 struct Mover {
@@ -54,7 +77,7 @@ struct Mover {
   const StoredObligor* now = nullptr;     ///< entry in the newer run, or null
   double dd_before = std::numeric_limits<double>::quiet_NaN();
   double dd_now = std::numeric_limits<double>::quiet_NaN();
-  double pd_before = std::numeric_limits<double>::quiet_NaN();
+  double pd_before = std::numeric_limits<double>::quiet_NaN();  ///< the PD of the comparison's basis
   double pd_now = std::numeric_limits<double>::quiet_NaN();
   int grade_before = -1;  ///< position on the scale (0 best), -1 when not scored
   int grade_now = -1;
@@ -81,13 +104,15 @@ struct Comparison {
   std::size_t skipped = 0;  ///< entries without an id, or repeating an id, left out
   /// migration[i][j]: obligors graded i in the older run and j in the newer (scale positions).
   std::vector<std::vector<std::size_t>> migration;
+  PdBasisChoice basis;  ///< the PD behind pd_*, grades and alerts
 };
 
 /// Compares run `before` with the newer run `now`. The movers point into the two vectors, which
 /// must outlive the result. Order: severity (descending), notches moved down (descending), PD now
 /// (descending; not scored last), id.
+/// With `basis` calibrated, PDs, grades and alerts use each obligor's stored calibrated one-year PD.
 Comparison compare_runs(const std::vector<StoredObligor>& before, const std::vector<StoredObligor>& now,
-                        const GradeScale& scale, const AlertRules& rules);
+                        const GradeScale& scale, const AlertRules& rules, const PdBasisChoice& basis = {});
 
 /// Why one obligor's PD moved (attribution.hpp).
 struct AttributedMover {
@@ -107,6 +132,41 @@ struct RunPair {
   RunInfo before;
   RunInfo now;
 };
+
+/// Grade migration between two runs of the store (`validate --migration FROM,TO`). Each run's
+/// obligors are graded on its own driving PD (the one-year model PD, or the calibrated one-year PD
+/// when the run drives it) and matched by id as in compare_runs. Beside the grades, rows hold
+/// "new" (only in the later run) and "ungraded" (in the run but not scored), columns "gone" (only
+/// in the earlier run) and "ungraded".
+struct RunMigration {
+  RunInfo from;                           ///< the earlier run (rows)
+  RunInfo to;                             ///< the later run (columns)
+  std::vector<std::string> grade_labels;  ///< the scale's labels
+  /// cells[row * (grades + 2) + column] (migration_counts of estimate/validation.hpp): rows 0 ..
+  /// grades-1 the grade in `from`, row grades "new", row grades+1 "ungraded"; columns likewise with
+  /// column grades "gone".
+  std::vector<std::size_t> cells;
+  std::vector<std::size_t> from_counts;  ///< graded obligors per grade in `from`
+  std::vector<std::size_t> to_counts;    ///< graded obligors per grade in `to`
+  double psi = 0.0;                      ///< population stability index of to_counts against from_counts
+  std::size_t left_out = 0;              ///< entries without an id, or repeating one
+  /// Set when the two runs' grades rest on different driving PDs.
+  std::string note;
+
+  std::size_t grades() const noexcept { return grade_labels.size(); }
+  std::size_t at(std::size_t row, std::size_t column) const noexcept {
+    return cells[row * (grades() + 2) + column];
+  }
+  /// Label of a row ("new", "ungraded" past the grades) or a column ("gone", "ungraded").
+  std::string_view row_label(std::size_t row) const noexcept;
+  std::string_view column_label(std::size_t column) const noexcept;
+};
+
+/// The migration from run `from_selector` to run `to_selector` (RunStore::select). InputError
+/// naming the store and the run for an unknown run, the same run twice, or a run without a graded
+/// obligor.
+RunMigration run_grade_migration(const RunStore& store, std::string_view from_selector,
+                                 std::string_view to_selector, const GradeScale& scale);
 
 /// Chooses the runs: `now_selector` names the newer run ("" the latest; see RunStore::select) and
 /// `before_selector` the older ("" the run before it). InputError when there is nothing to compare.

@@ -11,7 +11,9 @@
 
 #include "firmcall/book/obligor.hpp"
 #include "firmcall/book/settings.hpp"
+#include "firmcall/engine/driving_pd.hpp"
 #include "firmcall/engine/score_book.hpp"
+#include "firmcall/estimate/calibration.hpp"
 #include "firmcall/monitor/run_store.hpp"
 #include "firmcall/util/option_check.hpp"
 
@@ -22,8 +24,13 @@ struct RecordBookOptions {
   std::string store_path;    ///< history store file (see resolve_store_path)
   std::string as_of;         ///< YYYY-MM-DD; empty: the book's as_of, else today's local date
   std::string tool_version;  ///< written with the run
-  /// store_path not empty; as_of empty or a calendar date (is_calendar_date). record_book() throws
-  /// InputError for an as_of this refuses.
+  /// With a calibration (score --pd-calibration): each obligor's calibrated one-year PD is stored
+  /// beside the model PD, and `calibration` names it in the run.
+  const PdCalibration* pd_calibration = nullptr;
+  RunCalibration calibration = {};
+  DrivingPd driving_pd = DrivingPd::model;  ///< the PD behind the stored grades; calibrated needs one
+  /// store_path not empty; as_of empty or a calendar date (is_calendar_date); driving_pd calibrated
+  /// only with pd_calibration. record_book() throws InputError for an as_of this refuses.
   OptionCheck validate() const;
 };
 
@@ -41,8 +48,12 @@ struct RecordedRun {
 RecordedRun record_book(const std::string& book_path, const ScoreSettings& settings, const Config& config,
                         const RecordBookOptions& options);
 
-/// One obligor as stored: its fields as given, resolved inputs, measures and grade on `grades`.
-StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& scored, const GradeScale& grades);
+/// One obligor as stored: its fields as given, resolved inputs, measures and grade on `grades`;
+/// with `calibration`, its calibrated one-year PD, and the grade on that PD when `driving_pd` is
+/// calibrated.
+StoredObligor stored_obligor(const ObligorRecord& rec, const ScoredObligor& scored, const GradeScale& grades,
+                             const PdCalibration* calibration = nullptr,
+                             DrivingPd driving_pd = DrivingPd::model);
 
 /// The fields an obligor gave in its book, as a compact JSON object (numbers in their shortest form
 /// that reads back exactly).

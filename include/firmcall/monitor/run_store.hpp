@@ -17,6 +17,7 @@
 #pragma once
 
 #include <cstdint>
+#include <limits>
 #include <memory>
 #include <optional>
 #include <string>
@@ -25,6 +26,7 @@
 
 #include "firmcall/book/errors.hpp"
 #include "firmcall/book/settings.hpp"
+#include "firmcall/engine/driving_pd.hpp"
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/model/merton.hpp"
 
@@ -35,10 +37,22 @@ class StoreStatement;  ///< a prepared SQLite statement (run_store.cpp)
 }
 
 /// Version of the store schema this build writes; older stores are migrated up to it on open.
-/// 1: runs and their obligors. 2: each obligor's grade; index by obligor id.
-inline constexpr int kStoreSchemaVersion = 2;
+/// 1: runs and their obligors. 2: each obligor's grade; index by obligor id. 3: each obligor's
+/// calibrated one-year PD (with its interval and extrapolation flag); each run's driving PD and the
+/// identity of its calibration. A store opened read-only is read at its own version (columns it
+/// lacks read as absent) and never written; opening it for recording migrates it.
+inline constexpr int kStoreSchemaVersion = 3;
 /// SQLite application_id of firmcall stores (bytes 68-71 of the file header, "fcal").
 inline constexpr std::int32_t kStoreApplicationId = 0x6663616c;
+
+/// The calibration a run was recorded with (score --pd-calibration); all empty without one.
+struct RunCalibration {
+  std::string file;         ///< the calibration file as named on the command line
+  std::string method;       ///< logistic, isotonic or binned
+  std::string data_sha256;  ///< SHA-256 of the default history the calibration was fitted to
+  bool present() const noexcept { return !method.empty(); }
+  bool operator==(const RunCalibration&) const = default;
+};
 
 /// One recorded run.
 struct RunInfo {
@@ -51,6 +65,9 @@ struct RunInfo {
   std::string settings_json;  ///< effective settings of the run, a JSON object
   std::string tool_version;   ///< firmcall version that scored the run
   std::int64_t obligor_count = 0;
+  /// The PD behind the run's grades (model before schema 3); calibrated only with a calibration.
+  DrivingPd driving_pd = DrivingPd::model;
+  RunCalibration calibration = {};
 };
 
 /// One obligor of a run, as stored.
@@ -68,6 +85,12 @@ struct StoredObligor {
   int iterations = -1;     ///< solver iterations; -1 when the solver did not run
   double residual = -1.0;  ///< solver residual; -1 when the solver did not run
   std::string grade;       ///< grade on the scale of the run ("" when not scored, or before schema 2)
+  /// Calibrated one-year PD of the obligor's DD and its interval; NaN when the run had no
+  /// calibration, the obligor was not scored, or the run was recorded before schema 3.
+  double pd_calibrated = std::numeric_limits<double>::quiet_NaN();
+  double pd_calibrated_lower = std::numeric_limits<double>::quiet_NaN();
+  double pd_calibrated_upper = std::numeric_limits<double>::quiet_NaN();
+  bool pd_calibrated_extrapolated = false;  ///< the DD lay outside the calibration sample's range
 };
 
 /// How to open a store.
@@ -95,7 +118,8 @@ class RunStore {
   RunStore& operator=(const RunStore&) = delete;
 
   const std::string& path() const noexcept;
-  /// Schema version of the open store (kStoreSchemaVersion once opened).
+  /// Schema version of the open store (kStoreSchemaVersion once opened for writing; a store
+  /// opened read-only keeps its own).
   int schema_version() const;
 
   /// Every run, oldest first (by as-of date, then run id).

@@ -43,7 +43,11 @@ DefaultDates parse_default_dates(std::string_view text, const std::string& origi
 
 struct StoreOutcomeOptions {
   double horizon_years = 1.0;  ///< the observation window after each as-of date
-  /// horizon_years finite and positive.
+  /// The PD under test: "pd" (the model PD as stored) or "pd_calibrated" (the calibrated one-year
+  /// PD recorded with score --record --pd-calibration; entries without one are left out as not
+  /// scored).
+  std::string pd_column = "pd";
+  /// horizon_years finite and positive; pd_column "pd" or "pd_calibrated".
   OptionCheck validate() const;
 };
 

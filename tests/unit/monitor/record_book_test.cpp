@@ -6,6 +6,7 @@
 
 #include <doctest/doctest.h>
 
+#include <cmath>
 #include <string>
 
 using namespace firmcall;
@@ -74,4 +75,62 @@ TEST_CASE("RecordBookOptions::validate: defaults name no store") {
   const auto problem = RecordBookOptions{}.validate();
   REQUIRE(problem.has_value());
   CHECK(problem->field == "store_path");
+}
+
+TEST_CASE("RecordBookOptions::validate: a calibrated driving PD needs a calibration") {
+  RecordBookOptions o;
+  o.store_path = "history.sqlite";
+  o.driving_pd = DrivingPd::calibrated;
+  const auto problem = o.validate();
+  REQUIRE(problem.has_value());
+  CHECK(problem->field == "driving_pd");
+  CHECK(problem->constraint == "needs pd_calibration");
+  PdCalibration cal;
+  o.pd_calibration = &cal;
+  CHECK_FALSE(o.validate().has_value());
+}
+
+TEST_CASE("stored_obligor: the calibrated one-year PD of the DD, and the grade on the driving PD") {
+  ObligorRecord rec;
+  rec.get(TextField::id) = "ALD-01";
+  rec.set(NumField::market_cap, 100.0);
+  rec.set(NumField::equity_vol, 0.6);
+  rec.set(NumField::default_point, 150.0);
+  rec.set(NumField::rate, 0.02);
+  ScoredObligor scored;
+  score_obligor(rec, BookDefaults{}, ScoreSettings{}, scored);
+  REQUIRE(scored.status == RowStatus::ok);
+  const double dd = scored.measures.distance_to_default;
+
+  PdCalibration cal;
+  cal.method = CalibrationMethod::logistic;
+  cal.status = CalibrationStatus::ok;
+  cal.dd_min = -1.0;
+  cal.dd_max = 8.0;
+  cal.logistic = {
+      .intercept = -1.5, .slope = -0.8, .intercept_se = 0.1, .slope_se = 0.05, .covariance = -0.004};
+  // The logistic calibration 1 / (1 + exp(-(a + b DD))) and its delta-method interval on the linear
+  // predictor, a + b DD -+ z se with se^2 = se_a^2 + DD^2 se_b^2 + 2 DD cov (docs/calibration.md;
+  // from memory, the delta method for a linear predictor); z = 1.959963984540054 for 95%.
+  const double eta = -1.5 - 0.8 * dd;
+  const double se = std::sqrt(0.01 + dd * dd * 0.0025 + 2 * dd * -0.004);
+  const auto logistic = [](double x) { return 1.0 / (1.0 + std::exp(-x)); };
+
+  const GradeScale scale = default_grade_scale();
+  const StoredObligor model = stored_obligor(rec, scored, scale, &cal, DrivingPd::model);
+  CHECK(model.pd_calibrated == doctest::Approx(logistic(eta)).epsilon(1e-14));
+  CHECK(model.pd_calibrated_lower == doctest::Approx(logistic(eta - 1.959963984540054 * se)).epsilon(1e-12));
+  CHECK(model.pd_calibrated_upper == doctest::Approx(logistic(eta + 1.959963984540054 * se)).epsilon(1e-12));
+  CHECK_FALSE(model.pd_calibrated_extrapolated);
+  // The model PD drives: the grade of the one-year model PD, as without a calibration.
+  CHECK(model.grade == stored_obligor(rec, scored, scale).grade);
+  CHECK(std::isnan(stored_obligor(rec, scored, scale).pd_calibrated));
+
+  const StoredObligor driven = stored_obligor(rec, scored, scale, &cal, DrivingPd::calibrated);
+  CHECK(driven.grade == std::string(scale.label_of(logistic(eta))));
+  CHECK(driven.grade != model.grade);  // this obligor's two PDs sit in different grades
+
+  ScoredObligor bad;
+  bad.status = RowStatus::invalid_input;
+  CHECK(std::isnan(stored_obligor(rec, bad, scale, &cal, DrivingPd::calibrated).pd_calibrated));
 }

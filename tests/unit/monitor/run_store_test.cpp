@@ -321,10 +321,29 @@ TEST_CASE("a version 1 store is migrated forward on open and keeps its runs") {
       " NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL);");
   REQUIRE(raw_query(path, "SELECT max(version) FROM firmcall_schema") == "1");
 
+  {
+    // Read-only (the reading commands): read at version 1 as it is, the file left byte for byte.
+    const std::string bytes = read_file(path);
+    const RunStore reader(path, StoreOpen::read_only, 5.0);
+    CHECK(reader.schema_version() == 1);
+    const auto old = reader.obligors(1);
+    REQUIRE(old.size() == 2);
+    CHECK(old[0].measures.pd == 3.4e-6);
+    CHECK(old[0].grade.empty());
+    CHECK(std::isnan(old[0].pd_calibrated));
+    CHECK(reader.runs().at(0).driving_pd == DrivingPd::model);
+    CHECK_FALSE(reader.runs().at(0).calibration.present());
+    CHECK(reader.series("OLD-1").size() == 1);
+    CHECK(read_file(path) == bytes);
+  }
+
   RunStore store(path, StoreOpen::existing, 5.0);
-  CHECK(store.schema_version() == 2);
+  CHECK(store.schema_version() == kStoreSchemaVersion);
+  CHECK(kStoreSchemaVersion == 3);
   CHECK(raw_query(path, "SELECT note FROM firmcall_schema WHERE version = 2") ==
         "grade of each obligor; index by obligor id");
+  CHECK(raw_query(path, "SELECT note FROM firmcall_schema WHERE version = 3") ==
+        "calibrated one-year PD of each obligor; driving PD and calibration of each run");
   CHECK(raw_query(path, "SELECT count(*) FROM sqlite_master WHERE name = 'run_obligors_by_obligor'") == "1");
   // The old run reads as before; its grades are unknown (NULL), not invented.
   const auto runs = store.runs();
@@ -336,6 +355,7 @@ TEST_CASE("a version 1 store is migrated forward on open and keeps its runs") {
   CHECK(old[0].measures.pd == 3.4e-6);
   CHECK(old[0].measures.distance_to_default == 4.5);
   CHECK(old[0].grade.empty());
+  CHECK(std::isnan(old[0].pd_calibrated));  // recorded before calibrations were stored
   CHECK(old[1].status == RowStatus::invalid_input);
   CHECK_FALSE(old[1].has_inputs);
   // New runs go in with their grades.
@@ -343,6 +363,46 @@ TEST_CASE("a version 1 store is migrated forward on open and keeps its runs") {
   CHECK(store.obligors(id)[0].grade == "FC8");
   CHECK(store.series("OLD-1").size() == 2);
   CHECK(raw_query(path, "PRAGMA integrity_check") == "ok");
+}
+
+TEST_CASE("a run recorded with a calibration keeps its calibrated PD and calibration") {
+  TempDir dir;
+  const std::string path = dir.file("h.sqlite");
+  RunStore store(path, StoreOpen::create, 1.0);
+  RunInfo info = run_info("2026-11-06");
+  info.driving_pd = DrivingPd::calibrated;
+  info.calibration = {.file = "cal.yaml", .method = "logistic", .data_sha256 = std::string(64, 'c')};
+  StoredObligor a = scored_obligor("A", 0.01);
+  a.pd_calibrated = 0.1 + 0.2;  // not a short decimal: checks exact round trip
+  a.pd_calibrated_lower = 0.25;
+  a.pd_calibrated_upper = 0.35;
+  a.pd_calibrated_extrapolated = true;
+  const auto id = write_run(store, info, {a, scored_obligor("B", 0.02)});
+  const RunInfo back = store.select(std::to_string(id));
+  CHECK(back.driving_pd == DrivingPd::calibrated);
+  CHECK(back.calibration == info.calibration);
+  const auto rows = store.obligors(id);
+  REQUIRE(rows.size() == 2);
+  CHECK(rows[0].pd_calibrated == 0.1 + 0.2);
+  CHECK(rows[0].pd_calibrated_lower == 0.25);
+  CHECK(rows[0].pd_calibrated_upper == 0.35);
+  CHECK(rows[0].pd_calibrated_extrapolated);
+  CHECK(std::isnan(rows[1].pd_calibrated));  // none given: NULL, not 0
+  CHECK(raw_query(path, "SELECT count(*) FROM run_obligors WHERE pd_calibrated IS NULL") == "1");
+  CHECK(store.series("A").at(0).obligor.pd_calibrated == 0.1 + 0.2);
+  CHECK(store.series("A").at(0).run.calibration.method == "logistic");
+  // A run without a calibration stores the model PD as driving and NULL for the calibration.
+  const auto plain = write_run(store, run_info("2026-11-13"), {scored_obligor("A", 0.01)});
+  CHECK(store.select(std::to_string(plain)).driving_pd == DrivingPd::model);
+  CHECK(raw_query(path, "SELECT count(*) FROM runs WHERE calibration_method IS NULL") == "1");
+  // A text in a calibrated PD column (another program) is refused by name, never read as 0.
+  raw_sql(path, "UPDATE run_obligors SET pd_calibrated = 'high' WHERE obligor_id = 'B'");
+  CHECK_THROWS_WITH_AS(store.obligors(id),
+                       ("history store '" + path +
+                        "': run 1, obligor 'B', column pd_calibrated: expected a number, got text 'high' "
+                        "(written by another program?)")
+                           .c_str(),
+                       InputError);
 }
 
 TEST_CASE("a store from a newer firmcall is refused untouched") {
