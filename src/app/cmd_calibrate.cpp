@@ -30,7 +30,10 @@ ExitCode run_calibrate(const CalibrateCli& opts, const GlobalOptions& global) {
                      ", got " + bad->value);
   }
   const DefaultHistory history = read_default_history(opts.history);
-  const CalibrationRecord rec = calibrate_history(history, fit);
+  // A history of book fields is scored with the settings file's score section, as score would.
+  const CalibrationRecord rec = history.dd_from_book_fields()
+                                    ? calibrate_history(history, fit, global.config().score)
+                                    : calibrate_history(history, fit);
   // Both files are complete before either is committed.
   std::unique_ptr<OutputFile> saved;
   if (!opts.save.empty()) {
@@ -58,8 +61,8 @@ void add_calibrate_command(CLI::App& app, const GlobalOptions& global, CommandAc
   CLI::App* cmd = app.add_subcommand(
       "calibrate", "Calibrate distance to default to observed defaults (one-year PD) from a default history");
   cmd->add_option("history", opts->history,
-                  "Default history CSV: id, as_of, distance_to_default, defaulted (0/1 within one year), "
-                  "optional weight")
+                  "Default history CSV: id, as_of, distance_to_default (or the book columns of a score "
+                  "book, from which the DD is computed), defaulted (0/1 within one year), optional weight")
       ->required();
   cmd->add_option("--method", opts->method, "logistic (default), isotonic or binned")
       ->check(CLI::IsMember({"logistic", "isotonic", "binned"}));
