@@ -5,8 +5,8 @@
 #include <charconv>
 #include <chrono>
 #include <cmath>
+#include <functional>
 #include <optional>
-#include <unordered_map>
 
 #include "firmcall/book/errors.hpp"
 #include "firmcall/io/csv.hpp"
@@ -46,13 +46,74 @@ std::string quoted_list(const std::vector<std::string>& names) {
   return s;
 }
 
+// The (id, as_of) pairs of the rows read so far, to find a repeat: an open-addressing table
+// (linear probing, at most half full) of row numbers with 32 bits of each pair's hash, compared by
+// their text on a hash match. No allocation per row, unlike a map of joined keys.
+class ObservationIndex {
+ public:
+  static constexpr std::size_t kNone = static_cast<std::size_t>(-1);
+
+  explicit ObservationIndex(std::size_t expected_rows) {
+    std::size_t n = 64;
+    while (n < 2 * expected_rows) n *= 2;
+    slots_.assign(n, 0);
+  }
+
+  // The row of an earlier equal pair; else adds `row` (the next row of h) and returns kNone.
+  std::size_t find_or_add(std::string_view id, std::string_view as_of, const DefaultHistory& h) {
+    const std::uint64_t key = hash(id, as_of);
+    const std::size_t row = h.id.size();
+    if (row >= 0xFFFFFFFFU) throw InputError(located(h.origin, 0, "too many rows (at most 4294967294)"));
+    const std::size_t mask = slots_.size() - 1;
+    for (std::size_t at = key & mask;; at = (at + 1) & mask) {
+      const std::uint64_t slot = slots_[at];
+      if (slot == 0) {
+        slots_[at] = (key & 0xFFFFFFFF00000000U) | (row + 1);
+        if (2 * ++used_ > slots_.size()) grow(h, key);
+        return kNone;
+      }
+      const std::size_t other = static_cast<std::size_t>(slot & 0xFFFFFFFFU) - 1;
+      if ((slot >> 32) == (key >> 32) && h.id[other] == id && h.as_of[other] == as_of) return other;
+    }
+  }
+
+ private:
+  static std::uint64_t hash(std::string_view id, std::string_view as_of) {
+    const std::uint64_t a = std::hash<std::string_view>{}(id);
+    const std::uint64_t b = std::hash<std::string_view>{}(as_of);
+    std::uint64_t x = a ^ (b + 0x9E3779B97F4A7C15U + (a << 6) + (a >> 2));
+    x ^= x >> 33;  // a final mix (MurmurHash3's fmix64) spreads both halves over the table
+    x *= 0xFF51AFD7ED558CCDU;
+    x ^= x >> 33;
+    return x;
+  }
+
+  // Doubles the table, which holds the rows of h and the row being added (hash `added`).
+  void grow(const DefaultHistory& h, std::uint64_t added) {
+    std::vector<std::uint64_t> old;
+    old.swap(slots_);
+    slots_.assign(old.size() * 2, 0);
+    const std::size_t mask = slots_.size() - 1;
+    for (const std::uint64_t slot : old) {
+      if (slot == 0) continue;
+      const std::size_t row = static_cast<std::size_t>(slot & 0xFFFFFFFFU) - 1;
+      const std::uint64_t key = row < h.id.size() ? hash(h.id[row], h.as_of[row]) : added;
+      std::size_t at = key & mask;
+      while (slots_[at] != 0) at = (at + 1) & mask;
+      slots_[at] = slot;
+    }
+  }
+
+  std::vector<std::uint64_t> slots_;  // 0: empty; else (hash >> 32) << 32 | (row + 1)
+  std::size_t used_ = 0;
+};
+
 // Reads a default history record by record: the header, then one observation per row. Every
 // problem is an InputError naming the file, the line and the field.
 class HistoryReader {
  public:
-  HistoryReader(const std::string& path, DefaultHistory& h, std::size_t text_bytes) : path_(path), h_(h) {
-    const std::size_t expected_rows = text_bytes / 24 + 16;  // rows are rarely shorter than 24 bytes
-    seen_.reserve(expected_rows);
+  HistoryReader(const std::string& path, DefaultHistory& h, std::size_t expected_rows)
+      : path_(path), h_(h), seen_(expected_rows) {
     for (auto* v : {&h.distance_to_default, &h.defaulted}) v->reserve(expected_rows);
     h.id.reserve(expected_rows);
     h.as_of.reserve(expected_rows);
@@ -76,8 +137,8 @@ class HistoryReader {
   const std::string& path_;
   DefaultHistory& h_;
   int at_[kColumns] = {-1, -1, -1, -1, -1};
-  std::optional<CsvColumns> book_;                     // set when DD comes from the book columns
-  std::unordered_map<std::string, std::size_t> seen_;  // "id\x1f" "as_of" -> line
+  std::optional<CsvColumns> book_;  // set when DD comes from the book columns
+  ObservationIndex seen_;
 };
 
 void HistoryReader::header(const std::vector<std::string_view>& fields, std::size_t line) {
@@ -134,14 +195,11 @@ void HistoryReader::read_distance(const std::vector<std::string_view>& fields, s
 }
 
 void HistoryReader::check_repeat(std::string_view id, std::string_view as_of, std::size_t line) {
-  std::string key(id);
-  key += '\x1f';
-  key += as_of;
-  const auto [it, inserted] = seen_.emplace(std::move(key), line);
-  if (!inserted) {
+  const std::size_t earlier = seen_.find_or_add(id, as_of, h_);
+  if (earlier != ObservationIndex::kNone) {
     throw InputError(located(path_, line,
                              "field 'id': obligor '" + std::string(id) + "' as of " + std::string(as_of) +
-                                 " repeats line " + std::to_string(it->second)));
+                                 " repeats line " + std::to_string(h_.line[earlier])));
   }
 }
 
@@ -197,7 +255,7 @@ DefaultHistory read_default_history(const std::string& path) {
   CsvRecordReader records(path);
   records.start(text);
   if (!records.next()) throw InputError(located(path, 0, "empty file: a header row is required"));
-  HistoryReader reader(path, h, text.size());
+  HistoryReader reader(path, h, text.size() / 24 + 16);  // rows are rarely shorter than 24 bytes
   reader.header(records.fields(), records.line());
   std::size_t last_line = 0;
   while (records.next()) {

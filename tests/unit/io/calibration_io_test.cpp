@@ -172,3 +172,18 @@ TEST_CASE("default history: a DD column wins over book columns, with a note") {
             ":1: note: book columns 'market_cap', 'equity_vol' are not used: the DD is read from "
             "column 'distance_to_default'");
 }
+
+TEST_CASE("default history: a repeat is found among many short rows") {
+  // Rows shorter than the reader's size estimate make its index of (id, as_of) grow.
+  std::string text = kHeader;
+  for (int i = 0; i < 5000; ++i) {  // about 94 KB: the index starts at 8192 slots, half full at 4096
+    text += 'O';
+    text += std::to_string(i);
+    text += i % 2 ? ",2021-12-31,1,1\n" : ",2021-12-31,1,0\n";
+  }
+  text += "O7,2022-12-31,1,0\n";                      // another year: no repeat
+  CHECK(error_of(text + "O1234,2021-12-31,2,0\n") ==  // line 2 + 1234, counted by hand
+        ":5003: field 'id': obligor 'O1234' as of 2021-12-31 repeats line 1236");
+  CHECK(error_of(text + "O4900,2021-12-31,2,0\n") ==  // a row added after the index grew
+        ":5003: field 'id': obligor 'O4900' as of 2021-12-31 repeats line 4902");
+}
