@@ -6,7 +6,11 @@
 #include <vector>
 
 #include "firmcall/book/errors.hpp"
+#include "firmcall/book/grades.hpp"
 #include "firmcall/io/csv.hpp"
+#include "firmcall/io/outcomes_io.hpp"
+#include "firmcall/monitor/store_outcomes.hpp"
+#include "test_util.hpp"
 
 using namespace firmcall;
 
@@ -99,4 +103,43 @@ TEST_CASE("csv records: an open quote names file and line, a long record is flag
   REQUIRE(records.next());
   CHECK(records.fields()[0] == "\xEF\xBB\xBFx");
   CHECK(records.line() == 4);
+}
+
+TEST_CASE("csv records: the outcomes and default-dates readers built on it") {
+  const GradeScale scale = default_grade_scale();
+  // A byte-order mark and blank lines are skipped; a quote left open is named with its line.
+  const OutcomeSample s =
+      parse_outcomes("\xEF\xBB\xBFid,pd,defaulted\n\nA,0.01,1\n  \nB,0.02,0\n", "o.csv", {}, scale);
+  CHECK(s.pd == std::vector<double>{0.01, 0.02});
+  CHECK_THROWS_WITH_AS(parse_outcomes("id,pd,defaulted\nA,0.01,1\n\n\"B,0.02,0\n", "o.csv", {}, scale),
+                       "o.csv:4: a quoted field is never closed", InputError);
+  const DefaultDates d = parse_default_dates("\xEF\xBB\xBFid,default_date\n\nA,2022-03-31\n", "d.csv");
+  REQUIRE(d.day_of.count("A") == 1);
+  CHECK(d.day_of.at("A") == 19082);  // days from 1970-01-01 to 2022-03-31 (Python's datetime.date)
+  CHECK_THROWS_WITH_AS(parse_default_dates("id,default_date\n\"A,2022-03-31\n", "d.csv"),
+                       "d.csv:2: a quoted field is never closed", InputError);
+
+  // The file reader streams 1 MiB blocks: line numbers run on across them, and a quoted cell
+  // with a line break may straddle a block's end.
+  firmcall::testing::TempDir dir;
+  std::string text = "\xEF\xBB\xBFid,pd,defaulted,grade\n";
+  std::size_t rows = 0;
+  while (text.size() < (std::size_t{3} << 20)) {
+    text += 'O';
+    text += std::to_string(rows);
+    text += rows % 2 ? ",0.01,1,\"G\n" : ",0.01,0,\"G\n";
+    text += std::to_string(rows % 7);
+    text += "\"\n";
+    std::to_string(rows % 7) + "\"\n";
+    ++rows;
+  }
+  const std::string path = dir.write("o.csv", text + "X,0.01,2,G\n");
+  // Each row takes two lines: the bad one is on line 2 + 2 x rows.
+  CHECK_THROWS_WITH_AS(
+      load_outcomes(path, {}, scale),
+      (path + ":" + std::to_string(2 + 2 * rows) + ": field 'defaulted': expected 0 or 1, got '2'").c_str(),
+      InputError);
+  const OutcomeSample big = load_outcomes(dir.write("p.csv", text), {}, scale);
+  CHECK(big.pd.size() == rows);
+  CHECK(big.grade_labels.size() == scale.bands.size() + 7);  // the seven labels "G\n0" ... "G\n6"
 }
