@@ -31,9 +31,10 @@ bool scored_ok(const AssetSolution& solution, const MertonInputs& inputs, double
 }  // namespace
 
 std::vector<double> history_distances(const DefaultHistory& history, const ScoreSettings& settings) {
-  const std::vector<ObligorRecord>& rows = history.book_rows;
+  const std::vector<BookFieldRow>& rows = history.book_rows;
   const BookDefaults no_defaults;  // a CSV book has no run-wide defaults
   std::vector<double> dd(rows.size(), 0.0);
+  ObligorRecord rec;
   std::vector<ResolvedObligor> resolved(std::min(rows.size(), kSolveBlock));
   std::vector<MertonInputs> inputs;
   std::vector<std::size_t> solved_row;
@@ -44,7 +45,8 @@ std::vector<double> history_distances(const DefaultHistory& history, const Score
     inputs.clear();
     solved_row.clear();
     for (std::size_t i = 0; i < n; ++i) {
-      resolve_obligor(rows[begin + i], no_defaults, settings, resolved[i]);
+      history.book_record(begin + i, rec);
+      resolve_obligor(rec, no_defaults, settings, resolved[i]);
       if (resolved[i].ok()) {
         inputs.push_back(resolved[i].inputs);
         solved_row.push_back(begin + i);
@@ -64,7 +66,7 @@ std::vector<double> history_distances(const DefaultHistory& history, const Score
   }
   if (bad > 0) {
     // score's own words for the first such row: score it alone.
-    const ObligorRecord& rec = rows[first_bad];
+    history.book_record(first_bad, rec);
     ScoredObligor scored;
     score_obligor(rec, no_defaults, settings, scored);
     const std::string why = scored.message.empty() ? "a derived measure is not finite" : scored.message;

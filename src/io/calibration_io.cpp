@@ -138,6 +138,7 @@ class HistoryReader {
   DefaultHistory& h_;
   int at_[kColumns] = {-1, -1, -1, -1, -1};
   std::optional<CsvColumns> book_;  // set when DD comes from the book columns
+  ObligorRecord rec_;               // the row being read, with book_
   ObservationIndex seen_;
 };
 
@@ -181,10 +182,10 @@ void HistoryReader::header(const std::vector<std::string_view>& fields, std::siz
 
 void HistoryReader::read_distance(const std::vector<std::string_view>& fields, std::size_t line) {
   if (book_) {
-    ObligorRecord& rec = h_.book_rows.emplace_back();
-    rec.line = line;
-    parse_obligor_fields(fields, *book_, rec);
-    if (!rec.read_error.empty()) throw InputError(located(path_, line, rec.read_error));
+    rec_.clear();
+    parse_obligor_fields(fields, *book_, rec_);
+    if (!rec_.read_error.empty()) throw InputError(located(path_, line, rec_.read_error));
+    h_.book_rows.push_back({rec_.num, rec_.present});
     return;
   }
   double dd = 0.0;
@@ -246,6 +247,14 @@ void check_both_classes(const DefaultHistory& h) {
 }
 
 }  // namespace
+
+void DefaultHistory::book_record(std::size_t i, ObligorRecord& rec) const {
+  rec.clear();
+  rec.get(TextField::id) = id[i];
+  rec.line = line[i];
+  rec.num = book_rows[i].num;
+  rec.present = book_rows[i].present;
+}
 
 DefaultHistory read_default_history(const std::string& path) {
   DefaultHistory h;

@@ -25,6 +25,8 @@
 // Numbers are written in shortest round-trip form, so a file read back evaluates exactly as the fit.
 #pragma once
 
+#include <array>
+#include <cstdint>
 #include <string>
 #include <vector>
 
@@ -33,6 +35,12 @@
 
 namespace firmcall {
 
+/// The number fields of one row of a history of book fields, as an obligor record holds them.
+struct BookFieldRow {
+  std::array<double, kNumFieldCount> num{};
+  std::uint32_t present = 0;  ///< bit i set: num[i] was given
+};
+
 /// A default history as read from its file.
 struct DefaultHistory {
   std::string origin;
@@ -40,7 +48,7 @@ struct DefaultHistory {
   std::vector<std::string> as_of;
   std::vector<std::size_t> line;            ///< line of each observation in the file
   std::vector<double> distance_to_default;  ///< empty when the DD comes from book_rows
-  std::vector<ObligorRecord> book_rows;     ///< without a DD column: each row's book fields
+  std::vector<BookFieldRow> book_rows;      ///< without a DD column: each row's book fields
   std::vector<double> defaulted;
   std::vector<double> weight;  ///< empty when the file has no weight column
   std::string as_of_first, as_of_last;
@@ -49,6 +57,8 @@ struct DefaultHistory {
 
   /// True when each row's DD is to be computed from its book fields (no DD column).
   bool dd_from_book_fields() const noexcept { return distance_to_default.empty() && !book_rows.empty(); }
+  /// Row i of a history of book fields as an obligor record (id, line, number fields).
+  void book_record(std::size_t i, ObligorRecord& rec) const;
   /// The sample with the DD column (see dd_from_book_fields).
   CalibrationSample sample() const { return {distance_to_default, defaulted, weight}; }
 };

@@ -136,9 +136,13 @@ TEST_CASE("default history: book columns instead of a DD column") {
   CHECK(h.dd_from_book_fields());
   CHECK(h.distance_to_default.empty());
   REQUIRE(h.book_rows.size() == 2);
-  CHECK(h.book_rows[1].line == 3);
-  CHECK(h.book_rows[1].get(NumField::default_point) == 400.0);
-  CHECK(h.book_rows[0].get(TextField::id) == "A");
+  ObligorRecord rec;
+  h.book_record(1, rec);
+  CHECK(rec.line == 3);
+  CHECK(rec.get(NumField::default_point) == 400.0);
+  CHECK(rec.get(NumField::market_cap) == 310.0);
+  CHECK(rec.get(TextField::id) == "B");
+  CHECK_FALSE(rec.has(NumField::rate));
   REQUIRE(h.notes.size() == 3);
   CHECK(h.notes[0] == path + ":1: note: column 'sector' is not used");
   CHECK(h.notes[1].find(":1: note: no column 'distance_to_default': each row's DD is computed from its book "
