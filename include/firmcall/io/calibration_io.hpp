@@ -4,8 +4,8 @@
 // `defaulted` (1 when the obligor defaulted within one year after as_of, else 0) and an optional
 // `weight` (non-negative; default 1). Instead of `distance_to_default` a history may give the book
 // columns of a score book (market_cap or share_price with shares_outstanding, equity_vol, debt or
-// default_point, rate, horizon, ...): each row is then kept as an obligor record, and the engine
-// computes its DD as score does (calibration_book.hpp). With both, the DD column is used and the
+// default_point, rate, horizon, ...): each row's number fields are then kept (BookFieldRow), and
+// the engine computes its DD as score does (calibration_book.hpp). With both, the DD column is used and the
 // book columns are named in a note. Other columns are ignored (listed as notes). Rejected with
 // InputError naming file, line and field: a missing column, a DD that is empty or not a finite
 // number, a book cell that is not a number, `defaulted` other than 0 or 1, a bad date or weight, a
