@@ -71,7 +71,8 @@ std::vector<double> history_distances(const DefaultHistory& history, const Score
     score_obligor(rec, no_defaults, settings, scored);
     const std::string why = scored.message.empty() ? "a derived measure is not finite" : scored.message;
     std::string what = obligor_problem(history.origin, rec, why);
-    if (bad > 1) what += " (" + std::to_string(bad - 1) + " more rows cannot be scored either)";
+    if (bad == 2) what += " (1 more row cannot be scored either)";
+    if (bad > 2) what += " (" + std::to_string(bad - 1) + " more rows cannot be scored either)";
     throw InputError(what + "; a calibration uses every observation: correct or remove such rows");
   }
   return dd;

@@ -55,9 +55,22 @@ TEST_CASE("calibration book: a row score cannot score names file, line, obligor 
   CHECK_THROWS_WITH_AS(
       history_distances(h, ScoreSettings{}),
       (path + ":3: obligor 'B': field 'equity_vol': must be at least 0.0001 (0.01% a year), got 1e-05 "
-              "(1 more rows cannot be scored either); a calibration uses every observation: correct "
+              "(1 more row cannot be scored either); a calibration uses every observation: correct "
               "or remove such rows")
           .c_str(),
       InputError);
   CHECK_THROWS_AS(calibrate_history(h, CalibrationOptions{}), InputError);
+  // Without a rate column (and no --rate) no row can be scored: the first is named, the rest counted.
+  const DefaultHistory no_rate = read_default_history(
+      dir.write("r.csv",
+                "id,as_of,market_cap,equity_vol,default_point,defaulted\nA,2021-12-31,1250,0.32,850,1\n"
+                "B,2021-12-31,310,0.3,400,0\nC,2021-12-31,310,0.5,400,0\n"));
+  try {
+    history_distances(no_rate, ScoreSettings{});
+    FAIL("no error");
+  } catch (const InputError& e) {
+    const std::string what = e.what();
+    CHECK(what.find(":2: obligor 'A': field 'rate': missing") != std::string::npos);
+    CHECK(what.find("(2 more rows cannot be scored either)") != std::string::npos);
+  }
 }
