@@ -18,7 +18,12 @@ struct CalibrateCli {
   std::string save;
   OutputOptions out;
   CalibrationOptions fit;
+  ScoringOptions scoring;  // --rate, --horizon, --default-point-weight, --measure: as for score
 };
+
+bool any_scoring_option(const ScoringOptions& o) {
+  return o.rate || o.horizon || o.weight || !o.measure.empty();
+}
 
 ExitCode run_calibrate(const CalibrateCli& opts, const GlobalOptions& global) {
   CalibrationOptions fit = opts.fit;
@@ -30,7 +35,16 @@ ExitCode run_calibrate(const CalibrateCli& opts, const GlobalOptions& global) {
                      ", got " + bad->value);
   }
   const DefaultHistory history = read_default_history(opts.history);
-  const CalibrationRecord rec = calibrate_history(history, fit);
+  if (!history.dd_from_book_fields() && any_scoring_option(opts.scoring)) {
+    throw InputError(
+        "--rate, --horizon, --default-point-weight, --measure: apply only to a history of book fields "
+        "(without a distance_to_default column)");
+  }
+  // A history of book fields is scored with the settings file and these options, as score would.
+  const CalibrationRecord rec =
+      history.dd_from_book_fields()
+          ? calibrate_history(history, fit, scoring_settings(global.config().score, opts.scoring))
+          : calibrate_history(history, fit);
   // Both files are complete before either is committed.
   std::unique_ptr<OutputFile> saved;
   if (!opts.save.empty()) {
@@ -58,8 +72,8 @@ void add_calibrate_command(CLI::App& app, const GlobalOptions& global, CommandAc
   CLI::App* cmd = app.add_subcommand(
       "calibrate", "Calibrate distance to default to observed defaults (one-year PD) from a default history");
   cmd->add_option("history", opts->history,
-                  "Default history CSV: id, as_of, distance_to_default, defaulted (0/1 within one year), "
-                  "optional weight")
+                  "Default history CSV: id, as_of, distance_to_default (or the book columns of a score "
+                  "book, from which the DD is computed), defaulted (0/1 within one year), optional weight")
       ->required();
   cmd->add_option("--method", opts->method, "logistic (default), isotonic or binned")
       ->check(CLI::IsMember({"logistic", "isotonic", "binned"}));
@@ -67,6 +81,7 @@ void add_calibrate_command(CLI::App& app, const GlobalOptions& global, CommandAc
   cmd->add_option("--level", opts->fit.confidence_level,
                   "Two-sided confidence level of the intervals (default 0.95)");
   cmd->add_option("--save", opts->save, "Write the calibration file (YAML) for score --pd-calibration");
+  add_scoring_options(cmd, opts->scoring, "History of book fields: horizon in years for every row");
   add_output_options(cmd, opts->out);
   cmd->footer(
       "\nExit codes: 0 calibrated; 2 unreadable or malformed history, unusable fit or bad command line.\n\n" +

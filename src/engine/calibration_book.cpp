@@ -1,19 +1,93 @@
 #include "firmcall/engine/calibration_book.hpp"
 
+#include <algorithm>
+#include <cmath>
 #include <cstdio>
 #include <iterator>
 
 #include <fmt/format.h>
 
 #include "firmcall/book/errors.hpp"
+#include "firmcall/engine/score_book.hpp"
 #include "firmcall/format/json_writer.hpp"
 #include "firmcall/format/table_text.hpp"
 
 namespace firmcall {
 
-CalibrationRecord calibrate_history(const DefaultHistory& history, const CalibrationOptions& options) {
+namespace {
+
+constexpr std::size_t kSolveBlock = 4096;  // rows resolved and solved together
+
+// What score requires of a solved obligor before it prints its measures (status ok).
+bool scored_ok(const AssetSolution& solution, const MertonInputs& inputs, double& dd) {
+  if (!solution.usable()) return false;
+  const MertonMeasures m = merton_measures(inputs, solution.asset_value, solution.asset_vol_annual);
+  const double all[] = {m.asset_value, m.asset_vol_annual, m.leverage,   m.distance_to_default,
+                        m.pd,          m.pd_risk_neutral,  m.debt_value, m.spread_bp};
+  dd = m.distance_to_default;
+  return std::all_of(std::begin(all), std::end(all), [](double x) { return std::isfinite(x); });
+}
+
+}  // namespace
+
+std::vector<double> history_distances(const DefaultHistory& history, const ScoreSettings& settings) {
+  const std::vector<BookFieldRow>& rows = history.book_rows;
+  const BookDefaults no_defaults;  // a CSV book has no run-wide defaults
+  std::vector<double> dd(rows.size(), 0.0);
+  ObligorRecord rec;
+  std::vector<ResolvedObligor> resolved(std::min(rows.size(), kSolveBlock));
+  std::vector<MertonInputs> inputs;
+  std::vector<std::size_t> solved_row;
+  std::vector<AssetSolution> solutions;
+  std::size_t first_bad = rows.size(), bad = 0;
+  for (std::size_t begin = 0; begin < rows.size(); begin += kSolveBlock) {
+    const std::size_t n = std::min(kSolveBlock, rows.size() - begin);
+    inputs.clear();
+    solved_row.clear();
+    for (std::size_t i = 0; i < n; ++i) {
+      history.book_record(begin + i, rec);
+      resolve_obligor(rec, no_defaults, settings, resolved[i]);
+      if (resolved[i].ok()) {
+        inputs.push_back(resolved[i].inputs);
+        solved_row.push_back(begin + i);
+      } else {
+        first_bad = std::min(first_bad, begin + i);
+        ++bad;
+      }
+    }
+    solutions.resize(inputs.size());
+    solve_asset_batch(inputs.data(), solutions.data(), inputs.size(), settings.solver);
+    for (std::size_t k = 0; k < inputs.size(); ++k) {
+      if (!scored_ok(solutions[k], inputs[k], dd[solved_row[k]])) {
+        first_bad = std::min(first_bad, solved_row[k]);
+        ++bad;
+      }
+    }
+  }
+  if (bad > 0) {
+    // score's own words for the first such row: score it alone.
+    history.book_record(first_bad, rec);
+    ScoredObligor scored;
+    score_obligor(rec, no_defaults, settings, scored);
+    const std::string why = scored.message.empty() ? "a derived measure is not finite" : scored.message;
+    std::string what = obligor_problem(history.origin, rec, why);
+    if (bad == 2) what += " (1 more row cannot be scored either)";
+    if (bad > 2) what += " (" + std::to_string(bad - 1) + " more rows cannot be scored either)";
+    throw InputError(what + "; a calibration uses every observation: correct or remove such rows");
+  }
+  return dd;
+}
+
+CalibrationRecord calibrate_history(const DefaultHistory& history, const CalibrationOptions& options,
+                                    const ScoreSettings& settings) {
   CalibrationRecord rec;
-  rec.calibration = calibrate_pd(history.sample(), options);
+  CalibrationSample sample = history.sample();
+  std::vector<double> computed;
+  if (history.dd_from_book_fields()) {
+    computed = history_distances(history, settings);
+    sample.distance_to_default = computed;
+  }
+  rec.calibration = calibrate_pd(sample, options);
   if (!rec.calibration.ok()) {
     throw InputError(history.origin + ": " + std::string(to_string(options.method)) +
                      " calibration not usable: " + rec.calibration.message);

@@ -5,7 +5,8 @@
 #include <charconv>
 #include <chrono>
 #include <cmath>
-#include <unordered_map>
+#include <functional>
+#include <optional>
 
 #include "firmcall/book/errors.hpp"
 #include "firmcall/io/csv.hpp"
@@ -32,114 +33,247 @@ enum Column : std::size_t { kId, kAsOf, kDd, kDefaulted, kWeight, kColumns };
 constexpr std::string_view kColumnNames[kColumns] = {"id", "as_of", "distance_to_default", "defaulted",
                                                      "weight"};
 
-}  // namespace
+// A column of an obligor book's number fields (market_cap, equity_vol, default_point, rate...).
+bool is_book_number_column(std::string_view name) {
+  std::optional<NumField> num;
+  std::optional<TextField> text;
+  return field_from_string(name, num, text) && num.has_value();
+}
 
-DefaultHistory read_default_history(const std::string& path) {
-  DefaultHistory h;
-  h.origin = path;
-  const std::string text = detail::read_text_file(path);
-  h.data_sha256 = sha256_hex(text);
-  std::string_view rest(text);
-  if (rest.substr(0, 3) == "\xEF\xBB\xBF") rest.remove_prefix(3);
-  std::vector<std::string_view> fields;
-  std::string scratch;
-  std::size_t next_line = 1;
-  // The next non-blank record; false at the end.
-  const auto next = [&](std::size_t& line) {
-    while (!rest.empty()) {
-      bool unterminated = false;
-      const std::size_t used = split_csv_record(rest, fields, scratch, unterminated);
-      line = next_line;
-      next_line += count_lines(rest.substr(0, used));
-      rest.remove_prefix(used);
-      if (unterminated) throw InputError(located(path, line, "a quoted field is never closed"));
-      if (fields.size() == 1 && trim_blanks(fields[0]).empty()) continue;
-      return true;
+std::string quoted_list(const std::vector<std::string>& names) {
+  std::string s;
+  for (const std::string& n : names) s += (s.empty() ? "'" : ", '") + n + "'";
+  return s;
+}
+
+// The (id, as_of) pairs of the rows read so far, to find a repeat: an open-addressing table
+// (linear probing, at most half full) of row numbers with 32 bits of each pair's hash, compared by
+// their text on a hash match. No allocation per row, unlike a map of joined keys.
+class ObservationIndex {
+ public:
+  static constexpr std::size_t kNone = static_cast<std::size_t>(-1);
+
+  explicit ObservationIndex(std::size_t expected_rows) {
+    std::size_t n = 64;
+    while (n < 2 * expected_rows) n *= 2;
+    slots_.assign(n, 0);
+  }
+
+  // The row of an earlier equal pair; else adds `row` (the next row of h) and returns kNone.
+  std::size_t find_or_add(std::string_view id, std::string_view as_of, const DefaultHistory& h) {
+    const std::uint64_t key = hash(id, as_of);
+    const std::size_t row = h.id.size();
+    if (row >= 0xFFFFFFFFU) throw InputError(located(h.origin, 0, "too many rows (at most 4294967294)"));
+    const std::size_t mask = slots_.size() - 1;
+    for (std::size_t at = key & mask;; at = (at + 1) & mask) {
+      const std::uint64_t slot = slots_[at];
+      if (slot == 0) {
+        slots_[at] = (key & 0xFFFFFFFF00000000U) | (row + 1);
+        if (2 * ++used_ > slots_.size()) grow(h, key);
+        return kNone;
+      }
+      const std::size_t other = static_cast<std::size_t>(slot & 0xFFFFFFFFU) - 1;
+      if ((slot >> 32) == (key >> 32) && h.id[other] == id && h.as_of[other] == as_of) return other;
     }
-    return false;
-  };
-  std::size_t line = 0;
-  if (!next(line)) throw InputError(located(path, 0, "empty file: a header row is required"));
-  int at[kColumns] = {-1, -1, -1, -1, -1};
+  }
+
+ private:
+  static std::uint64_t hash(std::string_view id, std::string_view as_of) {
+    const std::uint64_t a = std::hash<std::string_view>{}(id);
+    const std::uint64_t b = std::hash<std::string_view>{}(as_of);
+    std::uint64_t x = a ^ (b + 0x9E3779B97F4A7C15U + (a << 6) + (a >> 2));
+    x ^= x >> 33;  // a final mix (MurmurHash3's fmix64) spreads both halves over the table
+    x *= 0xFF51AFD7ED558CCDU;
+    x ^= x >> 33;
+    return x;
+  }
+
+  // Doubles the table, which holds the rows of h and the row being added (hash `added`).
+  void grow(const DefaultHistory& h, std::uint64_t added) {
+    std::vector<std::uint64_t> old;
+    old.swap(slots_);
+    slots_.assign(old.size() * 2, 0);
+    const std::size_t mask = slots_.size() - 1;
+    for (const std::uint64_t slot : old) {
+      if (slot == 0) continue;
+      const std::size_t row = static_cast<std::size_t>(slot & 0xFFFFFFFFU) - 1;
+      const std::uint64_t key = row < h.id.size() ? hash(h.id[row], h.as_of[row]) : added;
+      std::size_t at = key & mask;
+      while (slots_[at] != 0) at = (at + 1) & mask;
+      slots_[at] = slot;
+    }
+  }
+
+  std::vector<std::uint64_t> slots_;  // 0: empty; else (hash >> 32) << 32 | (row + 1)
+  std::size_t used_ = 0;
+};
+
+// Reads a default history record by record: the header, then one observation per row. Every
+// problem is an InputError naming the file, the line and the field.
+class HistoryReader {
+ public:
+  HistoryReader(const std::string& path, DefaultHistory& h, std::size_t expected_rows)
+      : path_(path), h_(h), seen_(expected_rows) {
+    for (auto* v : {&h.distance_to_default, &h.defaulted}) v->reserve(expected_rows);
+    h.id.reserve(expected_rows);
+    h.as_of.reserve(expected_rows);
+    h.line.reserve(expected_rows);
+  }
+
+  void header(const std::vector<std::string_view>& fields, std::size_t line);
+  void row(const std::vector<std::string_view>& fields, std::size_t line);
+
+ private:
+  std::string_view cell(const std::vector<std::string_view>& fields, std::size_t k) const {
+    const auto i = static_cast<std::size_t>(at_[k]);
+    return i < fields.size() ? trim_blanks(fields[i]) : std::string_view{};
+  }
+  [[noreturn]] void fail(std::size_t line, std::size_t k, const std::string& why) const {
+    throw InputError(located(path_, line, "field '" + std::string(kColumnNames[k]) + "': " + why));
+  }
+  void read_distance(const std::vector<std::string_view>& fields, std::size_t line);
+  void check_repeat(std::string_view id, std::string_view as_of, std::size_t line);
+
+  const std::string& path_;
+  DefaultHistory& h_;
+  int at_[kColumns] = {-1, -1, -1, -1, -1};
+  std::optional<CsvColumns> book_;  // set when DD comes from the book columns
+  ObligorRecord rec_;               // the row being read, with book_
+  ObservationIndex seen_;
+};
+
+void HistoryReader::header(const std::vector<std::string_view>& fields, std::size_t line) {
+  std::vector<std::string> book_columns;
   for (std::size_t i = 0; i < fields.size(); ++i) {
     const std::string_view name = trim_blanks(fields[i]);
     const auto* it = std::find(std::begin(kColumnNames), std::end(kColumnNames), name);
     if (it == std::end(kColumnNames)) {
-      h.notes.push_back(located(path, line, "note: column '" + std::string(name) + "' is not used"));
+      if (is_book_number_column(name)) {
+        book_columns.emplace_back(name);
+      } else {
+        h_.notes.push_back(located(path_, line, "note: column '" + std::string(name) + "' is not used"));
+      }
       continue;
     }
-    int& slot = at[it - std::begin(kColumnNames)];
+    int& slot = at_[it - std::begin(kColumnNames)];
     if (slot >= 0)
-      throw InputError(located(path, line, "header: column '" + std::string(name) + "' appears twice"));
+      throw InputError(located(path_, line, "header: column '" + std::string(name) + "' appears twice"));
     slot = static_cast<int>(i);
   }
+  if (at_[kDd] >= 0 && !book_columns.empty()) {
+    h_.notes.push_back(located(path_, line,
+                               "note: book columns " + quoted_list(book_columns) +
+                                   " are not used: the DD is read from column 'distance_to_default'"));
+  } else if (at_[kDd] < 0 && !book_columns.empty()) {
+    book_ = CsvColumns::from_header(fields, path_);
+    at_[kDd] = 0;  // not read: the DD is computed from the book columns
+    h_.notes.push_back(located(path_, line,
+                               "note: no column 'distance_to_default': each row's DD is computed from its "
+                               "book columns as score computes it (settings: scoring, solver)"));
+  }
   for (std::size_t k = 0; k < kWeight; ++k) {
-    if (at[k] < 0) {
-      throw InputError(
-          located(path, line, "header: required column '" + std::string(kColumnNames[k]) + "' is missing"));
+    if (at_[k] < 0) {
+      std::string what = "header: required column '" + std::string(kColumnNames[k]) + "' is missing";
+      if (k == kDd) what += " (or give the book columns of a score book to compute it from)";
+      throw InputError(located(path_, line, what));
     }
   }
-  std::unordered_map<std::string, std::size_t> seen;        // "id\x1f" "as_of" -> line
-  const std::size_t expected_rows = text.size() / 24 + 16;  // rows are rarely shorter than 24 bytes
-  seen.reserve(expected_rows);
-  for (auto* v : {&h.distance_to_default, &h.defaulted}) v->reserve(expected_rows);
-  h.id.reserve(expected_rows);
-  h.as_of.reserve(expected_rows);
-  h.line.reserve(expected_rows);
-  while (next(line)) {
-    const auto cell = [&](std::size_t k) {
-      const auto i = static_cast<std::size_t>(at[k]);
-      return i < fields.size() ? trim_blanks(fields[i]) : std::string_view{};
-    };
-    const auto fail = [&](std::size_t k, const std::string& why) {
-      throw InputError(located(path, line, "field '" + std::string(kColumnNames[k]) + "': " + why));
-    };
-    const std::string_view id = cell(kId), as_of = cell(kAsOf);
-    if (id.empty()) fail(kId, "missing");
-    if (!is_date(as_of)) fail(kAsOf, "expected a date YYYY-MM-DD, got " + quoted_cell(as_of));
-    double dd = 0.0;
-    if (cell(kDd).empty()) fail(kDd, "missing");
-    if (!parse_number(cell(kDd), dd)) fail(kDd, "expected a finite number, got " + quoted_cell(cell(kDd)));
-    const std::string_view y = cell(kDefaulted);
-    if (y != "0" && y != "1") fail(kDefaulted, "expected 0 or 1, got " + quoted_cell(y));
+}
+
+void HistoryReader::read_distance(const std::vector<std::string_view>& fields, std::size_t line) {
+  if (book_) {
+    rec_.clear();
+    parse_obligor_fields(fields, *book_, rec_);
+    if (!rec_.read_error.empty()) throw InputError(located(path_, line, rec_.read_error));
+    h_.book_rows.push_back({rec_.num, rec_.present});
+    return;
+  }
+  double dd = 0.0;
+  if (cell(fields, kDd).empty()) fail(line, kDd, "missing");
+  if (!parse_number(cell(fields, kDd), dd))
+    fail(line, kDd, "expected a finite number, got " + quoted_cell(cell(fields, kDd)));
+  h_.distance_to_default.push_back(dd);
+}
+
+void HistoryReader::check_repeat(std::string_view id, std::string_view as_of, std::size_t line) {
+  const std::size_t earlier = seen_.find_or_add(id, as_of, h_);
+  if (earlier != ObservationIndex::kNone) {
+    throw InputError(located(path_, line,
+                             "field 'id': obligor '" + std::string(id) + "' as of " + std::string(as_of) +
+                                 " repeats line " + std::to_string(h_.line[earlier])));
+  }
+}
+
+void HistoryReader::row(const std::vector<std::string_view>& fields, std::size_t line) {
+  const std::string_view id = cell(fields, kId), as_of = cell(fields, kAsOf);
+  if (id.empty()) fail(line, kId, "missing");
+  if (!is_date(as_of)) fail(line, kAsOf, "expected a date YYYY-MM-DD, got " + quoted_cell(as_of));
+  read_distance(fields, line);
+  const std::string_view y = cell(fields, kDefaulted);
+  if (y != "0" && y != "1") fail(line, kDefaulted, "expected 0 or 1, got " + quoted_cell(y));
+  if (at_[kWeight] >= 0) {
     double w = 1.0;
-    if (at[kWeight] >= 0) {
-      if (!parse_number(cell(kWeight), w) || w < 0.0) {
-        fail(kWeight, "expected a non-negative number, got " + quoted_cell(cell(kWeight)));
-      }
-      h.weight.push_back(w);
+    if (!parse_number(cell(fields, kWeight), w) || w < 0.0) {
+      fail(line, kWeight, "expected a non-negative number, got " + quoted_cell(cell(fields, kWeight)));
     }
-    std::string key(id);
-    key += '\x1f';
-    key += as_of;
-    const auto [it, inserted] = seen.emplace(std::move(key), line);
-    if (!inserted) {
-      throw InputError(located(path, line,
-                               "field 'id': obligor '" + std::string(id) + "' as of " + std::string(as_of) +
-                                   " repeats line " + std::to_string(it->second)));
-    }
-    h.id.emplace_back(id);
-    h.as_of.emplace_back(as_of);
-    h.line.push_back(line);
-    h.distance_to_default.push_back(dd);
-    h.defaulted.push_back(y == "1" ? 1.0 : 0.0);
-    if (h.as_of_first.empty() || as_of < h.as_of_first) h.as_of_first = std::string(as_of);
-    if (as_of > h.as_of_last) h.as_of_last = std::string(as_of);
+    h_.weight.push_back(w);
   }
-  if (h.id.empty()) throw InputError(located(path, 0, "no observations after the header"));
+  check_repeat(id, as_of, line);
+  h_.id.emplace_back(id);
+  h_.as_of.emplace_back(as_of);
+  h_.line.push_back(line);
+  h_.defaulted.push_back(y == "1" ? 1.0 : 0.0);
+  if (h_.as_of_first.empty() || as_of < h_.as_of_first) h_.as_of_first = std::string(as_of);
+  if (as_of > h_.as_of_last) h_.as_of_last = std::string(as_of);
+}
+
+// Both classes are needed: defaults to set the PD level, survivors to set the slope.
+void check_both_classes(const DefaultHistory& h) {
+  if (h.id.empty()) throw InputError(located(h.origin, 0, "no observations after the header"));
   double wd = 0.0, ws = 0.0;
   for (std::size_t i = 0; i < h.id.size(); ++i) {
     const double w = h.weight.empty() ? 1.0 : h.weight[i];
     (h.defaulted[i] == 1.0 ? wd : ws) += w;
   }
   if (!(wd > 0.0)) {
-    throw InputError(located(path, 0,
+    throw InputError(located(h.origin, 0,
                              "field 'defaulted': no defaults (with positive weight) in " +
                                  std::to_string(h.id.size()) +
                                  " observations: nothing to calibrate the PD level to"));
   }
   if (!(ws > 0.0)) {
-    throw InputError(located(path, 0, "field 'defaulted': every observation defaulted: one class only"));
+    throw InputError(located(h.origin, 0, "field 'defaulted': every observation defaulted: one class only"));
+  }
+}
+
+}  // namespace
+
+void DefaultHistory::book_record(std::size_t i, ObligorRecord& rec) const {
+  rec.clear();
+  rec.get(TextField::id) = id[i];
+  rec.line = line[i];
+  rec.num = book_rows[i].num;
+  rec.present = book_rows[i].present;
+}
+
+DefaultHistory read_default_history(const std::string& path) {
+  DefaultHistory h;
+  h.origin = path;
+  const std::string text = detail::read_text_file(path);
+  h.data_sha256 = sha256_hex(text);
+  CsvRecordReader records(path);
+  records.start(text);
+  if (!records.next()) throw InputError(located(path, 0, "empty file: a header row is required"));
+  HistoryReader reader(path, h, text.size() / 24 + 16);  // rows are rarely shorter than 24 bytes
+  reader.header(records.fields(), records.line());
+  std::size_t last_line = 0;
+  while (records.next()) {
+    reader.row(records.fields(), records.line());
+    last_line = records.line();
+  }
+  check_both_classes(h);
+  if (records.ended_without_line_break() && last_line != 0) {
+    h.notes.push_back(located(path, last_line, no_final_line_break_note()));
   }
   return h;
 }

@@ -224,6 +224,38 @@ std::size_t count_lines(std::string_view text) noexcept {
   return n;
 }
 
+void CsvRecordReader::start(std::string_view text, std::size_t first_line, bool at_end) noexcept {
+  rest_ = text;
+  consumed_ = 0;
+  line_ = first_line;
+  next_line_ = first_line;
+  record_bytes_ = 0;
+  ended_without_line_break_ = false;
+  if (first_line == 1 && rest_.substr(0, 3) == "\xEF\xBB\xBF") {
+    rest_.remove_prefix(3);
+    consumed_ = 3;
+  }
+  if (!at_end) rest_ = rest_.substr(0, last_record_end(rest_));
+}
+
+bool CsvRecordReader::next() {
+  while (!rest_.empty()) {
+    bool unterminated = false;
+    const std::size_t used = split_csv_record(rest_, fields_, scratch_, unterminated);
+    const std::string_view raw = rest_.substr(0, used);
+    line_ = next_line_;
+    next_line_ += count_lines(raw);
+    rest_.remove_prefix(used);
+    consumed_ += used;
+    if (unterminated) throw InputError(located(origin_, line_, "a quoted field is never closed"));
+    if (fields_.size() == 1 && trim_blanks(fields_[0]).empty()) continue;  // blank line
+    record_bytes_ = used;
+    ended_without_line_break_ = rest_.empty() && raw.back() != '\n' && raw.back() != '\r';
+    return true;
+  }
+  return false;
+}
+
 std::string_view trim_blanks(std::string_view s) noexcept {
   while (!s.empty() && (s.front() == ' ' || s.front() == '\t')) s.remove_prefix(1);
   while (!s.empty() && (s.back() == ' ' || s.back() == '\t')) s.remove_suffix(1);

@@ -215,20 +215,11 @@ class OutcomeParser {
 // Feeds the complete records of `text` (all of it when `at_end`) to the parser; returns the bytes
 // used. `line` is the line number of text's first byte and moves on.
 std::size_t feed(std::string_view text, bool at_end, OutcomeParser& parser, std::size_t& line,
-                 std::vector<std::string_view>& fields, std::string& scratch, const std::string& origin) {
-  const std::size_t usable = at_end ? text.size() : last_record_end(text);
-  std::string_view rest = text.substr(0, usable);
-  while (!rest.empty()) {
-    bool unterminated = false;
-    const std::size_t used = split_csv_record(rest, fields, scratch, unterminated);
-    const std::size_t at = line;
-    line += count_lines(rest.substr(0, used));
-    rest.remove_prefix(used);
-    if (unterminated) throw InputError(located(origin, at, "a quoted field is never closed"));
-    if (fields.size() == 1 && trim_blanks(fields[0]).empty()) continue;  // blank line
-    parser.record(fields, at);
-  }
-  return usable;
+                 CsvRecordReader& records) {
+  records.start(text, line, at_end);
+  while (records.next()) parser.record(records.fields(), records.line());
+  line = records.next_line();
+  return records.consumed();
 }
 
 struct FileCloser {
@@ -259,12 +250,10 @@ OptionCheck OutcomeReadOptions::validate() const {
 OutcomeSample parse_outcomes(std::string_view text, const std::string& origin,
                              const OutcomeReadOptions& options, const GradeScale& scale) {
   check_options(options);
-  if (text.substr(0, 3) == "\xEF\xBB\xBF") text.remove_prefix(3);
   OutcomeParser parser(origin, options, scale);
-  std::vector<std::string_view> fields;
-  std::string scratch;
+  CsvRecordReader records(origin);
   std::size_t line = 1;
-  feed(text, true, parser, line, fields, scratch, origin);
+  feed(text, true, parser, line, records);
   return parser.finish();
 }
 
@@ -274,22 +263,17 @@ OutcomeSample load_outcomes(const std::string& path, const OutcomeReadOptions& o
   std::unique_ptr<std::FILE, FileCloser> f(std::fopen(path.c_str(), "rb"));
   if (!f) throw InputError("cannot open file '" + path + "'");
   OutcomeParser parser(path, options, scale);
-  std::vector<std::string_view> fields;
-  std::string scratch;
+  CsvRecordReader records(path);
   std::string buffer;
   std::size_t line = 1;
   std::size_t kept = 0;  // bytes carried over from the previous block
-  bool first = true;
   for (;;) {
     buffer.resize(kept + kBlockBytes);
     const std::size_t got = std::fread(buffer.data() + kept, 1, kBlockBytes, f.get());
     if (std::ferror(f.get())) throw InputError("cannot read file '" + path + "'");
     const bool at_end = got < kBlockBytes;
-    std::string_view text(buffer.data(), kept + got);
-    std::size_t skip = 0;
-    if (first && text.substr(0, 3) == "\xEF\xBB\xBF") skip = 3;
-    first = false;
-    const std::size_t used = skip + feed(text.substr(skip), at_end, parser, line, fields, scratch, path);
+    const std::string_view text(buffer.data(), kept + got);
+    const std::size_t used = feed(text, at_end, parser, line, records);
     kept = text.size() - used;
     std::memmove(buffer.data(), buffer.data() + used, kept);
     if (at_end) break;

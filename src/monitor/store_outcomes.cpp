@@ -37,24 +37,17 @@ bool calendar_day(std::string_view date, std::int64_t& day) noexcept {
 }
 
 DefaultDates parse_default_dates(std::string_view text, const std::string& origin) {
-  if (text.substr(0, 3) == "\xEF\xBB\xBF") text.remove_prefix(3);
   DefaultDates d;
   d.origin = origin;
-  std::vector<std::string_view> fields;
-  std::string scratch;
-  std::size_t line = 1;
+  CsvRecordReader records(origin);
+  records.start(text);
   bool have_header = false;
   std::size_t width = 0;
   std::size_t id_at = 0;
   std::size_t date_at = 0;
-  while (!text.empty()) {
-    bool unterminated = false;
-    const std::size_t used = split_csv_record(text, fields, scratch, unterminated);
-    const std::size_t at = line;
-    line += count_lines(text.substr(0, used));
-    text.remove_prefix(used);
-    if (unterminated) throw InputError(located(origin, at, "a quoted field is never closed"));
-    if (fields.size() == 1 && trim_blanks(fields[0]).empty()) continue;  // blank line
+  while (records.next()) {
+    const std::vector<std::string_view>& fields = records.fields();
+    const std::size_t at = records.line();
     if (!have_header) {
       have_header = true;
       width = fields.size();

@@ -50,6 +50,53 @@ TEST_CASE("calibrate: a bad history names file, line and field, and writes nothi
   CHECK_FALSE(std::filesystem::exists(saved));
 }
 
+TEST_CASE("calibrate: book fields, a row that cannot be scored refuses the history") {
+  TempDir dir;
+  const std::string saved = dir.file("cal.yaml");
+  // The sample of book fields calibrates (exit 0) and says that its DDs were computed.
+  const RunResult ok = run_firmcall("calibrate samples/default_history_book.csv --save '" + saved + "'");
+  CHECK(ok.exit_code == 0);
+  CHECK(ok.err.find("note: no column 'distance_to_default'") != std::string::npos);
+  CHECK(std::filesystem::exists(saved));
+  std::filesystem::remove(saved);
+  // equity_vol 35 is a percentage typed by mistake (score refuses it too: settings max_equity_vol 10).
+  const std::string bad = dir.write("h.csv",
+                                    "id,as_of,market_cap,equity_vol,default_point,rate,defaulted\n"
+                                    "A,2021-12-31,1250,0.32,850,0.03,1\nB,2021-12-31,310,35,400,0.03,0\n");
+  const RunResult r =
+      run_firmcall("calibrate '" + bad + "' --save '" + saved + "' -o '" + dir.file("o.txt") + "'");
+  CHECK(r.exit_code == 2);
+  CHECK(r.err.find(bad + ":3: obligor 'B': field 'equity_vol': ") != std::string::npos);
+  CHECK(r.err.find("a calibration uses every observation") != std::string::npos);
+  CHECK_FALSE(std::filesystem::exists(saved));
+  CHECK_FALSE(std::filesystem::exists(dir.file("o.txt")));
+}
+
+TEST_CASE("calibrate: --rate and the other scoring options apply to a history of book fields only") {
+  TempDir dir;
+  const std::string rows[] = {"A,2021-12-31,1250,0.32,850", "B,2021-12-31,310,0.30,400",
+                              "C,2021-12-31,900,0.45,600",  "D,2021-12-31,200,0.60,300",
+                              "E,2021-12-31,1500,0.25,500", "F,2021-12-31,700,0.40,650",
+                              "G,2021-12-31,400,0.50,500"};
+  const char* defaulted[] = {"1", "0", "0", "1", "0", "0", "1"};
+  std::string with_rate = "id,as_of,market_cap,equity_vol,default_point,rate,defaulted\n";
+  std::string without_rate = "id,as_of,market_cap,equity_vol,default_point,defaulted\n";
+  for (std::size_t i = 0; i < 7; ++i) {
+    with_rate += rows[i] + ",0.03," + defaulted[i] + "\n";
+    without_rate += rows[i] + "," + defaulted[i] + "\n";
+  }
+  // --rate 0.03 on every row is the same history as a rate column of 0.03 (score's precedence).
+  const RunResult a = run_firmcall("calibrate '" + dir.write("a.csv", with_rate) + "' --format csv");
+  const RunResult b =
+      run_firmcall("calibrate '" + dir.write("b.csv", without_rate) + "' --rate 0.03 --format csv");
+  REQUIRE(a.exit_code == 0);
+  CHECK(b.exit_code == 0);
+  CHECK(a.out == b.out);
+  const RunResult c = run_firmcall("calibrate samples/default_history.csv --rate 0.03");
+  CHECK(c.exit_code == 2);
+  CHECK(c.err.find("apply only to a history of book fields") != std::string::npos);
+}
+
 TEST_CASE("score --pd-calibration: the calibrated PD is the logistic of the fitted line at each DD") {
   TempDir dir;
   const std::string cal = dir.file("cal.yaml");

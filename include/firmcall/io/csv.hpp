@@ -59,6 +59,61 @@ std::size_t last_record_end(std::string_view text) noexcept;
 /// Counts the line breaks in [text.begin(), text.begin() + n).
 std::size_t count_lines(std::string_view text) noexcept;
 
+/// The records of CSV text one after another: the loop of the readers that take a whole file (or
+/// blocks of one cut at record ends with last_record_end). A UTF-8 byte-order mark at the start of
+/// the file is skipped; records end where split_csv_record ends them (a quoted field may hold line
+/// breaks); blank records (nothing but spaces and tabs) are skipped; each record knows the line it
+/// starts on. A quote that never closes is an InputError "origin:line: a quoted field is never
+/// closed".
+///
+/// **Example**:
+///   CsvRecordReader records(path);
+///   records.start(text);
+///   while (records.next()) use(records.fields(), records.line());
+class CsvRecordReader {
+ public:
+  /// `origin` names the text in messages (kept by reference: it must outlive the reader).
+  /// A record longer than `max_record_bytes` (0: no limit) is still returned; too_long() says so.
+  explicit CsvRecordReader(const std::string& origin, std::size_t max_record_bytes = 0)
+      : origin_(origin), max_record_bytes_(max_record_bytes) {}
+
+  /// Starts on `text` (kept by view: it must outlive the records read from it), whose first byte
+  /// is on line `first_line`. At line 1 the text is the start of the file, and a byte-order mark
+  /// there is skipped. When `at_end` is false the text is a block of a longer file, and only its
+  /// complete records (up to last_record_end) are read: consumed() then says where the next
+  /// block starts.
+  void start(std::string_view text, std::size_t first_line = 1, bool at_end = true) noexcept;
+
+  /// Moves to the next record that is not blank; false at the end of the text.
+  bool next();
+
+  /// The fields of the current record (views into the text, or into the reader for cells with "").
+  const std::vector<std::string_view>& fields() const noexcept { return fields_; }
+  /// The line the current record starts on.
+  std::size_t line() const noexcept { return line_; }
+  /// The line of the first byte not yet read.
+  std::size_t next_line() const noexcept { return next_line_; }
+  /// Bytes of the text read so far (the byte-order mark included).
+  std::size_t consumed() const noexcept { return consumed_; }
+  /// The current record, line end included, is longer than max_record_bytes.
+  bool too_long() const noexcept { return max_record_bytes_ != 0 && record_bytes_ > max_record_bytes_; }
+  /// The current record is the last of the text and no line break follows it (the file may have
+  /// been cut short: see no_final_line_break_note).
+  bool ended_without_line_break() const noexcept { return ended_without_line_break_; }
+
+ private:
+  const std::string& origin_;
+  std::size_t max_record_bytes_;
+  std::string_view rest_;
+  std::vector<std::string_view> fields_;
+  std::string scratch_;
+  std::size_t line_ = 0;
+  std::size_t next_line_ = 1;
+  std::size_t consumed_ = 0;
+  std::size_t record_bytes_ = 0;
+  bool ended_without_line_break_ = false;
+};
+
 /// Where each CSV column goes.
 struct CsvColumns {
   struct Column {

@@ -65,7 +65,8 @@ TEST_CASE("default history: bad rows name file, line and field") {
   CHECK(error_of(std::string(kHeader) + "A,2021-02-30,1,1\n") ==
         ":2: field 'as_of': expected a date YYYY-MM-DD, got '2021-02-30'");
   CHECK(error_of("id,as_of,defaulted\nA,2021-12-31,1\n") ==
-        ":1: header: required column 'distance_to_default' is missing");
+        ":1: header: required column 'distance_to_default' is missing (or give the book columns of a "
+        "score book to compute it from)");
 }
 
 TEST_CASE("calibration file: written and read back, the same PD at every DD") {
@@ -123,4 +124,70 @@ TEST_CASE("calibration file: bad fields name file, line and key") {
   std::string method = good;
   method.replace(method.find("isotonic"), 8, "magic");
   CHECK(error(method).find("c.yaml:2: key 'method'") == 0);
+}
+
+TEST_CASE("default history: book columns instead of a DD column") {
+  TempDir dir;
+  const std::string text =
+      "id,as_of,market_cap,equity_vol,default_point,sector,defaulted\n"
+      "A,2021-12-31,1250,0.32,850,x,1\nB,2021-12-31,310,0.55,400,y,0";
+  const std::string path = dir.write("h.csv", text);
+  const DefaultHistory h = read_default_history(path);
+  CHECK(h.dd_from_book_fields());
+  CHECK(h.distance_to_default.empty());
+  REQUIRE(h.book_rows.size() == 2);
+  ObligorRecord rec;
+  h.book_record(1, rec);
+  CHECK(rec.line == 3);
+  CHECK(rec.get(NumField::default_point) == 400.0);
+  CHECK(rec.get(NumField::market_cap) == 310.0);
+  CHECK(rec.get(TextField::id) == "B");
+  CHECK_FALSE(rec.has(NumField::rate));
+  REQUIRE(h.notes.size() == 3);
+  CHECK(h.notes[0] == path + ":1: note: column 'sector' is not used");
+  CHECK(h.notes[1].find(":1: note: no column 'distance_to_default': each row's DD is computed from its book "
+                        "columns") != std::string::npos);
+  CHECK(h.notes[2] == path +
+                          ":3: note: the file does not end with a line break; its last row was read as it "
+                          "stands (check that the file was not cut short)");
+
+  // Messages name file, line and field (common practice of every firmcall reader).
+  CHECK(error_of("id,as_of,market_cap,equity_vol,default_point,defaulted\nA,2021-12-31,1250,32%,850,1\n") ==
+        ":2: field 'equity_vol': expected a finite decimal number such as 0.35, got '32%'");
+  CHECK(error_of("id,as_of,market_cap,default_point,defaulted\nA,2021-12-31,1250,850,1\n") ==
+        ":1: header: required column 'equity_vol' is missing");
+  CHECK(error_of("id,as_of,market_cap,equity_vol,default_point,defaulted\nA,2021-12-31,1250,0.3,1\n") ==
+        ":2: row has 5 fields, the header has 6");
+}
+
+TEST_CASE("default history: a DD column wins over book columns, with a note") {
+  TempDir dir;
+  const std::string path =
+      dir.write("h.csv",
+                "id,as_of,distance_to_default,market_cap,equity_vol,defaulted\nA,2021-12-31,1.5,1250,0.3,1\n"
+                "B,2021-12-31,2.5,,,0\n");
+  const DefaultHistory h = read_default_history(path);
+  CHECK_FALSE(h.dd_from_book_fields());
+  CHECK(h.book_rows.empty());
+  CHECK(h.distance_to_default == std::vector<double>{1.5, 2.5});
+  REQUIRE(h.notes.size() == 1);
+  CHECK(h.notes[0] ==
+        path +
+            ":1: note: book columns 'market_cap', 'equity_vol' are not used: the DD is read from "
+            "column 'distance_to_default'");
+}
+
+TEST_CASE("default history: a repeat is found among many short rows") {
+  // Rows shorter than the reader's size estimate make its index of (id, as_of) grow.
+  std::string text = kHeader;
+  for (int i = 0; i < 5000; ++i) {  // about 94 KB: the index starts at 8192 slots, half full at 4096
+    text += 'O';
+    text += std::to_string(i);
+    text += i % 2 ? ",2021-12-31,1,1\n" : ",2021-12-31,1,0\n";
+  }
+  text += "O7,2022-12-31,1,0\n";                      // another year: no repeat
+  CHECK(error_of(text + "O1234,2021-12-31,2,0\n") ==  // line 2 + 1234, counted by hand
+        ":5003: field 'id': obligor 'O1234' as of 2021-12-31 repeats line 1236");
+  CHECK(error_of(text + "O4900,2021-12-31,2,0\n") ==  // a row added after the index grew
+        ":5003: field 'id': obligor 'O4900' as of 2021-12-31 repeats line 4902");
 }
