@@ -31,6 +31,11 @@ ExitCode run_report(const ReportCli& opts, const GlobalOptions& global) {
   if ((!o.store_run.empty() || !o.against.empty()) && o.store_path.empty()) {
     throw InputError("--run/--against: apply to the movers section; give --db STORE as well");
   }
+  if (!o.validation_defaults_path.empty() && (o.store_path.empty() || !o.validation_path.empty())) {
+    throw InputError(
+        "--validate-defaults: builds the validation section from the history store; give --db STORE and no "
+        "--validate OUTCOMES");
+  }
   if (!o.validation_against_path.empty() && o.validation_path.empty()) {
     throw InputError(
         "--validate-against: applies to the validation section; give --validate OUTCOMES as well");
@@ -93,6 +98,10 @@ void add_report_command(CLI::App& app, const GlobalOptions& global, CommandActio
                   "Run to compare with: run id or as-of date (default: the run before --run)");
   cmd->add_option("--validate", opts->report.validation_path,
                   "Outcomes file (as for `firmcall validate`): adds the validation section")
+      ->check(CLI::ExistingFile);
+  cmd->add_option("--validate-defaults", opts->report.validation_defaults_path,
+                  "Defaults file (id, default_date) with --db STORE: the validation section from the "
+                  "recorded runs (as validate --db STORE --defaults FILE; the calibrated PD when it drives)")
       ->check(CLI::ExistingFile);
   cmd->add_option("--validate-against", opts->report.validation_against_path,
                   "An earlier outcomes file (as validate --against): adds the grade migration matrix and "

@@ -10,6 +10,7 @@
 #include "firmcall/format/cells.hpp"
 #include "firmcall/format/row_writer.hpp"
 #include "firmcall/model/normal.hpp"
+#include "firmcall/monitor/store_outcomes.hpp"
 #include "firmcall/report/svg.hpp"
 
 namespace firmcall {
@@ -989,8 +990,11 @@ std::string validation_section(const ReportData& d) {
       "PD column '" + v.pd_column + "' of " + v.origin + ": " + count(dis.observations) + " observations, " +
           count(dis.defaults) + " defaults (default rate " + report_pd(cal.overall.default_rate) +
           ", mean PD " + report_pd(cal.overall.mean_pd) +
-          "). The PDs are those of the outcomes file, not of the book above. Formulas and sources in "
-          "docs/validation.md.");
+          (d.options.validation_defaults_path.empty()
+               ? "). The PDs are those of the outcomes file, not of the book above."
+               : "). The PDs are those recorded in the history store, each run's against the defaults of " +
+                     d.options.validation_defaults_path + " in the year after its as-of date.") +
+          " Formulas and sources in docs/validation.md.");
   out += "<div class=\"fc-cards\">\n";
   out += card("AUC", fixed(dis.auc, 4),
               "95% interval " + fixed(dis.auc_lower, 4) + " to " + fixed(dis.auc_upper, 4) + " (DeLong)");
@@ -1278,6 +1282,14 @@ OptionCheck ReportOptions::validate() const {
     return OptionProblem{"validation_against_path", validation_against_path,
                          "applies to the validation section: needs validation_path"};
   }
+  if (!validation_defaults_path.empty() && store_path.empty()) {
+    return OptionProblem{"validation_defaults_path", validation_defaults_path,
+                         "builds the validation section from the history store: needs store_path"};
+  }
+  if (!validation_defaults_path.empty() && !validation_path.empty()) {
+    return OptionProblem{"validation_defaults_path", validation_defaults_path,
+                         "the validation section takes one source: an outcomes file or the history store"};
+  }
   if (driving_pd == DrivingPd::calibrated && pd_calibration_path.empty()) {
     return OptionProblem{"driving_pd", "calibrated", "needs a PD calibration: needs pd_calibration_path"};
   }
@@ -1305,7 +1317,15 @@ namespace {
 void gather_validation(ReportData& d, const ReportOptions& options, const Config& config) {
   OutcomeReadOptions read;
   read.keep_ids = !options.validation_against_path.empty();
-  const OutcomeSample sample = load_outcomes(options.validation_path, read, config.grades);
+  const OutcomeSample sample = [&] {
+    if (options.validation_defaults_path.empty())
+      return load_outcomes(options.validation_path, read, config.grades);
+    const RunStore store(options.store_path, StoreOpen::read_only, config.monitor.busy_timeout_seconds);
+    const StoreOutcomeOptions from_store{.horizon_years = 1.0,
+                                         .pd_column = calibrated_drives(d) ? "pd_calibrated" : "pd"};
+    return outcomes_from_store(store, load_default_dates(options.validation_defaults_path), from_store,
+                               config.grades);
+  }();
   std::unique_ptr<OutcomeSample> earlier;
   if (read.keep_ids) {
     earlier =
@@ -1415,7 +1435,9 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     mon->comparison = compare_runs(mon->before, mon->now, config.grades, config.monitor.alerts);
     d.monitoring = std::move(mon);
   }
-  if (!options.validation_path.empty()) gather_validation(d, options, config);
+  if (!options.validation_path.empty() || !options.validation_defaults_path.empty()) {
+    gather_validation(d, options, config);
+  }
   return d;
 }
 

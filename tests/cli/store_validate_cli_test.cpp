@@ -4,9 +4,11 @@
 // with the C library's timegm for the day count, not copied from the validation output.
 #include <doctest/doctest.h>
 
+#include <cstdio>
 #include <ctime>
 #include <filesystem>
 #include <fstream>
+#include <iterator>
 #include <map>
 
 #include "test_util.hpp"
@@ -115,4 +117,46 @@ TEST_CASE("validate --defaults: a bad defaults file is refused naming file, line
     CHECK(r.err.find(path + message) != std::string::npos);
     CHECK(!std::filesystem::exists(out));
   }
+}
+
+TEST_CASE("report --validate-defaults: the validation section from the recorded runs") {
+  TempDir dir;
+  const std::string db = dir.file("weekly.sqlite");
+  for (int w = 1; w <= 4; ++w) {
+    REQUIRE(run_firmcall("score samples/weekly/week" + std::to_string(w) +
+                         ".yaml --format csv --record --db '" + db + "'")
+                .exit_code == 0);
+  }
+  const std::string dpath = dir.file("defaults.csv");
+  write(dpath, "id,default_date\nALD-01,2026-11-10\nBRK-02,2027-11-10\nCIN-03,2026-11-27\n");
+  // The page's figures are validate's on the same store and defaults (the same library call);
+  // validate itself is checked against scikit-learn and scipy in validate_references.
+  const auto v = run_firmcall("validate --db '" + db + "' --defaults '" + dpath + "' --format json");
+  REQUIRE(v.exit_code == 0);
+  const std::string page = dir.file("page.html");
+  const auto r = run_firmcall("-q report samples/weekly/week4.yaml --db '" + db + "' --validate-defaults '" +
+                              dpath + "' --html '" + page + "'");
+  CAPTURE(r.err);
+  REQUIRE(r.exit_code <= 1);
+  std::ifstream in(page);
+  const std::string html((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+  CHECK(html.find("The PDs are those recorded in the history store") != std::string::npos);
+  char auc[32];
+  std::snprintf(auc, sizeof auc, "%.4f", json_number(v.out, "auc"));
+  CHECK(html.find(std::string(">") + auc + "<") != std::string::npos);
+  const std::string obs =
+      std::to_string(static_cast<long>(json_number(v.out, "observations"))) + " observations";
+  CHECK(html.find(obs) != std::string::npos);
+
+  // Without --db, or with --validate as well: refused before anything is written.
+  const std::string none = dir.file("none.html");
+  const auto no_db = run_firmcall("report samples/weekly/week4.yaml --validate-defaults '" + dpath +
+                                  "' --html '" + none + "'");
+  CHECK(no_db.exit_code == 2);
+  CHECK(no_db.err.find("--validate-defaults: builds the validation section from the history store") !=
+        std::string::npos);
+  const auto both = run_firmcall("report samples/weekly/week4.yaml --db '" + db + "' --validate-defaults '" +
+                                 dpath + "' --validate samples/outcomes.csv --html '" + none + "'");
+  CHECK(both.exit_code == 2);
+  CHECK(!std::filesystem::exists(none));
 }

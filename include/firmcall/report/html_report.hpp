@@ -61,15 +61,20 @@ struct ReportOptions {
   std::string against;                        ///< run to compare with ("" the one before)
   std::string validation_path;                ///< outcomes file; empty: no validation section
   std::string validation_against_path;        ///< earlier outcomes file: migration and stability
-  std::string pd_calibration_path;            ///< calibration file; empty: model PDs only
-  DrivingPd driving_pd = DrivingPd::model;    ///< calibrated needs pd_calibration_path
-  std::size_t top = 10;                       ///< rows of the name tables
-  unsigned threads = 1;                       ///< worker threads of the portfolio run
-  std::string title;                          ///< page title; empty: from the book's label
-  std::string tool_version;                   ///< shown in the page's footer
+  /// Defaults file (id, default_date): the validation section from the history store instead of
+  /// an outcomes file, every recorded run's PD against the defaults of the year after its as-of
+  /// date (validate --db STORE --defaults FILE); the calibrated PD when it drives.
+  std::string validation_defaults_path;
+  std::string pd_calibration_path;          ///< calibration file; empty: model PDs only
+  DrivingPd driving_pd = DrivingPd::model;  ///< calibrated needs pd_calibration_path
+  std::size_t top = 10;                     ///< rows of the name tables
+  unsigned threads = 1;                     ///< worker threads of the portfolio run
+  std::string title;                        ///< page title; empty: from the book's label
+  std::string tool_version;                 ///< shown in the page's footer
   /// A book; no id twice in term_ids (gather_report refuses it); correlation_path only with
   /// portfolio, store_run and against only with store_path, validation_against_path only with
-  /// validation_path, driving_pd calibrated only with pd_calibration_path (`firmcall report`
+  /// validation_path, validation_defaults_path only with store_path and without validation_path,
+  /// driving_pd calibrated only with pd_calibration_path (`firmcall report`
   /// refuses them otherwise). threads 0 is read as 1; horizons are checked when the term section is gathered.
   OptionCheck validate() const;
 };
