@@ -1,4 +1,5 @@
-// `firmcall runs`: the runs recorded in the history store.
+// `firmcall runs`: the runs recorded in the history store; `runs --remove ID` takes one out.
+#include <iostream>
 #include <memory>
 
 #include "commands.hpp"
@@ -7,15 +8,56 @@
 
 namespace firmcall::cli {
 
+namespace {
+
+struct RunsCli {
+  StoreReadOptions store;
+  std::string remove;  // --remove: the id of the run to delete
+};
+
+// `runs --remove ID`: deletes the run and its obligors in one transaction and says what went.
+ExitCode remove_run(const RunsCli& opts, const GlobalOptions& global) {
+  const Config config = global.config();
+  // Opened for writing, as recording does (an older schema is upgraded first).
+  RunStore store(resolve_store_path(opts.store.db, config.monitor), StoreOpen::existing,
+                 config.monitor.busy_timeout_seconds);
+  const RemovedRun removed = store.remove_run(std::stoll(opts.remove));
+  const RunInfo& r = removed.run;
+  const std::size_t remaining = store.runs().size();
+  std::cout << "removed run " << r.run_id << " as of " << r.as_of << " (recorded " << r.recorded_at
+            << " from " << r.book_path << ", input SHA-256 " << r.input_sha256.substr(0, 12) << "..., "
+            << removed.obligor_rows << " obligors) from " << store.path() << "; " << remaining
+            << (remaining == 1 ? " run remains\n" : " runs remain\n");
+  return kExitOk;
+}
+
+}  // namespace
+
 void add_runs_command(CLI::App& app, const GlobalOptions& global, CommandAction& run) {
-  auto opts = std::make_shared<StoreReadOptions>();
+  auto opts = std::make_shared<RunsCli>();
   CLI::App* cmd = app.add_subcommand("runs", "List the runs recorded in the history store (score --record)");
-  add_store_read_options(cmd, *opts, false);
-  set_action(cmd, run, [opts, &global] {
-    const RunStore store = open_store(opts->db, global.config());
+  add_store_read_options(cmd, opts->store, false);
+  cmd->add_option("--remove", opts->remove,
+                  "Delete this run (a run id) and its obligors from the store, in one transaction; the "
+                  "other runs stay as they were")
+      ->check(CLI::Validator(
+          [](std::string& s) -> std::string {
+            if (!s.empty() && s.size() <= 18 && s.find_first_not_of("0123456789") == std::string::npos)
+              return {};
+            return "expected a run id (digits, as listed by firmcall runs), got '" + s + "'";
+          },
+          "ID"));
+  set_action(cmd, run, [opts, cmd, &global] {
+    if (!opts->remove.empty()) {
+      if (cmd->count("--format") > 0 || cmd->count("--output") > 0) {
+        throw InputError("--remove: writes no listing, so it takes no --format or --output");
+      }
+      return remove_run(*opts, global);
+    }
+    const RunStore store = open_store(opts->store.db, global.config());
     std::string text;
-    write_runs_report(store.path(), store.runs(), opts->out.format, text);
-    write_output(opts->out.output, text);
+    write_runs_report(store.path(), store.runs(), opts->store.out.format, text);
+    write_output(opts->store.out.output, text);
     return kExitOk;
   });
 }

@@ -25,8 +25,9 @@ struct ScoreCli {
   ScoringOptions scoring;
   unsigned threads = 0;
   bool sensitivities = false;
-  bool grades = false;  // --grades: show each obligor's grade
-  bool record = false;  // --record: also write the run to the history store
+  bool grades = false;       // --grades: show each obligor's grade
+  bool record = false;       // --record: also write the run to the history store
+  bool replace_run = false;  // --replace-run: replace a run of the same book and as-of date
   std::string db;
   std::string as_of;
   TermOptionText term;
@@ -51,6 +52,10 @@ void declare_score_options(CLI::App* cmd, ScoreCli& o) {
   add_db_option(cmd, o.db)->needs(record);
   cmd->add_option("--as-of", o.as_of,
                   "As-of date YYYY-MM-DD of the recorded run (default: book's, else today)")
+      ->needs(record);
+  cmd->add_flag("--replace-run", o.replace_run,
+                "Replace the run of the same book (same file bytes) and as-of date already in the store "
+                "(without it, such a run is refused)")
       ->needs(record);
   add_term_options(cmd, o.term);
   cmd->add_option("--pd-calibration", o.pd_calibration,
@@ -165,6 +170,8 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
   }
   const BookFormat fmt = book_format_of(opts.book);
   std::string store_path;
+  std::optional<PreparedRun> prepared;
+  RecordBookOptions record_options;
   if (opts.record) {
     // The date and the store are checked before anything is written.
     if (!opts.as_of.empty() && !is_calendar_date(opts.as_of)) {
@@ -177,6 +184,29 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
     if (::access(store_path.c_str(), F_OK) == 0 && std::filesystem::file_size(store_path, size_error) != 0) {
       const RunStore check(store_path, StoreOpen::read_only, config.monitor.busy_timeout_seconds);
     }
+    RunCalibration identity;
+    if (run.pd_calibration) {
+      identity = {.file = opts.pd_calibration,
+                  .method = std::string(to_string(calibration.calibration.method)),
+                  .data_sha256 = calibration.data_sha256};
+    }
+    record_options = {.store_path = store_path,
+                      .as_of = opts.as_of,
+                      .tool_version = FIRMCALL_VERSION,
+                      .pd_calibration = run.pd_calibration,
+                      .calibration = identity,
+                      .driving_pd = run.driving_pd,
+                      .replace_run = opts.replace_run};
+    // The run to record is scored from the book's bytes first, so that a second run of the same
+    // book and as-of date is refused before any output is written.
+    prepared = prepare_run(opts.book, settings, config, record_options);
+    try {
+      refuse_same_book(*prepared, record_options, config.monitor.busy_timeout_seconds);
+    } catch (const SameBookRun& e) {
+      throw InputError(e.message() + "; give --replace-run to replace " +
+                       (e.run_ids().size() == 1 ? "it" : "them") +
+                       ", or --as-of DATE to record another date");
+    }
   }
   // -o goes to its temporary file; the run is recorded (one transaction) only when the output is
   // written, and the output replaces its target only when the run is recorded.
@@ -187,21 +217,13 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
   std::optional<RecordedRun> rec;
   try {
     outputs.commit([&] {
-      if (!opts.record) return;
-      RunCalibration identity;
-      if (run.pd_calibration) {
-        identity = {.file = opts.pd_calibration,
-                    .method = std::string(to_string(calibration.calibration.method)),
-                    .data_sha256 = calibration.data_sha256};
-      }
-      rec = record_book(opts.book, settings, config,
-                        {.store_path = store_path,
-                         .as_of = opts.as_of,
-                         .tool_version = FIRMCALL_VERSION,
-                         .pd_calibration = run.pd_calibration,
-                         .calibration = identity,
-                         .driving_pd = run.driving_pd});
+      if (!prepared) return;
+      rec = record_prepared_run(*prepared, record_options, config.monitor.busy_timeout_seconds);
     });
+  } catch (const SameBookRun& e) {
+    // Recorded by another process since the check above.
+    throw InputError(e.message() +
+                     "; give --replace-run to replace it, or --as-of DATE to record another date");
   } catch (const InputError& e) {
     if (!rec) throw;
     throw InputError("run " + std::to_string(rec->run_id) + " is recorded in " + store_path + ", but " +
@@ -215,7 +237,16 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
       std::cerr << ", calibrated one-year PDs of " << opts.pd_calibration << ", driving PD "
                 << to_string(run.driving_pd);
     }
-    std::cerr << ") in " << store_path << "\n";
+    std::cerr << ") in " << store_path;
+    if (!rec->replaced_run_ids.empty()) {
+      std::cerr << (rec->replaced_run_ids.size() == 1 ? ", replacing run " : ", replacing runs ");
+      for (std::size_t i = 0; i < rec->replaced_run_ids.size(); ++i) {
+        std::cerr << (i == 0 ? "" : ", ") << rec->replaced_run_ids[i];
+      }
+    } else if (opts.replace_run) {
+      std::cerr << "; no earlier run of this book as of " << rec->as_of << " to replace";
+    }
+    std::cerr << "\n";
   }
   return rows_exit_code(summary.failed());
 }

@@ -1,6 +1,7 @@
 #include "firmcall/monitor/record_book.hpp"
 
 #include <charconv>
+#include <filesystem>
 
 #include "firmcall/book/errors.hpp"
 #include "firmcall/engine/score_output.hpp"
@@ -131,7 +132,7 @@ std::string settings_json(const ScoreSettings& s, const GradeScale& grades) {
   return out;
 }
 
-RecordedRun record_book(const std::string& book_path, const ScoreSettings& settings, const Config& config,
+PreparedRun prepare_run(const std::string& book_path, const ScoreSettings& settings, const Config& config,
                         const RecordBookOptions& options) {
   const BookFormat format = book_format_of(book_path);
   const std::string bytes = detail::read_text_file(book_path);
@@ -141,24 +142,23 @@ RecordedRun record_book(const std::string& book_path, const ScoreSettings& setti
   if (const OptionCheck problem = options.validate(); problem && problem->field == "driving_pd") {
     throw OptionError(problem->field, problem->constraint);
   }
-  RecordedRun result;
+  PreparedRun run;
+  RunInfo& info = run.info;
   if (!options.as_of.empty()) {
     if (!is_calendar_date(options.as_of)) {
       throw OptionError("as_of", "expected a date YYYY-MM-DD, got '" + options.as_of + "'");
     }
-    result.as_of = options.as_of;
+    info.as_of = options.as_of;
   } else if (!book.as_of.empty()) {
     if (!is_calendar_date(book.as_of)) {
       throw InputError(
           located(book_path, 0, "field 'as_of': expected a date YYYY-MM-DD, got '" + book.as_of + "'"));
     }
-    result.as_of = book.as_of;
+    info.as_of = book.as_of;
   } else {
-    result.as_of = local_date_today();
+    info.as_of = local_date_today();
   }
 
-  RunInfo info;
-  info.as_of = result.as_of;
   info.recorded_at = utc_timestamp_now();
   info.book_path = book_path;
   info.book_label = book.label;
@@ -171,20 +171,47 @@ RecordedRun record_book(const std::string& book_path, const ScoreSettings& setti
   }
 
   // Score first, then hold the store only while writing.
-  std::vector<StoredObligor> rows;
-  rows.reserve(book.obligors.size());
+  run.obligors.reserve(book.obligors.size());
   ScoredObligor scored;
   for (const ObligorRecord& rec : book.obligors) {
     score_obligor(rec, book.defaults, settings, scored);
-    rows.push_back(stored_obligor(rec, scored, config.grades, options.pd_calibration, options.driving_pd));
-    if (scored.status == RowStatus::ok) ++result.scored;
+    run.obligors.push_back(
+        stored_obligor(rec, scored, config.grades, options.pd_calibration, options.driving_pd));
+    if (scored.status == RowStatus::ok) ++run.scored;
   }
-  RunStore store(options.store_path, StoreOpen::create, config.monitor.busy_timeout_seconds);
-  RunWriter writer(store, info);
-  for (const StoredObligor& o : rows) writer.add(o);
+  return run;
+}
+
+void refuse_same_book(const PreparedRun& run, const RecordBookOptions& options, double busy_timeout_seconds) {
+  if (options.replace_run) return;
+  std::error_code ec;
+  const std::string& path = options.store_path;
+  if (!std::filesystem::exists(path, ec) || std::filesystem::file_size(path, ec) == 0 || ec) return;
+  const RunStore store(path, StoreOpen::read_only, busy_timeout_seconds);
+  // Asked before the writer's transaction, so that an older store is not upgraded for a run that is
+  // refused. The writer asks again, in case another process recorded meanwhile.
+  store.refuse_same_book(run.info);
+}
+
+RecordedRun record_prepared_run(const PreparedRun& run, const RecordBookOptions& options,
+                                double busy_timeout_seconds) {
+  refuse_same_book(run, options, busy_timeout_seconds);
+  RunStore store(options.store_path, StoreOpen::create, busy_timeout_seconds);
+  RunWriter writer(store, run.info, options.replace_run ? SameBook::replace : SameBook::refuse);
+  for (const StoredObligor& o : run.obligors) writer.add(o);
+  RecordedRun result;
   result.run_id = writer.commit();
-  result.obligors = rows.size();
+  result.as_of = run.info.as_of;
+  result.obligors = run.obligors.size();
+  result.scored = run.scored;
+  for (const RunInfo& r : writer.replaced()) result.replaced_run_ids.push_back(r.run_id);
   return result;
+}
+
+RecordedRun record_book(const std::string& book_path, const ScoreSettings& settings, const Config& config,
+                        const RecordBookOptions& options) {
+  return record_prepared_run(prepare_run(book_path, settings, config, options), options,
+                             config.monitor.busy_timeout_seconds);
 }
 
 }  // namespace firmcall

@@ -135,6 +135,7 @@ struct RunStore::Impl {
   sqlite3* db = nullptr;
   double busy_timeout_seconds = 10.0;
   int version = 0;
+  bool read_only = false;  ///< opened by a reading command: never written
 
   ~Impl() {
     if (db) sqlite3_close_v2(db);
@@ -477,6 +478,32 @@ void migrate(RunStore::Impl& im) {
   im.version = kStoreSchemaVersion;
 }
 
+// "run 3", "runs 3 and 4", "runs 3, 4 and 5".
+std::string run_ids_text(const std::vector<RunInfo>& runs) {
+  std::string out = runs.size() == 1 ? "run " : "runs ";
+  for (std::size_t i = 0; i < runs.size(); ++i) {
+    if (i > 0) out += i + 1 == runs.size() ? " and " : ", ";
+    out += std::to_string(runs[i].run_id);
+  }
+  return out;
+}
+
+// The refusal of a second run of the same book as of the same date.
+SameBookRun same_book_refusal(const std::string& path, const std::vector<RunInfo>& runs) {
+  std::string what = run_ids_text(runs);
+  if (runs.size() == 1) {
+    what += " (recorded " + runs[0].recorded_at + " from '" + runs[0].book_path + "') already holds";
+  } else {
+    what += " already hold";
+  }
+  what += " this book as of " + runs[0].as_of + " (input SHA-256 " + runs[0].input_sha256.substr(0, 12) +
+          "...); nothing was written";
+  std::vector<std::int64_t> ids;
+  ids.reserve(runs.size());
+  for (const RunInfo& r : runs) ids.push_back(r.run_id);
+  return SameBookRun(in_store(path, what), std::move(ids));
+}
+
 }  // namespace
 
 RunStore::RunStore(const std::string& path, StoreOpen mode, double busy_timeout_seconds)
@@ -485,6 +512,7 @@ RunStore::RunStore(const std::string& path, StoreOpen mode, double busy_timeout_
   Impl& im = *impl_;
   im.path = path;
   im.busy_timeout_seconds = busy_timeout_seconds;
+  im.read_only = mode == StoreOpen::read_only;
   std::error_code ec;
   const fs::file_status st = fs::status(path, ec);
   if (!fs::exists(st)) {
@@ -638,7 +666,56 @@ std::vector<RunStore::SeriesPoint> RunStore::series(std::string_view obligor_id)
   return out;
 }
 
-RunWriter::RunWriter(RunStore& store, const RunInfo& info) : store_(store) {
+std::vector<RunInfo> RunStore::same_book_runs(std::string_view as_of, std::string_view input_sha256) const {
+  Stmt s(*impl_, "SELECT " + run_columns(impl_->version, "") +
+                     " FROM runs WHERE as_of = ? AND input_sha256 = ? ORDER BY run_id");
+  s.bind_text(1, as_of);
+  s.bind_text(2, input_sha256);
+  std::vector<RunInfo> out;
+  while (s.step()) out.push_back(read_run(s));
+  return out;
+}
+
+void RunStore::refuse_same_book(const RunInfo& run) const {
+  const std::vector<RunInfo> earlier = same_book_runs(run.as_of, run.input_sha256);
+  if (!earlier.empty()) throw same_book_refusal(impl_->path, earlier);
+}
+
+RemovedRun RunStore::remove_run(std::int64_t run_id) {
+  Impl& im = *impl_;
+  if (im.read_only) throw InputError(in_store(im.path, "opened for reading only; nothing was removed"));
+  im.exec("BEGIN IMMEDIATE", "starting the removal");
+  try {
+    RemovedRun removed;
+    {
+      Stmt s(im, "SELECT " + run_columns(im.version, "") + " FROM runs WHERE run_id = ?");
+      s.bind_int(1, run_id);
+      if (!s.step()) {
+        throw InputError(
+            in_store(im.path, "no run with id " + std::to_string(run_id) + "; nothing was removed"));
+      }
+      removed.run = read_run(s);
+    }
+    {
+      Stmt s(im, "DELETE FROM run_obligors WHERE run_id = ?");
+      s.bind_int(1, run_id);
+      s.step();
+      removed.obligor_rows = sqlite3_changes(im.db);
+    }
+    {
+      Stmt s(im, "DELETE FROM runs WHERE run_id = ?");
+      s.bind_int(1, run_id);
+      s.step();
+    }
+    im.exec("COMMIT", "finishing the removal");
+    return removed;
+  } catch (...) {
+    im.rollback_quietly();
+    throw;
+  }
+}
+
+RunWriter::RunWriter(RunStore& store, const RunInfo& info, SameBook same) : store_(store) {
   RunStore::Impl& im = *store.impl_;
   if (!is_calendar_date(info.as_of)) {
     throw InputError(in_store(im.path, "as-of date must be a date YYYY-MM-DD, got '" + info.as_of + "'"));
@@ -646,6 +723,12 @@ RunWriter::RunWriter(RunStore& store, const RunInfo& info) : store_(store) {
   im.exec("BEGIN IMMEDIATE", "starting the run");
   open_ = true;
   try {
+    // Looked up inside the transaction: no other writer can add such a run until it ends.
+    std::vector<RunInfo> earlier;
+    if (same != SameBook::allow) {
+      earlier = store.same_book_runs(info.as_of, info.input_sha256);
+      if (!earlier.empty() && same == SameBook::refuse) throw same_book_refusal(im.path, earlier);
+    }
     Stmt s(im,
            "INSERT INTO runs (as_of, recorded_at, book_path, book_label, input_sha256, settings_json, "
            "tool_version, obligor_count, driving_pd, calibration_file, calibration_method, "
@@ -671,6 +754,16 @@ RunWriter::RunWriter(RunStore& store, const RunInfo& info) : store_(store) {
     text_or_null(11, info.calibration.data_sha256);
     s.step();
     run_id_ = sqlite3_last_insert_rowid(im.db);
+    // Deleted after the insert, so that the new run's id follows theirs instead of taking one back.
+    for (const RunInfo& r : earlier) {
+      for (const char* sql :
+           {"DELETE FROM run_obligors WHERE run_id = ?", "DELETE FROM runs WHERE run_id = ?"}) {
+        Stmt d(im, sql);
+        d.bind_int(1, r.run_id);
+        d.step();
+      }
+    }
+    replaced_ = std::move(earlier);
   } catch (...) {
     im.rollback_quietly();
     open_ = false;

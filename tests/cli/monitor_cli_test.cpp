@@ -6,6 +6,7 @@
 #include <algorithm>
 #include <cmath>
 #include <filesystem>
+#include <fstream>
 #include <map>
 #include <sstream>
 
@@ -377,4 +378,128 @@ TEST_CASE("two firmcall processes recording at once both succeed, nothing is los
   REQUIRE(runs.size() == 3);
   CHECK(std::stoul(runs[1].at("obligor_count")) == obligors_in(week(2)));
   CHECK(std::stoul(runs[2].at("obligor_count")) == obligors_in(week(3)));
+}
+
+namespace {
+
+// Runs Python's sqlite3 module (an independent reader of the store) on `db`: the query's rows, one
+// a line, columns joined by '|'.
+std::string python_sqlite(const std::string& db, const std::string& sql) {
+  TempDir t;
+  const std::string script = t.file("q.py");
+  {
+    std::ofstream f(script);
+    f << "import sqlite3, sys\n"
+      << "c = sqlite3.connect('file:' + sys.argv[1] + '?mode=ro', uri=True)\n"
+      << "for row in c.execute(sys.argv[2]):\n"
+      << "    print('|'.join(str(v) for v in row))\n";
+  }
+  const std::string out = t.file("out");
+  const std::string cmd = "/usr/bin/python3 '" + script + "' '" + db + "' \"" + sql + "\" >'" + out + "'";
+  REQUIRE(std::system(cmd.c_str()) == 0);
+  return read_file(out);
+}
+
+}  // namespace
+
+TEST_CASE("recording the same book as of the same date again is refused, the store left byte for byte") {
+  TempDir dir;
+  const std::string db = dir.file("h.sqlite");
+  REQUIRE(run_firmcall("-q score " + week(1) + " --format csv --record --db '" + db + "'").exit_code == 0);
+  const std::string before = read_file(db);
+  const std::string out = dir.file("again.csv");
+  const auto r =
+      run_firmcall("score " + week(1) + " --format csv -o '" + out + "' --record --db '" + db + "'");
+  CHECK(r.exit_code == 2);
+  CHECK(r.err.find("run 1 (recorded ") != std::string::npos);
+  CHECK(r.err.find("already holds this book as of 2026-11-06") != std::string::npos);
+  CHECK(r.err.find("nothing was written; give --replace-run") != std::string::npos);
+  CHECK(r.out.empty());
+  CHECK_FALSE(std::filesystem::exists(out));  // -o is committed with the run, or not at all
+  CHECK(read_file(db) == before);
+  // To standard output as well: refused before anything is scored to it.
+  const auto s =
+      run_firmcall("score " + week(1) + " --format csv --record --db '" + db + "' --as-of 2026-11-06");
+  CHECK(s.exit_code == 2);
+  CHECK(s.out.empty());
+  CHECK(read_file(db) == before);
+
+  // Another as-of date, or a changed book, is a new run.
+  CHECK(run_firmcall("-q score " + week(1) + " --format csv --record --db '" + db + "' --as-of 2026-11-07")
+            .exit_code == 0);
+  const std::string changed = dir.file("week1_changed.yaml");
+  {
+    std::ofstream f(changed);
+    f << read_file(firmcall::testing::source_dir() + "/" + week(1)) << "# one more comment line\n";
+  }
+  CHECK(run_firmcall("-q score '" + changed + "' --format csv --record --db '" + db + "'").exit_code == 0);
+  const Table runs = parse_csv(run_firmcall("runs --db '" + db + "' --format csv").out);
+  REQUIRE(runs.size() == 3);
+  CHECK(runs[0].at("as_of") == "2026-11-06");
+  CHECK(runs[1].at("as_of") == "2026-11-06");  // the changed book, run 3, same date
+  CHECK(runs[1].at("run_id") == "3");
+  CHECK(runs[1].at("input_sha256") != runs[0].at("input_sha256"));
+  CHECK(runs[2].at("as_of") == "2026-11-07");
+}
+
+TEST_CASE("--replace-run replaces the run of the same book and date in one transaction") {
+  TempDir dir;
+  const std::string db = dir.file("h.sqlite");
+  record_weeks(db);
+  const auto r = run_firmcall("score " + week(2) + " --format csv -o '" + dir.file("w2.csv") +
+                              "' --record --db '" + db + "' --replace-run --rate 0.05");
+  REQUIRE(r.exit_code == 0);
+  CHECK(r.err.find("recorded run 5 as of 2026-11-13 (" + std::to_string(obligors_in(week(2))) +
+                   " obligors) in " + db + ", replacing run 2") != std::string::npos);
+  CHECK(std::filesystem::exists(dir.file("w2.csv")));
+  // Read back with Python's sqlite3, independently of firmcall's store code.
+  CHECK(python_sqlite(db, "SELECT run_id, as_of FROM runs ORDER BY run_id") ==
+        "1|2026-11-06\n3|2026-11-20\n4|2026-11-27\n5|2026-11-13\n");
+  CHECK(python_sqlite(db, "SELECT count(*) FROM run_obligors WHERE run_id = 2") == "0\n");
+  CHECK(python_sqlite(db, "SELECT count(*) FROM run_obligors WHERE run_id = 5") ==
+        std::to_string(obligors_in(week(2))) + "\n");
+  CHECK(python_sqlite(db, "SELECT settings_json LIKE '%overrides%rate%0.05%' FROM runs WHERE run_id = 5") ==
+        "1\n");
+  // "Before" follows the as-of dates: run 3 now compares with the replacement.
+  const Table movers = parse_csv(run_firmcall("movers --db '" + db + "' --run 3 --format csv").out);
+  CHECK_FALSE(movers.empty());
+  // Nothing to replace: recorded as a new run, and said so.
+  const auto n = run_firmcall("score " + week(1) + " --format csv --record --db '" + db +
+                              "' --as-of 2026-12-04 --replace-run");
+  CHECK(n.exit_code == 0);
+  CHECK(n.err.find("recorded run 6 as of 2026-12-04") != std::string::npos);
+  CHECK(n.err.find("no earlier run of this book as of 2026-12-04 to replace") != std::string::npos);
+}
+
+TEST_CASE("runs --remove deletes exactly that run and its obligors, and refuses an unknown id") {
+  TempDir dir;
+  const std::string db = dir.file("h.sqlite");
+  record_weeks(db);
+  const std::string others_before =
+      python_sqlite(db,
+                    "SELECT o.run_id, o.seq, o.obligor_id, o.pd FROM run_obligors o WHERE o.run_id <> 2 "
+                    "ORDER BY o.run_id, o.seq");
+  const auto r = run_firmcall("runs --db '" + db + "' --remove 2");
+  REQUIRE(r.exit_code == 0);
+  CHECK(r.out.find("removed run 2 as of 2026-11-13 (recorded ") != std::string::npos);
+  CHECK(r.out.find("from " + week(2) + ", input SHA-256 ") != std::string::npos);
+  CHECK(r.out.find(std::to_string(obligors_in(week(2))) + " obligors) from " + db + "; 3 runs remain") !=
+        std::string::npos);
+  CHECK(python_sqlite(db, "SELECT run_id FROM runs ORDER BY run_id") == "1\n3\n4\n");
+  CHECK(python_sqlite(db, "SELECT count(*) FROM run_obligors WHERE run_id = 2") == "0\n");
+  CHECK(python_sqlite(db,
+                      "SELECT o.run_id, o.seq, o.obligor_id, o.pd FROM run_obligors o WHERE o.run_id <> 2 "
+                      "ORDER BY o.run_id, o.seq") == others_before);
+  CHECK(python_sqlite(db, "PRAGMA integrity_check") == "ok\n");
+
+  const std::string bytes = read_file(db);
+  const auto unknown = run_firmcall("runs --db '" + db + "' --remove 2");
+  CHECK(unknown.exit_code == 2);
+  CHECK(unknown.err.find("no run with id 2; nothing was removed") != std::string::npos);
+  CHECK(read_file(db) == bytes);
+  CHECK(run_firmcall("runs --db '" + db + "' --remove 2x").exit_code == 2);
+  CHECK(run_firmcall("runs --db '" + db + "' --remove 3 --format csv").exit_code == 2);
+  CHECK(read_file(db) == bytes);
+  // The removed week can be recorded again.
+  CHECK(run_firmcall("-q score " + week(2) + " --format csv --record --db '" + db + "'").exit_code == 0);
 }

@@ -177,7 +177,8 @@ TEST_CASE("score --record: an -o that cannot be written records no run") {
               .exit_code == 0);
   fs::create_directories(s.dir / "a_dir");
   const Result r =
-      run_firmcall({"score", kBook, "-f", "csv", "-o", s.file("a_dir"), "--record", "--db", store});
+      run_firmcall({"score", kBook, "-f", "csv", "-o", s.file("a_dir"), "--record", "--db", store, "--as-of",
+                    "2026-12-07"});  // another date: a second run of the same book and date is refused
   CHECK(r.exit_code == 2);
   CHECK(r.err.find("-o '" + s.file("a_dir") + "': is a directory") != std::string::npos);
   const Result runs = run_firmcall({"runs", "--db", store, "-f", "csv"});
@@ -378,8 +379,8 @@ TEST_CASE("a store transaction killed before its commit is rolled back by SQLite
     const firmcall::RunStore after(store, firmcall::StoreOpen::existing, 1.0);
     CHECK(after.runs().size() == 1);  // the journal rolled the half-written run back
   }
-  const Result again =
-      run_firmcall({"score", kBook, "-f", "csv", "-o", s.file("b.csv"), "--record", "--db", store});
+  const Result again = run_firmcall({"score", kBook, "-f", "csv", "-o", s.file("b.csv"), "--record", "--db",
+                                     store, "--as-of", "2026-12-07"});
   CHECK(again.exit_code == 0);
   const firmcall::RunStore last(store, firmcall::StoreOpen::existing, 1.0);
   CHECK(last.runs().size() == 2);

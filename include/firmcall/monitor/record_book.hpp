@@ -8,6 +8,7 @@
 
 #include <cstdint>
 #include <string>
+#include <vector>
 
 #include "firmcall/book/obligor.hpp"
 #include "firmcall/book/settings.hpp"
@@ -29,6 +30,9 @@ struct RecordBookOptions {
   const PdCalibration* pd_calibration = nullptr;
   RunCalibration calibration = {};
   DrivingPd driving_pd = DrivingPd::model;  ///< the PD behind the stored grades; calibrated needs one
+  /// A run of the same book (same SHA-256 of its bytes) as of the same date is refused
+  /// (SameBookRun) unless this is set; then it is replaced in the transaction of the new run.
+  bool replace_run = false;
   /// store_path not empty; as_of empty or a calendar date (is_calendar_date); driving_pd calibrated
   /// only with pd_calibration. record_book() throws InputError for an as_of this refuses.
   OptionCheck validate() const;
@@ -39,12 +43,36 @@ struct RecordedRun {
   std::int64_t run_id = 0;
   std::string as_of;
   std::size_t obligors = 0;
+  std::size_t scored = 0;                      ///< obligors with status ok
+  std::vector<std::int64_t> replaced_run_ids;  ///< runs of the same book and date it replaced
+};
+
+/// A scored book ready to be written as a run: its header and its obligors as stored.
+struct PreparedRun {
+  RunInfo info;
+  std::vector<StoredObligor> obligors;
   std::size_t scored = 0;  ///< obligors with status ok
 };
 
-/// Reads the book once (the digest is of exactly the bytes scored), scores every obligor with
-/// `settings` and writes the run in one transaction. InputError for an unreadable book, a bad
-/// as-of date or an unusable store; StoreBusy when another process holds the store too long.
+/// Reads the book once (the digest is of exactly the bytes scored), resolves the as-of date and
+/// scores every obligor with `settings`; the store is not touched. InputError for an unreadable
+/// book or a bad as-of date.
+PreparedRun prepare_run(const std::string& book_path, const ScoreSettings& settings, const Config& config,
+                        const RecordBookOptions& options);
+
+/// Throws SameBookRun when the store at options.store_path already holds a run of the same book as
+/// of the same date and options.replace_run is not set. Opens the store read-only, so nothing is
+/// written (an older schema is not upgraded); a missing or empty file holds no run.
+void refuse_same_book(const PreparedRun& run, const RecordBookOptions& options, double busy_timeout_seconds);
+
+/// Writes `run` in one transaction (refuse_same_book first; with options.replace_run the runs it
+/// replaces are deleted in the same transaction). StoreBusy when another process holds the store.
+RecordedRun record_prepared_run(const PreparedRun& run, const RecordBookOptions& options,
+                                double busy_timeout_seconds);
+
+/// prepare_run() and record_prepared_run(). InputError for an unreadable book, a bad as-of date or an
+/// unusable store; SameBookRun for a run of the same book and date; StoreBusy when another process
+/// holds the store too long.
 RecordedRun record_book(const std::string& book_path, const ScoreSettings& settings, const Config& config,
                         const RecordBookOptions& options);
 

@@ -6,7 +6,9 @@
 // busy timeout for another writer and then fails with StoreBusy; nothing already stored is lost.
 // The schema carries a version (table firmcall_schema) and is migrated forward on open. Files that
 // are not firmcall stores (not SQLite, or another application's SQLite database) are refused
-// without being modified.
+// without being modified. A run is identified as a recording of a book by its as-of date and the
+// SHA-256 of the book's bytes: a writer can refuse, or replace, a second run of the same book as of
+// the same date (SameBook), and remove_run() takes one run out, each in one transaction.
 //
 // **Example**:
 //   firmcall::RunStore store("history.sqlite", firmcall::StoreOpen::create, 10.0);
@@ -22,6 +24,7 @@
 #include <optional>
 #include <string>
 #include <string_view>
+#include <utility>
 #include <vector>
 
 #include "firmcall/book/errors.hpp"
@@ -106,6 +109,36 @@ class StoreBusy : public InputError {
   using InputError::InputError;
 };
 
+/// What a RunWriter does when the store already holds runs of the same book (equal input_sha256)
+/// as of the same date: recording it again would only add a run in which nothing moved.
+enum class SameBook {
+  allow,    ///< record beside them (no check)
+  refuse,   ///< throw SameBookRun; nothing is written
+  replace,  ///< remove them in the transaction of the new run
+};
+
+/// The store already holds runs of the same book as of the same date (SameBook::refuse). what() is
+/// message() followed by the library's advice; run_ids() are the runs, oldest first.
+class SameBookRun : public InputError {
+ public:
+  SameBookRun(std::string message, std::vector<std::int64_t> run_ids)
+      : InputError(message + " (replace it, or record the book as of another date)"),
+        message_(std::move(message)),
+        run_ids_(std::move(run_ids)) {}
+  const std::string& message() const noexcept { return message_; }
+  const std::vector<std::int64_t>& run_ids() const noexcept { return run_ids_; }
+
+ private:
+  std::string message_;
+  std::vector<std::int64_t> run_ids_;
+};
+
+/// What RunStore::remove_run() took out of the store.
+struct RemovedRun {
+  RunInfo run;                    ///< the run as it was stored
+  std::int64_t obligor_rows = 0;  ///< its rows of run_obligors, all deleted with it
+};
+
 /// An open history store. Errors are InputError naming the file.
 class RunStore {
  public:
@@ -140,6 +173,16 @@ class RunStore {
   /// An obligor's entries in every run that holds it, oldest first.
   std::vector<SeriesPoint> series(std::string_view obligor_id) const;
 
+  /// The runs recorded from a book with SHA-256 `input_sha256` as of `as_of`, by run id.
+  std::vector<RunInfo> same_book_runs(std::string_view as_of, std::string_view input_sha256) const;
+  /// Throws SameBookRun, naming them, when the store holds runs of `run`'s book and as-of date.
+  void refuse_same_book(const RunInfo& run) const;
+
+  /// Deletes run `run_id` and its obligors in one transaction (waiting up to the busy timeout);
+  /// every other run stays as it was. InputError, nothing deleted, when there is no such run or the
+  /// store was opened read-only; StoreBusy as for a writer.
+  RemovedRun remove_run(std::int64_t run_id);
+
   struct Impl;  ///< SQLite connection and statements (run_store.cpp)
 
  private:
@@ -150,9 +193,10 @@ class RunStore {
 /// Writes one run in one transaction. Destroying an uncommitted writer rolls the run back.
 class RunWriter {
  public:
-  /// Begins the transaction (waiting up to the busy timeout) and inserts the run's header;
-  /// info.run_id and info.obligor_count are ignored.
-  RunWriter(RunStore& store, const RunInfo& info);
+  /// Begins the transaction (waiting up to the busy timeout), applies `same` to the runs of the
+  /// same book as of the same date (SameBookRun for refuse, after rolling back), and inserts the
+  /// run's header; info.run_id and info.obligor_count are ignored.
+  RunWriter(RunStore& store, const RunInfo& info, SameBook same = SameBook::allow);
   ~RunWriter();
   RunWriter(const RunWriter&) = delete;
   RunWriter& operator=(const RunWriter&) = delete;
@@ -161,9 +205,12 @@ class RunWriter {
   void add(const StoredObligor& obligor);
   /// Commits the run; returns its id.
   std::int64_t commit();
+  /// The runs this one replaces (SameBook::replace), oldest first; deleted when it commits.
+  const std::vector<RunInfo>& replaced() const noexcept { return replaced_; }
 
  private:
   RunStore& store_;
+  std::vector<RunInfo> replaced_;
   std::unique_ptr<detail::StoreStatement> insert_;
   std::int64_t run_id_ = 0;
   std::int64_t count_ = 0;

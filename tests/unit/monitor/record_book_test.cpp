@@ -5,9 +5,14 @@
 #include "firmcall/monitor/record_book.hpp"
 
 #include <doctest/doctest.h>
+#include <sqlite3.h>
 
 #include <cmath>
+#include <fstream>
 #include <string>
+#include <vector>
+
+#include "test_util.hpp"
 
 using namespace firmcall;
 
@@ -133,4 +138,48 @@ TEST_CASE("stored_obligor: the calibrated one-year PD of the DD, and the grade o
   ScoredObligor bad;
   bad.status = RowStatus::invalid_input;
   CHECK(std::isnan(stored_obligor(rec, bad, scale, &cal, DrivingPd::calibrated).pd_calibrated));
+}
+
+TEST_CASE("record_book: the same book as of the same date is refused before an older store is upgraded") {
+  firmcall::testing::TempDir dir;
+  const std::string book = dir.file("book.yaml");
+  {
+    std::ofstream f(book);
+    f << "as_of: 2026-11-06\nobligors:\n"
+         "  - {id: ALD-01, name: Alderby Mills, market_cap: 100, equity_vol: 0.3, default_point: 50, rate: "
+         "0.02}\n";
+  }
+  const std::string db = dir.file("h.sqlite");
+  const Config config;
+  RecordBookOptions opt{.store_path = db, .as_of = "", .tool_version = "test"};
+  const RecordedRun first = record_book(book, config.score, config, opt);
+  CHECK(first.run_id == 1);
+  CHECK(first.replaced_run_ids.empty());
+  // Made to look like a version 2 store (its version 3 mark taken away, then put back) to see that
+  // a refused run does not upgrade it.
+  const auto raw_sql = [&db](const char* sql) {
+    sqlite3* raw = nullptr;
+    REQUIRE(sqlite3_open(db.c_str(), &raw) == SQLITE_OK);
+    CHECK(sqlite3_exec(raw, sql, nullptr, nullptr, nullptr) == SQLITE_OK);
+    sqlite3_close(raw);
+  };
+  raw_sql(
+      "CREATE TABLE kept AS SELECT * FROM firmcall_schema WHERE version = 3;"
+      "DELETE FROM firmcall_schema WHERE version = 3");
+  const std::string bytes = firmcall::testing::read_file(db);
+  CHECK_THROWS_WITH_AS(record_book(book, config.score, config, opt), doctest::Contains("run 1 (recorded "),
+                       SameBookRun);
+  CHECK(firmcall::testing::read_file(db) == bytes);
+  CHECK(RunStore(db, StoreOpen::read_only, 5.0).schema_version() == 2);
+  raw_sql("INSERT INTO firmcall_schema SELECT * FROM kept; DROP TABLE kept");
+
+  opt.as_of = "2026-11-07";
+  CHECK(record_book(book, config.score, config, opt).run_id == 2);
+  opt.as_of = "";
+  opt.replace_run = true;
+  const RecordedRun replaced = record_book(book, config.score, config, opt);
+  CHECK(replaced.run_id == 3);
+  CHECK(replaced.replaced_run_ids == std::vector<std::int64_t>{1});
+  const RunStore store(db, StoreOpen::read_only, 5.0);
+  CHECK(store.runs().size() == 2);
 }

@@ -612,3 +612,74 @@ TEST_CASE("a value that is not a number in a number column is reported, not read
           .c_str(),
       InputError);
 }
+
+TEST_CASE("a second run of the same book and as-of date: allowed, refused or replaced") {
+  TempDir dir;
+  const std::string path = dir.file("h.sqlite");
+  RunStore store(path, StoreOpen::create, 5.0);
+  const auto first = write_run(store, run_info("2026-11-06"), book_of(3, "A-", 0.01));
+  CHECK(write_run(store, run_info("2026-11-13"), book_of(3, "A-", 0.01)) == first + 1);
+  CHECK(store.same_book_runs("2026-11-06", std::string(64, 'a')).size() == 1);
+  CHECK(store.same_book_runs("2026-11-06", std::string(64, 'b')).empty());
+  {
+    RunWriter w(store, run_info("2026-11-06"), SameBook::allow);  // as before: no check
+    CHECK(w.commit() == first + 2);
+  }
+  REQUIRE(store.same_book_runs("2026-11-06", std::string(64, 'a')).size() == 2);
+
+  const std::string before = read_file(path);
+  try {
+    RunWriter w(store, run_info("2026-11-06"), SameBook::refuse);
+    FAIL("expected SameBookRun");
+  } catch (const SameBookRun& e) {
+    CHECK(e.run_ids() == std::vector<std::int64_t>{first, first + 2});
+    CHECK(std::string(e.what()).find("runs 1 and 3 already hold this book as of 2026-11-06 (input SHA-256 "
+                                     "aaaaaaaaaaaa...); nothing was written") != std::string::npos);
+  }
+  CHECK_THROWS_AS(store.refuse_same_book(run_info("2026-11-06")), SameBookRun);
+  CHECK_NOTHROW(store.refuse_same_book(run_info("2026-11-20")));
+  CHECK(read_file(path) == before);
+
+  RunWriter w(store, run_info("2026-11-06"), SameBook::replace);
+  for (const auto& o : book_of(2, "B-", 0.02)) w.add(o);
+  REQUIRE(w.replaced().size() == 2);
+  CHECK(w.replaced()[0].run_id == first);
+  CHECK(w.replaced()[1].run_id == first + 2);
+  const auto id = w.commit();
+  CHECK(id == first + 3);  // after theirs: an id is not given back
+  const auto runs = store.runs();
+  REQUIRE(runs.size() == 2);
+  CHECK(runs[0].run_id == id);  // 2026-11-06
+  CHECK(runs[1].run_id == first + 1);
+  CHECK(store.obligors(id).size() == 2);
+  CHECK(raw_query(path, "SELECT count(*) FROM run_obligors WHERE run_id IN (1, 3)") == "0");
+}
+
+TEST_CASE("remove_run deletes one run and its obligors in one transaction, nothing else") {
+  TempDir dir;
+  const std::string path = dir.file("h.sqlite");
+  RunStore store(path, StoreOpen::create, 5.0);
+  write_run(store, run_info("2026-11-06"), book_of(3, "A-", 0.01));
+  write_run(store, run_info("2026-11-13"), book_of(4, "A-", 0.02));
+  write_run(store, run_info("2026-11-20"), book_of(5, "A-", 0.03));
+  const RemovedRun removed = store.remove_run(2);
+  CHECK(removed.run.run_id == 2);
+  CHECK(removed.run.as_of == "2026-11-13");
+  CHECK(removed.obligor_rows == 4);
+  const auto runs = store.runs();
+  REQUIRE(runs.size() == 2);
+  CHECK(runs[0].run_id == 1);
+  CHECK(runs[1].run_id == 3);
+  CHECK(store.obligors(1).size() == 3);
+  CHECK(store.obligors(3).size() == 5);
+  CHECK(raw_query(path, "SELECT count(*) FROM run_obligors") == "8");
+  CHECK(store.series("A-0").size() == 2);
+  const std::string bytes = read_file(path);
+  CHECK_THROWS_WITH_AS(store.remove_run(2), doctest::Contains("no run with id 2; nothing was removed"),
+                       InputError);
+  CHECK(read_file(path) == bytes);
+  RunStore reader(path, StoreOpen::read_only, 5.0);
+  CHECK_THROWS_WITH_AS(reader.remove_run(1), doctest::Contains("opened for reading only"), InputError);
+  CHECK(read_file(path) == bytes);
+  CHECK(raw_query(path, "PRAGMA integrity_check") == "ok");
+}
