@@ -1,6 +1,8 @@
 // `firmcall runs`: the runs recorded in the history store; `runs --remove ID` takes one out.
+#include <algorithm>
 #include <iostream>
 #include <memory>
+#include <vector>
 
 #include "commands.hpp"
 #include "firmcall/monitor/monitor_output.hpp"
@@ -18,10 +20,22 @@ struct RunsCli {
 // `runs --remove ID`: deletes the run and its obligors in one transaction and says what went.
 ExitCode remove_run(const RunsCli& opts, const GlobalOptions& global) {
   const Config config = global.config();
+  const std::string path = resolve_store_path(opts.store.db, config.monitor);
+  // Checked as the reading commands check it first: an empty or foreign file is refused untouched
+  // (opening for writing would make an empty file a store).
+  // and an unknown id leaves an older store un-upgraded.
+  const std::int64_t run_id = std::stoll(opts.remove);
+  {
+    const RunStore check(path, StoreOpen::read_only, config.monitor.busy_timeout_seconds);
+    const std::vector<RunInfo> runs = check.runs();
+    if (std::none_of(runs.begin(), runs.end(), [run_id](const RunInfo& r) { return r.run_id == run_id; })) {
+      throw InputError("history store '" + path + "': no run with id " + opts.remove +
+                       "; nothing was removed");
+    }
+  }
   // Opened for writing, as recording does (an older schema is upgraded first).
-  RunStore store(resolve_store_path(opts.store.db, config.monitor), StoreOpen::existing,
-                 config.monitor.busy_timeout_seconds);
-  const RemovedRun removed = store.remove_run(std::stoll(opts.remove));
+  RunStore store(path, StoreOpen::existing, config.monitor.busy_timeout_seconds);
+  const RemovedRun removed = store.remove_run(run_id);
   const RunInfo& r = removed.run;
   const std::size_t remaining = store.runs().size();
   std::cout << "removed run " << r.run_id << " as of " << r.as_of << " (recorded " << r.recorded_at
