@@ -31,6 +31,7 @@ struct StressCli {
   TermOptionText term;
   std::string pd_calibration;  // --pd-calibration: calibration file (calibrate --save)
   std::string driving_pd;      // --driving-pd: model or calibrated (default: calibrated with a calibration)
+  std::string hold;            // --hold: asset-vol or equity-vol (default: config stress.hold)
   bool grid() const { return !equity_shocks.empty() || !vol_multipliers.empty(); }
 };
 
@@ -75,6 +76,12 @@ void declare_stress_options(CLI::App* cmd, StressCli& o) {
                   "PD of the table's summaries, the PD grid and the closing lines: model or calibrated "
                   "(default: calibrated with --pd-calibration, else model)")
       ->check(CLI::IsMember({"model", "calibrated"}));
+  cmd->add_option("--hold", o.hold,
+                  "Volatility a stress holds: asset-vol (asset volatility held, V re-solved, equity "
+                  "volatility as the model implies; volatility multipliers act on the asset volatility) or "
+                  "equity-vol (shocked equity value and volatility re-solved); default: config stress.hold "
+                  "(asset-vol)")
+      ->check(CLI::IsMember({"asset-vol", "equity-vol"}));
   cmd->footer(
       std::string("\nGive --scenarios FILE, or a quick grid (--equity-shocks and/or "
                   "--equity-vol-multipliers), or --reverse-pd LEVEL.\n"
@@ -138,6 +145,11 @@ void check_term_stress(const StressCli& o) {
   }
   if (!o.pd_calibration.empty()) {
     throw InputError("--pd-calibration: not available with term structures (--horizons, --model)");
+  }
+  if (o.hold == "asset-vol") {
+    throw InputError(
+        "--hold asset-vol: not available with term structures (--horizons, --model); their stress re-solves "
+        "the shocked equity value and volatility (--hold equity-vol)");
   }
 }
 
@@ -214,16 +226,21 @@ StressOutcome run_stress_kind(const StressCli& o, const StressInputs& in, const 
                                std::to_string(sum.failed_rows) + " failed");
   }
   if (o.reverse_pd) {
-    const ReverseStressSummary sum = run_reverse_stress(in.book, *o.reverse_pd, in.settings, in.run, sink);
+    ReverseStressOptions options;
+    options.hold = in.stress.hold;
+    const ReverseStressSummary sum =
+        run_reverse_stress(in.book, *o.reverse_pd, in.settings, in.run, sink, options);
     return outcome_of(sum, "reverse-stressed " + std::to_string(sum.base_ok) + " of " +
-                               std::to_string(sum.obligors) + " obligors");
+                               std::to_string(sum.obligors) + " obligors (hold " +
+                               std::string(to_string(options.hold)) + ")");
   }
   StressBookOptions run = in.run;
   if (!o.pd_calibration.empty()) run.pd_calibration = &in.calibration.calibration;
   const StressSummary sum = run_stress(in.book, in.scenarios, in.origin, in.settings, in.stress, run, sink);
   if (summary_file) summary_file->write(scenario_summary_csv(sum, in.scenarios));
   std::string closing = "stressed " + std::to_string(sum.obligors) + " obligors under " +
-                        std::to_string(sum.scenarios.size()) + " scenarios: " + std::to_string(sum.rows) +
+                        std::to_string(sum.scenarios.size()) + " scenarios (hold " +
+                        std::string(to_string(in.stress.hold)) + "): " + std::to_string(sum.rows) +
                         " rows, " + std::to_string(sum.failed_rows) + " failed";
   if (in.run.format != OutputFormat::table && !quiet) closing += scenario_closing(sum, in.scenarios);
   return outcome_of(sum, std::move(closing));
@@ -238,6 +255,8 @@ StressInputs stress_inputs(const StressCli& o, const GlobalOptions& global) {
   in.settings = scoring_settings(config.score, o.scoring);
   in.stress = config.stress;
   if (o.pd_threshold) in.stress.pd_threshold = *o.pd_threshold;
+  if (const auto hold = parse_stress_hold(o.hold)) in.stress.hold = *hold;
+  if (in.term_run) in.stress.hold = StressHold::equity_vol;  // term-structure stress re-solves (sE held)
   in.run.format = o.out.format;
   in.run.threads = thread_count(o.threads);
   in.run.sensitivities = o.sensitivities;

@@ -135,9 +135,16 @@ std::string stressed_input_problem(const MertonInputs& in) {
 
 namespace {
 
+// The asset-vol hold (shock.hpp): sV' = sV x multiplier + points, V re-solved from the equity
+// equation alone, and the stressed equity volatility set to what the model implies there. A
+// shock that changes nothing keeps the base solution as it is.
+void stress_held_asset_vol(const ScoredObligor& base, const ShockEffect& effect,
+                           const ScoreSettings& settings, StressedObligor& out);
+
 // First half of stress_obligor: everything up to the solve. Returns true when out.inputs must be
 // solved (then finish_stressed completes out); otherwise out is complete.
-bool start_stressed(const ScoredObligor& base, const ShockEffect& effect, StressedObligor& out) {
+bool start_stressed(const ScoredObligor& base, const ShockEffect& effect, const ScoreSettings& settings,
+                    StressHold hold, StressedObligor& out) {
   out.effect = effect;
   out.message.clear();
   out.inputs = base.resolved.inputs;
@@ -156,6 +163,10 @@ bool start_stressed(const ScoredObligor& base, const ShockEffect& effect, Stress
     out.solution = base.solution;
     out.measures = base.measures;
     out.status = StressStatus::ok;
+    return false;
+  }
+  if (hold == StressHold::asset_vol) {
+    stress_held_asset_vol(base, effect, settings, out);
     return false;
   }
   out.inputs = apply_shock(base.resolved.inputs, effect, base.resolved.drift_follows_rate);
@@ -187,6 +198,47 @@ void finish_stressed(StressedObligor& out) {
   out.status = StressStatus::ok;
 }
 
+void stress_held_asset_vol(const ScoredObligor& base, const ShockEffect& effect,
+                           const ScoreSettings& settings, StressedObligor& out) {
+  const double nan = std::nan("");
+  out.inputs = apply_shock(base.resolved.inputs, effect, base.resolved.drift_follows_rate);
+  if (effect.identity()) {
+    out.solution = base.solution;
+    out.measures = base.measures;
+    out.status = StressStatus::ok;
+    return;
+  }
+  const double asset_vol = stressed_asset_vol(base.solution.asset_vol_annual, effect);
+  if (!(asset_vol > 0.0) || !std::isfinite(asset_vol)) {
+    out.inputs.equity_vol_annual = nan;
+    out.status = StressStatus::invalid_stress;
+    out.message =
+        "stressed field 'asset_vol': must be positive (check equity_vol_add_points; with --hold "
+        "asset-vol the volatility shocks act on the asset volatility " +
+        shortest(base.solution.asset_vol_annual) + "), got " + shortest(asset_vol);
+    return;
+  }
+  // The other stressed inputs are checked as for the equity-vol hold; sE' is not known yet.
+  out.inputs.equity_vol_annual = asset_vol;
+  out.message = stressed_input_problem(out.inputs);
+  out.inputs.equity_vol_annual = nan;
+  if (!out.message.empty()) {
+    out.status = StressStatus::invalid_stress;
+    return;
+  }
+  out.solution = solve_asset_value_at_vol(out.inputs, asset_vol, settings.solver);
+  if (out.solution.usable()) {
+    out.inputs.equity_vol_annual =
+        implied_equity_vol(out.inputs, out.solution.asset_value, out.solution.asset_vol_annual);
+  }
+  finish_stressed(out);
+  if (out.status == StressStatus::ok &&
+      !(out.inputs.equity_vol_annual > 0.0 && std::isfinite(out.inputs.equity_vol_annual))) {
+    out.status = StressStatus::not_converged;
+    out.message = "stressed inputs: the implied equity volatility is not positive and finite";
+  }
+}
+
 void add_sensitivities(const ScoredObligor& base, StressedObligor& out) {
   if (out.status != StressStatus::ok) return;
   out.sensitivities = merton_sensitivities(out.inputs, out.solution.asset_value,
@@ -196,8 +248,8 @@ void add_sensitivities(const ScoredObligor& base, StressedObligor& out) {
 }  // namespace
 
 void stress_obligor(const ScoredObligor& base, const ShockEffect& effect, const ScoreSettings& settings,
-                    bool sensitivities, StressedObligor& out) {
-  if (start_stressed(base, effect, out)) {
+                    bool sensitivities, StressedObligor& out, StressHold hold) {
+  if (start_stressed(base, effect, settings, hold, out)) {
     out.solution = solve_asset(out.inputs, settings.solver);
     finish_stressed(out);
   }
@@ -205,11 +257,12 @@ void stress_obligor(const ScoredObligor& base, const ShockEffect& effect, const 
 }
 
 void stress_obligors(const ScoredObligor* base, const ShockEffect* effects, std::size_t n,
-                     const ScoreSettings& settings, bool sensitivities, StressedObligor* out) {
+                     const ScoreSettings& settings, bool sensitivities, StressedObligor* out,
+                     StressHold hold) {
   std::vector<std::size_t> solve;
   std::vector<MertonInputs> inputs;
   for (std::size_t i = 0; i < n; ++i) {
-    if (start_stressed(base[i], effects[i], out[i])) {
+    if (start_stressed(base[i], effects[i], settings, hold, out[i])) {
       solve.push_back(i);
       inputs.push_back(out[i].inputs);
     }
@@ -341,7 +394,7 @@ ScenarioSummary summarise_scenario(const Book& book, const Scenario& sc,
         // message is rebuilt here, only for the listed few.
         if (sum.problems.size() < max_listed) {
           StressedObligor again;
-          stress_obligor(base[i], sc.effect_for(book.obligors[i]), settings, false, again);
+          stress_obligor(base[i], sc.effect_for(book.obligors[i]), settings, false, again, stress.hold);
           sum.problems.push_back(
               problem_text(book, book.obligors[i], "scenario '" + sc.name + "': " + again.message));
         } else {
@@ -444,7 +497,7 @@ StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenario
                               for (std::size_t i = b; i < e; ++i)
                                 wk.effects[i - b] = sc.effect_for(book.obligors[i]);
                               stress_obligors(base.data() + b, wk.effects.data(), e - b, settings,
-                                              run.sensitivities, wk.stressed.data());
+                                              run.sensitivities, wk.stressed.data(), stress.hold);
                               for (std::size_t i = b; i < e; ++i) {
                                 const StressedObligor& st = wk.stressed[i - b];
                                 outcome.status[i] = st.status;

@@ -238,7 +238,8 @@ class StressJsonWriter final : public detail::StressWriter {
         .number("default_point_weight",
                 info_.settings.weight_override.value_or(info_.settings.default_point_weight))
         .number("default_lgd", info_.settings.default_lgd)
-        .number("pd_threshold", info_.stress.pd_threshold);
+        .number("pd_threshold", info_.stress.pd_threshold)
+        .text("hold", to_string(info_.stress.hold));
     if (info_.pd_calibration) {
       JsonFields(out, false)
           .text("pd_calibration", info_.pd_calibration_origin)
@@ -300,6 +301,11 @@ class StressTableWriter final : public detail::StressWriter {
            percent(info_.stress.pd_threshold) +
            "; expected loss = PD x LGD x EAD over obligors with ead (LGD " +
            percent(info_.settings.default_lgd) + " where none is given)\n";
+    out +=
+        info_.stress.hold == StressHold::asset_vol
+            ? "Hold: asset-vol (asset volatility held, times any volatility multiplier; V re-solved; equity "
+              "volatility implied)\n"
+            : "Hold: equity-vol (shocked equity value and volatility re-solved for V and asset volatility)\n";
     if (const PdCalibration* cal = info_.pd_calibration) {
       const std::string file = info_.pd_calibration_origin + ", " + std::string(to_string(cal->method));
       out += info_.driving_pd == DrivingPd::calibrated
@@ -525,7 +531,7 @@ ReverseCells reverse_cells(const ScoredObligor& base, const ReverseStressRow& r,
   }
   if (usable(r.vol_multiplier.status)) {
     c.mult = r.vol_multiplier.shock;
-    c.vol_at = in.equity_vol_annual * r.vol_multiplier.shock;
+    c.vol_at = r.vol_multiplier.equity_vol_at_shock;
     c.pd_mult = r.vol_multiplier.pd_at_shock;
   }
   return c;
@@ -574,6 +580,7 @@ class ReverseJsonWriter final : public detail::ReverseStressWriter {
     JsonFields(out)
         .text("book", info_.book_origin)
         .text("measure", to_string(info_.settings.measure))
+        .text("hold", to_string(options_.hold))
         .number("target_pd", target_)
         .number("max_equity_fall", options_.max_equity_fall)
         .number("max_equity_vol_multiplier", options_.max_vol_multiplier);
@@ -623,14 +630,19 @@ class ReverseTableWriter final : public detail::ReverseStressWriter {
       : info_(info), target_(target), options_(options) {}
   void begin(std::string& out) const override {
     char buf[320];
+    const bool asset = options_.hold == StressHold::asset_vol;
     std::snprintf(buf, sizeof buf,
                   "Reverse stress: the shock that moves each obligor's PD to %s, other inputs held\n"
-                  "(equity falls searched up to %s, equity-volatility multipliers up to x%g; book %s)\n",
+                  "(equity falls searched up to %s, %s-volatility multipliers up to x%g; book %s)\n",
                   percent(target_).c_str(), percent(options_.max_equity_fall).c_str(),
-                  options_.max_vol_multiplier, info_.book_origin.c_str());
+                  asset ? "asset" : "equity", options_.max_vol_multiplier, info_.book_origin.c_str());
     out += buf;
+    out +=
+        asset
+            ? "Hold: asset-vol (asset volatility held, V re-solved, equity volatility as the model implies)\n"
+            : "Hold: equity-vol (equity volatility held, V and asset volatility re-solved)\n";
     std::snprintf(buf, sizeof buf, kReverseFormat, "obligor", "name", "PD as it", "equity", "equity at", "",
-                  "equity", "equity vol", "");
+                  asset ? "asset" : "equity", "equity vol", "");
     out += buf;
     std::snprintf(buf, sizeof buf, kReverseFormat, "", "", "stands %", "fall %", "target", "search", "vol x",
                   "at target %", "search");

@@ -253,8 +253,9 @@ Config parse_config(const std::string& text, const std::string& origin) {
   if (const auto s = root["scoring"]) read_scoring(s, origin, c.score);
   if (const auto s = root["solver"]) read_solver(s, origin, c.score.solver);
   if (const auto s = root["stress"]) {
-    yaml_check_keys(s, {"pd_threshold"}, origin, "stress");
+    yaml_check_keys(s, {"pd_threshold", "hold"}, origin, "stress");
     read_number(s, "pd_threshold", c.stress.pd_threshold, c.stress, origin);
+    read_choice(s, "hold", c.stress.hold, parse_stress_hold, "expected asset-vol or equity-vol", origin);
   }
   if (const auto s = root["history"]) read_history(s, origin, c.history);
   if (const auto s = root["grades"]) c.grades = parse_grade_scale(s, origin);

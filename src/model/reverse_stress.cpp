@@ -65,14 +65,24 @@ ShockEffect effect_of(Kind kind, double x) noexcept {
   return e;
 }
 
-// PD after the shock x; false when the stressed model cannot be solved.
-bool pd_after(const MertonInputs& base, Kind kind, double x, const ReverseStressOptions& options, double& pd,
-              int& solves) noexcept {
-  const MertonInputs in = apply_shock(base, effect_of(kind, x), /*drift_follows_rate=*/false);
-  const AssetSolution sol = solve_asset(in, options.solver);
+// PD after the shock x; false when the stressed model cannot be solved. With the asset_vol hold,
+// base_asset_vol is the base solve's sV, held (times the multiplier) while V is re-solved.
+bool pd_after(const MertonInputs& base, Kind kind, double x, const ReverseStressOptions& options,
+              double base_asset_vol, double& pd, int& solves, double* equity_vol = nullptr) noexcept {
+  const ShockEffect effect = effect_of(kind, x);
+  const MertonInputs in = apply_shock(base, effect, /*drift_follows_rate=*/false);
+  const AssetSolution sol =
+      options.hold == StressHold::asset_vol
+          ? solve_asset_value_at_vol(in, stressed_asset_vol(base_asset_vol, effect), options.solver)
+          : solve_asset(in, options.solver);
   ++solves;
   if (!sol.usable()) return false;
   pd = merton_measures(in, sol.asset_value, sol.asset_vol_annual).pd;
+  if (equity_vol) {
+    *equity_vol = options.hold == StressHold::asset_vol
+                      ? implied_equity_vol(in, sol.asset_value, sol.asset_vol_annual)
+                      : in.equity_vol_annual;
+  }
   return std::isfinite(pd);
 }
 
@@ -84,8 +94,18 @@ ReverseResult search(const MertonInputs& base, double target, Kind kind,
   const double hi = equity ? options.max_equity_fall : options.max_vol_multiplier;
   if (!(target > 0.0 && target < 1.0) || !validate(base).ok() || !options_valid(options)) return r;
 
+  double base_asset_vol = 0.0;
+  if (options.hold == StressHold::asset_vol) {
+    const AssetSolution b = solve_asset(base, options.solver);
+    ++r.solves;
+    if (!b.usable()) {
+      r.status = ReverseStatus::not_converged;
+      return r;
+    }
+    base_asset_vol = b.asset_vol_annual;
+  }
   double pd = 0.0;
-  if (!pd_after(base, kind, lo, options, pd, r.solves)) {
+  if (!pd_after(base, kind, lo, options, base_asset_vol, pd, r.solves, &r.equity_vol_at_shock)) {
     r.status = ReverseStatus::not_converged;
     return r;
   }
@@ -114,7 +134,7 @@ ReverseResult search(const MertonInputs& base, double target, Kind kind,
   bool crossed = false;
   for (int i = 1; i < options.scan_points; ++i) {
     b = grid(i);
-    if (!pd_after(base, kind, b, options, pd, r.solves)) {
+    if (!pd_after(base, kind, b, options, base_asset_vol, pd, r.solves)) {
       r.status = ReverseStatus::not_converged;
       return r;
     }
@@ -138,7 +158,7 @@ ReverseResult search(const MertonInputs& base, double target, Kind kind,
   if (gb > 0.0) {
     const auto g = [&](double x) {
       double p = 0.0;
-      if (!pd_after(base, kind, x, options, p, r.solves)) {
+      if (!pd_after(base, kind, x, options, base_asset_vol, p, r.solves)) {
         solve_failed = true;
         return std::numeric_limits<double>::quiet_NaN();
       }
@@ -157,7 +177,7 @@ ReverseResult search(const MertonInputs& base, double target, Kind kind,
     r.status = ReverseStatus::not_converged;
     return r;
   }
-  if (!pd_after(base, kind, best, options, pd, r.solves)) {
+  if (!pd_after(base, kind, best, options, base_asset_vol, pd, r.solves, &r.equity_vol_at_shock)) {
     r.status = ReverseStatus::not_converged;
     return r;
   }

@@ -1396,8 +1396,9 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
       run.pd_calibration_origin = options.pd_calibration_path;
       run.driving_pd = d.options.driving_pd;
     }
-    st->summary =
-        run_stress(d.book, set.scenarios, set.origin, settings, config.stress, run, [](std::string_view) {});
+    StressSettings held = config.stress;
+    held.hold = StressHold::equity_vol;  // as its rows below (stress_obligor's default hold)
+    st->summary = run_stress(d.book, set.scenarios, set.origin, settings, held, run, [](std::string_view) {});
     for (const Scenario& sc : set.scenarios) {
       std::vector<StressedObligor> rows(d.book.obligors.size());
       for (std::size_t i = 0; i < rows.size(); ++i) {

@@ -171,8 +171,10 @@ TEST_CASE("the sample scenarios hit the obligors their filters name") {
 
 TEST_CASE("a stressed PD equals scoring the sample obligor with its inputs shocked by hand") {
   // The mild scenario: E x (1 - 0.1), sE x 1.15, rate + 25 bp, written into a one-obligor book
-  // and scored by `firmcall score` (an independent path through the program).
-  const Result stress = run_firmcall({"stress", kBook, "--scenarios", kScenarios, "--format", "csv"});
+  // and scored by `firmcall score` (an independent path through the program). This is the
+  // re-solve of the shocked (E', sE'): --hold equity-vol.
+  const Result stress =
+      run_firmcall({"stress", kBook, "--scenarios", kScenarios, "--format", "csv", "--hold", "equity-vol"});
   REQUIRE(stress.exit_code == 0);
   const Csv t = parse_csv(stress.out);
   REQUIRE(t.cell(0, "id") == "ALD-01");

@@ -152,8 +152,9 @@ TEST_CASE("stress --horizons on the sample book: base and stressed curves per sc
   CHECK(r.err ==
         "firmcall: stressed the term structures of 36 obligors under 3 scenarios: 648 rows, 0 failed\n");
   // The single-horizon stress run's figures reappear at t = 1 for the Merton rows.
-  const auto s =
-      run_firmcall("stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --format csv");
+  const auto s = run_firmcall(  // the term stress re-solves (E', sE'): --hold equity-vol
+      "stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --format csv --hold "
+      "equity-vol");
   REQUIRE(s.exit_code == 0);
   const auto stress = parse_csv_table(s.out);
   std::size_t compared = 0;

@@ -11,6 +11,7 @@
 #include "firmcall/book/grades.hpp"
 #include "firmcall/estimate/history.hpp"
 #include "firmcall/model/merton_solver.hpp"
+#include "firmcall/model/shock.hpp"
 #include "firmcall/model/term_structure.hpp"
 #include "firmcall/util/option_check.hpp"
 
@@ -42,7 +43,8 @@ struct ScoreSettings {
 
 /// Settings of the stress command (see stress.hpp).
 struct StressSettings {
-  double pd_threshold = 0.05;  ///< obligors with stressed PD above this are counted per scenario
+  double pd_threshold = 0.05;               ///< obligors with stressed PD above this are counted per scenario
+  StressHold hold = StressHold::asset_vol;  ///< stress.hold: which volatility a stress holds (shock.hpp)
 
   /// The first broken constraint, in the order of the fields (those the settings reader enforces).
   OptionCheck validate() const;

@@ -63,15 +63,19 @@ struct StressedObligor {
 };
 
 /// Stresses one obligor already scored as it stands. When no shock hits it (effect.shocks == 0)
-/// the stressed result is the base result; otherwise the shocked inputs are re-solved. Never
-/// throws for bad values.
+/// the stressed result is the base result; otherwise the shocked inputs are re-solved as `hold`
+/// says (shock.hpp). With StressHold::asset_vol, inputs.equity_vol_annual is the model-implied
+/// stressed equity volatility (NaN when the row failed) and a shock that changes nothing keeps the
+/// base solution. Callers that do not choose (the portfolio and report stress sections) get the
+/// equity_vol re-solve. Never throws for bad values.
 void stress_obligor(const ScoredObligor& base, const ShockEffect& effect, const ScoreSettings& settings,
-                    bool sensitivities, StressedObligor& out);
+                    bool sensitivities, StressedObligor& out, StressHold hold = StressHold::equity_vol);
 
-/// stress_obligor for n obligors (base[i] under effects[i] into out[i]), their solves done
-/// together by solve_asset_batch: the same results, faster.
+/// stress_obligor for n obligors (base[i] under effects[i] into out[i]), their equity-vol solves
+/// done together by solve_asset_batch: the same results, faster.
 void stress_obligors(const ScoredObligor* base, const ShockEffect* effects, std::size_t n,
-                     const ScoreSettings& settings, bool sensitivities, StressedObligor* out);
+                     const ScoreSettings& settings, bool sensitivities, StressedObligor* out,
+                     StressHold hold = StressHold::equity_vol);
 
 /// A scenario's figures on one PD, over the compared obligors of its ScenarioSummary. In
 /// ScenarioSummary::calibrated (with a calibration) the PD is the calibrated one-year PD of base

@@ -15,7 +15,16 @@
 //   add, and of several horizons the last one given wins:
 //   sE' = sE (m1 m2 ...) + (a1 + a2 + ...)/100,  E' = E (1 + c1)(1 + c2) ...
 //
-// Pure arithmetic: no I/O, nothing throws.
+// Which volatility a stress holds (StressHold):
+//   asset_vol  (structural stress): the base asset volatility sV is held (times the volatility
+//              multiplier, plus the points), the stressed V alone is re-solved from the equity
+//              equation E' = V N(d1) - K' N(d2), and the stressed equity volatility is what the
+//              model implies there, sE' = N(d1) sV' V' / E'. A fall in equity raises leverage and
+//              with it sE', as the model says it must.
+//   equity_vol (re-solve): the shocked (E', sE') pair goes through the full inversion again.
+// With asset_vol the volatility shocks act on the asset volatility: sV' = sV m + a/100.
+//
+// Pure arithmetic and a bracketed 1-D root search: no I/O, nothing throws.
 //
 // **Example**:
 //   firmcall::ShockEffect effect;
@@ -24,7 +33,12 @@
 //   auto sol = firmcall::solve_asset(stressed);   // may fail validation: check solve status
 #pragma once
 
+#include <cstdint>
+#include <optional>
+#include <string_view>
+
 #include "firmcall/model/merton.hpp"
+#include "firmcall/model/merton_solver.hpp"
 
 namespace firmcall {
 
@@ -58,5 +72,30 @@ struct ShockEffect {
 /// which report a non-positive stressed value as invalid_input.
 MertonInputs apply_shock(const MertonInputs& base, const ShockEffect& effect,
                          bool drift_follows_rate) noexcept;
+
+/// Which volatility a stress holds (see the file comment). asset_vol is the default of the stress
+/// command: it is the structural view (leverage drives equity volatility).
+enum class StressHold : std::uint8_t { asset_vol, equity_vol };
+/// "asset-vol" or "equity-vol", as on the command line and in the settings file.
+std::string_view to_string(StressHold hold) noexcept;
+/// The hold named "asset-vol" or "equity-vol"; nullopt for anything else.
+std::optional<StressHold> parse_stress_hold(std::string_view text) noexcept;
+
+/// The stressed asset volatility of an asset_vol-hold stress: sV' = sV x equity_vol_factor +
+/// equity_vol_add (the volatility shocks act on the held asset volatility).
+double stressed_asset_vol(double base_asset_vol, const ShockEffect& effect) noexcept;
+
+/// Solves the equity equation E = V N(d1) - K N(d2) (K = DP exp(-rT)) for V with the asset
+/// volatility held at `asset_vol`; in.equity_vol_annual is not read. The root lies in
+/// (E, E + K), where the call value is increasing in V; it is found by a bracketed search
+/// (Boost.Math TOMS 748, non-throwing policy) on x = ln(V/K). converged when
+/// |C(V) - E| / (E + K) <= options.residual_tolerance; invalid_input when the inputs (other than
+/// the equity volatility), asset_vol or the options are not valid. The result's asset_vol_annual
+/// is `asset_vol`.
+AssetSolution solve_asset_value_at_vol(const MertonInputs& in, double asset_vol,
+                                       const MertonSolveOptions& options = {}) noexcept;
+
+/// Equity volatility the model implies at (V, sV): sE = N(d1) sV V / E.
+double implied_equity_vol(const MertonInputs& in, double asset_value, double asset_vol_annual) noexcept;
 
 }  // namespace firmcall

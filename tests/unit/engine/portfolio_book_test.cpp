@@ -22,6 +22,13 @@ using namespace firmcall;
 
 namespace {
 
+// The portfolio stress re-solves the shocked (E', sE') (stress_obligor's default hold).
+StressSettings equity_vol_hold() {
+  StressSettings s;
+  s.hold = StressHold::equity_vol;
+  return s;
+}
+
 // Invented obligors; BAD-4 has a negative ead, BAD-5 an lgd of 1.5, BAD-6 no ead, BAD-7 a sector
 // the correlation file below does not list.
 const char* kBook = R"(book: portfolio test book
@@ -185,8 +192,8 @@ TEST_CASE("stress scenarios at portfolio level use the stress engine's PDs") {
   // The stressed PDs are the stress engine's.
   std::string csv;
   StressBookOptions so;
-  const StressSummary ss = run_stress(book, set.scenarios, "scen.yaml", ScoreSettings{}, StressSettings{}, so,
-                                      [&](std::string_view s) { csv += s; });
+  const StressSummary ss = run_stress(book, set.scenarios, "scen.yaml", ScoreSettings{}, equity_vol_hold(),
+                                      so, [&](std::string_view s) { csv += s; });
   const testing::CsvTable t = testing::parse_csv_table(csv);
   for (std::size_t row = 0; row < t.rows.size(); ++row) {
     if (t.cell(row, "scenario") != "fall" || t.cell(row, "status") != "ok") continue;

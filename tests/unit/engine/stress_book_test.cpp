@@ -18,6 +18,7 @@
 #include "csv_table.hpp"
 #include "firmcall/engine/score_output.hpp"
 #include "firmcall/io/calibration_io.hpp"
+#include "reference_solver.hpp"
 
 using namespace firmcall;
 
@@ -45,13 +46,23 @@ Csv parse_csv(const std::string& text) {
   return testing::parse_csv_table(text);
 }
 
+// The tests written before the asset-vol hold check the re-solve of (E', sE'): they run with
+// --hold equity-vol; the asset-vol tests below pass kHoldAssetVol.
+StressSettings held(StressHold hold) {
+  StressSettings s;
+  s.hold = hold;
+  return s;
+}
+const StressSettings kHoldEquityVol = held(StressHold::equity_vol);
+const StressSettings kHoldAssetVol = held(StressHold::asset_vol);
+
 struct Run {
   StressSummary summary;
   std::string text;
 };
 
 Run run(const Book& book, const std::string& scenario_yaml, OutputFormat format = OutputFormat::csv,
-        unsigned threads = 1, bool sensitivities = false, StressSettings stress = {}) {
+        unsigned threads = 1, bool sensitivities = false, StressSettings stress = kHoldEquityVol) {
   const ScenarioSet set = parse_scenarios(scenario_yaml, "scen.yaml");
   check_filters(set, book);
   StressBookOptions opts;
@@ -607,4 +618,113 @@ TEST_CASE("driving PD calibrated needs a calibration") {
   const OptionCheck c = opts.validate();
   REQUIRE(c);
   CHECK(c->field == "driving_pd");
+}
+
+// ---------------------------------------------------------------- the asset-vol hold
+
+TEST_CASE("asset-vol hold: sV held x the multiplier, V from the equity equation, sE as implied") {
+  // Reference: tests/support/reference_solver.hpp (long-double bisection on E = V N(d1) - K N(d2),
+  // written independently of src/); sE' = N(d1) sV V / E (Ito's lemma, Merton 1974); PD = N(-DD).
+  const Book b = book();
+  const Run r = run(b, R"(scenarios:
+  - name: fall
+    shocks: [{equity_change: -0.6, rate_shift_bp: 25, default_point_change: 0.1}]
+  - name: fall_and_vol
+    shocks: [{equity_change: -0.3, equity_vol_multiplier: 1.5, equity_vol_add_points: 2}]
+)",
+                    OutputFormat::csv, 1, false, kHoldAssetVol);
+  const Csv csv = parse_csv(r.text);
+  REQUIRE(csv.rows.size() == 2 * b.obligors.size());
+  for (std::size_t row = 0; row < csv.rows.size(); ++row) {
+    const std::size_t i = row % b.obligors.size();
+    const ScoredObligor base = scored(b.obligors[i], b.defaults);
+    if (base.status != RowStatus::ok) {
+      CHECK(csv.cell(row, "status") == "invalid_input");
+      continue;
+    }
+    REQUIRE(csv.cell(row, "status") == "ok");
+    const double m = row < b.obligors.size() ? 1.0 : 1.5;
+    const double add = row < b.obligors.size() ? 0.0 : 0.02;
+    const long double sv = base.solution.asset_vol_annual * m + add;
+    CHECK(csv.number(row, "asset_vol_stressed") == doctest::Approx(static_cast<double>(sv)).epsilon(1e-15));
+    const long double e = csv.number(row, "equity_value_stressed");
+    const long double dp = csv.number(row, "default_point_stressed");
+    const long double rate = csv.number(row, "rate_stressed");
+    const long double t = csv.number(row, "horizon_stressed");
+    const long double k = dp * expl(-rate * t);
+    const long double v = testing::ref_asset_value(sv, e, k, t);
+    CHECK(csv.number(row, "asset_value_stressed") == doctest::Approx(static_cast<double>(v)).epsilon(1e-12));
+    const long double st = sv * sqrtl(t);
+    const long double d1 = (logl(v / k) + 0.5L * st * st) / st;
+    const long double se = testing::ref_ncdf(d1) * sv * v / e;
+    CHECK(csv.number(row, "equity_vol_stressed") == doctest::Approx(static_cast<double>(se)).epsilon(1e-11));
+    // The leverage effect: a fall with sV held raises the equity volatility.
+    if (m == 1.0) CHECK(csv.number(row, "equity_vol_stressed") > csv.number(row, "equity_vol"));
+    const long double mu = base.resolved.drift_follows_rate ? base.resolved.inputs.drift_annual + 25e-4L
+                                                            : base.resolved.inputs.drift_annual;
+    const long double drift = row < b.obligors.size() ? mu : base.resolved.inputs.drift_annual;
+    const long double dd = (logl(v / dp) + (drift - 0.5L * sv * sv) * t) / st;
+    CHECK(csv.number(row, "pd_stressed") ==
+          doctest::Approx(static_cast<double>(testing::ref_ncdf(-dd))).epsilon(1e-9));
+  }
+}
+
+TEST_CASE("asset-vol hold: a zero shock reproduces the base run exactly; a fall always raises PD") {
+  const Book b = book();
+  const Run zero = run(b, "scenarios:\n  - name: zero\n    shocks: [{equity_change: 0}]\n", OutputFormat::csv,
+                       1, false, kHoldAssetVol);
+  const Csv z = parse_csv(zero.text);
+  for (std::size_t i = 0; i < 4; ++i) {
+    for (const char* m : {"equity_vol", "asset_value", "asset_vol", "pd", "spread_bp"})
+      CHECK(z.cell(i, m) == z.cell(i, std::string(m) + "_stressed"));
+  }
+  // With sV held, C(V) = E is increasing in V, so a smaller E means a smaller V, a smaller DD and a
+  // larger PD (Merton 1974); the equity-vol re-solve has no such guarantee (docs/stress.md).
+  double last[4] = {0, 0, 0, 0};
+  for (const char* fall : {"-0.1", "-0.5", "-0.9", "-0.999"}) {
+    const Run r =
+        run(b, std::string("scenarios:\n  - name: f\n    shocks: [{equity_change: ") + fall + "}]\n",
+            OutputFormat::csv, 1, false, kHoldAssetVol);
+    const Csv c = parse_csv(r.text);
+    for (std::size_t i = 0; i < 4; ++i) {
+      CHECK(c.number(i, "pd_stressed") > c.number(i, "pd"));
+      CHECK(c.number(i, "pd_stressed") > last[i]);
+      last[i] = c.number(i, "pd_stressed");
+    }
+  }
+  // A 99.9% fall takes every obligor of this book past PD 5%.
+  for (double pd : last) CHECK(pd > 0.05);
+}
+
+TEST_CASE("asset-vol hold: a volatility addition that leaves sV negative fails that row, naming asset_vol") {
+  const Book b = book();
+  const Run r = run(b, "scenarios:\n  - name: calm\n    shocks: [{equity_vol_add_points: -25}]\n",
+                    OutputFormat::csv, 1, false, kHoldAssetVol);
+  const Csv c = parse_csv(r.text);
+  bool named = false;
+  for (std::size_t i = 0; i < 4; ++i) {
+    const ScoredObligor base = scored(b.obligors[i], b.defaults);
+    if (base.solution.asset_vol_annual < 0.25) {
+      CHECK(c.cell(i, "status") == "invalid_stress");
+      CHECK(c.cell(i, "message").find("'asset_vol'") != std::string::npos);
+      CHECK(c.cell(i, "equity_vol_stressed").empty());
+      named = true;
+    } else {
+      CHECK(c.cell(i, "status") == "ok");
+    }
+  }
+  CHECK(named);
+}
+
+TEST_CASE("every output states the hold: table header line, JSON run key") {
+  const Book b = book();
+  const char* scen = "scenarios:\n  - name: f\n    shocks: [{equity_change: -0.2}]\n";
+  CHECK(run(b, scen, OutputFormat::table, 1, false, kHoldAssetVol).text.find("\nHold: asset-vol (") !=
+        std::string::npos);
+  CHECK(run(b, scen, OutputFormat::table, 1, false, kHoldEquityVol).text.find("\nHold: equity-vol (") !=
+        std::string::npos);
+  CHECK(run(b, scen, OutputFormat::json, 1, false, kHoldAssetVol).text.find("\"hold\": \"asset-vol\"") !=
+        std::string::npos);
+  CHECK(run(b, scen, OutputFormat::json, 1, false, kHoldEquityVol).text.find("\"hold\": \"equity-vol\"") !=
+        std::string::npos);
 }

@@ -4,7 +4,10 @@
 
 #include <doctest/doctest.h>
 
+#include <cmath>
 #include <cstring>
+
+#include "reference_solver.hpp"
 
 using namespace firmcall;
 
@@ -94,4 +97,83 @@ TEST_CASE("apply_shock does not validate: a negative stressed volatility reaches
   const MertonInputs s = apply_shock(kBase, e, true);
   CHECK(s.equity_vol_annual < 0.0);
   CHECK(validate(s).field == MertonField::equity_vol);
+}
+
+// ---------------------------------------------------------------- the asset-vol hold
+
+TEST_CASE("solve_asset_value_at_vol: V from the equity equation, against a long-double bisection") {
+  // Reference: tests/support/reference_solver.hpp (nested bisection in long double, written
+  // independently of src/), its inner level solving E = V N(d1) - K N(d2) for V at a given sV.
+  struct Case {
+    double e, dp, r, t, sv;
+  };
+  const Case cases[] = {
+      {400, 700, 0.03, 1, 0.25},   {2.45, 1770, 0.0265, 1, 0.182},      {5000, 10, 0.02, 1, 0.3},
+      {120, 900, -0.005, 5, 0.12}, {1e-3 * 2450, 1770, 0.0265, 1, 0.5}, {800, 800, 0.0, 0.25, 0.9}};
+  for (const Case& c : cases) {
+    const MertonInputs in{.equity_value = c.e,
+                          .equity_vol_annual = 0.4,  // not read
+                          .default_point = c.dp,
+                          .risk_free_rate_cc = c.r,
+                          .horizon_years = c.t,
+                          .drift_annual = c.r};
+    const AssetSolution s = solve_asset_value_at_vol(in, c.sv);
+    REQUIRE(s.usable());
+    CHECK(s.asset_vol_annual == c.sv);
+    const long double k = static_cast<long double>(c.dp) * expl(-static_cast<long double>(c.r) * c.t);
+    const long double v = testing::ref_asset_value(c.sv, c.e, k, c.t);
+    CHECK(s.asset_value == doctest::Approx(static_cast<double>(v)).epsilon(1e-12));
+    CHECK(s.asset_value > c.e);  // the root lies in (E, E + K)
+  }
+}
+
+TEST_CASE("implied_equity_vol: N(d1) sV V / E gives back sE at the full inversion") {
+  // The second Merton equation sE E = N(d1) sV V (Ito's lemma on E = C(V), Merton 1974) holds at
+  // the full solution, so the implied equity volatility there is the observed one.
+  const MertonInputs in = kBase;
+  const AssetSolution full = solve_asset(in);
+  REQUIRE(full.usable());
+  CHECK(implied_equity_vol(in, full.asset_value, full.asset_vol_annual) ==
+        doctest::Approx(in.equity_vol_annual).epsilon(1e-11));
+  // Holding sV at the full solution's value gives back its V (the system's solution is unique).
+  const AssetSolution held = solve_asset_value_at_vol(in, full.asset_vol_annual);
+  REQUIRE(held.usable());
+  CHECK(held.asset_value == doctest::Approx(full.asset_value).epsilon(1e-12));
+}
+
+TEST_CASE("asset-vol hold: equity volatility rises as equity falls (the leverage effect)") {
+  // With sV held, sE = N(d1) sV V/E; as E falls leverage V/E rises faster than N(d1) falls (model
+  // property of the Merton call, Merton 1974), so sE rises strictly along the path.
+  const AssetSolution full = solve_asset(kBase);
+  REQUIRE(full.usable());
+  double last = kBase.equity_vol_annual;
+  for (double fall : {0.1, 0.3, 0.5, 0.7, 0.9, 0.99, 0.999}) {
+    MertonInputs in = kBase;
+    in.equity_value = kBase.equity_value * (1.0 - fall);
+    const AssetSolution s = solve_asset_value_at_vol(in, full.asset_vol_annual);
+    REQUIRE(s.usable());
+    const double se = implied_equity_vol(in, s.asset_value, s.asset_vol_annual);
+    CHECK(se > last);
+    last = se;
+  }
+}
+
+TEST_CASE("asset-vol hold: bad inputs and options return invalid_input without throwing") {
+  for (double sv : {0.0, -0.2, std::nan(""), HUGE_VAL}) {
+    CHECK(solve_asset_value_at_vol(kBase, sv).status == SolveStatus::invalid_input);
+  }
+  MertonInputs bad = kBase;
+  bad.equity_value = -1;
+  CHECK(solve_asset_value_at_vol(bad, 0.2).status == SolveStatus::invalid_input);
+  MertonSolveOptions o;
+  o.residual_tolerance = 0.0;
+  CHECK(solve_asset_value_at_vol(kBase, 0.2, o).status == SolveStatus::invalid_input);
+  // Volatility shocks act on the held sV: sV' = sV m + a/100 (shock.hpp).
+  ShockEffect e;
+  e.add({.equity_vol_multiplier = 1.5, .equity_vol_add_points = 2});
+  CHECK(stressed_asset_vol(0.2, e) == doctest::Approx(0.32).epsilon(1e-15));
+  CHECK(parse_stress_hold("asset-vol") == StressHold::asset_vol);
+  CHECK(parse_stress_hold("equity-vol") == StressHold::equity_vol);
+  CHECK(!parse_stress_hold("asset_vol"));
+  CHECK(to_string(StressHold::asset_vol) == "asset-vol");
 }

@@ -183,7 +183,8 @@ TEST_CASE("report stress, portfolio and movers figures equal those commands' CSV
   TempDir t;
   // Stress: the per-scenario summary CSV (docs/stress.md).
   const auto st = run_firmcall(
-      "-q stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --format csv -o '" +
+      "-q stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --hold equity-vol --format "
+      "csv -o '" +
       t.file("rows.csv") + "' --summary-output '" + t.file("summary.csv") + "'");
   REQUIRE(st.exit_code == 0);
   const CsvTable sum = parse_csv_table(read_file(t.file("summary.csv")));
