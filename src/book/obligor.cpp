@@ -436,7 +436,8 @@ void append_input_notes(const ObligorRecord& rec, const ResolvedObligor& r, doub
     std::snprintf(lev, sizeof lev, "%.3g", leverage);
     notes.push_back(
         who + "leverage DP/V " + lev + " is above " + shortest(settings.financial_leverage_above) +
-        " (scoring.financial_leverage_above), as at a bank or insurer: " + std::string(kFinancialScope));
+        " (scoring.financial_leverage_above), as at a bank or insurer; if it is a financial firm, " +
+        std::string(kFinancialScope));
   }
 }
 
