@@ -2,6 +2,7 @@
 
 #include <charconv>
 #include <cmath>
+#include <cstdio>
 #include <limits>
 
 namespace firmcall {
@@ -340,7 +341,105 @@ bool check_magnitudes(const MertonInputs& in, std::string& error) {
   return true;
 }
 
+// The typo guards, once every value is valid: each sets its caution bit, or under
+// scoring.strict_inputs refuses the obligor. No allocation unless refused.
+bool check_typo_guards(const ObligorRecord& rec, const ScoreSettings& settings, ResolvedObligor& out) {
+  const MertonInputs& in = out.inputs;
+  if (in.equity_vol_annual > settings.equity_vol_warn_above) {
+    if (settings.strict_inputs) {
+      out.error = value_error(NumField::equity_vol,
+                              "above " + shortest(settings.equity_vol_warn_above) +
+                                  " (scoring.equity_vol_warn_above) with scoring.strict_inputs on: an "
+                                  "annualised decimal is expected (0.05 means 5%)",
+                              in.equity_vol_annual);
+      return false;
+    }
+    out.cautions |= static_cast<std::uint8_t>(InputCaution::high_equity_vol);
+  }
+  if (rec.has(NumField::market_cap) && rec.has(NumField::share_price) &&
+      rec.has(NumField::shares_outstanding)) {
+    const double product = rec.get(NumField::share_price) * rec.get(NumField::shares_outstanding);
+    const double cap = rec.get(NumField::market_cap);
+    if (std::isfinite(product) && !(std::fabs(product - cap) <= kEquityValueTolerance * cap)) {
+      if (settings.strict_inputs) {
+        out.error = value_error(NumField::market_cap,
+                                "differs from share_price x shares_outstanding (" + shortest(product) +
+                                    ") by more than 1% with scoring.strict_inputs on",
+                                cap);
+        return false;
+      }
+      out.cautions |= static_cast<std::uint8_t>(InputCaution::equity_value_differs);
+    }
+  }
+  if (is_financial_sector(rec.get(TextField::sector))) {
+    out.cautions |= static_cast<std::uint8_t>(InputCaution::financial_sector);
+  }
+  return true;
+}
+
+bool contains_ascii_nocase(std::string_view text, std::string_view word) noexcept {
+  if (word.size() > text.size()) return false;
+  for (std::size_t i = 0; i + word.size() <= text.size(); ++i) {
+    std::size_t k = 0;
+    while (k < word.size()) {
+      const char c = text[i + k];
+      const char lower = (c >= 'A' && c <= 'Z') ? static_cast<char>(c - 'A' + 'a') : c;
+      if (lower != word[k]) break;
+      ++k;
+    }
+    if (k == word.size()) return true;
+  }
+  return false;
+}
+
+std::string percent_text(double fraction) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%.3g%%", 100.0 * fraction);
+  return buf;
+}
+
+constexpr std::string_view kFinancialScope =
+    "the Merton model's debt treatment does not fit banks, insurers and other financial firms "
+    "(deposits and policy reserves are not a default point of debt due), so read its PD with caution";
+
 }  // namespace
+
+bool is_financial_sector(std::string_view sector) noexcept {
+  return contains_ascii_nocase(sector, "bank") || contains_ascii_nocase(sector, "financ") ||
+         contains_ascii_nocase(sector, "insur");
+}
+
+void append_input_notes(const ObligorRecord& rec, const ResolvedObligor& r, double pd, double leverage,
+                        const ScoreSettings& settings, std::vector<std::string>& notes) {
+  if (!has_input_notes(r, leverage, settings)) return;
+  const std::string who = "obligor '" + rec.get(TextField::id) + "': ";
+  if (r.has(InputCaution::high_equity_vol)) {
+    const double v = r.inputs.equity_vol_annual;
+    std::string s = who + "field 'equity_vol': " + shortest(v) + " is read as " + percent_text(v) +
+                    " a year, above " + shortest(settings.equity_vol_warn_above) +
+                    " (scoring.equity_vol_warn_above); if " + shortest(v) + "% was meant, give " +
+                    shortest(v / 100.0);
+    if (pd > 0.5) s += "; its PD of " + percent_text(pd) + " (above 50%) comes from this input";
+    notes.push_back(std::move(s));
+  }
+  if (r.has(InputCaution::equity_value_differs)) {
+    notes.push_back(who + "field 'market_cap': " + shortest(rec.get(NumField::market_cap)) +
+                    " differs from share_price x shares_outstanding = " +
+                    shortest(rec.get(NumField::share_price) * rec.get(NumField::shares_outstanding)) +
+                    " by more than 1%; market_cap is used");
+  }
+  if (r.has(InputCaution::financial_sector)) {
+    notes.push_back(who + "sector '" + rec.get(TextField::sector) +
+                    "' is a financial firm: " + std::string(kFinancialScope));
+  } else if (leverage > settings.financial_leverage_above) {
+    char lev[32];
+    std::snprintf(lev, sizeof lev, "%.3g", leverage);
+    notes.push_back(
+        who + "leverage DP/V " + lev + " is above " + shortest(settings.financial_leverage_above) +
+        " (scoring.financial_leverage_above), as at a bank or insurer; if it is a financial firm, " +
+        std::string(kFinancialScope));
+  }
+}
 
 void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
                      ResolvedObligor& out) {
@@ -350,6 +449,7 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
   out.has_asset_correlation = false;
   out.has_maturity = false;
   out.drift_follows_rate = false;
+  out.cautions = 0;
   out.ead = 0.0;
   MertonInputs& in = out.inputs;
   if (!check_record(rec, out.error) || !resolve_equity_value(rec, in, out.error) ||
@@ -361,7 +461,11 @@ void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const S
     return;
   }
   const MertonInputCheck check = validate(in);
-  if (!check.ok()) out.error = field_error(to_string(check.field), check.message);
+  if (!check.ok()) {
+    out.error = field_error(to_string(check.field), check.message);
+    return;
+  }
+  check_typo_guards(rec, settings, out);
 }
 
 }  // namespace firmcall

@@ -101,6 +101,10 @@ OptionCheck ScoreSettings::validate() const {
   if (!(horizon_years > 0.0)) return problem("horizon_years", horizon_years, kPositive);
   if (!in_closed_unit(default_lgd)) return problem("default_lgd", default_lgd, kClosedUnit);
   if (!(max_equity_vol > 0.0)) return problem("max_equity_vol", max_equity_vol, kPositive);
+  if (!(equity_vol_warn_above > 0.0))
+    return problem("equity_vol_warn_above", equity_vol_warn_above, kPositive);
+  if (!(financial_leverage_above > 0.0))
+    return problem("financial_leverage_above", financial_leverage_above, kPositive);
   return in_section("solver", solver.validate());
 }
 

@@ -233,6 +233,8 @@ struct ScoredRows {
   std::size_t scored = 0, invalid = 0, not_converged = 0, iterations = 0;
   std::vector<std::pair<std::size_t, std::string>> problems;  // (row in the piece, text), the first few
   std::size_t problem_count = 0;
+  std::vector<std::string> input_notes;  // notes on the inputs of the first few obligors that have any
+  std::size_t noted_obligors = 0;        // obligors with input notes, listed or not
 
   void clear() {
     text.clear();
@@ -240,6 +242,8 @@ struct ScoredRows {
     scored = invalid = not_converged = iterations = 0;
     problems.clear();
     problem_count = 0;
+    input_notes.clear();
+    noted_obligors = 0;
   }
   // Adds (sign +1) or removes (sign -1) a row from the counts.
   void tally(RowStatus status, int row_iterations, int sign) {
@@ -292,6 +296,17 @@ void score_rows(const RunContext& ctx, const ObligorRecord* recs, std::size_t n,
     out.tally(row.status, row.iterations, +1);
     if (row.status != RowStatus::ok)
       out.note_problem(i, problem_text(ctx, recs[i], sc.scored), ctx.run.max_listed_problems);
+    const bool scored = row.status == RowStatus::ok;
+    const double leverage = scored ? sc.scored.measures.leverage : std::nan("");
+    if (has_input_notes(sc.scored.resolved, leverage, ctx.settings)) {  // rare: only these rows allocate
+      if (out.noted_obligors++ < ctx.run.max_listed_problems) {
+        const std::size_t from = out.input_notes.size();
+        append_input_notes(recs[i], sc.scored.resolved, scored ? sc.scored.measures.pd : std::nan(""),
+                           leverage, ctx.settings, out.input_notes);
+        for (std::size_t k = from; k < out.input_notes.size(); ++k)
+          out.input_notes[k] = located(ctx.origin, recs[i].line, "note: " + out.input_notes[k]);
+      }
+    }
   }
 }
 
@@ -322,11 +337,25 @@ class OrderedOutput {
       if (summary_.problems.size() >= ctx_.run.max_listed_problems) break;
       summary_.problems.push_back(std::move(p.second));
     }
+    // Pieces keep the notes of their first obligors; the run lists those of its first ones.
+    const std::size_t listed_here = std::min(piece.noted_obligors, ctx_.run.max_listed_problems);
+    if (noted_obligors_ < ctx_.run.max_listed_problems) {
+      input_notes_.insert(input_notes_.end(), std::make_move_iterator(piece.input_notes.begin()),
+                          std::make_move_iterator(piece.input_notes.end()));
+      listed_obligors_ += listed_here;
+    }
+    noted_obligors_ += piece.noted_obligors;
   }
 
   ScoreSummary finish(std::vector<std::string> notes) {
     summary_.problems_not_listed = problem_count_ - summary_.problems.size();
     summary_.notes = std::move(notes);
+    summary_.notes.insert(summary_.notes.end(), std::make_move_iterator(input_notes_.begin()),
+                          std::make_move_iterator(input_notes_.end()));
+    if (noted_obligors_ > listed_obligors_) {
+      summary_.notes.push_back("note: " + std::to_string(noted_obligors_ - listed_obligors_) +
+                               " more obligor(s) with notes on their inputs, not listed");
+    }
     std::string s;
     ctx_.writer.end(summary_, s);
     ctx_.sink(s);
@@ -337,6 +366,9 @@ class OrderedOutput {
   const RunContext& ctx_;
   std::size_t rows_written_ = 0;
   std::size_t problem_count_ = 0;
+  std::vector<std::string> input_notes_;
+  std::size_t noted_obligors_ = 0;   // obligors with notes on their inputs
+  std::size_t listed_obligors_ = 0;  // those whose notes are in input_notes_
   ScoreSummary summary_;
 };
 

@@ -98,7 +98,17 @@ JsonFields open_json_summary(std::string& out, std::size_t obligors, std::size_t
 
 void append_score_summary_json(std::string& out, const ScoreSummary& sum) {
   open_json_summary(out, sum.total, sum.scored, sum.invalid, sum.not_converged);
-  out += "}\n}\n";
+  out += "}";
+  // Notes on the file and on obligors' inputs (docs/inputs.md, "Typo guards"), after the summary.
+  if (!sum.notes.empty()) {
+    out += ",\n  \"notes\": [";
+    for (std::size_t i = 0; i < sum.notes.size(); ++i) {
+      out += i > 0 ? ",\n    " : "\n    ";
+      append_json_string(out, sum.notes[i]);
+    }
+    out += "\n  ]";
+  }
+  out += "\n}\n";
 }
 
 void append_score_tally(std::string& out, std::string_view what, const ScoreSummary& sum,
@@ -110,6 +120,10 @@ void append_score_tally(std::string& out, std::string_view what, const ScoreSumm
   }
   out += "\n";
   append_table_problems(out, sum.problems, sum.problems_not_listed, wrap_width);
+  if (!sum.notes.empty()) {
+    out += "notes:\n";
+    append_table_problems(out, sum.notes, 0, wrap_width > 0 ? wrap_width : 118);  // the table's width
+  }
 }
 
 void append_sensitivities_table_header(std::string& out, std::size_t indent) {

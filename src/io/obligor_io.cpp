@@ -21,6 +21,22 @@ bool ends_with(const std::string& s, std::string_view suffix) {
 // Unknown keys named in an obligor's error before the rest are counted.
 constexpr std::size_t kListedUnknownKeys = 5;
 
+bool all_digits(const std::string& s) {
+  return !s.empty() && s.find_first_not_of("0123456789") == std::string::npos;
+}
+
+// In a {...} entry YAML ends a value at a comma: `market_cap: 1,200` reads as market_cap 1 and a
+// key '200' without a value. Such a key right after a number is that number's other half.
+bool is_comma_tail(const YAML::Node& key, const YAML::Node& value) {
+  return all_digits(key.Scalar()) && value.IsNull();
+}
+
+std::string comma_problem(const std::string& field, const std::string& number) {
+  return "field '" + field + "': a comma inside the number '" + number.substr(0, 40) +
+         "' (YAML ends a value at a comma); write numbers without thousands separators and with a "
+         "decimal point (1200, 0.35)";
+}
+
 void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& rec) {
   rec.clear();
   rec.line = line;
@@ -34,9 +50,18 @@ void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& 
   std::string first_problem;  // the first problem other than an unknown key
   std::vector<std::string> unknown;
   std::size_t unknown_count = 0;
-  bool problem_first = false;  // first_problem comes before the first unknown key
+  bool problem_first = false;   // first_problem comes before the first unknown key
+  std::string last_number_key;  // the number key just before, with its text (for a split at a comma)
+  std::string last_number_text;
   for (const auto& kv : node) {
     const std::string& key = kv.first.Scalar();
+    if (!last_number_key.empty() && is_comma_tail(kv.first, kv.second)) {
+      last_number_text += "," + key;
+      if (first_problem.empty() || first_problem.rfind("field '" + last_number_key + "': a comma", 0) == 0)
+        first_problem = comma_problem(last_number_key, last_number_text);
+      continue;
+    }
+    last_number_key.clear();
     if (!seen.insert(key).second) {
       if (first_problem.empty()) first_problem = "field '" + key + "' is given twice";
       continue;
@@ -64,9 +89,13 @@ void read_yaml_obligor(const YAML::Node& node, std::size_t line, ObligorRecord& 
     double v = 0.0;
     if (parse_number(value, v)) {
       rec.set(*num, v);
+      last_number_key = key;
+      last_number_text = value;
     } else if (first_problem.empty()) {
-      first_problem = "field '" + key + "': expected a finite decimal number such as 0.35, got '" +
-                      value.substr(0, 40) + "'";
+      first_problem = value.find(',') != std::string::npos
+                          ? comma_problem(key, value)
+                          : "field '" + key + "': expected a finite decimal number such as 0.35, got '" +
+                                value.substr(0, 40) + "'";
     }
   }
   if (unknown_count == 0 || problem_first) {

@@ -90,13 +90,25 @@ int positive_int(const YAML::Node& n, const std::string& origin, std::string_vie
 }
 
 void read_scoring(const YAML::Node& s, const std::string& origin, ScoreSettings& score) {
-  yaml_check_keys(s, {"default_point_weight", "horizon", "measure", "default_lgd", "max_equity_vol"}, origin,
-                  "scoring");
+  yaml_check_keys(s,
+                  {"default_point_weight", "horizon", "measure", "default_lgd", "max_equity_vol",
+                   "equity_vol_warn_above", "strict_inputs", "financial_leverage_above"},
+                  origin, "scoring");
   read_number(s, "default_point_weight", score.default_point_weight, score, origin);
   read_number(s, "horizon", score.horizon_years, score, origin);
   read_choice(s, "measure", score.measure, measure_from_string, "expected physical or risk-neutral", origin);
   read_number(s, "default_lgd", score.default_lgd, score, origin);
   read_number(s, "max_equity_vol", score.max_equity_vol, score, origin);
+  read_number(s, "equity_vol_warn_above", score.equity_vol_warn_above, score, origin);
+  read_choice(
+      s, "strict_inputs", score.strict_inputs,
+      [](const std::string& v) -> std::optional<bool> {
+        if (v == "true") return true;
+        if (v == "false") return false;
+        return std::nullopt;
+      },
+      "expected true or false", origin);
+  read_number(s, "financial_leverage_above", score.financial_leverage_above, score, origin);
 }
 
 void read_solver(const YAML::Node& s, const std::string& origin, MertonSolveOptions& solver) {

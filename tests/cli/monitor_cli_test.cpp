@@ -350,7 +350,7 @@ TEST_CASE("the book's as_of, --as-of, and the default store under XDG_DATA_HOME"
   CHECK(r.exit_code == 0);
   const std::string expected = dir.path.string() + "/firmcall/history.sqlite";
   CHECK(std::filesystem::exists(expected));
-  CHECK(r.err.find("recorded run 1 as of 2026-12-04 (34 obligors) in " + expected) != std::string::npos);
+  CHECK(r.err.find("recorded run 1 as of 2026-12-04 (36 obligors) in " + expected) != std::string::npos);
   // Without XDG_DATA_HOME: under $HOME/.local/share.
   r = run_with_env("-u XDG_DATA_HOME HOME='" + dir.path.string() + "'", "-q score " + week(2) + " --record");
   CHECK(r.exit_code == 0);

@@ -44,13 +44,14 @@ TEST_CASE("score the sample book as CSV: every column, every obligor, exit 0") {
     CHECK(("," + lines[0] + ",").find(std::string(",") + col + ",") != std::string::npos);
   }
   for (std::size_t i = 1; i < lines.size(); ++i) CHECK(lines[i].find(",ok,") != std::string::npos);
-  CHECK(r.err.rfind("firmcall: scored 36 of 36 obligors; mean solver iterations ", 0) == 0);
-  // The YAML and CSV forms of the same book give the same numbers for the shared obligors.
+  CHECK(r.err.find("firmcall: scored 36 of 36 obligors; mean solver iterations ") != std::string::npos);
+  // The YAML and CSV forms are the same book (the same 36 obligors, ids in the same order): the
+  // output rows are identical, byte for byte.
   const auto c = run_firmcall("score samples/demo_book.csv --format csv");
   CHECK(c.exit_code == 0);
   const auto clines = lines_of(c.out);
-  REQUIRE(clines.size() == 35);
-  for (std::size_t i = 1; i < clines.size(); ++i) CHECK(clines[i] == lines[i]);
+  REQUIRE(clines.size() == lines.size());
+  for (std::size_t i = 0; i < clines.size(); ++i) CHECK(clines[i] == lines[i]);
 }
 
 TEST_CASE("the table reads in a 120-column terminal and ends with a summary and the caution") {

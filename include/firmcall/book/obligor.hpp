@@ -79,6 +79,22 @@ struct BookDefaults {
   std::optional<double> lgd;
 };
 
+/// What the typo guards and the model-scope check found in an obligor's inputs (bits of
+/// ResolvedObligor::cautions). They never change a result; they become notes (docs/inputs.md).
+enum class InputCaution : std::uint8_t {
+  high_equity_vol = 1,       ///< equity_vol above scoring.equity_vol_warn_above: a percentage typed?
+  equity_value_differs = 2,  ///< market_cap and share_price x shares_outstanding differ by more than 1%
+  financial_sector = 4,      ///< the sector names a bank, insurer or other financial firm
+};
+
+/// market_cap and share_price x shares_outstanding may differ by this much (relative to market_cap)
+/// before the equity_value_differs caution (rounding of a quoted price, common practice).
+inline constexpr double kEquityValueTolerance = 0.01;
+
+/// True when a sector name marks a financial firm: it holds "bank", "financ" or "insur" in any
+/// case (Banks, Banking, Finance, Financials, Financial Services, Insurance, Reinsurance).
+bool is_financial_sector(std::string_view sector) noexcept;
+
 /// An obligor ready for the model, or the reason it is not.
 struct ResolvedObligor {
   MertonInputs inputs;
@@ -93,12 +109,28 @@ struct ResolvedObligor {
   std::string error;  ///< empty when usable; else "field 'x': reason, got 'value'"
   /// True when mu is the rate (risk-neutral measure, or no drift given): a rate change moves mu too.
   bool drift_follows_rate = false;
+  std::uint8_t cautions = 0;  ///< InputCaution bits (set only when the obligor resolves)
   bool ok() const noexcept { return error.empty(); }
+  bool has(InputCaution c) const noexcept { return (cautions & static_cast<std::uint8_t>(c)) != 0; }
 };
 
 /// Resolves E, DP, r, T, mu (and EAD, LGD) with the precedence: command-line override > obligor
 /// field > book default > configuration default. Validates every value and names the field.
 void resolve_obligor(const ObligorRecord& rec, const BookDefaults& book, const ScoreSettings& settings,
                      ResolvedObligor& out);
+
+/// The notes on a resolved obligor's inputs, each without location ("obligor 'X': field
+/// 'equity_vol' ..."), appended to `notes`. `pd` and `leverage` (DP / V) are the scored values,
+/// NaN when not scored: a PD above 50% from a suspect equity_vol is said, and a leverage above
+/// scoring.financial_leverage_above gets the financial-firm caution. Appends nothing (and does
+/// not allocate) for an obligor without cautions whose leverage is below the level.
+void append_input_notes(const ObligorRecord& rec, const ResolvedObligor& r, double pd, double leverage,
+                        const ScoreSettings& settings, std::vector<std::string>& notes);
+
+/// True when append_input_notes would append something (cheap: no allocation).
+inline bool has_input_notes(const ResolvedObligor& r, double leverage,
+                            const ScoreSettings& settings) noexcept {
+  return r.ok() && (r.cautions != 0 || leverage > settings.financial_leverage_above);
+}
 
 }  // namespace firmcall

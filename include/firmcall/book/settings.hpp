@@ -30,6 +30,13 @@ struct ScoreSettings {
   Measure measure = Measure::physical;
   double default_lgd = 0.45;     ///< senior unsecured, common practice (Basel foundation IRB)
   double max_equity_vol = 10.0;  ///< larger inputs are taken as percentages typed by mistake
+  /// An equity_vol above this (2.0 = 200% a year) is noted as a probable percentage (5 for 5%).
+  double equity_vol_warn_above = 2.0;
+  /// true: what the typo guards would only note (equity_vol above equity_vol_warn_above,
+  /// market_cap disagreeing with share_price x shares_outstanding) makes the obligor invalid.
+  bool strict_inputs = false;
+  /// Model leverage DP / V above this gets the financial-firm caution, whatever the sector.
+  double financial_leverage_above = 0.92;
   MertonSolveOptions solver;
   // Command-line overrides: when set they win over every file value.
   std::optional<double> rate_override;
