@@ -56,14 +56,20 @@ void declare_history_options(CLI::App* cmd, HistoryCli& o) {
                       "Also write the daily series (date,id,equity_value,default_point,asset_value,"
                       "distance_to_default,pd) to this CSV file");
   add_scoring_options(cmd, o.scoring, kHorizonHelp, false);
+  cmd->add_option("--measure", o.scoring.measure,
+                  "Drift in DD and PD: physical (the estimated drift shrunk towards the rate and capped, "
+                  "history.drift_shrinkage and history.drift_cap; with --score the book's drift) or "
+                  "risk-neutral (the rate); default scoring.measure")
+      ->check(CLI::IsMember({"physical", "risk-neutral"}));
   add_threads_option(cmd, o.threads);
   score->excludes(method);
   score->excludes(series);
   cmd->footer(
-      std::string("\nSettings (config file, section history): min_observations, trading_days_per_year, "
-                  "ewma_decay, iteration_tolerance, max_iterations, confidence_level.\n"
-                  "Exit codes: 0 every obligor estimated; 1 some obligors failed (the others are "
-                  "estimated); 2 unreadable or malformed file or bad command line.\n\n") +
+      std::string(
+          "\nSettings (config file, section history): min_observations, trading_days_per_year, "
+          "ewma_decay, iteration_tolerance, max_iterations, confidence_level, drift_shrinkage, drift_cap.\n"
+          "Exit codes: 0 every obligor estimated; 1 some obligors failed (the others are "
+          "estimated); 2 unreadable or malformed file or bad command line.\n\n") +
       kCaution);
 }
 
@@ -113,7 +119,9 @@ decltype(HistoryBookOptions::progress) history_progress(const OutputOptions& out
 // The estimation itself: asset volatility, drift and distance to default per obligor.
 ExitCode estimate_from_history(const HistoryCli& opts, const HistoryInputs& in, bool quiet) {
   HistoryBookOptions run;
-  run.estimator = {.method = *history_method_from_string(opts.method), .equity_vol = in.vol};
+  run.estimator = {.method = *history_method_from_string(opts.method),
+                   .equity_vol = in.vol,
+                   .risk_neutral = in.settings.measure == Measure::risk_neutral};
   run.format = opts.out.format;
   run.threads = in.threads;
   run.progress = history_progress(opts.out, quiet);

@@ -301,10 +301,12 @@ void estimate_one(const ObligorRecord& rec, const HistorySources& src, const Sco
 
 // --- writers -----------------------------------------------------------------------------------
 
-constexpr std::size_t kNumericColumns = 25;  // equity_value .. log_likelihood
-constexpr std::size_t kHistoryColumns = 33;  // history_columns().size()
+constexpr std::size_t kNumericColumns = 26;  // equity_value .. log_likelihood, less the two texts
+constexpr std::size_t kHistoryColumns = 36;  // history_columns().size()
+constexpr std::size_t kDriftUsedValue = 15;  // drift_used among the numeric columns
 
-// Numeric columns from equity_value to log_likelihood in history_columns() order (NaN: empty).
+// Numeric columns from equity_value to log_likelihood in history_columns() order, leaving out
+// drift_source and measure (NaN: empty).
 std::array<double, kNumericColumns> row_values(const HistoryResult& r) {
   std::array<double, kNumericColumns> x;
   x.fill(kNaN);
@@ -317,26 +319,35 @@ std::array<double, kNumericColumns> row_values(const HistoryResult& r) {
   x[3] = r.default_point;
   x[4] = r.rate;
   x[5] = r.horizon;
-  if (a.iterations > 0) x[22] = a.iterations;
-  if (a.last_change >= 0.0) x[23] = a.last_change;
+  if (a.iterations > 0) x[23] = a.iterations;
+  if (a.last_change >= 0.0) x[24] = a.last_change;
   if (r.status != RowStatus::ok) return x;
-  const double est[] = {a.asset_value,  a.asset_vol_annual,
-                        a.asset_vol_se, a.asset_vol_lo,
-                        a.asset_vol_hi, a.drift_annual,
-                        a.drift_se,     a.drift_lo,
-                        a.drift_hi,     a.distance_to_default,
-                        a.dd_se,        a.dd_lo,
-                        a.dd_hi,        a.pd,
-                        a.pd_lo,        a.pd_hi};
+  const double est[] = {a.asset_value,
+                        a.asset_vol_annual,
+                        a.asset_vol_se,
+                        a.asset_vol_lo,
+                        a.asset_vol_hi,
+                        a.drift_annual,
+                        a.drift_se,
+                        a.drift_lo,
+                        a.drift_hi,
+                        a.drift_used,
+                        a.distance_to_default,
+                        a.dd_se,
+                        a.dd_lo,
+                        a.dd_hi,
+                        a.pd,
+                        a.pd_lo,
+                        a.pd_hi};
   std::copy(std::begin(est), std::end(est), x.begin() + 6);
-  x[24] = a.log_likelihood;
+  x[25] = a.log_likelihood;
   return x;
 }
 
 // One obligor's cells in history_columns() order; the CSV and the JSON writer share them.
 using HistoryCells = std::array<ReportCell, kHistoryColumns>;
 
-void history_cells(const ObligorRecord& rec, const HistoryResult& r, HistoryCells& cells) {
+void history_cells(const ObligorRecord& rec, const HistoryResult& r, bool risk_neutral, HistoryCells& cells) {
   cells[0] = ReportCell::text(rec.get(TextField::id));
   cells[1] = ReportCell::text(rec.get(TextField::name));
   cells[2] = ReportCell::text(std::string(to_string(r.status)));
@@ -345,7 +356,16 @@ void history_cells(const ObligorRecord& rec, const HistoryResult& r, HistoryCell
   cells[5] = r.joined ? ReportCell::number(static_cast<double>(r.observations)) : ReportCell::none();
   cells[6] = r.joined ? ReportCell::number(static_cast<double>(r.missing_days)) : ReportCell::none();
   const auto values = row_values(r);
-  for (std::size_t i = 0; i < kNumericColumns; ++i) cells[7 + i] = ReportCell::number(values[i]);
+  // equity_value .. drift_used, then drift_source and measure, then distance_to_default ..
+  for (std::size_t i = 0; i < kNumericColumns; ++i) {
+    cells[7 + i + (i > kDriftUsedValue ? 2 : 0)] = ReportCell::number(values[i]);
+  }
+  constexpr std::size_t kDriftSourceCell = 7 + kDriftUsedValue + 1;
+  cells[kDriftSourceCell] = r.status == RowStatus::ok
+                                ? ReportCell::text(std::string(to_string(r.a.drift_source)))
+                                : ReportCell::none();
+  cells[kDriftSourceCell + 1] =
+      ReportCell::text(std::string(to_string(risk_neutral ? Measure::risk_neutral : Measure::physical)));
   cells[kHistoryColumns - 1] = ReportCell::text(r.message);
 }
 
@@ -384,13 +404,14 @@ class HistoryWriter {
 
 class CsvHistoryWriter final : public HistoryWriter {
  public:
+  explicit CsvHistoryWriter(bool risk_neutral) : risk_neutral_(risk_neutral) {}
   void begin(std::string& out) const override {
     append_csv_names(out, history_columns());
     out.push_back('\n');
   }
   void row(const ObligorRecord& rec, const HistoryResult& r, std::string& out) const override {
     HistoryCells cells;
-    history_cells(rec, r, cells);
+    history_cells(rec, r, risk_neutral_, cells);
     for (std::size_t i = 0; i < kHistoryColumns; ++i) {
       if (i > 0) out.push_back(',');
       append_csv_cell(out, cells[i]);
@@ -398,6 +419,9 @@ class CsvHistoryWriter final : public HistoryWriter {
     out.push_back('\n');
   }
   void end(const HistorySummary&, std::string&) const override {}
+
+ private:
+  bool risk_neutral_ = false;
 };
 
 class JsonHistoryWriter final : public HistoryWriter {
@@ -417,6 +441,10 @@ class JsonHistoryWriter final : public HistoryWriter {
     }
     json_text_member(out, "method", to_string(est_.method));
     json_text_member(out, "equity_vol_estimator", to_string(est_.equity_vol));
+    json_text_member(out, "measure",
+                     to_string(est_.risk_neutral ? Measure::risk_neutral : Measure::physical));
+    json_number_member(out, "drift_shrinkage", settings_.drift_shrinkage);
+    json_number_member(out, "drift_cap", settings_.drift_cap);
     json_number_member(out, "trading_days_per_year", settings_.trading_days_per_year);
     json_number_member(out, "ewma_decay", settings_.ewma_decay);
     json_number_member(out, "min_observations", settings_.min_observations);
@@ -427,7 +455,7 @@ class JsonHistoryWriter final : public HistoryWriter {
   void row(const ObligorRecord& rec, const HistoryResult& r, std::string& out) const override {
     const auto& cols = history_columns();
     HistoryCells cells;
-    history_cells(rec, r, cells);
+    history_cells(rec, r, est_.risk_neutral, cells);
     out += "    {";
     for (std::size_t i = 0; i < kHistoryColumns; ++i) {
       if (i > 0) out += ", ";
@@ -471,9 +499,16 @@ class TableHistoryWriter final : public HistoryWriter {
     out += "; equity volatility: ";
     out += to_string(est_.equity_vol);
     out += "\n";
+    if (est_.risk_neutral) {
+      out += "measure: risk-neutral; drift in DD: the rate\n";
+    } else {
+      out += "measure: physical; drift in DD: the estimate shrunk " +
+             shortest(100.0 * settings_.drift_shrinkage) + "% towards the rate, capped at rate +- " +
+             shortest(100.0 * settings_.drift_cap) + "% (* the cap bound)\n";
+    }
     char buf[320];
-    std::snprintf(buf, sizeof buf, kFormat, "obligor", "as of", "asset value", "asset vol %", "drift %", "DD",
-                  "DD interval", "PD %", "PD interval %", "iter", "status");
+    std::snprintf(buf, sizeof buf, kFormat, "obligor", "as of", "asset value", "asset vol %", "drift %",
+                  "drift used %", "DD", "DD interval", "PD %", "PD interval %", "iter", "status");
     out += buf;
     out += std::string(kWidth, '-') + "\n";
   }
@@ -483,7 +518,7 @@ class TableHistoryWriter final : public HistoryWriter {
     const std::string as_of = r.joined ? format_iso_date(r.as_of) : "-";
     if (r.status != RowStatus::ok) {
       std::snprintf(buf, sizeof buf, kFormat, id.c_str(), as_of.c_str(), "-", "-", "-", "-", "-", "-", "-",
-                    "-", std::string(to_string(r.status)).c_str());
+                    "-", "-", std::string(to_string(r.status)).c_str());
       out += buf;
       return;
     }
@@ -500,6 +535,9 @@ class TableHistoryWriter final : public HistoryWriter {
       std::snprintf(vol, sizeof vol, "%.2f", 100.0 * a.asset_vol_annual);
     }
     std::snprintf(drift, sizeof drift, "%.2f", 100.0 * a.drift_annual);
+    char drift_used[24];
+    std::snprintf(drift_used, sizeof drift_used, "%.2f%s", 100.0 * a.drift_used,
+                  a.drift_source == DriftSource::capped ? "*" : " ");
     std::snprintf(dd, sizeof dd, "%.3f", a.distance_to_default);
     if (std::isfinite(a.dd_lo) && std::isfinite(a.dd_hi)) {
       std::snprintf(ddi, sizeof ddi, "[%.3f, %.3f]", a.dd_lo, a.dd_hi);
@@ -508,7 +546,7 @@ class TableHistoryWriter final : public HistoryWriter {
     }
     if (a.iterations > 0) std::snprintf(iter, sizeof iter, "%d", a.iterations);
     std::snprintf(buf, sizeof buf, kFormat, id.c_str(), as_of.c_str(),
-                  format_cell(a.asset_value, CellStyle::amount).c_str(), vol, drift, dd, ddi,
+                  format_cell(a.asset_value, CellStyle::amount).c_str(), vol, drift, drift_used, dd, ddi,
                   format_cell(a.pd, CellStyle::percent_pd).c_str(), pdi, iter, "ok");
     out += buf;
   }
@@ -525,8 +563,8 @@ class TableHistoryWriter final : public HistoryWriter {
   }
 
  private:
-  static constexpr const char* kFormat = "%-12s %-10s %13s %15s %8s %8s %18s %9s %20s %5s  %s\n";
-  static constexpr std::size_t kWidth = 133;
+  static constexpr const char* kFormat = "%-12s %-10s %13s %15s %8s %13s %8s %18s %9s %20s %5s  %s\n";
+  static constexpr std::size_t kWidth = 147;
   HistorySettings settings_;
   AssetDynamicsOptions est_;
 };
@@ -536,13 +574,13 @@ std::unique_ptr<HistoryWriter> make_history_writer(OutputFormat f, const History
                                                    const AssetDynamicsOptions& est) {
   switch (f) {
     case OutputFormat::csv:
-      return std::make_unique<CsvHistoryWriter>();
+      return std::make_unique<CsvHistoryWriter>(est.risk_neutral);
     case OutputFormat::json:
       return std::make_unique<JsonHistoryWriter>(src, settings, est);
     case OutputFormat::table:
       return std::make_unique<TableHistoryWriter>(settings, est);
   }
-  return std::make_unique<CsvHistoryWriter>();
+  return std::make_unique<CsvHistoryWriter>(est.risk_neutral);
 }
 
 void append_series(const std::string& id, const JoinedHistory& j, const HistoryWorkspace& ws,
@@ -707,6 +745,9 @@ const std::vector<std::string_view>& history_columns() {
                                                      "drift_se",
                                                      "drift_lo",
                                                      "drift_hi",
+                                                     "drift_used",
+                                                     "drift_source",
+                                                     "measure",
                                                      "distance_to_default",
                                                      "dd_se",
                                                      "dd_lo",

@@ -73,6 +73,31 @@ OptionCheck AssetDynamicsOptions::validate() const {
   return std::nullopt;
 }
 
+std::string_view to_string(DriftSource s) noexcept {
+  switch (s) {
+    case DriftSource::estimate:
+      return "estimate";
+    case DriftSource::shrunk:
+      return "shrunk";
+    case DriftSource::capped:
+      return "capped";
+    case DriftSource::rate:
+      return "rate";
+  }
+  return "";
+}
+
+DriftInDistance drift_in_distance(double estimated_drift, double rate_cc, bool risk_neutral,
+                                  const HistorySettings& settings) noexcept {
+  if (risk_neutral) return {rate_cc, DriftSource::rate, 0.0};
+  const double keep = 1.0 - settings.drift_shrinkage;
+  const double excess = keep * (estimated_drift - rate_cc);
+  if (excess > settings.drift_cap) return {rate_cc + settings.drift_cap, DriftSource::capped, 0.0};
+  if (excess < -settings.drift_cap) return {rate_cc - settings.drift_cap, DriftSource::capped, 0.0};
+  if (settings.drift_shrinkage == 0.0) return {estimated_drift, DriftSource::estimate, 1.0};
+  return {rate_cc + excess, DriftSource::shrunk, keep};
+}
+
 std::string_view to_string(EstimateStatus s) noexcept {
   switch (s) {
     case EstimateStatus::converged:
@@ -237,7 +262,7 @@ std::size_t invert_all(const EquityHistoryView& hv, double sv, HistoryWorkspace&
   return 0;
 }
 
-// Daily DD and PD from V_t (in ws) with sV, mu: Merton (1974) with the physical drift.
+// Daily DD and PD from V_t (in ws) with sV and the drift mu that DD uses: Merton (1974).
 void fill_series(const EquityHistoryView& hv, double sv, double mu, HistoryWorkspace& ws) noexcept {
   const double st = sv * std::sqrt(hv.horizon_years);
   const double drift = (mu - 0.5 * sv * sv) * hv.horizon_years;
@@ -256,6 +281,16 @@ void set_last_day(const EquityHistoryView& hv, const HistoryWorkspace& ws, Asset
   a.pd = ws.pd[last];
 }
 
+// The drift DD uses, from a.drift_annual (drift_in_distance); returns d(mu_used)/d(mu).
+double set_drift_used(const EquityHistoryView& hv, const AssetDynamicsOptions& options,
+                      const HistorySettings& settings, AssetDynamics& a) noexcept {
+  const DriftInDistance d =
+      drift_in_distance(a.drift_annual, hv.risk_free_rate_cc, options.risk_neutral, settings);
+  a.drift_used = d.drift;
+  a.drift_source = d.source;
+  return d.slope;
+}
+
 void set_inversion_failed(AssetDynamics& a) noexcept {
   a.status = EstimateStatus::inversion_failed;
   a.message = "the equity value of one day could not be inverted for the asset value";
@@ -271,8 +306,8 @@ bool invert_or_fail(const EquityHistoryView& hv, double sv, HistoryWorkspace& ws
   return true;
 }
 
-void run_iterative(const EquityHistoryView& hv, const HistorySettings& settings, HistoryWorkspace& ws,
-                   AssetDynamics& a) noexcept {
+void run_iterative(const EquityHistoryView& hv, const AssetDynamicsOptions& options,
+                   const HistorySettings& settings, HistoryWorkspace& ws, AssetDynamics& a) noexcept {
   const std::size_t last = hv.equity_value.size() - 1;
   const double e_last = hv.equity_value[last];
   double sv = a.equity_vol_used * e_last / (e_last + hv.default_point[last]);
@@ -304,7 +339,8 @@ void run_iterative(const EquityHistoryView& hv, const HistorySettings& settings,
   const ReturnStats st = log_return_stats(ws.asset_value, ws.span_years, ws.returns);
   a.asset_vol_annual = sv;
   a.drift_annual = st.m + 0.5 * sv * sv;
-  fill_series(hv, sv, a.drift_annual, ws);
+  set_drift_used(hv, options, settings, a);
+  fill_series(hv, sv, a.drift_used, ws);
   set_last_day(hv, ws, a);
 }
 
@@ -394,10 +430,11 @@ bool profile_maximum(const EquityHistoryView& hv, HistoryWorkspace& ws, AssetDyn
 }
 
 // Standard errors and Wald intervals at settings.confidence_level of sV, mu, DD and PD, from the
-// covariance of (sV, mu); after fill_series and set_last_day at (sv, mu).
+// covariance of (sV, mu); after fill_series and set_last_day at (sv, mu_used). DD depends on mu
+// through mu_used, whose derivative is `drift_slope`.
 void set_mle_intervals(const EquityHistoryView& hv, const HistorySettings& settings,
-                       const HistoryWorkspace& ws, double sv, double mu, const Eigen::Matrix2d& cov,
-                       AssetDynamics& a) noexcept {
+                       const HistoryWorkspace& ws, double sv, double mu, double drift_slope,
+                       const Eigen::Matrix2d& cov, AssetDynamics& a) noexcept {
   const double z = two_sided_normal_quantile(settings.confidence_level);
   a.asset_vol_se = std::sqrt(cov(0, 0));
   a.drift_se = std::sqrt(cov(1, 1));
@@ -406,7 +443,7 @@ void set_mle_intervals(const EquityHistoryView& hv, const HistorySettings& setti
   a.drift_lo = mu - z * a.drift_se;
   a.drift_hi = mu + z * a.drift_se;
 
-  // Delta method for DD = [ln(V_n/DP_n) + (mu - sV^2/2) T] / (sV sqrt T), where V_n depends on sV
+  // Delta method for DD = [ln(V_n/DP_n) + (mu_used - sV^2/2) T] / (sV sqrt T), where V_n depends on sV
   // through C(V_n; sV) = E_n: d ln V_n / d sV = -vega / (N(d1) V) = -phi(d1) sqrt(T) / N(d1).
   const std::size_t last = hv.equity_value.size() - 1;
   const double t = hv.horizon_years;
@@ -417,7 +454,7 @@ void set_mle_intervals(const EquityHistoryView& hv, const HistorySettings& setti
   const double dd = a.distance_to_default;
   Eigen::Vector2d grad;
   grad(0) = (dlnv - sv * t) / (sv * sqrt_t) - dd / sv;
-  grad(1) = sqrt_t / sv;
+  grad(1) = drift_slope * sqrt_t / sv;
   const double var_dd = grad.dot(cov * grad);
   a.dd_se = var_dd >= 0.0 ? std::sqrt(var_dd) : kNaN;
   a.dd_lo = dd - z * a.dd_se;
@@ -426,8 +463,8 @@ void set_mle_intervals(const EquityHistoryView& hv, const HistorySettings& setti
   a.pd_hi = norm_sf(a.dd_lo);
 }
 
-void run_mle(const EquityHistoryView& hv, const HistorySettings& settings, HistoryWorkspace& ws,
-             AssetDynamics& a) noexcept {
+void run_mle(const EquityHistoryView& hv, const AssetDynamicsOptions& options,
+             const HistorySettings& settings, HistoryWorkspace& ws, AssetDynamics& a) noexcept {
   double sv = 0.0;
   if (!profile_maximum(hv, ws, a, sv)) return;
 
@@ -461,17 +498,22 @@ void run_mle(const EquityHistoryView& hv, const HistorySettings& settings, Histo
     return;
   }
   const Eigen::Matrix2d cov = llt.solve(Eigen::Matrix2d::Identity());
-  fill_series(hv, sv, mu, ws);
+  const double slope = set_drift_used(hv, options, settings, a);
+  fill_series(hv, sv, a.drift_used, ws);
   set_last_day(hv, ws, a);
-  set_mle_intervals(hv, settings, ws, sv, mu, cov, a);
+  set_mle_intervals(hv, settings, ws, sv, mu, slope, cov, a);
   a.status = EstimateStatus::converged;
   a.message = "";
 }
 
-void run_naive(const EquityHistoryView& hv, HistoryWorkspace& ws, AssetDynamics& a) noexcept {
+void run_naive(const EquityHistoryView& hv, const AssetDynamicsOptions& options,
+               const HistorySettings& settings, HistoryWorkspace& ws, AssetDynamics& a) noexcept {
   // r_prev: the equity return over the window as a simple annual return; equal to the previous
-  // year's return E_n / E_0 - 1 when the window is one year (Bharath and Shumway 2008).
-  const double r_prev = std::expm1(a.equity_vol.mean_log_return_annual);
+  // year's return E_n / E_0 - 1 when the window is one year (Bharath and Shumway 2008). It is the
+  // method's drift estimate; DD uses it through the same drift rule as the other methods.
+  a.drift_annual = std::expm1(a.equity_vol.mean_log_return_annual);
+  set_drift_used(hv, options, settings, a);
+  const double r_prev = a.drift_used;
   for (std::size_t t = 0; t < hv.equity_value.size(); ++t) {
     const NaiveDistance d = naive_distance_to_default(hv.equity_value[t], hv.default_point[t],
                                                       a.equity_vol_used, r_prev, hv.horizon_years);
@@ -483,7 +525,6 @@ void run_naive(const EquityHistoryView& hv, HistoryWorkspace& ws, AssetDynamics&
   const NaiveDistance d = naive_distance_to_default(hv.equity_value[last], hv.default_point[last],
                                                     a.equity_vol_used, r_prev, hv.horizon_years);
   a.asset_vol_annual = d.asset_vol_annual;
-  a.drift_annual = r_prev;
   set_last_day(hv, ws, a);
   a.status = EstimateStatus::converged;
   a.message = "";
@@ -503,6 +544,9 @@ HistoryCheck validate(const EquityHistoryView& h, const HistorySettings& s) noex
   if (!(s.confidence_level > 0.0 && s.confidence_level < 1.0))
     return bad("history.confidence_level must lie in (0, 1)");
   if (s.min_observations < 1) return bad("history.min_observations must be at least 1");
+  if (!(s.drift_shrinkage >= 0.0 && s.drift_shrinkage <= 1.0))
+    return bad("history.drift_shrinkage must lie in [0, 1]");
+  if (!(s.drift_cap >= 0.0 && s.drift_cap <= 10.0)) return bad("history.drift_cap must lie in [0, 10]");
   const std::size_t n = h.equity_value.size();
   if (h.default_point.size() != n || h.trading_day.size() != n)
     return bad("equity values, default points and trading days differ in length");
@@ -584,13 +628,13 @@ AssetDynamics estimate_asset_dynamics(const EquityHistoryView& h, const AssetDyn
   prepare(h, settings, ws);
   switch (options.method) {
     case HistoryMethod::iterative:
-      run_iterative(h, settings, ws, a);
+      run_iterative(h, options, settings, ws, a);
       break;
     case HistoryMethod::mle:
-      run_mle(h, settings, ws, a);
+      run_mle(h, options, settings, ws, a);
       break;
     case HistoryMethod::naive:
-      run_naive(h, ws, a);
+      run_naive(h, options, settings, ws, a);
       break;
   }
   return a;

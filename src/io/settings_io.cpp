@@ -129,7 +129,7 @@ void read_solver(const YAML::Node& s, const std::string& origin, MertonSolveOpti
 void read_history(const YAML::Node& s, const std::string& origin, HistorySettings& history) {
   yaml_check_keys(s,
                   {"min_observations", "trading_days_per_year", "ewma_decay", "iteration_tolerance",
-                   "max_iterations", "confidence_level"},
+                   "max_iterations", "confidence_level", "drift_shrinkage", "drift_cap"},
                   origin, "history");
   read_count(s, "min_observations", history.min_observations, history, origin);
   read_number(s, "trading_days_per_year", history.trading_days_per_year, history, origin);
@@ -137,6 +137,8 @@ void read_history(const YAML::Node& s, const std::string& origin, HistorySetting
   read_number(s, "iteration_tolerance", history.iteration_tolerance, history, origin);
   read_count(s, "max_iterations", history.max_iterations, history, origin);
   read_number(s, "confidence_level", history.confidence_level, history, origin);
+  read_number(s, "drift_shrinkage", history.drift_shrinkage, history, origin);
+  read_number(s, "drift_cap", history.drift_cap, history, origin);
 }
 
 // `grades:` a list of {label, max_pd}, best grade first.

@@ -214,3 +214,102 @@ TEST_CASE("history command: --series writes the daily series, --score the scorin
   REQUIRE(rows.size() == 6);
   for (const auto& row : rows) CHECK(row.at("status") == "ok");
 }
+
+namespace {
+
+// DD and PD of every ok row of a history CSV recomputed by scipy (Debian's /usr/bin/python3 with
+// python3-scipy): mu_used = r (risk-neutral) or r + clip((1 - w)(mu - r), -cap, cap),
+// DD = (ln(V/D) + (mu_used - sV^2/2) T) / (sV sqrt T), PD = scipy.stats.norm.sf(DD).
+// Returns "id dd pd" lines with 17 significant digits.
+std::string scipy_dd_pd(const fs::path& csv, bool risk_neutral, double shrinkage, double cap) {
+  const fs::path script = scratch_dir() / "dd_pd.py";
+  write(script,
+        "import csv, math, sys\n"
+        "from scipy.stats import norm\n"
+        "rn, w, cap = sys.argv[2] == 'rn', float(sys.argv[3]), float(sys.argv[4])\n"
+        "for row in csv.DictReader(open(sys.argv[1])):\n"
+        "    if row['status'] != 'ok': continue\n"
+        "    r, mu = float(row['rate']), float(row['drift'])\n"
+        "    used = r if rn else r + min(max((1 - w) * (mu - r), -cap), cap)\n"
+        "    sv, t = float(row['asset_vol']), float(row['horizon'])\n"
+        "    v, d = float(row['asset_value']), float(row['default_point'])\n"
+        "    dd = (math.log(v / d) + (used - sv * sv / 2) * t) / (sv * math.sqrt(t))\n"
+        "    print(row['id'], repr(used), repr(dd), repr(norm.sf(dd)))\n");
+  const fs::path out = scratch_dir() / "dd_pd.txt";
+  const std::string cmd = "/usr/bin/python3 '" + script.string() + "' '" + csv.string() + "' " +
+                          (risk_neutral ? "rn" : "ph") + " " + std::to_string(shrinkage) + " " +
+                          std::to_string(cap) + " >'" + out.string() + "'";
+  REQUIRE(std::system(cmd.c_str()) == 0);
+  return slurp(out);
+}
+
+}  // namespace
+
+TEST_CASE("history command: --measure and the drift rule, DD and PD against scipy") {
+  const fs::path raw_config = scratch_dir() / "raw_drift.yaml";
+  write(raw_config, "history:\n  drift_shrinkage: 0\n  drift_cap: 10\n");
+  struct Case {
+    std::string args;
+    bool risk_neutral;
+    double shrinkage, cap;
+  };
+  const Case cases[] = {{"", false, 0.5, 0.10},
+                        {" --measure physical", false, 0.5, 0.10},
+                        {" --measure risk-neutral", true, 0.5, 0.10},
+                        {"RAW", false, 0.0, 10.0}};
+  for (const char* method : {"iterative", "mle", "naive"}) {
+    for (const Case& c : cases) {
+      CAPTURE(method);
+      CAPTURE(c.args);
+      const fs::path csv = scratch_dir() / "measure.csv";
+      const std::string prefix = c.args == "RAW" ? "--config '" + raw_config.string() + "' " : "";
+      const CliRun r = run_cli(prefix + sample_args() + " -m " + method + " -f csv -o '" + csv.string() +
+                               "'" + (c.args == "RAW" ? "" : c.args));
+      REQUIRE(r.code == 0);
+      const auto rows = parse_csv(slurp(csv));
+      REQUIRE(rows.size() == 6);
+      std::istringstream ref(scipy_dd_pd(csv, c.risk_neutral, c.shrinkage, c.cap));
+      for (const auto& row : rows) {
+        std::string id;
+        double used = 0, dd = 0, pd = 0;
+        ref >> id >> used >> dd >> pd;
+        REQUIRE(static_cast<bool>(ref));
+        CHECK(id == row.at("id"));
+        CHECK(row.at("measure") == (c.risk_neutral ? "risk-neutral" : "physical"));
+        CHECK(as_double(row.at("drift_used")) == doctest::Approx(used).epsilon(1e-14));
+        CHECK(as_double(row.at("distance_to_default")) == doctest::Approx(dd).epsilon(1e-12));
+        CHECK(as_double(row.at("pd")) == doctest::Approx(pd).epsilon(1e-12));
+      }
+      // HRN-01 was simulated with a high asset drift (tools/make_history.cpp); its estimate is
+      // about 30%, so the default cap binds: 0.028 + 0.10.
+      if (c.risk_neutral) {
+        CHECK(rows[0].at("drift_source") == "rate");
+      } else if (c.args == "RAW") {
+        CHECK(rows[0].at("drift_source") == "estimate");
+        CHECK(rows[0].at("drift_used") == rows[0].at("drift"));
+      } else {
+        REQUIRE(as_double(rows[0].at("drift")) > 0.25);
+        CHECK(rows[0].at("drift_source") == "capped");
+        CHECK(as_double(rows[0].at("drift_used")) == doctest::Approx(0.128).epsilon(1e-15));
+      }
+    }
+  }
+}
+
+TEST_CASE("history command: bad --measure and drift settings are refused (exit 2)") {
+  CliRun r = run_cli(sample_args() + " --measure physcal");
+  CHECK(r.code == 2);
+  CHECK(r.err.find("--measure") != std::string::npos);
+  CHECK(r.err.find("physcal") != std::string::npos);
+  const fs::path config = scratch_dir() / "bad_drift.yaml";
+  write(config, "history:\n  drift_cap: -0.05\n");
+  r = run_cli("--config '" + config.string() + "' " + sample_args());
+  CHECK(r.code == 2);
+  CHECK(r.err.find(config.string() +
+                   ":2: key 'drift_cap': must lie in [0, 10] (a cc decimal per year: 0.1 means "
+                   "10%)") != std::string::npos);
+  write(config, "history:\n  min_observations: 120\n  drift_shrinkage: 1.5\n");
+  r = run_cli("--config '" + config.string() + "' " + sample_args());
+  CHECK(r.code == 2);
+  CHECK(r.err.find(config.string() + ":3: key 'drift_shrinkage': must lie in [0, 1]") != std::string::npos);
+}

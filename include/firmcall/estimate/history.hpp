@@ -16,6 +16,13 @@
 //              with F the default point and r_prev the equity return over the window
 //              (the previous year's return when the window is one year).
 //
+// Drift in the distance to default: one year of data determines mu poorly (its standard error is
+// about sV / sqrt(years)), so DD does not use the estimate as it stands. Under the physical measure
+// it uses the estimate shrunk towards the rate r and capped around it,
+//   mu_used = r + clamp((1 - drift_shrinkage) (mu - r), -drift_cap, +drift_cap),
+// (shrinking a noisy drift towards r and capping it are common practice; the two weights are
+// settings, our defaults). Under the risk-neutral measure mu_used = r.
+//
 // Time: observations sit on a trading calendar; consecutive observations k trading days apart
 // span h = k / trading_days_per_year years. With gaps (k > 1) the return estimators weight each
 // return by its span: m = sum r / sum h, s^2 = sum (r - m h)^2 / h / (n - 1), which reduce to the
@@ -53,6 +60,11 @@ struct HistorySettings {
   double iteration_tolerance = 1e-8;     ///< stop when |sV_new - sV_old| falls below this
   int max_iterations = 200;              ///< iterative method budget
   double confidence_level = 0.95;        ///< two-sided level of reported intervals
+  /// Physical measure: share of the estimated drift's excess over the rate removed before DD
+  /// (0 keeps the estimate, 1 uses the rate); our default, see the file comment.
+  double drift_shrinkage = 0.5;
+  /// Physical measure: largest |mu_used - r| in DD, cc decimal per year (0: the rate); our default.
+  double drift_cap = 0.10;
 
   /// The first broken constraint, in the order of the fields (those the settings reader enforces).
   OptionCheck validate() const {
@@ -73,6 +85,13 @@ struct HistorySettings {
       return OptionProblem{"max_iterations", std::to_string(max_iterations), "must be positive"};
     if (!in_open_unit(confidence_level)) {
       return OptionProblem{"confidence_level", option_value_text(confidence_level), "must lie in (0, 1)"};
+    }
+    if (!(drift_shrinkage >= 0.0 && drift_shrinkage <= 1.0)) {
+      return OptionProblem{"drift_shrinkage", option_value_text(drift_shrinkage), "must lie in [0, 1]"};
+    }
+    if (!(drift_cap >= 0.0 && drift_cap <= 10.0)) {
+      return OptionProblem{"drift_cap", option_value_text(drift_cap),
+                           "must lie in [0, 10] (a cc decimal per year: 0.1 means 10%)"};
     }
     return std::nullopt;
   }
@@ -145,10 +164,27 @@ HistoryCheck validate(const EquityHistoryView& h, const HistorySettings& setting
 /// Simple and EWMA equity volatility. Requires validate() to pass (else returns zeros).
 EquityVolEstimate estimate_equity_vol(const EquityHistoryView& h, const HistorySettings& settings) noexcept;
 
+/// Which drift DD and PD used: the estimate as it stands, the estimate shrunk towards the rate,
+/// the cap around the rate (it bound), or the rate itself (risk-neutral measure).
+enum class DriftSource : std::uint8_t { estimate, shrunk, capped, rate };
+std::string_view to_string(DriftSource s) noexcept;
+
+/// The drift that enters DD, and d(drift)/d(estimate) (for the delta method).
+struct DriftInDistance {
+  double drift = 0.0;  ///< mu_used, decimal per year
+  DriftSource source = DriftSource::rate;
+  double slope = 0.0;  ///< 1 - drift_shrinkage when neither capped nor risk-neutral, else 0
+};
+/// mu_used from the estimated drift (see the file comment); `risk_neutral`: the rate.
+DriftInDistance drift_in_distance(double estimated_drift, double rate_cc, bool risk_neutral,
+                                  const HistorySettings& settings) noexcept;
+
 struct AssetDynamicsOptions {
   HistoryMethod method = HistoryMethod::iterative;
   /// Equity volatility used by the naive method and by the iterative start value.
   VolEstimator equity_vol = VolEstimator::simple;
+  /// DD and PD under the risk-neutral measure (drift = rate); else the physical drift rule.
+  bool risk_neutral = false;
   /// method and equity_vol must be one of their enumerators.
   OptionCheck validate() const;
 };
@@ -171,16 +207,18 @@ struct AssetDynamics {
   double drift_se = 0.0;                          ///< mle: standard error of mu; NaN otherwise
   double asset_vol_lo = 0.0, asset_vol_hi = 0.0;  ///< mle: Wald interval at confidence_level
   double drift_lo = 0.0, drift_hi = 0.0;          ///< mle: Wald interval
+  double drift_used = 0.0;                        ///< mu_used in DD and PD (drift_in_distance)
+  DriftSource drift_source = DriftSource::rate;   ///< where drift_used came from
   double log_likelihood = 0.0;                    ///< mle: Duan's log-likelihood at the optimum
 
   // The last observation.
   double asset_value = 0.0;          ///< V_n, currency units
   double default_point = 0.0;        ///< DP_n, currency units
-  double distance_to_default = 0.0;  ///< [ln(V/DP) + (mu - sV^2/2) T] / (sV sqrt T) (naive: B&S)
+  double distance_to_default = 0.0;  ///< [ln(V/DP) + (mu_used - sV^2/2) T] / (sV sqrt T) (naive: B&S)
   double pd = 0.0;                   ///< N(-DD)
-  double dd_se = 0.0;                ///< mle: delta-method standard error of DD; NaN otherwise
-  double dd_lo = 0.0, dd_hi = 0.0;   ///< mle: DD -+ z dd_se
-  double pd_lo = 0.0, pd_hi = 0.0;   ///< mle: N(-dd_hi), N(-dd_lo)
+  double dd_se = 0.0;  ///< mle: delta-method standard error of DD (through mu_used); NaN otherwise
+  double dd_lo = 0.0, dd_hi = 0.0;  ///< mle: DD -+ z dd_se
+  double pd_lo = 0.0, pd_hi = 0.0;  ///< mle: N(-dd_hi), N(-dd_lo)
 
   bool usable() const noexcept { return status == EstimateStatus::converged; }
 };

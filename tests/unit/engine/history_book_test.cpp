@@ -4,6 +4,8 @@
 
 #include <doctest/doctest.h>
 
+#include <algorithm>
+#include <cmath>
 #include <cstdio>
 #include <map>
 #include <string>
@@ -356,4 +358,52 @@ TEST_CASE("HistoryBookOptions::validate: the defaults, and each enumerator check
   CHECK(problem->field == "format");
   CHECK(problem->value == "3");
   CHECK(problem->constraint == "must be table, csv or json");
+}
+
+TEST_CASE("history run: every output says which drift DD and PD used") {
+  // Independent check of DD: the Merton (1974) formula written out here from the row's own
+  // asset_value, default_point, asset_vol, horizon and drift_used; PD = erfc(DD / sqrt 2) / 2.
+  const Fixture f;
+  for (bool risk_neutral : {false, true}) {
+    CAPTURE(risk_neutral);
+    HistoryBookOptions run;
+    run.estimator.risk_neutral = risk_neutral;
+    const auto rows = parse_output(run_to_string(f.sources(), run));
+    REQUIRE(rows.size() == 2);
+    for (const auto& row : rows) {
+      CHECK(row.at("measure") == (risk_neutral ? "risk-neutral" : "physical"));
+      const double mu = as_double(row.at("drift"));
+      const double used = as_double(row.at("drift_used"));
+      if (risk_neutral) {
+        CHECK(row.at("drift_source") == "rate");
+        CHECK(used == 0.03);
+      } else {
+        // The rule of history.hpp with the defaults 0.5 and 0.10, written out.
+        const double excess = 0.5 * (mu - 0.03);
+        CHECK(row.at("drift_source") == (std::fabs(excess) > 0.10 ? "capped" : "shrunk"));
+        CHECK(used == doctest::Approx(0.03 + std::clamp(excess, -0.10, 0.10)).epsilon(1e-15));
+      }
+      const double sv = as_double(row.at("asset_vol"));
+      const double t = as_double(row.at("horizon"));
+      const double dd = (std::log(as_double(row.at("asset_value")) / as_double(row.at("default_point"))) +
+                         (used - 0.5 * sv * sv) * t) /
+                        (sv * std::sqrt(t));
+      CHECK(as_double(row.at("distance_to_default")) == doctest::Approx(dd).epsilon(1e-12));
+      CHECK(as_double(row.at("pd")) == doctest::Approx(0.5 * std::erfc(dd / std::sqrt(2.0))).epsilon(1e-12));
+    }
+    run.format = OutputFormat::json;
+    const std::string json = run_to_string(f.sources(), run);
+    CHECK(json.find(risk_neutral
+                        ? "\"measure\": \"risk-neutral\", \"drift_shrinkage\": 0.5, \"drift_cap\": 0.1"
+                        : "\"measure\": \"physical\", \"drift_shrinkage\": 0.5, \"drift_cap\": 0.1") !=
+          std::string::npos);
+    CHECK(json.find("\"drift_source\": ") != std::string::npos);
+    run.format = OutputFormat::table;
+    const std::string table = run_to_string(f.sources(), run);
+    CHECK(table.find(risk_neutral
+                         ? "measure: risk-neutral; drift in DD: the rate\n"
+                         : "measure: physical; drift in DD: the estimate shrunk 50% towards the rate, "
+                           "capped at rate +- 10% (* the cap bound)\n") != std::string::npos);
+    CHECK(table.find("drift used %") != std::string::npos);
+  }
 }

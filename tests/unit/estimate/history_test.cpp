@@ -4,8 +4,11 @@
 
 #include <doctest/doctest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
+#include <numbers>
+#include <utility>
 #include <vector>
 
 #include "firmcall/model/merton.hpp"
@@ -147,6 +150,8 @@ TEST_CASE("naive method over a history uses the window's volatility and return")
   // r_prev = E_n / E_0 - 1 over a one-year window, and F = the last day's default point.
   const SimulatedHistory s = simulate({.seed = 5, .observations = 253});
   HistorySettings settings;
+  settings.drift_shrinkage = 0.0;  // the drift rule off: Bharath and Shumway's r_prev as it stands
+  settings.drift_cap = 10.0;
   const AssetDynamics a = run(s, HistoryMethod::naive, settings);
   REQUIRE(a.usable());
   const EquityVolEstimate v = estimate_equity_vol(view_of(s), settings);
@@ -259,7 +264,10 @@ TEST_CASE("constant debt: the last day's asset value equals the scoring solver's
   // The scoring solver (merton_solver.hpp) given E_n and the equity volatility the model implies
   // at the estimate, sE = N(d1) sV V / E (Ito's lemma), must return the same V_n and sV.
   const SimulatedHistory s = simulate({.seed = 21, .default_point = 700});
-  const AssetDynamics a = run(s, HistoryMethod::iterative);
+  HistorySettings raw;  // DD with the estimated drift as it stands, as the solver is given it
+  raw.drift_shrinkage = 0.0;
+  raw.drift_cap = 10.0;
+  const AssetDynamics a = run(s, HistoryMethod::iterative, raw);
   REQUIRE(a.usable());
   MertonInputs in{.equity_value = s.equity_value.back(),
                   .equity_vol_annual = 0.0,
@@ -309,7 +317,10 @@ TEST_CASE("mle interval for sV covers the truth at close to its nominal rate") {
   for (int i = 0; i < kRuns; ++i) {
     const SimulatedHistory s = simulate(
         {.seed = 10000u + static_cast<std::uint64_t>(i), .asset_vol = sv, .drift = mu, .default_point = 700});
-    const AssetDynamics a = run(s, HistoryMethod::mle);
+    HistorySettings raw;  // the interval of DD with the estimated drift, which the truth uses
+    raw.drift_shrinkage = 0.0;
+    raw.drift_cap = 10.0;
+    const AssetDynamics a = run(s, HistoryMethod::mle, raw);
     REQUIRE(a.usable());
     if (a.asset_vol_lo <= sv && sv <= a.asset_vol_hi) ++covered_sv;
     const double dd_true =
@@ -415,4 +426,142 @@ TEST_CASE("random and extreme histories end with a status and finite usable esti
   }
   MESSAGE("usable estimates on the random grid: ", usable);
   CHECK(usable > 200);
+}
+
+namespace {
+
+// Merton (1974) distance to default and PD written out here, independently of src/:
+// DD = [ln(V/DP) + (mu - sV^2/2) T] / (sV sqrt T), PD = N(-DD) = erfc(DD / sqrt 2) / 2 (C library).
+double reference_dd(double v, double dp, double mu, double sv, double t) {
+  return (std::log(v / dp) + (mu - 0.5 * sv * sv) * t) / (sv * std::sqrt(t));
+}
+double reference_pd(double dd) {
+  return 0.5 * std::erfc(dd / std::numbers::sqrt2);
+}
+
+// The drift rule of history.hpp written out: r + clamp((1 - w)(mu - r), -cap, cap).
+double reference_drift(double mu, double r, double w, double cap) {
+  return r + std::clamp((1.0 - w) * (mu - r), -cap, cap);
+}
+
+}  // namespace
+
+TEST_CASE("drift in DD: estimate, shrunk, capped and the rate") {
+  // Hand computations of the rule (common practice: shrink the estimate towards r, cap it).
+  HistorySettings s;  // shrinkage 0.5, cap 0.10
+  DriftInDistance d = drift_in_distance(0.30, 0.03, false, s);
+  CHECK(d.source == DriftSource::capped);  // 0.5 x 0.27 = 0.135 > 0.10
+  CHECK(d.drift == doctest::Approx(0.13).epsilon(1e-15));
+  CHECK(d.slope == 0.0);
+  d = drift_in_distance(-0.30, 0.03, false, s);  // 0.5 x -0.33 = -0.165 < -0.10
+  CHECK(d.source == DriftSource::capped);
+  CHECK(d.drift == doctest::Approx(-0.07).epsilon(1e-15));
+  d = drift_in_distance(0.11, 0.03, false, s);  // 0.03 + 0.5 x 0.08 = 0.07
+  CHECK(d.source == DriftSource::shrunk);
+  CHECK(d.drift == doctest::Approx(0.07).epsilon(1e-15));
+  CHECK(d.slope == 0.5);
+  d = drift_in_distance(0.30, 0.03, true, s);
+  CHECK(d.source == DriftSource::rate);
+  CHECK(d.drift == 0.03);
+  s.drift_shrinkage = 0.0;
+  s.drift_cap = 0.5;
+  d = drift_in_distance(0.30, 0.03, false, s);
+  CHECK(d.source == DriftSource::estimate);
+  CHECK(d.drift == 0.30);
+  CHECK(d.slope == 1.0);
+  CHECK(to_string(DriftSource::capped) == "capped");
+  CHECK(to_string(DriftSource::rate) == "rate");
+}
+
+TEST_CASE("a 30% asset drift: the cap binds and DD, PD follow the drift used under each measure") {
+  // Invented series: assets drift at 30% a year with sV = 10% over two years, so the estimate
+  // (standard error about 0.10 / sqrt 2) stays far above r + 2 x cap = 0.23 for this seed.
+  const SimulatedHistory sim = simulate({.seed = 31,
+                                         .observations = 505,
+                                         .asset_vol = 0.10,
+                                         .drift = 0.30,
+                                         .default_point = 700,
+                                         .rate = 0.03});
+  struct Rule {
+    bool risk_neutral;
+    double shrinkage;
+    double cap;
+    DriftSource source;
+  };
+  const Rule rules[] = {{false, 0.5, 0.10, DriftSource::capped},
+                        {false, 0.5, 1.0, DriftSource::shrunk},
+                        {false, 0.0, 1.0, DriftSource::estimate},
+                        {true, 0.5, 0.10, DriftSource::rate}};
+  for (HistoryMethod m : {HistoryMethod::iterative, HistoryMethod::mle, HistoryMethod::naive}) {
+    for (const Rule& rule : rules) {
+      CAPTURE(to_string(m));
+      CAPTURE(rule.risk_neutral);
+      CAPTURE(rule.shrinkage);
+      CAPTURE(rule.cap);
+      HistorySettings settings;
+      settings.drift_shrinkage = rule.shrinkage;
+      settings.drift_cap = rule.cap;
+      HistoryWorkspace ws;
+      const AssetDynamics a = estimate_asset_dynamics(
+          view_of(sim), {.method = m, .risk_neutral = rule.risk_neutral}, settings, ws);
+      REQUIRE(a.usable());
+      REQUIRE(a.drift_annual > 0.23);
+      CHECK(a.drift_source == rule.source);
+      const double mu =
+          rule.risk_neutral ? 0.03 : reference_drift(a.drift_annual, 0.03, rule.shrinkage, rule.cap);
+      CHECK(a.drift_used == doctest::Approx(mu).epsilon(1e-15));
+      if (rule.source == DriftSource::capped) CHECK(a.drift_used == doctest::Approx(0.13).epsilon(1e-15));
+      // The naive DD takes V = E + F and its own sV (Bharath and Shumway 2008), not the Merton V.
+      const double dd = reference_dd(a.asset_value, a.default_point, mu, a.asset_vol_annual, 1.0);
+      CHECK(a.distance_to_default == doctest::Approx(dd).epsilon(1e-12));
+      CHECK(a.pd == doctest::Approx(reference_pd(dd)).epsilon(1e-12));
+      CHECK(ws.distance_to_default.back() == a.distance_to_default);
+      if (m == HistoryMethod::mle) {
+        // Delta method through mu_used: capped or risk-neutral, DD no longer moves with mu, so
+        // se(DD) comes from sV alone and is smaller than with the estimate as it stands.
+        CHECK(a.dd_se > 0.0);
+        CHECK(a.pd_lo <= a.pd);
+        CHECK(a.pd <= a.pd_hi);
+      }
+    }
+  }
+}
+
+TEST_CASE("mle: se(DD) goes through the drift used") {
+  // se(DD)^2 = g' C g with g_mu = slope x sqrt(T)/sV (delta method; Duan 1994 for C). With the
+  // rate, g_mu = 0 and only sV's uncertainty remains; with the estimate as it stands, the drift's
+  // (se(mu) about sV / sqrt(years), common practice) adds about 1 to se(DD) over one year, and
+  // (sV, mu) are close to uncorrelated for geometric Brownian motion (from memory).
+  const SimulatedHistory sim = simulate({.seed = 8, .asset_vol = 0.20});
+  HistorySettings raw;
+  raw.drift_shrinkage = 0.0;
+  raw.drift_cap = 10.0;
+  HistoryWorkspace ws;
+  const AssetDynamics est = estimate_asset_dynamics(view_of(sim), {.method = HistoryMethod::mle}, raw, ws);
+  const AssetDynamics rn =
+      estimate_asset_dynamics(view_of(sim), {.method = HistoryMethod::mle, .risk_neutral = true}, raw, ws);
+  REQUIRE(est.usable());
+  REQUIRE(rn.usable());
+  CHECK(est.drift_source == DriftSource::estimate);
+  CHECK(rn.drift_source == DriftSource::rate);
+  CHECK(est.asset_vol_se == rn.asset_vol_se);  // the estimates do not depend on the measure
+  CHECK(est.drift_annual == rn.drift_annual);
+  CHECK(rn.dd_se > 0.0);
+  CHECK(est.dd_se > rn.dd_se + 0.5);
+}
+
+TEST_CASE("drift settings out of range are refused with a status") {
+  const SimulatedHistory sim = simulate({.seed = 3});
+  for (auto [w, cap] : {std::pair{-0.1, 0.1}, std::pair{1.5, 0.1}, std::pair{0.5, -0.01},
+                        std::pair{0.5, std::numeric_limits<double>::quiet_NaN()}}) {
+    HistorySettings s;
+    s.drift_shrinkage = w;
+    s.drift_cap = cap;
+    CHECK(s.validate().has_value());
+    const AssetDynamics a = run(sim, HistoryMethod::iterative, s);
+    CHECK(a.status == EstimateStatus::invalid_input);
+  }
+  HistorySettings s;
+  s.drift_cap = -1.0;
+  CHECK(s.validate()->field == "drift_cap");
 }

@@ -30,6 +30,8 @@ TEST_CASE("the shipped config/firmcall.yaml equals the built-in defaults") {
   CHECK(shipped.history.iteration_tolerance == builtin.history.iteration_tolerance);
   CHECK(shipped.history.max_iterations == builtin.history.max_iterations);
   CHECK(shipped.history.confidence_level == builtin.history.confidence_level);
+  CHECK(shipped.history.drift_shrinkage == builtin.history.drift_shrinkage);
+  CHECK(shipped.history.drift_cap == builtin.history.drift_cap);
   CHECK(shipped.portfolio.confidence_levels == builtin.portfolio.confidence_levels);
   CHECK(shipped.portfolio.asset_correlation == builtin.portfolio.asset_correlation);
   CHECK_FALSE(builtin.portfolio.asset_correlation.has_value());  // Basel function of PD by default
@@ -175,6 +177,7 @@ TEST_CASE("the reader reports each settings constraint at its key") {
       {"portfolio:\n  asset_correlation: baselx\n",
        "c.yaml:2: key 'asset_correlation': expected basel or a decimal in [0, 1), got 'baselx'"},
       {"history:\n  confidence_level: 1\n", "c.yaml:2: key 'confidence_level': must lie in (0, 1)"},
+      {"history:\n  drift_shrinkage: -0.5\n", "c.yaml:2: key 'drift_shrinkage': must lie in [0, 1]"},
       {"monitoring:\n  busy_timeout_seconds: 0\n", "c.yaml:2: key 'busy_timeout_seconds': must be positive"},
       {"monitoring:\n  alerts:\n    dd_drop: 0\n", "c.yaml:3: key 'dd_drop': must be positive"},
       {"monitoring:\n  alerts:\n    pd_ratio_min_pd: 2\n",
