@@ -425,6 +425,7 @@ PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& sce
   run.book_origin = book.origin;
   run.correlation_origin = corr ? corr->origin : "";
   run.scenario_origin = scenario_origin;
+  run.stress_hold = config.stress.hold;
   run.multi_factor = corr && corr->multi_factor();
   run.factors = run.multi_factor ? corr->factors.size() : 1;
   run.confidence_levels = config.portfolio.confidence_levels;
@@ -486,7 +487,8 @@ PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& sce
     std::vector<StressedObligor> stressed(n);
     parallel_for((n + 255) / 256, threads, [&](std::size_t t, unsigned) {
       for (std::size_t i = t * 256; i < std::min(n, (t + 1) * 256); ++i) {
-        stress_obligor(base[i], sc.effect_for(book.obligors[i]), config.score, false, stressed[i]);
+        stress_obligor(base[i], sc.effect_for(book.obligors[i]), config.score, false, stressed[i],
+                       config.stress.hold);
       }
     });
     for (std::size_t i = 0; i < n; ++i) {

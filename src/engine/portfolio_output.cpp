@@ -290,6 +290,13 @@ void write_table(const PortfolioResult& run, const Book& book, const TextSink& s
     out += "Expected loss and loss distribution: over each obligor's horizon (model PD)\n";
   }
   append_wrapped(out, "Asset correlation: " + correlation_text(run));
+  if (!run.scenario_origin.empty()) {
+    out +=
+        run.stress_hold == StressHold::asset_vol
+            ? "Scenarios of " + run.scenario_origin +
+                  ": asset volatility held, equity volatility as the model implies (stress.hold asset-vol)\n"
+            : "Scenarios of " + run.scenario_origin + ": equity volatility held (stress.hold equity-vol)\n";
+  }
   if (base.exact.status != LossStatus::invalid_input) {
     char buf[256];
     std::snprintf(
@@ -523,6 +530,7 @@ void write_json(const PortfolioResult& run, const Book& book, const TextSink& si
   fields.text("book", run.book_origin)
       .text("correlation_file", run.correlation_origin)
       .text("scenario_file", run.scenario_origin)
+      .text("stress_hold", run.scenario_origin.empty() ? "" : to_string(run.stress_hold))
       .number_list("confidence_levels", run.confidence_levels)
       .text("measure", to_string(run.settings.measure))
       .number("default_lgd", run.settings.default_lgd);

@@ -613,7 +613,12 @@ std::string stress_section(const ReportData& d) {
       "stress", "Stress results",
       "Each scenario of " + st.origin +
           " shocks the observed inputs (equity value and volatility, rate, default point), and every hit "
-          "obligor is solved again. Figures over the obligors scored both as they stand and stressed.");
+          "obligor is solved again, " +
+          (d.config.stress.hold == StressHold::asset_vol
+               ? std::string("holding its asset volatility (its equity volatility is then the model's; "
+                             "stress.hold asset-vol)")
+               : std::string("holding its equity volatility (stress.hold equity-vol)")) +
+          ". Figures over the obligors scored both as they stand and stressed.");
   out += scenario_pd_chart(scenario_pds(st), stress_pd_name(st));
   out += scenario_summary_table(d);
   // Per-obligor change, one chart per scenario: the names whose PD moved most.
@@ -1396,13 +1401,14 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
       run.pd_calibration_origin = options.pd_calibration_path;
       run.driving_pd = d.options.driving_pd;
     }
-    StressSettings held = config.stress;
-    held.hold = StressHold::equity_vol;  // as its rows below (stress_obligor's default hold)
-    st->summary = run_stress(d.book, set.scenarios, set.origin, settings, held, run, [](std::string_view) {});
+    // The summaries and the rows below hold the same volatility, as `firmcall stress` (stress.hold).
+    st->summary =
+        run_stress(d.book, set.scenarios, set.origin, settings, config.stress, run, [](std::string_view) {});
     for (const Scenario& sc : set.scenarios) {
       std::vector<StressedObligor> rows(d.book.obligors.size());
       for (std::size_t i = 0; i < rows.size(); ++i) {
-        stress_obligor(d.scored[i], sc.effect_for(d.book.obligors[i]), settings, false, rows[i]);
+        stress_obligor(d.scored[i], sc.effect_for(d.book.obligors[i]), settings, false, rows[i],
+                       config.stress.hold);
       }
       st->rows.push_back(std::move(rows));
     }

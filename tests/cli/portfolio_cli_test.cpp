@@ -82,9 +82,8 @@ TEST_CASE("portfolio with the sample correlation file, Monte Carlo and the outpu
 }
 
 TEST_CASE("stress scenarios at portfolio level: the stressed PDs are the stress command's") {
-  const auto st = run_firmcall(  // the portfolio stress re-solves (E', sE'): --hold equity-vol
-      "stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --format csv --hold "
-      "equity-vol");
+  const auto st = run_firmcall(  // both follow stress.hold (asset-vol by default)
+      "stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --format csv");
   REQUIRE(st.exit_code == 0);
   const auto s = parse_csv_table(st.out);
   const auto r =

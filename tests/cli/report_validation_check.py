@@ -237,7 +237,7 @@ def check_stress_calibrated(exe, root, tmp, cfg):
                           "--top", "40", "--html", page_path], cwd=root, capture_output=True, text=True)
     check(run.returncode in (0, 1), f"report -s --pd-calibration exit {run.returncode}: {run.stderr}")
     stress = subprocess.run([exe, "-q", "--config", cfg, "stress", "samples/demo_book.yaml", "-s",
-                             "samples/stress_scenarios.yaml", "--hold", "equity-vol", "--format", "csv"], cwd=root,
+                             "samples/stress_scenarios.yaml", "--format", "csv"], cwd=root,
                             capture_output=True, text=True)
     rows = list(csv.DictReader(io.StringIO(stress.stdout)))
     with open(page_path, encoding="utf-8") as f:

@@ -142,9 +142,10 @@ struct PortfolioBookOptions {
 /// A whole portfolio run: the book as it stands first, then each stress scenario.
 struct PortfolioResult {
   std::string book_origin;
-  std::string correlation_origin;  ///< empty without a correlation file
-  std::string scenario_origin;     ///< empty without scenarios
-  bool multi_factor = false;       ///< the simulation uses a factor correlation matrix
+  std::string correlation_origin;                  ///< empty without a correlation file
+  std::string scenario_origin;                     ///< empty without scenarios
+  StressHold stress_hold = StressHold::asset_vol;  ///< which volatility the scenarios hold (stress.hold)
+  bool multi_factor = false;                       ///< the simulation uses a factor correlation matrix
   std::size_t factors = 1;
   std::vector<double> confidence_levels;
   ScoreSettings settings;

@@ -183,8 +183,7 @@ TEST_CASE("report stress, portfolio and movers figures equal those commands' CSV
   TempDir t;
   // Stress: the per-scenario summary CSV (docs/stress.md).
   const auto st = run_firmcall(
-      "-q stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --hold equity-vol --format "
-      "csv -o '" +
+      "-q stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --format csv -o '" +
       t.file("rows.csv") + "' --summary-output '" + t.file("summary.csv") + "'");
   REQUIRE(st.exit_code == 0);
   const CsvTable sum = parse_csv_table(read_file(t.file("summary.csv")));
@@ -200,9 +199,9 @@ TEST_CASE("report stress, portfolio and movers figures equal those commands' CSV
     CHECK(cells[7] == sum.cell(k, "above_threshold_stressed"));
     CHECK(cells[9] == fmt("%.2f", sum.number(k, "expected_loss_stressed")));
   }
-  // docs/stress.md: severe moves 16 names above 5% and expected loss to 42.94.
-  CHECK(table_row(f.html, "fc-stress-summary", "severe")[7] == "16");
-  CHECK(table_row(f.html, "fc-stress-summary", "severe")[9] == "42.94");
+  // The report holds the stress command's volatility (stress.hold, asset-vol by default): under it
+  // severe moves more names above 5% than the 16 of docs/stress.md's equity-vol example.
+  CHECK(std::stoi(table_row(f.html, "fc-stress-summary", "severe")[7]) > 16);
   // Per-obligor stressed PD: the stress rows CSV.
   const CsvTable rows = parse_csv_table(read_file(t.file("rows.csv")));
   std::size_t matched = 0;
