@@ -409,6 +409,20 @@ std::string SvgPlot::str() const {
   return out;
 }
 
+// Horizontal grid lines and tick labels of the value axis `y` between x = l and x = r, at the
+// heights `py` gives (a log axis labels each tick by its own value, a linear one by the step).
+template <class Py>
+void append_value_grid(std::string& out, const SvgAxis& y, double l, double r, const Py& py) {
+  const std::vector<double> yt = axis_ticks(y, 6);
+  const double ystep = yt.size() >= 2 ? yt[1] - yt[0] : 1.0;
+  for (const double v : yt) {
+    out += "<line class=\"fc-grid\" x1=\"" + num(l) + "\" y1=\"" + num(py(v)) + "\" x2=\"" + num(r) +
+           "\" y2=\"" + num(py(v)) + "\"/>\n<text class=\"fc-tick\" x=\"" + num(l - 6.0) + "\" y=\"" +
+           num(py(v) + 4.0) + "\" text-anchor=\"end\">" +
+           xml_escape(tick_label(v, y.format, y.log ? v : ystep)) + "</text>\n";
+  }
+}
+
 std::string svg_bar_chart(const std::vector<std::string>& categories, const std::vector<BarSeries>& series,
                           const std::string& x_label, SvgAxis y, const std::string& title, double width,
                           double height) {
@@ -418,14 +432,7 @@ std::string svg_bar_chart(const std::vector<std::string>& categories, const std:
   fit_axis(y, all, true);
   const auto py = [&](double v) { return b - (b - t) * axis_fraction(y, v); };
   std::string out = frame(title, width, height, l, t, r, b);
-  const std::vector<double> yt = axis_ticks(y, 6);
-  const double ystep = yt.size() >= 2 ? yt[1] - yt[0] : 1.0;
-  for (const double v : yt) {
-    out += "<line class=\"fc-grid\" x1=\"" + num(l) + "\" y1=\"" + num(py(v)) + "\" x2=\"" + num(r) +
-           "\" y2=\"" + num(py(v)) + "\"/>\n<text class=\"fc-tick\" x=\"" + num(l - 6.0) + "\" y=\"" +
-           num(py(v) + 4.0) + "\" text-anchor=\"end\">" + xml_escape(tick_label(v, y.format, ystep)) +
-           "</text>\n";
-  }
+  append_value_grid(out, y, l, r, py);
   const double n = static_cast<double>(std::max<std::size_t>(1, categories.size()));
   const double group = (r - l) / n;
   const double bar = group * 0.78 / static_cast<double>(std::max<std::size_t>(1, series.size()));
@@ -484,14 +491,7 @@ std::string svg_interval_chart(const std::vector<std::string>& categories,
   fit_axis(y, all, !y.log, floor);
   const auto py = [&](double v) { return b - (b - t) * axis_fraction(y, v); };
   std::string out = frame(title, width, height, l, t, r, b);
-  const std::vector<double> yt = axis_ticks(y, 6);
-  const double ystep = yt.size() >= 2 ? yt[1] - yt[0] : 1.0;
-  for (const double v : yt) {
-    out += "<line class=\"fc-grid\" x1=\"" + num(l) + "\" y1=\"" + num(py(v)) + "\" x2=\"" + num(r) +
-           "\" y2=\"" + num(py(v)) + "\"/>\n<text class=\"fc-tick\" x=\"" + num(l - 6.0) + "\" y=\"" +
-           num(py(v) + 4.0) + "\" text-anchor=\"end\">" +
-           xml_escape(tick_label(v, y.format, y.log ? v : ystep)) + "</text>\n";
-  }
+  append_value_grid(out, y, l, r, py);
   const double n = static_cast<double>(std::max<std::size_t>(1, categories.size()));
   const double group = (r - l) / n;
   for (std::size_t c = 0; c < categories.size() && c < marks.size(); ++c) {
