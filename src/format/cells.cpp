@@ -14,79 +14,25 @@
 #include <cstring>
 #include <mutex>
 
+#include <fmt/format.h>
+
 namespace firmcall {
 
 namespace {
 
-__extension__ typedef unsigned __int128 u128;  // GCC/Clang 128-bit integer
-
-// 5^k for k = 0..32 (5^32 < 2^75, so f * 5^k < 2^128 for a 53-bit f).
-constexpr std::array<u128, 33> kPow5 = [] {
-  std::array<u128, 33> p{};
+// 10^k for k = 0..19.
+constexpr std::array<std::uint64_t, 20> kPow10 = [] {
+  std::array<std::uint64_t, 20> p{};
   p[0] = 1;
-  for (std::size_t i = 1; i < p.size(); ++i) p[i] = p[i - 1] * 5;
+  for (std::size_t i = 1; i < p.size(); ++i) p[i] = p[i - 1] * 10;
   return p;
 }();
 
-// 10^j for j = -16..17 as doubles (exact for j >= 0), at index j + 16.
-constexpr std::array<double, 34> kPow10 = {1e-16, 1e-15, 1e-14, 1e-13, 1e-12, 1e-11, 1e-10, 1e-9, 1e-8,
-                                           1e-7,  1e-6,  1e-5,  1e-4,  1e-3,  1e-2,  1e-1,  1e0,  1e1,
-                                           1e2,   1e3,   1e4,   1e5,   1e6,   1e7,   1e8,   1e9,  1e10,
-                                           1e11,  1e12,  1e13,  1e14,  1e15,  1e16,  1e17};
-
-// Exact 17-significant-digit decimal of |v| for 1e-16 <= |v| < 1e17: returns the 17 digits as an
-// integer n in [1e16, 1e17) and the decimal exponent of the first digit, or false outside the
-// range. Exact because v * 10^k = f * 5^k * 2^(e+k) is formed in 128-bit integers (k <= 32) and
-// rounded half-to-even on the exact remainder -- the same digits as printf("%.17g").
-bool exact_17_digits(double v, std::uint64_t& n_out, int& exp10_out) noexcept {
-  if (!(v >= 1e-16 && v < 1e17)) return false;
-  // v is a normal double here: v = f 2^e exactly with f = 1.mantissa as a 53-bit integer.
-  const auto bits = std::bit_cast<std::uint64_t>(v);
-  const std::uint64_t f = (bits & ((1ULL << 52) - 1)) | (1ULL << 52);
-  const int e = static_cast<int>((bits >> 52) & 0x7ff) - 1075;
-  // floor(log10 v) is about floor((e + 52) log10 2), with log10 2 ~ 78913 / 2^18 (an arithmetic
-  // shift floors); the loop below corrects the guess when it is one off.
-  const int e10 = ((e + 52) * 78913) >> 18;  // floor(log10 v) or one less, in -17..16
-  int k = 16 - e10;
-  // The mantissa may carry v past the next power of ten: compare with it (as a double, which may
-  // be rounded for negative powers; the loop still corrects a wrong guess).
-  if (v >= kPow10[static_cast<std::size_t>(e10 + 17)]) --k;
-  for (int attempt = 0; attempt < 3; ++attempt) {
-    if (k < 0 || k > 32) return false;
-    const u128 x = static_cast<u128>(f) * kPow5[static_cast<std::size_t>(k)];
-    const int t = e + k;  // value = x 2^t
-    u128 n;
-    bool round_up = false;
-    if (t >= 0) {
-      if (t > 10) return false;  // cannot happen for v < 1e17, k >= 0; stay safe
-      n = x << t;
-    } else {
-      const int sh = -t;
-      if (sh >= 128) return false;
-      n = x >> sh;
-      const u128 rem = x - (n << sh);
-      const u128 half = static_cast<u128>(1) << (sh - 1);
-      round_up = rem > half || (rem == half && (n & 1) != 0);
-    }
-    // Choose the scale on the unrounded value: floor(v 10^k) must have exactly 17 digits.
-    if (n < static_cast<u128>(10000000000000000ULL)) {
-      ++k;
-      continue;
-    }
-    if (n >= static_cast<u128>(100000000000000000ULL)) {
-      --k;
-      continue;
-    }
-    if (round_up) ++n;
-    exp10_out = 16 - k;
-    if (n == static_cast<u128>(100000000000000000ULL)) {  // rounding carried into an 18th digit
-      n = 10000000000000000ULL;
-      ++exp10_out;
-    }
-    n_out = static_cast<std::uint64_t>(n);
-    return true;
-  }
-  return false;
+// Number of decimal digits of n > 0.
+inline int decimal_digits(std::uint64_t n) noexcept {
+  const int t =
+      (static_cast<int>(std::bit_width(n)) * 1233) >> 12;  // floor(log10 2^bits), one too many at most
+  return t + 1 - static_cast<int>(n < kPow10[static_cast<std::size_t>(t)]);
 }
 
 // The eight decimal digits of v < 10^8 as eight bytes 0..9, first digit in the lowest byte (read
@@ -99,50 +45,56 @@ inline std::uint64_t eight_digit_bytes(std::uint32_t v) noexcept {
   return tens | ((y - tens * 10) << 8);
 }
 
-// Writes n (17 digits) as ASCII into d[0..16] and returns the number of significant digits left
-// after dropping trailing zeros (as %g does), at least 1.
-inline int seventeen_digits(std::uint64_t n, char* d) noexcept {
+// Writes n < 10^17 as exactly 17 ASCII digits (leading zeros included) into d[0..16].
+inline void seventeen_digits(std::uint64_t n, char* d) noexcept {
   static_assert(std::endian::native == std::endian::little, "digit bytes are laid out little-endian");
   const auto first = static_cast<std::uint32_t>(n / 10000000000000000ULL);
   const std::uint64_t rest = n % 10000000000000000ULL;
-  const std::uint64_t hi = eight_digit_bytes(static_cast<std::uint32_t>(rest / 100000000ULL));
-  const std::uint64_t lo = eight_digit_bytes(static_cast<std::uint32_t>(rest % 100000000ULL));
-  d[0] = static_cast<char>('0' + first);
   const std::uint64_t ascii = 0x3030303030303030ULL;
-  const std::uint64_t hi_ascii = hi | ascii, lo_ascii = lo | ascii;
-  std::memcpy(d + 1, &hi_ascii, 8);
-  std::memcpy(d + 9, &lo_ascii, 8);
-  // Trailing zero digits are the zero bytes at the high end of each word.
-  if (lo != 0) return 17 - std::countl_zero(lo) / 8;
-  if (hi != 0) return 9 - std::countl_zero(hi) / 8;
-  return 1;
+  const std::uint64_t hi = eight_digit_bytes(static_cast<std::uint32_t>(rest / 100000000ULL)) | ascii;
+  const std::uint64_t lo = eight_digit_bytes(static_cast<std::uint32_t>(rest % 100000000ULL)) | ascii;
+  d[0] = static_cast<char>('0' + first);
+  std::memcpy(d + 1, &hi, 8);
+  std::memcpy(d + 9, &lo, 8);
 }
 
 }  // namespace
 
 char* write_number(char* p, double v) noexcept {
   if (!std::isfinite(v)) return p;
-  if (v == 0.0) {
-    if (std::signbit(v)) *p++ = '-';
+  if (std::signbit(v)) *p++ = '-';
+  const double a = std::fabs(v);
+  if (a == 0.0) {
     *p++ = '0';
     return p;
   }
-  std::uint64_t n = 0;
-  int x = 0;
-  const double a = std::fabs(v);
-  if (!exact_17_digits(a, n, x)) {
-    return std::to_chars(p, p + kMaxNumberChars, v, std::chars_format::general, 17).ptr;
+  std::uint64_t s = 0;  // significant digits, no trailing zeros
+  int x = 0;            // decimal exponent of the first digit
+  int len = 0;          // number of digits of s
+  if (a < 9007199254740992.0 && static_cast<double>(static_cast<std::uint64_t>(a)) == a) {
+    // An integer below 2^53: its digits are its shortest form (amounts, counts, horizons), and
+    // skipping the general conversion makes these cells several times cheaper.
+    s = static_cast<std::uint64_t>(a);
+    len = decimal_digits(s);
+    x = len - 1;
+  } else {
+    // Shortest digits that read back to the same double: Dragonbox (Jeon 2020), as libfmt ships
+    // it. Faster here than std::to_chars or fmt::format_to, whose layout code we replace below.
+    const auto dec = fmt::detail::dragonbox::to_decimal(a);
+    s = dec.significand;
+    len = decimal_digits(s);
+    x = dec.exponent + len - 1;
   }
-  // Every copy below has a fixed size (so it compiles to a few moves) and may write past the
-  // end of the number, within the caller's kMaxNumberChars.
+  // s as 17 digits, left-aligned: d[0..len-1] are its digits and d[len..16] are '0'.
   char d[40];
-  const int len = seventeen_digits(n, d);  // significant digits
-  if (v < 0) *p++ = '-';
-  if (x >= 0 && x < 17) {
-    // Integer part: digits 0..x; fraction: digits x+1..len-1.
-    std::memcpy(p, d, 17);
+  seventeen_digits(s * kPow10[static_cast<std::size_t>(17 - len)], d);
+  // Every copy below has a fixed size (so it compiles to a few moves) and may write past the end
+  // of the number, within the caller's kMaxNumberChars. Layout as Python's repr(): positional for
+  // exponents -4..15, else scientific with at least two exponent digits; no ".0" on integers.
+  if (x >= 0 && x < 16) {
+    std::memcpy(p, d, 17);  // integer part: digits 0..x (zeros past len)
     if (len <= x + 1) return p + x + 1;
-    std::memcpy(p + x + 2, d + x + 1, 16);
+    std::memcpy(p + x + 2, d + x + 1, 16);  // fraction: digits x+1..len-1
     p[x + 1] = '.';
     return p + len + 1;
   }

@@ -4,6 +4,7 @@
 #include <Eigen/Cholesky>
 #include <Eigen/Eigenvalues>
 #include <algorithm>
+#include <charconv>
 #include <cmath>
 #include <cstdio>
 
@@ -38,6 +39,8 @@ std::string_view to_string(CorrelationStatus s) noexcept {
 
 std::string CorrelationCheck::describe() const {
   char buf[200];
+  char num[32];  // the entry as its shortest round-trip decimal
+  *std::to_chars(num, num + sizeof num - 1, value).ptr = '\0';
   switch (status) {
     case CorrelationStatus::ok:
       return "ok";
@@ -47,16 +50,15 @@ std::string CorrelationCheck::describe() const {
       std::snprintf(buf, sizeof buf, "entry (%zu, %zu) is not a finite number", row + 1, column + 1);
       return buf;
     case CorrelationStatus::bad_diagonal:
-      std::snprintf(buf, sizeof buf, "diagonal entry (%zu, %zu) must be 1, got %.17g", row + 1, column + 1,
-                    value);
+      std::snprintf(buf, sizeof buf, "diagonal entry (%zu, %zu) must be 1, got %s", row + 1, column + 1, num);
       return buf;
     case CorrelationStatus::out_of_range:
-      std::snprintf(buf, sizeof buf, "entry (%zu, %zu) must lie in [-1, 1], got %.17g", row + 1, column + 1,
-                    value);
+      std::snprintf(buf, sizeof buf, "entry (%zu, %zu) must lie in [-1, 1], got %s", row + 1, column + 1,
+                    num);
       return buf;
     case CorrelationStatus::not_symmetric:
-      std::snprintf(buf, sizeof buf, "not symmetric: entry (%zu, %zu) is %.17g but (%zu, %zu) differs",
-                    row + 1, column + 1, value, column + 1, row + 1);
+      std::snprintf(buf, sizeof buf, "not symmetric: entry (%zu, %zu) is %s but (%zu, %zu) differs", row + 1,
+                    column + 1, num, column + 1, row + 1);
       return buf;
     case CorrelationStatus::not_positive_definite:
       std::snprintf(

@@ -133,7 +133,7 @@ TEST_CASE("--output writes the whole result, overrides apply, JSON parses") {
       run_firmcall("score samples/demo_book.yaml --format json --rate 0.05 --horizon 2 -o '" + out + "'");
   CHECK(r.exit_code == 0);
   const std::string json = read_file(out);
-  CHECK(json.find("\"rate_override\": 0.050000000000000003, \"horizon_override\": 2}") != std::string::npos);
+  CHECK(json.find("\"rate_override\": 0.05, \"horizon_override\": 2}") != std::string::npos);
   const auto base = run_firmcall("score samples/demo_book.yaml --format json");
   CHECK(base.out.find("\"rate_override\": null, \"horizon_override\": null}") != std::string::npos);
   CHECK(json.size() > 1000);

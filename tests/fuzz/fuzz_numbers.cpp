@@ -1,5 +1,5 @@
 // libFuzzer target: the number parser accepts only finite decimals, and every double it returns
-// prints (17 significant digits) and parses back to itself.
+// prints (the shortest round-trip decimal) and parses back to itself.
 #include <cmath>
 #include <cstdint>
 #include <cstdlib>

@@ -34,7 +34,8 @@ std::unique_ptr<Base> make_format_writer(OutputFormat format, const Args&... arg
 /// Where the output text goes (a file, stdout, or a string in tests).
 using TextSink = std::function<void(std::string_view)>;
 
-/// Appends v with 17 significant digits (round-trips exactly); non-finite values append nothing.
+/// Appends v as the shortest decimal that reads back to the same double (Python's repr layout,
+/// integers without ".0"); non-finite values append nothing.
 void append_number(std::string& out, double v);
 
 /// Room write_number needs (it may write scratch bytes past the number's end, within this).

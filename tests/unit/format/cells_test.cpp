@@ -1,7 +1,11 @@
-// Tests of output formatting: numbers must be exactly what printf("%.17g") prints (the C
-// library is the independent reference), so that every value round-trips.
+// Tests of output formatting: numbers print as the shortest decimal that reads back to the same
+// double. Reference: libstdc++'s std::to_chars shortest scientific form (an independent Ryu
+// implementation) for the digits, laid out as Python's repr() does (positional for decimal
+// exponents -4..15, else scientific with two exponent digits at least; from Python's docs of
+// float.__repr__, from memory), without repr's ".0" on integers.
 #include <doctest/doctest.h>
 
+#include <charconv>
 #include <cmath>
 #include <cstdio>
 #include <cstring>
@@ -14,10 +18,28 @@
 using firmcall::append_number;
 
 namespace {
-std::string printf17(double v) {
+std::string shortest_reference(double v) {
   char buf[64];
-  std::snprintf(buf, sizeof buf, "%.17g", v);
-  return buf;
+  const std::string sci(buf, std::to_chars(buf, buf + sizeof buf, v, std::chars_format::scientific).ptr);
+  const std::size_t e = sci.find('e');
+  std::string digits;
+  for (char c : sci.substr(0, e))
+    if (c >= '0' && c <= '9') digits.push_back(c);
+  const int x = std::stoi(sci.substr(e + 1));
+  std::string out(sci[0] == '-' ? 1 : 0, '-');
+  if (digits == "0") return out.append("0");
+  if (x >= 16 || x < -4) {
+    out.push_back(digits[0]);
+    if (digits.size() > 1) out.append(".").append(digits, 1);
+    const int ax = x < 0 ? -x : x;
+    out.append(x < 0 ? "e-" : "e+");
+    if (ax < 10) out.push_back('0');
+    return out.append(std::to_string(ax));
+  }
+  if (x < 0) return out.append("0.").append(static_cast<std::size_t>(-x - 1), '0').append(digits);
+  const auto ints = static_cast<std::size_t>(x + 1);
+  if (digits.size() <= ints) return out.append(digits).append(ints - digits.size(), '0');
+  return out.append(digits, 0, ints).append(".").append(digits, ints);
 }
 std::string ours(double v) {
   std::string s;
@@ -26,7 +48,7 @@ std::string ours(double v) {
 }
 }  // namespace
 
-TEST_CASE("numbers print as %.17g over many magnitudes, ties and edges") {
+TEST_CASE("numbers print as the shortest round-trip decimal over many magnitudes, ties and edges") {
   std::mt19937_64 rng(17);
   std::uniform_real_distribution<double> expo(-40.0, 40.0);
   std::uniform_int_distribution<std::uint64_t> bits(0, ~0ULL);
@@ -34,10 +56,10 @@ TEST_CASE("numbers print as %.17g over many magnitudes, ties and edges") {
   long tested = 0;
   const auto check = [&](double v) {
     ++tested;
-    if (ours(v) != printf17(v)) {
+    if (ours(v) != shortest_reference(v)) {
       if (++mismatches <= 5) {
         CAPTURE(v);
-        CHECK(ours(v) == printf17(v));
+        CHECK(ours(v) == shortest_reference(v));
       }
     }
     // Round trip.
@@ -89,7 +111,18 @@ TEST_CASE("numbers print as %.17g over many magnitudes, ties and edges") {
     check(std::nextafter(std::pow(10.0, i), 1e300));
   }
   for (int i = 0; i < 20000; ++i) check(static_cast<double>(i) / 1000.0);
-  MESSAGE("append_number vs printf %.17g: " << tested << " values, " << mismatches << " mismatches");
+  for (int i = 0; i < 100000; ++i) {  // integers (the fast path below 2^53) and just past it
+    check(static_cast<double>(bits(rng) >> (11 + i % 40)));
+    check(9007199254740992.0 + 2.0 * (i % 1000));
+  }
+  CHECK(ours(0.4) == "0.4");  // not 0.40000000000000002 (17 digits)
+  CHECK(ours(1e16) == "1e+16");
+  CHECK(ours(1234567890123456.0) == "1234567890123456");
+  CHECK(ours(1e-5) == "1e-05");
+  CHECK(ours(0.0001) == "0.0001");
+  CHECK(ours(-0.0) == "-0");
+  CHECK(ours(5e-324) == "5e-324");
+  MESSAGE("append_number vs shortest reference: " << tested << " values, " << mismatches << " mismatches");
   CHECK(mismatches == 0);
   CHECK(ours(std::nan("")).empty());
   CHECK(ours(std::numeric_limits<double>::infinity()).empty());

@@ -1,7 +1,7 @@
 // Recording a scored book: what goes into the store besides the measures (the obligor's fields
 // and the run's settings as JSON), and the arguments' validate(). The JSON texts are pinned as the
-// store has always held them (numbers at 17 significant digits, common practice for exact reading
-// back; the default settings and grade scale are those of settings.hpp and grades.hpp).
+// store has always held them (numbers as the shortest decimal that reads back to the same double, as
+// Python's repr; the default settings and grade scale are those of settings.hpp and grades.hpp).
 #include "firmcall/monitor/record_book.hpp"
 
 #include <doctest/doctest.h>
@@ -17,17 +17,16 @@
 using namespace firmcall;
 
 TEST_CASE("settings_json: the default settings and grade scale") {
-  CHECK(
-      settings_json(ScoreSettings{}, default_grade_scale()) ==
-      "{\"default_point_weight\": 0.5, \"horizon\": 1, \"measure\": \"physical\", \"default_lgd\": "
-      "0.45000000000000001, \"max_equity_vol\": 10, \"solver\": {\"max_newton_iterations\": 60, "
-      "\"max_fallback_iterations\": 200, \"residual_tolerance\": 9.9999999999999998e-13}, \"overrides\": {}, "
-      "\"grades\": [{\"label\": \"FC1\", \"max_pd\": 0.0001}, {\"label\": \"FC2\", \"max_pd\": "
-      "0.00025000000000000001}, {\"label\": \"FC3\", \"max_pd\": 0.00050000000000000001}, {\"label\": "
-      "\"FC4\", \"max_pd\": 0.001}, {\"label\": \"FC5\", \"max_pd\": 0.0025000000000000001}, {\"label\": "
-      "\"FC6\", \"max_pd\": 0.0050000000000000001}, {\"label\": \"FC7\", \"max_pd\": 0.01}, {\"label\": "
-      "\"FC8\", \"max_pd\": 0.025000000000000001}, {\"label\": \"FC9\", \"max_pd\": 0.10000000000000001}, "
-      "{\"label\": \"FC10\", \"max_pd\": 1}]}");
+  CHECK(settings_json(ScoreSettings{}, default_grade_scale()) ==
+        "{\"default_point_weight\": 0.5, \"horizon\": 1, \"measure\": \"physical\", \"default_lgd\": "
+        "0.45, \"max_equity_vol\": 10, \"solver\": {\"max_newton_iterations\": 60, "
+        "\"max_fallback_iterations\": 200, \"residual_tolerance\": 1e-12}, \"overrides\": {}, "
+        "\"grades\": [{\"label\": \"FC1\", \"max_pd\": 0.0001}, {\"label\": \"FC2\", \"max_pd\": "
+        "0.00025}, {\"label\": \"FC3\", \"max_pd\": 0.0005}, {\"label\": "
+        "\"FC4\", \"max_pd\": 0.001}, {\"label\": \"FC5\", \"max_pd\": 0.0025}, {\"label\": "
+        "\"FC6\", \"max_pd\": 0.005}, {\"label\": \"FC7\", \"max_pd\": 0.01}, {\"label\": "
+        "\"FC8\", \"max_pd\": 0.025}, {\"label\": \"FC9\", \"max_pd\": 0.1}, "
+        "{\"label\": \"FC10\", \"max_pd\": 1}]}");
 }
 
 TEST_CASE("settings_json: command-line overrides in their fixed order, and another scale") {
@@ -38,9 +37,9 @@ TEST_CASE("settings_json: command-line overrides in their fixed order, and anoth
   g.bands = {{"A", 0.01}, {"B", 1.0}};
   CHECK(settings_json(s, g) ==
         "{\"default_point_weight\": 0.5, \"horizon\": 1, \"measure\": \"physical\", \"default_lgd\": "
-        "0.45000000000000001, \"max_equity_vol\": 10, \"solver\": {\"max_newton_iterations\": 60, "
-        "\"max_fallback_iterations\": 200, \"residual_tolerance\": 9.9999999999999998e-13}, \"overrides\": "
-        "{\"rate\": 0.029999999999999999, \"default_point_weight\": 0.25}, \"grades\": [{\"label\": \"A\", "
+        "0.45, \"max_equity_vol\": 10, \"solver\": {\"max_newton_iterations\": 60, "
+        "\"max_fallback_iterations\": 200, \"residual_tolerance\": 1e-12}, \"overrides\": "
+        "{\"rate\": 0.03, \"default_point_weight\": 0.25}, \"grades\": [{\"label\": \"A\", "
         "\"max_pd\": 0.01}, {\"label\": \"B\", \"max_pd\": 1}]}");
 }
 
