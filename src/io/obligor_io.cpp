@@ -162,51 +162,72 @@ Book parse_yaml_book(const std::string& text, const std::string& origin) {
   return book;
 }
 
-Book parse_csv_book(const std::string& text, const std::string& origin, BookUse use) {
-  Book book;
-  book.origin = origin;
-  std::string_view rest(text);
+namespace detail {
+
+CsvColumns parse_csv_header(std::string_view& rest, std::size_t& line, const std::string& origin, BookUse use,
+                            std::vector<std::string>& notes) {
   if (rest.substr(0, 3) == "\xEF\xBB\xBF") rest.remove_prefix(3);
-  std::vector<std::string_view> fields;
-  std::string scratch;
-  bool unterminated = false;
   // Skip leading blank lines before the header.
-  std::size_t line = 1;
   while (!rest.empty() && (rest.front() == '\n' || rest.front() == '\r')) {
     if (rest.front() == '\n') ++line;
     rest.remove_prefix(1);
   }
   if (rest.empty()) throw InputError(located(origin, 0, "empty file: a header row is required"));
-  std::size_t used = split_csv_record(rest, fields, scratch, unterminated);
-  const CsvColumns cols = CsvColumns::from_header(fields, origin, use);
+  std::vector<std::string_view> fields;
+  std::string scratch;
+  bool unterminated = false;
+  const std::size_t used = split_csv_record(rest, fields, scratch, unterminated);
+  CsvColumns cols = CsvColumns::from_header(fields, origin, use);
   for (const auto& u : cols.unused)
-    book.notes.push_back(located(origin, line, "note: column '" + u + "' is not used"));
+    notes.push_back(located(origin, line, "note: column '" + u + "' is not used"));
   line += count_lines(rest.substr(0, used));
   rest.remove_prefix(used);
-  std::size_t stray = kNoStrayQuote;
+  return cols;
+}
+
+std::size_t parse_csv_records(std::string_view& rest, std::size_t& line, const CsvColumns& cols,
+                              std::size_t max_records, std::vector<ObligorRecord>& out, CsvParseScratch& sc) {
   std::size_t last_line = 0;  // line of the last record that is not blank
-  while (!rest.empty()) {
+  std::size_t taken = 0;
+  while (!rest.empty() && taken < max_records) {
     const std::size_t record_line = line;
-    used = split_csv_record(rest, fields, scratch, unterminated, &stray);
+    std::size_t stray = kNoStrayQuote;
+    bool unterminated = false;
+    const std::size_t used = split_csv_record(rest, sc.fields, sc.unescaped, unterminated, &stray);
     const std::string_view raw = rest.substr(0, used);
     line += count_lines(raw);
     rest.remove_prefix(used);
-    if (fields.size() == 1 && fields[0].find_first_not_of(" \t") == std::string_view::npos)
+    if (sc.fields.size() == 1 && sc.fields[0].find_first_not_of(" \t") == std::string_view::npos)
       continue;  // blank
     last_line = record_line;
-    ObligorRecord& rec = book.obligors.emplace_back();
+    ++taken;
+    ObligorRecord& rec = out.emplace_back();
     rec.line = record_line;
     if (raw.size() > kMaxCsvRecordBytes) {  // the limit of every command that reads a book
       rec.read_error = record_too_long_problem();
       continue;
     }
-    parse_obligor_fields(fields, cols, rec);
+    parse_obligor_fields(sc.fields, cols, rec);
     if (unterminated) {
       rec.read_error = "a quoted field is never closed";
     } else if (stray != kNoStrayQuote) {
-      rec.read_error = stray_quote_problem(cols.name_of(stray), fields[stray]);
+      rec.read_error = stray_quote_problem(cols.name_of(stray), sc.fields[stray]);
     }
   }
+  return last_line;
+}
+
+}  // namespace detail
+
+Book parse_csv_book(const std::string& text, const std::string& origin, BookUse use) {
+  Book book;
+  book.origin = origin;
+  std::string_view rest(text);
+  std::size_t line = 1;
+  const CsvColumns cols = detail::parse_csv_header(rest, line, origin, use, book.notes);
+  detail::CsvParseScratch scratch;
+  const std::size_t last_line =
+      detail::parse_csv_records(rest, line, cols, static_cast<std::size_t>(-1), book.obligors, scratch);
   if (last_line != 0 && text.back() != '\n' && text.back() != '\r') {
     book.notes.push_back(located(origin, last_line, no_final_line_break_note()));
   }

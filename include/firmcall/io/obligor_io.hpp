@@ -12,9 +12,11 @@
 #pragma once
 
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "firmcall/book/obligor.hpp"
+#include "firmcall/io/csv.hpp"
 
 namespace firmcall {
 
@@ -47,5 +49,26 @@ Book load_book(const std::string& path, BookUse use = BookUse::scoring);
 
 /// Marks every obligor whose id repeats an earlier one (read_error names the first line).
 void mark_duplicate_ids(std::vector<ObligorRecord>& obligors);
+
+namespace detail {
+
+/// Buffers of parse_csv_records, reused from call to call.
+struct CsvParseScratch {
+  std::vector<std::string_view> fields;
+  std::string unescaped;
+};
+
+/// Reads the header record at the start of `rest` (a byte-order mark and blank lines before it
+/// skipped; `line` is the line of rest[0] and moves past the header); notes unused columns.
+CsvColumns parse_csv_header(std::string_view& rest, std::size_t& line, const std::string& origin, BookUse use,
+                            std::vector<std::string>& notes);
+
+/// Appends the next records of `rest` (whole records only) to `out`, at most `max_records` that
+/// are not blank, as parse_csv_book reads them (ids not checked for duplicates); moves `rest` and
+/// `line` past them. Returns the line of the last record taken (0 when none).
+std::size_t parse_csv_records(std::string_view& rest, std::size_t& line, const CsvColumns& cols,
+                              std::size_t max_records, std::vector<ObligorRecord>& out, CsvParseScratch& sc);
+
+}  // namespace detail
 
 }  // namespace firmcall
