@@ -2,12 +2,14 @@
 #include "common_options.hpp"
 
 #include <algorithm>
+#include <cctype>
 #include <cerrno>
 #include <charconv>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
 #include <iostream>
+#include <optional>
 #include <thread>
 
 #include "firmcall/book/errors.hpp"
@@ -62,6 +64,32 @@ CLI::Option* list_option(CLI::Option* opt) {
   return opt->delimiter(',')->allow_extra_args(false);
 }
 
+namespace {
+
+// The output format an -o file name implies: .csv, .json, .txt (the table); nullopt without an
+// extension (standard output "-", /dev/stdout, a FIFO named without one) or, when -f was given,
+// with another extension; an error for another extension without -f.
+std::optional<OutputFormat> format_of_output_name(const std::string& path, bool format_given) {
+  const std::size_t slash = path.find_last_of('/');
+  const std::string base = slash == std::string::npos ? path : path.substr(slash + 1);
+  const std::size_t dot = base.find_last_of('.');
+  if (dot == std::string::npos || dot == 0) return std::nullopt;
+  std::string ext = base.substr(dot + 1);
+  std::transform(ext.begin(), ext.end(), ext.begin(), [](unsigned char c) { return std::tolower(c); });
+  if (ext == "csv") return OutputFormat::csv;
+  if (ext == "json") return OutputFormat::json;
+  if (ext == "txt") return OutputFormat::table;
+  if (format_given) return std::nullopt;  // -f says what to write whatever the name
+  throw CLI::ValidationError("-o", "'" + path + "': unknown extension '." + ext +
+                                       "'; name the file .csv, .json or .txt (the table), or give -f");
+}
+
+std::string_view format_word(OutputFormat f) {
+  return f == OutputFormat::csv ? "csv" : f == OutputFormat::json ? "json" : "table";
+}
+
+}  // namespace
+
 void add_output_options(CLI::App* cmd, OutputOptions& o) {
   cmd->add_option_function<std::string>(
          "-f,--format",
@@ -69,10 +97,26 @@ void add_output_options(CLI::App* cmd, OutputOptions& o) {
            o.format = word == "csv"    ? OutputFormat::csv
                       : word == "json" ? OutputFormat::json
                                        : OutputFormat::table;
+           o.format_given = true;
          },
-         "Output format: table (for people), csv or json")
+         "Output format: table (for people), csv or json (default: from the -o file's extension .csv, "
+         ".json or .txt, else table)")
       ->check(CLI::IsMember({"table", "csv", "json"}));
-  cmd->add_option("-o,--output", o.output, "Write here instead of standard output (all or nothing)");
+  cmd->add_option("-o,--output", o.output,
+                  "Write here instead of standard output (all or nothing; - is standard output)");
+  // After the whole command line is read, so that -f and -o may come in either order.
+  cmd->parse_complete_callback([&o] {
+    if (o.output.empty() || o.output == "-") return;
+    const std::optional<OutputFormat> implied = format_of_output_name(o.output, o.format_given);
+    if (!implied) return;
+    if (!o.format_given) {
+      o.format = *implied;
+    } else if (*implied != o.format) {
+      throw CLI::ValidationError("-o", "'" + o.output + "' names a " + std::string(format_word(*implied)) +
+                                           " file but -f is " + std::string(format_word(o.format)) +
+                                           "; give one of them, or make them agree");
+    }
+  });
   cmd->add_flag_callback(
       "--csv-text-guard", [] { set_csv_text_guard(true); },
       "CSV: write a single quote before each text cell that a spreadsheet would run as a formula (begins "

@@ -45,6 +45,7 @@ inline constexpr double kMaxHorizonYears = 100.0;
 struct OutputOptions {
   OutputFormat format = OutputFormat::table;  ///< -f, parsed from its word (table, csv or json)
   std::string output;                         ///< -o; empty: standard output
+  bool format_given = false;                  ///< -f was given (else the format follows -o's extension)
   /// True when the closing line goes to standard error: the output is for a program or a file.
   bool wants_closing_line() const { return format != OutputFormat::table || !output.empty(); }
 };

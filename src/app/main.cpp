@@ -78,6 +78,7 @@ int main(int argc, char** argv) {
   app.footer(std::string("\n") + cli::kCaution);
   app.set_version_flag("--version", std::string("firmcall ") + FIRMCALL_VERSION);
   app.require_subcommand(1);
+  app.fallthrough();  // --config and -q are accepted after the command's name too
   cli::GlobalOptions global;
   app.add_option("--config", global.config_path, "Settings file (default: built-in, as config/firmcall.yaml)")
       ->check(CLI::ExistingFile);

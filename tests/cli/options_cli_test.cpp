@@ -3,6 +3,8 @@
 // positional argument after them is never taken into the list.
 #include <doctest/doctest.h>
 
+#include <filesystem>
+#include <fstream>
 #include <string>
 
 #include "test_util.hpp"
@@ -79,4 +81,47 @@ TEST_CASE("a list option does not take the positional argument after it") {
   const auto rep = run_firmcall("stress " + kBook + " --equity-shocks 0 --equity-shocks -0.1 -f csv");
   CHECK(rep.exit_code == 0);
   CHECK(rep.out.find("equity -10% vol x1") != std::string::npos);
+}
+
+TEST_CASE("-o takes the format from the file's extension; -f and -o must agree; options after the command") {
+  using firmcall::testing::TempDir;
+  TempDir t;
+  const auto first_byte = [](const std::string& path) {
+    std::ifstream in(path);
+    return static_cast<char>(in.get());
+  };
+  // .json writes JSON (an object), .csv writes CSV (the header's first column), .txt the table.
+  REQUIRE(run_firmcall("score " + kBook + " -q -o " + t.file("a.json")).exit_code == 0);
+  CHECK(first_byte(t.file("a.json")) == '{');
+  REQUIRE(run_firmcall("score " + kBook + " -q -o " + t.file("a.CSV")).exit_code == 0);
+  std::ifstream csv(t.file("a.CSV"));
+  std::string header;
+  std::getline(csv, header);
+  CHECK(header.rfind("id,name,status,", 0) == 0);
+  REQUIRE(run_firmcall("score " + kBook + " -q -o " + t.file("a.txt")).exit_code == 0);
+  CHECK(first_byte(t.file("a.txt")) != '{');
+  // An unknown extension without -f, and -f disagreeing with the extension: command-line errors
+  // that write nothing.
+  for (const std::string& args :
+       {"score " + kBook + " -o " + t.file("b.xls"), "score " + kBook + " -f csv -o " + t.file("b.json"),
+        "stress " + kBook + " --equity-shocks -0.1 -f json -o " + t.file("b.csv")}) {
+    CAPTURE(args);
+    const auto r = run_firmcall(args);
+    CHECK(r.exit_code == 2);
+    CHECK(r.err.find("-o") != std::string::npos);
+  }
+  CHECK_FALSE(std::filesystem::exists(t.file("b.xls")));
+  CHECK_FALSE(std::filesystem::exists(t.file("b.json")));
+  CHECK_FALSE(std::filesystem::exists(t.file("b.csv")));
+  // With -f, any name goes; "-" is standard output.
+  CHECK(run_firmcall("score " + kBook + " -q -f csv -o " + t.file("c.out")).exit_code == 0);
+  const auto r = run_firmcall("score " + kBook + " -f json -o - -q");
+  CHECK(r.exit_code == 0);
+  CHECK(r.out.rfind("{", 0) == 0);
+  // Global options after the command's name: -q silences the notes, --config is read.
+  const auto quiet_after = run_firmcall("score " + kBook + " -f csv -q");
+  CHECK(quiet_after.exit_code == 0);
+  CHECK(quiet_after.err.empty());
+  CHECK(run_firmcall("score " + kBook + " -f csv -q --config config/firmcall.yaml").exit_code == 0);
+  CHECK(run_firmcall("score " + kBook + " --config no_such_settings.yaml").exit_code == 2);
 }
