@@ -17,6 +17,8 @@
 #include "firmcall/book/errors.hpp"
 #include "firmcall/io/output_file.hpp"
 
+#include "build_commit.hpp"  // FIRMCALL_COMMIT, written at build time
+
 #ifndef FIRMCALL_VERSION
 #define FIRMCALL_VERSION "dev"
 #endif
@@ -76,7 +78,8 @@ int main(int argc, char** argv) {
       "Backs out asset value and asset volatility from equity value and volatility, then reports\n"
       "distance to default, default probability, credit spread and debt value per obligor."};
   app.footer(std::string("\n") + cli::kCaution);
-  app.set_version_flag("--version", std::string("firmcall ") + FIRMCALL_VERSION);
+  app.set_version_flag("--version",
+                       std::string("firmcall ") + FIRMCALL_VERSION + " (commit " + FIRMCALL_COMMIT + ")");
   app.require_subcommand(1);
   app.fallthrough();  // --config and -q are accepted after the command's name too
   cli::GlobalOptions global;

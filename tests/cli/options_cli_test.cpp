@@ -125,3 +125,13 @@ TEST_CASE("-o takes the format from the file's extension; -f and -o must agree; 
   CHECK(run_firmcall("score " + kBook + " -f csv -q --config config/firmcall.yaml").exit_code == 0);
   CHECK(run_firmcall("score " + kBook + " --config no_such_settings.yaml").exit_code == 2);
 }
+
+TEST_CASE("--version names the version and the commit built from") {
+  const auto r = run_firmcall("--version");
+  CHECK(r.exit_code == 0);
+  CHECK(r.out.rfind("firmcall 0.", 0) == 0);
+  CHECK(r.out.find(" (commit ") != std::string::npos);
+  // A build from a git checkout names its commit (a source archive says "unknown").
+  if (std::filesystem::exists(std::filesystem::path(FIRMCALL_SOURCE_DIR) / ".git"))
+    CHECK(r.out.find("(commit unknown)") == std::string::npos);
+}
