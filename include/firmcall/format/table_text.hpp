@@ -21,6 +21,9 @@ bool needs_terminal_escape(std::string_view s) noexcept;
 /// `s` (as terminal_text shows it) cut to `width` characters, the last one '~' when cut.
 std::string fit_text(std::string_view s, std::size_t width);
 
+/// Columns `s` takes on a terminal (characters, wide East Asian forms as 2), not bytes.
+std::size_t display_width(std::string_view s) noexcept;
+
 /// `decimals` fixed decimals while readable (10^(1-decimals) <= |v| < 1e7), else scientific with two
 /// decimals; "0" for zero; with `sign` a leading '+' on positive values; "-" when not finite.
 std::string table_number(double v, int decimals, bool sign = false);

@@ -64,3 +64,28 @@ TEST_CASE("xml_escape keeps the page UTF-8 and neutralises controls and bidirect
   CHECK(bad == "X\xEF\xBF\xBD\xEF\xBF\xBD\xEF\xBF\xBD\xEF\xBF\xBD\xEF\xBF\xBD\xEF\xBF\xBD\xEF\xBF\xBDY");
   CHECK(xml_escape("tab\there") == "tab\there");
 }
+
+TEST_CASE("table cells count characters, not bytes: accents, wide forms and combining marks") {
+  using firmcall::display_width;
+  using firmcall::left_cell;
+  using firmcall::right_cell;
+  // Widths by Unicode's East_Asian_Width property (UAX #11, from memory): Latin letters with
+  // accents are narrow (1), CJK ideographs wide (2), a combining acute accent takes no column.
+  CHECK(display_width("Zurich") == 6);
+  CHECK(display_width("Z\xC3\xBCrich") == 6);             // Zürich, ü as one precomposed character
+  CHECK(display_width("Zu\xCC\x88rich") == 6);            // u + combining diaeresis
+  CHECK(display_width("\xE6\x97\xA5\xE6\x9C\xAC") == 4);  // two CJK ideographs
+  // Padding brings every cell to the same width on screen, whatever its bytes.
+  CHECK(display_width(left_cell("\xC3\x89mile Fr\xC3\xA8res", 16)) == 16);
+  CHECK(display_width(right_cell("\xC3\x89mile", 9)) == 9);
+  CHECK(left_cell("\xC3\x89mile", 8) == "\xC3\x89mile   ");
+  // Cutting keeps whole characters: the cut text is valid UTF-8 and exactly `width` columns.
+  const std::string cut = fit_text("\xC3\x89tablissements Lef\xC3\xA8vre", 14);
+  CHECK(cut == "\xC3\x89tablissement~");
+  CHECK(firmcall::valid_utf8(cut));
+  CHECK(display_width(cut) == 14);
+  const std::string wide = fit_text("\xE6\x97\xA5\xE6\x9C\xAC\xE6\x97\xA5\xE6\x9C\xAC", 6);
+  CHECK(firmcall::valid_utf8(wide));
+  CHECK(display_width(wide) <= 6);
+  CHECK(wide == "\xE6\x97\xA5\xE6\x9C\xAC~");  // 2 + 2 columns, then '~' (a third would not fit)
+}
