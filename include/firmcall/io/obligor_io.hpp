@@ -32,9 +32,6 @@ struct Book {
 
 enum class BookFormat { yaml, csv };
 
-/// YAML books are parsed whole; larger ones are refused (CSV streams in constant memory).
-inline constexpr std::size_t kMaxYamlBookBytes = std::size_t{8} << 20;
-
 /// Format from the file name: .yaml/.yml are YAML, .csv is CSV; anything else is an InputError.
 BookFormat book_format_of(const std::string& path);
 

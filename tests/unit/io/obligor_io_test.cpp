@@ -387,3 +387,30 @@ TEST_CASE("YAML book: a second document is a file error naming its line") {
   CHECK_THROWS_WITH_AS(parse_yaml_book("---\nobligors: []\n---\n", "t.yaml"),
                        doctest::Contains("t.yaml:3: a second YAML document starts here"), InputError);
 }
+
+TEST_CASE("YAML book: aliases are expanded where read, and their expansion is bounded") {
+  // Nine aliases of nested lists, 9^29 items if expanded: each obligor is one alias, not a map.
+  std::string laughs = "description:\n  a0: &a0 [1, 2, 3]\n";
+  for (int i = 1; i < 30; ++i) {
+    laughs += "  a" + std::to_string(i) + ": &a" + std::to_string(i) + " [";
+    for (int k = 0; k < 9; ++k) laughs += (k ? ", *a" : "*a") + std::to_string(i - 1);
+    laughs += "]\n";
+  }
+  laughs += "obligors: *a29\n";
+  const Book book = parse_yaml_book(laughs, "t.yaml");
+  REQUIRE(book.obligors.size() == 9);
+  CHECK(book.obligors[0].read_error == "obligor entry is not a map of field: value");
+  // An alias of a map of 1,000 keys, read 1,000 times: 2 million events, past the bound.
+  std::string wide = "description:\n  m: &m {";
+  for (int k = 0; k < 1000; ++k) wide += (k ? ", k" : "k") + std::to_string(k) + ": 1";
+  wide += "}\nobligors:\n";
+  for (int i = 0; i < 1000; ++i) wide += "  - *m\n";
+  CHECK_THROWS_WITH_AS(parse_yaml_book(wide, "t.yaml"),
+                       doctest::Contains("aliases (*name) expand to more than"), InputError);
+  // Within the bound, an aliased obligor reads as if written out (line of the anchored map).
+  const Book two = parse_yaml_book("obligors:\n  - &o {id: A, market_cap: 5}\n  - *o\n", "t.yaml");
+  REQUIRE(two.obligors.size() == 2);
+  CHECK(two.obligors[1].line == 2);
+  CHECK(two.obligors[1].get(NumField::market_cap) == 5.0);
+  CHECK(two.obligors[1].read_error == "field 'id': duplicate of the obligor at line 2");
+}
