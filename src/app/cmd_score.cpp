@@ -11,6 +11,7 @@
 #include "firmcall/book/errors.hpp"
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/engine/term_book.hpp"
+#include "firmcall/io/book_stream.hpp"
 #include "firmcall/io/calibration_io.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/output_file.hpp"
@@ -85,12 +86,12 @@ ExitCode run_term_structure(const ScoreCli& opts, const ScoreSettings& settings,
   ScoreSummary summary;
   std::size_t rows = 0;
   {
-    const Book book = load_book(opts.book);
+    const std::unique_ptr<BookStream> book = BookStream::open(opts.book);
     OutputFile out(opts.out.output);
     const TextSink sink = [&out](std::string_view s) { out.write(s); };
-    summary = score_term_structure(book, settings, run, sink);
+    summary = score_term_structure(*book, settings, run, sink);
     out.commit();
-    rows = book.obligors.size() * run.models.size() * std::max<std::size_t>(run.horizons.size(), 1);
+    rows = summary.total * run.models.size() * std::max<std::size_t>(run.horizons.size(), 1);
   }
   if (!quiet) {
     print_score_notes(summary, opts.book, opts.out,

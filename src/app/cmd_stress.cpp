@@ -3,6 +3,7 @@
 #include <cstdio>
 #include <iostream>
 #include <memory>
+#include <optional>
 
 #include "commands.hpp"
 #include "firmcall/book/errors.hpp"
@@ -153,13 +154,14 @@ void check_term_stress(const StressCli& o) {
   }
 }
 
-// The scenarios of the file and of the quick grid, in that order; `origin` says where they come from.
-std::vector<Scenario> stress_scenarios(const StressCli& o, const Book& book, std::string& origin) {
+// The scenarios of the file and of the quick grid, in that order; `origin` says where they come
+// from. The file's filters are checked against the book by check_scenario_filters.
+std::vector<Scenario> stress_scenarios(const StressCli& o, std::optional<ScenarioSet>& set,
+                                       std::string& origin) {
   std::vector<Scenario> scenarios;
   if (!o.scenarios.empty()) {
-    ScenarioSet set = load_scenarios(o.scenarios);
-    check_filters(set, book);
-    scenarios = std::move(set.scenarios);
+    set = load_scenarios(o.scenarios);
+    scenarios = set->scenarios;
     origin = o.scenarios;
   }
   if (o.grid()) {
@@ -169,6 +171,27 @@ std::vector<Scenario> stress_scenarios(const StressCli& o, const Book& book, std
     origin += origin.empty() ? "quick grid" : " and a quick grid";
   }
   return scenarios;
+}
+
+// True when a shock of the file is limited to obligors named by id.
+bool filters_by_id(const std::optional<ScenarioSet>& set) {
+  if (!set) return false;
+  for (const Scenario& sc : set->scenarios) {
+    for (const ScenarioShock& s : sc.shocks) {
+      if (s.filter.keys[static_cast<std::size_t>(FilterKey::ids)].used()) return true;
+    }
+  }
+  return false;
+}
+
+// Passes over the book file; the first one is the stream opened here, so that the book's own
+// errors (its header, or a YAML book's syntax) come before those of the other files.
+BookPasses open_book_passes(const std::string& path) {
+  auto first = std::make_shared<std::unique_ptr<BookStream>>(BookStream::open(path));
+  return [path, first]() -> std::unique_ptr<BookStream> {
+    if (*first) return std::move(*first);
+    return BookStream::open(path);
+  };
 }
 
 // What a stress run leaves for standard error.
@@ -192,7 +215,9 @@ struct StressInputs {
   StressBookOptions run;
   TermBookOptions term;
   bool term_run = false;
-  Book book;
+  Book book;  // term-structure runs
+  BookPasses passes;
+  StressBookScan scan;  // scenario runs: the first pass over the book
   std::vector<Scenario> scenarios;
   std::string origin;
   CalibrationRecord calibration;
@@ -229,14 +254,15 @@ StressOutcome run_stress_kind(const StressCli& o, const StressInputs& in, const 
     ReverseStressOptions options;
     options.hold = in.stress.hold;
     const ReverseStressSummary sum =
-        run_reverse_stress(in.book, *o.reverse_pd, in.settings, in.run, sink, options);
+        run_reverse_stress(in.passes, *o.reverse_pd, in.settings, in.run, sink, options);
     return outcome_of(sum, "reverse-stressed " + std::to_string(sum.base_ok) + " of " +
                                std::to_string(sum.obligors) + " obligors (hold " +
                                std::string(to_string(options.hold)) + ")");
   }
   StressBookOptions run = in.run;
   if (!o.pd_calibration.empty()) run.pd_calibration = &in.calibration.calibration;
-  const StressSummary sum = run_stress(in.book, in.scenarios, in.origin, in.settings, in.stress, run, sink);
+  const StressSummary sum =
+      run_stress(in.passes, in.scan, in.scenarios, in.origin, in.settings, in.stress, run, sink);
   if (summary_file) summary_file->write(scenario_summary_csv(sum, in.scenarios));
   std::string closing = "stressed " + std::to_string(sum.obligors) + " obligors under " +
                         std::to_string(sum.scenarios.size()) + " scenarios (hold " +
@@ -268,8 +294,19 @@ StressInputs stress_inputs(const StressCli& o, const GlobalOptions& global) {
   in.term.format = in.run.format;
   in.term.threads = in.run.threads;
   // Everything that can be wrong with the files is found before any output is written.
-  in.book = load_book(o.book);
-  in.scenarios = stress_scenarios(o, in.book, in.origin);
+  std::optional<ScenarioSet> set;
+  if (in.term_run) {
+    in.book = load_book(o.book);
+    in.scenarios = stress_scenarios(o, set, in.origin);
+    if (set) check_filters(*set, in.book);
+    return in;
+  }
+  in.passes = open_book_passes(o.book);
+  in.scenarios = stress_scenarios(o, set, in.origin);
+  if (o.reverse_pd) return in;  // read in one pass
+  in.scan = scan_stress_book(in.passes, in.settings, in.run, filters_by_id(set));
+  if (set) check_filters(*set, in.scan.book.filter_book);
+  in.scan.book.filter_book = Book{};
   return in;
 }
 

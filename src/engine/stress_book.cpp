@@ -2,11 +2,13 @@
 #include "firmcall/engine/stress_book.hpp"
 
 #include <algorithm>
+#include <array>
 #include <charconv>
 #include <cmath>
 #include <cstdio>
 #include <functional>
 #include <thread>
+#include <unordered_set>
 
 #include "engine/chunked_rows.hpp"
 #include "engine/stress_output.hpp"
@@ -69,49 +71,66 @@ bool all_finite(const MertonMeasures& m) {
   return std::all_of(std::begin(all), std::end(all), [](double x) { return std::isfinite(x); });
 }
 
-std::string problem_text(const Book& book, const ObligorRecord& rec, const std::string& message) {
-  return obligor_problem(book.origin, rec, message);
-}
-
-// Scores every obligor as it stands (in parallel) and fills the base counts and problems.
-std::vector<ScoredObligor> score_base(const Book& book, const ScoreSettings& settings, unsigned threads,
-                                      std::size_t max_listed, std::size_t& ok, std::size_t& invalid,
-                                      std::size_t& not_converged, std::vector<std::string>& problems,
-                                      std::size_t& not_listed) {
-  const std::size_t n = book.obligors.size();
-  std::vector<ScoredObligor> base(n);
-  parallel_slices(n, threads, [&](unsigned, std::size_t b, std::size_t e) {
-    for (std::size_t i = b; i < e; ++i) score_obligor(book.obligors[i], book.defaults, settings, base[i]);
+// Scores a piece of a book as it stands, in parallel, into base[0, piece.size()).
+void score_piece(const std::vector<ObligorRecord>& piece, const BookDefaults& defaults,
+                 const ScoreSettings& settings, unsigned threads, std::vector<ScoredObligor>& base) {
+  if (base.size() < piece.size()) base.resize(piece.size());
+  parallel_slices(piece.size(), threads, [&](unsigned, std::size_t b, std::size_t e) {
+    for (std::size_t i = b; i < e; ++i) score_obligor(piece[i], defaults, settings, base[i]);
   });
-  for (std::size_t i = 0; i < n; ++i) {
-    switch (base[i].status) {
-      case RowStatus::ok:
-        ++ok;
-        continue;
-      case RowStatus::invalid_input:
-        ++invalid;
-        break;
-      case RowStatus::not_converged:
-        ++not_converged;
-        break;
-    }
-    if (problems.size() < max_listed) {
-      problems.push_back(problem_text(book, book.obligors[i], base[i].message));
-    } else {
-      ++not_listed;
-    }
-  }
-  return base;
 }
 
-// score_base into a run summary: its obligor count, the book's notes, the base counts and problems.
+// Counts a scored obligor among the base figures and lists its problem, in book order.
 template <class Summary>
-std::vector<ScoredObligor> score_base_into(const Book& book, const ScoreSettings& settings, unsigned threads,
-                                           std::size_t max_listed, Summary& sum) {
-  sum.obligors = book.obligors.size();
-  sum.notes = book.notes;
-  return score_base(book, settings, threads, max_listed, sum.base_ok, sum.base_invalid,
-                    sum.base_not_converged, sum.problems, sum.problems_not_listed);
+void count_base(const std::string& origin, const ObligorRecord& rec, const ScoredObligor& base,
+                std::size_t max_listed, Summary& sum) {
+  switch (base.status) {
+    case RowStatus::ok:
+      ++sum.base_ok;
+      return;
+    case RowStatus::invalid_input:
+      ++sum.base_invalid;
+      break;
+    case RowStatus::not_converged:
+      ++sum.base_not_converged;
+      break;
+  }
+  if (sum.problems.size() < max_listed) {
+    sum.problems.push_back(obligor_problem(origin, rec, base.message));
+  } else {
+    ++sum.problems_not_listed;
+  }
+}
+
+// A book in memory, handed out as copies of its obligors.
+class BookCopyStream final : public BookStream {
+ public:
+  explicit BookCopyStream(const Book& book) : book_(book) {
+    origin_ = book.origin;
+    label_ = book.label;
+    as_of_ = book.as_of;
+    defaults_ = book.defaults;
+    notes_ = book.notes;
+  }
+  bool next(std::vector<ObligorRecord>& out, std::size_t max_obligors) override {
+    out.clear();
+    const std::size_t n = std::min(std::max<std::size_t>(max_obligors, 1), book_.obligors.size() - next_);
+    out.assign(book_.obligors.begin() + static_cast<std::ptrdiff_t>(next_),
+               book_.obligors.begin() + static_cast<std::ptrdiff_t>(next_ + n));
+    next_ += n;
+    return n > 0;
+  }
+
+ private:
+  const Book& book_;
+  std::size_t next_ = 0;
+};
+
+// InputError when a later pass over a book does not find the obligors of the first.
+void check_same_book(const std::string& origin, std::size_t first, std::size_t now) {
+  if (first == now) return;
+  throw InputError(origin + ": the book changed while it was read (" + std::to_string(first) +
+                   " obligors on the first pass, " + std::to_string(now) + " on a later one)");
 }
 
 }  // namespace
@@ -305,40 +324,51 @@ bool init_grid(const std::vector<Scenario>& scenarios, std::size_t n, OutputForm
 // InputError, before any row is written, when the total EAD or loss amount (LGD x EAD) of the
 // scored obligors with ead is too large for a double (above about 1.8e308): the scenario summaries'
 // totals would be infinite and the EAD-weighted PDs 0. Names the total and the largest exposures.
-void check_finite_totals(const Book& book, const std::vector<ScoredObligor>& base) {
-  double ead = 0.0, loss = 0.0;
-  std::vector<std::size_t> with_ead;
-  for (std::size_t i = 0; i < base.size(); ++i) {
-    const ResolvedObligor& r = base[i].resolved;
-    if (base[i].status != RowStatus::ok || !r.has_ead) continue;
-    with_ead.push_back(i);
-    ead += r.ead;
-    loss += r.lgd * r.ead;
-  }
-  if (std::isfinite(ead) && std::isfinite(loss)) return;
-  std::sort(with_ead.begin(), with_ead.end(),
-            [&base](std::size_t a, std::size_t b) { return base[a].resolved.ead > base[b].resolved.ead; });
+void check_finite_totals(const StressBookScan& scan) {
+  if (std::isfinite(scan.ead_total) && std::isfinite(scan.loss_total)) return;
   std::string names;
-  for (std::size_t k = 0; k < with_ead.size() && k < 5; ++k) {
+  for (std::size_t k = 0; k < scan.largest_ead.size(); ++k) {
     char buf[40];
-    std::snprintf(buf, sizeof buf, "%.6g", base[with_ead[k]].resolved.ead);
-    names += (k > 0 ? ", '" : "'") + book.obligors[with_ead[k]].get(TextField::id) + "' (ead " + buf + ")";
+    std::snprintf(buf, sizeof buf, "%.6g", scan.largest_ead[k].first);
+    names += (k > 0 ? ", '" : "'") + scan.largest_ead[k].second + "' (ead " + buf + ")";
   }
-  if (with_ead.size() > 5) names += " and " + std::to_string(with_ead.size() - 5) + " more";
-  throw InputError(book.origin + ": the total " + (std::isfinite(ead) ? "loss amount (LGD x EAD)" : "EAD") +
-                   " of the " + std::to_string(with_ead.size()) +
+  if (scan.with_ead > 5) names += " and " + std::to_string(scan.with_ead - 5) + " more";
+  throw InputError(scan.book.origin + ": the total " +
+                   (std::isfinite(scan.ead_total) ? "loss amount (LGD x EAD)" : "EAD") + " of the " +
+                   std::to_string(scan.with_ead) +
                    " scored obligors with ead is too large for a double (above 1.8e308), so the scenario "
                    "totals could not be computed; largest exposures: " +
                    names + " (check the EAD unit)");
 }
 
-// What the stressed rows of one scenario leave for its summary, by obligor.
+// Adds a scored obligor with ead to the scan's totals and its five largest exposures (the
+// earlier obligor first among equal ones).
+void add_exposure(const ObligorRecord& rec, const ResolvedObligor& r, StressBookScan& scan) {
+  ++scan.with_ead;
+  scan.ead_total += r.ead;
+  scan.loss_total += r.lgd * r.ead;
+  auto& top = scan.largest_ead;
+  if (top.size() == 5 && !(r.ead > top.back().first)) return;
+  auto at = std::upper_bound(top.begin(), top.end(), r.ead,
+                             [](double v, const std::pair<double, std::string>& e) { return v > e.first; });
+  top.insert(at, {r.ead, rec.get(TextField::id)});
+  if (top.size() > 5) top.pop_back();
+}
+
+// What the stressed rows of one piece under one scenario leave for its summary, by obligor.
 struct ScenarioOutcome {
   std::vector<StressStatus> status;
   std::vector<std::uint8_t> shocked;
   std::vector<double> pd_stressed;
   std::vector<double> pd_calibrated_stressed;  // with a calibration: of the stressed DD
   std::vector<double> horizon_stressed;        // with a calibration
+  void resize(std::size_t n, bool calibrated) {
+    status.resize(n);
+    shocked.resize(n);
+    pd_stressed.resize(n);
+    pd_calibrated_stressed.resize(calibrated ? n : 0);
+    horizon_stressed.resize(calibrated ? n : 0);
+  }
 };
 
 // Sums of one PD's scenario figures over the compared obligors, in book order.
@@ -372,66 +402,75 @@ struct PdTally {
   }
 };
 
-// The summary of one scenario, sequentially in book order (the same figures whatever the thread
-// count); lists the failures the scenario caused in sum.problems.
-ScenarioSummary summarise_scenario(const Book& book, const Scenario& sc,
-                                   const std::vector<ScoredObligor>& base, const ScenarioOutcome& o,
-                                   const std::vector<CalibratedPd>& base_calibrated,
-                                   const ScoreSettings& settings, const StressSettings& stress,
-                                   std::size_t max_listed, StressSummary& sum) {
-  const std::size_t n = base.size();
-  ScenarioSummary ss;
-  ss.obligors = n;
-  ss.pd_threshold = stress.pd_threshold;
-  PdTally model;
-  PdTally calibrated;
-  model.threshold = calibrated.threshold = stress.pd_threshold;
-  for (std::size_t i = 0; i < n; ++i) {
-    if (o.status[i] != StressStatus::ok) {
-      ++ss.failed;
-      if (base[i].status == RowStatus::ok) {
-        // A failure caused by the scenario: list it (base failures are listed once above). The
-        // message is rebuilt here, only for the listed few.
-        if (sum.problems.size() < max_listed) {
-          StressedObligor again;
-          stress_obligor(base[i], sc.effect_for(book.obligors[i]), settings, false, again, stress.hold);
-          sum.problems.push_back(
-              problem_text(book, book.obligors[i], "scenario '" + sc.name + "': " + again.message));
-        } else {
-          ++sum.problems_not_listed;
+// The summary of one scenario, built piece by piece in book order (the same figures whatever
+// the thread count and piece size).
+class ScenarioTally {
+ public:
+  ScenarioTally(std::size_t obligors, double threshold) {
+    ss_.obligors = obligors;
+    ss_.pd_threshold = threshold;
+    model_.threshold = calibrated_.threshold = threshold;
+  }
+  // Adds a piece; lists the failures the scenario caused in sum.problems.
+  void add(const std::string& origin, const Scenario& sc, const std::vector<ObligorRecord>& piece,
+           const std::vector<ScoredObligor>& base, const ScenarioOutcome& o,
+           const std::vector<CalibratedPd>& base_calibrated, const ScoreSettings& settings,
+           const StressSettings& stress, std::size_t max_listed, StressSummary& sum) {
+    for (std::size_t i = 0; i < piece.size(); ++i) {
+      if (o.status[i] != StressStatus::ok) {
+        ++ss_.failed;
+        if (base[i].status == RowStatus::ok) {
+          // A failure caused by the scenario: list it (base failures are listed once above). The
+          // message is rebuilt here, only for the listed few.
+          if (sum.problems.size() < max_listed) {
+            StressedObligor again;
+            stress_obligor(base[i], sc.effect_for(piece[i]), settings, false, again, stress.hold);
+            sum.problems.push_back(
+                obligor_problem(origin, piece[i], "scenario '" + sc.name + "': " + again.message));
+          } else {
+            ++sum.problems_not_listed;
+          }
         }
+        continue;
       }
-      continue;
-    }
-    ++ss.compared;
-    if (o.shocked[i]) ++ss.shocked;
-    const double p0 = base[i].measures.pd;
-    const double p1 = o.pd_stressed[i];
-    const ResolvedObligor& r = base[i].resolved;
-    if (r.has_ead) ++ss.with_ead;
-    model.add(p0, p1, r, p0, p1);
-    if (sum.calibrated) {
-      // Expected loss over the horizon as the model's: 1 - (1 - PD1)^T (driving_pd.hpp).
-      const double c0 = base_calibrated[i].pd;
-      const double c1 = o.pd_calibrated_stressed[i];
-      calibrated.add(c0, c1, r, pd_over_horizon(c0, r.inputs.horizon_years),
-                     pd_over_horizon(c1, o.horizon_stressed[i]));
+      ++ss_.compared;
+      if (o.shocked[i]) ++ss_.shocked;
+      const double p0 = base[i].measures.pd;
+      const double p1 = o.pd_stressed[i];
+      const ResolvedObligor& r = base[i].resolved;
+      if (r.has_ead) ++ss_.with_ead;
+      model_.add(p0, p1, r, p0, p1);
+      if (sum.calibrated) {
+        // Expected loss over the horizon as the model's: 1 - (1 - PD1)^T (driving_pd.hpp).
+        const double c0 = base_calibrated[i].pd;
+        const double c1 = o.pd_calibrated_stressed[i];
+        calibrated_.add(c0, c1, r, pd_over_horizon(c0, r.inputs.horizon_years),
+                        pd_over_horizon(c1, o.horizon_stressed[i]));
+      }
     }
   }
-  const ScenarioPdFigures m = model.figures(ss.compared);
-  ss.mean_pd = m.mean_pd;
-  ss.mean_pd_stressed = m.mean_pd_stressed;
-  ss.ead_total = model.sum_w;
-  ss.ead_weighted_pd = m.ead_weighted_pd;
-  ss.ead_weighted_pd_stressed = m.ead_weighted_pd_stressed;
-  ss.above_threshold = m.above_threshold;
-  ss.above_threshold_stressed = m.above_threshold_stressed;
-  ss.newly_above_threshold = m.newly_above_threshold;
-  ss.expected_loss = m.expected_loss;
-  ss.expected_loss_stressed = m.expected_loss_stressed;
-  if (sum.calibrated) ss.calibrated = calibrated.figures(ss.compared);
-  return ss;
-}
+  ScenarioSummary finish(bool calibrated) const {
+    ScenarioSummary ss = ss_;
+    const ScenarioPdFigures m = model_.figures(ss.compared);
+    ss.mean_pd = m.mean_pd;
+    ss.mean_pd_stressed = m.mean_pd_stressed;
+    ss.ead_total = model_.sum_w;
+    ss.ead_weighted_pd = m.ead_weighted_pd;
+    ss.ead_weighted_pd_stressed = m.ead_weighted_pd_stressed;
+    ss.above_threshold = m.above_threshold;
+    ss.above_threshold_stressed = m.above_threshold_stressed;
+    ss.newly_above_threshold = m.newly_above_threshold;
+    ss.expected_loss = m.expected_loss;
+    ss.expected_loss_stressed = m.expected_loss_stressed;
+    if (calibrated) ss.calibrated = calibrated_.figures(ss.compared);
+    return ss;
+  }
+
+ private:
+  ScenarioSummary ss_;
+  PdTally model_;
+  PdTally calibrated_;
+};
 
 // The calibrated one-year PD of a DD, NaN without a calibration or when `ok` is false.
 CalibratedPd calibrated_at(const PdCalibration* cal, bool ok, double dd) noexcept {
@@ -446,97 +485,196 @@ struct StressWorker {
   std::vector<StressedObligor> stressed;
 };
 
+// One piece of the book, scored as it stands, reused from piece to piece.
+struct BasePiece {
+  std::vector<ObligorRecord> obligors;
+  std::vector<ScoredObligor> base;
+  std::vector<CalibratedPd> calibrated;  // with a calibration
+};
+
 }  // namespace
 
-StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenarios,
-                         const std::string& scenario_origin, const ScoreSettings& settings,
-                         const StressSettings& stress, const StressBookOptions& run, const TextSink& sink) {
-  const std::size_t n = book.obligors.size();
+BookPasses book_file_passes(const std::string& path) {
+  return [path] { return BookStream::open(path); };
+}
+
+BookPasses book_passes(const Book& book) {
+  return [&book]() -> std::unique_ptr<BookStream> { return std::make_unique<BookCopyStream>(book); };
+}
+
+BookScan scan_book(const BookPasses& passes, std::size_t piece_obligors, bool keep_ids,
+                   const std::function<void(const std::vector<ObligorRecord>& piece,
+                                            const BookDefaults& defaults, std::size_t first)>& each) {
+  const std::unique_ptr<BookStream> stream = passes();
+  BookScan scan;
+  scan.origin = stream->origin();
+  scan.filter_book.origin = stream->origin();
+  // Every distinct sector, country and currency (and id), each given to the first record of
+  // filter_book that does not have one of that field yet.
+  constexpr TextField kFields[] = {TextField::sector, TextField::country, TextField::currency, TextField::id};
+  std::array<std::unordered_set<std::string>, 4> seen;
+  std::array<std::size_t, 4> used{};
+  std::vector<ObligorRecord> piece;
+  while (stream->next(piece, piece_obligors)) {
+    for (const ObligorRecord& rec : piece) {
+      for (std::size_t f = 0; f < (keep_ids ? 4U : 3U); ++f) {
+        const std::string& v = rec.get(kFields[f]);
+        if (v.empty() || !seen[f].insert(v).second) continue;
+        if (used[f] == scan.filter_book.obligors.size()) scan.filter_book.obligors.emplace_back();
+        scan.filter_book.obligors[used[f]++].get(kFields[f]) = v;
+      }
+    }
+    each(piece, stream->defaults(), scan.obligors);
+    scan.obligors += piece.size();
+  }
+  scan.notes = stream->notes();
+  return scan;
+}
+
+StressBookScan scan_stress_book(const BookPasses& passes, const ScoreSettings& settings,
+                                const StressBookOptions& run, bool keep_ids) {
+  StressBookScan scan;
+  // The stream of the first pass, opened once: its origin names the problems.
+  std::unique_ptr<BookStream> opened = passes();
+  const std::string origin = opened->origin();
+  auto shared = std::make_shared<std::unique_ptr<BookStream>>(std::move(opened));
+  const BookPasses first = [shared]() { return std::move(*shared); };
+  const unsigned threads = std::max(1U, run.threads);
+  std::vector<ScoredObligor> base;
+  scan.book =
+      scan_book(passes, run.piece_obligors, keep_ids,
+                [&](const std::vector<ObligorRecord>& piece, const BookDefaults& defaults, std::size_t) {
+                  score_piece(piece, defaults, settings, threads, base);
+                  for (std::size_t i = 0; i < piece.size(); ++i) {
+                    count_base(origin, piece[i], base[i], run.max_listed_problems, scan);
+                    if (base[i].status == RowStatus::ok && base[i].resolved.has_ead)
+                      add_exposure(piece[i], base[i].resolved, scan);
+                  }
+                });
+  return scan;
+}
+
+StressSummary run_stress(const BookPasses& passes, const StressBookScan& scan,
+                         const std::vector<Scenario>& scenarios, const std::string& scenario_origin,
+                         const ScoreSettings& settings, const StressSettings& stress,
+                         const StressBookOptions& run, const TextSink& sink) {
+  const std::string& origin = scan.book.origin;
+  const std::size_t n = scan.book.obligors;
   const unsigned threads = std::max(1U, run.threads);
   StressSummary sum;
+  sum.obligors = n;
+  sum.notes = scan.book.notes;
+  sum.base_ok = scan.base_ok;
+  sum.base_invalid = scan.base_invalid;
+  sum.base_not_converged = scan.base_not_converged;
+  sum.problems = scan.problems;
+  sum.problems_not_listed = scan.problems_not_listed;
   const PdCalibration* cal = run.pd_calibration;
   sum.calibrated = cal != nullptr;
   sum.driving_pd = cal ? run.driving_pd : DrivingPd::model;
   const bool calibrated_drives = sum.driving_pd == DrivingPd::calibrated;
-  const std::vector<ScoredObligor> base =
-      score_base_into(book, settings, threads, run.max_listed_problems, sum);
-  std::vector<CalibratedPd> base_calibrated;
-  if (cal) {
-    base_calibrated.resize(n);
-    for (std::size_t i = 0; i < n; ++i) {
-      base_calibrated[i] =
-          calibrated_at(cal, base[i].status == RowStatus::ok, base[i].measures.distance_to_default);
-    }
-  }
 
-  check_finite_totals(book, base);
+  check_finite_totals(scan);
   detail::StressRunInfo info{
-      book.origin, scenario_origin,           settings,      stress, run.sensitivities, n, scenarios.size(),
-      cal,         run.pd_calibration_origin, sum.driving_pd};
+      origin, scenario_origin,           settings,      stress, run.sensitivities, n, scenarios.size(),
+      cal,    run.pd_calibration_origin, sum.driving_pd};
   const auto writer = detail::make_stress_writer(run.format, info);
   detail::sink_text(sink, [&](std::string& s) { writer->begin(s); });
 
   int grid_rows = 0;
   int grid_columns = 0;
   const bool keep_grid = init_grid(scenarios, n, run.format, sum.grid, grid_rows, grid_columns);
+  if (keep_grid) {
+    sum.grid.base_pd.assign(n, std::nan(""));
+    sum.grid.ids.reserve(n);
+    sum.grid.names.reserve(n);
+  }
 
   std::vector<StressWorker> workers(threads);
-  ScenarioOutcome outcome{std::vector<StressStatus>(n), std::vector<std::uint8_t>(n), std::vector<double>(n),
-                          std::vector<double>(cal ? n : 0), std::vector<double>(cal ? n : 0)};
+  ScenarioOutcome outcome;
+  BasePiece piece;
   const CalibratedPd no_calibration = calibrated_at(nullptr, false, 0.0);
 
   for (std::size_t si = 0; si < scenarios.size(); ++si) {
     const Scenario& sc = scenarios[si];
     const bool rows = writer->wants_rows(sc);
     detail::sink_text(sink, [&](std::string& s) { writer->scenario_begin(sc, si, s); });
-    detail::write_in_chunks(n, run.chunk_obligors, workers, 64, sink,
-                            [&](StressWorker& wk, std::size_t b, std::size_t e) {
-                              // The slice's stressed obligors are solved together (solve_asset_batch).
-                              wk.effects.resize(e - b);
-                              if (wk.stressed.size() < e - b) wk.stressed.resize(e - b);
-                              for (std::size_t i = b; i < e; ++i)
-                                wk.effects[i - b] = sc.effect_for(book.obligors[i]);
-                              stress_obligors(base.data() + b, wk.effects.data(), e - b, settings,
-                                              run.sensitivities, wk.stressed.data(), stress.hold);
-                              for (std::size_t i = b; i < e; ++i) {
-                                const StressedObligor& st = wk.stressed[i - b];
-                                outcome.status[i] = st.status;
-                                outcome.shocked[i] = st.shocked() ? 1 : 0;
-                                const bool ok = st.status == StressStatus::ok;
-                                outcome.pd_stressed[i] = ok ? st.measures.pd : std::nan("");
-                                detail::RowCalibratedPd pc{no_calibration, no_calibration};
-                                if (cal) {
-                                  pc.base = base_calibrated[i];
-                                  pc.stressed = calibrated_at(cal, ok, st.measures.distance_to_default);
-                                  outcome.pd_calibrated_stressed[i] = pc.stressed.pd;
-                                  outcome.horizon_stressed[i] = st.inputs.horizon_years;
+    ScenarioTally tally(n, stress.pd_threshold);
+    const std::unique_ptr<BookStream> book = passes();
+    std::size_t first = 0;  // book index of the piece's first obligor
+    while (book->next(piece.obligors, run.piece_obligors)) {
+      const std::vector<ObligorRecord>& recs = piece.obligors;
+      const std::size_t m = recs.size();
+      score_piece(recs, book->defaults(), settings, threads, piece.base);
+      const std::vector<ScoredObligor>& base = piece.base;
+      if (cal) {
+        piece.calibrated.resize(m);
+        for (std::size_t i = 0; i < m; ++i)
+          piece.calibrated[i] =
+              calibrated_at(cal, base[i].status == RowStatus::ok, base[i].measures.distance_to_default);
+      }
+      outcome.resize(m, cal != nullptr);
+      detail::write_in_chunks(m, run.chunk_obligors, workers, 64, sink,
+                              [&](StressWorker& wk, std::size_t b, std::size_t e) {
+                                // The slice's stressed obligors are solved together (solve_asset_batch).
+                                wk.effects.resize(e - b);
+                                if (wk.stressed.size() < e - b) wk.stressed.resize(e - b);
+                                for (std::size_t i = b; i < e; ++i)
+                                  wk.effects[i - b] = sc.effect_for(recs[i]);
+                                stress_obligors(base.data() + b, wk.effects.data(), e - b, settings,
+                                                run.sensitivities, wk.stressed.data(), stress.hold);
+                                for (std::size_t i = b; i < e; ++i) {
+                                  const StressedObligor& st = wk.stressed[i - b];
+                                  outcome.status[i] = st.status;
+                                  outcome.shocked[i] = st.shocked() ? 1 : 0;
+                                  const bool ok = st.status == StressStatus::ok;
+                                  outcome.pd_stressed[i] = ok ? st.measures.pd : std::nan("");
+                                  detail::RowCalibratedPd pc{no_calibration, no_calibration};
+                                  if (cal) {
+                                    pc.base = piece.calibrated[i];
+                                    pc.stressed = calibrated_at(cal, ok, st.measures.distance_to_default);
+                                    outcome.pd_calibrated_stressed[i] = pc.stressed.pd;
+                                    outcome.horizon_stressed[i] = st.inputs.horizon_years;
+                                  }
+                                  if (rows) writer->row(sc, recs[i], base[i], st, pc, first + i == 0, wk.out);
                                 }
-                                if (rows) writer->row(sc, book.obligors[i], base[i], st, pc, i == 0, wk.out);
-                              }
-                            });
-    const ScenarioSummary ss = summarise_scenario(book, sc, base, outcome, base_calibrated, settings, stress,
-                                                  run.max_listed_problems, sum);
+                              });
+      tally.add(origin, sc, recs, base, outcome, piece.calibrated, settings, stress, run.max_listed_problems,
+                sum);
+      if (keep_grid && si == 0) {
+        for (std::size_t i = 0; i < m && first + i < n; ++i) {
+          sum.grid.ids.push_back(recs[i].get(TextField::id));
+          sum.grid.names.push_back(recs[i].get(TextField::name));
+          if (base[i].status == RowStatus::ok)
+            sum.grid.base_pd[first + i] = calibrated_drives ? piece.calibrated[i].pd : base[i].measures.pd;
+        }
+      }
+      if (keep_grid && sc.grid_row >= 0) {
+        const std::size_t cells = static_cast<std::size_t>(grid_rows * grid_columns);
+        const std::size_t cell = static_cast<std::size_t>(sc.grid_row * grid_columns + sc.grid_column);
+        const std::vector<double>& pd =
+            calibrated_drives ? outcome.pd_calibrated_stressed : outcome.pd_stressed;
+        for (std::size_t i = 0; i < m && first + i < n; ++i) sum.grid.pd[(first + i) * cells + cell] = pd[i];
+      }
+      first += m;
+    }
+    check_same_book(origin, n, first);
+    const ScenarioSummary ss = tally.finish(sum.calibrated);
     sum.rows += n;
     sum.failed_rows += ss.failed;
-    if (keep_grid && sc.grid_row >= 0) {
-      const std::size_t cells = static_cast<std::size_t>(grid_rows * grid_columns);
-      const std::size_t cell = static_cast<std::size_t>(sc.grid_row * grid_columns + sc.grid_column);
-      const std::vector<double>& pd =
-          calibrated_drives ? outcome.pd_calibrated_stressed : outcome.pd_stressed;
-      for (std::size_t i = 0; i < n; ++i) sum.grid.pd[i * cells + cell] = pd[i];
-    }
     detail::sink_text(sink, [&](std::string& s) { writer->scenario_end(sc, ss, s); });
     sum.scenarios.push_back(ss);
   }
-  if (keep_grid) {
-    sum.grid.base_pd.assign(n, std::nan(""));
-    for (std::size_t i = 0; i < n; ++i) {
-      if (base[i].status == RowStatus::ok)
-        sum.grid.base_pd[i] = calibrated_drives ? base_calibrated[i].pd : base[i].measures.pd;
-    }
-  }
-  detail::sink_text(sink, [&](std::string& s) { writer->end(sum, scenarios, book, s); });
+  detail::sink_text(sink, [&](std::string& s) { writer->end(sum, scenarios, s); });
   return sum;
+}
+
+StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenarios,
+                         const std::string& scenario_origin, const ScoreSettings& settings,
+                         const StressSettings& stress, const StressBookOptions& run, const TextSink& sink) {
+  const BookPasses passes = book_passes(book);
+  const StressBookScan scan = scan_stress_book(passes, settings, run);
+  return run_stress(passes, scan, scenarios, scenario_origin, settings, stress, run, sink);
 }
 
 void reverse_stress_obligor(const ScoredObligor& base, double target_pd, const ReverseStressOptions& options,
@@ -557,16 +695,15 @@ void reverse_stress_obligor(const ScoredObligor& base, double target_pd, const R
   }
 }
 
-ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, const ScoreSettings& settings,
-                                        const StressBookOptions& run, const TextSink& sink,
-                                        const ReverseStressOptions& options) {
-  const std::size_t n = book.obligors.size();
+ReverseStressSummary run_reverse_stress(const BookPasses& passes, double target_pd,
+                                        const ScoreSettings& settings, const StressBookOptions& run,
+                                        const TextSink& sink, const ReverseStressOptions& options) {
   const unsigned threads = std::max(1U, run.threads);
   ReverseStressSummary sum;
-  const std::vector<ScoredObligor> base =
-      score_base_into(book, settings, threads, run.max_listed_problems, sum);
-  detail::StressRunInfo info{book.origin, "",      settings, StressSettings{}, false, n,
-                             0,           nullptr, "",       DrivingPd::model};
+  const std::unique_ptr<BookStream> book = passes();
+  const std::string& origin = book->origin();
+  detail::StressRunInfo info{origin, "",      settings, StressSettings{}, false, 0,
+                             0,      nullptr, "",       DrivingPd::model};
   const auto writer = detail::make_reverse_stress_writer(run.format, info, target_pd, options);
   detail::sink_text(sink, [&](std::string& s) { writer->begin(s); });
   struct Worker {
@@ -574,31 +711,57 @@ ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, cons
     ReverseStressRow row;
   };
   std::vector<Worker> workers(threads);
-  std::vector<std::uint8_t> failed(n);
-  detail::write_in_chunks(n, run.chunk_obligors, workers, 64, sink,
-                          [&](Worker& wk, std::size_t b, std::size_t e) {
-                            for (std::size_t i = b; i < e; ++i) {
-                              reverse_stress_obligor(base[i], target_pd, options, wk.row);
-                              failed[i] = base[i].status == RowStatus::ok && !wk.row.message.empty() ? 1 : 0;
-                              writer->row(book.obligors[i], base[i], wk.row, i == 0, wk.out);
-                            }
-                          });
-  for (std::size_t i = 0; i < n; ++i) {
-    if (!failed[i]) continue;
-    ++sum.search_failed;
+  std::vector<ObligorRecord> piece;
+  std::vector<ScoredObligor> base;
+  std::vector<std::uint8_t> failed;
+  // The searches that failed, listed after every problem of the base.
+  std::vector<std::string> search_problems;
+  std::size_t first = 0;
+  while (book->next(piece, run.piece_obligors)) {
+    const std::size_t m = piece.size();
+    score_piece(piece, book->defaults(), settings, threads, base);
+    failed.assign(m, 0);
+    detail::write_in_chunks(
+        m, run.chunk_obligors, workers, 64, sink, [&](Worker& wk, std::size_t b, std::size_t e) {
+          for (std::size_t i = b; i < e; ++i) {
+            reverse_stress_obligor(base[i], target_pd, options, wk.row);
+            failed[i] = base[i].status == RowStatus::ok && !wk.row.message.empty() ? 1 : 0;
+            writer->row(piece[i], base[i], wk.row, first + i == 0, wk.out);
+          }
+        });
+    for (std::size_t i = 0; i < m; ++i) {
+      count_base(origin, piece[i], base[i], run.max_listed_problems, sum);
+      if (!failed[i]) continue;
+      ++sum.search_failed;
+      if (search_problems.size() < run.max_listed_problems)
+        search_problems.push_back(
+            obligor_problem(origin, piece[i], "reverse stress: a solve on the path did not converge"));
+    }
+    first += m;
+  }
+  sum.obligors = first;
+  sum.notes = book->notes();
+  for (std::string& p : search_problems) {
     if (sum.problems.size() < run.max_listed_problems) {
-      sum.problems.push_back(
-          problem_text(book, book.obligors[i], "reverse stress: a solve on the path did not converge"));
+      sum.problems.push_back(std::move(p));
     } else {
       ++sum.problems_not_listed;
     }
   }
+  sum.problems_not_listed += sum.search_failed - search_problems.size();
   detail::sink_text(sink, [&](std::string& s) { writer->end(sum, s); });
   return sum;
 }
 
+ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, const ScoreSettings& settings,
+                                        const StressBookOptions& run, const TextSink& sink,
+                                        const ReverseStressOptions& options) {
+  return run_reverse_stress(book_passes(book), target_pd, settings, run, sink, options);
+}
+
 OptionCheck StressBookOptions::validate() const {
   if (threads < 1) return OptionProblem{"threads", std::to_string(threads), "must be at least 1"};
+  if (piece_obligors < 1) return OptionProblem{"piece_obligors", "0", "must be at least 1"};
   if (driving_pd == DrivingPd::calibrated && !pd_calibration) {
     return OptionProblem{"driving_pd", "calibrated", "needs a PD calibration"};
   }

@@ -193,7 +193,7 @@ class StressCsvWriter final : public detail::StressWriter {
     out.push_back('\n');
   }
   void scenario_end(const Scenario&, const ScenarioSummary&, std::string&) const override {}
-  void end(const StressSummary&, const std::vector<Scenario>&, const Book&, std::string&) const override {}
+  void end(const StressSummary&, const std::vector<Scenario>&, std::string&) const override {}
 
  private:
   detail::StressRunInfo info_;
@@ -274,8 +274,7 @@ class StressJsonWriter final : public detail::StressWriter {
     append_summary_json(out, sum, info_.pd_calibration != nullptr);
     out += "}";
   }
-  void end(const StressSummary& sum, const std::vector<Scenario>&, const Book&,
-           std::string& out) const override {
+  void end(const StressSummary& sum, const std::vector<Scenario>&, std::string& out) const override {
     open_json_summary(out, sum.obligors, sum.base_ok, sum.base_invalid, sum.base_not_converged)
         .count("rows", sum.rows)
         .count("failed_rows", sum.failed_rows);
@@ -395,9 +394,9 @@ class StressTableWriter final : public detail::StressWriter {
       out += buf;
     }
   }
-  void end(const StressSummary& sum, const std::vector<Scenario>& scenarios, const Book& book,
+  void end(const StressSummary& sum, const std::vector<Scenario>& scenarios,
            std::string& out) const override {
-    if (!sum.grid.empty()) grid(sum, book, out);
+    if (!sum.grid.empty()) grid(sum, out);
     overview(sum, scenarios, out);
     out += "rows " + std::to_string(sum.rows) + " (" + std::to_string(sum.obligors) + " obligors x " +
            std::to_string(sum.scenarios.size()) + " scenarios)";
@@ -408,7 +407,7 @@ class StressTableWriter final : public detail::StressWriter {
   }
 
  private:
-  void grid(const StressSummary& sum, const Book& book, std::string& out) const {
+  void grid(const StressSummary& sum, std::string& out) const {
     const PdGrid& g = sum.grid;
     const std::size_t rows = g.equity_changes.size();
     const std::size_t cols = g.vol_multipliers.size();
@@ -417,12 +416,11 @@ class StressTableWriter final : public detail::StressWriter {
            (calibrated ? "calibrated one-year PD % of the stressed DD" : "PD %") +
            " after an equity change (rows) and an equity-volatility multiplier (columns)\n";
     char buf[128];
-    for (std::size_t i = 0; i < book.obligors.size(); ++i) {
-      const ObligorRecord& rec = book.obligors[i];
+    for (std::size_t i = 0; i < g.ids.size(); ++i) {
       out += '\n';
-      out += fit(rec.get(TextField::id), 12);
+      out += fit(g.ids[i], 12);
       out += "  ";
-      out += fit(rec.get(TextField::name), 30);
+      out += fit(g.names[i], 30);
       if (!std::isfinite(g.base_pd[i])) {
         out += "  (not scored; see below)\n";
         continue;

@@ -43,7 +43,7 @@ class StressWriter {
                    const StressedObligor& s, const RowCalibratedPd& cal, bool first,
                    std::string& out) const = 0;
   virtual void scenario_end(const Scenario& sc, const ScenarioSummary& sum, std::string& out) const = 0;
-  virtual void end(const StressSummary& sum, const std::vector<Scenario>& scenarios, const Book& book,
+  virtual void end(const StressSummary& sum, const std::vector<Scenario>& scenarios,
                    std::string& out) const = 0;
 };
 

@@ -9,6 +9,7 @@
 #include "engine/chunked_rows.hpp"
 #include "engine/term_output.hpp"
 #include "firmcall/book/errors.hpp"
+#include "firmcall/engine/stress_book.hpp"
 
 namespace firmcall {
 
@@ -202,15 +203,12 @@ const std::vector<std::string_view>& term_columns() {
   return cols;
 }
 
-ScoreSummary score_term_structure(const Book& book, const ScoreSettings& settings, const TermBookOptions& run,
+ScoreSummary score_term_structure(BookStream& book, const ScoreSettings& settings, const TermBookOptions& run,
                                   const TextSink& sink) {
-  const std::size_t n = book.obligors.size();
   const unsigned threads = std::max(1U, run.threads);
-  detail::TermRunInfo info{book.origin, settings, run, n};
+  detail::TermRunInfo info{book.origin(), settings, run, 0};
   const auto writer = detail::make_term_writer(run.format, info);
   ScoreSummary sum;
-  sum.total = n;
-  sum.notes = book.notes;
   detail::sink_text(sink, [&](std::string& s) { writer->begin(s); });
   struct Worker {
     std::string out;
@@ -221,34 +219,49 @@ ScoreSummary score_term_structure(const Book& book, const ScoreSettings& setting
   };
   std::vector<Worker> workers(threads);
   constexpr std::size_t kChunk = 4096;
-  detail::write_in_chunks(n, kChunk, workers, 16, sink, [&](Worker& wk, std::size_t b, std::size_t e) {
-    for (std::size_t i = b; i < e; ++i) {
-      const ObligorRecord& rec = book.obligors[i];
-      score_term_obligor(rec, book.defaults, settings, run, wk.scored);
-      writer->obligor(rec, wk.scored, i == 0, wk.out);
-      if (wk.scored.status == RowStatus::ok) {
-        ++wk.ok;
-        for (const TermPoint& p : wk.scored.points) wk.iterations += std::max(p.iterations, 0);
-        continue;
-      }
-      ++(wk.scored.status == RowStatus::invalid_input ? wk.invalid : wk.not_converged);
-      if (wk.problems.size() < run.max_listed_problems) {
-        wk.problems.emplace_back(i, obligor_problem(book.origin, rec, wk.scored.first_problem()));
-      }
-      ++wk.problem_count;
-    }
-  });
-  std::vector<std::pair<std::size_t, std::string>> all;
+  std::vector<ObligorRecord> piece;
+  std::vector<std::pair<std::size_t, std::string>> all;  // the first few problems, in book order
   std::size_t problem_count = 0;
+  std::size_t first = 0;  // book index of the piece's first obligor
+  while (book.next(piece, run.piece_obligors)) {
+    const BookDefaults& defaults = book.defaults();
+    detail::write_in_chunks(
+        piece.size(), kChunk, workers, 16, sink, [&](Worker& wk, std::size_t b, std::size_t e) {
+          for (std::size_t i = b; i < e; ++i) {
+            const ObligorRecord& rec = piece[i];
+            score_term_obligor(rec, defaults, settings, run, wk.scored);
+            writer->obligor(rec, wk.scored, first + i == 0, wk.out);
+            if (wk.scored.status == RowStatus::ok) {
+              ++wk.ok;
+              for (const TermPoint& p : wk.scored.points) wk.iterations += std::max(p.iterations, 0);
+              continue;
+            }
+            ++(wk.scored.status == RowStatus::invalid_input ? wk.invalid : wk.not_converged);
+            if (wk.problems.size() < run.max_listed_problems) {
+              wk.problems.emplace_back(first + i,
+                                       obligor_problem(book.origin(), rec, wk.scored.first_problem()));
+            }
+            ++wk.problem_count;
+          }
+        });
+    // Keep only the first few problems of the book so far.
+    for (Worker& wk : workers) {
+      for (auto& p : wk.problems) all.push_back(std::move(p));
+      wk.problems.clear();
+    }
+    std::sort(all.begin(), all.end());
+    if (all.size() > run.max_listed_problems) all.resize(run.max_listed_problems);
+    first += piece.size();
+  }
+  sum.total = first;
+  sum.notes = book.notes();
   for (Worker& wk : workers) {
     sum.scored += wk.ok;
     sum.invalid += wk.invalid;
     sum.not_converged += wk.not_converged;
     sum.newton_iterations += static_cast<std::size_t>(wk.iterations);
     problem_count += wk.problem_count;
-    for (auto& p : wk.problems) all.push_back(std::move(p));
   }
-  std::sort(all.begin(), all.end());
   for (std::size_t i = 0; i < all.size() && i < run.max_listed_problems; ++i) {
     sum.problems.push_back(std::move(all[i].second));
   }
@@ -257,8 +270,15 @@ ScoreSummary score_term_structure(const Book& book, const ScoreSettings& setting
   return sum;
 }
 
+ScoreSummary score_term_structure(const Book& book, const ScoreSettings& settings, const TermBookOptions& run,
+                                  const TextSink& sink) {
+  const std::unique_ptr<BookStream> stream = book_passes(book)();
+  return score_term_structure(*stream, settings, run, sink);
+}
+
 OptionCheck TermBookOptions::validate() const {
   if (threads < 1) return OptionProblem{"threads", std::to_string(threads), "must be at least 1"};
+  if (piece_obligors < 1) return OptionProblem{"piece_obligors", "0", "must be at least 1"};
   if (horizons.size() > kMaxHorizons) {
     return OptionProblem{"horizons", std::to_string(horizons.size()) + " horizons",
                          "must hold at most " + std::to_string(kMaxHorizons) + " horizons"};

@@ -323,8 +323,8 @@ TEST_CASE("out of memory: a clear message naming the command and the input, exit
 #endif
   Scratch s;
   const std::string book = s.file("big.csv");
-  // 200000 invented obligors (about 14 MB): stress reads the whole book, which needs more than the
-  // 100 MB of address space allowed below.
+  // 200000 invented obligors (about 14 MB): a term-structure stress reads the whole book, which
+  // needs more than the 100 MB of address space allowed below.
   {
     std::ofstream f(book, std::ios::binary);
     f << "id,name,market_cap,equity_vol,short_term_debt,long_term_debt,rate,horizon\n";
@@ -336,7 +336,8 @@ TEST_CASE("out of memory: a clear message naming the command and the input, exit
   const std::string out = s.file("stress.csv");
   write_file(out, "previous stress\n");
   const Result r = run_firmcall(
-      {"stress", book, "--equity-shocks", "-0.3", "-f", "csv", "-j", "1", "-o", out}, "ulimit -v 100000; ");
+      {"stress", book, "--equity-shocks", "-0.3", "--horizons", "1", "-f", "csv", "-j", "1", "-o", out},
+      "ulimit -v 100000; ");
   CHECK(r.exit_code == 2);
   CHECK(r.err.find("firmcall: error: out of memory in 'stress' on " + book + " (") != std::string::npos);
   CHECK(r.err.find(" MB); no output file was replaced") != std::string::npos);

@@ -21,6 +21,8 @@
 #pragma once
 
 #include <cstdint>
+#include <functional>
+#include <memory>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -29,6 +31,7 @@
 #include "firmcall/engine/driving_pd.hpp"
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/estimate/calibration.hpp"
+#include "firmcall/io/book_stream.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/scenario.hpp"
 #include "firmcall/model/merton.hpp"
@@ -126,7 +129,8 @@ struct PdGrid {
   std::vector<double> equity_changes;   ///< rows
   std::vector<double> vol_multipliers;  ///< columns
   std::vector<double> pd;
-  std::vector<double> base_pd;  ///< PD as it stands per obligor; NaN where not scored
+  std::vector<double> base_pd;          ///< PD as it stands per obligor; NaN where not scored
+  std::vector<std::string> ids, names;  ///< per obligor, for the grid's heads
   bool empty() const noexcept { return equity_changes.empty() || vol_multipliers.empty(); }
 };
 
@@ -147,20 +151,70 @@ struct StressSummary {
   std::size_t failed() const noexcept { return failed_rows; }
 };
 
+/// Obligors a run reads from its book at a time, unless told otherwise.
+inline constexpr std::size_t kBookPieceObligors = 32768;
+
 struct StressBookOptions {
   OutputFormat format = OutputFormat::csv;
   unsigned threads = 1;        ///< worker threads (>= 1); output order is the input order
   bool sensitivities = false;  ///< add sensitivity columns at the stressed inputs
   std::size_t max_listed_problems = 20;
   std::size_t chunk_obligors = 8192;  ///< obligors formatted per parallel step (0 counts as 1)
+  /// Obligors read from the book at a time: memory grows with this, not with the book.
+  std::size_t piece_obligors = kBookPieceObligors;
   /// When set (and ok): each row ends with the calibrated one-year PD of base and stressed DD
   /// (stress_pd_calibration_columns()) and each summary with the figures on it.
   const PdCalibration* pd_calibration = nullptr;
   std::string pd_calibration_origin;        ///< the calibration file, for the output
   DrivingPd driving_pd = DrivingPd::model;  ///< calibrated needs pd_calibration
-  /// threads >= 1; driving_pd calibrated only with a calibration.
+  /// threads >= 1; piece_obligors >= 1; driving_pd calibrated only with a calibration.
   OptionCheck validate() const;
 };
+
+/// Opens the book for one pass over it, from its first obligor. A stress run reads the book more
+/// than once (once to count and score it, then once per scenario), so that it never holds more
+/// than a piece of it.
+using BookPasses = std::function<std::unique_ptr<BookStream>()>;
+/// Passes over a book file (BookStream::open).
+BookPasses book_file_passes(const std::string& path);
+/// Passes over a book in memory, which must outlive them: each pass hands out copies of its
+/// obligors.
+BookPasses book_passes(const Book& book);
+
+/// What a first pass over a book finds, before any output is written.
+struct BookScan {
+  std::string origin;
+  std::size_t obligors = 0;
+  std::vector<std::string> notes;  ///< the book's notes
+  /// Obligors that carry between them every sector, country and currency of the book (and every
+  /// id, when the scan was asked for them), for check_filters(); nothing else is set.
+  Book filter_book;
+};
+
+/// Reads the book once: counts its obligors, keeps its notes and the names scenario filters are
+/// checked against, and passes each piece to `each` with the index of its first obligor. Every
+/// id is kept only with `keep_ids` (a scenario filters by ids): memory then grows with the book.
+BookScan scan_book(const BookPasses& passes, std::size_t piece_obligors, bool keep_ids,
+                   const std::function<void(const std::vector<ObligorRecord>& piece,
+                                            const BookDefaults& defaults, std::size_t first)>& each);
+
+/// The first pass of a stress run: the book scored as it stands.
+struct StressBookScan {
+  BookScan book;
+  std::size_t base_ok = 0;
+  std::size_t base_invalid = 0;
+  std::size_t base_not_converged = 0;
+  std::vector<std::string> problems;  ///< of the base, the first few
+  std::size_t problems_not_listed = 0;
+  std::size_t with_ead = 0;                                 ///< scored obligors with ead
+  double ead_total = 0.0;                                   ///< their EAD, summed in book order
+  double loss_total = 0.0;                                  ///< their LGD x EAD
+  std::vector<std::pair<double, std::string>> largest_ead;  ///< (ead, id), the five largest
+};
+
+/// Scores the book as it stands, a piece at a time (`run.threads`, `run.piece_obligors`).
+StressBookScan scan_stress_book(const BookPasses& passes, const ScoreSettings& settings,
+                                const StressBookOptions& run, bool keep_ids = false);
 
 /// Column names of the machine-readable stress rows, in order (sensitivity columns follow when
 /// requested).
@@ -173,8 +227,16 @@ const std::vector<std::string_view>& stress_pd_calibration_columns();
 /// Column names appended to the summary CSV with a calibration (ScenarioPdFigures).
 const std::vector<std::string_view>& stress_summary_calibration_columns();
 
-/// Runs every scenario over the book and writes rows and summaries in `run.format`.
-/// `scenario_origin` names the scenario source in the output (a file name or "grid").
+/// Runs every scenario over the book and writes rows and summaries in `run.format`, one pass
+/// over the book per scenario after the first pass `scan` (scan_stress_book). InputError before
+/// any output when the totals of the scan are too large for a double, and when the book changes
+/// between passes. `scenario_origin` names the scenario source in the output (a file name or
+/// "grid"). The table's PD grid holds its cells for every obligor.
+StressSummary run_stress(const BookPasses& passes, const StressBookScan& scan,
+                         const std::vector<Scenario>& scenarios, const std::string& scenario_origin,
+                         const ScoreSettings& settings, const StressSettings& stress,
+                         const StressBookOptions& run, const TextSink& sink);
+/// run_stress over a book in memory.
 StressSummary run_stress(const Book& book, const std::vector<Scenario>& scenarios,
                          const std::string& scenario_origin, const ScoreSettings& settings,
                          const StressSettings& stress, const StressBookOptions& run, const TextSink& sink);
@@ -211,7 +273,11 @@ void reverse_stress_obligor(const ScoredObligor& base, double target_pd, const R
 const std::vector<std::string_view>& reverse_stress_columns();
 
 /// For each obligor, the equity fall and equity-volatility multiplier at which PD reaches
-/// `target_pd`; written in `run.format`.
+/// `target_pd`; written in `run.format`, in one pass over the book.
+ReverseStressSummary run_reverse_stress(const BookPasses& passes, double target_pd,
+                                        const ScoreSettings& settings, const StressBookOptions& run,
+                                        const TextSink& sink, const ReverseStressOptions& options = {});
+/// run_reverse_stress over a book in memory.
 ReverseStressSummary run_reverse_stress(const Book& book, double target_pd, const ScoreSettings& settings,
                                         const StressBookOptions& run, const TextSink& sink,
                                         const ReverseStressOptions& options = {});

@@ -21,6 +21,7 @@
 #include "firmcall/book/obligor.hpp"
 #include "firmcall/book/settings.hpp"
 #include "firmcall/engine/score_book.hpp"
+#include "firmcall/io/book_stream.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/model/term_structure.hpp"
 #include "firmcall/util/option_check.hpp"
@@ -43,8 +44,10 @@ struct TermBookOptions {
   Calibration calibration = Calibration::once;
   Barrier barrier;  ///< first-passage barrier
   std::size_t max_listed_problems = 20;
-  /// threads >= 1; horizons as parse_horizons accepts them; at least one model; the barrier ratio
-  /// positive and its growth in [-1, 1].
+  /// Obligors read from the book at a time (score_term_structure over a BookStream).
+  std::size_t piece_obligors = 8192;
+  /// threads >= 1; piece_obligors >= 1; horizons as parse_horizons accepts them; at least one model; the
+  /// barrier ratio positive and its growth in [-1, 1].
   OptionCheck validate() const;
 };
 
@@ -89,6 +92,10 @@ const std::vector<std::string_view>& term_columns();
 /// Computes and writes the curves of every obligor in `run.format`. The summary counts obligors:
 /// scored when all of its rows are ok.
 ScoreSummary score_term_structure(const Book& book, const ScoreSettings& settings, const TermBookOptions& run,
+                                  const TextSink& sink);
+/// The same over a book read a piece at a time (`run.piece_obligors`): memory does not grow with
+/// the book.
+ScoreSummary score_term_structure(BookStream& book, const ScoreSettings& settings, const TermBookOptions& run,
                                   const TextSink& sink);
 
 }  // namespace firmcall

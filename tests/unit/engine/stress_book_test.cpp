@@ -728,3 +728,43 @@ TEST_CASE("every output states the hold: table header line, JSON run key") {
   CHECK(run(b, scen, OutputFormat::json, 1, false, kHoldEquityVol).text.find("\"hold\": \"equity-vol\"") !=
         std::string::npos);
 }
+
+TEST_CASE("stress output is the same for any thread count and piece size") {
+  const Book b = book();
+  const ScenarioSet set = parse_scenarios(kThreeFalls, "s.yaml");
+  const auto text_of = [&](OutputFormat format, unsigned threads, std::size_t piece, bool reverse) {
+    StressBookOptions opts;
+    opts.format = format;
+    opts.threads = threads;
+    opts.piece_obligors = piece;
+    opts.chunk_obligors = 3;
+    std::string out;
+    const TextSink sink = [&](std::string_view s) { out += s; };
+    if (reverse) {
+      const ReverseStressSummary r = run_reverse_stress(b, 0.05, ScoreSettings{}, opts, sink);
+      out += std::to_string(r.problems.size()) + " " + std::to_string(r.problems_not_listed);
+    } else {
+      const StressSummary s =
+          run_stress(b, set.scenarios, set.origin, ScoreSettings{}, kHoldAssetVol, opts, sink);
+      out += scenario_summary_csv(s, set.scenarios);
+      for (const std::string& p : s.problems) out += p + "\n";
+    }
+    return out;
+  };
+  for (const OutputFormat format : {OutputFormat::csv, OutputFormat::json, OutputFormat::table}) {
+    for (const bool reverse : {false, true}) {
+      const std::string reference = text_of(format, 1, kBookPieceObligors, reverse);
+      CHECK(!reference.empty());
+      for (const unsigned threads : {1U, 2U}) {
+        for (const std::size_t piece : {std::size_t{1}, std::size_t{7}, kBookPieceObligors}) {
+          CAPTURE(threads);
+          CAPTURE(piece);
+          CHECK(text_of(format, threads, piece, reverse) == reference);
+        }
+      }
+    }
+  }
+  StressBookOptions bad;
+  bad.piece_obligors = 0;
+  CHECK(bad.validate().has_value());
+}
