@@ -197,7 +197,8 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
                       .pd_calibration = run.pd_calibration,
                       .calibration = identity,
                       .driving_pd = run.driving_pd,
-                      .replace_run = opts.replace_run};
+                      .replace_run = opts.replace_run,
+                      .threads = run.threads};
     // The run to record is scored from the book's bytes first, so that a second run of the same
     // book and as-of date is refused before any output is written.
     prepared = prepare_run(opts.book, settings, config, record_options);
@@ -214,12 +215,14 @@ ExitCode run_score(const ScoreCli& opts, const GlobalOptions& global) {
   OutputSet outputs;
   OutputFile& out = outputs.add("-o", opts.out.output);
   if (opts.record) outputs.reserve("--db", store_path);
+  // The run is scored and inserted (uncommitted) while the output is written.
+  std::optional<RunRecorder> recorder;
+  if (prepared) recorder.emplace(*prepared, record_options, config.monitor.busy_timeout_seconds);
   const ScoreSummary summary = score_whole_book(opts, fmt, settings, run, out);
   std::optional<RecordedRun> rec;
   try {
     outputs.commit([&] {
-      if (!prepared) return;
-      rec = record_prepared_run(*prepared, record_options, config.monitor.busy_timeout_seconds);
+      if (recorder) rec = recorder->finish();
     });
   } catch (const SameBookRun& e) {
     // Recorded by another process since the check above.

@@ -182,3 +182,50 @@ TEST_CASE("record_book: the same book as of the same date is refused before an o
   const RunStore store(db, StoreOpen::read_only, 5.0);
   CHECK(store.runs().size() == 2);
 }
+
+TEST_CASE("record_book: the stored run does not depend on threads or piece size") {
+  firmcall::testing::TempDir dir;
+  const std::string book = dir.file("book.csv");
+  {
+    std::ofstream f(book);
+    f << "id,name,market_cap,equity_vol,default_point,rate\n";
+    for (int i = 0; i < 40; ++i) {
+      f << "OB-" << i << ",Obligor " << i << "," << 100 + i << "," << 0.2 + 0.01 * i << "," << 60 + i
+        << ",0.02\n";
+    }
+    f << "OB-3,Repeated id,100,0.3,50,0.02\n";  // a duplicate id: stored as invalid
+    f << "OB-41,Bad volatility,100,abc,50,0.02\n";
+  }
+  const Config config;
+  std::vector<std::vector<StoredObligor>> runs;
+  for (const auto& [threads, piece] :
+       {std::pair{1U, std::size_t{1}}, std::pair{2U, std::size_t{3}}, std::pair{2U, std::size_t{8192}}}) {
+    const std::string db = dir.file("h" + std::to_string(threads) + "_" + std::to_string(piece) + ".sqlite");
+    RecordBookOptions opt{.store_path = db, .as_of = "2026-11-06", .tool_version = "test"};
+    opt.threads = threads;
+    opt.piece_obligors = piece;
+    const RecordedRun r = record_book(book, config.score, config, opt);
+    CHECK(r.obligors == 42);
+    CHECK(r.scored == 40);  // every row but the duplicate and the unreadable volatility
+    runs.push_back(RunStore(db, StoreOpen::read_only, 5.0).obligors(r.run_id));
+  }
+  for (std::size_t k = 1; k < runs.size(); ++k) {
+    REQUIRE(runs[k].size() == runs[0].size());
+    for (std::size_t i = 0; i < runs[0].size(); ++i) {
+      const StoredObligor& a = runs[0][i];
+      const StoredObligor& b = runs[k][i];
+      CHECK(a.id == b.id);
+      CHECK(a.status == b.status);
+      CHECK(a.message == b.message);
+      CHECK(a.fields_json == b.fields_json);
+      CHECK(a.grade == b.grade);
+      CHECK(a.has_measures == b.has_measures);
+      if (a.has_measures && b.has_measures) {
+        CHECK(a.measures.pd == b.measures.pd);
+        CHECK(a.measures.distance_to_default == b.measures.distance_to_default);
+      }
+    }
+  }
+  CHECK(runs[0][40].status == RowStatus::invalid_input);
+  CHECK(runs[0][41].status == RowStatus::invalid_input);
+}
