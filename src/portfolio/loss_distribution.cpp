@@ -12,6 +12,7 @@
 
 #include "firmcall/model/normal.hpp"
 #include "firmcall/util/parallel.hpp"
+#include "firmcall/util/vector_math.hpp"
 #include "portfolio/confidence_levels.hpp"
 
 namespace firmcall {
@@ -178,6 +179,137 @@ struct Model {
   std::vector<Prepared> obligors;
   Index K = 0;
   double unit = 0.0;
+  bool batched = false;      // conditional PDs in blocks and the sub-step losses by a product tree
+  std::size_t sub_step = 0;  // obligors [0, sub_step) lose less than one grid step (units 0)
+};
+
+// A loss distribution on part of the grid: P(L = lo + k) = v[k].
+struct Poly {
+  Index lo = 0;
+  std::vector<double> v;
+};
+
+// out = a * b (the distribution of the sum), the point `top` absorbing everything at or above
+// it; end values below kTrim are dropped into `trimmed`, as in convolve.
+void multiply(const Poly& a, const Poly& b, Index top, Poly& out, double& trimmed) {
+  const Index na = static_cast<Index>(a.v.size());
+  const Index nb = static_cast<Index>(b.v.size());
+  const Index lo = std::min(a.lo + b.lo, top);
+  const Index hi = std::min(a.lo + b.lo + na + nb - 2, top);
+  out.lo = lo;
+  out.v.assign(static_cast<std::size_t>(hi - lo + 1), 0.0);
+  double* __restrict o = out.v.data();
+  const double* __restrict bv = b.v.data();
+  for (Index i = 0; i < na; ++i) {
+    const double ai = a.v[static_cast<std::size_t>(i)];
+    const Index base = a.lo + i + b.lo - lo;                        // where b[0] lands
+    const Index below = std::clamp<Index>(top - lo - base, 0, nb);  // terms below the top point
+    double* __restrict ob = o + base;
+    for (Index j = 0; j < below; ++j) ob[j] += ai * bv[j];
+    if (below < nb) {
+      double s = 0.0;
+      for (Index j = below; j < nb; ++j) s += bv[j];
+      o[top - lo] += ai * s;
+    }
+  }
+  double dropped = 0.0;
+  std::size_t end = out.v.size();
+  while (end > 1 && out.v[end - 1] < kTrim) dropped += out.v[--end];
+  out.v.resize(end);
+  std::size_t first = 0;
+  while (first + 1 < out.v.size() && out.v[first] < kTrim) dropped += out.v[first++];
+  trimmed += dropped;
+  if (first > 0) {
+    out.v.erase(out.v.begin(), out.v.begin() + static_cast<std::ptrdiff_t>(first));
+    out.lo += static_cast<Index>(first);
+  }
+}
+
+// The product of many sub-step losses (1 - q) + q x, built as a binary tree: leaves of up to
+// kLeaf obligors one at a time, then pairwise products (a binary counter: slot l holds the
+// product of 2^l leaves), so each level costs about the square of its windows.
+class ProductTree {
+ public:
+  static constexpr std::size_t kLeaf = 64;
+  void reset(Index top) noexcept {
+    top_ = top;
+    trimmed_ = 0.0;
+    for (std::size_t l = 0; l < used_.size(); ++l) used_[l] = false;
+    start_leaf();
+  }
+  void add(double q) {
+    std::vector<double>& v = leaf_.v;
+    const std::size_t last = v.size() - 1;
+    const double c = 1.0 - q;
+    if (static_cast<Index>(last) < top_) {
+      const double up = q * v[last];
+      if (up < kTrim) {
+        trimmed_ += up;  // as convolve drops a new end value below kTrim
+      } else {
+        v.push_back(up);
+      }
+      for (std::size_t k = last; k > 0; --k) v[k] = c * v[k] + q * v[k - 1];
+    } else {  // the top point keeps its mass and takes what moves up into it
+      v[last] += q * v[last - 1];
+      for (std::size_t k = last - 1; k > 0; --k) v[k] = c * v[k] + q * v[k - 1];
+    }
+    v[0] *= c;
+    if (++in_leaf_ == kLeaf) push_leaf();
+  }
+  // The product of everything added, into `out` (zero outside its window on entry).
+  void finish(Dist& out, double& trimmed) {
+    if (in_leaf_ > 0) push_leaf();
+    trimmed += trimmed_;
+    trimmed_ = 0.0;
+    bool have = false;
+    for (std::size_t l = used_.size(); l-- > 0;) {
+      if (!used_[l]) continue;
+      if (!have) {
+        std::swap(carry_, slots_[l]);
+        have = true;
+      } else {
+        multiply(carry_, slots_[l], top_, tmp_, trimmed);
+        std::swap(carry_, tmp_);
+      }
+      used_[l] = false;
+    }
+    out.clear();
+    if (!have) {
+      out.set_point_mass_at_zero();
+      return;
+    }
+    for (std::size_t k = 0; k < carry_.v.size(); ++k) out.v[carry_.lo + static_cast<Index>(k)] = carry_.v[k];
+    out.w = {carry_.lo, carry_.lo + static_cast<Index>(carry_.v.size()) - 1};
+  }
+
+ private:
+  void start_leaf() {
+    leaf_.lo = 0;
+    leaf_.v.assign(1, 1.0);
+    in_leaf_ = 0;
+  }
+  void push_leaf() {
+    std::swap(carry_, leaf_);
+    std::size_t l = 0;
+    for (; l < used_.size() && used_[l]; ++l) {
+      multiply(slots_[l], carry_, top_, tmp_, trimmed_);
+      std::swap(carry_, tmp_);
+      used_[l] = false;
+    }
+    if (l == used_.size()) {
+      slots_.emplace_back();
+      used_.push_back(false);
+    }
+    std::swap(slots_[l], carry_);
+    used_[l] = true;
+    start_leaf();
+  }
+  Index top_ = 0;
+  Poly leaf_, carry_, tmp_;
+  std::vector<Poly> slots_;
+  std::vector<bool> used_;
+  std::size_t in_leaf_ = 0;
+  double trimmed_ = 0.0;
 };
 
 // Two full-length buffers for the recursion.
@@ -185,6 +317,8 @@ struct Workspace {
   std::vector<double> storage;
   Dist a;
   Dist b;
+  std::vector<double> pz;  // conditional PDs at the node (batched evaluation)
+  ProductTree tree;
   void init(Index K) {
     storage.assign(2 * buffer_stride(K), 0.0);
     a.v = buffer_at(storage, 0, K);
@@ -193,7 +327,67 @@ struct Workspace {
   }
 };
 
+// Conditional PDs of every obligor at z into pz, eight at a time (libmvec's erfc).
+void conditional_pds(const Model& m, double z, std::vector<double>& pz) {
+  const std::size_t n = m.obligors.size();
+  pz.resize(n);
+  const vmath::Kernels& vk = vmath::kernels();
+  double x[vmath::kBlock];
+  double y[vmath::kBlock];
+  for (std::size_t i0 = 0; i0 < n; i0 += vmath::kBlock) {
+    const std::size_t cnt = std::min(vmath::kBlock, n - i0);
+    for (std::size_t g = 0; g < vmath::kBlock; ++g) {
+      const Prepared* ob = g < cnt ? &m.obligors[i0 + g] : nullptr;
+      x[g] = ob != nullptr ? -(ob->a - ob->b * z) * kInvSqrt2 : 0.0;  // N(a - b z) = erfc(-x/sqrt 2)/2
+    }
+    vk.erfc(x, y);
+    for (std::size_t g = 0; g < cnt; ++g) {
+      const double p = m.obligors[i0 + g].certain ? 1.0 : 0.5 * y[g];
+      pz[i0 + g] = p < kFlushPd ? 0.0 : p;
+    }
+  }
+}
+
+// The batched node: PDs in blocks, the sub-step obligors by the product tree, the rest one at a time.
+void evaluate_node_batched(const Model& m, Workspace& ws, Node& node) {
+  conditional_pds(m, node.z, ws.pz);
+  double mean = 0.0;
+  for (std::size_t i = 0; i < m.obligors.size(); ++i) {
+    if (ws.pz[i] != 0.0) mean += ws.pz[i] * m.obligors[i].mean_units();
+  }
+  Dist* cur = &ws.a;
+  Dist* next = &ws.b;
+  next->clear();
+  double trimmed = 0.0;
+  ws.tree.reset(m.K - 1);
+  for (std::size_t i = 0; i < m.sub_step; ++i) {
+    if (ws.pz[i] != 0.0) ws.tree.add(ws.pz[i] * m.obligors[i].frac);
+  }
+  ws.tree.finish(*cur, trimmed);
+  for (std::size_t i = m.sub_step; i < m.obligors.size(); ++i) {
+    const double p = ws.pz[i];
+    if (p == 0.0) continue;
+    const Prepared& ob = m.obligors[i];
+    convolve(cur->v, cur->w, next->v, next->w, m.K, p, ob.units, ob.frac, trimmed);
+    std::swap(cur, next);
+  }
+  node.w = cur->w;
+  node.values.assign(cur->v + cur->w.lo, cur->v + cur->w.hi + 1);
+  node.mean_units = mean;
+  node.trimmed = trimmed;
+  cur->clear();
+}
+
 void evaluate_node(const Model& m, Workspace& ws, Node& node) noexcept {
+  if (m.batched) {
+    try {
+      evaluate_node_batched(m, ws, node);
+      return;
+    } catch (...) {  // out of memory for the tree: the recursion below needs none
+      ws.a.clear();
+      ws.b.clear();
+    }
+  }
   Dist* cur = &ws.a;
   Dist* next = &ws.b;
   cur->set_point_mass_at_zero();
@@ -858,6 +1052,9 @@ Model grid_model(std::span<const FactorExposure> book, const OneFactorOptions& o
   }
   std::stable_sort(m.obligors.begin(), m.obligors.end(),
                    [](const Prepared& x, const Prepared& y) { return x.mean_units() < y.mean_units(); });
+  m.batched = m.obligors.size() >= opt.batch_from;
+  // Sorted by mean units, the obligors below one grid step come first.
+  while (m.sub_step < m.obligors.size() && m.obligors[m.sub_step].units == 0) ++m.sub_step;
   return m;
 }
 
