@@ -5,11 +5,12 @@
 #   bash bench/python_module.sh
 #
 # Needs a build in build/ with the Python module (FIRMCALL_PYTHON), Debian's python3 with numpy
-# and scipy, and the shared generator and peer beside the source tree. Prints both rates and the ratio.
+# and scipy, and the shared generator and peer beside the source tree (or in $FIRMCALL_SHARED).
+# Prints both rates and the ratio.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 root=$(pwd)
-shared="$root/../shared"
+shared="${FIRMCALL_SHARED:-$root/../shared}"  # the shared generator and peer; FIRMCALL_SHARED overrides
 out="$root/bench/out"
 mkdir -p "$out"
 py=/usr/bin/python3

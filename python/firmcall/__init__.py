@@ -57,6 +57,8 @@ def _number_column(name, values, n):
 
 def _text_column(name, values, n):
     """list of str of a text field; None or NaN stand for an empty cell."""
+    if isinstance(values, np.ndarray) and values.dtype.kind == "U":
+        return values.tolist()  # every value is text already: no check per value
     out = []
     for row, v in enumerate(values.tolist() if isinstance(values, np.ndarray) else values):
         if isinstance(v, str):
