@@ -102,30 +102,6 @@ void count_base(const std::string& origin, const ObligorRecord& rec, const Score
   }
 }
 
-// A book in memory, handed out as copies of its obligors.
-class BookCopyStream final : public BookStream {
- public:
-  explicit BookCopyStream(const Book& book) : book_(book) {
-    origin_ = book.origin;
-    label_ = book.label;
-    as_of_ = book.as_of;
-    defaults_ = book.defaults;
-    notes_ = book.notes;
-  }
-  bool next(std::vector<ObligorRecord>& out, std::size_t max_obligors) override {
-    out.clear();
-    const std::size_t n = std::min(std::max<std::size_t>(max_obligors, 1), book_.obligors.size() - next_);
-    out.assign(book_.obligors.begin() + static_cast<std::ptrdiff_t>(next_),
-               book_.obligors.begin() + static_cast<std::ptrdiff_t>(next_ + n));
-    next_ += n;
-    return n > 0;
-  }
-
- private:
-  const Book& book_;
-  std::size_t next_ = 0;
-};
-
 // InputError when a later pass over a book does not find the obligors of the first.
 void check_same_book(const std::string& origin, std::size_t first, std::size_t now) {
   if (first == now) return;
@@ -499,7 +475,7 @@ BookPasses book_file_passes(const std::string& path) {
 }
 
 BookPasses book_passes(const Book& book) {
-  return [&book]() -> std::unique_ptr<BookStream> { return std::make_unique<BookCopyStream>(book); };
+  return [&book]() -> std::unique_ptr<BookStream> { return BookStream::over(book); };
 }
 
 BookScan scan_book(const BookPasses& passes, std::size_t piece_obligors, bool keep_ids,

@@ -107,26 +107,39 @@ class CsvBookStream final : public BookStream {
   IdRegistry ids_;
 };
 
-// A book parsed whole (YAML), handed out in pieces.
+// A book held whole, handed out in pieces: moved out of a book the stream owns (a YAML file
+// parsed whole), or copied from one the caller keeps.
 class WholeBookStream final : public BookStream {
  public:
-  explicit WholeBookStream(Book book) : book_(std::move(book)) {
-    origin_ = book_.origin;
-    label_ = book_.label;
-    as_of_ = book_.as_of;
-    defaults_ = book_.defaults;
-    notes_ = book_.notes;
+  explicit WholeBookStream(Book book) : owned_(std::move(book)), book_(&owned_), move_out_(true) {
+    describe();
   }
+  explicit WholeBookStream(const Book* book) : book_(book), move_out_(false) { describe(); }
   bool next(std::vector<ObligorRecord>& out, std::size_t max_obligors) override {
     out.clear();
-    const std::size_t n = std::min(std::max<std::size_t>(max_obligors, 1), book_.obligors.size() - next_);
-    for (std::size_t i = 0; i < n; ++i) out.push_back(std::move(book_.obligors[next_ + i]));
+    const std::size_t n = std::min(std::max<std::size_t>(max_obligors, 1), book_->obligors.size() - next_);
+    for (std::size_t i = 0; i < n; ++i) {
+      if (move_out_) {
+        out.push_back(std::move(owned_.obligors[next_ + i]));
+      } else {
+        out.push_back(book_->obligors[next_ + i]);
+      }
+    }
     next_ += n;
     return n > 0;
   }
 
  private:
-  Book book_;
+  void describe() {
+    origin_ = book_->origin;
+    label_ = book_->label;
+    as_of_ = book_->as_of;
+    defaults_ = book_->defaults;
+    notes_ = book_->notes;
+  }
+  Book owned_;
+  const Book* book_;
+  bool move_out_;
   std::size_t next_ = 0;
 };
 
@@ -135,6 +148,10 @@ class WholeBookStream final : public BookStream {
 std::unique_ptr<BookStream> BookStream::open(const std::string& path, BookUse use) {
   if (book_format_of(path) == BookFormat::csv) return std::make_unique<CsvBookStream>(path, use);
   return std::make_unique<WholeBookStream>(load_book(path, use));
+}
+
+std::unique_ptr<BookStream> BookStream::over(const Book& book) {
+  return std::make_unique<WholeBookStream>(&book);
 }
 
 }  // namespace firmcall

@@ -28,6 +28,9 @@ class BookStream {
   /// Opens a CSV or YAML book (format from the name, as load_book). InputError when the file
   /// cannot be read, its header (CSV) or top-level keys (YAML) are bad.
   static std::unique_ptr<BookStream> open(const std::string& path, BookUse use = BookUse::scoring);
+  /// A book already in memory, handed out as copies of its obligors (`book` must outlive the
+  /// stream).
+  static std::unique_ptr<BookStream> over(const Book& book);
 
   /// Replaces `out` with the next obligors of the book, at most `max_obligors` (at least one is
   /// taken); false, with `out` empty, when none are left. InputError for a file-level error found
