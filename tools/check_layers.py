@@ -17,6 +17,7 @@ RANKS = {
     "estimate": 2,
     "portfolio": 2,
     "book": 3,
+    "cluster": 3,
     "io": 4,
     "format": 5,
     "engine": 6,

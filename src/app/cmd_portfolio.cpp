@@ -260,6 +260,12 @@ ExitCode run_portfolio_command(const PortfolioCli& o, const GlobalOptions& globa
     run.pd_calibration = &calibration.calibration;
     run.pd_calibration_origin = o.pd_calibration;
   }
+  run.exchange = global.exchange;
+  if (!global.writes_outputs) {  // a process of an mpirun other than the root: simulates, writes nothing
+    const PortfolioResult result =
+        run_portfolio(book, scenarios, o.scenarios, correlation.get(), config, run);
+    return rows_exit_code(result.failed_rows);
+  }
   PortfolioOutputs files;
   open_portfolio_files(o, files);
   const PortfolioResult result = run_portfolio(book, scenarios, o.scenarios, correlation.get(), config, run);

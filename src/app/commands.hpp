@@ -11,6 +11,7 @@
 #include "common_options.hpp"
 #include "exit_codes.hpp"
 #include "firmcall/io/settings_io.hpp"
+#include "firmcall/portfolio/scenario_exchange.hpp"
 
 #ifndef FIRMCALL_VERSION
 #define FIRMCALL_VERSION "dev"
@@ -22,6 +23,9 @@ namespace firmcall::cli {
 struct GlobalOptions {
   std::string config_path;  ///< --config; empty: built-in defaults (equal to config/firmcall.yaml)
   bool quiet = false;       ///< --quiet: no notes or progress on stderr
+  /// The processes a portfolio simulation is shared with (mpirun); nullptr: this one alone.
+  ScenarioExchange* exchange = nullptr;
+  bool writes_outputs = true;  ///< false on every process of an mpirun but the root
   /// Loads the configuration named by --config (or the built-in defaults).
   Config config() const;
 };

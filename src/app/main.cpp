@@ -3,7 +3,9 @@
 // to 2 (option and store errors worded as on the command line, command_line_errors.hpp), any other
 // exception to 3, except running out of memory, which says which command on which input ran out
 // (exit 2); a command that ran returns 0 or 1 from its row statuses. SIGINT, SIGTERM and SIGHUP
-// remove the run's temporary output files (io/output_file.hpp).
+// remove the run's temporary output files (io/output_file.hpp). Under mpirun (a build with
+// FIRMCALL_MPI, cluster/process_group.hpp) only the root writes and reports; the other processes
+// take part in the portfolio simulation, and the run's outcome is the first failure by rank.
 #include <sys/stat.h>
 
 #include <cstdio>
@@ -11,6 +13,7 @@
 #include <iostream>
 #include <new>
 
+#include "cluster/process_group.hpp"
 #include "command_line_errors.hpp"
 #include "commands.hpp"
 #include "exit_codes.hpp"
@@ -30,16 +33,26 @@ Config GlobalOptions::config() const {
 }
 
 namespace {
-// Says why the command failed, after what it wrote to standard output; returns `code`.
-int failed(const char* kind, const std::string& message, ExitCode code) {
+// How a run ended: its exit code and, when it failed, what to say after "firmcall: ".
+struct Ended {
+  int code = kExitOk;
+  std::string message;
+};
+
+Ended failed(const char* kind, const std::string& message, ExitCode code) {
+  return {code, kind + terminal_lines(message)};  // ids from files may hold controls
+}
+
+// Says why the run failed, after what it wrote to standard output.
+void report(const std::string& message) {
+  if (message.empty()) return;
   std::fflush(stdout);
-  std::cerr << "firmcall: " << kind << terminal_lines(message) << "\n";  // ids from files may hold controls
-  return code;
+  std::cerr << "firmcall: " << message << "\n";
 }
 
 // "firmcall: error: out of memory in 'score' on big.csv (2.1 GB) ...": the command, its input (the
 // first positional argument) and the input's size, and what to try.
-int out_of_memory(const CLI::App& app) {
+Ended out_of_memory(const CLI::App& app) {
   std::string command = "firmcall";
   std::string input;
   for (const CLI::App* sub : app.get_subcommands()) {
@@ -70,9 +83,47 @@ int out_of_memory(const CLI::App& app) {
 
 }  // namespace firmcall::cli
 
+namespace firmcall::cli {
+namespace {
+// Parses the command line and runs the command; `root`: the process that prints and writes.
+Ended parse_and_run(CLI::App& app, GlobalOptions& global, const CommandAction& run, int argc, char** argv,
+                    bool root) {
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::ParseError& e) {
+    if (!root) return {e.get_exit_code() == 0 ? kExitOk : kExitInputError, {}};
+    const int code = app.exit(e);
+    return {code == 0 ? kExitOk : kExitInputError, {}};
+  }
+  if (!root) {
+    global.quiet = true;
+    // Only the portfolio simulation is shared; every other command runs on the root alone.
+    if (!app.got_subcommand("portfolio")) return {kExitOk, {}};
+  }
+  firmcall::remove_partial_outputs_on_signal();
+  try {
+    const int code = run ? run() : kExitInputError;
+    if (!global.quiet) cli::print_csv_formula_note();
+    return {code, {}};
+  } catch (const StoreError& e) {
+    return failed("error: ", command_line_message(e), kExitInputError);
+  } catch (const OptionError& e) {
+    return failed("error: ", command_line_message(e), kExitInputError);
+  } catch (const InputError& e) {
+    return failed("error: ", e.what(), kExitInputError);
+  } catch (const std::bad_alloc&) {
+    return out_of_memory(app);
+  } catch (const std::exception& e) {
+    return failed("internal error: ", e.what(), kExitInternal);
+  }
+}
+}  // namespace
+}  // namespace firmcall::cli
+
 int main(int argc, char** argv) {
   using namespace firmcall;
   using namespace firmcall::cli;
+  cluster::ProcessGroup group(argc, argv);
   CLI::App app{
       "firmcall: structural credit risk from equity markets (Merton model).\n"
       "Backs out asset value and asset volatility from equity value and volatility, then reports\n"
@@ -101,26 +152,14 @@ int main(int argc, char** argv) {
   cli::add_validate_command(app, global, run);
   cli::add_calibrate_command(app, global, run);
 
-  try {
-    app.parse(argc, argv);
-  } catch (const CLI::ParseError& e) {
-    const int code = app.exit(e);
-    return code == 0 ? kExitOk : kExitInputError;
+  global.exchange = group.exchange();
+  global.writes_outputs = group.root();
+  const Ended ended = parse_and_run(app, global, run, argc, argv, group.root());
+  if (group.size() == 1) {
+    report(ended.message);
+    return ended.code;
   }
-  firmcall::remove_partial_outputs_on_signal();
-  try {
-    const int code = run ? run() : kExitInputError;
-    if (!global.quiet) cli::print_csv_formula_note();
-    return code;
-  } catch (const StoreError& e) {
-    return cli::failed("error: ", command_line_message(e), kExitInputError);
-  } catch (const OptionError& e) {
-    return cli::failed("error: ", command_line_message(e), kExitInputError);
-  } catch (const InputError& e) {
-    return cli::failed("error: ", e.what(), kExitInputError);
-  } catch (const std::bad_alloc&) {
-    return cli::out_of_memory(app);
-  } catch (const std::exception& e) {
-    return cli::failed("internal error: ", e.what(), kExitInternal);
-  }
+  const cluster::ProcessGroup::Outcome outcome = group.finish(ended.code, ended.message);
+  if (group.root()) report(outcome.message);
+  return outcome.code;
 }

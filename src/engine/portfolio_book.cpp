@@ -341,6 +341,7 @@ void compute(const Book& book, const CorrelationFile* corr, const Config& config
     sim.contributions = options.contributions;
     sim.threads = options.threads;
     sim.exceedance_points = grid_losses;
+    sim.exchange = options.exchange;
     if (options.progress) {
       sim.progress = [&](std::uint64_t done, std::uint64_t all) { options.progress(res.name, done, all); };
     }
@@ -351,6 +352,8 @@ void compute(const Book& book, const CorrelationFile* corr, const Config& config
       for (SectorExposure& e : multi) e.factor = 0;
     }
     res.mc = simulate_losses(multi, factors, sim);
+    // Another process stopped the shared run: this one has nothing to report either.
+    if (res.mc.status == SimulationStatus::peer_failed) throw InputError(res.name + ": " + res.mc.message);
     res.simulated = res.mc.status == SimulationStatus::ok;
     if (!res.simulated) notes.push_back(res.name + ": simulation: " + res.mc.message);
     res.mc.es_contributions = spread(res.mc.es_contributions);

@@ -7,6 +7,7 @@
 #include <boost/random/normal_distribution.hpp>
 #include <cmath>
 #include <limits>
+#include <memory>
 #include <numbers>
 #include <numeric>
 
@@ -17,7 +18,23 @@
 namespace firmcall {
 
 std::string_view to_string(SimulationStatus s) noexcept {
-  return s == SimulationStatus::ok ? "ok" : "invalid_input";
+  switch (s) {
+    case SimulationStatus::ok:
+      return "ok";
+    case SimulationStatus::invalid_input:
+      return "invalid_input";
+    case SimulationStatus::peer_failed:
+      return "peer_failed";
+  }
+  return "invalid_input";
+}
+
+ScenarioRange scenario_range(std::uint64_t scenarios, unsigned rank, unsigned ranks) noexcept {
+  const std::uint64_t p = std::max(1U, ranks);
+  const std::uint64_t q = scenarios / p, extra = scenarios % p;
+  const std::uint64_t r = std::min<std::uint64_t>(rank, p);
+  const std::uint64_t begin = r * q + std::min(r, extra);
+  return {begin, begin + q + (r < extra ? 1 : 0)};
 }
 
 OptionCheck SimulationOptions::validate() const {
@@ -209,36 +226,53 @@ std::vector<Scratch> make_scratch(unsigned threads, std::size_t factors) {
   return scratch;
 }
 
-// Every scenario's loss and, with importance sampling, its log-likelihood ratio.
+// Every scenario's loss and, with importance sampling, its log-likelihood ratio (on a process of
+// a shared run before the gather: those of its own range only, from scenario `first` on).
 struct Draws {
   std::vector<double> loss;
   std::vector<double> log_w;  // empty without importance sampling
   double weight(std::uint64_t s) const noexcept { return log_w.empty() ? 1.0 : std::exp(log_w[s]); }
 };
 
-// Draws all scenarios in tasks of kTask, reporting progress between batches of about 1% of the run.
-Draws draw_losses(const Model& m, const SimulationOptions& opt, unsigned threads,
-                  std::vector<Scratch>& scratch) {
-  const std::uint64_t n = opt.scenarios;
-  Draws d;
-  d.loss.resize(n);
-  d.log_w.resize(m.shift.empty() ? 0 : n);
+// Draws the scenarios of `range` in tasks of kTask into d (index s - first), reporting progress
+// between batches of about 1% of the range. The root's arrays hold the whole run (first = 0).
+void draw_losses(const Model& m, const SimulationOptions& opt, ScenarioRange range, std::uint64_t first,
+                 unsigned threads, std::vector<Scratch>& scratch, Draws& d) {
+  const std::uint64_t n = range.end - range.begin;
   const std::uint64_t batch = std::max<std::uint64_t>(kTask * threads, (n / 100 + kTask - 1) / kTask * kTask);
-  for (std::uint64_t b0 = 0; b0 < n; b0 += batch) {
-    const std::uint64_t b1 = std::min(n, b0 + batch);
+  for (std::uint64_t b0 = range.begin; b0 < range.end; b0 += batch) {
+    const std::uint64_t b1 = std::min(range.end, b0 + batch);
     const std::uint64_t tasks = (b1 - b0 + kTask - 1) / kTask;
     parallel_for(static_cast<std::size_t>(tasks), threads, [&](std::size_t t, unsigned worker) {
       const std::uint64_t s0 = b0 + t * kTask;
       const std::uint64_t s1 = std::min(b1, s0 + kTask);
       for (std::uint64_t s = s0; s < s1; ++s) {
         double lw = 0.0;
-        d.loss[s] = draw_scenario(m, s, scratch[worker], lw, [](std::size_t) {});
-        if (!d.log_w.empty()) d.log_w[s] = lw;
+        d.loss[s - first] = draw_scenario(m, s, scratch[worker], lw, [](std::size_t) {});
+        if (!d.log_w.empty()) d.log_w[s - first] = lw;
       }
     });
-    if (opt.progress) opt.progress(b1, n);
+    if (opt.progress) opt.progress(b1 - range.begin, n);
   }
-  return d;
+}
+
+// Shared run: every process sends its draws to the root, which receives them in rank order into
+// its arrays of the whole run; the other processes' arrays are released.
+void gather_draws(ScenarioExchange& x, std::uint64_t n, Draws& d) {
+  const unsigned ranks = x.ranks();
+  if (x.rank() != 0) {
+    x.send_to_root(d.loss);
+    if (!d.log_w.empty()) x.send_to_root(d.log_w);
+    d = Draws{};
+    return;
+  }
+  for (unsigned q = 1; q < ranks; ++q) {
+    const ScenarioRange rq = scenario_range(n, q, ranks);
+    const auto size = static_cast<std::size_t>(rq.end - rq.begin);
+    x.receive_from(q, std::span<double>(d.loss).subspan(static_cast<std::size_t>(rq.begin), size));
+    if (!d.log_w.empty())
+      x.receive_from(q, std::span<double>(d.log_w).subspan(static_cast<std::size_t>(rq.begin), size));
+  }
 }
 
 // Expected loss and the effective sample size, in scenario order.
@@ -397,44 +431,111 @@ void add_tail_scenarios(const Model& m, const std::vector<std::uint64_t>& tail, 
   }
 }
 
-// Contributions: the scenarios at or above the smallest VaR are drawn again, in blocks whose
-// sums are added in block order (rounds of one block per worker), so that they never depend on
-// the number of threads.
-void set_contributions(const Model& m, const SortedLosses& sl, std::size_t nb,
+// The scenarios whose loss is at or above the smallest VaR, in scenario order.
+std::vector<std::uint64_t> tail_scenarios(const SortedLosses& sl, double smallest_var) {
+  const auto first = std::lower_bound(sl.sorted.begin(), sl.sorted.end(), smallest_var) - sl.sorted.begin();
+  std::vector<std::uint64_t> tail(sl.order.begin() + first, sl.order.end());
+  std::sort(tail.begin(), tail.end());
+  return tail;
+}
+
+// The contribution sums over the tail scenarios, added block by block in block order.
+struct ContributionSums {
+  std::vector<double> above, above2, at, atom;
+  ContributionSums(std::size_t levels, std::size_t book_size)
+      : above(levels * book_size, 0.0),
+        above2(levels * book_size, 0.0),
+        at(levels * book_size, 0.0),
+        atom(levels, 0.0) {}
+  void add(const TailSums& x) noexcept {
+    for (std::size_t k = 0; k < above.size(); ++k) {
+      above[k] += x.above[k];
+      above2[k] += x.above2[k];
+      at[k] += x.at[k];
+    }
+    for (std::size_t lev = 0; lev < atom.size(); ++lev) atom[lev] += x.atom[lev];
+  }
+};
+
+// A block's sums as one message: above, above2, at, atom.
+void pack(const TailSums& x, std::vector<double>& out) {
+  out.clear();
+  out.insert(out.end(), x.above.begin(), x.above.end());
+  out.insert(out.end(), x.above2.begin(), x.above2.end());
+  out.insert(out.end(), x.at.begin(), x.at.end());
+  out.insert(out.end(), x.atom.begin(), x.atom.end());
+}
+void unpack(const std::vector<double>& in, TailSums& x) noexcept {
+  auto it = in.begin();
+  const auto take = [&it](std::vector<double>& v) {
+    std::copy(it, it + static_cast<std::ptrdiff_t>(v.size()), v.begin());
+    it += static_cast<std::ptrdiff_t>(v.size());
+  };
+  take(x.above);
+  take(x.above2);
+  take(x.at);
+  take(x.atom);
+}
+
+// Contributions: the tail scenarios are drawn again in blocks of kTask, block k on process
+// k mod P, each process's blocks in rounds of one per worker; the root adds every block's sums in
+// block order, so that they depend neither on the number of threads nor on that of processes.
+// Only the root sets r's contributions.
+void set_contributions(const Model& m, const std::vector<std::uint64_t>& scenarios, double dn, std::size_t nb,
                        const std::vector<double>& levels, unsigned threads, std::vector<Scratch>& scratch,
-                       SimulationResult& r) {
+                       ScenarioExchange* exchange, SimulationResult& r) {
   const std::size_t L = levels.size();
-  const double dn = sl.dn;
-  std::vector<std::uint64_t> tail_scenarios(
-      sl.order.begin() +
-          static_cast<std::ptrdiff_t>(std::lower_bound(sl.sorted.begin(), sl.sorted.end(), r.tails[0].var) -
-                                      sl.sorted.begin()),
-      sl.order.end());
-  std::sort(tail_scenarios.begin(), tail_scenarios.end());
-  std::vector<double> sum_above(L * nb, 0.0), sum_above2(L * nb, 0.0), sum_at(L * nb, 0.0);
-  std::vector<double> atom_weight(L, 0.0);
-  const std::size_t tasks = (tail_scenarios.size() + kTask - 1) / kTask;
+  const unsigned rank = exchange ? exchange->rank() : 0;
+  const unsigned ranks = exchange ? exchange->ranks() : 1;
+  const std::size_t tasks = (scenarios.size() + kTask - 1) / kTask;
+  std::vector<std::size_t> mine;  // this process's blocks, ascending
+  for (std::size_t k = rank; k < tasks; k += ranks) mine.push_back(k);
+  ContributionSums sums(rank == 0 ? L : 0, rank == 0 ? nb : 0);
   std::vector<TailSums> acc;
   acc.reserve(threads);
   for (unsigned t = 0; t < threads; ++t) acc.emplace_back(L, nb, m.obligors.size());
-  for (std::size_t r0 = 0; r0 < tasks; r0 += threads) {
-    const std::size_t r1 = std::min(tasks, r0 + threads);
+  std::vector<double> message;
+  std::unique_ptr<TailSums> received;
+  std::size_t next = 0;  // the root's next block to add
+  for (std::size_t r0 = 0; r0 < mine.size(); r0 += threads) {
+    const std::size_t r1 = std::min(mine.size(), r0 + threads);
     parallel_for(r1 - r0, threads, [&](std::size_t t, unsigned worker) {
       TailSums& x = acc[t];
       x.reset();
-      const std::size_t k0 = (r0 + t) * kTask;
-      const std::size_t k1 = std::min(tail_scenarios.size(), k0 + kTask);
-      add_tail_scenarios(m, tail_scenarios, k0, k1, r.tails, nb, scratch[worker], x);
+      const std::size_t k0 = mine[r0 + t] * kTask;
+      const std::size_t k1 = std::min(scenarios.size(), k0 + kTask);
+      add_tail_scenarios(m, scenarios, k0, k1, r.tails, nb, scratch[worker], x);
     });
-    for (std::size_t t = 0; t < r1 - r0; ++t) {
-      for (std::size_t k = 0; k < L * nb; ++k) {
-        sum_above[k] += acc[t].above[k];
-        sum_above2[k] += acc[t].above2[k];
-        sum_at[k] += acc[t].at[k];
+    if (rank != 0) {
+      for (std::size_t t = 0; t < r1 - r0; ++t) {
+        pack(acc[t], message);
+        exchange->send_to_root(message);
       }
-      for (std::size_t lev = 0; lev < L; ++lev) atom_weight[lev] += acc[t].atom[lev];
+      continue;
+    }
+    // The root adds the blocks before each of its own in order, receiving the others' as it goes.
+    for (std::size_t t = 0; t < r1 - r0; ++t) {
+      for (; next < mine[r0 + t]; ++next) {
+        if (!received) received = std::make_unique<TailSums>(L, nb, 0);
+        message.resize(3 * L * nb + L);
+        exchange->receive_from(static_cast<unsigned>(next % ranks), message);
+        unpack(message, *received);
+        sums.add(*received);
+      }
+      sums.add(acc[t]);
+      ++next;
     }
   }
+  if (rank != 0) return;
+  for (; next < tasks; ++next) {  // blocks after the root's last
+    if (!received) received = std::make_unique<TailSums>(L, nb, 0);
+    message.resize(3 * L * nb + L);
+    exchange->receive_from(static_cast<unsigned>(next % ranks), message);
+    unpack(message, *received);
+    sums.add(*received);
+  }
+  const std::vector<double>&sum_above = sums.above, &sum_above2 = sums.above2, &sum_at = sums.at,
+        &atom_weight = sums.atom;
   r.es_contributions.assign(L * nb, 0.0);
   r.es_contribution_se.assign(L * nb, 0.0);
   for (std::size_t lev = 0; lev < L; ++lev) {
@@ -463,35 +564,124 @@ std::string problem_of(const SimulationOptions& opt, const FactorCholesky& facto
   return {};
 }
 
+// Shared run: the root's tail scenarios and VaRs to every process (each process's r.tails gets
+// the VaRs; only the root's has the rest of the tail figures).
+void share_tail(ScenarioExchange& x, std::size_t levels, std::vector<std::uint64_t>& tail,
+                SimulationResult& r) {
+  std::uint64_t count = tail.size();
+  x.broadcast(std::span<std::uint64_t>(&count, 1));
+  tail.resize(static_cast<std::size_t>(count));
+  x.broadcast(std::span<std::uint64_t>(tail));
+  std::vector<double> vars(levels);
+  if (x.rank() == 0) {
+    for (std::size_t l = 0; l < levels; ++l) vars[l] = r.tails[l].var;
+  }
+  x.broadcast(std::span<double>(vars));
+  if (x.rank() != 0) {
+    r.tails.resize(levels);
+    for (std::size_t l = 0; l < levels; ++l) r.tails[l].var = vars[l];
+  }
+}
+
+// Shared run: the root's result to every process (all sizes follow from the common inputs).
+void share_result(ScenarioExchange& x, const SimulationOptions& opt, std::size_t nb, SimulationResult& r) {
+  const std::size_t L = opt.confidence_levels.size(), E = opt.exceedance_points.size();
+  const std::size_t C = opt.contributions ? L * nb : 0;
+  std::vector<double> v;
+  if (x.rank() == 0) {
+    v = {r.expected_loss, r.expected_loss_se, r.effective_scenarios};
+    for (const SimulatedTail& t : r.tails) v.insert(v.end(), {t.var, t.var_se, t.es, t.es_se, t.exceedance});
+    v.insert(v.end(), r.exceedance.begin(), r.exceedance.end());
+    v.insert(v.end(), r.exceedance_se.begin(), r.exceedance_se.end());
+    v.insert(v.end(), r.es_contributions.begin(), r.es_contributions.end());
+    v.insert(v.end(), r.es_contribution_se.begin(), r.es_contribution_se.end());
+  } else {
+    v.resize(3 + 5 * L + 2 * E + 2 * C);
+  }
+  x.broadcast(std::span<double>(v));
+  if (x.rank() == 0) return;
+  auto it = v.begin();
+  r.expected_loss = *it++;
+  r.expected_loss_se = *it++;
+  r.effective_scenarios = *it++;
+  r.tails.resize(L);
+  for (std::size_t l = 0; l < L; ++l) {
+    r.tails[l] = {opt.confidence_levels[l], it[0], it[1], it[2], it[3], it[4]};
+    it += 5;
+  }
+  const auto take = [&it](std::vector<double>& out, std::size_t k) {
+    out.assign(it, it + static_cast<std::ptrdiff_t>(k));
+    it += static_cast<std::ptrdiff_t>(k);
+  };
+  take(r.exceedance, E);
+  take(r.exceedance_se, E);
+  take(r.es_contributions, C);
+  take(r.es_contribution_se, C);
+}
+
 }  // namespace
 
 SimulationResult simulate_losses(std::span<const SectorExposure> book, const FactorCholesky& factors,
                                  const SimulationOptions& opt) noexcept {
   SimulationResult r;
+  ScenarioExchange* const x = opt.exchange != nullptr && opt.exchange->ranks() > 1 ? opt.exchange : nullptr;
+  Model m;
   try {
     r.message = problem_of(opt, factors);
-    if (!r.message.empty()) return r;
-    Model m;
-    m.factors = &factors;
-    m.seed = opt.seed;
-    r.message = prepare_obligors(book, factors, m);
-    if (!r.message.empty()) return r;
+    if (r.message.empty()) {
+      m.factors = &factors;
+      m.seed = opt.seed;
+      r.message = prepare_obligors(book, factors, m);
+    }
+  } catch (...) {
+    r.message = "out of memory";
+  }
+  // Every process checks the same inputs; should one refuse them, all stop here, before any draw.
+  if (x != nullptr && !x->all_ok(r.message.empty()) && r.message.empty()) {
+    r.status = SimulationStatus::peer_failed;
+    r.message = "another process of the run refused its input";
+    return r;
+  }
+  if (!r.message.empty()) return r;
+  try {
     if (opt.importance_sampling) {
       m.shift = factor_shift(m, norm_quantile_upper(1.0 - opt.confidence_levels.back()));
-      for (double x : m.shift) m.shift_norm2 += x * x;
+      for (double s : m.shift) m.shift_norm2 += s * s;
       r.factor_shift = m.shift;
     }
     const unsigned threads = std::max(1U, opt.threads);
     std::vector<Scratch> scratch = make_scratch(threads, factors.factors);
-    const Draws draws = draw_losses(m, opt, threads, scratch);
-    set_expected_loss(draws, r);
-    const SortedLosses sorted(draws);
-    set_tails(opt, draws, sorted, r);
-    if (opt.contributions)
-      set_contributions(m, sorted, book.size(), opt.confidence_levels, threads, scratch, r);
+    const std::uint64_t n = opt.scenarios;
+    const bool root = x == nullptr || x->rank() == 0;
+    const ScenarioRange range = x == nullptr ? ScenarioRange{0, n} : scenario_range(n, x->rank(), x->ranks());
+    const std::uint64_t first = root ? 0 : range.begin;
+    const std::uint64_t held = root ? n : range.end - range.begin;
+    Draws draws;
+    draws.loss.resize(static_cast<std::size_t>(held));
+    draws.log_w.resize(m.shift.empty() ? 0 : static_cast<std::size_t>(held));
+    draw_losses(m, opt, range, first, threads, scratch, draws);
+    if (x != nullptr) gather_draws(*x, n, draws);
+    std::vector<std::uint64_t> tail;
+    double dn = static_cast<double>(n);
+    if (root) {
+      set_expected_loss(draws, r);
+      const SortedLosses sorted(draws);
+      set_tails(opt, draws, sorted, r);
+      if (opt.contributions) tail = tail_scenarios(sorted, r.tails[0].var);
+      dn = sorted.dn;
+    }
+    draws = Draws{};
+    if (opt.contributions) {
+      if (x != nullptr) share_tail(*x, opt.confidence_levels.size(), tail, r);
+      set_contributions(m, tail, dn, book.size(), opt.confidence_levels, threads, scratch, x, r);
+    }
+    if (x != nullptr) share_result(*x, opt, book.size(), r);
+    r.scenarios = n;
     r.status = SimulationStatus::ok;
     return r;
   } catch (...) {
+    // Past the first draw the processes can no longer agree to stop: the run ends everywhere.
+    if (x != nullptr) x->abort_run("out of memory");
     r = SimulationResult{};
     r.message = "out of memory";
     return r;

@@ -134,6 +134,8 @@ struct PortfolioBookOptions {
   DrivingPd driving_pd = DrivingPd::model;  ///< calibrated needs pd_calibration
   /// Called between simulation batches: (scenario name, scenarios done, scenarios in all).
   std::function<void(const std::string&, std::uint64_t, std::uint64_t)> progress;
+  /// Shares the Monte Carlo runs between processes (loss_simulation.hpp); nullptr: this one alone.
+  ScenarioExchange* exchange = nullptr;
   /// threads >= 1; asset_correlation, when given, in [0, 1); driving_pd calibrated only with a
   /// calibration.
   OptionCheck validate() const;

@@ -26,6 +26,15 @@
 // fastest at mu (a fixed point), i.e. towards the most likely factor outcome of a loss at the
 // highest level (Glasserman and Li 2005, the factor-mean shift); in one factor, mu = G(1 - a_max).
 //
+// Across processes: with options.exchange, each process draws a contiguous share of the scenarios
+// (scenario_range), the root (process 0) gathers every loss and weight and computes the expected
+// loss and the tails exactly as one process would, the tail scenarios are drawn again for the
+// contributions in blocks handed round the processes, and the root adds the blocks' sums in block
+// order. Every process returns the root's result, identical to a one-process run of the same seed
+// for any number of processes and threads. Communication per process: its draws (8 bytes per
+// scenario, 16 with importance sampling) to the root, and 8 (3 L n + L) bytes per contribution
+// block of 1024 tail scenarios it draws (L levels, n obligors).
+//
 // Pure numerics: no I/O, nothing throws.
 //
 // **Example**:
@@ -45,6 +54,7 @@
 #include <vector>
 
 #include "firmcall/portfolio/factor_model.hpp"
+#include "firmcall/portfolio/scenario_exchange.hpp"
 #include "firmcall/util/option_check.hpp"
 
 namespace firmcall {
@@ -67,12 +77,16 @@ struct SimulationOptions {
   std::vector<double> exceedance_points;  ///< losses x at which to estimate P(L > x), ascending
   /// Called on the calling thread between batches with (scenarios done, scenarios in all).
   std::function<void(std::uint64_t, std::uint64_t)> progress;
+  /// Shares the run between processes (nullptr: this process alone); every process passes the
+  /// same book, factors and options. Not owned.
+  ScenarioExchange* exchange = nullptr;
   /// confidence_levels non-empty, distinct, ascending, inside (0, 1); scenarios in [2, 2^40];
   /// exceedance_points ascending (what simulate_losses refuses otherwise).
   OptionCheck validate() const;
 };
 
-enum class SimulationStatus : std::uint8_t { ok, invalid_input };
+/// peer_failed: another process of a shared run refused its input (this one's was valid).
+enum class SimulationStatus : std::uint8_t { ok, invalid_input, peer_failed };
 std::string_view to_string(SimulationStatus s) noexcept;
 
 /// VaR and ES at one level, with standard errors.
