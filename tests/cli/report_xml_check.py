@@ -26,6 +26,7 @@ def main():
         page = os.path.join(tmp, "report.html")
         subprocess.run([firmcall, "-q", "report", "samples/demo_book.yaml", "--scenarios",
                         "samples/stress_scenarios.yaml", "--names", "GOR-33,BEL-28,CIN-03,ALD-01", "--portfolio",
+                        "--sheet", "GOR-33", "--sheet", "ALD-01",
                         "--validate", "samples/outcomes.csv",
                         "--db", db, "--html", page], cwd=source, check=True)
         with open(page, encoding="utf-8") as f:
@@ -55,7 +56,8 @@ def main():
             failures.append(f"chart {i + 1} has no axis title")
     if root is not None:
         sections = [s.get("id") for s in root.iter("section")]
-        expected = ["summary", "dd-leverage", "names", "stress", "term", "portfolio", "monitoring", "validation"]
+        expected = ["summary", "dd-leverage", "names", "stress", "term", "portfolio", "monitoring", "validation",
+                    "sheet-1", "sheet-2"]
         if sections != expected:
             failures.append(f"sections {sections}, expected {expected}")
         if any(True for _ in root.iter("script")):
