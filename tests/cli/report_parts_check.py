@@ -17,6 +17,7 @@ import collections
 import csv
 import datetime
 import io
+import math
 import os
 import re
 import subprocess
@@ -206,6 +207,56 @@ def check_palette(text, root):
                   f"signed bars without a key in words: {text_of(svg.find('title'))}")
 
 
+def check_calibrated_sheet(exe, root, tmp):
+    """With the calibrated PD driving: the sheet's calibrated PD equals score --pd-calibration, its
+    stressed calibrated PD stress --pd-calibration, its expected loss PD_T x LGD x EAD with
+    PD_T = 1 - (1 - PD1)^T (constant annual default intensity, from memory), and the lead names it."""
+    book_path, cal = "samples/demo_book.csv", "samples/calibration.yaml"
+    page = os.path.join(tmp, "calibrated.html")
+    run(exe, root, ["-q", "report", book_path, "--pd-calibration", cal, "-s", "samples/stress_scenarios.yaml",
+                    "--sheet", "GOR-33", "--html", page])
+    _, doc = parse_page(page)
+    s = sheet_of(doc, "GOR-33")
+    if not check(s is not None, "no calibrated tear sheet"):
+        return
+    score = csv_rows(run(exe, root, ["score", book_path, "--pd-calibration", cal, "--format", "csv"]).stdout)
+    row = next(r for r in score if r["id"] == "GOR-33")
+    got = {}
+    for r in table_rows(s, "fc-sheet-results"):
+        got.update(r)
+    check(got.get("pd_calibrated") == row["pd_calibrated"],
+          f"calibrated sheet pd_calibrated {got.get('pd_calibrated')!r}, score {row['pd_calibrated']!r}")
+    with open(os.path.join(root, book_path), newline="") as f:
+        b = next(r for r in csv.DictReader(f) if r["id"] == "GOR-33")
+    pd_t = -math.expm1(float(row["horizon"]) * math.log1p(-float(row["pd_calibrated"])))
+    el = pd_t * float(b["lgd"]) * float(b["ead"])
+    check(abs(float(got.get("expected_loss", "nan")) - el) <= 1e-14 * el,
+          f"calibrated expected loss {got.get('expected_loss')!r}, PD_T x LGD x EAD {el!r}")
+    stress = csv_rows(run(exe, root, ["stress", book_path, "-s", "samples/stress_scenarios.yaml", "--pd-calibration",
+                                      cal, "--format", "csv"]).stdout)
+    want = [r["pd_calibrated_stressed"] for r in stress if r["id"] == "GOR-33"]
+    page_rows = [r.get("pd_calibrated_stressed") for r in table_rows(s, "fc-sheet-stress")]
+    check(page_rows == want and len(want) == 3, f"calibrated stressed PDs {page_rows}, stress CSV {want}")
+    check("Driving PD: the calibrated one-year PD" in text_of(s.find("p")), "calibrated sheet lead")
+
+
+def check_many_failures(exe, root, tmp):
+    """Seven bad rows of nine: the lead names the first five by id and counts the rest."""
+    rows = [("id", "market_cap", "equity_vol", "short_term_debt", "long_term_debt", "rate")]
+    rows += [(f"BAD-{k}", 1000, "-0.3", 200, 400, 0.03) for k in range(1, 8)]
+    rows += [("OK-8", 1000, 0.3, 200, 400, 0.03), ("OK-9", 2000, 0.3, 200, 400, 0.03)]
+    book = os.path.join(tmp, "many.csv")
+    with open(book, "w", newline="") as f:
+        csv.writer(f).writerows(rows)
+    page = os.path.join(tmp, "many.html")
+    run(exe, root, ["-q", "report", book, "--html", page], expect=(1,))
+    _, doc = parse_page(page)
+    lead = text_of(next(s for s in doc.iter("section") if s.get("id") == "summary").find("p"))
+    want = ("2 of 9 obligors scored; 7 failed: BAD-1 (invalid_input), BAD-2 (invalid_input), BAD-3 (invalid_input), "
+            "BAD-4 (invalid_input), BAD-5 (invalid_input) and 2 more")
+    check(lead.startswith(want), f"lead {lead!r}, expected it to start {want!r}")
+
+
 def check_failures_book(exe, root, tmp):
     """Lead sentence, not-scored list, small amounts with significant digits and whole names in
     tooltips, on an invented book with two bad rows."""
@@ -310,6 +361,8 @@ def main():
                 expect=(2,))
         check("ALD-01" in r.stderr and "twice" in r.stderr, f"repeated id message: {r.stderr!r}")
         check_failures_book(exe, root, tmp)
+        check_many_failures(exe, root, tmp)
+        check_calibrated_sheet(exe, root, tmp)
     for f in failures:
         print("FAIL:", f)
     if not failures:
