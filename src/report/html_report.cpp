@@ -1307,6 +1307,63 @@ std::string sheet_results(const ReportData& d, const ReportSheet& sh) {
   return out;
 }
 
+// Days since 1970-01-01 of a YYYY-MM-DD date (the proleptic Gregorian calendar; the civil-date
+// algorithm of Howard Hinnant's date library, from memory); NaN when `date` is not one.
+double days_of(const std::string& date) {
+  if (!is_calendar_date(date)) return NAN;
+  int y = std::stoi(date.substr(0, 4));
+  const int m = std::stoi(date.substr(5, 2)), dd = std::stoi(date.substr(8, 2));
+  y -= m <= 2 ? 1 : 0;
+  const int era = y / 400;  // years 1000-9999: never negative
+  const int yoe = y - era * 400;
+  const int doy = (153 * (m + (m > 2 ? -3 : 9)) + 2) / 5 + dd - 1;
+  const int doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
+  return static_cast<double>(era * 146097 + doe - 719468);
+}
+
+// The obligor's DD in every recorded run against the days since the first, with the DD of the
+// stress PD threshold at a one-year horizon.
+std::string sheet_history_chart(const ReportData& d, const ReportSheet& sh) {
+  std::vector<double> xs, ys;
+  std::vector<std::string> tips;
+  const double day0 = days_of(sh.history.front().run.as_of);
+  for (const RunStore::SeriesPoint& p : sh.history) {
+    const double x = days_of(p.run.as_of) - day0;
+    if (!p.obligor.has_measures || !std::isfinite(x)) continue;
+    xs.push_back(x);
+    ys.push_back(p.obligor.measures.distance_to_default);
+    tips.push_back("run " + std::to_string(p.run.run_id) + ", as of " + p.run.as_of + ": DD " +
+                   format_cell(p.obligor.measures.distance_to_default, CellStyle::decimal3) + ", PD " +
+                   report_pd(p.obligor.measures.pd));
+  }
+  if (xs.size() < 2) return {};
+  const double threshold = d.config.stress.pd_threshold;
+  const double dd_threshold = norm_quantile_upper(threshold);
+  SvgAxis x{.label = "days since " + sh.history.front().run.as_of + " (first run)",
+            .min = 0,
+            .max = 1,
+            .log = false,
+            .format = TickFormat::plain};
+  SvgAxis y{.label = "distance to default (standard deviations)",
+            .min = 0,
+            .max = 1,
+            .log = false,
+            .format = TickFormat::plain};
+  std::vector<double> yfit = ys;
+  yfit.push_back(dd_threshold);
+  fit_axis(x, xs, true);
+  fit_axis(y, yfit, true);
+  SvgPlot plot(x, y, "Distance to default by recorded run", 560.0, 300.0);
+  plot.hline(dd_threshold, "fc-ref", "DD at PD " + level_text(threshold) + " (one year)");
+  plot.line(xs, ys, "fc-s1", full_name(d.book.obligors[sh.index]), false);
+  for (std::size_t k = 0; k < xs.size(); ++k) plot.point(xs[k], ys[k], "fc-dot-strong", tips[k], "");
+  return figure(
+      plot.str(),
+      "One dot per recorded run that scored the obligor, from the history store; lower means closer to "
+      "default. The dashed line is the DD of a one-year PD of " +
+          level_text(threshold) + ".");
+}
+
 std::string sheet_history(const ReportData& d, const ReportSheet& sh) {
   if (d.options.store_path.empty()) {
     return "<h3>DD and PD history</h3>\n<p class=\"fc-note\">No history store given (give --db STORE).</p>\n";
@@ -1335,7 +1392,7 @@ std::string sheet_history(const ReportData& d, const ReportSheet& sh) {
          ")</h3>\n<p class=\"fc-note\">As firmcall track: the model PD over each run's horizon; each run's "
          "grade as "
          "recorded, on that run's driving PD.</p>\n" +
-         t.str();
+         t.str() + sheet_history_chart(d, sh);
 }
 
 std::string sheet_stress(const ReportData& d, const ReportSheet& sh) {

@@ -46,6 +46,14 @@ def grade_of(pd_one_year):
     return next(label for label, top in SCALE if pd_one_year <= top)
 
 
+def table_pd(pd):
+    """The score table's PD text (docs/report.md, "Numbers for people")."""
+    p = 100.0 * pd
+    if p == 0.0:
+        return "0%"
+    return f"{p:.4f}%" if abs(p) >= 1e-3 else f"{p:.2e}%"
+
+
 def run(exe, root, args, env=None, expect=(0,)):
     r = subprocess.run([exe] + args, cwd=root, capture_output=True, text=True, env=env)
     if r.returncode not in expect:
@@ -147,6 +155,11 @@ def check_sheet(root, obligor, score, sens, term, stress, track, book):
         for col in ("distance_to_default", "pd", "spread_bp"):
             check(f.get(col) == c[col], f"{obligor} history run {c['run_id']} {col}: {f.get(col)!r}, track {c[col]!r}")
         check(text.get("grade_recorded") == c["grade_recorded"], f"{obligor} history grade")
+    # The DD history chart: a dot per recorded run, its tooltip in the table's rounding of track's figures.
+    titles = [text_of(t) for t in s.iter("title") if text_of(t).startswith("run ")]
+    want = [f"run {c['run_id']}, as of {c['as_of']}: DD {float(c['distance_to_default']):.3f}, "
+            f"PD {table_pd(float(c['pd']))}" for c in track]
+    check(titles == want, f"{obligor} history chart points {titles}, track {want}")
     lead = text_of(s.find("p"))
     check("Driving PD: the model PD (Merton)" in lead and "Amounts in EUR" in lead,
           f"{obligor} tear sheet lead names the driving PD and the currency: {lead!r}")
