@@ -1355,7 +1355,8 @@ std::string sheet_history_chart(const ReportData& d, const ReportSheet& sh) {
   fit_axis(y, yfit, true);
   SvgPlot plot(x, y, "Distance to default by recorded run", 560.0, 300.0);
   plot.hline(dd_threshold, "fc-ref", "DD at PD " + level_text(threshold) + " (one year)");
-  plot.line(xs, ys, "fc-s1", full_name(d.book.obligors[sh.index]), false);
+  // In the chart's own units (days, DD), so that a reader of the page gets the figures exactly.
+  plot.exact_line(xs, ys, "fc-s1 fc-sheet-dd", full_name(d.book.obligors[sh.index]));
   for (std::size_t k = 0; k < xs.size(); ++k) plot.point(xs[k], ys[k], "fc-dot-strong", tips[k], "");
   return figure(
       plot.str(),

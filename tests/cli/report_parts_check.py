@@ -160,6 +160,14 @@ def check_sheet(root, obligor, score, sens, term, stress, track, book):
     want = [f"run {c['run_id']}, as of {c['as_of']}: DD {float(c['distance_to_default']):.3f}, "
             f"PD {table_pd(float(c['pd']))}" for c in track]
     check(titles == want, f"{obligor} history chart points {titles}, track {want}")
+    # The line in the chart's own units: days since the first as-of date (Python's date arithmetic)
+    # and DD exactly as track writes it.
+    lines = [p for p in s.iter("polyline") if "fc-sheet-dd" in (p.get("class") or "").split()]
+    if check(len(lines) == 1, f"{obligor}: {len(lines)} DD history lines"):
+        first = datetime.date.fromisoformat(track[0]["as_of"])
+        want = " ".join(f"{(datetime.date.fromisoformat(c['as_of']) - first).days},{c['distance_to_default']}"
+                        for c in track)
+        check(lines[0].get("points") == want, f"{obligor} history line {lines[0].get('points')!r}, expected {want!r}")
     lead = text_of(s.find("p"))
     check("Driving PD: the model PD (Merton)" in lead and "Amounts in EUR" in lead,
           f"{obligor} tear sheet lead names the driving PD and the currency: {lead!r}")
