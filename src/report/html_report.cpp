@@ -1221,7 +1221,7 @@ std::string years_text(double t) {
 // The unit of an amount of obligor `rec`: its currency when the book names one.
 std::string currency_of(const ObligorRecord& rec) {
   const std::string& c = rec.get(TextField::currency);
-  return c.empty() ? std::string("currency units") : c;
+  return c.empty() ? std::string("the obligor's currency units (the book names no currency)") : c;
 }
 
 // A table of (quantity, value, unit) rows, each value cell naming its CSV column.
@@ -1469,8 +1469,12 @@ std::string sheet_term(const ReportSheet& sh) {
   std::string out =
       "<h3>PD term structure</h3>\n<p class=\"fc-note\">As firmcall score --horizons: the Merton "
       "model solved once at the obligor's horizon and projected; model PDs.</p>\n";
-  if (sh.term.points.empty()) {
-    return out + "<p class=\"fc-note\">No term structure: " + h(sh.term.first_problem()) + "</p>\n";
+  const bool any_ok =
+      std::any_of(sh.term.points.begin(), sh.term.points.end(), [](const TermPoint& p) { return p.ok(); });
+  if (!any_ok) {
+    const std::string why = sh.term.first_problem();
+    return out + "<p class=\"fc-note\">No term structure" + (why.empty() ? std::string() : ": " + h(why)) +
+           ".</p>\n";
   }
   return out + t.str();
 }

@@ -293,7 +293,7 @@ def check_failures_book(exe, root, tmp):
     with open(book, "w", newline="") as f:
         csv.writer(f).writerows(rows)
     page = os.path.join(tmp, "failures.html")
-    run(exe, root, ["-q", "report", book, "--names", "LONG-01", "--html", page], expect=(1,))
+    run(exe, root, ["-q", "report", book, "--names", "LONG-01", "--sheet", "BAD-04", "--html", page], expect=(1,))
     text, doc = parse_page(page)
     summary = next(s for s in doc.iter("section") if s.get("id") == "summary")
     lead = text_of(summary.find("p"))
@@ -322,6 +322,15 @@ def check_failures_book(exe, root, tmp):
                 shown += 1
             check(tds[10] != "0.00", f"{tds[0]} expected loss printed as 0.00")
     check(shown >= 5, f"only {shown} small expected losses on the page")
+    # A tear sheet of an obligor not scored: the reason, no figures, nothing non-finite printed.
+    sheet = sheet_of(doc, "BAD-04")
+    if check(sheet is not None, "no tear sheet of BAD-04"):
+        words = text_of(sheet)
+        check("Not scored (invalid_input)" in words and "equity_vol" in words, "BAD-04 sheet gives no reason")
+        check(not by_class(sheet, "table", "fc-sheet-results") and not by_class(sheet, "table", "fc-sheet-term"),
+              "BAD-04 sheet shows result or term tables")
+    visible = re.sub(r"<[^>]+>", " ", text)
+    check(re.search(r"\b(nan|inf)\b", visible, re.I) is None, "the page prints a non-finite number")
     # Tooltips: the long name in full in the DD chart and the term structure line.
     titles = [text_of(t) for t in doc.iter("title")]
     full = f"LONG-01 {long_name}"
