@@ -369,7 +369,7 @@ std::vector<std::string> calibrated_name_row(const ReportData& d, std::size_t i,
   const bool ead = s.resolved.has_ead;
   const int g = driving_grade_of(d, i);
   const double horizon = s.resolved.inputs.horizon_years;
-  attrs.assign(16, std::string());
+  attrs.assign(17, std::string());
   attrs[7] = " data-value=\"" + exact(c.pd) + "\" data-lower=\"" + exact(c.lower) + "\" data-upper=\"" +
              exact(c.upper) + "\"";
   return {id_of(rec),
@@ -385,6 +385,7 @@ std::vector<std::string> calibrated_name_row(const ReportData& d, std::size_t i,
           report_spread_bp(m.spread_bp),
           fixed(m.leverage, 3),
           report_amount(m.asset_value),
+          rec.get(TextField::currency).empty() ? "-" : rec.get(TextField::currency),
           ead ? report_amount(s.resolved.ead) : "-",
           ead ? report_amount(driving_pd_of(d, i) * s.resolved.lgd * s.resolved.ead) : "-"};
 }
@@ -403,6 +404,7 @@ std::vector<std::string> name_row(const ReportData& d, std::size_t i) {
           report_spread_bp(m.spread_bp),
           fixed(m.leverage, 3),
           report_amount(m.asset_value),
+          rec.get(TextField::currency).empty() ? "-" : rec.get(TextField::currency),
           ead ? report_amount(s.resolved.ead) : "-",
           ead ? report_amount(m.pd * s.resolved.lgd * s.resolved.ead) : "-"};
 }
@@ -422,19 +424,19 @@ std::string names_section(const ReportData& d) {
   const bool cal = d.calibration != nullptr;
   std::string lead = "The " + count(n) + " highest and " + count(n) + " lowest PDs of the book. ";
   if (cal) {
-    lead += std::string("Ranked and graded on the ") +
-            (calibrated_drives(d) ? "calibrated one-year PD" : "model PD") +
-            " (the driving PD). Model PD at each obligor's horizon (column horizon, years); calibrated PD "
-            "over one year with its " +
-            level_text(d.calibration->calibration.confidence_level) +
-            " interval, 'yes' where the DD lies outside the calibration sample's range (extrapolated); "
-            "expected loss on the driving PD over each obligor's horizon. Spread in basis points, amounts in "
-            "each obligor's currency unit (EAD in the book's).";
+    lead +=
+        std::string("Ranked and graded on the ") +
+        (calibrated_drives(d) ? "calibrated one-year PD" : "model PD") +
+        " (the driving PD). Model PD at each obligor's horizon (column horizon, years); calibrated PD "
+        "over one year with its " +
+        level_text(d.calibration->calibration.confidence_level) +
+        " interval, 'yes' where the DD lies outside the calibration sample's range (extrapolated); "
+        "expected loss on the driving PD over each obligor's horizon. Spread in basis points, asset value in "
+        "the obligor's currency (column currency), EAD and expected loss in the book's EAD unit.";
   } else {
     lead +=
-        "PD at each obligor's horizon, spread in basis points, amounts in each obligor's currency unit (EAD "
-        "in "
-        "the book's).";
+        "Model PD (the driving PD) at each obligor's horizon, spread in basis points, asset value in the "
+        "obligor's currency (column currency), EAD and expected loss in the book's EAD unit.";
   }
   std::string out = section_open("names", "Weakest and strongest names", lead);
   const std::vector<std::string> heads =
@@ -451,10 +453,11 @@ std::string names_section(const ReportData& d) {
                                      "spread bp",
                                      "DP/V",
                                      "asset value",
+                                     "currency",
                                      "EAD",
                                      "expected loss"}
-          : std::vector<std::string>{"obligor",   "name", "sector",      "grade", "DD",           "PD",
-                                     "spread bp", "DP/V", "asset value", "EAD",   "expected loss"};
+          : std::vector<std::string>{"obligor",   "name", "sector",      "grade",    "DD",  "PD",
+                                     "spread bp", "DP/V", "asset value", "currency", "EAD", "expected loss"};
   const auto table = [&](const std::string& title, auto first, auto last, const char* cls) {
     HtmlTable t(std::string("fc-table ") + cls, heads);
     t.numeric_from(4);

@@ -172,7 +172,7 @@ TEST_CASE("report tables show the score command's CSV values with the table's ro
     }
     CAPTURE(id);
     const auto cells = table_row(f.html, marker, id);
-    REQUIRE(cells.size() == 11);
+    REQUIRE(cells.size() == 12);
     CHECK(cells[1] == s.cell(i, "name"));
     CHECK(cells[4] == fmt("%.3f", s.number(i, "distance_to_default")));  // score table: DD 3 decimals
     CHECK(cells[5] == table_pd(s.number(i, "pd")));
@@ -184,6 +184,7 @@ TEST_CASE("report tables show the score command's CSV values with the table's ro
   CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[5] == "18.8634%");
   CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[6] == "172.92");
   CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[8] == "5,440.64");
+  CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[9] == "ZAR");  // the book's currency of GOR-33
   CHECK(table_row(f.html, "fc-names-strong", "DUN-04")[5] == "8.81e-14%");
 }
 
@@ -433,12 +434,12 @@ TEST_CASE("report --pd-calibration: the portfolio section and expected loss foll
             ? "fc-names-weak"
             : "fc-names-strong";
     const auto cells = table_row(html, marker, id);
-    REQUIRE(cells.size() == 15);
+    REQUIRE(cells.size() == 16);
     CAPTURE(id);
     // EL = PD_T LGD EAD with PD_T = 1 - (1 - PD1)^T (constant annual default intensity, from memory).
     const double pd_t = -std::expm1(po.number(i, "horizon") * std::log1p(-po.number(i, "pd_calibrated")));
     CHECK(std::fabs(pd_t - po.number(i, "pd_driving")) <= 1e-15);
-    CHECK(cells[14] == table_amount(po.number(i, "expected_loss")));
+    CHECK(cells[15] == table_amount(po.number(i, "expected_loss")));
     CHECK(cells[7] == table_pd(po.number(i, "pd_calibrated")));
     CHECK(cells[6] == table_pd(po.number(i, "pd")));
     ++obligors;
