@@ -1801,6 +1801,28 @@ void gather_validation(ReportData& d, const ReportOptions& options, const Config
   if (!curve.empty() && (curve.size() - 1) % step != 0) d.roc.push_back(curve.back());
 }
 
+// The term section's curves of the chosen names, and the horizons of the tear sheets' curves.
+void gather_terms(ReportData& d, const ReportOptions& options, const Config& config) {
+  if (options.term_ids.empty() && options.sheet_ids.empty()) return;
+  TermOptionText choices;
+  choices.horizons = options.horizons;
+  d.term_run = term_book_options(config.term, choices);
+  for (const std::string& id : options.term_ids) {
+    const auto it = std::find_if(d.book.obligors.begin(), d.book.obligors.end(),
+                                 [&id](const ObligorRecord& r) { return id_of(r) == id; });
+    if (it == d.book.obligors.end()) {
+      throw OptionError("term_ids", "obligor '" + id + "' is not in " + d.book.origin);
+    }
+    const auto pos = static_cast<std::size_t>(it - d.book.obligors.begin());
+    if (std::find(d.term_index.begin(), d.term_index.end(), pos) != d.term_index.end()) {
+      throw OptionError("term_ids", "obligor '" + id + "' is named twice");
+    }
+    d.term_index.push_back(pos);
+    d.terms.emplace_back();
+    score_term_obligor(*it, d.book.defaults, config.score, d.term_run, d.terms.back());
+  }
+}
+
 // The tear sheets: each named obligor's term structure, sensitivities and recorded history (its
 // inputs, results and stress rows are those of the other sections).
 void gather_sheets(ReportData& d, const ReportOptions& options, const Config& config) {
@@ -1858,27 +1880,7 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
       }
     }
   }
-  if (!options.term_ids.empty() || !options.sheet_ids.empty()) {
-    TermOptionText choices;
-    choices.horizons = options.horizons;
-    d.term_run = term_book_options(config.term, choices);
-  }
-  if (!options.term_ids.empty()) {
-    for (const std::string& id : options.term_ids) {
-      const auto it = std::find_if(d.book.obligors.begin(), d.book.obligors.end(),
-                                   [&id](const ObligorRecord& r) { return id_of(r) == id; });
-      if (it == d.book.obligors.end()) {
-        throw OptionError("term_ids", "obligor '" + id + "' is not in " + d.book.origin);
-      }
-      const auto pos = static_cast<std::size_t>(it - d.book.obligors.begin());
-      if (std::find(d.term_index.begin(), d.term_index.end(), pos) != d.term_index.end()) {
-        throw OptionError("term_ids", "obligor '" + id + "' is named twice");
-      }
-      d.term_index.push_back(pos);
-      d.terms.emplace_back();
-      score_term_obligor(*it, d.book.defaults, settings, d.term_run, d.terms.back());
-    }
-  }
+  gather_terms(d, options, config);
   if (!options.scenarios_path.empty()) {
     ScenarioSet set = load_scenarios(options.scenarios_path);
     check_filters(set, d.book);
