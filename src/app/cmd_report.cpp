@@ -16,15 +16,18 @@
 namespace firmcall::cli {
 
 namespace {
-// The page's generation time, UTC: SOURCE_DATE_EPOCH when set to whole seconds (the
-// reproducible-builds convention, so that a page can be made again byte for byte), else now.
+// The page's generation time, UTC: SOURCE_DATE_EPOCH when set to whole seconds up to the end of
+// year 9999 (the reproducible-builds convention, so that a page can be made again byte for byte),
+// else now.
 std::string generation_time() {
   const char* epoch = std::getenv("SOURCE_DATE_EPOCH");
   if (epoch != nullptr && *epoch != '\0') {
     const std::string_view text(epoch);
     long long seconds = 0;
     const auto [end, ec] = std::from_chars(text.data(), text.data() + text.size(), seconds);
-    if (ec == std::errc() && end == text.data() + text.size() && seconds >= 0) {
+    constexpr long long kLastSecondOf9999 = 253402300799;  // 9999-12-31T23:59:59Z
+    if (ec == std::errc() && end == text.data() + text.size() && seconds >= 0 &&
+        seconds <= kLastSecondOf9999) {
       return utc_timestamp(static_cast<std::time_t>(seconds));
     }
   }

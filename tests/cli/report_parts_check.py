@@ -382,6 +382,13 @@ def main():
         if check(m is not None, f"header without an ISO 8601 time: {made!r}"):
             at = datetime.datetime.strptime(m.group(1), "%Y-%m-%dT%H:%M:%SZ").replace(tzinfo=datetime.timezone.utc)
             check(before <= at <= after, f"generation time {at} not between {before} and {after}")
+        # SOURCE_DATE_EPOCH past year 9999 or not whole seconds: the clock's time instead.
+        for bad in ("253402300800", "12.5", "-1", "soon"):
+            run(exe, root, ["-q", "report", book_path, "--html", plain], env=dict(env, SOURCE_DATE_EPOCH=bad))
+            _, odd = parse_page(plain)
+            made = " ".join(text_of(p) for p in odd.iter("p") if "fc-made" in (p.get("class") or ""))
+            m = re.fullmatch(r"Generated (\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ) \(UTC\) by firmcall .+", made)
+            check(m is not None and m.group(1)[:4] == str(after.year), f"SOURCE_DATE_EPOCH={bad}: {made!r}")
         # An id of --sheet not in the book: exit code 2, the id and the option named, nothing written.
         bad_page = os.path.join(tmp, "bad.html")
         r = run(exe, root, ["report", book_path, "--sheet", "ALD-01,NOPE-99", "--html", bad_page], expect=(2,))
