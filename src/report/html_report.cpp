@@ -1347,16 +1347,13 @@ std::string sheet_history_chart(const ReportData& d, const ReportSheet& sh) {
             .max = 1,
             .log = false,
             .format = TickFormat::plain};
-  SvgAxis y{.label = "distance to default (standard deviations)",
-            .min = 0,
-            .max = 1,
-            .log = false,
-            .format = TickFormat::plain};
+  SvgAxis y{
+      .label = "DD (standard deviations)", .min = 0, .max = 1, .log = false, .format = TickFormat::plain};
   std::vector<double> yfit = ys;
   yfit.push_back(dd_threshold);
   fit_axis(x, xs, true);
   fit_axis(y, yfit, true);
-  SvgPlot plot(x, y, "Distance to default by recorded run", 560.0, 300.0);
+  SvgPlot plot(x, y, "Distance to default by recorded run", 560.0, 250.0);
   plot.hline(dd_threshold, "fc-ref", "DD at PD " + level_text(threshold) + " (one year)");
   // In the chart's own units (days, DD), so that a reader of the page gets the figures exactly.
   plot.exact_line(xs, ys, "fc-s1 fc-sheet-dd", full_name(d.book.obligors[sh.index]));
@@ -1395,8 +1392,8 @@ std::string sheet_history(const ReportData& d, const ReportSheet& sh) {
   return "<h3>DD and PD history (" + h(count(sh.history.size())) + " runs of " + h(d.options.store_path) +
          ")</h3>\n<p class=\"fc-note\">As firmcall track: the model PD over each run's horizon; each run's "
          "grade as "
-         "recorded, on that run's driving PD.</p>\n" +
-         t.str() + sheet_history_chart(d, sh);
+         "recorded, on that run's driving PD (the chart above).</p>\n" +
+         t.str();
 }
 
 std::string sheet_stress(const ReportData& d, const ReportSheet& sh) {
@@ -1533,9 +1530,10 @@ std::string sheet_section(const ReportData& d, std::size_t k) {
                     "\" class=\"fc-section fc-sheet\" data-obligor=\"" + h(id_of(rec)) + "\">\n<h2>" +
                     h("Tear sheet: " + full_name(rec)) + "</h2>\n<p class=\"fc-lead\">" + h(lead) + "</p>\n";
   out += "<div class=\"fc-sheet-cols\">\n<div>\n" + sheet_inputs(d, sh) + sheet_results(d, sh) +
-         "</div>\n<div>\n" + sheet_sensitivities(sh) + sheet_term(sh) + "</div>\n</div>\n";
-  out += sheet_stress(d, sh);
-  out += sheet_history(d, sh);
+         "</div>\n<div>\n" + sheet_sensitivities(sh) + sheet_term(sh) +
+         (sh.history.empty() ? std::string() : sheet_history_chart(d, sh)) + "</div>\n</div>\n";
+  out += "<div class=\"fc-sheet-cols\">\n<div>\n" + sheet_stress(d, sh) + "</div>\n<div>\n" +
+         sheet_history(d, sh) + "</div>\n</div>\n";
   return out + "</section>\n";
 }
 
@@ -1636,6 +1634,14 @@ footer { padding: 14px 36px 28px; color: var(--muted); font-size: 12px; }
   .fc-figure { border: none; padding: 0; }
   .fc-table { font-size: 10px; }
   tr { break-inside: avoid; }
+  .fc-sheet { font-size: 9px; }
+  .fc-sheet .fc-table { font-size: 8.5px; margin: 2px 0 4px; }
+  .fc-sheet .fc-table td, .fc-sheet .fc-table th { padding: 1px 5px; }
+  .fc-sheet h2 { font-size: 15px; margin: 0 0 2px; }
+  .fc-sheet h3 { font-size: 10.5px; margin: 5px 0 2px; }
+  .fc-sheet .fc-note, .fc-sheet .fc-lead, .fc-sheet figcaption { font-size: 8.5px; margin: 1px 0 2px; }
+  .fc-sheet .fc-figure { max-width: 270px; margin: 2px 0; }
+  .fc-sheet-cols > div { flex: 1 1 0; }
 }
 )";
 
