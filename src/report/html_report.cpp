@@ -1606,6 +1606,8 @@ svg.fc-chart { display: block; max-width: 100%; height: auto; font-size: 12px; f
 .fc-line.fc-s6 { stroke-dasharray: 1 3; }
 .fc-line.fc-s1, .fc-line.fc-s2, .fc-line.fc-s3, .fc-line.fc-s4, .fc-line.fc-s5, .fc-line.fc-s6 { fill: none; }
 .fc-key { stroke: none; }
+.fc-bar-better.fc-key { stroke: var(--blue); }
+.fc-bar-worse.fc-key { stroke: var(--ink); }
 .fc-mark-el { stroke: var(--green); stroke-width: 2; }
 .fc-mark-var { stroke: var(--orange); stroke-width: 2; }
 .fc-mark-es { stroke: var(--vermillion); stroke-width: 2; stroke-dasharray: 5 3; }
