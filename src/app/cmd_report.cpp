@@ -1,15 +1,39 @@
 // `firmcall report BOOK --html FILE`: the book at a glance as one self-contained HTML page.
 #include <algorithm>
+#include <charconv>
+#include <cstdlib>
+#include <ctime>
 #include <iostream>
 #include <memory>
+#include <string_view>
 
+#include "build_commit.hpp"  // FIRMCALL_COMMIT, written at build time
 #include "commands.hpp"
 #include "firmcall/book/errors.hpp"
 #include "firmcall/report/html_report.hpp"
+#include "firmcall/util/timestamp.hpp"
 
 namespace firmcall::cli {
 
 namespace {
+// The page's generation time, UTC: SOURCE_DATE_EPOCH when set to whole seconds up to the end of
+// year 9999 (the reproducible-builds convention, so that a page can be made again byte for byte),
+// else now.
+std::string generation_time() {
+  const char* epoch = std::getenv("SOURCE_DATE_EPOCH");
+  if (epoch != nullptr && *epoch != '\0') {
+    const std::string_view text(epoch);
+    long long seconds = 0;
+    const auto [end, ec] = std::from_chars(text.data(), text.data() + text.size(), seconds);
+    constexpr long long kLastSecondOf9999 = 253402300799;  // 9999-12-31T23:59:59Z
+    if (ec == std::errc() && end == text.data() + text.size() && seconds >= 0 &&
+        seconds <= kLastSecondOf9999) {
+      return utc_timestamp(static_cast<std::time_t>(seconds));
+    }
+  }
+  return utc_timestamp_now();
+}
+
 struct ReportCli {
   ReportOptions report;
   std::string html;
@@ -21,8 +45,8 @@ struct ReportCli {
 ExitCode run_report(const ReportCli& opts, const GlobalOptions& global) {
   ReportOptions o = opts.report;
   if (opts.horizons) {
-    if (o.term_ids.empty())
-      throw InputError("--horizons: applies to the term structures; give --names as well");
+    if (o.term_ids.empty() && o.sheet_ids.empty())
+      throw InputError("--horizons: applies to the term structures; give --names or --sheet as well");
     o.horizons = *opts.horizons;
   }
   if (!o.correlation_path.empty() && !o.portfolio) {
@@ -47,7 +71,8 @@ ExitCode run_report(const ReportCli& opts, const GlobalOptions& global) {
   o.driving_pd =
       !o.pd_calibration_path.empty() && opts.driving_pd != "model" ? DrivingPd::calibrated : DrivingPd::model;
   o.threads = thread_count(opts.threads);
-  o.tool_version = FIRMCALL_VERSION;
+  o.tool_version = std::string(FIRMCALL_VERSION).append(" (commit ").append(FIRMCALL_COMMIT).append(")");
+  o.generated_at = generation_time();
   // Every input is read and every figure computed before the file is opened.
   const ReportData data = gather_report(o, global.config());
   const std::string html = html_report(data);
@@ -61,6 +86,9 @@ ExitCode run_report(const ReportCli& opts, const GlobalOptions& global) {
     std::cerr << (data.stress ? ", stress" : "") << (!data.terms.empty() ? ", term structures" : "")
               << (data.portfolio ? ", portfolio" : "") << (data.monitoring ? ", movers and alerts" : "")
               << (data.validation ? ", validation" : "")
+              << (data.sheets.empty()       ? ""
+                  : data.sheets.size() == 1 ? ", 1 tear sheet"
+                                            : ", " + std::to_string(data.sheets.size()) + " tear sheets")
               << (data.calibration
                       ? (data.options.driving_pd == DrivingPd::calibrated ? "; calibrated PD drives"
                                                                           : "; model PD drives")
@@ -85,8 +113,14 @@ void add_report_command(CLI::App& app, const GlobalOptions& global, CommandActio
       cmd->add_option("--names", opts->report.term_ids,
                       "Obligor ids whose PD term structure is drawn, e.g. GOR-33,ZEP-26: adds the term "
                       "section"));
-  cmd->add_option("--horizons", opts->horizons,
-                  "Horizons of the term structures in years (default 0.5,1,2,3,5,7,10); needs --names");
+  list_option(cmd->add_option("--sheet", opts->report.sheet_ids,
+                              "Obligor id with a tear sheet (a page of inputs, results, sensitivities, term "
+                              "structure, stress results "
+                              "and, with --db, DD and PD history); repeat it or give ID,ID"));
+  cmd->add_option(
+      "--horizons", opts->horizons,
+      "Horizons of the term structures and tear sheets in years (default 0.5,1,2,3,5,7,10); needs "
+      "--names or --sheet");
   cmd->add_flag("--portfolio", opts->report.portfolio,
                 "Adds the portfolio loss distribution with EL, VaR and ES (every obligor needs ead)");
   cmd->add_option("-c,--correlation", opts->report.correlation_path,
@@ -120,9 +154,10 @@ void add_report_command(CLI::App& app, const GlobalOptions& global, CommandActio
   cmd->add_option("--title", opts->report.title, "Page title (default: the book's label)");
   add_threads_option(cmd, opts->threads, "Worker threads of the portfolio run (default: all cores)");
   cmd->footer(
-      std::string("\nExit codes: 0 every obligor scored; 1 the page was written but some obligors could "
-                  "not be scored (listed in it); 2 unreadable or malformed file, unknown id in --names, "
-                  "or bad command line (nothing written).\n\n") +
+      std::string(
+          "\nExit codes: 0 every obligor scored; 1 the page was written but some obligors could "
+          "not be scored (listed in it); 2 unreadable or malformed file, unknown id in --names or --sheet, "
+          "or bad command line (nothing written).\n\n") +
       kCaution);
   set_action(cmd, run, [opts, &global] { return run_report(*opts, global); });
 }

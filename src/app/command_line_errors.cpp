@@ -15,6 +15,7 @@ constexpr std::pair<std::string_view, std::string_view> kFlags[] = {
     {"barrier_ratio", "--barrier-ratio"},    // TermOptionText
     {"barrier_growth", "--barrier-growth"},  // TermOptionText
     {"term_ids", "--names"},                 // ReportOptions
+    {"sheet_ids", "--sheet"},                // ReportOptions
     {"as_of", "--as-of"},                    // RecordOptions
 };
 }  // namespace

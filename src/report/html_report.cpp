@@ -6,10 +6,12 @@
 #include <numeric>
 
 #include "firmcall/book/errors.hpp"
+#include "firmcall/engine/score_output.hpp"
 #include "firmcall/estimate/calibration.hpp"
 #include "firmcall/format/cells.hpp"
 #include "firmcall/format/row_writer.hpp"
 #include "firmcall/model/normal.hpp"
+#include "firmcall/model/pd_horizon.hpp"
 #include "firmcall/monitor/store_outcomes.hpp"
 #include "firmcall/report/svg.hpp"
 
@@ -56,11 +58,16 @@ const std::string& id_of(const ObligorRecord& rec) {
   return rec.get(TextField::id);
 }
 
-// "ALD-01 Alder Freight Lines", cut to `width` characters for chart labels.
-std::string short_name(const ObligorRecord& rec, std::size_t width = 28) {
+// "ALD-01 Alder Freight Lines" in full, for tooltips (never cut).
+std::string full_name(const ObligorRecord& rec) {
   std::string s = id_of(rec);
-  if (!rec.get(TextField::name).empty()) s += " " + rec.get(TextField::name);
-  return fit_text(s, width);
+  if (!rec.get(TextField::name).empty()) s.append(" ").append(rec.get(TextField::name));
+  return s;
+}
+
+// The full name cut to `width` characters, for chart labels (the tooltip keeps it whole).
+std::string short_name(const ObligorRecord& rec, std::size_t width = 28) {
+  return fit_text(full_name(rec), width);
 }
 
 // A table: header cells, then rows; cells whose text starts with '\x01' are numbers (right-aligned).
@@ -166,12 +173,60 @@ BookFigures book_figures(const ReportData& d) {
 // ---------------------------------------------------------------------------------------------
 // Sections
 
+// The obligors not scored with the reason (empty when every obligor was scored).
+std::string not_scored_table(const ReportData& d) {
+  std::vector<std::size_t> failed;
+  for (std::size_t i = 0; i < d.scored.size(); ++i) {
+    if (d.scored[i].status != RowStatus::ok) failed.push_back(i);
+  }
+  if (failed.empty()) return {};
+  HtmlTable t("fc-table fc-failed", {"obligor", "status", "why"});
+  t.numeric_from(99);
+  for (const std::size_t i : failed) {
+    t.row({id_of(d.book.obligors[i]), std::string(to_string(d.scored[i].status)), d.scored[i].message},
+          false);
+  }
+  return "<h3>Not scored (" + count(failed.size()) + ")</h3>\n" + t.str();
+}
+
+}  // namespace
+
+std::string report_lead_counts(const ReportData& d) {
+  std::vector<std::size_t> failed;
+  for (std::size_t i = 0; i < d.scored.size(); ++i) {
+    if (d.scored[i].status != RowStatus::ok) failed.push_back(i);
+  }
+  const std::size_t total = d.scored.size();
+  std::string out = count(total - failed.size());
+  out.append(" of ").append(count(total)).append(total == 1 ? " obligor scored; " : " obligors scored; ");
+  if (failed.empty()) return out.append("none failed");
+  out.append(count(failed.size())).append(" failed: ");
+  constexpr std::size_t kNamed = 5;
+  for (std::size_t k = 0; k < failed.size() && k < kNamed; ++k) {
+    const std::size_t i = failed[k];
+    const std::string& id = id_of(d.book.obligors[i]);
+    out.append(k > 0 ? ", " : "").append(id.empty() ? "(no id)" : id);
+    out.append(" (").append(to_string(d.scored[i].status)).append(")");
+  }
+  if (failed.size() > kNamed) out.append(" and ").append(count(failed.size() - kNamed)).append(" more");
+  return out;
+}
+
+namespace {
+
 std::string summary_section(const ReportData& d, const BookFigures& f) {
   const GradeScale& scale = d.config.grades;
-  std::string out =
-      section_open("summary", "Book summary",
-                   "Every obligor of " + d.book.origin + " scored with the Merton model at its own horizon" +
-                       (d.book.as_of.empty() ? std::string() : ", figures as of " + d.book.as_of) + ".");
+  std::string lead = report_lead_counts(d);
+  lead.append(" (")
+      .append(d.book.origin)
+      .append(f.scored < f.obligors ? "; the reasons are under Not scored)" : ")");
+  lead.append(". Each obligor is scored with the Merton model at its own horizon");
+  if (!d.book.as_of.empty()) lead.append(", figures as of ").append(d.book.as_of);
+  lead.append("; PDs, grades and expected loss on the ")
+      .append(calibrated_drives(d) ? "calibrated PD (one-year, over each obligor's horizon for expected loss)"
+                                   : "model PD over each obligor's horizon")
+      .append(".");
+  std::string out = section_open("summary", "Book summary", lead);
   out += "<div class=\"fc-cards\">\n";
   out += card("obligors", count(f.obligors),
               count(f.scored) + " scored, " + count(f.invalid) + " invalid input, " + count(f.not_converged) +
@@ -186,6 +241,8 @@ std::string summary_section(const ReportData& d, const BookFigures& f) {
   out += card("PD above " + level_text(d.config.stress.pd_threshold), count(f.above_threshold),
               "names over the stress PD threshold");
   out += "</div>\n";
+  // With no obligor scored there are no name tables: the reasons go here.
+  if (f.scored == 0) out += not_scored_table(d);
 
   // PD distribution by grade.
   const std::size_t grades = scale.bands.size();
@@ -278,7 +335,7 @@ std::string scatter_section(const ReportData& d) {
                       : g * 3 < n     ? "fc-dot-strong"
                       : g * 3 < 2 * n ? "fc-dot-middle"
                                       : "fc-dot-weak";
-    const std::string tip = short_name(rec, 60) + ": DD " +
+    const std::string tip = full_name(rec) + ": DD " +
                             format_cell(s.measures.distance_to_default, CellStyle::decimal3) + ", DP/V " +
                             fixed(s.measures.leverage, 3) + ", PD " + report_pd(s.measures.pd);
     if (distressed) ++labelled;
@@ -312,7 +369,7 @@ std::vector<std::string> calibrated_name_row(const ReportData& d, std::size_t i,
   const bool ead = s.resolved.has_ead;
   const int g = driving_grade_of(d, i);
   const double horizon = s.resolved.inputs.horizon_years;
-  attrs.assign(16, std::string());
+  attrs.assign(17, std::string());
   attrs[7] = " data-value=\"" + exact(c.pd) + "\" data-lower=\"" + exact(c.lower) + "\" data-upper=\"" +
              exact(c.upper) + "\"";
   return {id_of(rec),
@@ -328,6 +385,7 @@ std::vector<std::string> calibrated_name_row(const ReportData& d, std::size_t i,
           report_spread_bp(m.spread_bp),
           fixed(m.leverage, 3),
           report_amount(m.asset_value),
+          rec.get(TextField::currency).empty() ? "-" : rec.get(TextField::currency),
           ead ? report_amount(s.resolved.ead) : "-",
           ead ? report_amount(driving_pd_of(d, i) * s.resolved.lgd * s.resolved.ead) : "-"};
 }
@@ -346,6 +404,7 @@ std::vector<std::string> name_row(const ReportData& d, std::size_t i) {
           report_spread_bp(m.spread_bp),
           fixed(m.leverage, 3),
           report_amount(m.asset_value),
+          rec.get(TextField::currency).empty() ? "-" : rec.get(TextField::currency),
           ead ? report_amount(s.resolved.ead) : "-",
           ead ? report_amount(m.pd * s.resolved.lgd * s.resolved.ead) : "-"};
 }
@@ -365,19 +424,19 @@ std::string names_section(const ReportData& d) {
   const bool cal = d.calibration != nullptr;
   std::string lead = "The " + count(n) + " highest and " + count(n) + " lowest PDs of the book. ";
   if (cal) {
-    lead += std::string("Ranked and graded on the ") +
-            (calibrated_drives(d) ? "calibrated one-year PD" : "model PD") +
-            " (the driving PD). Model PD at each obligor's horizon (column horizon, years); calibrated PD "
-            "over one year with its " +
-            level_text(d.calibration->calibration.confidence_level) +
-            " interval, 'yes' where the DD lies outside the calibration sample's range (extrapolated); "
-            "expected loss on the driving PD over each obligor's horizon. Spread in basis points, amounts in "
-            "each obligor's currency unit (EAD in the book's).";
+    lead +=
+        std::string("Ranked and graded on the ") +
+        (calibrated_drives(d) ? "calibrated one-year PD" : "model PD") +
+        " (the driving PD). Model PD at each obligor's horizon (column horizon, years); calibrated PD "
+        "over one year with its " +
+        level_text(d.calibration->calibration.confidence_level) +
+        " interval, 'yes' where the DD lies outside the calibration sample's range (extrapolated); "
+        "expected loss on the driving PD over each obligor's horizon. Spread in basis points, asset value in "
+        "the obligor's currency (column currency), EAD and expected loss in the book's EAD unit.";
   } else {
     lead +=
-        "PD at each obligor's horizon, spread in basis points, amounts in each obligor's currency unit (EAD "
-        "in "
-        "the book's).";
+        "Model PD (the driving PD) at each obligor's horizon, spread in basis points, asset value in the "
+        "obligor's currency (column currency), EAD and expected loss in the book's EAD unit.";
   }
   std::string out = section_open("names", "Weakest and strongest names", lead);
   const std::vector<std::string> heads =
@@ -394,10 +453,11 @@ std::string names_section(const ReportData& d) {
                                      "spread bp",
                                      "DP/V",
                                      "asset value",
+                                     "currency",
                                      "EAD",
                                      "expected loss"}
-          : std::vector<std::string>{"obligor",   "name", "sector",      "grade", "DD",           "PD",
-                                     "spread bp", "DP/V", "asset value", "EAD",   "expected loss"};
+          : std::vector<std::string>{"obligor",   "name", "sector",      "grade",    "DD",  "PD",
+                                     "spread bp", "DP/V", "asset value", "currency", "EAD", "expected loss"};
   const auto table = [&](const std::string& title, auto first, auto last, const char* cls) {
     HtmlTable t(std::string("fc-table ") + cls, heads);
     t.numeric_from(4);
@@ -416,20 +476,7 @@ std::string names_section(const ReportData& d) {
                ok.begin() + static_cast<std::ptrdiff_t>(n), "fc-names-weak");
   out += table("Strongest " + count(n) + " (lowest PD first)", ok.rbegin(),
                ok.rbegin() + static_cast<std::ptrdiff_t>(n), "fc-names-strong");
-  std::vector<std::size_t> failed;
-  for (std::size_t i = 0; i < d.scored.size(); ++i) {
-    if (d.scored[i].status != RowStatus::ok) failed.push_back(i);
-  }
-  if (!failed.empty()) {
-    HtmlTable t("fc-table fc-failed", {"obligor", "status", "why"});
-    t.numeric_from(99);
-    for (const std::size_t i : failed) {
-      t.row({id_of(d.book.obligors[i]), std::string(to_string(d.scored[i].status)), d.scored[i].message},
-            false);
-    }
-    out += "<h3>Not scored (" + count(failed.size()) + ")</h3>\n" + t.str();
-  }
-  return out + "</section>\n";
+  return out + not_scored_table(d) + "</section>\n";
 }
 
 // The PD-by-scenario chart's figures: the book as it stands, then each scenario.
@@ -538,10 +585,11 @@ std::vector<std::size_t> largest_pd_changes(const ReportData& d, std::size_t k, 
 
 std::string pd_change_chart(const ReportData& d, std::size_t k, const std::vector<std::size_t>& idx) {
   const ReportStress& st = *d.stress;
-  std::vector<std::string> names, labels;
+  std::vector<std::string> names, labels, tooltips;
   std::vector<double> values;
   for (const std::size_t i : idx) {
     names.push_back(short_name(d.book.obligors[i]));
+    tooltips.push_back(full_name(d.book.obligors[i]));
     values.push_back(100.0 * stressed_pd_change(d, k, i));
     labels.push_back(report_pd(base_stress_pd(d, i)) + " to " + report_pd(stressed_pd(d, k, i)));
   }
@@ -552,7 +600,8 @@ std::string pd_change_chart(const ReportData& d, std::size_t k, const std::vecto
             .format = TickFormat::plain};
   return figure(
       svg_signed_bars(names, values, labels, x,
-                      "Largest PD changes under '" + st.scenarios[k].name + "' (" + stress_pd_name(st) + ")"),
+                      "Largest PD changes under '" + st.scenarios[k].name + "' (" + stress_pd_name(st) + ")",
+                      true, 720.0, tooltips),
       "The " + count(idx.size()) +
           " obligors whose PD moved most under this scenario (names no shock hits are left out). Bars to "
           "the "
@@ -672,7 +721,7 @@ std::string term_section(const ReportData& d) {
       cells.push_back(p.ok() ? report_pd(p.pd) : std::string(to_string(p.status)));
     }
     const std::string cls = "fc-s" + std::to_string(k % 6 + 1);
-    plot.line(px, py, cls, short_name(rec, 60));
+    plot.line(px, py, cls, full_name(rec));
     plot.legend(cls, short_name(rec));
     t.row(cells, true);
   }
@@ -1029,6 +1078,51 @@ std::string grade_move(const GradeScale& scale, const Mover& m) {
   return a == b ? a : a + " to " + b;
 }
 
+// The grade migration between the two runs of the monitoring section (validate --migration
+// BEFORE,NOW): rows the grade in the earlier run, columns the grade in the later one. Each count
+// cell carries data-from and data-to (the labels).
+std::string run_migration_table(const ReportMonitoring& mon) {
+  const RunMigration& m = mon.migration;
+  const std::size_t n = m.grades() + 2;
+  const auto row_total = [&m, n](std::size_t i) {
+    std::size_t t = 0;
+    for (std::size_t j = 0; j < n; ++j) t += m.at(i, j);
+    return t;
+  };
+  std::vector<std::string> heads{"grade in run " + std::to_string(m.from.run_id) + " \u2192 run " +
+                                 std::to_string(m.to.run_id)};
+  for (std::size_t j = 0; j < n; ++j) heads.emplace_back(m.column_label(j));
+  heads.emplace_back("total");
+  HtmlTable t("fc-table fc-run-migration", heads);
+  for (std::size_t i = 0; i < n; ++i) {
+    const std::size_t total = row_total(i);
+    if (i >= m.grades() && total == 0) continue;  // no new or ungraded obligors
+    std::vector<std::string> cells{std::string(m.row_label(i))};
+    std::vector<std::string> attrs{""};
+    for (std::size_t j = 0; j < n; ++j) {
+      cells.push_back(count(m.at(i, j)));
+      attrs.push_back(" data-from=\"" + h(m.row_label(i)) + "\" data-to=\"" + h(m.column_label(j)) + "\"");
+    }
+    cells.push_back(count(total));
+    t.row(cells, true, "", attrs);
+  }
+  const auto basis = [](const RunInfo& r) {
+    return r.driving_pd == DrivingPd::calibrated ? std::string("calibrated one-year PD")
+                                                 : std::string("model PD converted to one year");
+  };
+  std::string note = "Rows: the grade in run " + std::to_string(m.from.run_id) + " (as of " + m.from.as_of +
+                     "), graded on its " + basis(m.from) + "; columns: the grade in run " +
+                     std::to_string(m.to.run_id) + " (as of " + m.to.as_of + "), on its " + basis(m.to) +
+                     "; matched on id ('new': only in the later run, 'gone': only in the earlier, "
+                     "'ungraded': not scored). Population stability index " +
+                     fixed(m.psi, 4) + ". The same counts as firmcall validate --migration " +
+                     std::to_string(m.from.run_id) + "," + std::to_string(m.to.run_id) +
+                     " (CSV and JSON there).";
+  if (!m.note.empty()) note += " " + m.note;
+  return "<h3>Grade migration between the two runs</h3>\n<p class=\"fc-note\">" + h(note) + "</p>\n" +
+         t.str();
+}
+
 std::string monitoring_section(const ReportData& d) {
   const ReportMonitoring& mon = *d.monitoring;
   const Comparison& c = mon.comparison;
@@ -1063,10 +1157,11 @@ std::string monitoring_section(const ReportData& d) {
     return std::fabs(a->dd_change()) > std::fabs(b->dd_change());
   });
   moved.resize(std::min(moved.size(), std::max<std::size_t>(d.options.top, 10)));
-  std::vector<std::string> names, labels;
+  std::vector<std::string> names, labels, tooltips;
   std::vector<double> values;
   for (const Mover* m : moved) {
     names.push_back(fit_text(m->id + " " + m->name, 28));
+    tooltips.push_back(m->name.empty() ? m->id : m->id + " " + m->name);
     values.push_back(m->dd_change());
     labels.push_back(format_cell(m->dd_before, CellStyle::decimal3) + " to " +
                      format_cell(m->dd_now, CellStyle::decimal3));
@@ -1076,9 +1171,11 @@ std::string monitoring_section(const ReportData& d) {
             .max = 1,
             .log = false,
             .format = TickFormat::plain};
-  out += figure(svg_signed_bars(names, values, labels, x, "Largest moves in distance to default", false),
+  out += figure(svg_signed_bars(names, values, labels, x, "Largest moves in distance to default", false,
+                                720.0, tooltips),
                 "The names whose distance to default moved most between the two runs. Bars to the left "
-                "(red) mean the obligor came closer to default; the text gives DD before and now.");
+                "(solid) mean the obligor came closer to default, bars to the right (outlined) that it "
+                "moved away; the text gives DD before and now.");
   // Watchlist first (most severe first, as compare_runs orders them), then the other movers.
   HtmlTable t("fc-table fc-movers", {"obligor", "name", "DD before", "DD now", "DD change", "PD before",
                                      "PD now", "grade", "alerts"});
@@ -1104,30 +1201,366 @@ std::string monitoring_section(const ReportData& d) {
          h(level_text(r.pd_ratio_min_pd)) + "; downgrade, " + h(std::to_string(r.downgrade_notches)) +
          " notches or more; pd_ceiling, PD above " + h(level_text(r.pd_ceiling)) +
          "; not_scored, in the run but not scored.</p>\n";
+  out += run_migration_table(mon);
+  return out + "</section>\n";
+}
+
+// ---------------------------------------------------------------------------------------------
+// Tear sheets (--sheet ID): a page per named obligor. Each figure's cell carries the exact value
+// (data-value, shortest round-trip form) under the name of the CSV column it equals (data-field).
+
+std::string exact_attr(std::string_view field, double v) {
+  std::string out = " data-field=\"";
+  out.append(h(field)).append("\"");
+  if (std::isfinite(v)) out.append(" data-value=\"").append(exact(v)).append("\"");
+  return out;
+}
+
+// "1 year", "2.5 years".
+std::string years_text(double t) {
+  return plain(t) + (t == 1.0 ? " year" : " years");
+}
+
+// The unit of an amount of obligor `rec`: its currency when the book names one.
+std::string currency_of(const ObligorRecord& rec) {
+  const std::string& c = rec.get(TextField::currency);
+  return c.empty() ? std::string("the obligor's currency units (the book names no currency)") : c;
+}
+
+// A table of (quantity, value, unit) rows, each value cell naming its CSV column.
+class SheetTable {
+ public:
+  explicit SheetTable(std::string css_class) : table_(std::move(css_class), {"quantity", "value", "unit"}) {
+    table_.numeric_from(1, 2);
+  }
+  void add(const std::string& label, std::string_view field, const std::string& text, double v,
+           const std::string& unit) {
+    table_.row({label, text, unit}, true, "", {"", exact_attr(field, v), ""});
+  }
+  std::string str() const { return table_.str(); }
+
+ private:
+  HtmlTable table_;
+};
+
+std::string sheet_inputs(const ReportData& d, const ReportSheet& sh) {
+  const ObligorRecord& rec = d.book.obligors[sh.index];
+  const ScoredObligor& s = d.scored[sh.index];
+  const std::string ccy = currency_of(rec);
+  if (!s.resolved.ok()) {
+    return "<h3>Inputs</h3>\n<p class=\"fc-note\">The inputs could not be resolved: " + h(s.message) +
+           "</p>\n";
+  }
+  const MertonInputs& in = s.resolved.inputs;
+  SheetTable t("fc-table fc-sheet-inputs");
+  t.add("equity value E", "equity_value", report_amount(in.equity_value), in.equity_value, ccy);
+  t.add("equity volatility", "equity_vol", fixed(100.0 * in.equity_vol_annual, 2) + "%", in.equity_vol_annual,
+        "annualised");
+  t.add("default point DP", "default_point", report_amount(in.default_point), in.default_point, ccy);
+  t.add("risk-free rate", "rate", fixed(100.0 * in.risk_free_rate_cc, 3) + "%", in.risk_free_rate_cc,
+        "continuously compounded");
+  t.add("asset drift", "drift", fixed(100.0 * in.drift_annual, 3) + "%", in.drift_annual,
+        s.resolved.drift_follows_rate ? "the rate (no drift given, or risk-neutral)" : "annualised");
+  t.add("horizon", "horizon", plain(in.horizon_years), in.horizon_years, "years");
+  t.add("EAD", "ead", s.resolved.has_ead ? report_amount(s.resolved.ead) : "-",
+        s.resolved.has_ead ? s.resolved.ead : NAN, "the book's EAD unit");
+  t.add("LGD", "lgd", fixed(100.0 * s.resolved.lgd, 1) + "%", s.resolved.lgd, "share of EAD");
+  return "<h3>Inputs</h3>\n" + t.str();
+}
+
+std::string sheet_results(const ReportData& d, const ReportSheet& sh) {
+  const ObligorRecord& rec = d.book.obligors[sh.index];
+  const ScoredObligor& s = d.scored[sh.index];
+  if (s.status != RowStatus::ok) {
+    return "<h3>Results</h3>\n<p class=\"fc-note\">Not scored (" + h(to_string(s.status)) +
+           "): " + h(s.message) + "</p>\n";
+  }
+  const MertonMeasures& m = s.measures;
+  const double horizon = s.resolved.inputs.horizon_years;
+  const std::string ccy = currency_of(rec);
+  const int g = driving_grade_of(d, sh.index);
+  SheetTable t("fc-table fc-sheet-results");
+  t.add("asset value V", "asset_value", report_amount(m.asset_value), m.asset_value, ccy);
+  t.add("asset volatility", "asset_vol", fixed(100.0 * m.asset_vol_annual, 2) + "%", m.asset_vol_annual,
+        "annualised");
+  t.add("leverage DP/V", "leverage", fixed(m.leverage, 3), m.leverage, "ratio");
+  t.add("distance to default", "distance_to_default", format_cell(m.distance_to_default, CellStyle::decimal3),
+        m.distance_to_default, "standard deviations");
+  t.add("model PD", "pd", report_pd(m.pd), m.pd, "over " + years_text(horizon) + " (Merton)");
+  t.add("model PD, one year", "pd_one_year", report_pd(pd_one_year(m.pd, horizon)),
+        pd_one_year(m.pd, horizon), "one year");
+  t.add("risk-neutral PD", "pd_risk_neutral", report_pd(m.pd_risk_neutral), m.pd_risk_neutral,
+        "over " + years_text(horizon));
+  t.add("credit spread", "spread_bp", report_spread_bp(m.spread_bp), m.spread_bp, "basis points");
+  if (d.calibration) {
+    const CalibratedPd& c = d.calibrated[sh.index];
+    t.add("calibrated PD", "pd_calibrated", report_pd(c.pd), c.pd,
+          "one year (" + d.options.pd_calibration_path + ")");
+  }
+  const double pd = driving_pd_of(d, sh.index);
+  t.add("expected loss", "expected_loss",
+        s.resolved.has_ead ? report_amount(pd * s.resolved.lgd * s.resolved.ead) : "-",
+        s.resolved.has_ead ? pd * s.resolved.lgd * s.resolved.ead : NAN,
+        "the book's EAD unit; PD x LGD x EAD on the driving PD over " + years_text(horizon));
+  std::string out = "<h3>Results</h3>\n" + t.str();
+  out += "<p class=\"fc-note\">Grade " + h(g >= 0 ? std::string(d.config.grades.label_at(g)) : "-") +
+         " on the master scale, from the " +
+         (calibrated_drives(d) ? "calibrated one-year PD" : "model PD converted to one year") +
+         " (the driving PD).</p>\n";
+  return out;
+}
+
+// Days since 1970-01-01 of a YYYY-MM-DD date (the proleptic Gregorian calendar; the civil-date
+// algorithm of Howard Hinnant's date library, from memory); NaN when `date` is not one.
+double days_of(const std::string& date) {
+  if (!is_calendar_date(date)) return NAN;
+  int y = std::stoi(date.substr(0, 4));
+  const int m = std::stoi(date.substr(5, 2)), dd = std::stoi(date.substr(8, 2));
+  y -= m <= 2 ? 1 : 0;
+  const int era = y / 400;  // years 1000-9999: never negative
+  const int yoe = y - era * 400;
+  const int doy = (153 * (m + (m > 2 ? -3 : 9)) + 2) / 5 + dd - 1;
+  const int doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
+  return static_cast<double>(era * 146097 + doe - 719468);
+}
+
+// The obligor's DD in every recorded run against the days since the first, with the DD of the
+// stress PD threshold at a one-year horizon.
+std::string sheet_history_chart(const ReportData& d, const ReportSheet& sh) {
+  std::vector<double> xs, ys;
+  std::vector<std::string> tips;
+  const double day0 = days_of(sh.history.front().run.as_of);
+  for (const RunStore::SeriesPoint& p : sh.history) {
+    const double x = days_of(p.run.as_of) - day0;
+    if (!p.obligor.has_measures || !std::isfinite(x)) continue;
+    xs.push_back(x);
+    ys.push_back(p.obligor.measures.distance_to_default);
+    tips.push_back("run " + std::to_string(p.run.run_id) + ", as of " + p.run.as_of + ": DD " +
+                   format_cell(p.obligor.measures.distance_to_default, CellStyle::decimal3) + ", PD " +
+                   report_pd(p.obligor.measures.pd));
+  }
+  if (xs.size() < 2) return {};
+  const double threshold = d.config.stress.pd_threshold;
+  const double dd_threshold = norm_quantile_upper(threshold);
+  SvgAxis x{.label = "days since " + sh.history.front().run.as_of + " (first run)",
+            .min = 0,
+            .max = 1,
+            .log = false,
+            .format = TickFormat::plain};
+  SvgAxis y{
+      .label = "DD (standard deviations)", .min = 0, .max = 1, .log = false, .format = TickFormat::plain};
+  std::vector<double> yfit = ys;
+  yfit.push_back(dd_threshold);
+  fit_axis(x, xs, true);
+  fit_axis(y, yfit, true);
+  SvgPlot plot(x, y, "Distance to default by recorded run", 560.0, 250.0);
+  plot.hline(dd_threshold, "fc-ref", "DD at PD " + level_text(threshold) + " (one year)");
+  // In the chart's own units (days, DD), so that a reader of the page gets the figures exactly.
+  plot.exact_line(xs, ys, "fc-s1 fc-sheet-dd", full_name(d.book.obligors[sh.index]));
+  for (std::size_t k = 0; k < xs.size(); ++k) plot.point(xs[k], ys[k], "fc-dot-strong", tips[k], "");
+  return figure(
+      plot.str(),
+      "One dot per recorded run that scored the obligor, from the history store; lower means closer to "
+      "default. The dashed line is the DD of a one-year PD of " +
+          level_text(threshold) + ".");
+}
+
+std::string sheet_history(const ReportData& d, const ReportSheet& sh) {
+  if (d.options.store_path.empty()) {
+    return "<h3>DD and PD history</h3>\n<p class=\"fc-note\">No history store given (give --db STORE).</p>\n";
+  }
+  if (sh.history.empty()) {
+    return "<h3>DD and PD history</h3>\n<p class=\"fc-note\">No run of " + h(d.options.store_path) +
+           " holds this obligor.</p>\n";
+  }
+  HtmlTable t("fc-table fc-sheet-history",
+              {"as of", "run", "status", "DD", "model PD", "spread bp", "grade (recorded)", "driving PD"});
+  t.numeric_from(3, 6);
+  for (const RunStore::SeriesPoint& p : sh.history) {
+    const StoredObligor& o = p.obligor;
+    const bool ok = o.has_measures;
+    t.row({p.run.as_of, std::to_string(p.run.run_id), std::string(to_string(o.status)),
+           ok ? format_cell(o.measures.distance_to_default, CellStyle::decimal3) : "-",
+           ok ? report_pd(o.measures.pd) : "-", ok ? report_spread_bp(o.measures.spread_bp) : "-",
+           o.grade.empty() ? "-" : o.grade, std::string(to_string(p.run.driving_pd))},
+          true, "",
+          {" data-field=\"as_of\"", " data-field=\"run_id\"", "",
+           exact_attr("distance_to_default", ok ? o.measures.distance_to_default : NAN),
+           exact_attr("pd", ok ? o.measures.pd : NAN),
+           exact_attr("spread_bp", ok ? o.measures.spread_bp : NAN), " data-field=\"grade_recorded\"", ""});
+  }
+  return "<h3>DD and PD history (" + h(count(sh.history.size())) + " runs of " + h(d.options.store_path) +
+         ")</h3>\n<p class=\"fc-note\">As firmcall track: the model PD over each run's horizon; each run's "
+         "grade as "
+         "recorded, on that run's driving PD (the chart above).</p>\n" +
+         t.str();
+}
+
+std::string sheet_stress(const ReportData& d, const ReportSheet& sh) {
+  if (!d.stress) {
+    return "<h3>Stress results</h3>\n<p class=\"fc-note\">No scenarios given (give --scenarios FILE).</p>\n";
+  }
+  const ReportStress& st = *d.stress;
+  const ScoredObligor& base = d.scored[sh.index];
+  const std::string ccy = currency_of(d.book.obligors[sh.index]);
+  const bool cal = calibrated_drives(d);
+  std::vector<std::string> heads{"scenario",    "shocked",   "DD stressed",        "DD change",
+                                 "PD stressed", "PD change", "spread bp stressed", "asset value stressed"};
+  if (cal) heads.emplace_back("calibrated PD stressed (one year)");
+  HtmlTable t("fc-table fc-sheet-stress", heads);
+  t.numeric_from(2);
+  for (std::size_t k = 0; k < st.rows.size() && k < st.scenarios.size(); ++k) {
+    const StressedObligor& r = st.rows[k][sh.index];
+    const bool ok = base.status == RowStatus::ok && r.status == StressStatus::ok;
+    const MertonMeasures& m0 = base.measures;
+    const MertonMeasures& m1 = r.measures;
+    const double dd = ok ? m1.distance_to_default : NAN,
+                 ddc = ok ? m1.distance_to_default - m0.distance_to_default : NAN;
+    const double pd = ok ? m1.pd : NAN, pdc = ok ? m1.pd - m0.pd : NAN;
+    const double spread = ok ? m1.spread_bp : NAN, v = ok ? m1.asset_value : NAN;
+    std::vector<std::string> cells{
+        st.scenarios[k].name,
+        r.shocked() ? "yes" : "no",
+        ok ? format_cell(dd, CellStyle::decimal3) : std::string(to_string(r.status)),
+        ok ? format_cell(ddc, CellStyle::signed3) : "-",
+        report_pd(pd),
+        pp(pdc),
+        report_spread_bp(spread),
+        report_amount(v)};
+    std::vector<std::string> attrs{" data-field=\"scenario\"",
+                                   "",
+                                   exact_attr("distance_to_default_stressed", dd),
+                                   exact_attr("distance_to_default_change", ddc),
+                                   exact_attr("pd_stressed", pd),
+                                   exact_attr("pd_change", pdc),
+                                   exact_attr("spread_bp_stressed", spread),
+                                   exact_attr("asset_value_stressed", v)};
+    if (cal) {
+      const double c = ok ? stressed_pd(d, k, sh.index) : NAN;
+      cells.push_back(report_pd(c));
+      attrs.push_back(exact_attr("pd_calibrated_stressed", c));
+    }
+    t.row(cells, true, "", attrs);
+  }
+  return "<h3>Stress results (" + h(st.origin) +
+         ")</h3>\n<p class=\"fc-note\">As firmcall stress: each scenario's " +
+         "shocks re-solved as the stress section says; model PD over the obligor's horizon, asset value in " +
+         h(ccy) + ".</p>\n" + t.str();
+}
+
+std::string sheet_term(const ReportSheet& sh) {
+  HtmlTable t("fc-table fc-sheet-term",
+              {"horizon (years)", "cumulative PD", "annualised PD", "forward PD", "DD", "spread bp"});
+  t.numeric_from(0);
+  for (std::size_t j = 0; j < sh.term.points.size() && j < sh.term.horizons.size(); ++j) {
+    const TermPoint& p = sh.term.points[j];
+    const bool ok = p.ok();
+    t.row({plain(p.horizon_years), ok ? report_pd(p.pd) : std::string(to_string(p.status)),
+           ok ? report_pd(p.pd_annualised) : "-", ok ? report_pd(p.pd_forward) : "-",
+           ok ? format_cell(p.distance_to_default, CellStyle::decimal3) : "-",
+           ok ? report_spread_bp(p.spread_bp) : "-"},
+          true, "",
+          {exact_attr("horizon", p.horizon_years), exact_attr("pd", ok ? p.pd : NAN),
+           exact_attr("pd_annualised", ok ? p.pd_annualised : NAN),
+           exact_attr("pd_forward", ok ? p.pd_forward : NAN),
+           exact_attr("distance_to_default", ok ? p.distance_to_default : NAN),
+           exact_attr("spread_bp", ok ? p.spread_bp : NAN)});
+  }
+  std::string out =
+      "<h3>PD term structure</h3>\n<p class=\"fc-note\">As firmcall score --horizons: the Merton "
+      "model solved once at the obligor's horizon and projected; model PDs.</p>\n";
+  const bool any_ok =
+      std::any_of(sh.term.points.begin(), sh.term.points.end(), [](const TermPoint& p) { return p.ok(); });
+  if (!any_ok) {
+    const std::string why = sh.term.first_problem();
+    return out + "<p class=\"fc-note\">No term structure" + (why.empty() ? std::string() : ": " + h(why)) +
+           ".</p>\n";
+  }
+  return out + t.str();
+}
+
+std::string sheet_sensitivities(const ReportSheet& sh) {
+  const MertonSensitivities& s = sh.sensitivities;
+  std::string out = "<h3>Sensitivities</h3>\n";
+  if (!s.ok()) {
+    return out + "<p class=\"fc-note\">No sensitivities (" + h(to_string(s.status)) + ").</p>\n";
+  }
+  HtmlTable t("fc-table fc-sheet-sensitivities",
+              {"input moved", "DD change", "model PD change", "spread change (bp)"});
+  struct Move {
+    const char* label;
+    const char* key;
+    const MeasureChange* change;
+  };
+  const Move moves[] = {{"equity value +1%", "equity_pct", &s.equity},
+                        {"equity volatility +1 point", "equity_vol_pt", &s.equity_vol},
+                        {"default point +1%", "default_point_pct", &s.default_point},
+                        {"rate +1 bp", "rate_bp", &s.rate}};
+  for (const Move& m : moves) {
+    const std::string key = m.key;
+    t.row(
+        {m.label, format_cell(m.change->distance_to_default, CellStyle::signed3), pp(m.change->pd),
+         report_spread_bp(m.change->spread_bp)},
+        true, "",
+        {"", exact_attr("dd_per_" + key, m.change->distance_to_default),
+         exact_attr("pd_per_" + key, m.change->pd), exact_attr("spread_bp_per_" + key, m.change->spread_bp)});
+  }
+  return out +
+         "<p class=\"fc-note\">As firmcall score --sensitivities: analytic first-order changes of the "
+         "model measures for one move of each input, the others held.</p>\n" +
+         t.str();
+}
+
+std::string sheet_section(const ReportData& d, std::size_t k) {
+  const ReportSheet& sh = d.sheets[k];
+  const ObligorRecord& rec = d.book.obligors[sh.index];
+  std::string lead;
+  const auto add = [&lead](const std::string& what, const std::string& v) {
+    if (v.empty()) return;
+    lead.append(lead.empty() ? "" : ", ").append(what).append(" ").append(v);
+  };
+  add("Sector", rec.get(TextField::sector));
+  add("country", rec.get(TextField::country));
+  lead = (lead.empty() ? std::string() : lead + ". ") + "Amounts in " + currency_of(rec) +
+         " (EAD and expected loss in the book's EAD unit). Driving PD: " +
+         (calibrated_drives(d) ? "the calibrated one-year PD (" + d.options.pd_calibration_path + ")"
+                               : std::string("the model PD (Merton)")) +
+         "; the model PD is over the obligor's horizon, the grade on the one-year PD.";
+  std::string out = "<section id=\"sheet-" + std::to_string(k + 1) +
+                    "\" class=\"fc-section fc-sheet\" data-obligor=\"" + h(id_of(rec)) + "\">\n<h2>" +
+                    h("Tear sheet: " + full_name(rec)) + "</h2>\n<p class=\"fc-lead\">" + h(lead) + "</p>\n";
+  out += "<div class=\"fc-sheet-cols\">\n<div>\n" + sheet_inputs(d, sh) + sheet_results(d, sh) +
+         "</div>\n<div>\n" + sheet_sensitivities(sh) + sheet_term(sh) +
+         (sh.history.empty() ? std::string() : sheet_history_chart(d, sh)) + "</div>\n</div>\n";
+  out += "<div class=\"fc-sheet-cols\">\n<div>\n" + sheet_stress(d, sh) + "</div>\n<div>\n" +
+         sheet_history(d, sh) + "</div>\n</div>\n";
   return out + "</section>\n";
 }
 
 constexpr const char* kStyle = R"(
-:root { --ink: #1c2733; --muted: #5b6672; --paper: #fbfaf6; --rule: #d9d4c7; --teal: #1f6f6b; --sand: #c9a227;
-  --brick: #a63d2f; --slate: #5d7a99; --leaf: #6b8f3a; }
+/* Colours: the Okabe-Ito palette (Okabe and Ito 2008, Color Universal Design), told apart with the
+   common forms of colour blindness; no meaning rests on red against green alone (bars also differ
+   in fill and outline, lines in dashes, and keys and tables say it in words). */
+:root { --ink: #1c2733; --muted: #5b6672; --paper: #fbfaf6; --rule: #d9d4c7; --blue: #0072b2; --orange: #e69f00;
+  --vermillion: #d55e00; --sky: #56b4e9; --green: #009e73; --purple: #cc79a7; --yellow: #f0e442; }
 * { box-sizing: border-box; }
 body { margin: 0; background: var(--paper); color: var(--ink);
   font: 14px/1.45 "DejaVu Sans", "Liberation Sans", "Helvetica Neue", Arial, sans-serif; }
-.fc-masthead { background: var(--ink); color: #f4f1e8; padding: 22px 36px 18px; border-bottom: 6px solid var(--sand); }
+.fc-masthead { background: var(--ink); color: #f4f1e8; padding: 22px 36px 18px; border-bottom: 6px solid var(--orange); }
 .fc-masthead h1 { margin: 0 0 4px; font-size: 26px; letter-spacing: 0.01em; }
 .fc-sub { margin: 0; color: #cfd6dc; }
-.fc-caution { margin: 14px 0 0; padding: 8px 12px; border-left: 4px solid var(--sand); background: #2a3744;
+.fc-caution { margin: 14px 0 0; padding: 8px 12px; border-left: 4px solid var(--orange); background: #2a3744;
   color: #f4f1e8; font-size: 13px; }
 .fc-toc { margin: 12px 0 0; font-size: 13px; }
 .fc-toc a { color: #f4f1e8; margin-right: 14px; text-decoration: none; border-bottom: 1px dotted #9fb0bf; }
 .fc-absent { margin: 8px 0 0; color: #cfd6dc; font-size: 12.5px; }
 main { padding: 8px 36px 24px; max-width: 1100px; }
 .fc-section { padding: 18px 0 12px; border-bottom: 1px solid var(--rule); }
-.fc-section h2 { font-size: 20px; margin: 6px 0 4px; color: var(--teal); }
+.fc-section h2 { font-size: 20px; margin: 6px 0 4px; color: var(--blue); }
 .fc-section h3 { font-size: 15px; margin: 18px 0 6px; }
 .fc-lead { margin: 0 0 12px; color: var(--muted); max-width: 860px; }
 .fc-cards { display: flex; flex-wrap: wrap; gap: 10px; margin: 8px 0 14px; }
-.fc-card { flex: 1 1 150px; background: #fff; border: 1px solid var(--rule); border-top: 3px solid var(--teal);
+.fc-card { flex: 1 1 150px; background: #fff; border: 1px solid var(--rule); border-top: 3px solid var(--blue);
   padding: 8px 10px; }
 .fc-card-label { font-size: 12px; color: var(--muted); text-transform: uppercase; letter-spacing: 0.04em; }
 .fc-card-value { font-size: 21px; font-weight: bold; margin: 2px 0; }
@@ -1144,41 +1577,51 @@ svg.fc-chart { display: block; max-width: 100%; height: auto; font-size: 12px; f
 .fc-axis-title { fill: var(--ink); font-size: 12px; }
 .fc-legend { fill: var(--ink); font-size: 11px; }
 .fc-legend-bg { fill: #ffffff; fill-opacity: 0.85; stroke: var(--rule); }
-.fc-point-label { fill: var(--brick); font-size: 11px; font-weight: bold; }
+.fc-point-label { fill: var(--vermillion); font-size: 11px; font-weight: bold; }
 .fc-marker-label { font-size: 11px; font-weight: bold; fill: var(--ink); }
-.fc-dot-strong { fill: var(--teal); fill-opacity: 0.75; stroke: #ffffff; stroke-width: 0.8; }
-.fc-dot-middle { fill: var(--sand); fill-opacity: 0.85; stroke: #ffffff; stroke-width: 0.8; }
-.fc-dot-weak { fill: #d0742c; stroke: #ffffff; stroke-width: 0.8; }
-.fc-dot-distressed { fill: var(--brick); stroke: var(--ink); stroke-width: 1; }
-.fc-ref { stroke: var(--brick); stroke-width: 1.2; stroke-dasharray: 6 4; }
-.fc-ref-text { fill: var(--brick); }
-.fc-bar-base { fill: var(--teal); }
-.fc-bar-alt { fill: var(--sand); }
-.fc-bar-worse { fill: var(--brick); }
-.fc-bar-better { fill: var(--leaf); }
+.fc-dot-strong { fill: var(--blue); fill-opacity: 0.75; stroke: #ffffff; stroke-width: 0.8; }
+.fc-dot-middle { fill: var(--sky); fill-opacity: 0.85; stroke: #ffffff; stroke-width: 0.8; }
+.fc-dot-weak { fill: var(--orange); stroke: var(--ink); stroke-width: 0.6; }
+.fc-dot-distressed { fill: var(--vermillion); stroke: var(--ink); stroke-width: 1.6; }
+.fc-ref { stroke: var(--vermillion); stroke-width: 1.2; stroke-dasharray: 6 4; }
+.fc-ref-text { fill: var(--vermillion); }
+.fc-bar-base { fill: var(--blue); }
+.fc-bar-alt { fill: var(--orange); }
+.fc-bar-worse { fill: var(--vermillion); stroke: var(--ink); stroke-width: 0.6; }
+.fc-bar-better { fill: #d7ecf8; stroke: var(--blue); stroke-width: 1.4; stroke-dasharray: 3 2; }
 .fc-bar-label { fill: var(--ink); font-size: 10.5px; }
 .fc-zero { stroke: var(--ink); stroke-width: 1.2; }
 .fc-line { fill: none; stroke-width: 2; }
 .fc-mark { stroke: #ffffff; stroke-width: 0.8; }
-.fc-s1 { stroke: var(--teal); fill: var(--teal); }
-.fc-s2 { stroke: var(--brick); fill: var(--brick); }
-.fc-s3 { stroke: var(--sand); fill: var(--sand); }
-.fc-s4 { stroke: var(--slate); fill: var(--slate); }
-.fc-s5 { stroke: var(--leaf); fill: var(--leaf); }
-.fc-s6 { stroke: #7a4f8c; fill: #7a4f8c; }
+.fc-s1 { stroke: var(--blue); fill: var(--blue); }
+.fc-s2 { stroke: var(--vermillion); fill: var(--vermillion); }
+.fc-s3 { stroke: var(--orange); fill: var(--orange); }
+.fc-s4 { stroke: var(--sky); fill: var(--sky); }
+.fc-s5 { stroke: var(--green); fill: var(--green); }
+.fc-s6 { stroke: var(--purple); fill: var(--purple); }
+.fc-line.fc-s2 { stroke-dasharray: 7 3; }
+.fc-line.fc-s3 { stroke-dasharray: 2 2; }
+.fc-line.fc-s4 { stroke-dasharray: 9 3 2 3; }
+.fc-line.fc-s5 { stroke-dasharray: 4 4; }
+.fc-line.fc-s6 { stroke-dasharray: 1 3; }
 .fc-line.fc-s1, .fc-line.fc-s2, .fc-line.fc-s3, .fc-line.fc-s4, .fc-line.fc-s5, .fc-line.fc-s6 { fill: none; }
 .fc-key { stroke: none; }
-.fc-mark-el { stroke: var(--leaf); stroke-width: 2; }
-.fc-mark-var { stroke: var(--sand); stroke-width: 2; }
-.fc-mark-es { stroke: var(--brick); stroke-width: 2; stroke-dasharray: 5 3; }
+.fc-bar-better.fc-key { stroke: var(--blue); }
+.fc-bar-worse.fc-key { stroke: var(--ink); }
+.fc-mark-el { stroke: var(--green); stroke-width: 2; }
+.fc-mark-var { stroke: var(--orange); stroke-width: 2; }
+.fc-mark-es { stroke: var(--vermillion); stroke-width: 2; stroke-dasharray: 5 3; }
 .fc-table { border-collapse: collapse; margin: 6px 0 10px; font-size: 12.5px; background: #fff; }
 .fc-table th { text-align: left; border-bottom: 2px solid var(--ink); padding: 4px 8px; font-weight: bold; }
 .fc-table td { border-bottom: 1px solid #ebe6da; padding: 3px 8px; }
 .fc-table .fc-num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
 .fc-table th.fc-num { white-space: normal; vertical-align: bottom; }
 .fc-table tbody tr:nth-child(even) td { background: #faf8f2; }
-.fc-alert-row td { color: var(--brick); font-weight: bold; }
+.fc-alert-row td { color: var(--vermillion); font-weight: bold; }
 .fc-note { font-size: 12.5px; color: var(--muted); }
+.fc-run-migration td:first-child { font-weight: bold; }
+.fc-sheet-cols { display: flex; flex-wrap: wrap; gap: 0 28px; }
+.fc-sheet-cols > div { flex: 1 1 420px; }
 .fc-scenarios { font-size: 12.5px; color: var(--muted); margin: 4px 0 12px; padding-left: 18px; }
 footer { padding: 14px 36px 28px; color: var(--muted); font-size: 12px; }
 @page { size: A4 landscape; margin: 12mm; }
@@ -1193,16 +1636,24 @@ footer { padding: 14px 36px 28px; color: var(--muted); font-size: 12px; }
   .fc-figure { border: none; padding: 0; }
   .fc-table { font-size: 10px; }
   tr { break-inside: avoid; }
+  .fc-sheet { font-size: 9px; }
+  .fc-sheet .fc-table { font-size: 8.5px; margin: 2px 0 4px; }
+  .fc-sheet .fc-table td, .fc-sheet .fc-table th { padding: 1px 5px; }
+  .fc-sheet h2 { font-size: 15px; margin: 0 0 2px; }
+  .fc-sheet h3 { font-size: 10.5px; margin: 5px 0 2px; }
+  .fc-sheet .fc-note, .fc-sheet .fc-lead, .fc-sheet figcaption { font-size: 8.5px; margin: 1px 0 2px; }
+  .fc-sheet .fc-figure { max-width: 270px; margin: 2px 0; }
+  .fc-sheet-cols > div { flex: 1 1 0; }
 }
 )";
 
 // Rules used only by the validation section and the calibrated-PD header (kept out of pages
 // without them, which stay as they were).
 constexpr const char* kValidationStyle = R"(.fc-whisker { stroke: var(--ink); stroke-width: 1.4; }
-.fc-predicted { fill: var(--sand); stroke: var(--ink); stroke-width: 0.8; }
-.fc-observed { fill: var(--teal); stroke: #ffffff; stroke-width: 0.8; }
+.fc-predicted { fill: var(--orange); stroke: var(--ink); stroke-width: 0.8; }
+.fc-observed { fill: var(--blue); stroke: #ffffff; stroke-width: 0.8; }
 .fc-light-yellow td:last-child { color: #8a6d00; font-weight: bold; }
-.fc-light-red td:last-child { color: var(--brick); font-weight: bold; }
+.fc-light-red td:last-child { color: var(--vermillion); font-weight: bold; }
 .fc-migration td:first-child { font-weight: bold; }
 )";
 constexpr const char* kDrivingStyle = R"(.fc-driving { margin: 10px 0 0; font-size: 13px; color: #f4f1e8; }
@@ -1256,7 +1707,16 @@ std::string report_spread_bp(double v) {
 }
 
 std::string report_amount(double v, int decimals) {
-  return std::isfinite(v) ? group_thousands(v, decimals) : "-";
+  if (!std::isfinite(v)) return "-";
+  // Below 1 the fixed decimals would lose the figure (an expected loss of 0.000218 is not 0.00):
+  // three significant digits instead, scientific below 0.001 (as the spreads).
+  const double a = std::fabs(v);
+  if (v != 0.0 && a < 1.0) {
+    char buf[64];
+    std::snprintf(buf, sizeof buf, a >= 1e-3 ? "%#.3g" : "%.2e", v);
+    return buf;
+  }
+  return group_thousands(v, decimals);
 }
 
 const std::vector<std::string>& report_section_ids() {
@@ -1271,6 +1731,12 @@ OptionCheck ReportOptions::validate() const {
     if (std::find(term_ids.begin(), term_ids.begin() + static_cast<std::ptrdiff_t>(i), term_ids[i]) !=
         term_ids.begin() + static_cast<std::ptrdiff_t>(i)) {
       return OptionProblem{"term_ids", term_ids[i], "must not name an obligor twice"};
+    }
+  }
+  for (std::size_t i = 0; i < sheet_ids.size(); ++i) {
+    if (std::find(sheet_ids.begin(), sheet_ids.begin() + static_cast<std::ptrdiff_t>(i), sheet_ids[i]) !=
+        sheet_ids.begin() + static_cast<std::ptrdiff_t>(i)) {
+      return OptionProblem{"sheet_ids", sheet_ids[i], "must not name an obligor twice"};
     }
   }
   if (!correlation_path.empty() && !portfolio) {
@@ -1343,6 +1809,58 @@ void gather_validation(ReportData& d, const ReportOptions& options, const Config
   if (!curve.empty() && (curve.size() - 1) % step != 0) d.roc.push_back(curve.back());
 }
 
+// The term section's curves of the chosen names, and the horizons of the tear sheets' curves.
+void gather_terms(ReportData& d, const ReportOptions& options, const Config& config) {
+  if (options.term_ids.empty() && options.sheet_ids.empty()) return;
+  TermOptionText choices;
+  choices.horizons = options.horizons;
+  d.term_run = term_book_options(config.term, choices);
+  for (const std::string& id : options.term_ids) {
+    const auto it = std::find_if(d.book.obligors.begin(), d.book.obligors.end(),
+                                 [&id](const ObligorRecord& r) { return id_of(r) == id; });
+    if (it == d.book.obligors.end()) {
+      throw OptionError("term_ids", "obligor '" + id + "' is not in " + d.book.origin);
+    }
+    const auto pos = static_cast<std::size_t>(it - d.book.obligors.begin());
+    if (std::find(d.term_index.begin(), d.term_index.end(), pos) != d.term_index.end()) {
+      throw OptionError("term_ids", "obligor '" + id + "' is named twice");
+    }
+    d.term_index.push_back(pos);
+    d.terms.emplace_back();
+    score_term_obligor(*it, d.book.defaults, config.score, d.term_run, d.terms.back());
+  }
+}
+
+// The tear sheets: each named obligor's term structure, sensitivities and recorded history (its
+// inputs, results and stress rows are those of the other sections).
+void gather_sheets(ReportData& d, const ReportOptions& options, const Config& config) {
+  if (options.sheet_ids.empty()) return;
+  std::unique_ptr<RunStore> store;
+  if (!options.store_path.empty()) {
+    store = std::make_unique<RunStore>(options.store_path, StoreOpen::read_only,
+                                       config.monitor.busy_timeout_seconds);
+  }
+  for (const std::string& id : options.sheet_ids) {
+    const auto it = std::find_if(d.book.obligors.begin(), d.book.obligors.end(),
+                                 [&id](const ObligorRecord& r) { return id_of(r) == id; });
+    if (it == d.book.obligors.end()) {
+      throw OptionError("sheet_ids", "obligor '" + id + "' is not in " + d.book.origin);
+    }
+    const auto pos = static_cast<std::size_t>(it - d.book.obligors.begin());
+    if (std::any_of(d.sheets.begin(), d.sheets.end(),
+                    [pos](const ReportSheet& s) { return s.index == pos; })) {
+      throw OptionError("sheet_ids", "obligor '" + id + "' is named twice");
+    }
+    ReportSheet sh;
+    sh.index = pos;
+    score_term_obligor(*it, d.book.defaults, config.score, d.term_run, sh.term);
+    const ScoredObligor& s = d.scored[pos];
+    if (s.status == RowStatus::ok) sh.sensitivities = sensitivities_of(s.resolved, s.solution);
+    if (store) sh.history = store->series(id);
+    d.sheets.push_back(std::move(sh));
+  }
+}
+
 }  // namespace
 
 ReportData gather_report(const ReportOptions& options, const Config& config) {
@@ -1370,25 +1888,7 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
       }
     }
   }
-  if (!options.term_ids.empty()) {
-    TermOptionText choices;
-    choices.horizons = options.horizons;
-    d.term_run = term_book_options(config.term, choices);
-    for (const std::string& id : options.term_ids) {
-      const auto it = std::find_if(d.book.obligors.begin(), d.book.obligors.end(),
-                                   [&id](const ObligorRecord& r) { return id_of(r) == id; });
-      if (it == d.book.obligors.end()) {
-        throw OptionError("term_ids", "obligor '" + id + "' is not in " + d.book.origin);
-      }
-      const auto pos = static_cast<std::size_t>(it - d.book.obligors.begin());
-      if (std::find(d.term_index.begin(), d.term_index.end(), pos) != d.term_index.end()) {
-        throw OptionError("term_ids", "obligor '" + id + "' is named twice");
-      }
-      d.term_index.push_back(pos);
-      d.terms.emplace_back();
-      score_term_obligor(*it, d.book.defaults, settings, d.term_run, d.terms.back());
-    }
-  }
+  gather_terms(d, options, config);
   if (!options.scenarios_path.empty()) {
     ScenarioSet set = load_scenarios(options.scenarios_path);
     check_filters(set, d.book);
@@ -1440,8 +1940,11 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     mon->before = store.obligors(mon->runs.before.run_id, false);
     mon->now = store.obligors(mon->runs.now.run_id, false);
     mon->comparison = compare_runs(mon->before, mon->now, config.grades, config.monitor.alerts);
+    mon->migration = run_grade_migration(store, std::to_string(mon->runs.before.run_id),
+                                         std::to_string(mon->runs.now.run_id), config.grades);
     d.monitoring = std::move(mon);
   }
+  gather_sheets(d, options, config);
   if (!options.validation_path.empty() || !options.validation_defaults_path.empty()) {
     gather_validation(d, options, config);
   }
@@ -1460,8 +1963,11 @@ std::string html_report(const ReportData& d) {
       "</style>\n</head>\n<body>\n<header class=\"fc-masthead\">\n<h1>" + h(title) +
       "</h1>\n<p class=\"fc-sub\">" + h(d.book.origin) +
       (d.book.as_of.empty() ? std::string() : " &#183; as of " + h(d.book.as_of)) + " &#183; " +
-      h(count(f.obligors)) + " obligors &#183; " + h(to_string(d.config.score.measure)) +
-      " measure</p>\n<p class=\"fc-caution\"><strong>Model caution.</strong> These figures are model "
+      h(count(f.obligors)) + " obligors &#183; " + h(to_string(d.config.score.measure)) + " measure</p>\n" +
+      "<p class=\"fc-sub fc-made\">Generated " +
+      h(d.options.generated_at.empty() ? "-" : d.options.generated_at) + " (UTC) by firmcall " +
+      h(d.options.tool_version.empty() ? "-" : d.options.tool_version) +
+      "</p>\n<p class=\"fc-caution\"><strong>Model caution.</strong> These figures are model "
       "estimates under stated assumptions (Merton 1974 and its extensions), not a credit decision on their "
       "own. "
       "Use them within your institution's model-risk policy and the regulation that applies to you.</p>\n";
@@ -1486,6 +1992,10 @@ std::string html_report(const ReportData& d) {
     if (p.present) out += "<a href=\"#" + p.id + "\">" + h(p.title) + "</a>";
     if (!p.present && !p.missing.empty()) missing += (missing.empty() ? "" : "; ") + p.missing;
   }
+  for (std::size_t k = 0; k < d.sheets.size(); ++k) {
+    out += "<a href=\"#sheet-" + std::to_string(k + 1) + "\">" +
+           h(id_of(d.book.obligors[d.sheets[k].index])) + "</a>";
+  }
   out += "</nav>\n";
   if (!missing.empty()) out += "<p class=\"fc-absent\">Not in this report: " + h(missing) + ".</p>\n";
   out += "</header>\n<main>\n";
@@ -1499,9 +2009,11 @@ std::string html_report(const ReportData& d) {
   if (d.portfolio && !d.portfolio->scenarios.empty()) out += portfolio_section(d);
   if (d.monitoring) out += monitoring_section(d);
   if (d.validation) out += validation_section(d);
+  for (std::size_t k = 0; k < d.sheets.size(); ++k) out += sheet_section(d, k);
   out +=
-      "</main>\n<footer>\n<p>Made by firmcall " + h(d.options.tool_version) + " from " + h(d.book.origin) +
-      ". PD: Merton model, " + h(to_string(d.config.score.measure)) +
+      "</main>\n<footer>\n<p>Made by firmcall " + h(d.options.tool_version) + " at " +
+      h(d.options.generated_at) + " (UTC) from " + h(d.book.origin) + ". PD: Merton model, " +
+      h(to_string(d.config.score.measure)) +
       " measure, each obligor's own horizon; default point = short-term debt + w x long-term debt unless "
       "given (w from the command line, the book or the settings); grades on the master scale of the "
       "settings. Percentages of PD "

@@ -534,11 +534,11 @@ std::string svg_interval_chart(const std::vector<std::string>& categories,
 
 std::string svg_signed_bars(const std::vector<std::string>& categories, const std::vector<double>& values,
                             const std::vector<std::string>& value_labels, SvgAxis x, const std::string& title,
-                            bool positive_is_worse, double width) {
+                            bool positive_is_worse, double width, const std::vector<std::string>& tooltips) {
   const double row = 22.0;
   const double l = 200.0, r = width - 170.0, t = 40.0;
   const double b = t + row * static_cast<double>(std::max<std::size_t>(1, categories.size()));
-  const double height = b + 52.0;
+  const double height = b + 74.0;
   fit_axis(x, values, true);
   const auto px = [&](double v) { return l + (r - l) * axis_fraction(x, v); };
   std::string out = frame(title, width, height, l, t, r, b);
@@ -562,7 +562,10 @@ std::string svg_signed_bars(const std::vector<std::string>& categories, const st
     out += "<rect class=\"" +
            std::string((v >= 0.0) == positive_is_worse ? "fc-bar-worse" : "fc-bar-better") + "\" x=\"" +
            num(x0) + "\" y=\"" + num(y + 4.0) + "\" width=\"" + num(std::max(0.5, x1 - x0)) + "\" height=\"" +
-           num(row - 8.0) + "\"><title>" + xml_escape(categories[i] + ": " + label) + "</title></rect>\n";
+           num(row - 8.0) + "\"><title>" +
+           xml_escape((i < tooltips.size() && !tooltips[i].empty() ? tooltips[i] : categories[i]) + ": " +
+                      label) +
+           "</title></rect>\n";
     if (!label.empty()) {
       // Beside the bar's right end (for bars left of zero, right of the zero line), clear of the names.
       out += "<text class=\"fc-bar-label\" x=\"" + num(std::max(x1, zero) + 4.0) + "\" y=\"" +
@@ -572,8 +575,21 @@ std::string svg_signed_bars(const std::vector<std::string>& categories, const st
   out += "<line class=\"fc-zero\" x1=\"" + num(zero) + "\" y1=\"" + num(t) + "\" x2=\"" + num(zero) +
          "\" y2=\"" + num(b) + "\"/>\n";
   out += "<path class=\"fc-axis\" d=\"M" + num(l) + " " + num(b) + " H" + num(r) + "\"/>\n";
-  out += "<text class=\"fc-axis-title\" x=\"" + num((l + r) / 2) + "\" y=\"" + num(height - 12.0) +
+  out += "<text class=\"fc-axis-title\" x=\"" + num((l + r) / 2) + "\" y=\"" + num(b + 40.0) +
          "\" text-anchor=\"middle\">" + xml_escape(x.label) + "</text>\n";
+  // The key says in words which side is worse: the meaning is never carried by colour alone (the
+  // worse bars are also solid, the better ones outlined and dashed; fc-bar-* in the page's CSS).
+  const std::string worse_side = positive_is_worse ? "right" : "left";
+  const std::string better_side = positive_is_worse ? "left" : "right";
+  const double ky = height - 12.0;
+  out += "<rect class=\"fc-bar-worse fc-key\" x=\"" + num(l) + "\" y=\"" + num(ky - 9.0) +
+         "\" width=\"14\" height=\"10\"/>\n<text class=\"fc-legend\" x=\"" + num(l + 18.0) + "\" y=\"" +
+         num(ky) + "\">worse (bar to the " + worse_side + " of zero, solid)</text>\n";
+  const double kx =
+      l + 18.0 + text_width("worse (bar to the " + worse_side + " of zero, solid)", 11.0) + 24.0;
+  out += "<rect class=\"fc-bar-better fc-key\" x=\"" + num(kx) + "\" y=\"" + num(ky - 9.0) +
+         "\" width=\"14\" height=\"10\"/>\n<text class=\"fc-legend\" x=\"" + num(kx + 18.0) + "\" y=\"" +
+         num(ky) + "\">better (bar to the " + better_side + " of zero, outlined)</text>\n";
   out += "</svg>\n";
   return out;
 }

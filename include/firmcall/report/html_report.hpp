@@ -53,6 +53,7 @@ struct ReportOptions {
   std::string book_path;                      ///< the book (YAML or CSV)
   std::string scenarios_path;                 ///< stress scenario file; empty: no stress section
   std::vector<std::string> term_ids;          ///< obligors whose PD term structure is drawn
+  std::vector<std::string> sheet_ids;         ///< obligors with a tear sheet each (a page per obligor)
   std::string horizons = "0.5,1,2,3,5,7,10";  ///< horizons of the term structures, years
   bool portfolio = false;                     ///< the loss distribution section
   std::string correlation_path;               ///< sector correlation file for the portfolio
@@ -70,8 +71,9 @@ struct ReportOptions {
   std::size_t top = 10;                     ///< rows of the name tables
   unsigned threads = 1;                     ///< worker threads of the portfolio run
   std::string title;                        ///< page title; empty: from the book's label
-  std::string tool_version;                 ///< shown in the page's footer
-  /// A book; no id twice in term_ids (gather_report refuses it); correlation_path only with
+  std::string tool_version;                 ///< shown in the page's header and footer
+  std::string generated_at;                 ///< when the page was made, UTC ISO 8601 (header and footer)
+  /// A book; no id twice in term_ids or sheet_ids (gather_report refuses it); correlation_path only with
   /// portfolio, store_run and against only with store_path, validation_against_path only with
   /// validation_path, validation_defaults_path only with store_path and without validation_path,
   /// driving_pd calibrated only with pd_calibration_path (`firmcall report`
@@ -95,6 +97,19 @@ struct ReportMonitoring {
   std::vector<StoredObligor> now;
   Comparison comparison;
   std::size_t runs_in_store = 0;
+  /// Grade migration of the two runs, each graded on its own driving one-year PD (as validate
+  /// --migration BEFORE,NOW).
+  RunMigration migration;
+};
+
+/// One tear sheet: an obligor's inputs and results, its term structure (at the term section's
+/// horizons, as score --horizons), its sensitivities (as score --sensitivities), its rows of the
+/// stress section, and its DD and PD in every recorded run of the store (as track).
+struct ReportSheet {
+  std::size_t index = 0;                       ///< book position
+  TermScoredObligor term;                      ///< the term structure at ReportData::term_run's horizons
+  MertonSensitivities sensitivities;           ///< at its inputs; status invalid_input when not scored
+  std::vector<RunStore::SeriesPoint> history;  ///< with a store: every run holding it, oldest first
 };
 
 /// Everything a report shows.
@@ -109,6 +124,7 @@ struct ReportData {
   std::vector<TermScoredObligor> terms;  ///< one per chosen name
   std::unique_ptr<PortfolioResult> portfolio;
   std::unique_ptr<ReportMonitoring> monitoring;
+  std::vector<ReportSheet> sheets;            ///< one per ReportOptions::sheet_ids, in their order
   std::unique_ptr<ValidationRun> validation;  ///< with the ROC and CAP curve (discrimination.curve)
   std::vector<CurvePoint> roc;  ///< the ROC and CAP curve of the validation, thinned for the charts
   std::unique_ptr<CalibrationRecord> calibration;  ///< the PD calibration (--pd-calibration)
@@ -127,13 +143,14 @@ int driving_grade_of(const ReportData& data, std::size_t i);
 /// Reads the inputs and computes every section asked for. InputError (exit code 2) naming the file,
 /// option or obligor for an unreadable or malformed file, an id of --names not in the book, a bad
 /// horizon list, a calibration file that is not a valid calibration, or a store that cannot be
-/// read or has fewer than two runs to compare.
+/// read or has fewer than two runs to compare; OptionError (field sheet_ids) naming an id of the
+/// tear sheets that is not in the book or is named twice.
 ReportData gather_report(const ReportOptions& options, const Config& config);
 
 /// The whole HTML page.
 std::string html_report(const ReportData& data);
 
-/// Ids of the page's sections, in page order.
+/// Ids of the page's sections, in page order (the tear sheets follow as sheet-1, sheet-2, ...).
 const std::vector<std::string>& report_section_ids();
 
 /// People's number formats used by the report (the table output's rounding):
@@ -141,6 +158,13 @@ const std::vector<std::string>& report_section_ids();
 /// "3.17e-04"), amounts with thousands separators ("1,307.50").
 std::string report_pd(double pd);
 std::string report_spread_bp(double spread_bp);
+/// Amounts below 1 in magnitude keep three significant digits ("0.0123", "2.18e-04"), never
+/// "0.00".
 std::string report_amount(double v, int decimals = 2);
+
+/// The count of the summary's lead sentence: "9 of 10 obligors scored; 1 failed: BAD-02
+/// (invalid_input)" (the first five failures by id and status, then how many more), or
+/// "10 of 10 obligors scored; none failed".
+std::string report_lead_counts(const ReportData& data);
 
 }  // namespace firmcall

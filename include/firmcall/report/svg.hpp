@@ -112,10 +112,13 @@ std::string svg_bar_chart(const std::vector<std::string>& categories, const std:
 
 /// Horizontal bars for signed values, one row per category, from a zero line; `value_labels` are
 /// written beside the bars' ends. Bars on the worse side (positive values, or negative ones when
-/// `positive_is_worse` is false) get class fc-bar-worse, the others fc-bar-better.
+/// `positive_is_worse` is false) get class fc-bar-worse, the others fc-bar-better; a key under the
+/// axis says in words which side is worse. `tooltips` (per category, e.g. the full name where the
+/// category is cut to fit) replace the category in the bars' tooltips.
 std::string svg_signed_bars(const std::vector<std::string>& categories, const std::vector<double>& values,
                             const std::vector<std::string>& value_labels, SvgAxis x, const std::string& title,
-                            bool positive_is_worse = true, double width = 720.0);
+                            bool positive_is_worse = true, double width = 720.0,
+                            const std::vector<std::string>& tooltips = {});
 
 /// One category of an interval chart: a predicted value, an observed value and its interval.
 struct IntervalMark {

@@ -39,6 +39,15 @@ std::string table_pd(double pd) {
   return fmt(std::fabs(p) >= 1e-3 ? "%.4f%%" : "%.2e%%", p);
 }
 
+// The report's amount text (docs/report.md, "Numbers for people"): two decimals with thousands
+// separators from 1 on (values here stay below 1,000 where this is used), three significant
+// digits below 1 (%#.3g, %.2e below 0.001).
+std::string table_amount(double v) {
+  const double a = std::fabs(v);
+  if (v != 0.0 && a < 1.0) return fmt(a >= 1e-3 ? "%#.3g" : "%.2e", v);
+  return fmt("%.2f", v);
+}
+
 // Unescapes the five entities the report writes.
 std::string unescape(std::string s) {
   const std::vector<std::pair<std::string, std::string>> entities = {
@@ -163,7 +172,7 @@ TEST_CASE("report tables show the score command's CSV values with the table's ro
     }
     CAPTURE(id);
     const auto cells = table_row(f.html, marker, id);
-    REQUIRE(cells.size() == 11);
+    REQUIRE(cells.size() == 12);
     CHECK(cells[1] == s.cell(i, "name"));
     CHECK(cells[4] == fmt("%.3f", s.number(i, "distance_to_default")));  // score table: DD 3 decimals
     CHECK(cells[5] == table_pd(s.number(i, "pd")));
@@ -175,6 +184,7 @@ TEST_CASE("report tables show the score command's CSV values with the table's ro
   CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[5] == "18.8634%");
   CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[6] == "172.92");
   CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[8] == "5,440.64");
+  CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[9] == "ZAR");  // the book's currency of GOR-33
   CHECK(table_row(f.html, "fc-names-strong", "DUN-04")[5] == "8.81e-14%");
 }
 
@@ -424,12 +434,12 @@ TEST_CASE("report --pd-calibration: the portfolio section and expected loss foll
             ? "fc-names-weak"
             : "fc-names-strong";
     const auto cells = table_row(html, marker, id);
-    REQUIRE(cells.size() == 15);
+    REQUIRE(cells.size() == 16);
     CAPTURE(id);
     // EL = PD_T LGD EAD with PD_T = 1 - (1 - PD1)^T (constant annual default intensity, from memory).
     const double pd_t = -std::expm1(po.number(i, "horizon") * std::log1p(-po.number(i, "pd_calibrated")));
     CHECK(std::fabs(pd_t - po.number(i, "pd_driving")) <= 1e-15);
-    CHECK(cells[14] == fmt("%.2f", po.number(i, "expected_loss")));
+    CHECK(cells[15] == table_amount(po.number(i, "expected_loss")));
     CHECK(cells[7] == table_pd(po.number(i, "pd_calibrated")));
     CHECK(cells[6] == table_pd(po.number(i, "pd")));
     ++obligors;
@@ -550,6 +560,14 @@ TEST_CASE("svg writer: escaping, ticks, labels and number formats") {
   CHECK(firmcall::report_pd(9.27e-7) == "9.27e-05%");
   CHECK(firmcall::report_spread_bp(172.9249) == "172.92");
   CHECK(firmcall::report_spread_bp(3.17e-4) == "3.17e-04");
+  // Amounts below 1 keep three significant digits (C's %#.3g, and %.2e below 0.001, as the
+  // spreads); 1 and above two decimals with thousands separators (common practice).
+  CHECK(firmcall::report_amount(2.18e-4) == "2.18e-04");
+  CHECK(firmcall::report_amount(0.0123) == "0.0123");
+  CHECK(firmcall::report_amount(0.5) == "0.500");
+  CHECK(firmcall::report_amount(-0.00042) == "-4.20e-04");
+  CHECK(firmcall::report_amount(0.0) == "0.00");
+  CHECK(firmcall::report_amount(1307.5) == "1,307.50");
   SvgAxis x{"leverage DP/V (ratio)", 0.0, 1.0, false, TickFormat::plain};
   SvgAxis y{"DD <sd>", 0.0, 8.0, false, TickFormat::plain};
   firmcall::SvgPlot plot(x, y, "A & B");
@@ -584,6 +602,14 @@ TEST_CASE("ReportOptions::validate: a book is enough; each rule of the sections 
   CHECK(problem->value == "GOR-33");
   CHECK(problem->constraint == "must not name an obligor twice");
   o.term_ids.pop_back();
+  o.sheet_ids = {"ALD-01", "GOR-33", "ALD-01"};
+  problem = o.validate();
+  REQUIRE(problem.has_value());
+  CHECK(problem->field == "sheet_ids");
+  CHECK(problem->value == "ALD-01");
+  CHECK(problem->constraint == "must not name an obligor twice");
+  o.sheet_ids.pop_back();
+  CHECK_FALSE(o.validate().has_value());
 
   o.correlation_path = "samples/sector_correlations.yaml";
   problem = o.validate();
