@@ -14,7 +14,7 @@ namespace firmcall {
 
 const std::vector<std::string_view>& stress_columns() {
   static const std::vector<std::string_view> cols = split_names(
-      "scenario,id,name,status,shocked,equity_value,equity_value_stressed,equity_vol,"
+      "scenario,id,name,currency,status,shocked,equity_value,equity_value_stressed,equity_vol,"
       "equity_vol_stressed,default_point,default_point_stressed,rate,rate_stressed,horizon,"
       "horizon_stressed,asset_value,asset_value_stressed,asset_vol,asset_vol_stressed,"
       "distance_to_default,distance_to_default_stressed,distance_to_default_change,pd,"
@@ -51,7 +51,7 @@ const std::vector<std::string_view>& stress_summary_calibration_columns() {
 
 const std::vector<std::string_view>& reverse_stress_columns() {
   static const std::vector<std::string_view> cols = split_names(
-      "id,name,status,pd,target_pd,equity_fall,equity_fall_status,equity_value_at_target,"
+      "id,name,currency,status,pd,target_pd,equity_fall,equity_fall_status,equity_value_at_target,"
       "pd_at_equity_fall,equity_vol_multiplier,equity_vol_multiplier_status,"
       "equity_vol_at_target,pd_at_equity_vol_multiplier,message");
   return cols;
@@ -60,7 +60,7 @@ const std::vector<std::string_view>& reverse_stress_columns() {
 namespace {
 
 constexpr std::size_t kStressNumbers = 27;  // stress_columns() from equity_value to expected_loss_stressed
-constexpr std::size_t kFirstNumber = 5;
+constexpr std::size_t kFirstNumber = 6;
 
 // The numeric cells of one stress row in stress_columns() order; NaN where not available.
 std::array<double, kStressNumbers> stress_numbers(const ScoredObligor& base, const StressedObligor& s) {
@@ -177,7 +177,8 @@ class StressCsvWriter final : public detail::StressWriter {
   void scenario_begin(const Scenario&, std::size_t, std::string&) const override {}
   void row(const Scenario& sc, const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor& s,
            const detail::RowCalibratedPd& cal, bool, std::string& out) const override {
-    append_csv_texts(out, {sc.name, rec.get(TextField::id), rec.get(TextField::name)});
+    append_csv_texts(out, {sc.name, rec.get(TextField::id), rec.get(TextField::name),
+                           obligor_currency(rec, info_.settings)});
     out.append(to_string(s.status));
     out.push_back(',');
     out.append(s.shocked() ? "true" : "false");
@@ -261,6 +262,7 @@ class StressJsonWriter final : public detail::StressWriter {
     JsonFields(out)
         .text("id", rec.get(TextField::id))
         .text("name", rec.get(TextField::name))
+        .text("currency", obligor_currency(rec, info_.settings))
         .text("status", to_string(s.status))
         .boolean("shocked", s.shocked())
         .numbers(std::span(cols).subspan(kFirstNumber, kStressNumbers), stress_numbers(base, s))
@@ -541,8 +543,8 @@ std::string_view search_status(const ScoredObligor& base, const ReverseResult& r
 
 class ReverseCsvWriter final : public detail::ReverseStressWriter {
  public:
-  ReverseCsvWriter(const detail::StressRunInfo&, double target, const ReverseStressOptions&)
-      : target_(target) {}
+  ReverseCsvWriter(const detail::StressRunInfo& info, double target, const ReverseStressOptions&)
+      : default_currency_(info.settings.currency.view()), target_(target) {}
   void begin(std::string& out) const override {
     append_csv_names(out, reverse_stress_columns());
     out.push_back('\n');
@@ -550,7 +552,9 @@ class ReverseCsvWriter final : public detail::ReverseStressWriter {
   void row(const ObligorRecord& rec, const ScoredObligor& base, const ReverseStressRow& r, bool,
            std::string& out) const override {
     const ReverseCells c = reverse_cells(base, r, target_);
-    append_csv_texts(out, {rec.get(TextField::id), rec.get(TextField::name)});
+    const std::string& own = rec.get(TextField::currency);
+    append_csv_texts(out, {rec.get(TextField::id), rec.get(TextField::name),
+                           own.empty() ? std::string_view(default_currency_) : std::string_view(own)});
     out.append(to_string(r.status));
     append_csv_numbers(out, std::initializer_list<double>{c.pd, c.target, c.fall});
     out.push_back(',');
@@ -566,6 +570,7 @@ class ReverseCsvWriter final : public detail::ReverseStressWriter {
   void end(const ReverseStressSummary&, std::string&) const override {}
 
  private:
+  std::string default_currency_;
   double target_;
 };
 
@@ -594,6 +599,7 @@ class ReverseJsonWriter final : public detail::ReverseStressWriter {
     JsonFields(out)
         .text("id", rec.get(TextField::id))
         .text("name", rec.get(TextField::name))
+        .text("currency", obligor_currency(rec, info_.settings))
         .text("status", to_string(r.status))
         .number("pd", c.pd)
         .number("target_pd", c.target)

@@ -26,6 +26,7 @@ def main():
         page = os.path.join(tmp, "report.html")
         subprocess.run([firmcall, "-q", "report", "samples/demo_book.yaml", "--scenarios",
                         "samples/stress_scenarios.yaml", "--names", "GOR-33,BEL-28,CIN-03,ALD-01", "--portfolio",
+                        "--reporting-currency", "EUR", "--fx", "samples/demo_fx.csv",
                         "--validate", "samples/outcomes.csv",
                         "--db", db, "--html", page], cwd=source, check=True)
         with open(page, encoding="utf-8") as f:

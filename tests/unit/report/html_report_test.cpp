@@ -92,7 +92,8 @@ const FullRun& full_run() {
     const auto r = run_firmcall(
         "report samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --names "
         "GOR-33,BEL-28,CIN-03,ALD-01 "
-        "--portfolio --validate samples/outcomes.csv --db '" +
+        "--portfolio --reporting-currency EUR --fx samples/demo_fx.csv --validate samples/outcomes.csv --db "
+        "'" +
         f.dir.file("weekly.sqlite") + "' --html '" + f.dir.file("report.html") + "'");
     f.exit_code = r.exit_code;
     f.err = r.err;
@@ -163,8 +164,9 @@ TEST_CASE("report tables show the score command's CSV values with the table's ro
     }
     CAPTURE(id);
     const auto cells = table_row(f.html, marker, id);
-    REQUIRE(cells.size() == 11);
+    REQUIRE(cells.size() == 12);
     CHECK(cells[1] == s.cell(i, "name"));
+    CHECK(cells[11] == s.cell(i, "currency"));                           // the obligor's currency, last
     CHECK(cells[4] == fmt("%.3f", s.number(i, "distance_to_default")));  // score table: DD 3 decimals
     CHECK(cells[5] == table_pd(s.number(i, "pd")));
     CHECK(cells[7] == fmt("%.3f", s.number(i, "leverage")));
@@ -218,8 +220,9 @@ TEST_CASE("report stress, portfolio and movers figures equal those commands' CSV
   CHECK(matched == 20);
 
   // Portfolio: VaR and ES of the exact one-factor distribution (portfolio --summary-output).
-  const auto pf = run_firmcall("-q portfolio samples/demo_book.yaml -o '" + t.file("p.txt") +
-                               "' --summary-output '" + t.file("p.csv") + "'");
+  const auto pf = run_firmcall(
+      "-q portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv -o '" +
+      t.file("p.txt") + "' --summary-output '" + t.file("p.csv") + "'");
   REQUIRE(pf.exit_code == 0);
   const CsvTable ps = parse_csv_table(read_file(t.file("p.csv")));
   std::size_t levels = 0;
@@ -379,6 +382,7 @@ TEST_CASE("report --pd-calibration: the portfolio section and expected loss foll
   TempDir t;
   const auto r = run_firmcall(
       "-q report samples/demo_book.yaml --pd-calibration samples/calibration.yaml --portfolio --top 1000 "
+      "--reporting-currency EUR --fx samples/demo_fx.csv "
       "--html '" +
       t.file("r.html") + "'");
   REQUIRE(r.exit_code == 0);
@@ -392,6 +396,7 @@ TEST_CASE("report --pd-calibration: the portfolio section and expected loss foll
   // distribution, and each obligor's expected loss PD x LGD x EAD on the calibrated PD.
   const auto pf = run_firmcall(
       "-q portfolio samples/demo_book.yaml --pd-calibration samples/calibration.yaml -f csv "
+      "--reporting-currency EUR --fx samples/demo_fx.csv "
       "-o '" +
       t.file("p.csv") + "' --summary-output '" + t.file("s.csv") + "'");
   REQUIRE(pf.exit_code == 0);
@@ -424,12 +429,14 @@ TEST_CASE("report --pd-calibration: the portfolio section and expected loss foll
             ? "fc-names-weak"
             : "fc-names-strong";
     const auto cells = table_row(html, marker, id);
-    REQUIRE(cells.size() == 15);
+    REQUIRE(cells.size() == 16);  // the last: the obligor's currency
     CAPTURE(id);
     // EL = PD_T LGD EAD with PD_T = 1 - (1 - PD1)^T (constant annual default intensity, from memory).
     const double pd_t = -std::expm1(po.number(i, "horizon") * std::log1p(-po.number(i, "pd_calibrated")));
     CHECK(std::fabs(pd_t - po.number(i, "pd_driving")) <= 1e-15);
-    CHECK(cells[14] == fmt("%.2f", po.number(i, "expected_loss")));
+    // The name table is in the obligor's currency, the portfolio in EUR: EL / fx_rate.
+    CHECK(cells[14] == fmt("%.2f", po.number(i, "expected_loss") / po.number(i, "fx_rate")));
+    CHECK(cells[15] == po.cell(i, "currency"));
     CHECK(cells[7] == table_pd(po.number(i, "pd_calibrated")));
     CHECK(cells[6] == table_pd(po.number(i, "pd")));
     ++obligors;
@@ -438,12 +445,14 @@ TEST_CASE("report --pd-calibration: the portfolio section and expected loss foll
   // --driving-pd model: the grades and the portfolio are those of a run without a calibration.
   const auto m = run_firmcall(
       "-q report samples/demo_book.yaml --pd-calibration samples/calibration.yaml --driving-pd model "
-      "--portfolio "
+      "--portfolio --reporting-currency EUR --fx samples/demo_fx.csv "
       "--html '" +
       t.file("m.html") + "'");
   REQUIRE(m.exit_code == 0);
-  const auto plain =
-      run_firmcall("-q report samples/demo_book.yaml --portfolio --html '" + t.file("n.html") + "'");
+  const auto plain = run_firmcall(
+      "-q report samples/demo_book.yaml --portfolio --reporting-currency EUR --fx samples/demo_fx.csv --html "
+      "'" +
+      t.file("n.html") + "'");
   REQUIRE(plain.exit_code == 0);
   const std::string model = read_file(t.file("m.html")), none = read_file(t.file("n.html"));
   CHECK(model.find("<strong>Driving PD: model PD (Merton)</strong>") != std::string::npos);
