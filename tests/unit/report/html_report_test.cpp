@@ -255,6 +255,48 @@ TEST_CASE("report stress, portfolio and movers figures equal those commands' CSV
   CHECK(zep[6] == "16.9426%");  // docs/monitoring.md, watchlist example
 }
 
+TEST_CASE("report amounts name their currency: totals in the reporting currency, names in their own") {
+  const FullRun& f = full_run();
+  TempDir t;
+  // The portfolio run's total EAD and expected loss in EUR (portfolio --summary-output) are the
+  // book summary's cards; the section names the FX file, its date and the rates.
+  const auto pf = run_firmcall(
+      "-q portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv -o '" +
+      t.file("p.txt") + "' --summary-output '" + t.file("p.csv") + "'");
+  REQUIRE(pf.exit_code == 0);
+  const CsvTable ps = parse_csv_table(read_file(t.file("p.csv")));
+  double ead = std::nan(""), el = std::nan("");
+  for (std::size_t i = 0; i < ps.rows.size(); ++i) {
+    if (ps.cell(i, "scenario") != "base" || ps.cell(i, "group_by") != "total" ||
+        ps.cell(i, "method") != "book")
+      continue;
+    if (ps.cell(i, "measure") == "ead") ead = ps.number(i, "value");
+    if (ps.cell(i, "measure") == "expected_loss") el = ps.number(i, "value");
+  }
+  const std::string note = " at the rates of samples/demo_fx.csv as of 2026-11-30";
+  CHECK(f.html.find("<div class=\"fc-card-value\">" + firmcall::report_amount(ead) +
+                    "</div><div class=\"fc-card-note\">exposure at default, in EUR" + note) !=
+        std::string::npos);
+  CHECK(f.html.find("<div class=\"fc-card-value\">" + firmcall::report_amount(el) + "</div>") !=
+        std::string::npos);
+  CHECK(f.html.find("every amount (EAD, losses, capital, contributions) in EUR, each EAD converted" + note +
+                    " (EUR per unit: AUD 0.61,") != std::string::npos);
+  CHECK(f.html.find("portfolio loss (EUR)") != std::string::npos);
+  // Without a portfolio run a book in 15 currencies has no total EAD.
+  const auto r = run_firmcall("-q report samples/demo_book.yaml --html '" + t.file("r.html") + "'");
+  REQUIRE(r.exit_code == 0);
+  const std::string html = read_file(t.file("r.html"));
+  CHECK(html.find(
+            "<div class=\"fc-card-value\">-</div><div class=\"fc-card-note\">exposure at default, not added "
+            "up: the book is in 15 currencies") != std::string::npos);
+  // A portfolio section of that book needs the FX rates.
+  const auto no_fx =
+      run_firmcall("-q report samples/demo_book.yaml --portfolio --html '" + t.file("n.html") + "'");
+  CHECK(no_fx.exit_code == 2);
+  CHECK(no_fx.err.find("the obligors' amounts are in 15 currencies") != std::string::npos);
+  CHECK_FALSE(std::filesystem::exists(t.file("n.html")));
+}
+
 TEST_CASE("report term structures equal score --horizons for the chosen names") {
   const FullRun& f = full_run();
   const auto r = run_firmcall("score samples/demo_book.yaml --horizons 0.5,1,2,3,5,7,10 --format csv");
