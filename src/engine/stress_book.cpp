@@ -478,6 +478,24 @@ BookPasses book_passes(const Book& book) {
   return [&book]() -> std::unique_ptr<BookStream> { return BookStream::over(book); };
 }
 
+namespace {
+
+// A note when the book's obligors name more than one currency: the summaries' EAD totals, EAD
+// weights and expected losses then add amounts in different currencies.
+void add_currency_note(const BookScan& scan, std::vector<std::string>& notes) {
+  const std::vector<std::string>& currencies = scan.currencies;
+  if (currencies.size() < 2) return;
+  std::string names;
+  for (const std::string& c : currencies) names.append(names.empty() ? "" : ", ").append(c);
+  notes.push_back(
+      scan.origin + ": note: the obligors' amounts are in " + std::to_string(currencies.size()) +
+      " currencies (" + names +
+      "); the summaries' ead_total, EAD-weighted PDs and expected losses add them up as they are, "
+      "without conversion (the rows are each in their obligor's currency)");
+}
+
+}  // namespace
+
 BookScan scan_book(const BookPasses& passes, std::size_t piece_obligors, bool keep_ids,
                    const std::function<void(const std::vector<ObligorRecord>& piece,
                                             const BookDefaults& defaults, std::size_t first)>& each) {
@@ -504,6 +522,8 @@ BookScan scan_book(const BookPasses& passes, std::size_t piece_obligors, bool ke
     scan.obligors += piece.size();
   }
   scan.notes = stream->notes();
+  scan.currencies.assign(seen[2].begin(), seen[2].end());
+  std::sort(scan.currencies.begin(), scan.currencies.end());
   return scan;
 }
 
@@ -540,6 +560,7 @@ StressSummary run_stress(const BookPasses& passes, const StressBookScan& scan,
   StressSummary sum;
   sum.obligors = n;
   sum.notes = scan.book.notes;
+  add_currency_note(scan.book, sum.notes);
   sum.base_ok = scan.base_ok;
   sum.base_invalid = scan.base_invalid;
   sum.base_not_converged = scan.base_not_converged;

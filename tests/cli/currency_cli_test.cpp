@@ -69,6 +69,11 @@ TEST_CASE("score and stress rows carry the obligor's currency") {
   const auto st = parse_csv_table(stress.out);
   REQUIRE(st.rows.size() == 6);
   CHECK(st.cell(2, "currency") == "USD");
+  // The scenario summaries add EADs up unconverted, which a note says.
+  CHECK(stress.err.find(book +
+                        ": note: the obligors' amounts are in 3 currencies (EUR, GBP, USD); the summaries' "
+                        "ead_total, EAD-weighted PDs and expected losses add them up as they are") !=
+        std::string::npos);
   // A code that is not three upper-case letters makes the obligor invalid, naming the field.
   const std::string bad = t.write(
       "bad.csv", std::string(kBook) + "LOW-4,Lowercase Mills,Industrials,DE,eur,900,0.3,500,0.03,10,0.4\n");

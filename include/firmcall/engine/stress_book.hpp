@@ -185,7 +185,8 @@ BookPasses book_passes(const Book& book);
 struct BookScan {
   std::string origin;
   std::size_t obligors = 0;
-  std::vector<std::string> notes;  ///< the book's notes
+  std::vector<std::string> notes;       ///< the book's notes
+  std::vector<std::string> currencies;  ///< the distinct `currency` texts of the obligors, sorted
   /// Obligors that carry between them every sector, country and currency of the book (and every
   /// id, when the scan was asked for them), for check_filters(); nothing else is set.
   Book filter_book;
