@@ -1404,6 +1404,13 @@ void gather_validation(ReportData& d, const ReportOptions& options, const Config
   if (!curve.empty() && (curve.size() - 1) % step != 0) d.roc.push_back(curve.back());
 }
 
+// The portfolio run converts to the reporting currency when the report was given FX rates.
+void use_fx(const ReportOptions& options, const FxTable& fx, PortfolioBookOptions& run) {
+  if (options.fx_path.empty()) return;
+  run.fx = &fx;
+  run.reporting_currency = options.reporting_currency;
+}
+
 }  // namespace
 
 ReportData gather_report(const ReportOptions& options, const Config& config) {
@@ -1483,12 +1490,8 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     }
     PortfolioBookOptions ro;
     ro.threads = std::max(1U, options.threads);
-    FxTable fx;
-    if (!options.fx_path.empty()) {
-      fx = load_fx_rates(options.fx_path);
-      ro.fx = &fx;
-      ro.reporting_currency = options.reporting_currency;
-    }
+    const FxTable fx = options.fx_path.empty() ? FxTable{} : load_fx_rates(options.fx_path);
+    use_fx(options, fx, ro);
     if (calibrated_drives(d)) {
       // IRB capital, expected loss and the loss distribution on the calibrated PD.
       ro.pd_calibration = &d.calibration->calibration;
