@@ -28,7 +28,7 @@ const std::vector<std::string_view>& stress_summary_columns() {
       "scenario,description,obligors,compared,shocked,failed,mean_pd,mean_pd_stressed,"
       "obligors_with_ead,ead_total,ead_weighted_pd,ead_weighted_pd_stressed,pd_threshold,"
       "above_threshold,above_threshold_stressed,newly_above_threshold,expected_loss,"
-      "expected_loss_stressed,expected_loss_change");
+      "expected_loss_stressed,expected_loss_change,currency");
   return cols;
 }
 
@@ -279,7 +279,8 @@ class StressJsonWriter final : public detail::StressWriter {
   void end(const StressSummary& sum, const std::vector<Scenario>&, std::string& out) const override {
     open_json_summary(out, sum.obligors, sum.base_ok, sum.base_invalid, sum.base_not_converged)
         .count("rows", sum.rows)
-        .count("failed_rows", sum.failed_rows);
+        .count("failed_rows", sum.failed_rows)
+        .text("currency", sum.currency);
     out += "}\n}\n";
   }
 
@@ -456,6 +457,7 @@ class StressTableWriter final : public detail::StressWriter {
     const std::string thr = percent(info_.stress.pd_threshold);
     out += "\nScenario summary (PD threshold " + thr +
            "; expected loss over obligors with ead, each over its horizon" +
+           (sum.currency.empty() ? std::string() : "; EAD and expected loss in " + sum.currency) +
            (info_.pd_calibration
                 ? info_.driving_pd == DrivingPd::calibrated ? "; PD: calibrated one-year" : "; PD: model"
                 : "") +
@@ -721,6 +723,8 @@ std::string scenario_summary_csv(const StressSummary& summary, const std::vector
     }
     append_csv_numbers(out, std::initializer_list<double>{s.expected_loss, s.expected_loss_stressed,
                                                           s.expected_loss_stressed - s.expected_loss});
+    out.push_back(',');
+    append_csv_text(out, summary.currency);
     if (summary.calibrated) append_summary_calibrated_csv(out, s.calibrated);
     out.push_back('\n');
   }

@@ -84,6 +84,51 @@ TEST_CASE("score and stress rows carry the obligor's currency") {
                   "e.g. EUR), got 'eur'") != std::string::npos);
 }
 
+TEST_CASE("stress --fx: the summaries in the reporting currency against hand-computed totals") {
+  TempDir t;
+  const std::string book = t.write("b.csv", kBook);
+  const std::string fx = t.write("fx.csv", kFx);
+  const auto r =
+      run_firmcall("stress '" + book + "' --equity-shocks 0,-0.3 --reporting-currency EUR --fx '" + fx +
+                   "' -f csv -o '" + t.file("rows.csv") + "' --summary-output '" + t.file("s.csv") + "'");
+  REQUIRE(r.exit_code == 0);
+  CHECK(r.err.find("note: the obligors' amounts are in") == std::string::npos);
+  const auto rows = parse_csv_table(read_file(t.file("rows.csv")));
+  const auto sum = parse_csv_table(read_file(t.file("s.csv")));
+  REQUIRE(rows.rows.size() == 6);
+  REQUIRE(sum.rows.size() == 2);
+  const double rate[] = {1.0, 1.2, 0.9};  // EUR per unit, from the FX file
+  for (std::size_t k = 0; k < 2; ++k) {
+    CAPTURE(k);
+    // By hand: EAD 100 x 1 + 50 x 1.2 + 200 x 0.9 = 340 EUR; expected loss = the rows' own-currency
+    // expected losses, each times its rate.
+    double el = 0.0, el_stressed = 0.0;
+    for (std::size_t i = 0; i < 3; ++i) {
+      el += rows.number(3 * k + i, "expected_loss") * rate[i];
+      el_stressed += rows.number(3 * k + i, "expected_loss_stressed") * rate[i];
+    }
+    CHECK(sum.number(k, "ead_total") == doctest::Approx(340.0).epsilon(1e-15));
+    CHECK(sum.number(k, "expected_loss") == doctest::Approx(el).epsilon(1e-14));
+    CHECK(sum.number(k, "expected_loss_stressed") == doctest::Approx(el_stressed).epsilon(1e-14));
+    CHECK(sum.cell(k, "currency") == "EUR");
+  }
+  CHECK(rows.cell(1, "currency") == "GBP");
+  // Without --fx: summed as it stands (100 + 50 + 200), no currency named.
+  const auto plain = run_firmcall("stress '" + book + "' --equity-shocks 0 -f csv -o '" + t.file("r2.csv") +
+                                  "' --summary-output '" + t.file("s2.csv") + "'");
+  REQUIRE(plain.exit_code == 0);
+  const auto s2 = parse_csv_table(read_file(t.file("s2.csv")));
+  CHECK(s2.number(0, "ead_total") == 350.0);
+  CHECK(s2.cell(0, "currency") == "");
+  // A currency the FX file lacks.
+  const std::string no_usd = t.write("no_usd.csv", "# as_of: 2026-06-30\ncurrency,rate\nGBP,1.2\n");
+  const auto bad = run_firmcall("stress '" + book + "' --equity-shocks 0 --reporting-currency EUR --fx '" +
+                                no_usd + "' -f csv -o '" + t.file("never.csv") + "'");
+  CHECK(bad.exit_code == 2);
+  CHECK(bad.err.find(no_usd + ": no rate to EUR for USD (currencies of " + book + ")") != std::string::npos);
+  CHECK_FALSE(std::filesystem::exists(t.file("never.csv")));
+}
+
 TEST_CASE("portfolio --fx: EAD, expected loss and capital against hand-computed totals") {
   TempDir t;
   const std::string book = t.write("b.csv", kBook);
