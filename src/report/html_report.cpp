@@ -663,7 +663,11 @@ std::string stress_section(const ReportData& d) {
                ? std::string("holding its asset volatility (its equity volatility is then the model's; "
                              "stress.hold asset-vol)")
                : std::string("holding its equity volatility (stress.hold equity-vol)")) +
-          ". Figures over the obligors scored both as they stand and stressed.");
+          ". Figures over the obligors scored both as they stand and stressed; " +
+          (st.summary.currency.empty()
+               ? std::string("EAD weights and expected losses add each obligor's amounts as they stand")
+               : "EAD weights and expected losses in " + st.summary.currency) +
+          ".");
   out += scenario_pd_chart(scenario_pds(st), stress_pd_name(st));
   out += scenario_summary_table(d);
   // Per-obligor change, one chart per scenario: the names whose PD moved most.
@@ -1404,8 +1408,10 @@ void gather_validation(ReportData& d, const ReportOptions& options, const Config
   if (!curve.empty() && (curve.size() - 1) % step != 0) d.roc.push_back(curve.back());
 }
 
-// The portfolio run converts to the reporting currency when the report was given FX rates.
-void use_fx(const ReportOptions& options, const FxTable& fx, PortfolioBookOptions& run) {
+// The stress and portfolio runs convert to the reporting currency when the report was given FX
+// rates.
+template <class RunOptions>
+void use_fx(const ReportOptions& options, const FxTable& fx, RunOptions& run) {
   if (options.fx_path.empty()) return;
   run.fx = &fx;
   run.reporting_currency = options.reporting_currency;
@@ -1457,6 +1463,7 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
       score_term_obligor(*it, d.book.defaults, settings, d.term_run, d.terms.back());
     }
   }
+  const FxTable fx = options.fx_path.empty() ? FxTable{} : load_fx_rates(options.fx_path);
   if (!options.scenarios_path.empty()) {
     ScenarioSet set = load_scenarios(options.scenarios_path);
     check_filters(set, d.book);
@@ -1464,6 +1471,7 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     st->origin = set.origin;
     StressBookOptions run;
     run.format = OutputFormat::csv;
+    use_fx(options, fx, run);
     if (d.calibration) {  // the summaries carry the calibrated figures, shown when they drive
       run.pd_calibration = &d.calibration->calibration;
       run.pd_calibration_origin = options.pd_calibration_path;
@@ -1490,7 +1498,6 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     }
     PortfolioBookOptions ro;
     ro.threads = std::max(1U, options.threads);
-    const FxTable fx = options.fx_path.empty() ? FxTable{} : load_fx_rates(options.fx_path);
     use_fx(options, fx, ro);
     if (calibrated_drives(d)) {
       // IRB capital, expected loss and the loss distribution on the calibrated PD.

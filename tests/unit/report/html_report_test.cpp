@@ -185,7 +185,9 @@ TEST_CASE("report stress, portfolio and movers figures equal those commands' CSV
   TempDir t;
   // Stress: the per-scenario summary CSV (docs/stress.md).
   const auto st = run_firmcall(
-      "-q stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --format csv -o '" +
+      "-q stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --reporting-currency EUR "
+      "--fx "
+      "samples/demo_fx.csv --format csv -o '" +
       t.file("rows.csv") + "' --summary-output '" + t.file("summary.csv") + "'");
   REQUIRE(st.exit_code == 0);
   const CsvTable sum = parse_csv_table(read_file(t.file("summary.csv")));
@@ -282,6 +284,7 @@ TEST_CASE("report amounts name their currency: totals in the reporting currency,
   CHECK(f.html.find("every amount (EAD, losses, capital, contributions) in EUR, each EAD converted" + note +
                     " (EUR per unit: AUD 0.61,") != std::string::npos);
   CHECK(f.html.find("portfolio loss (EUR)") != std::string::npos);
+  CHECK(f.html.find("EAD weights and expected losses in EUR.") != std::string::npos);  // the stress section
   // Without a portfolio run a book in 15 currencies has no total EAD.
   const auto r = run_firmcall("-q report samples/demo_book.yaml --html '" + t.file("r.html") + "'");
   REQUIRE(r.exit_code == 0);
