@@ -23,7 +23,8 @@ out=$here/out
 mkdir -p "$out"
 book=$out/mpi_book_$obligors.csv
 [ -f "$book" ] || "$python" "$gen" --rows "$obligors" --seed 5 --out "$book"
-args="--quiet portfolio $book --horizon 1 --monte-carlo $scenarios --threads 1 --format json"
+# The generated book holds several currencies: amounts in EUR at the sample's invented rates.
+args="--quiet portfolio $book --reporting-currency EUR --fx $root/samples/demo_fx.csv --horizon 1 --monte-carlo $scenarios --threads 1 --format json"
 
 # timed NAME COMMAND...: wall seconds of one run into $out/NAME.time; the JSON into $out/NAME.json.
 timed() {

@@ -23,6 +23,8 @@ python=${PYTHON:-/usr/bin/python3}
 out=$here/out
 mkdir -p "$out"
 jobs=""
+# The generated books hold several currencies: amounts in EUR at the sample's invented rates.
+fx="--reporting-currency EUR --fx $root/samples/demo_fx.csv"
 if [ -n "$threads" ]; then jobs="--threads $threads"; fi
 
 "$python" "$gen" --rows "$exact_n" --seed 1 --out "$out/portfolio_exact_book.csv"
@@ -33,7 +35,7 @@ run() {
   name=$1
   shift
   # shellcheck disable=SC2086
-  /usr/bin/time -f "%e %U %S %M" -o "$out/$name.time" "$build/firmcall" --quiet portfolio "$@" $jobs \
+  /usr/bin/time -f "%e %U %S %M" -o "$out/$name.time" "$build/firmcall" --quiet portfolio "$@" $jobs $fx \
     --format csv --output "$out/$name.csv" --summary-output "$out/$name.summary.csv" || {
     status=$?
     if [ "$status" -ne 1 ]; then exit "$status"; fi

@@ -11,6 +11,8 @@ root=$(dirname "$here")
 build=${1:-$root/build}
 sizes=${2:-"10000 100000 1000000"}
 gen=${GEN:-$root/../shared/tools/gen_obligors.py}
+# The generated books hold several currencies: amounts in EUR at the sample's invented rates.
+fx="--reporting-currency EUR --fx $root/samples/demo_fx.csv"
 python=${PYTHON:-/usr/bin/python3}
 out=$here/out
 mkdir -p "$out"
@@ -31,6 +33,6 @@ for n in $sizes; do
   book="$out/memory_book_$n.csv"
   [ -f "$book" ] || "$python" "$gen" --rows "$n" --seed 11 --out "$book"
   echo "$n obligors"
-  measure portfolio portfolio --no-contributions --format csv --output "$out/memory_portfolio_$n.csv" "$book"
-  measure report report "$book" --portfolio --html "$out/memory_report_$n.html"
+  measure portfolio portfolio $fx --no-contributions --format csv --output "$out/memory_portfolio_$n.csv" "$book"
+  measure report report "$book" --portfolio $fx --html "$out/memory_report_$n.html"
 done

@@ -51,11 +51,11 @@ run history_naive_json history "$S/history_book.yaml" "$S/history_prices.csv" -b
 run history_mle_csv history "$S/history_book.yaml" "$S/history_prices.csv" -b "$S/history_balance_sheets.csv" -m mle -f csv -o mle.csv --series series.csv
 run history_score history "$S/history_book.yaml" "$S/history_prices.csv" -b "$S/history_balance_sheets.csv" --score --vol-estimator ewma
 run history_bad history "$S/history_book.yaml" "$S/history_bad_prices.csv" -b "$S/history_balance_sheets.csv" -f csv -o bad.csv
-run portfolio_table portfolio "$S/demo_book.yaml"
-run portfolio_mc portfolio "$S/demo_book.yaml" --correlation "$S/sector_correlations.yaml" --monte-carlo 200000
-run portfolio_stress portfolio "$S/demo_book.yaml" --scenarios "$S/stress_scenarios.yaml"
-run portfolio_csv portfolio "$S/demo_book.yaml" --format csv -o portfolio.csv --summary-output portfolio_summary.csv --distribution-output loss_distribution.csv
-run portfolio_json portfolio "$S/demo_book.yaml" -f json
+run portfolio_table portfolio "$S/demo_book.yaml" --reporting-currency EUR --fx "$S/demo_fx.csv"
+run portfolio_mc portfolio "$S/demo_book.yaml" --reporting-currency EUR --fx "$S/demo_fx.csv" --correlation "$S/sector_correlations.yaml" --monte-carlo 200000
+run portfolio_stress portfolio "$S/demo_book.yaml" --reporting-currency EUR --fx "$S/demo_fx.csv" --scenarios "$S/stress_scenarios.yaml"
+run portfolio_csv portfolio "$S/demo_book.yaml" --reporting-currency EUR --fx "$S/demo_fx.csv" --format csv -o portfolio.csv --summary-output portfolio_summary.csv --distribution-output loss_distribution.csv
+run portfolio_json portfolio "$S/demo_book.yaml" --reporting-currency EUR --fx "$S/demo_fx.csv" -f json
 for w in 1 2 3 4; do run "record_week$w" score "$S/weekly/week$w.yaml" --record --db weekly.sqlite; done
 run runs runs --db weekly.sqlite
 run runs_json runs --db weekly.sqlite -f json
@@ -67,7 +67,7 @@ run track track ZEP-26 --db weekly.sqlite
 run track_json track ZEP-26 --db weekly.sqlite -f json
 run movers movers --db weekly.sqlite --against 1 --top 6
 run movers_csv movers --db weekly.sqlite -f csv
-run report report "$S/demo_book.yaml" --scenarios "$S/stress_scenarios.yaml" --names GOR-33,BEL-28,CIN-03,ALD-01 --portfolio --db weekly.sqlite --html report.html
+run report report "$S/demo_book.yaml" --scenarios "$S/stress_scenarios.yaml" --names GOR-33,BEL-28,CIN-03,ALD-01 --portfolio --reporting-currency EUR --fx "$S/demo_fx.csv" --db weekly.sqlite --html report.html
 run help --help
 for c in score history stress runs movers watchlist attribute track portfolio report; do run "help_$c" "$c" --help; done
 # The store holds times and paths of this run; what the commands read from it is compared above.

@@ -18,6 +18,7 @@
 #include "firmcall/format/row_writer.hpp"
 #include "firmcall/io/correlation_io.hpp"
 #include "firmcall/io/csv.hpp"
+#include "firmcall/io/fx_io.hpp"
 #include "firmcall/io/history_io.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/output_file.hpp"

@@ -187,6 +187,7 @@ def _assemble(raw, texts, n, frame, index, sensitivities, pd_calibration):
     if raw["message_rows"]:
         message[np.asarray(raw["message_rows"], dtype=np.intp)] = raw["message_texts"]
     out["message"] = message
+    out["currency"] = np.array(texts.get("currency", [""] * n), dtype=object)  # the obligor's own
     if sensitivities:
         names = np.array(_native.sensitivity_status_names + [""], dtype=object)
         out["sensitivity_status"] = names[raw["sensitivity_status_code"].astype(np.intp)]  # -1: ""

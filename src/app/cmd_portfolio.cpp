@@ -13,6 +13,7 @@
 #include "firmcall/engine/portfolio_book.hpp"
 #include "firmcall/io/calibration_io.hpp"
 #include "firmcall/io/correlation_io.hpp"
+#include "firmcall/io/fx_io.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/output_file.hpp"
 #include "firmcall/io/scenario.hpp"
@@ -41,6 +42,8 @@ struct PortfolioCli {
   unsigned threads = 0;
   std::string pd_calibration;  // --pd-calibration: calibration file (calibrate --save)
   std::string driving_pd;      // --driving-pd: model or calibrated (default: calibrated with a calibration)
+  std::string reporting_currency;  // --reporting-currency: the currency of the portfolio figures
+  std::string fx;                  // --fx: FX rates to it (CSV currency,rate)
 };
 
 // A one-line progress report on standard error, redrawn in place.
@@ -126,6 +129,16 @@ void declare_portfolio_options(CLI::App* cmd, PortfolioCli& o) {
          "calibrated with --pd-calibration, else model); a calibrated PD over T years is "
          "1 - (1 - PD1)^T")
       ->check(CLI::IsMember({"model", "calibrated"}));
+  auto* reporting = cmd->add_option(
+      "--reporting-currency", o.reporting_currency,
+      "Currency of EAD, losses, capital and contributions (three upper-case letters, e.g. EUR); needs --fx");
+  auto* fx =
+      cmd->add_option("--fx", o.fx,
+                      "FX rates to the reporting currency: CSV currency,rate (units of the reporting "
+                      "currency per unit), first line '# as_of: YYYY-MM-DD'; needs --reporting-currency")
+          ->check(CLI::ExistingFile);
+  reporting->needs(fx);
+  fx->needs(reporting);
   cmd->footer(
       std::string("\nExit codes: 0 every obligor in the portfolio; 1 some obligors left out (listed, the "
                   "others run); 2 unreadable or malformed file or bad command line.\n\n") +
@@ -192,6 +205,12 @@ PortfolioBookOptions portfolio_options(const PortfolioCli& o, Config& config) {
   }
   run.driving_pd =
       o.driving_pd == "model" || o.pd_calibration.empty() ? DrivingPd::model : DrivingPd::calibrated;
+  if (!o.reporting_currency.empty() && !is_currency_code(o.reporting_currency)) {
+    throw InputError(
+        "--reporting-currency: expected three upper-case letters (ISO 4217 style, e.g. EUR), got '" +
+        o.reporting_currency + "'");
+  }
+  run.reporting_currency = o.reporting_currency;
   return run;
 }
 
@@ -220,6 +239,19 @@ void write_portfolio_files(const PortfolioOutputs& files, const PortfolioCli& o,
   if (files.distribution) files.distribution->write(portfolio_distribution_csv(result));
 }
 
+// Without FX rates: a book in several currencies is refused, naming them and the options.
+void check_one_currency(const Book& book, const ScoreSettings& settings) {
+  const std::vector<std::string> currencies = book_currencies(book, settings);
+  if (currencies.size() < 2) return;
+  std::string names;
+  for (const std::string& c : currencies) names.append(names.empty() ? "" : ", ").append(c);
+  throw InputError(
+      book.origin + ": the obligors' amounts are in " + std::to_string(currencies.size()) + " currencies (" +
+      names +
+      "): a portfolio adds exposures and losses up in one currency; give --reporting-currency CCY "
+      "and --fx FILE (units of CCY per unit of each currency)");
+}
+
 // One closing line per scenario: obligors in, expected loss, VaR, ES and IRB capital.
 void print_portfolio_closing(const PortfolioResult& result) {
   const std::size_t top = result.confidence_levels.size() - 1;
@@ -227,11 +259,12 @@ void print_portfolio_closing(const PortfolioResult& result) {
   std::snprintf(level, sizeof level, "%g%%", 100.0 * result.confidence_levels[top]);
   for (const PortfolioScenarioResult& sc : result.scenarios) {
     const bool ok = !sc.exact.tails.empty();
+    const std::string unit = result.reporting_currency.empty() ? "" : " " + result.reporting_currency;
     std::cerr << "firmcall: " << sc.name << ": " << sc.included << " of " << sc.obligors.size()
-              << " obligors in the portfolio; expected loss " << brief(sc.total.expected_loss) << ", VaR "
-              << level << " " << brief(ok ? sc.exact.tails[top].var : std::nan("")) << ", ES " << level << " "
-              << brief(ok ? sc.exact.tails[top].es : std::nan("")) << ", IRB capital "
-              << brief(sc.total.irb_capital) << "\n";
+              << " obligors in the portfolio; expected loss " << brief(sc.total.expected_loss) << unit
+              << ", VaR " << level << " " << brief(ok ? sc.exact.tails[top].var : std::nan("")) << unit
+              << ", ES " << level << " " << brief(ok ? sc.exact.tails[top].es : std::nan("")) << unit
+              << ", IRB capital " << brief(sc.total.irb_capital) << unit << "\n";
   }
 }
 
@@ -259,6 +292,13 @@ ExitCode run_portfolio_command(const PortfolioCli& o, const GlobalOptions& globa
     calibration = read_calibration(o.pd_calibration);
     run.pd_calibration = &calibration.calibration;
     run.pd_calibration_origin = o.pd_calibration;
+  }
+  FxTable fx;
+  if (!o.fx.empty()) {
+    fx = load_fx_rates(o.fx);
+    run.fx = &fx;
+  } else {
+    check_one_currency(book, config.score);
   }
   run.exchange = global.exchange;
   if (!global.writes_outputs) {  // a process of an mpirun other than the root: simulates, writes nothing

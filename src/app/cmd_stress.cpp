@@ -10,6 +10,7 @@
 #include "firmcall/engine/stress_book.hpp"
 #include "firmcall/engine/term_stress_book.hpp"
 #include "firmcall/io/calibration_io.hpp"
+#include "firmcall/io/fx_io.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/output_file.hpp"
 #include "firmcall/io/scenario.hpp"
@@ -33,6 +34,8 @@ struct StressCli {
   std::string pd_calibration;  // --pd-calibration: calibration file (calibrate --save)
   std::string driving_pd;      // --driving-pd: model or calibrated (default: calibrated with a calibration)
   std::string hold;            // --hold: asset-vol or equity-vol (default: config stress.hold)
+  std::string reporting_currency;  // --reporting-currency: the currency of the summaries
+  std::string fx;                  // --fx: FX rates to it
   bool grid() const { return !equity_shocks.empty() || !vol_multipliers.empty(); }
 };
 
@@ -83,6 +86,16 @@ void declare_stress_options(CLI::App* cmd, StressCli& o) {
                   "equity-vol (shocked equity value and volatility re-solved); default: config stress.hold "
                   "(asset-vol)")
       ->check(CLI::IsMember({"asset-vol", "equity-vol"}));
+  auto* reporting = cmd->add_option(
+      "--reporting-currency", o.reporting_currency,
+      "Currency of the summaries' EAD totals and expected losses (three upper-case letters); needs --fx");
+  auto* fx =
+      cmd->add_option("--fx", o.fx,
+                      "FX rates to the reporting currency for the summaries (as for `firmcall portfolio`); "
+                      "the rows stay in each obligor's currency")
+          ->check(CLI::ExistingFile);
+  reporting->needs(fx);
+  fx->needs(reporting);
   cmd->footer(
       std::string("\nGive --scenarios FILE, or a quick grid (--equity-shocks and/or "
                   "--equity-vol-multipliers), or --reverse-pd LEVEL.\n"
@@ -221,6 +234,7 @@ struct StressInputs {
   std::vector<Scenario> scenarios;
   std::string origin;
   CalibrationRecord calibration;
+  FxTable fx;  // --fx; no rates without it
 };
 
 std::string scenario_closing(const StressSummary& sum, const std::vector<Scenario>& scenarios) {
@@ -261,6 +275,7 @@ StressOutcome run_stress_kind(const StressCli& o, const StressInputs& in, const 
   }
   StressBookOptions run = in.run;
   if (!o.pd_calibration.empty()) run.pd_calibration = &in.calibration.calibration;
+  if (!o.fx.empty()) run.fx = &in.fx;
   const StressSummary sum =
       run_stress(in.passes, in.scan, in.scenarios, in.origin, in.settings, in.stress, run, sink);
   if (summary_file) summary_file->write(scenario_summary_csv(sum, in.scenarios));
@@ -290,6 +305,20 @@ StressInputs stress_inputs(const StressCli& o, const GlobalOptions& global) {
     in.calibration = read_calibration(o.pd_calibration);  // run_stress_kind points the run at it
     in.run.pd_calibration_origin = o.pd_calibration;
     if (o.driving_pd != "model") in.run.driving_pd = DrivingPd::calibrated;
+  }
+  if (!o.fx.empty()) {
+    if (in.term_run || o.reverse_pd) {
+      throw InputError(
+          "--fx: applies to the summaries of scenario and grid runs, not to term structures or "
+          "--reverse-pd");
+    }
+    if (!is_currency_code(o.reporting_currency)) {
+      throw InputError(
+          "--reporting-currency: expected three upper-case letters (ISO 4217 style, e.g. EUR), got '" +
+          o.reporting_currency + "'");
+    }
+    in.fx = load_fx_rates(o.fx);
+    in.run.reporting_currency = o.reporting_currency;
   }
   in.term.format = in.run.format;
   in.term.threads = in.run.threads;

@@ -107,6 +107,12 @@ bool check_record(const ObligorRecord& rec, std::string& error) {
     error = field_error("id", "missing (every obligor needs an id)");
     return false;
   }
+  const std::string& currency = rec.get(TextField::currency);
+  if (!currency.empty() && !is_currency_code(currency)) {
+    error = field_error("currency", "expected three upper-case letters (ISO 4217 style, e.g. EUR), got '");
+    error.append(currency.substr(0, 40)).append("'");
+    return false;
+  }
   // Every number that was given must at least be finite (the readers reject text already).
   for (std::size_t i = 0; i < kNumFieldCount; ++i) {
     const auto f = static_cast<NumField>(i);

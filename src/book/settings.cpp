@@ -95,6 +95,21 @@ std::string list_text(const std::vector<double>& values) {
 
 }  // namespace
 
+bool is_currency_code(std::string_view code) noexcept {
+  if (code.size() != 3) return false;
+  for (const char c : code) {
+    if (c < 'A' || c > 'Z') return false;
+  }
+  return true;
+}
+
+bool CurrencyCode::set(std::string_view code) noexcept {
+  if (!code.empty() && !is_currency_code(code)) return false;
+  size_ = static_cast<std::uint8_t>(code.size());
+  for (std::size_t i = 0; i < 3; ++i) letters_[i] = i < code.size() ? code[i] : '\0';
+  return true;
+}
+
 OptionCheck ScoreSettings::validate() const {
   if (!in_closed_unit(default_point_weight))
     return problem("default_point_weight", default_point_weight, kClosedUnit);

@@ -10,6 +10,7 @@
 
 #include "firmcall/book/errors.hpp"
 #include "firmcall/engine/stress_book.hpp"
+#include "firmcall/format/cells.hpp"
 #include "firmcall/model/pd_horizon.hpp"
 #include "firmcall/util/parallel.hpp"
 #include "io/yaml_util.hpp"
@@ -70,6 +71,8 @@ std::string line_prefix(const ObligorRecord& rec) {
 struct Static {
   std::string error;  // a portfolio field is unusable (with "line N: ")
   std::uint32_t factor = 0;
+  std::string currency;  // the obligor's (obligor_currency)
+  double fx_rate = 1.0;  // to the reporting currency
 };
 
 Static static_of(const ObligorRecord& rec, const ScoredObligor& base, const CorrelationFile* corr) {
@@ -105,9 +108,11 @@ void fill_obligor(const ObligorRecord& rec, const ScoredObligor& base, const Str
                   const PortfolioBookOptions& options, PortfolioObligor& out) {
   out = PortfolioObligor{};
   const ResolvedObligor& r = base.resolved;
+  out.currency = st.currency;
+  out.fx_rate = st.fx_rate;
   if (r.ok()) {
     out.lgd = r.lgd;
-    out.ead = r.has_ead ? r.ead : std::nan("");
+    out.ead = r.has_ead ? r.ead * st.fx_rate : std::nan("");
     out.horizon_years = r.inputs.horizon_years;
   } else {
     out.lgd = out.ead = out.horizon_years = std::nan("");
@@ -362,6 +367,98 @@ void compute(const Book& book, const CorrelationFile* corr, const Config& config
   fill_groups(book, included, L, res);
 }
 
+std::string number_text(double v) {
+  std::string s;
+  append_number(s, v);
+  return s;
+}
+
+// "'A', 'B', 'C' and 4 more": the ids of some obligors, at most five.
+std::string id_list(const Book& book, const std::vector<std::size_t>& which) {
+  std::string s;
+  for (std::size_t k = 0; k < which.size() && k < 5; ++k) {
+    if (k > 0) s.append(", ");
+    s.append("'").append(book.obligors[which[k]].get(TextField::id)).append("'");
+  }
+  if (which.size() > 5) s.append(" and ").append(std::to_string(which.size() - 5)).append(" more");
+  return s;
+}
+
+std::string obligors_phrase(const Book& book, const std::vector<std::size_t>& which) {
+  std::string s = which.size() == 1 ? "obligor " : "obligors ";
+  return s.append(id_list(book, which));
+}
+
+// The reporting currency of the run and each obligor's rate to it (see run_portfolio for the
+// rules); fills the run's currency fields. Throws InputError naming the currencies and obligors.
+void resolve_currencies(const Book& book, const ScoreSettings& settings, const PortfolioBookOptions& options,
+                        PortfolioResult& run, std::vector<Static>& statics) {
+  if (options.fx || !options.reporting_currency.empty()) {
+    if (const OptionCheck p = options.validate()) throw OptionError(p->field, p->constraint);
+  }
+  std::map<std::string, std::vector<std::size_t>, std::less<>> by_currency;
+  std::vector<std::size_t> without;
+  for (std::size_t i = 0; i < book.obligors.size(); ++i) {
+    const std::string_view c = obligor_currency(book.obligors[i], settings);
+    statics[i].currency = std::string(c);
+    if (c.empty()) {
+      without.push_back(i);
+    } else if (is_currency_code(c)) {
+      by_currency[std::string(c)].push_back(i);
+    }
+  }
+  std::string names;
+  for (const auto& [c, which] : by_currency) names.append(names.empty() ? "" : ", ").append(c);
+  if (!options.fx) {
+    if (by_currency.size() > 1) {
+      throw InputError(book.origin + ": the obligors' amounts are in " + std::to_string(by_currency.size()) +
+                       " currencies (" + names +
+                       "): a portfolio adds exposures and losses up in one currency; give FX rates and a "
+                       "reporting currency");
+    }
+    if (by_currency.size() == 1 && !without.empty()) {
+      throw InputError(book.origin + ": " + obligors_phrase(book, without) +
+                       " state no currency while the others are in " + names +
+                       "; give their currency (or the setting scoring.currency)");
+    }
+    if (!by_currency.empty()) {
+      run.reporting_currency = by_currency.begin()->first;
+      run.fx_used.push_back({run.reporting_currency, 1.0, 0});
+    }
+    return;
+  }
+  const FxTable& fx = *options.fx;
+  const std::string& to = options.reporting_currency;
+  run.reporting_currency = to;
+  run.fx_origin = fx.origin;
+  run.fx_as_of = fx.as_of;
+  if (const FxRate* own = fx.find(to); own && own->rate != 1.0) {
+    throw InputError(located(
+        fx.origin, own->line,
+        "field 'rate': the reporting currency " + to + " converts at 1, got " + number_text(own->rate)));
+  }
+  if (!without.empty()) {
+    throw InputError(book.origin + ": " + obligors_phrase(book, without) +
+                     " state no currency, so their amounts cannot be converted to " + to +
+                     "; give their currency (or the setting scoring.currency)");
+  }
+  std::string missing;
+  for (const auto& [c, which] : by_currency) {
+    const FxRate* rate = c == to ? nullptr : fx.find(c);
+    if (c != to && !rate) {
+      missing.append(missing.empty() ? "" : "; ").append(c).append(" (").append(obligors_phrase(book, which));
+      missing.append(")");
+      continue;
+    }
+    const double r = rate ? rate->rate : 1.0;
+    for (std::size_t i : which) statics[i].fx_rate = r;
+    run.fx_used.push_back({c, r, rate ? rate->line : 0});
+  }
+  if (!missing.empty()) {
+    throw InputError(fx.origin + ": no rate to " + to + " for " + missing + " of " + book.origin);
+  }
+}
+
 // "3 at 1 year, 2 at 5 years": how many obligors have each horizon (the first eight horizons).
 std::string horizon_counts(const std::map<double, std::size_t>& horizons) {
   std::string s;
@@ -414,6 +511,15 @@ void add_book_notes(const Book& book, const std::vector<ScoredObligor>& base, co
 
 }  // namespace
 
+std::vector<std::string> book_currencies(const Book& book, const ScoreSettings& settings) {
+  std::set<std::string, std::less<>> found;
+  for (const ObligorRecord& rec : book.obligors) {
+    const std::string_view c = obligor_currency(rec, settings);
+    if (is_currency_code(c) && !found.contains(c)) found.emplace(c);
+  }
+  return {found.begin(), found.end()};
+}
+
 PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& scenarios,
                               const std::string& scenario_origin, const CorrelationFile* corr,
                               const Config& config, const PortfolioBookOptions& options) {
@@ -449,6 +555,7 @@ PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& sce
   });
   std::vector<Static> statics(n);
   for (std::size_t i = 0; i < n; ++i) statics[i] = static_of(book.obligors[i], base[i], corr);
+  resolve_currencies(book, config.score, options, run, statics);
   add_book_notes(book, base, corr, run.notes);
 
   const auto problem = [&](const std::string& scenario, std::size_t i, const std::string& message) {
@@ -518,6 +625,13 @@ OptionCheck PortfolioBookOptions::validate() const {
   }
   if (driving_pd == DrivingPd::calibrated && !pd_calibration) {
     return OptionProblem{"driving_pd", "calibrated", "needs a PD calibration"};
+  }
+  if (fx && !is_currency_code(reporting_currency)) {
+    return OptionProblem{"reporting_currency", "'" + reporting_currency + "'",
+                         "must be three upper-case letters (ISO 4217 style, e.g. EUR) with FX rates"};
+  }
+  if (!fx && !reporting_currency.empty()) {
+    return OptionProblem{"reporting_currency", "'" + reporting_currency + "'", "needs FX rates (fx)"};
   }
   return std::nullopt;
 }

@@ -42,6 +42,9 @@ std::vector<Cell> row_cells(const PortfolioResult& run, const PortfolioScenarioR
   c.push_back(txt(rec.get(TextField::name)));
   c.push_back(txt(rec.get(TextField::sector)));
   c.push_back(txt(rec.get(TextField::country)));
+  c.push_back(txt(o.currency));
+  c.push_back(num(o.fx_rate));
+  c.push_back(txt(run.reporting_currency));
   c.push_back(txt(std::string(to_string(o.status))));
   c.push_back(num(o.pd));
   c.push_back(num(o.lgd));
@@ -160,6 +163,24 @@ std::string correlation_text(const PortfolioResult& run) {
   return s + "the Basel corporate function of PD (12% to 24%)";
 }
 
+// The currency of the amounts, and the FX rates used when there are some.
+std::string currency_text(const PortfolioResult& run) {
+  if (run.reporting_currency.empty())
+    return "Amounts (EAD, losses, capital): in the book's unit (no currency stated)";
+  std::string s = "Amounts (EAD, losses, capital): ";
+  s += run.reporting_currency;
+  if (run.fx_origin.empty()) return s + ", the currency of every obligor";
+  s += ", converted at the rates of " + run.fx_origin + " as of " + run.fx_as_of + " (" +
+       run.reporting_currency + " per unit):";
+  for (std::size_t k = 0; k < run.fx_used.size(); ++k) {
+    s += k > 0 ? ", " : " ";
+    s += run.fx_used[k].currency;
+    s += " ";
+    append_number(s, run.fx_used[k].rate);
+  }
+  return s;
+}
+
 void group_line(std::string& out, const std::string& label, const GroupTotals& g) {
   char buf[256];
   const double el_pct = g.ead > 0.0 ? 100.0 * g.expected_loss / g.ead : kNaN;
@@ -235,13 +256,13 @@ void obligor_table(std::string& out, const PortfolioResult& run, const Portfolio
   char buf[320];
   out +=
       "\nObligors (ES contribution at " + percent_label(run.confidence_levels[top]) + ", exact one factor)\n";
-  constexpr const char* kFormat = "%-10s %-10s %-10s %9s %5s %8s %9s %5s %9s %6s %7s  %s\n";
-  std::snprintf(buf, sizeof buf, kFormat, "obligor", "name", "sector", "PD %", "LGD %", "EAD", "expected",
-                "rho %", "ES", "share", "IRB RW", "status");
+  constexpr const char* kFormat = "%-10s %-10s %-10s %-3s %9s %5s %8s %9s %5s %9s %6s %7s  %s\n";
+  std::snprintf(buf, sizeof buf, kFormat, "obligor", "name", "sector", "cur", "PD %", "LGD %", "EAD",
+                "expected", "rho %", "ES", "share", "IRB RW", "status");
   out += buf;
-  std::snprintf(buf, sizeof buf, kFormat, "", "", "", "", "", "", "loss", "", "contrib.", "%", "%", "");
+  std::snprintf(buf, sizeof buf, kFormat, "", "", "", "", "", "", "", "loss", "", "contrib.", "%", "%", "");
   out += buf;
-  out += std::string(114, '-') + "\n";
+  out += std::string(118, '-') + "\n";
   for (std::size_t i = 0; i < n; ++i) {
     const ObligorRecord& rec = book.obligors[i];
     const PortfolioObligor& o = sc.obligors[i];
@@ -250,15 +271,15 @@ void obligor_table(std::string& out, const PortfolioResult& run, const Portfolio
         ok && !sc.exact.es_contributions.empty() ? sc.exact.es_contributions[top * n + i] : kNaN;
     std::snprintf(buf, sizeof buf, kFormat, fit(rec.get(TextField::id), 10).c_str(),
                   fit(rec.get(TextField::name), 10).c_str(), fit(rec.get(TextField::sector), 10).c_str(),
-                  small(100.0 * o.pd, 4).c_str(), small(100.0 * o.lgd, 1).c_str(), small(o.ead, 2).c_str(),
-                  small(ok ? o.expected_loss : kNaN, 4).c_str(),
+                  fit(o.currency, 3).c_str(), small(100.0 * o.pd, 4).c_str(), small(100.0 * o.lgd, 1).c_str(),
+                  small(o.ead, 2).c_str(), small(ok ? o.expected_loss : kNaN, 4).c_str(),
                   small(ok ? 100.0 * o.asset_correlation : kNaN, 1).c_str(), small(contrib, 3).c_str(),
                   small(ok && es > 0.0 ? 100.0 * contrib / es : kNaN, 2).c_str(),
                   small(ok ? 100.0 * o.irb.risk_weight : kNaN, 2).c_str(),
                   std::string(to_string(o.status)).c_str());
     out += buf;
   }
-  out += std::string(114, '-') + "\n";
+  out += std::string(118, '-') + "\n";
   for (std::size_t i = 0; i < n; ++i) {
     if (sc.obligors[i].ok()) continue;
     const std::string& id = book.obligors[i].get(TextField::id);
@@ -316,9 +337,8 @@ void write_table(const PortfolioResult& run, const Book& book, const TextSink& s
   }
   {
     char buf[200];
-    std::snprintf(buf, sizeof buf,
-                  "Amounts are in the book's EAD unit; IRB: Basel II corporate formula, maturity %g years "
-                  "unless given\n",
+    append_wrapped(out, currency_text(run));
+    std::snprintf(buf, sizeof buf, "IRB: Basel II corporate formula, maturity %g years unless given\n",
                   run.irb.maturity_years);
     out += buf;
     std::snprintf(buf, sizeof buf, "PD floor %g%% (%s), %zu obligors raised to it", 100.0 * run.irb.pd_floor,
@@ -533,7 +553,17 @@ void write_json(const PortfolioResult& run, const Book& book, const TextSink& si
       .text("stress_hold", run.scenario_origin.empty() ? "" : to_string(run.stress_hold))
       .number_list("confidence_levels", run.confidence_levels)
       .text("measure", to_string(run.settings.measure))
-      .number("default_lgd", run.settings.default_lgd);
+      .number("default_lgd", run.settings.default_lgd)
+      .text("reporting_currency", run.reporting_currency)
+      .text("fx_file", run.fx_origin)
+      .text_or_null("fx_as_of", run.fx_as_of, !run.fx_origin.empty());
+  out += ", \"fx_rates\": {";
+  for (std::size_t k = 0; k < run.fx_used.size(); ++k) {
+    if (k > 0) out += ", ";
+    json_key(out, run.fx_used[k].currency);
+    append_json_number(out, run.fx_used[k].rate);
+  }
+  out += "}";
   if (run.options.basel_correlation) {
     fields.text("asset_correlation", "basel");
   } else if (run.options.asset_correlation) {
@@ -584,6 +614,9 @@ std::vector<std::string> portfolio_columns(const std::vector<double>& levels, bo
                                 "name",
                                 "sector",
                                 "country",
+                                "currency",
+                                "fx_rate",
+                                "reporting_currency",
                                 "status",
                                 "pd",
                                 "lgd",
@@ -601,7 +634,7 @@ std::vector<std::string> portfolio_columns(const std::vector<double>& levels, bo
                                 "irb_risk_weight",
                                 "irb_capital",
                                 "rwa"};
-  if (calibrated) c.insert(c.begin() + 11, {"pd_calibrated", "pd_driving"});
+  if (calibrated) c.insert(c.begin() + 14, {"pd_calibrated", "pd_driving"});
   for (double l : levels) c.push_back("es_contribution_" + level_label(l));
   for (double l : levels) c.push_back("large_portfolio_es_contribution_" + level_label(l));
   if (simulated) {
@@ -640,7 +673,7 @@ void write_portfolio(const PortfolioResult& run, const Book& book, OutputFormat 
 }
 
 std::string portfolio_summary_csv(const PortfolioResult& run) {
-  std::string out = "scenario,group_by,group,method,measure,confidence_level,value,standard_error\n";
+  std::string out = "scenario,group_by,group,method,measure,confidence_level,value,standard_error,currency\n";
   const auto row = [&](const std::string& scenario, std::string_view group_by, const std::string& group,
                        std::string_view method, std::string_view measure, double level, double value,
                        double se) {
@@ -659,6 +692,8 @@ std::string portfolio_summary_csv(const PortfolioResult& run) {
     append_number(out, value);
     out += ',';
     append_number(out, se);
+    out += ',';
+    if (measure != "obligors") append_csv_text(out, run.reporting_currency);
     out += '\n';
   };
   const auto groups = [&](const std::string& scenario, std::string_view by, const GroupTotals& g,
@@ -706,7 +741,7 @@ std::string portfolio_summary_csv(const PortfolioResult& run) {
 
 std::string portfolio_distribution_csv(const PortfolioResult& run) {
   const bool mc = run.options.monte_carlo_scenarios > 0;
-  std::string out = "scenario,loss,probability,cumulative,exceedance,large_portfolio_exceedance";
+  std::string out = "scenario,loss,currency,probability,cumulative,exceedance,large_portfolio_exceedance";
   if (mc) out += ",monte_carlo_exceedance,monte_carlo_exceedance_se";
   out += '\n';
   for (const PortfolioScenarioResult& sc : run.scenarios) {
@@ -715,6 +750,8 @@ std::string portfolio_distribution_csv(const PortfolioResult& run) {
       append_csv_text(out, sc.name);
       out += ',';
       append_number(out, static_cast<double>(k) * d.loss_unit);
+      out += ',';
+      append_csv_text(out, run.reporting_currency);
       out += ',';
       append_number(out, d.probability[k]);
       out += ',';

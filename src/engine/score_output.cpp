@@ -21,7 +21,7 @@ const std::vector<std::string_view>& score_columns() {
   static const std::vector<std::string_view> cols = split_names(
       "id,name,status,equity_value,default_point,asset_value,asset_vol,leverage,"
       "distance_to_default,pd,horizon,pd_one_year,pd_risk_neutral,debt_value,spread_bp,iterations,residual,"
-      "message");
+      "message,currency");
   return cols;
 }
 
@@ -264,9 +264,10 @@ NumericRow numeric_row(const ScoredObligor& s) {
 
 class CsvWriter final : public ScoreWriter {
  public:
-  CsvWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades,
+  CsvWriter(const std::string&, const ScoreSettings& settings, bool sensitivities, const GradeScale* grades,
             const PdCalibration* cal, DrivingPd driving, std::string_view)
-      : sensitivities_(sensitivities),
+      : default_currency_(settings.currency.view()),
+        sensitivities_(sensitivities),
         grades_(grades),
         cal_(cal),
         grade_cal_(graded_on(cal, driving)),
@@ -306,6 +307,8 @@ class CsvWriter final : public ScoreWriter {
     *p++ = ',';
     out.append(buf, p);
     append_csv_text(out, s.message);
+    out.push_back(',');
+    append_csv_text(out, currency_of(rec));
     if (sensitivities_) {
       const bool usable = s.status == RowStatus::ok;
       append_sensitivities_csv(out, usable ? sensitivities_of(s.resolved, s.solution) : MertonSensitivities{},
@@ -325,6 +328,11 @@ class CsvWriter final : public ScoreWriter {
   void end(const ScoreSummary&, std::string&) const override {}
 
  private:
+  std::string_view currency_of(const ObligorRecord& rec) const {
+    const std::string& own = rec.get(TextField::currency);
+    return own.empty() ? std::string_view(default_currency_) : std::string_view(own);
+  }
+  std::string default_currency_;
   bool sensitivities_;
   const GradeScale* grades_;
   const PdCalibration* cal_;
@@ -370,7 +378,7 @@ class JsonWriter final : public ScoreWriter {
     } else {
       fields.null("iterations").null("residual");
     }
-    fields.text("message", s.message);
+    fields.text("message", s.message).text("currency", obligor_currency(rec, settings_));
     if (sensitivities_) {
       const bool usable = s.status == RowStatus::ok;
       append_sensitivities_json(
@@ -398,15 +406,20 @@ class JsonWriter final : public ScoreWriter {
 // Fixed-width text for people: 118 columns (with grades: a grade column, and the name 5 narrower).
 class TableWriter final : public ScoreWriter {
  public:
-  TableWriter(const std::string&, const ScoreSettings&, bool sensitivities, const GradeScale* grades,
+  TableWriter(const std::string&, const ScoreSettings& settings, bool sensitivities, const GradeScale* grades,
               const PdCalibration* cal, DrivingPd driving, std::string_view)
-      : sensitivities_(sensitivities), grades_(grades), cal_(cal), grade_cal_(graded_on(cal, driving)) {}
+      : settings_(settings),
+        sensitivities_(sensitivities),
+        grades_(grades),
+        cal_(cal),
+        grade_cal_(graded_on(cal, driving)) {}
   void begin(std::string& out) const override {
     char buf[256];
-    std::snprintf(buf, sizeof buf, kHeader, "obligor", name_width(), "name", "asset", "asset", "default",
-                  "DP/V", "DD", "PD", "horizon", "PD", "spread", grade_cell("grade").c_str(), "status");
+    std::snprintf(buf, sizeof buf, kHeader, "obligor", name_width(), "name", "cur", "asset", "asset",
+                  "default", "DP/V", "DD", "PD", "horizon", "PD", "spread", grade_cell("grade").c_str(),
+                  "status");
     out += buf;
-    std::snprintf(buf, sizeof buf, kHeader, "", name_width(), "", "value", "vol %", "point", "", "", "%",
+    std::snprintf(buf, sizeof buf, kHeader, "", name_width(), "", "", "value", "vol %", "point", "", "", "%",
                   "years", "1 year %", "bp", grade_cell("").c_str(), "");
     out += buf;
     if (sensitivities_) append_sensitivities_table_header(out, 2);
@@ -423,18 +436,20 @@ class TableWriter final : public ScoreWriter {
   }
   void row(const ObligorRecord& rec, const ScoredObligor& s, std::string& out) const override {
     char buf[320];
-    const std::string id = fit(rec.get(TextField::id), 12);
+    const std::string id = fit(rec.get(TextField::id), 10);
     const std::string name = fit(rec.get(TextField::name), static_cast<std::size_t>(name_width()));
+    const std::string currency = fit(std::string(obligor_currency(rec, settings_)), 3);
     if (s.status != RowStatus::ok) {
-      std::snprintf(buf, sizeof buf, kHeader, id.c_str(), name_width(), name.c_str(), "-", "-", "-", "-", "-",
-                    "-", "-", "-", "-", grade_cell("-").c_str(), std::string(to_string(s.status)).c_str());
+      std::snprintf(buf, sizeof buf, kHeader, id.c_str(), name_width(), name.c_str(), currency.c_str(), "-",
+                    "-", "-", "-", "-", "-", "-", "-", "-", grade_cell("-").c_str(),
+                    std::string(to_string(s.status)).c_str());
       out += buf;
       return;
     }
     const MertonMeasures& m = s.measures;
     const double horizon = s.resolved.inputs.horizon_years;
-    std::snprintf(buf, sizeof buf, "%-12s %-*s %10s %6.2f %10s %6.3f %6.3f %10s %7s %10s %10s %s %s\n",
-                  id.c_str(), name_width(), name.c_str(), amount(m.asset_value).c_str(),
+    std::snprintf(buf, sizeof buf, "%-10s %-*s %-3s %10s %6.2f %10s %6.3f %6.3f %10s %7s %10s %10s %s %s\n",
+                  id.c_str(), name_width(), name.c_str(), currency.c_str(), amount(m.asset_value).c_str(),
                   100.0 * m.asset_vol_annual, amount(m.default_point).c_str(), m.leverage,
                   m.distance_to_default, small(100.0 * m.pd, 4).c_str(), fmt::format("{:g}", horizon).c_str(),
                   small(100.0 * pd_one_year(m.pd, horizon), 4).c_str(), small(m.spread_bp, 2).c_str(),
@@ -450,10 +465,11 @@ class TableWriter final : public ScoreWriter {
   }
 
  private:
-  static constexpr const char* kHeader = "%-12s %-*s %10s %6s %10s %6s %6s %10s %7s %10s %10s %s %s\n";
+  static constexpr const char* kHeader = "%-10s %-*s %-3s %10s %6s %10s %6s %6s %10s %7s %10s %10s %s %s\n";
   static constexpr std::size_t kRuleWidth = 118;
+  ScoreSettings settings_;
   bool sensitivities_;
-  int name_width() const { return grades_ ? 9 : 14; }
+  int name_width() const { return grades_ ? 7 : 12; }
   // The grade column: empty without grades (one space then separates spread and status, as before).
   std::string grade_cell(std::string_view text) const {
     if (!grades_) return {};

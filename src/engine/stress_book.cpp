@@ -14,6 +14,7 @@
 #include "engine/stress_output.hpp"
 #include "firmcall/book/errors.hpp"
 #include "firmcall/engine/score_output.hpp"
+#include "firmcall/format/cells.hpp"
 #include "firmcall/util/parallel.hpp"
 
 namespace firmcall {
@@ -331,6 +332,54 @@ void add_exposure(const ObligorRecord& rec, const ResolvedObligor& r, StressBook
   if (top.size() > 5) top.pop_back();
 }
 
+// The rate that converts an obligor's EAD to the summaries' currency `to`: 1 without FX rates
+// (or for `to` itself); the FX table's rate otherwise (summary_currency checked that it has one).
+double summary_rate(const ObligorRecord& rec, const ScoreSettings& settings, const FxTable* fx,
+                    std::string_view to) noexcept {
+  if (!fx) return 1.0;
+  const std::string_view c = obligor_currency(rec, settings);
+  if (c == to) return 1.0;
+  const FxRate* rate = fx->find(c);
+  return rate ? rate->rate : std::nan("");
+}
+
+// The currency of the summaries (StressSummary::currency). With FX rates: the reporting currency,
+// after checking that every currency of the book has a rate and every obligor a currency.
+std::string summary_currency(const BookScan& scan, const ScoreSettings& settings,
+                             const StressBookOptions& run) {
+  std::vector<std::string> all = scan.currencies;
+  if (scan.currency_missing && !settings.currency.empty()) {
+    all.emplace_back(settings.currency.view());
+    std::sort(all.begin(), all.end());
+    all.erase(std::unique(all.begin(), all.end()), all.end());
+  }
+  const bool missing = scan.currency_missing && settings.currency.empty();
+  if (!run.fx) return all.size() == 1 && !missing ? all.front() : std::string();
+  if (const OptionCheck p = run.validate()) throw OptionError(p->field, p->constraint);
+  const FxTable& fx = *run.fx;
+  const std::string& to = run.reporting_currency;
+  if (const FxRate* own = fx.find(to); own && own->rate != 1.0) {
+    std::string got;
+    append_number(got, own->rate);
+    throw InputError(located(fx.origin, own->line,
+                             "field 'rate': the reporting currency " + to + " converts at 1, got " + got));
+  }
+  if (missing) {
+    throw InputError(scan.origin +
+                     ": some obligors state no currency, so their amounts cannot be converted to " + to +
+                     "; give their currency (or the setting scoring.currency)");
+  }
+  std::string lacking;
+  for (const std::string& c : all) {
+    if (c != to && is_currency_code(c) && !fx.find(c)) lacking.append(lacking.empty() ? "" : ", ").append(c);
+  }
+  if (!lacking.empty()) {
+    throw InputError(fx.origin + ": no rate to " + to + " for " + lacking + " (currencies of " + scan.origin +
+                     ")");
+  }
+  return to;
+}
+
 // What the stressed rows of one piece under one scenario leave for its summary, by obligor.
 struct ScenarioOutcome {
   std::vector<StressStatus> status;
@@ -353,18 +402,20 @@ struct PdTally {
   double sum_pd = 0.0, sum_pd_s = 0.0, sum_w = 0.0, sum_wpd = 0.0, sum_wpd_s = 0.0;
   ScenarioPdFigures f;
   // p0, p1: the PD of base and stressed DD; l0, l1: the PDs of the expected loss.
-  void add(double p0, double p1, const ResolvedObligor& r, double l0, double l1) {
+  // `rate` converts the obligor's EAD to the summaries' currency.
+  void add(double p0, double p1, const ResolvedObligor& r, double l0, double l1, double rate) {
     sum_pd += p0;
     sum_pd_s += p1;
     if (p0 > threshold) ++f.above_threshold;
     if (p1 > threshold) ++f.above_threshold_stressed;
     if (p0 <= threshold && p1 > threshold) ++f.newly_above_threshold;
     if (r.has_ead) {
-      sum_w += r.ead;
-      sum_wpd += r.ead * p0;
-      sum_wpd_s += r.ead * p1;
-      f.expected_loss += l0 * r.lgd * r.ead;
-      f.expected_loss_stressed += l1 * r.lgd * r.ead;
+      const double ead = r.ead * rate;
+      sum_w += ead;
+      sum_wpd += ead * p0;
+      sum_wpd_s += ead * p1;
+      f.expected_loss += l0 * r.lgd * ead;
+      f.expected_loss_stressed += l1 * r.lgd * ead;
     }
   }
   ScenarioPdFigures figures(std::size_t compared) const {
@@ -391,7 +442,7 @@ class ScenarioTally {
   void add(const std::string& origin, const Scenario& sc, const std::vector<ObligorRecord>& piece,
            const std::vector<ScoredObligor>& base, const ScenarioOutcome& o,
            const std::vector<CalibratedPd>& base_calibrated, const ScoreSettings& settings,
-           const StressSettings& stress, std::size_t max_listed, StressSummary& sum) {
+           const StressSettings& stress, std::size_t max_listed, const FxTable* fx, StressSummary& sum) {
     for (std::size_t i = 0; i < piece.size(); ++i) {
       if (o.status[i] != StressStatus::ok) {
         ++ss_.failed;
@@ -415,13 +466,14 @@ class ScenarioTally {
       const double p1 = o.pd_stressed[i];
       const ResolvedObligor& r = base[i].resolved;
       if (r.has_ead) ++ss_.with_ead;
-      model_.add(p0, p1, r, p0, p1);
+      const double rate = summary_rate(piece[i], settings, fx, sum.currency);
+      model_.add(p0, p1, r, p0, p1, rate);
       if (sum.calibrated) {
         // Expected loss over the horizon as the model's: 1 - (1 - PD1)^T (driving_pd.hpp).
         const double c0 = base_calibrated[i].pd;
         const double c1 = o.pd_calibrated_stressed[i];
         calibrated_.add(c0, c1, r, pd_over_horizon(c0, r.inputs.horizon_years),
-                        pd_over_horizon(c1, o.horizon_stressed[i]));
+                        pd_over_horizon(c1, o.horizon_stressed[i]), rate);
       }
     }
   }
@@ -478,6 +530,24 @@ BookPasses book_passes(const Book& book) {
   return [&book]() -> std::unique_ptr<BookStream> { return BookStream::over(book); };
 }
 
+namespace {
+
+// A note when the book's obligors name more than one currency: the summaries' EAD totals, EAD
+// weights and expected losses then add amounts in different currencies.
+void add_currency_note(const BookScan& scan, std::vector<std::string>& notes) {
+  const std::vector<std::string>& currencies = scan.currencies;
+  if (currencies.size() < 2) return;
+  std::string names;
+  for (const std::string& c : currencies) names.append(names.empty() ? "" : ", ").append(c);
+  notes.push_back(
+      scan.origin + ": note: the obligors' amounts are in " + std::to_string(currencies.size()) +
+      " currencies (" + names +
+      "); the summaries' ead_total, EAD-weighted PDs and expected losses add them up as they are, "
+      "without conversion (the rows are each in their obligor's currency)");
+}
+
+}  // namespace
+
 BookScan scan_book(const BookPasses& passes, std::size_t piece_obligors, bool keep_ids,
                    const std::function<void(const std::vector<ObligorRecord>& piece,
                                             const BookDefaults& defaults, std::size_t first)>& each) {
@@ -493,6 +563,7 @@ BookScan scan_book(const BookPasses& passes, std::size_t piece_obligors, bool ke
   std::vector<ObligorRecord> piece;
   while (stream->next(piece, piece_obligors)) {
     for (const ObligorRecord& rec : piece) {
+      if (rec.get(TextField::currency).empty()) scan.currency_missing = true;
       for (std::size_t f = 0; f < (keep_ids ? 4U : 3U); ++f) {
         const std::string& v = rec.get(kFields[f]);
         if (v.empty() || !seen[f].insert(v).second) continue;
@@ -504,6 +575,8 @@ BookScan scan_book(const BookPasses& passes, std::size_t piece_obligors, bool ke
     scan.obligors += piece.size();
   }
   scan.notes = stream->notes();
+  scan.currencies.assign(seen[2].begin(), seen[2].end());
+  std::sort(scan.currencies.begin(), scan.currencies.end());
   return scan;
 }
 
@@ -540,6 +613,8 @@ StressSummary run_stress(const BookPasses& passes, const StressBookScan& scan,
   StressSummary sum;
   sum.obligors = n;
   sum.notes = scan.book.notes;
+  sum.currency = summary_currency(scan.book, settings, run);
+  if (!run.fx) add_currency_note(scan.book, sum.notes);
   sum.base_ok = scan.base_ok;
   sum.base_invalid = scan.base_invalid;
   sum.base_not_converged = scan.base_not_converged;
@@ -616,7 +691,7 @@ StressSummary run_stress(const BookPasses& passes, const StressBookScan& scan,
                                 }
                               });
       tally.add(origin, sc, recs, base, outcome, piece.calibrated, settings, stress, run.max_listed_problems,
-                sum);
+                run.fx, sum);
       if (keep_grid && si == 0) {
         for (std::size_t i = 0; i < m && first + i < n; ++i) {
           sum.grid.ids.push_back(recs[i].get(TextField::id));
@@ -740,6 +815,13 @@ OptionCheck StressBookOptions::validate() const {
   if (piece_obligors < 1) return OptionProblem{"piece_obligors", "0", "must be at least 1"};
   if (driving_pd == DrivingPd::calibrated && !pd_calibration) {
     return OptionProblem{"driving_pd", "calibrated", "needs a PD calibration"};
+  }
+  if (fx && !is_currency_code(reporting_currency)) {
+    return OptionProblem{"reporting_currency", "'" + reporting_currency + "'",
+                         "must be three upper-case letters (ISO 4217 style, e.g. EUR) with FX rates"};
+  }
+  if (!fx && !reporting_currency.empty()) {
+    return OptionProblem{"reporting_currency", "'" + reporting_currency + "'", "needs FX rates (fx)"};
   }
   return std::nullopt;
 }

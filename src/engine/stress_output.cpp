@@ -14,7 +14,7 @@ namespace firmcall {
 
 const std::vector<std::string_view>& stress_columns() {
   static const std::vector<std::string_view> cols = split_names(
-      "scenario,id,name,status,shocked,equity_value,equity_value_stressed,equity_vol,"
+      "scenario,id,name,currency,status,shocked,equity_value,equity_value_stressed,equity_vol,"
       "equity_vol_stressed,default_point,default_point_stressed,rate,rate_stressed,horizon,"
       "horizon_stressed,asset_value,asset_value_stressed,asset_vol,asset_vol_stressed,"
       "distance_to_default,distance_to_default_stressed,distance_to_default_change,pd,"
@@ -28,7 +28,7 @@ const std::vector<std::string_view>& stress_summary_columns() {
       "scenario,description,obligors,compared,shocked,failed,mean_pd,mean_pd_stressed,"
       "obligors_with_ead,ead_total,ead_weighted_pd,ead_weighted_pd_stressed,pd_threshold,"
       "above_threshold,above_threshold_stressed,newly_above_threshold,expected_loss,"
-      "expected_loss_stressed,expected_loss_change");
+      "expected_loss_stressed,expected_loss_change,currency");
   return cols;
 }
 
@@ -51,7 +51,7 @@ const std::vector<std::string_view>& stress_summary_calibration_columns() {
 
 const std::vector<std::string_view>& reverse_stress_columns() {
   static const std::vector<std::string_view> cols = split_names(
-      "id,name,status,pd,target_pd,equity_fall,equity_fall_status,equity_value_at_target,"
+      "id,name,currency,status,pd,target_pd,equity_fall,equity_fall_status,equity_value_at_target,"
       "pd_at_equity_fall,equity_vol_multiplier,equity_vol_multiplier_status,"
       "equity_vol_at_target,pd_at_equity_vol_multiplier,message");
   return cols;
@@ -60,7 +60,7 @@ const std::vector<std::string_view>& reverse_stress_columns() {
 namespace {
 
 constexpr std::size_t kStressNumbers = 27;  // stress_columns() from equity_value to expected_loss_stressed
-constexpr std::size_t kFirstNumber = 5;
+constexpr std::size_t kFirstNumber = 6;
 
 // The numeric cells of one stress row in stress_columns() order; NaN where not available.
 std::array<double, kStressNumbers> stress_numbers(const ScoredObligor& base, const StressedObligor& s) {
@@ -177,7 +177,8 @@ class StressCsvWriter final : public detail::StressWriter {
   void scenario_begin(const Scenario&, std::size_t, std::string&) const override {}
   void row(const Scenario& sc, const ObligorRecord& rec, const ScoredObligor& base, const StressedObligor& s,
            const detail::RowCalibratedPd& cal, bool, std::string& out) const override {
-    append_csv_texts(out, {sc.name, rec.get(TextField::id), rec.get(TextField::name)});
+    append_csv_texts(out, {sc.name, rec.get(TextField::id), rec.get(TextField::name),
+                           obligor_currency(rec, info_.settings)});
     out.append(to_string(s.status));
     out.push_back(',');
     out.append(s.shocked() ? "true" : "false");
@@ -261,6 +262,7 @@ class StressJsonWriter final : public detail::StressWriter {
     JsonFields(out)
         .text("id", rec.get(TextField::id))
         .text("name", rec.get(TextField::name))
+        .text("currency", obligor_currency(rec, info_.settings))
         .text("status", to_string(s.status))
         .boolean("shocked", s.shocked())
         .numbers(std::span(cols).subspan(kFirstNumber, kStressNumbers), stress_numbers(base, s))
@@ -277,7 +279,8 @@ class StressJsonWriter final : public detail::StressWriter {
   void end(const StressSummary& sum, const std::vector<Scenario>&, std::string& out) const override {
     open_json_summary(out, sum.obligors, sum.base_ok, sum.base_invalid, sum.base_not_converged)
         .count("rows", sum.rows)
-        .count("failed_rows", sum.failed_rows);
+        .count("failed_rows", sum.failed_rows)
+        .text("currency", sum.currency);
     out += "}\n}\n";
   }
 
@@ -454,6 +457,7 @@ class StressTableWriter final : public detail::StressWriter {
     const std::string thr = percent(info_.stress.pd_threshold);
     out += "\nScenario summary (PD threshold " + thr +
            "; expected loss over obligors with ead, each over its horizon" +
+           (sum.currency.empty() ? std::string() : "; EAD and expected loss in " + sum.currency) +
            (info_.pd_calibration
                 ? info_.driving_pd == DrivingPd::calibrated ? "; PD: calibrated one-year" : "; PD: model"
                 : "") +
@@ -541,8 +545,8 @@ std::string_view search_status(const ScoredObligor& base, const ReverseResult& r
 
 class ReverseCsvWriter final : public detail::ReverseStressWriter {
  public:
-  ReverseCsvWriter(const detail::StressRunInfo&, double target, const ReverseStressOptions&)
-      : target_(target) {}
+  ReverseCsvWriter(const detail::StressRunInfo& info, double target, const ReverseStressOptions&)
+      : default_currency_(info.settings.currency.view()), target_(target) {}
   void begin(std::string& out) const override {
     append_csv_names(out, reverse_stress_columns());
     out.push_back('\n');
@@ -550,7 +554,9 @@ class ReverseCsvWriter final : public detail::ReverseStressWriter {
   void row(const ObligorRecord& rec, const ScoredObligor& base, const ReverseStressRow& r, bool,
            std::string& out) const override {
     const ReverseCells c = reverse_cells(base, r, target_);
-    append_csv_texts(out, {rec.get(TextField::id), rec.get(TextField::name)});
+    const std::string& own = rec.get(TextField::currency);
+    append_csv_texts(out, {rec.get(TextField::id), rec.get(TextField::name),
+                           own.empty() ? std::string_view(default_currency_) : std::string_view(own)});
     out.append(to_string(r.status));
     append_csv_numbers(out, std::initializer_list<double>{c.pd, c.target, c.fall});
     out.push_back(',');
@@ -566,6 +572,7 @@ class ReverseCsvWriter final : public detail::ReverseStressWriter {
   void end(const ReverseStressSummary&, std::string&) const override {}
 
  private:
+  std::string default_currency_;
   double target_;
 };
 
@@ -594,6 +601,7 @@ class ReverseJsonWriter final : public detail::ReverseStressWriter {
     JsonFields(out)
         .text("id", rec.get(TextField::id))
         .text("name", rec.get(TextField::name))
+        .text("currency", obligor_currency(rec, info_.settings))
         .text("status", to_string(r.status))
         .number("pd", c.pd)
         .number("target_pd", c.target)
@@ -715,6 +723,8 @@ std::string scenario_summary_csv(const StressSummary& summary, const std::vector
     }
     append_csv_numbers(out, std::initializer_list<double>{s.expected_loss, s.expected_loss_stressed,
                                                           s.expected_loss_stressed - s.expected_loss});
+    out.push_back(',');
+    append_csv_text(out, summary.currency);
     if (summary.calibrated) append_summary_calibrated_csv(out, s.calibrated);
     out.push_back('\n');
   }

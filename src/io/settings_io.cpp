@@ -92,7 +92,7 @@ int positive_int(const YAML::Node& n, const std::string& origin, std::string_vie
 void read_scoring(const YAML::Node& s, const std::string& origin, ScoreSettings& score) {
   yaml_check_keys(s,
                   {"default_point_weight", "horizon", "measure", "default_lgd", "max_equity_vol",
-                   "equity_vol_warn_above", "strict_inputs", "financial_leverage_above"},
+                   "equity_vol_warn_above", "strict_inputs", "financial_leverage_above", "currency"},
                   origin, "scoring");
   read_number(s, "default_point_weight", score.default_point_weight, score, origin);
   read_number(s, "horizon", score.horizon_years, score, origin);
@@ -109,6 +109,14 @@ void read_scoring(const YAML::Node& s, const std::string& origin, ScoreSettings&
       },
       "expected true or false", origin);
   read_number(s, "financial_leverage_above", score.financial_leverage_above, score, origin);
+  if (const auto n = s["currency"]) {
+    const std::string code = detail::yaml_string(n, origin, "currency");
+    if (!score.currency.set(code)) {
+      throw InputError(located(
+          origin, yaml_line(n),
+          "key 'currency': must be three upper-case letters (ISO 4217 style, e.g. EUR), got '" + code + "'"));
+    }
+  }
 }
 
 void read_solver(const YAML::Node& s, const std::string& origin, MertonSolveOptions& solver) {

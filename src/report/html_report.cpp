@@ -135,6 +135,41 @@ bool calibrated_drives(const ReportData& d) {
   return d.calibration != nullptr && d.options.driving_pd == DrivingPd::calibrated;
 }
 
+// The currency of the book-wide sums of EAD and expected loss: the portfolio run's reporting
+// currency (each EAD at its FX rate) when there is one, else the book's one currency. `usable` is
+// false for a book in several currencies without a portfolio run: its EADs do not add up.
+struct TotalsCurrency {
+  std::string code;  // "" when no obligor states a currency
+  bool usable = true;
+  std::string note;  // for the cards
+};
+
+TotalsCurrency totals_currency(const ReportData& d) {
+  TotalsCurrency c;
+  if (d.portfolio) {
+    const PortfolioResult& run = *d.portfolio;
+    c.code = run.reporting_currency;
+    c.note = c.code.empty() ? std::string("in the book's unit (no currency stated)") : "in " + c.code;
+    if (!run.fx_origin.empty()) c.note += " at the rates of " + run.fx_origin + " as of " + run.fx_as_of;
+    return c;
+  }
+  const std::vector<std::string> all = book_currencies(d.book, d.config.score);
+  if (all.size() <= 1) {
+    c.code = all.empty() ? std::string() : all.front();
+    c.note = c.code.empty() ? std::string("in the book's unit (no currency stated)") : "in " + c.code;
+    return c;
+  }
+  c.usable = false;
+  c.note = "not added up: the book is in " + count(all.size()) +
+           " currencies (the portfolio section with FX rates gives the total)";
+  return c;
+}
+
+// The rate of obligor i to the totals' currency (1 without a portfolio run).
+double totals_rate(const ReportData& d, std::size_t i) {
+  return d.portfolio ? d.portfolio->scenarios.front().obligors[i].fx_rate : 1.0;
+}
+
 // Book-wide figures over the scored obligors.
 struct BookFigures {
   std::size_t obligors = 0, scored = 0, invalid = 0, not_converged = 0;
@@ -161,12 +196,14 @@ BookFigures book_figures(const ReportData& d) {
     if (pd > d.config.stress.pd_threshold) ++f.above_threshold;
     if (!s.resolved.has_ead) continue;
     ++f.with_ead;
-    f.ead_total += s.resolved.ead;
-    ead_pd += s.resolved.ead * pd;
-    f.expected_loss += pd * s.resolved.lgd * s.resolved.ead;
+    const double ead = s.resolved.ead * totals_rate(d, i);
+    f.ead_total += ead;
+    ead_pd += ead * pd;
+    f.expected_loss += pd * s.resolved.lgd * ead;
   }
   if (f.scored > 0) f.mean_pd = pd_sum / static_cast<double>(f.scored);
   if (f.ead_total > 0.0) f.ead_weighted_pd = ead_pd / f.ead_total;
+  if (!totals_currency(d).usable) f.ead_total = f.ead_weighted_pd = f.expected_loss = NAN;
   return f;
 }
 
@@ -235,9 +272,11 @@ std::string summary_section(const ReportData& d, const BookFigures& f) {
               "sum of EAD x PD over sum of EAD; " + count(f.with_ead) + " obligors give ead");
   out +=
       card("mean PD", std::isfinite(f.mean_pd) ? report_pd(f.mean_pd) : "-", "simple mean over scored names");
-  out += card("total EAD", report_amount(f.ead_total), "exposure at default, in the book's EAD unit");
-  out += card("expected loss", report_amount(f.expected_loss),
-              "sum of PD x LGD x EAD, over each obligor's horizon");
+  const TotalsCurrency currency = totals_currency(d);
+  out += card("total EAD", std::isfinite(f.ead_total) ? report_amount(f.ead_total) : "-",
+              "exposure at default, " + currency.note);
+  out += card("expected loss", std::isfinite(f.expected_loss) ? report_amount(f.expected_loss) : "-",
+              "sum of PD x LGD x EAD, over each obligor's horizon, " + currency.note);
   out += card("PD above " + level_text(d.config.stress.pd_threshold), count(f.above_threshold),
               "names over the stress PD threshold");
   out += "</div>\n";
@@ -255,8 +294,8 @@ std::string summary_section(const ReportData& d, const BookFigures& f) {
     const auto gi = static_cast<std::size_t>(g);
     names[gi] += 1.0;
     if (s.resolved.has_ead) {
-      ead[gi] += s.resolved.ead;
-      ead_pd[gi] += s.resolved.ead * driving_pd_of(d, i);
+      ead[gi] += s.resolved.ead * totals_rate(d, i);
+      ead_pd[gi] += s.resolved.ead * totals_rate(d, i) * driving_pd_of(d, i);
     }
   }
   std::vector<std::string> labels, value_labels;
@@ -272,16 +311,19 @@ std::string summary_section(const ReportData& d, const BookFigures& f) {
       chart,
       "Each bar counts the scored obligors whose one-year PD falls in a grade's band (table below). A book "
       "leaning to the right holds more weak names; compare the EAD column to see where the money is.");
-  HtmlTable t("fc-table", {"grade", "PD band", "obligors", "EAD", "share of EAD", "exposure-weighted PD"});
+  HtmlTable t("fc-table",
+              {"grade", "PD band", "obligors", currency.code.empty() ? "EAD" : "EAD (" + currency.code + ")",
+               "share of EAD", "exposure-weighted PD"});
   t.numeric_from(2);
   double lower = 0.0;
   for (std::size_t g = 0; g < grades; ++g) {
     const std::string band =
         (g == 0 ? "up to " : "above " + level_text(lower) + " to ") + level_text(scale.bands[g].max_pd);
     lower = scale.bands[g].max_pd;
-    t.row({scale.bands[g].label, band, fixed(names[g], 0), report_amount(ead[g]),
-           f.ead_total > 0.0 ? fixed(100.0 * ead[g] / f.ead_total, 1) + "%" : "-",
-           ead[g] > 0.0 ? report_pd(ead_pd[g] / ead[g]) : "-"},
+    const bool sums = currency.usable;
+    t.row({scale.bands[g].label, band, fixed(names[g], 0), sums ? report_amount(ead[g]) : "-",
+           sums && f.ead_total > 0.0 ? fixed(100.0 * ead[g] / f.ead_total, 1) + "%" : "-",
+           sums && ead[g] > 0.0 ? report_pd(ead_pd[g] / ead[g]) : "-"},
           true);
   }
   out += t.str();
@@ -385,9 +427,9 @@ std::vector<std::string> calibrated_name_row(const ReportData& d, std::size_t i,
           report_spread_bp(m.spread_bp),
           fixed(m.leverage, 3),
           report_amount(m.asset_value),
-          rec.get(TextField::currency).empty() ? "-" : rec.get(TextField::currency),
           ead ? report_amount(s.resolved.ead) : "-",
-          ead ? report_amount(driving_pd_of(d, i) * s.resolved.lgd * s.resolved.ead) : "-"};
+          ead ? report_amount(driving_pd_of(d, i) * s.resolved.lgd * s.resolved.ead) : "-",
+          std::string(obligor_currency(rec, d.config.score))};
 }
 
 std::vector<std::string> name_row(const ReportData& d, std::size_t i) {
@@ -404,9 +446,9 @@ std::vector<std::string> name_row(const ReportData& d, std::size_t i) {
           report_spread_bp(m.spread_bp),
           fixed(m.leverage, 3),
           report_amount(m.asset_value),
-          rec.get(TextField::currency).empty() ? "-" : rec.get(TextField::currency),
           ead ? report_amount(s.resolved.ead) : "-",
-          ead ? report_amount(m.pd * s.resolved.lgd * s.resolved.ead) : "-"};
+          ead ? report_amount(m.pd * s.resolved.lgd * s.resolved.ead) : "-",
+          std::string(obligor_currency(rec, d.config.score))};
 }
 
 std::string names_section(const ReportData& d) {
@@ -424,19 +466,19 @@ std::string names_section(const ReportData& d) {
   const bool cal = d.calibration != nullptr;
   std::string lead = "The " + count(n) + " highest and " + count(n) + " lowest PDs of the book. ";
   if (cal) {
-    lead +=
-        std::string("Ranked and graded on the ") +
-        (calibrated_drives(d) ? "calibrated one-year PD" : "model PD") +
-        " (the driving PD). Model PD at each obligor's horizon (column horizon, years); calibrated PD "
-        "over one year with its " +
-        level_text(d.calibration->calibration.confidence_level) +
-        " interval, 'yes' where the DD lies outside the calibration sample's range (extrapolated); "
-        "expected loss on the driving PD over each obligor's horizon. Spread in basis points, asset value in "
-        "the obligor's currency (column currency), EAD and expected loss in the book's EAD unit.";
+    lead += std::string("Ranked and graded on the ") +
+            (calibrated_drives(d) ? "calibrated one-year PD" : "model PD") +
+            " (the driving PD). Model PD at each obligor's horizon (column horizon, years); calibrated PD "
+            "over one year with its " +
+            level_text(d.calibration->calibration.confidence_level) +
+            " interval, 'yes' where the DD lies outside the calibration sample's range (extrapolated); "
+            "expected loss on the driving PD over each obligor's horizon. Spread in basis points; amounts "
+            "(asset value, EAD, expected loss) in each obligor's currency, the last column.";
   } else {
     lead +=
-        "Model PD (the driving PD) at each obligor's horizon, spread in basis points, asset value in the "
-        "obligor's currency (column currency), EAD and expected loss in the book's EAD unit.";
+        "Model PD (the driving PD) at each obligor's horizon, spread in basis points; amounts (asset value, "
+        "EAD, expected loss) in "
+        "each obligor's currency, the last column.";
   }
   std::string out = section_open("names", "Weakest and strongest names", lead);
   const std::vector<std::string> heads =
@@ -453,14 +495,15 @@ std::string names_section(const ReportData& d) {
                                      "spread bp",
                                      "DP/V",
                                      "asset value",
-                                     "currency",
                                      "EAD",
-                                     "expected loss"}
-          : std::vector<std::string>{"obligor",   "name", "sector",      "grade",    "DD",  "PD",
-                                     "spread bp", "DP/V", "asset value", "currency", "EAD", "expected loss"};
+                                     "expected loss",
+                                     "currency"}
+          : std::vector<std::string>{"obligor",     "name", "sector",        "grade",
+                                     "DD",          "PD",   "spread bp",     "DP/V",
+                                     "asset value", "EAD",  "expected loss", "currency"};
   const auto table = [&](const std::string& title, auto first, auto last, const char* cls) {
     HtmlTable t(std::string("fc-table ") + cls, heads);
-    t.numeric_from(4);
+    t.numeric_from(4, heads.size() - 1);  // the currency column is text
     std::vector<std::string> attrs;
     for (auto it = first; it != last; ++it) {
       if (cal) {
@@ -667,7 +710,11 @@ std::string stress_section(const ReportData& d) {
                ? std::string("holding its asset volatility (its equity volatility is then the model's; "
                              "stress.hold asset-vol)")
                : std::string("holding its equity volatility (stress.hold equity-vol)")) +
-          ". Figures over the obligors scored both as they stand and stressed.");
+          ". Figures over the obligors scored both as they stand and stressed; " +
+          (st.summary.currency.empty()
+               ? std::string("EAD weights and expected losses add each obligor's amounts as they stand")
+               : "EAD weights and expected losses in " + st.summary.currency) +
+          ".");
   out += scenario_pd_chart(scenario_pds(st), stress_pd_name(st));
   out += scenario_summary_table(d);
   // Per-obligor change, one chart per scenario: the names whose PD moved most.
@@ -768,10 +815,14 @@ ExceedanceCurve exceedance_curve(const LossDistribution& dist) {
   return c;
 }
 
-std::string exceedance_chart(const LossDistribution& dist, const ExceedanceCurve& c) {
+std::string exceedance_chart(const LossDistribution& dist, const ExceedanceCurve& c,
+                             const std::string& currency) {
   const LossTail& top = dist.tails.back();
-  SvgAxis x{
-      .label = "portfolio loss (EAD unit)", .min = 0, .max = 1, .log = false, .format = TickFormat::amount};
+  SvgAxis x{.label = currency.empty() ? std::string("portfolio loss") : "portfolio loss (" + currency + ")",
+            .min = 0,
+            .max = 1,
+            .log = false,
+            .format = TickFormat::amount};
   SvgAxis y{.label = "P(loss > x), percent, log scale",
             .min = c.floor,
             .max = 1,
@@ -855,6 +906,18 @@ std::string es_contributors_table(const ReportData& d, const PortfolioScenarioRe
   return "<h3>Largest contributors to ES at " + h(level_text(level.confidence_level)) + "</h3>\n" + c.str();
 }
 
+// The currency of the portfolio figures, with the FX file, its date and the rates used.
+std::string portfolio_currency_text(const PortfolioResult& run) {
+  if (run.reporting_currency.empty()) return "amounts in the book's unit (no obligor states a currency)";
+  std::string s = "every amount (EAD, losses, capital, contributions) in " + run.reporting_currency;
+  if (run.fx_origin.empty()) return s + ", the currency of every obligor";
+  s += ", each EAD converted at the rates of " + run.fx_origin + " as of " + run.fx_as_of + " (" +
+       run.reporting_currency + " per unit:";
+  for (const FxRate& r : run.fx_used)
+    s += " " + r.currency + " " + exact(r.rate) + (&r == &run.fx_used.back() ? ")" : ",");
+  return s;
+}
+
 std::string portfolio_section(const ReportData& d) {
   const PortfolioResult& run = *d.portfolio;
   const PortfolioScenarioResult& base = run.scenarios.front();
@@ -867,7 +930,7 @@ std::string portfolio_section(const ReportData& d) {
           ", its LGD and EAD, and its asset correlation (" +
           std::string(run.correlation_origin.empty() ? "no correlation file" : run.correlation_origin) +
           "). " + count(base.included) + " of " + count(base.obligors.size()) +
-          " obligors are in the portfolio; losses in the book's EAD unit.");
+          " obligors are in the portfolio; " + portfolio_currency_text(run) + ".");
   if (base.included < base.obligors.size()) {
     out += "<p class=\"fc-note\">Left out of the portfolio: " + h(left_out_text(run)) + ".</p>\n";
   }
@@ -882,7 +945,7 @@ std::string portfolio_section(const ReportData& d) {
     out += "<p class=\"fc-note\">The loss distribution could not be computed: " + h(dist.message) + "</p>\n";
     return out + "</section>\n";
   }
-  out += exceedance_chart(dist, exceedance_curve(dist));
+  out += exceedance_chart(dist, exceedance_curve(dist), run.reporting_currency);
   out += loss_levels_table(base, calibrated_drives(d));
   const EsContributors top = es_contributors(base, d.options.top);
   if (top.contribution != nullptr) out += es_contributors_table(d, base, top);
@@ -1861,6 +1924,15 @@ void gather_sheets(ReportData& d, const ReportOptions& options, const Config& co
   }
 }
 
+// The stress and portfolio runs convert to the reporting currency when the report was given FX
+// rates.
+template <class RunOptions>
+void use_fx(const ReportOptions& options, const FxTable& fx, RunOptions& run) {
+  if (options.fx_path.empty()) return;
+  run.fx = &fx;
+  run.reporting_currency = options.reporting_currency;
+}
+
 }  // namespace
 
 ReportData gather_report(const ReportOptions& options, const Config& config) {
@@ -1889,6 +1961,7 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     }
   }
   gather_terms(d, options, config);
+  const FxTable fx = options.fx_path.empty() ? FxTable{} : load_fx_rates(options.fx_path);
   if (!options.scenarios_path.empty()) {
     ScenarioSet set = load_scenarios(options.scenarios_path);
     check_filters(set, d.book);
@@ -1896,6 +1969,7 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     st->origin = set.origin;
     StressBookOptions run;
     run.format = OutputFormat::csv;
+    use_fx(options, fx, run);
     if (d.calibration) {  // the summaries carry the calibrated figures, shown when they drive
       run.pd_calibration = &d.calibration->calibration;
       run.pd_calibration_origin = options.pd_calibration_path;
@@ -1922,6 +1996,7 @@ ReportData gather_report(const ReportOptions& options, const Config& config) {
     }
     PortfolioBookOptions ro;
     ro.threads = std::max(1U, options.threads);
+    use_fx(options, fx, ro);
     if (calibrated_drives(d)) {
       // IRB capital, expected loss and the loss distribution on the calibrated PD.
       ro.pd_calibration = &d.calibration->calibration;

@@ -17,6 +17,8 @@ import tempfile
 firmcall, mpirun, root = sys.argv[1], sys.argv[2], pathlib.Path(sys.argv[3])
 book = root / "samples" / "demo_book.yaml"
 sectors = root / "samples" / "sector_correlations.yaml"
+# The sample book holds 15 currencies: the portfolio in EUR at the sample's invented rates.
+fx = ["--reporting-currency", "EUR", "--fx", str(root / "samples" / "demo_fx.csv")]
 env = dict(os.environ, OMPI_MCA_rmaps_base_oversubscribe="1")
 failures = []
 
@@ -51,7 +53,7 @@ with tempfile.TemporaryDirectory() as tmp:
         for np_ in (1, 2):
             for threads in (1, 2):
                 out = tmp / f"{len(outputs)}.json"
-                args = ["-q", "portfolio", str(book), "--horizon", "1", "--format", "json", "-o", str(out),
+                args = ["-q", "portfolio", str(book)] + fx + ["--horizon", "1", "--format", "json", "-o", str(out),
                         "--threads", str(threads)] + extra
                 p = mpi([(np_, args)])
                 check(p.returncode == 0, f"{name}: -np {np_} --threads {threads} runs (exit {p.returncode}"
@@ -66,9 +68,9 @@ with tempfile.TemporaryDirectory() as tmp:
                       f"--threads 1 ({len(data)} bytes)")
 
     # A failure on one process: process 1 reads a book that does not exist.
-    good = ["-q", "portfolio", str(book), "--horizon", "1", "--monte-carlo", "100000", "--format", "json"]
+    good = ["-q", "portfolio", str(book)] + fx + ["--horizon", "1", "--monte-carlo", "100000", "--format", "json"]
     missing = str(tmp / "no_such_book.csv")
-    bad = ["-q", "portfolio", missing, "--horizon", "1", "--monte-carlo", "100000", "--format", "json"]
+    bad = ["-q", "portfolio", missing] + fx + ["--horizon", "1", "--monte-carlo", "100000", "--format", "json"]
     out = tmp / "failed.json"
     p = mpi([(1, good + ["-o", str(out)]), (1, bad + ["-o", str(out)])])
     check(p.returncode == 2, f"process 1 failing: exit 2 (got {p.returncode})")

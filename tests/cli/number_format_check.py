@@ -105,7 +105,8 @@ def main():
                     ["stress", book, "--equity-shocks", "0,-0.3,-0.7", "--equity-vol-multipliers", "1,1.5",
                      "--pd-calibration", cal],
                     ["stress", book, "--reverse-pd", "0.05"],
-                    ["portfolio", book, "--pd-calibration", cal],
+                    ["portfolio", book, "--pd-calibration", cal] +
+                    (["--reporting-currency", "EUR", "--fx", s("demo_fx.csv")] if k == 0 else []),
                 ]
                 for n, args in enumerate(cases):
                     out = f"out_{k}_{n}.{fmt}"

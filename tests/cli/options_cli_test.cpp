@@ -67,7 +67,9 @@ TEST_CASE("--seed outside 0..2^64-1 is refused, not clamped") {
   check_refused("portfolio " + kBook + " --monte-carlo 200 --seed 18446744073709551616", "--seed");
   check_refused("portfolio " + kBook + " --monte-carlo 200 --seed -1", "--seed");
   check_refused("portfolio " + kBook + " --monte-carlo 200 --seed 1e3", "--seed");
-  CHECK(run_firmcall("portfolio " + kBook + " --monte-carlo 200 --seed 18446744073709551615 -f csv")
+  CHECK(run_firmcall("portfolio " + kBook +
+                     " --reporting-currency EUR --fx samples/demo_fx.csv --monte-carlo 200 --seed "
+                     "18446744073709551615 -f csv")
             .exit_code == 0);
 }
 
@@ -75,7 +77,8 @@ TEST_CASE("a list option does not take the positional argument after it") {
   const auto r = run_firmcall("stress --equity-shocks 0,-0.1 " + kBook + " -f csv");
   CHECK(r.exit_code == 0);
   CHECK(r.out.find("equity -10% vol x1") != std::string::npos);
-  const auto p = run_firmcall("portfolio --levels 0.99,0.999 " + kBook + " -f csv");
+  const auto p = run_firmcall("portfolio --levels 0.99,0.999 " + kBook +
+                              " --reporting-currency EUR --fx samples/demo_fx.csv -f csv");
   CHECK(p.exit_code == 0);
   // Repeating the flag still adds to the list.
   const auto rep = run_firmcall("stress " + kBook + " --equity-shocks 0 --equity-shocks -0.1 -f csv");

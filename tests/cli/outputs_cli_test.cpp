@@ -133,8 +133,9 @@ TEST_CASE("portfolio: a --distribution-output that cannot be written leaves the 
   write_file(out, "previous portfolio\n");
   write_file(summary, "previous summary\n");
   const std::string missing = s.file("no_such_folder/d.csv");
-  const Result r = run_firmcall({"portfolio", kBook, "-f", "csv", "-o", out, "--summary-output", summary,
-                                 "--distribution-output", missing});
+  const Result r = run_firmcall({"portfolio", kBook, "--reporting-currency", "EUR", "--fx",
+                                 kSource + "/samples/demo_fx.csv", "-f", "csv", "-o", out, "--summary-output",
+                                 summary, "--distribution-output", missing});
   CHECK(r.exit_code == 2);
   CHECK(r.err.find("--distribution-output '" + missing + "'") != std::string::npos);
   CHECK(read_file(out) == "previous portfolio\n");
@@ -229,8 +230,9 @@ TEST_CASE("portfolio: a full disk on the second output leaves -o as it was") {
   write_file(out, "previous portfolio\n");
   struct stat full {};
   if (::stat("/dev/full", &full) != 0 || !S_ISCHR(full.st_mode)) return;  // Linux's always-full device
-  const Result r =
-      run_firmcall({"portfolio", kBook, "-f", "csv", "-o", out, "--summary-output", "/dev/full"});
+  const Result r = run_firmcall({"portfolio", kBook, "--reporting-currency", "EUR", "--fx",
+                                 kSource + "/samples/demo_fx.csv", "-f", "csv", "-o", out, "--summary-output",
+                                 "/dev/full"});
   CHECK(r.exit_code == 2);
   CHECK(r.err.find("--summary-output '/dev/full'") != std::string::npos);
   CHECK(r.err.find("No space left on device") != std::string::npos);  // ENOSPC, strerror on glibc

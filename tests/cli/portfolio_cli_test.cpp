@@ -19,7 +19,8 @@ TEST_CASE("portfolio on the sample book: exit code, PDs equal the score command'
   const auto score = run_firmcall("score samples/demo_book.yaml --format csv");
   REQUIRE(score.exit_code == 0);
   const auto s = parse_csv_table(score.out);
-  const auto r = run_firmcall("portfolio samples/demo_book.yaml --format csv");
+  const auto r = run_firmcall(
+      "portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv --format csv");
   CHECK(r.exit_code == 0);
   const auto p = parse_csv_table(r.out);
   REQUIRE(p.rows.size() == 36);
@@ -49,7 +50,8 @@ TEST_CASE("portfolio with the sample correlation file, Monte Carlo and the outpu
   const std::string summary = t.file("s.csv");
   const std::string dist = t.file("d.csv");
   const auto r = run_firmcall(
-      "portfolio samples/demo_book.yaml -c samples/sector_correlations.yaml --monte-carlo 20000 "
+      "portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv -c "
+      "samples/sector_correlations.yaml --monte-carlo 20000 "
       "--format csv -o '" +
       out + "' --summary-output '" + summary + "' --distribution-output '" + dist + "'");
   CHECK(r.exit_code == 0);
@@ -76,7 +78,8 @@ TEST_CASE("portfolio with the sample correlation file, Monte Carlo and the outpu
   CHECK(total == doctest::Approx(1.0).epsilon(1e-12));
   // Same results with one thread or two.
   const auto one = run_firmcall(
-      "portfolio samples/demo_book.yaml -c samples/sector_correlations.yaml --monte-carlo "
+      "portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv -c "
+      "samples/sector_correlations.yaml --monte-carlo "
       "20000 --format csv -j 1");
   CHECK(one.out == read_file(out));
 }
@@ -86,8 +89,9 @@ TEST_CASE("stress scenarios at portfolio level: the stressed PDs are the stress 
       "stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --format csv");
   REQUIRE(st.exit_code == 0);
   const auto s = parse_csv_table(st.out);
-  const auto r =
-      run_firmcall("portfolio samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --format csv");
+  const auto r = run_firmcall(
+      "portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv --scenarios "
+      "samples/stress_scenarios.yaml --format csv");
   CHECK(r.exit_code == 0);
   const auto p = parse_csv_table(r.out);
   REQUIRE(p.rows.size() == 4 * 36);
@@ -100,8 +104,9 @@ TEST_CASE("stress scenarios at portfolio level: the stressed PDs are the stress 
   }
   CHECK(r.err.find("severe: 36 of 36 obligors in the portfolio") != std::string::npos);
   // The table closes with the scenario comparison.
-  const auto table =
-      run_firmcall("portfolio samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml");
+  const auto table = run_firmcall(
+      "portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv --scenarios "
+      "samples/stress_scenarios.yaml");
   CHECK(table.exit_code == 0);
   CHECK(table.out.find("Scenario comparison") != std::string::npos);
   CHECK(table.out.find("VaR, exact one factor") != std::string::npos);
@@ -143,25 +148,34 @@ TEST_CASE("bad correlation files and command lines exit with code 2 and write no
                                   "  - [1.0, -0.6, -0.6]\n"
                                   "  - [-0.6, 1.0, -0.6]\n"
                                   "  - [-0.6, -0.6, 1.0]\n");
-  auto r = run_firmcall("portfolio samples/demo_book.yaml -c '" + bad + "' -o '" + out + "'");
+  auto r =
+      run_firmcall("portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv -c '" +
+                   bad + "' -o '" + out + "'");
   CHECK(r.exit_code == 2);
   CHECK(r.err ==
         "firmcall: error: " + bad +
             ":3: factor_correlation: not positive definite (smallest eigenvalue -0.2; a correlation matrix "
             "needs all eigenvalues above 1e-10 for its Cholesky factor)\n");
   CHECK_FALSE(std::filesystem::exists(out));
-  r = run_firmcall("portfolio samples/demo_book.yaml --importance-sampling");
+  r = run_firmcall(
+      "portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv "
+      "--importance-sampling");
   CHECK(r.exit_code == 2);
   CHECK(r.err.find("--importance-sampling: applies to the simulation; give --monte-carlo N as well") !=
         std::string::npos);
-  r = run_firmcall("portfolio samples/demo_book.yaml --asset-correlation 1.5");
+  r = run_firmcall(
+      "portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv "
+      "--asset-correlation 1.5");
   CHECK(r.exit_code == 2);
-  r = run_firmcall("portfolio samples/demo_book.yaml --levels 0.999,0.99");
+  r = run_firmcall(
+      "portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv --levels "
+      "0.999,0.99");
   CHECK(r.exit_code == 2);
   CHECK(r.err.find("--levels: list the levels in increasing order") != std::string::npos);
   // A sector the correlation file does not list makes those obligors invalid, not the run.
   const std::string partial = t.write("p.yaml", "factors: [{sector: Energy, asset_correlation: 0.2}]\n");
-  r = run_firmcall("portfolio samples/demo_book.yaml -c '" + partial + "' --format csv");
+  r = run_firmcall("portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv -c '" +
+                   partial + "' --format csv");
   CHECK(r.exit_code == 1);
   CHECK(r.err.find("obligor 'ALD-01': field 'sector': 'Transport' is not a factor of " + partial) !=
         std::string::npos);

@@ -311,6 +311,7 @@ def check_failures_book(exe, root, tmp):
     shown = 0
     for table in by_class(doc, "table", "fc-names-weak") + by_class(doc, "table", "fc-names-strong"):
         for tr in table.iter("tr"):
+            # Columns as in the page: ..., asset value, EAD, expected loss (index 10), currency.
             tds = [text_of(td) for td in tr.iter("td")]
             if not tds:
                 continue
@@ -318,9 +319,9 @@ def check_failures_book(exe, root, tmp):
             el = float(r["pd"]) * float(book_rows[tds[0]][8]) * float(book_rows[tds[0]][7])
             want = ("%#.3g" if abs(el) >= 1e-3 else "%.2e") % el if 0 < abs(el) < 1 else None
             if want is not None:
-                check(tds[11] == want, f"{tds[0]} expected loss {tds[11]!r}, expected {want!r} (PD x LGD x EAD)")
+                check(tds[10] == want, f"{tds[0]} expected loss {tds[10]!r}, expected {want!r} (PD x LGD x EAD)")
                 shown += 1
-            check(tds[11] != "0.00", f"{tds[0]} expected loss printed as 0.00")
+            check(tds[10] != "0.00", f"{tds[0]} expected loss printed as 0.00")
     check(shown >= 5, f"only {shown} small expected losses on the page")
     # A tear sheet of an obligor not scored: the reason, no figures, nothing non-finite printed.
     sheet = sheet_of(doc, "BAD-04")

@@ -165,7 +165,8 @@ def check_calibrated(exe, root, tmp, cfg):
     cal = os.path.join(root, "samples", "calibration.yaml")
     page_path = os.path.join(tmp, "cal.html")
     run = subprocess.run([exe, "-q", "--config", cfg, "report", "samples/demo_book.yaml", "--pd-calibration", cal,
-                          "--portfolio", "--top", "1000", "--html", page_path], cwd=root, capture_output=True,
+                          "--portfolio", "--reporting-currency", "EUR", "--fx", "samples/demo_fx.csv", "--top",
+                          "1000", "--html", page_path], cwd=root, capture_output=True,
                          text=True)
     check(run.returncode in (0, 1), f"report --pd-calibration exit {run.returncode}: {run.stderr}")
     with open(page_path, encoding="utf-8") as f:

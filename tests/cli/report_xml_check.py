@@ -27,6 +27,7 @@ def main():
         subprocess.run([firmcall, "-q", "report", "samples/demo_book.yaml", "--scenarios",
                         "samples/stress_scenarios.yaml", "--names", "GOR-33,BEL-28,CIN-03,ALD-01", "--portfolio",
                         "--sheet", "GOR-33", "--sheet", "ALD-01",
+                        "--reporting-currency", "EUR", "--fx", "samples/demo_fx.csv",
                         "--validate", "samples/outcomes.csv",
                         "--db", db, "--html", page], cwd=source, check=True)
         with open(page, encoding="utf-8") as f:

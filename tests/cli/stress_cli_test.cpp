@@ -378,10 +378,11 @@ TEST_CASE("stress --pd-calibration: calibrated PDs of base and stressed DD at th
     CHECK(t.cell(i, "pd_calibrated_stressed_extrapolated") == (dd < lo || dd > hi ? "true" : "false"));
     sum_by_scenario[t.cell(i, "scenario")] += pd;
   }
-  // The summary file: the model columns first, the calibrated figures after them.
+  // The summary file: the model columns and the currency first, the calibrated figures after them.
   const Csv sc = parse_csv(read_file(summary));
   REQUIRE(sc.rows.size() == 3);
-  CHECK(sc.header[19] == "mean_pd_calibrated");
+  CHECK(sc.header[19] == "currency");
+  CHECK(sc.header[20] == "mean_pd_calibrated");
   for (std::size_t k = 0; k < 3; ++k) {
     CAPTURE(sc.cell(k, "scenario"));
     CHECK(sc.number(k, "mean_pd_calibrated_stressed") ==

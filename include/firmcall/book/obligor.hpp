@@ -66,6 +66,13 @@ struct ObligorRecord {
   void clear() noexcept;
 };
 
+/// The currency of an obligor's amounts: its own `currency`, else the settings' default
+/// (scoring.currency); empty when neither gives one.
+inline std::string_view obligor_currency(const ObligorRecord& rec, const ScoreSettings& settings) noexcept {
+  const std::string& own = rec.get(TextField::currency);
+  return own.empty() ? settings.currency.view() : std::string_view(own);
+}
+
 /// What a book is read for. scoring: the equity value and equity_vol columns are required.
 /// history: equity comes from a market history file, so a CSV book needs only the id column.
 enum class BookUse : std::uint8_t { scoring, history };

@@ -23,6 +23,28 @@ enum class Measure { physical, risk_neutral };
 std::string_view to_string(Measure m) noexcept;
 std::optional<Measure> measure_from_string(std::string_view s) noexcept;
 
+/// True for a currency code as firmcall takes it: three upper-case ASCII letters (the form of
+/// ISO 4217 alphabetic codes, e.g. EUR). Whether the code is assigned is not checked.
+bool is_currency_code(std::string_view code) noexcept;
+
+/// A currency code held by value (trivially copyable): empty, or three upper-case letters.
+class CurrencyCode {
+ public:
+  CurrencyCode() = default;
+  /// Holds `code` and returns true when it is a currency code or empty; otherwise stays as it was
+  /// and returns false.
+  bool set(std::string_view code) noexcept;
+  std::string_view view() const noexcept { return {letters_, size_}; }
+  bool empty() const noexcept { return size_ == 0; }
+  friend bool operator==(const CurrencyCode& a, const CurrencyCode& b) noexcept {
+    return a.view() == b.view();
+  }
+
+ private:
+  char letters_[3] = {0, 0, 0};
+  std::uint8_t size_ = 0;
+};
+
 /// Settings for scoring one book.
 struct ScoreSettings {
   double default_point_weight = 0.5;  ///< DP = short_term_debt + w * long_term_debt (common practice)
@@ -37,6 +59,9 @@ struct ScoreSettings {
   bool strict_inputs = false;
   /// Model leverage DP / V above this gets the financial-firm caution, whatever the sector.
   double financial_leverage_above = 0.92;
+  /// scoring.currency: the currency of an obligor whose book gives none; empty: such an
+  /// obligor's amounts have no stated currency.
+  CurrencyCode currency;
   MertonSolveOptions solver;
   // Command-line overrides: when set they win over every file value.
   std::optional<double> rate_override;

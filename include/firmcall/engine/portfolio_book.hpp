@@ -40,6 +40,7 @@
 #include "firmcall/engine/driving_pd.hpp"
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/io/correlation_io.hpp"
+#include "firmcall/io/fx_io.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/scenario.hpp"
 #include "firmcall/portfolio/irb.hpp"
@@ -66,7 +67,9 @@ struct PortfolioObligor {
   std::string message;             ///< why it is left out ("line 7: field 'ead': ..."); empty when ok
   double pd = 0.0;                 ///< Merton PD at its horizon
   double lgd = 0.0;                ///< decimal
-  double ead = 0.0;                ///< currency units (the book's EAD unit)
+  std::string currency;            ///< the obligor's own currency (obligor_currency); may be empty
+  double fx_rate = 1.0;            ///< units of the reporting currency per unit of `currency`
+  double ead = 0.0;                ///< in the reporting currency: the obligor's ead x fx_rate
   double horizon_years = 0.0;      ///< T of the PD
   double pd_one_year = 0.0;        ///< pd converted to one year (pd itself at T = 1), before the floor
   double expected_loss = 0.0;      ///< PD x LGD x EAD
@@ -132,20 +135,31 @@ struct PortfolioBookOptions {
   const PdCalibration* pd_calibration = nullptr;
   std::string pd_calibration_origin;        ///< the calibration file, for the output
   DrivingPd driving_pd = DrivingPd::model;  ///< calibrated needs pd_calibration
+  /// When set: each obligor's EAD, and so every loss, capital and contribution, is converted to
+  /// reporting_currency at the table's rate of the obligor's currency (the reporting currency
+  /// itself at 1). Without: the book's obligors must share one currency, which is reported in.
+  const FxTable* fx = nullptr;
+  std::string reporting_currency;  ///< with fx: three upper-case letters; without: empty
   /// Called between simulation batches: (scenario name, scenarios done, scenarios in all).
   std::function<void(const std::string&, std::uint64_t, std::uint64_t)> progress;
   /// Shares the Monte Carlo runs between processes (loss_simulation.hpp); nullptr: this one alone.
   ScenarioExchange* exchange = nullptr;
   /// threads >= 1; asset_correlation, when given, in [0, 1); driving_pd calibrated only with a
-  /// calibration.
+  /// calibration; fx and reporting_currency (a currency code) together.
   OptionCheck validate() const;
 };
 
 /// A whole portfolio run: the book as it stands first, then each stress scenario.
 struct PortfolioResult {
   std::string book_origin;
-  std::string correlation_origin;                  ///< empty without a correlation file
-  std::string scenario_origin;                     ///< empty without scenarios
+  std::string correlation_origin;  ///< empty without a correlation file
+  std::string scenario_origin;     ///< empty without scenarios
+  /// The currency of every portfolio amount (EAD, losses, capital, contributions): the
+  /// reporting currency with FX rates, else the book's one currency ("" when no obligor states one).
+  std::string reporting_currency;
+  std::string fx_origin;        ///< the FX file; empty without one
+  std::string fx_as_of;         ///< its as-of date, YYYY-MM-DD
+  std::vector<FxRate> fx_used;  ///< the rate of each currency of the book, by currency (line 0: implied 1)
   StressHold stress_hold = StressHold::asset_vol;  ///< which volatility the scenarios hold (stress.hold)
   bool multi_factor = false;                       ///< the simulation uses a factor correlation matrix
   std::size_t factors = 1;
@@ -164,9 +178,15 @@ struct PortfolioResult {
       0;  ///< obligors of the book as it stands whose one-year PD was raised to the floor
 };
 
+/// The distinct currencies of the book's obligors (obligor_currency; codes that are not valid are
+/// left out, those obligors being invalid), sorted.
+std::vector<std::string> book_currencies(const Book& book, const ScoreSettings& settings);
+
 /// Scores the book, builds the portfolio and runs every model, as the book stands and under each
 /// scenario. `correlation` may be null. Throws InputError for run-wide problems (a scenario named
-/// "base", an empty portfolio is not one: it reports zero losses).
+/// "base"; without FX rates, obligors in more than one currency, or some without a currency among
+/// others with one; with FX rates, a currency of the book that the table lacks, or an obligor
+/// without a currency; an empty portfolio is not one: it reports zero losses).
 PortfolioResult run_portfolio(const Book& book, const std::vector<Scenario>& scenarios,
                               const std::string& scenario_origin, const CorrelationFile* correlation,
                               const Config& config, const PortfolioBookOptions& options);
@@ -182,10 +202,10 @@ std::vector<std::string> portfolio_columns(const std::vector<double>& confidence
 void write_portfolio(const PortfolioResult& run, const Book& book, OutputFormat format, const TextSink& sink);
 
 /// Portfolio and group measures as CSV, long format:
-/// scenario,group_by,group,method,measure,confidence_level,value,standard_error.
+/// scenario,group_by,group,method,measure,confidence_level,value,standard_error,currency.
 std::string portfolio_summary_csv(const PortfolioResult& run);
 
-/// The loss distributions as CSV for plotting: scenario,loss,probability,cumulative,exceedance,
+/// The loss distributions as CSV for plotting: scenario,loss,currency,probability,cumulative,exceedance,
 /// large_portfolio_exceedance[,monte_carlo_exceedance,monte_carlo_exceedance_se].
 std::string portfolio_distribution_csv(const PortfolioResult& run);
 

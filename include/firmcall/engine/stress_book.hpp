@@ -32,6 +32,7 @@
 #include "firmcall/engine/score_book.hpp"
 #include "firmcall/estimate/calibration.hpp"
 #include "firmcall/io/book_stream.hpp"
+#include "firmcall/io/fx_io.hpp"
 #include "firmcall/io/obligor_io.hpp"
 #include "firmcall/io/scenario.hpp"
 #include "firmcall/model/merton.hpp"
@@ -146,6 +147,9 @@ struct StressSummary {
   std::vector<std::string> problems;  ///< "file:line: obligor 'id': message", the first few
   std::size_t problems_not_listed = 0;
   std::vector<std::string> notes;
+  /// The currency of the summaries' EAD totals and expected losses: the reporting currency with
+  /// FX rates, else the book's one currency; "" when the book states none or several.
+  std::string currency;
   bool calibrated = false;  ///< a calibration was given: ScenarioSummary::calibrated is filled
   DrivingPd driving_pd = DrivingPd::model;  ///< the PD of the table, the PD grid and the closing lines
   std::size_t failed() const noexcept { return failed_rows; }
@@ -167,7 +171,12 @@ struct StressBookOptions {
   const PdCalibration* pd_calibration = nullptr;
   std::string pd_calibration_origin;        ///< the calibration file, for the output
   DrivingPd driving_pd = DrivingPd::model;  ///< calibrated needs pd_calibration
-  /// threads >= 1; piece_obligors >= 1; driving_pd calibrated only with a calibration.
+  /// When set: the summaries convert each EAD (and expected loss) to reporting_currency at the
+  /// table's rate of the obligor's currency; the rows stay in each obligor's currency.
+  const FxTable* fx = nullptr;
+  std::string reporting_currency;  ///< with fx: a currency code
+  /// threads >= 1; piece_obligors >= 1; driving_pd calibrated only with a calibration; fx and
+  /// reporting_currency together.
   OptionCheck validate() const;
 };
 
@@ -185,7 +194,9 @@ BookPasses book_passes(const Book& book);
 struct BookScan {
   std::string origin;
   std::size_t obligors = 0;
-  std::vector<std::string> notes;  ///< the book's notes
+  std::vector<std::string> notes;       ///< the book's notes
+  std::vector<std::string> currencies;  ///< the distinct `currency` texts of the obligors, sorted
+  bool currency_missing = false;        ///< some obligor gives no `currency`
   /// Obligors that carry between them every sector, country and currency of the book (and every
   /// id, when the scan was asked for them), for check_filters(); nothing else is set.
   Book filter_book;

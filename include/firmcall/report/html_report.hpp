@@ -57,6 +57,8 @@ struct ReportOptions {
   std::string horizons = "0.5,1,2,3,5,7,10";  ///< horizons of the term structures, years
   bool portfolio = false;                     ///< the loss distribution section
   std::string correlation_path;               ///< sector correlation file for the portfolio
+  std::string fx_path;                        ///< FX rates (fx_io.hpp) for stress and portfolio; empty: none
+  std::string reporting_currency;             ///< their amounts' currency, with fx_path
   std::string store_path;                     ///< history store; empty: no monitoring section
   std::string store_run;                      ///< run of the store to show ("" the latest)
   std::string against;                        ///< run to compare with ("" the one before)

@@ -507,3 +507,61 @@ TEST_CASE("with a calibration the driving PD sets IRB capital and EL: calibrated
   bad.driving_pd = DrivingPd::calibrated;
   CHECK(bad.validate().has_value());
 }
+
+TEST_CASE("FX rates: EADs and every loss scale by the rate, PDs and capital ratios do not") {
+  // Invented book in two currencies, and the same book with the GBP exposure converted by hand
+  // (20 GBP x 1.25 EUR per GBP = 25 EUR).
+  const Book two = parse_yaml_book(R"(defaults: {rate: 0.03, horizon: 1}
+obligors:
+  - {id: E-1, currency: EUR, market_cap: 600, equity_vol: 0.45, default_point: 700, ead: 40, lgd: 0.4}
+  - {id: G-2, currency: GBP, market_cap: 800, equity_vol: 0.5, default_point: 1200, ead: 20, lgd: 0.5}
+)",
+                                   "two.yaml");
+  const Book one = parse_yaml_book(R"(defaults: {rate: 0.03, horizon: 1}
+obligors:
+  - {id: E-1, currency: EUR, market_cap: 600, equity_vol: 0.45, default_point: 700, ead: 40, lgd: 0.4}
+  - {id: G-2, currency: EUR, market_cap: 800, equity_vol: 0.5, default_point: 1200, ead: 25, lgd: 0.5}
+)",
+                                   "one.yaml");
+  CHECK(book_currencies(two, ScoreSettings{}) == std::vector<std::string>{"EUR", "GBP"});
+  CHECK_THROWS_WITH_AS(
+      run(two, nullptr),
+      "two.yaml: the obligors' amounts are in 2 currencies (EUR, GBP): a portfolio adds exposures "
+      "and losses up in one currency; give FX rates and a reporting currency",
+      InputError);
+  const FxTable fx = parse_fx_rates("# as_of: 2026-03-31\ncurrency,rate\nGBP,1.25\n", "fx.csv");
+  PortfolioBookOptions opt;
+  opt.fx = &fx;
+  opt.reporting_currency = "EUR";
+  const PortfolioResult a = run(two, nullptr, opt);
+  const PortfolioResult b = run(one, nullptr);
+  CHECK(a.reporting_currency == "EUR");
+  CHECK(b.reporting_currency == "EUR");
+  CHECK(a.fx_as_of == "2026-03-31");
+  REQUIRE(a.fx_used.size() == 2);
+  CHECK(a.fx_used[1].currency == "GBP");
+  CHECK(a.fx_used[1].rate == 1.25);
+  const PortfolioScenarioResult& x = a.scenarios.front();
+  const PortfolioScenarioResult& y = b.scenarios.front();
+  CHECK(x.obligors[1].currency == "GBP");
+  CHECK(x.obligors[1].ead == 25.0);  // 20 x 1.25, exact in binary
+  CHECK(x.total.ead == 65.0);        // 40 + 25, by hand
+  CHECK(x.obligors[1].pd == y.obligors[1].pd);
+  CHECK(x.obligors[1].irb.capital_ratio == y.obligors[1].irb.capital_ratio);
+  CHECK(x.total.expected_loss == doctest::Approx(y.total.expected_loss).epsilon(1e-15));
+  CHECK(x.total.irb_capital == doctest::Approx(y.total.irb_capital).epsilon(1e-15));
+  REQUIRE(x.exact.tails.size() == y.exact.tails.size());
+  for (std::size_t l = 0; l < x.exact.tails.size(); ++l) {
+    CHECK(x.exact.tails[l].es == doctest::Approx(y.exact.tails[l].es).epsilon(1e-12));
+  }
+  // The library names fields, not flags.
+  opt.reporting_currency = "eur";
+  CHECK_THROWS_WITH_AS(
+      run(two, nullptr, opt),
+      "field 'reporting_currency': must be three upper-case letters (ISO 4217 style, e.g. EUR) "
+      "with FX rates",
+      OptionError);
+  PortfolioBookOptions no_fx;
+  no_fx.reporting_currency = "EUR";
+  CHECK(no_fx.validate()->field == "reporting_currency");
+}

@@ -147,7 +147,8 @@ TEST_CASE("a duplicate row is written as invalid in place, and the problems stay
     REQUIRE(rows.size() == 8);
     CHECK(rows[5][0] == "B");
     CHECK(rows[5][2] == "invalid_input");
-    CHECK(rows[5].back() == "line 6: field 'id': duplicate of the obligor at line 3");
+    REQUIRE(rows[5].size() >= 2);  // message, then currency (empty: the book gives none)
+    CHECK(rows[5][rows[5].size() - 2] == "line 6: field 'id': duplicate of the obligor at line 3");
     CHECK(rows[2][2] == "ok");
     CHECK(summary.scored == 5);
     CHECK(summary.invalid == 2);

@@ -88,6 +88,29 @@ TEST_CASE("CSV: bad cells are row errors naming the field, other rows still read
   CHECK(book.obligors[5].read_error == "a quoted field is never closed");
 }
 
+TEST_CASE("currency: a code of three upper-case letters, else the settings default, else none") {
+  const std::string text =
+      "id,currency,market_cap,equity_vol,short_term_debt,long_term_debt,rate\n"
+      "A,GBP,1000,0.3,100,200,0.03\n"
+      "B,,1000,0.3,100,200,0.03\n"
+      "C,eur,1000,0.3,100,200,0.03\n"
+      "D,Euro,1000,0.3,100,200,0.03\n";
+  const Book book = parse_csv_book(text, "c.csv");
+  REQUIRE(book.obligors.size() == 4);
+  ScoreSettings settings;
+  CHECK(resolve(book.obligors[0]).ok());
+  CHECK(obligor_currency(book.obligors[0], settings) == "GBP");
+  CHECK(resolve(book.obligors[1]).ok());
+  CHECK(obligor_currency(book.obligors[1], settings) == "");
+  REQUIRE(settings.currency.set("CHF"));
+  CHECK(obligor_currency(book.obligors[0], settings) == "GBP");  // the obligor's own wins
+  CHECK(obligor_currency(book.obligors[1], settings) == "CHF");
+  CHECK(resolve(book.obligors[2]).error ==
+        "field 'currency': expected three upper-case letters (ISO 4217 style, e.g. EUR), got 'eur'");
+  CHECK(resolve(book.obligors[3]).error ==
+        "field 'currency': expected three upper-case letters (ISO 4217 style, e.g. EUR), got 'Euro'");
+}
+
 TEST_CASE("number cells: decimal and scientific notation accepted, the rest refused") {
   double v = 0;
   CHECK(parse_number("0.35", v));

@@ -20,6 +20,8 @@ TEST_CASE("the shipped config/firmcall.yaml equals the built-in defaults") {
   CHECK(shipped.score.default_lgd == builtin.score.default_lgd);
   CHECK(shipped.score.default_lgd == 0.45);  // senior unsecured, common practice
   CHECK(shipped.score.max_equity_vol == builtin.score.max_equity_vol);
+  CHECK(shipped.score.currency == builtin.score.currency);
+  CHECK(shipped.score.currency.empty());
   CHECK(shipped.score.solver.max_newton_iterations == builtin.score.solver.max_newton_iterations);
   CHECK(shipped.score.solver.max_fallback_iterations == builtin.score.solver.max_fallback_iterations);
   CHECK(shipped.score.solver.residual_tolerance == builtin.score.solver.residual_tolerance);
@@ -145,6 +147,12 @@ TEST_CASE("configuration errors name the file, line and key") {
       parse_config("term_structure:\n  calibration: per-horizon\n  barrier_ratio: 0.8\n", "c.yaml");
   CHECK(t.term.calibration == Calibration::per_horizon);
   CHECK(t.term.barrier_ratio == 0.8);
+  CHECK_THROWS_WITH_AS(
+      parse_config("scoring:\n  currency: eur\n", "c.yaml"),
+      "c.yaml:2: key 'currency': must be three upper-case letters (ISO 4217 style, e.g. EUR), "
+      "got 'eur'",
+      InputError);
+  CHECK(parse_config("scoring:\n  currency: GBP\n", "c.yaml").score.currency.view() == "GBP");
   const Config c = parse_config("scoring:\n  measure: risk-neutral\n  horizon: 2\n", "c.yaml");
   CHECK(c.score.measure == Measure::risk_neutral);
   CHECK(c.score.horizon_years == 2.0);

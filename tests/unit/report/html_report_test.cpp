@@ -101,7 +101,8 @@ const FullRun& full_run() {
     const auto r = run_firmcall(
         "report samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --names "
         "GOR-33,BEL-28,CIN-03,ALD-01 "
-        "--portfolio --validate samples/outcomes.csv --db '" +
+        "--portfolio --reporting-currency EUR --fx samples/demo_fx.csv --validate samples/outcomes.csv --db "
+        "'" +
         f.dir.file("weekly.sqlite") + "' --html '" + f.dir.file("report.html") + "'");
     f.exit_code = r.exit_code;
     f.err = r.err;
@@ -174,6 +175,7 @@ TEST_CASE("report tables show the score command's CSV values with the table's ro
     const auto cells = table_row(f.html, marker, id);
     REQUIRE(cells.size() == 12);
     CHECK(cells[1] == s.cell(i, "name"));
+    CHECK(cells[11] == s.cell(i, "currency"));                           // the obligor's currency, last
     CHECK(cells[4] == fmt("%.3f", s.number(i, "distance_to_default")));  // score table: DD 3 decimals
     CHECK(cells[5] == table_pd(s.number(i, "pd")));
     CHECK(cells[7] == fmt("%.3f", s.number(i, "leverage")));
@@ -184,7 +186,7 @@ TEST_CASE("report tables show the score command's CSV values with the table's ro
   CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[5] == "18.8634%");
   CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[6] == "172.92");
   CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[8] == "5,440.64");
-  CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[9] == "ZAR");  // the book's currency of GOR-33
+  CHECK(table_row(f.html, "fc-names-weak", "GOR-33")[11] == "ZAR");  // the book's currency of GOR-33, last
   CHECK(table_row(f.html, "fc-names-strong", "DUN-04")[5] == "8.81e-14%");
 }
 
@@ -193,7 +195,9 @@ TEST_CASE("report stress, portfolio and movers figures equal those commands' CSV
   TempDir t;
   // Stress: the per-scenario summary CSV (docs/stress.md).
   const auto st = run_firmcall(
-      "-q stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --format csv -o '" +
+      "-q stress samples/demo_book.yaml --scenarios samples/stress_scenarios.yaml --reporting-currency EUR "
+      "--fx "
+      "samples/demo_fx.csv --format csv -o '" +
       t.file("rows.csv") + "' --summary-output '" + t.file("summary.csv") + "'");
   REQUIRE(st.exit_code == 0);
   const CsvTable sum = parse_csv_table(read_file(t.file("summary.csv")));
@@ -228,8 +232,9 @@ TEST_CASE("report stress, portfolio and movers figures equal those commands' CSV
   CHECK(matched == 20);
 
   // Portfolio: VaR and ES of the exact one-factor distribution (portfolio --summary-output).
-  const auto pf = run_firmcall("-q portfolio samples/demo_book.yaml -o '" + t.file("p.txt") +
-                               "' --summary-output '" + t.file("p.csv") + "'");
+  const auto pf = run_firmcall(
+      "-q portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv -o '" +
+      t.file("p.txt") + "' --summary-output '" + t.file("p.csv") + "'");
   REQUIRE(pf.exit_code == 0);
   const CsvTable ps = parse_csv_table(read_file(t.file("p.csv")));
   std::size_t levels = 0;
@@ -260,6 +265,49 @@ TEST_CASE("report stress, portfolio and movers figures equal those commands' CSV
   CHECK(zep[7] == "FC8 to FC10");
   CHECK(zep[8] == "dd_drop pd_jump downgrade pd_ceiling");
   CHECK(zep[6] == "16.9426%");  // docs/monitoring.md, watchlist example
+}
+
+TEST_CASE("report amounts name their currency: totals in the reporting currency, names in their own") {
+  const FullRun& f = full_run();
+  TempDir t;
+  // The portfolio run's total EAD and expected loss in EUR (portfolio --summary-output) are the
+  // book summary's cards; the section names the FX file, its date and the rates.
+  const auto pf = run_firmcall(
+      "-q portfolio samples/demo_book.yaml --reporting-currency EUR --fx samples/demo_fx.csv -o '" +
+      t.file("p.txt") + "' --summary-output '" + t.file("p.csv") + "'");
+  REQUIRE(pf.exit_code == 0);
+  const CsvTable ps = parse_csv_table(read_file(t.file("p.csv")));
+  double ead = std::nan(""), el = std::nan("");
+  for (std::size_t i = 0; i < ps.rows.size(); ++i) {
+    if (ps.cell(i, "scenario") != "base" || ps.cell(i, "group_by") != "total" ||
+        ps.cell(i, "method") != "book")
+      continue;
+    if (ps.cell(i, "measure") == "ead") ead = ps.number(i, "value");
+    if (ps.cell(i, "measure") == "expected_loss") el = ps.number(i, "value");
+  }
+  const std::string note = " at the rates of samples/demo_fx.csv as of 2026-11-30";
+  CHECK(f.html.find("<div class=\"fc-card-value\">" + firmcall::report_amount(ead) +
+                    "</div><div class=\"fc-card-note\">exposure at default, in EUR" + note) !=
+        std::string::npos);
+  CHECK(f.html.find("<div class=\"fc-card-value\">" + firmcall::report_amount(el) + "</div>") !=
+        std::string::npos);
+  CHECK(f.html.find("every amount (EAD, losses, capital, contributions) in EUR, each EAD converted" + note +
+                    " (EUR per unit: AUD 0.61,") != std::string::npos);
+  CHECK(f.html.find("portfolio loss (EUR)") != std::string::npos);
+  CHECK(f.html.find("EAD weights and expected losses in EUR.") != std::string::npos);  // the stress section
+  // Without a portfolio run a book in 15 currencies has no total EAD.
+  const auto r = run_firmcall("-q report samples/demo_book.yaml --html '" + t.file("r.html") + "'");
+  REQUIRE(r.exit_code == 0);
+  const std::string html = read_file(t.file("r.html"));
+  CHECK(html.find(
+            "<div class=\"fc-card-value\">-</div><div class=\"fc-card-note\">exposure at default, not added "
+            "up: the book is in 15 currencies") != std::string::npos);
+  // A portfolio section of that book needs the FX rates.
+  const auto no_fx =
+      run_firmcall("-q report samples/demo_book.yaml --portfolio --html '" + t.file("n.html") + "'");
+  CHECK(no_fx.exit_code == 2);
+  CHECK(no_fx.err.find("the obligors' amounts are in 15 currencies") != std::string::npos);
+  CHECK_FALSE(std::filesystem::exists(t.file("n.html")));
 }
 
 TEST_CASE("report term structures equal score --horizons for the chosen names") {
@@ -389,6 +437,7 @@ TEST_CASE("report --pd-calibration: the portfolio section and expected loss foll
   TempDir t;
   const auto r = run_firmcall(
       "-q report samples/demo_book.yaml --pd-calibration samples/calibration.yaml --portfolio --top 1000 "
+      "--reporting-currency EUR --fx samples/demo_fx.csv "
       "--html '" +
       t.file("r.html") + "'");
   REQUIRE(r.exit_code == 0);
@@ -402,6 +451,7 @@ TEST_CASE("report --pd-calibration: the portfolio section and expected loss foll
   // distribution, and each obligor's expected loss PD x LGD x EAD on the calibrated PD.
   const auto pf = run_firmcall(
       "-q portfolio samples/demo_book.yaml --pd-calibration samples/calibration.yaml -f csv "
+      "--reporting-currency EUR --fx samples/demo_fx.csv "
       "-o '" +
       t.file("p.csv") + "' --summary-output '" + t.file("s.csv") + "'");
   REQUIRE(pf.exit_code == 0);
@@ -434,12 +484,14 @@ TEST_CASE("report --pd-calibration: the portfolio section and expected loss foll
             ? "fc-names-weak"
             : "fc-names-strong";
     const auto cells = table_row(html, marker, id);
-    REQUIRE(cells.size() == 16);
+    REQUIRE(cells.size() == 16);  // the last: the obligor's currency
     CAPTURE(id);
     // EL = PD_T LGD EAD with PD_T = 1 - (1 - PD1)^T (constant annual default intensity, from memory).
     const double pd_t = -std::expm1(po.number(i, "horizon") * std::log1p(-po.number(i, "pd_calibrated")));
     CHECK(std::fabs(pd_t - po.number(i, "pd_driving")) <= 1e-15);
-    CHECK(cells[15] == table_amount(po.number(i, "expected_loss")));
+    // The name table is in the obligor's currency, the portfolio in EUR: EL / fx_rate.
+    CHECK(cells[14] == table_amount(po.number(i, "expected_loss") / po.number(i, "fx_rate")));
+    CHECK(cells[15] == po.cell(i, "currency"));
     CHECK(cells[7] == table_pd(po.number(i, "pd_calibrated")));
     CHECK(cells[6] == table_pd(po.number(i, "pd")));
     ++obligors;
@@ -448,12 +500,14 @@ TEST_CASE("report --pd-calibration: the portfolio section and expected loss foll
   // --driving-pd model: the grades and the portfolio are those of a run without a calibration.
   const auto m = run_firmcall(
       "-q report samples/demo_book.yaml --pd-calibration samples/calibration.yaml --driving-pd model "
-      "--portfolio "
+      "--portfolio --reporting-currency EUR --fx samples/demo_fx.csv "
       "--html '" +
       t.file("m.html") + "'");
   REQUIRE(m.exit_code == 0);
-  const auto plain =
-      run_firmcall("-q report samples/demo_book.yaml --portfolio --html '" + t.file("n.html") + "'");
+  const auto plain = run_firmcall(
+      "-q report samples/demo_book.yaml --portfolio --reporting-currency EUR --fx samples/demo_fx.csv --html "
+      "'" +
+      t.file("n.html") + "'");
   REQUIRE(plain.exit_code == 0);
   const std::string model = read_file(t.file("m.html")), none = read_file(t.file("n.html"));
   CHECK(model.find("<strong>Driving PD: model PD (Merton)</strong>") != std::string::npos);
