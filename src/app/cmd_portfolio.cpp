@@ -129,16 +129,11 @@ void declare_portfolio_options(CLI::App* cmd, PortfolioCli& o) {
          "calibrated with --pd-calibration, else model); a calibrated PD over T years is "
          "1 - (1 - PD1)^T")
       ->check(CLI::IsMember({"model", "calibrated"}));
-  auto* reporting = cmd->add_option(
-      "--reporting-currency", o.reporting_currency,
-      "Currency of EAD, losses, capital and contributions (three upper-case letters, e.g. EUR); needs --fx");
-  auto* fx =
-      cmd->add_option("--fx", o.fx,
-                      "FX rates to the reporting currency: CSV currency,rate (units of the reporting "
-                      "currency per unit), first line '# as_of: YYYY-MM-DD'; needs --reporting-currency")
-          ->check(CLI::ExistingFile);
-  reporting->needs(fx);
-  fx->needs(reporting);
+  add_currency_options(
+      cmd, o.reporting_currency, o.fx,
+      "Currency of EAD, losses, capital and contributions (three upper-case letters, e.g. EUR); needs --fx",
+      "FX rates to the reporting currency: CSV currency,rate (units of the reporting currency per unit), "
+      "first line '# as_of: YYYY-MM-DD'; needs --reporting-currency");
   cmd->footer(
       std::string("\nExit codes: 0 every obligor in the portfolio; 1 some obligors left out (listed, the "
                   "others run); 2 unreadable or malformed file or bad command line.\n\n") +
@@ -205,11 +200,6 @@ PortfolioBookOptions portfolio_options(const PortfolioCli& o, Config& config) {
   }
   run.driving_pd =
       o.driving_pd == "model" || o.pd_calibration.empty() ? DrivingPd::model : DrivingPd::calibrated;
-  if (!o.reporting_currency.empty() && !is_currency_code(o.reporting_currency)) {
-    throw InputError(
-        "--reporting-currency: expected three upper-case letters (ISO 4217 style, e.g. EUR), got '" +
-        o.reporting_currency + "'");
-  }
   run.reporting_currency = o.reporting_currency;
   return run;
 }

@@ -129,17 +129,11 @@ void add_report_command(CLI::App& app, const GlobalOptions& global, CommandActio
                 "Adds the portfolio loss distribution with EL, VaR and ES (every obligor needs ead)");
   cmd->add_option("-c,--correlation", opts->report.correlation_path,
                   "Sector correlation file for the portfolio section (as for `firmcall portfolio`)");
-  auto* reporting = cmd->add_option("--reporting-currency", opts->report.reporting_currency,
-                                    "Currency of the stress summaries' and the portfolio section's amounts "
-                                    "(three upper-case letters); needs "
-                                    "--fx (as for `firmcall portfolio`)");
-  auto* fx =
-      cmd->add_option("--fx", opts->report.fx_path,
-                      "FX rates to the reporting currency for the stress and portfolio sections (as for "
-                      "`firmcall portfolio`)")
-          ->check(CLI::ExistingFile);
-  reporting->needs(fx);
-  fx->needs(reporting);
+  add_currency_options(cmd, opts->report.reporting_currency, opts->report.fx_path,
+                       "Currency of the stress summaries' and the portfolio section's amounts (three "
+                       "upper-case letters); needs --fx (as for `firmcall portfolio`)",
+                       "FX rates to the reporting currency for the stress and portfolio sections (as for "
+                       "`firmcall portfolio`)");
   cmd->add_option("--db", opts->report.store_path, "History store: adds the movers and alerts section");
   cmd->add_option("--run", opts->report.store_run,
                   "Run of the store to show: run id or as-of date (default: latest)");

@@ -86,16 +86,11 @@ void declare_stress_options(CLI::App* cmd, StressCli& o) {
                   "equity-vol (shocked equity value and volatility re-solved); default: config stress.hold "
                   "(asset-vol)")
       ->check(CLI::IsMember({"asset-vol", "equity-vol"}));
-  auto* reporting = cmd->add_option(
-      "--reporting-currency", o.reporting_currency,
-      "Currency of the summaries' EAD totals and expected losses (three upper-case letters); needs --fx");
-  auto* fx =
-      cmd->add_option("--fx", o.fx,
-                      "FX rates to the reporting currency for the summaries (as for `firmcall portfolio`); "
-                      "the rows stay in each obligor's currency")
-          ->check(CLI::ExistingFile);
-  reporting->needs(fx);
-  fx->needs(reporting);
+  add_currency_options(
+      cmd, o.reporting_currency, o.fx,
+      "Currency of the summaries' EAD totals and expected losses (three upper-case letters); needs --fx",
+      "FX rates to the reporting currency for the summaries (as for `firmcall portfolio`); the rows stay in "
+      "each obligor's currency");
   cmd->footer(
       std::string("\nGive --scenarios FILE, or a quick grid (--equity-shocks and/or "
                   "--equity-vol-multipliers), or --reverse-pd LEVEL.\n"
@@ -311,11 +306,6 @@ StressInputs stress_inputs(const StressCli& o, const GlobalOptions& global) {
       throw InputError(
           "--fx: applies to the summaries of scenario and grid runs, not to term structures or "
           "--reverse-pd");
-    }
-    if (!is_currency_code(o.reporting_currency)) {
-      throw InputError(
-          "--reporting-currency: expected three upper-case letters (ISO 4217 style, e.g. EUR), got '" +
-          o.reporting_currency + "'");
     }
     in.fx = load_fx_rates(o.fx);
     in.run.reporting_currency = o.reporting_currency;

@@ -13,6 +13,7 @@
 #include <thread>
 
 #include "firmcall/book/errors.hpp"
+#include "firmcall/book/settings.hpp"
 #include "firmcall/format/table_text.hpp"
 #include "firmcall/io/output_file.hpp"
 #include "firmcall/monitor/run_store.hpp"
@@ -44,6 +45,22 @@ CLI::Validator finite_number(double lo, double hi, RangeEnd lo_end, RangeEnd hi_
         return above_lo && below_hi ? std::string() : expected;
       },
       "NUMBER in " + range);
+}
+
+void add_currency_options(CLI::App* cmd, std::string& reporting_currency, std::string& fx,
+                          const std::string& reporting_help, const std::string& fx_help) {
+  const CLI::Validator code(
+      [](std::string& s) -> std::string {
+        return is_currency_code(s)
+                   ? std::string()
+                   : "expected three upper-case letters (ISO 4217 style, e.g. EUR), got '" + s + "'";
+      },
+      "CCY");
+  CLI::Option* reporting =
+      cmd->add_option("--reporting-currency", reporting_currency, reporting_help)->check(code);
+  CLI::Option* rates = cmd->add_option("--fx", fx, fx_help)->check(CLI::ExistingFile);
+  reporting->needs(rates);
+  rates->needs(reporting);
 }
 
 CLI::Validator whole_number(std::uint64_t lo, std::uint64_t hi) {

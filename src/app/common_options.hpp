@@ -34,6 +34,11 @@ CLI::Validator finite_number(double lo, double hi, RangeEnd lo_end = RangeEnd::c
 /// range (no wrap-around or clamping of values past the type).
 CLI::Validator whole_number(std::uint64_t lo, std::uint64_t hi);
 
+/// --reporting-currency CCY (checked: three upper-case letters) and --fx FILE (an existing file),
+/// each needing the other; the help texts say which amounts they convert.
+void add_currency_options(CLI::App* cmd, std::string& reporting_currency, std::string& fx,
+                          const std::string& reporting_help, const std::string& fx_help);
+
 /// `opt` as a comma-separated list option: one argument per flag ("--levels 0.99,0.999"), so a
 /// positional argument after it is never taken into the list; the flag may be repeated.
 CLI::Option* list_option(CLI::Option* opt);

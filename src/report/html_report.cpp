@@ -1872,6 +1872,16 @@ void gather_validation(ReportData& d, const ReportOptions& options, const Config
   if (!curve.empty() && (curve.size() - 1) % step != 0) d.roc.push_back(curve.back());
 }
 
+// The position in the book of obligor `id`, named by the option `field`; an id not in the book is
+// refused.
+std::size_t position_of(const ReportData& d, const std::string& id, const char* field) {
+  const auto it = std::find_if(d.book.obligors.begin(), d.book.obligors.end(),
+                               [&id](const ObligorRecord& r) { return id_of(r) == id; });
+  if (it == d.book.obligors.end())
+    throw OptionError(field, "obligor '" + id + "' is not in " + d.book.origin);
+  return static_cast<std::size_t>(it - d.book.obligors.begin());
+}
+
 // The term section's curves of the chosen names, and the horizons of the tear sheets' curves.
 void gather_terms(ReportData& d, const ReportOptions& options, const Config& config) {
   if (options.term_ids.empty() && options.sheet_ids.empty()) return;
@@ -1879,12 +1889,8 @@ void gather_terms(ReportData& d, const ReportOptions& options, const Config& con
   choices.horizons = options.horizons;
   d.term_run = term_book_options(config.term, choices);
   for (const std::string& id : options.term_ids) {
-    const auto it = std::find_if(d.book.obligors.begin(), d.book.obligors.end(),
-                                 [&id](const ObligorRecord& r) { return id_of(r) == id; });
-    if (it == d.book.obligors.end()) {
-      throw OptionError("term_ids", "obligor '" + id + "' is not in " + d.book.origin);
-    }
-    const auto pos = static_cast<std::size_t>(it - d.book.obligors.begin());
+    const std::size_t pos = position_of(d, id, "term_ids");
+    const auto it = d.book.obligors.begin() + static_cast<std::ptrdiff_t>(pos);
     if (std::find(d.term_index.begin(), d.term_index.end(), pos) != d.term_index.end()) {
       throw OptionError("term_ids", "obligor '" + id + "' is named twice");
     }
@@ -1904,12 +1910,8 @@ void gather_sheets(ReportData& d, const ReportOptions& options, const Config& co
                                        config.monitor.busy_timeout_seconds);
   }
   for (const std::string& id : options.sheet_ids) {
-    const auto it = std::find_if(d.book.obligors.begin(), d.book.obligors.end(),
-                                 [&id](const ObligorRecord& r) { return id_of(r) == id; });
-    if (it == d.book.obligors.end()) {
-      throw OptionError("sheet_ids", "obligor '" + id + "' is not in " + d.book.origin);
-    }
-    const auto pos = static_cast<std::size_t>(it - d.book.obligors.begin());
+    const std::size_t pos = position_of(d, id, "sheet_ids");
+    const auto it = d.book.obligors.begin() + static_cast<std::ptrdiff_t>(pos);
     if (std::any_of(d.sheets.begin(), d.sheets.end(),
                     [pos](const ReportSheet& s) { return s.index == pos; })) {
       throw OptionError("sheet_ids", "obligor '" + id + "' is named twice");
