@@ -136,7 +136,9 @@ void declare_portfolio_options(CLI::App* cmd, PortfolioCli& o) {
       "first line '# as_of: YYYY-MM-DD'; needs --reporting-currency");
   cmd->footer(
       std::string("\nExit codes: 0 every obligor in the portfolio; 1 some obligors left out (listed, the "
-                  "others run); 2 unreadable or malformed file or bad command line.\n\n") +
+                  "others run); 2 unreadable or malformed file or bad command line.\n"
+                  "A build with FIRMCALL_MPI shares --monte-carlo between the processes of mpirun; the "
+                  "result equals one process's (docs/cluster.md).\n\n") +
       kCaution);
 }
 
